@@ -1,0 +1,48 @@
+#pragma once
+/// \file
+/// The frozen, compact form of a validated reach network that routing uses.
+/// Plain arrays, reaches in topological order (every upstream reach comes
+/// before the reaches it feeds). Built by ReachGraph::freeze().
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "reachwise/hydraulics/Section.hpp"
+
+namespace reachwise::network {
+
+struct Point2 {
+  double x = 0, y = 0;  ///< in the layer's CRS units
+};
+
+struct NetworkPlan {
+  // ---- one entry per reach, index = position in topological order ----
+  std::vector<std::string> reach_id;           ///< external id (text form)
+  std::vector<std::int64_t> fid;               ///< source feature id, -1 when synthetic
+  std::vector<double> length_m;
+  std::vector<hydraulics::SectionSpec> section;
+  std::vector<double> muskingum_k_h;           ///< NaN when absent
+  std::vector<double> muskingum_x;             ///< NaN when absent
+  std::vector<std::uint32_t> basin;            ///< connected component (0..n_basins-1)
+  std::vector<std::uint16_t> strahler;         ///< Strahler order
+  std::vector<Point2> top, bottom;             ///< upstream / downstream end points
+
+  // ---- upstream lists, CSR: reaches feeding reach i are
+  //      up_reach[up_offset[i] .. up_offset[i+1]), each index < i;
+  //      up_fraction[k] is the share of that reach's outflow entering i
+  //      (1 except below a bifurcation) ----
+  std::vector<std::uint32_t> up_offset;        ///< size n + 1
+  std::vector<std::uint32_t> up_reach;
+  std::vector<double> up_fraction;
+
+  // ---- downstream lists, CSR, same layout ----
+  std::vector<std::uint32_t> down_offset;      ///< size n + 1
+  std::vector<std::uint32_t> down_reach;
+
+  std::size_t size() const noexcept { return reach_id.size(); }
+  bool isOutlet(std::size_t i) const { return down_offset[i] == down_offset[i + 1]; }
+  bool isHeadwater(std::size_t i) const { return up_offset[i] == up_offset[i + 1]; }
+};
+
+}  // namespace reachwise::network

@@ -1,0 +1,25 @@
+// The reachwise command: parses arguments, calls the library, reports.
+#include <CLI/CLI.hpp>
+#include <fmt/core.h>
+
+#include <exception>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/version.hpp"
+
+int main(int argc, char** argv) {
+  CLI::App app{"reachwise: route flood hydrographs through a river network read from GIS data"};
+  app.set_version_flag("--version", std::string("reachwise ") + reachwise::kVersion + " (" +
+                                        reachwise::kGitHash + ")");
+  app.require_subcommand(0, 1);
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    return app.exit(e) == 0 ? 0 : 2;
+  }
+  if (app.get_subcommands().empty()) {
+    fmt::print("{}", app.help());
+    return 0;
+  }
+  return 0;
+}
