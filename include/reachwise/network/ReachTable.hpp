@@ -1,0 +1,48 @@
+#pragma once
+/// \file
+/// One row per line feature of the user's layer, as read by the io layer.
+/// Plain data: the core never sees GDAL types. Units are SI (the reader
+/// converts US customary input).
+
+#include <cstdint>
+#include <limits>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "reachwise/hydraulics/Section.hpp"
+
+namespace reachwise::network {
+
+struct Point3 {
+  double x = 0, y = 0;
+  double z = std::numeric_limits<double>::quiet_NaN();  ///< NaN when the layer has no Z
+};
+
+struct ReachRecord {
+  static constexpr double kUnset = std::numeric_limits<double>::quiet_NaN();
+
+  std::string id;                        ///< external reach id, text form
+  std::int64_t fid = -1;                 ///< source feature id (for messages)
+  std::optional<std::string> to_reach;   ///< downstream id; nullopt/empty = outlet (or unknown)
+  std::vector<Point3> line;              ///< vertices in CRS units, digitising order
+  double length_m = kUnset;              ///< from the `length` field or the geometry
+  double geometry_length_m = kUnset;     ///< always from the geometry (planar or geodesic)
+  hydraulics::SectionSpec section;       ///< shape, widths, n, slope (NaN = missing)
+  double muskingum_k_h = kUnset;
+  double muskingum_x = kUnset;
+  double split = kUnset;                 ///< share at a bifurcation, NaN = not given
+  double up_elevation_m = kUnset;        ///< optional elevation fields
+  double down_elevation_m = kUnset;
+};
+
+struct ReachTable {
+  std::string source;                    ///< path or connection string
+  std::string layer;
+  std::string crs_wkt;                   ///< empty when the layer has no CRS
+  bool geographic = false;               ///< CRS is geographic (lengths are geodesic)
+  bool has_to_reach = false;             ///< the downstream-id field exists
+  std::vector<ReachRecord> reaches;
+};
+
+}  // namespace reachwise::network
