@@ -20,6 +20,7 @@ struct NetworkPlan {
   // ---- one entry per reach, index = position in topological order ----
   std::vector<std::string> reach_id;           ///< external id (text form)
   std::vector<std::int64_t> fid;               ///< source feature id, -1 when synthetic
+  std::vector<std::uint32_t> record;           ///< row in the ReachTable it was built from
   std::vector<double> length_m;
   std::vector<hydraulics::SectionSpec> section;
   std::vector<double> muskingum_k_h;           ///< NaN when absent

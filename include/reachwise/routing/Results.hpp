@@ -1,0 +1,99 @@
+#pragma once
+/// \file
+/// What a network run produces: per-reach summaries (peaks, timing,
+/// volumes, the numerics chosen), per-node confluence analysis, and
+/// hydrograph series streamed to a sink as each reach is finished.
+
+#include <cstdint>
+#include <limits>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::routing {
+
+inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+/// Numerics chosen for one reach (and what happened while routing it).
+struct ReachNumerics {
+  std::uint32_t subreaches = 1;     ///< sub-reach count (Δx = L / subreaches)
+  std::uint32_t substeps = 1;       ///< internal sub-steps per output step
+  double dx_m = kNaN;
+  double dt_sub_s = kNaN;
+  double reference_q_m3s = kNaN;    ///< flow the grid (and, for `mc`, the parameters) were set at
+  double celerity_ms = kNaN;        ///< at the reference flow
+  double courant = kNaN;            ///< C = c Δt_sub / Δx at the reference flow
+  double cell_reynolds = kNaN;      ///< D = Q / (T S0 c Δx) at the reference flow
+  double x = kNaN;                  ///< Muskingum X at the reference flow
+  double k_s = kNaN;                ///< Muskingum K of one sub-reach, s
+  double amplitude_ratio = kNaN;    ///< Ponce's convergence ratio R1
+  double phase_ratio = kNaN;        ///< Ponce's convergence ratio R2
+  std::uint64_t negative_clamps = 0;   ///< cells where a negative flow was clamped to 0
+  std::uint64_t x_clamps = 0;          ///< cells where X < 0 was raised to 0 (D > 1)
+  std::uint64_t surcharge_cells = 0;   ///< cells above a pipe's capacity
+  bool grid_compromise = false;     ///< no (subreaches, substeps) met every bound; the closest was used
+};
+
+/// Volume accounting of one reach over the run (m^3).
+struct VolumeBalance {
+  double inflow_m3 = 0;            ///< through the top of the reach
+  double lateral_m3 = 0;           ///< along the reach
+  double outflow_m3 = 0;           ///< through the bottom
+  double storage_change_m3 = 0;    ///< storage at the end minus at the start
+  /// 100 (in + lateral − out − Δstorage) / (in + lateral); 0 when nothing entered.
+  double error_pct = 0;
+};
+
+struct ReachSummary {
+  double peak_q_m3s = kNaN;
+  double peak_time_s = kNaN;        ///< seconds since the epoch, interpolated between samples
+  double peak_depth_m = kNaN;
+  double peak_velocity_ms = kNaN;
+  double inflow_peak_m3s = kNaN;    ///< of top inflow + lateral inflow
+  double inflow_peak_time_s = kNaN;
+  double attenuation_pct = kNaN;    ///< 100 (inflow peak − outflow peak) / inflow peak
+  double travel_time_s = kNaN;      ///< outflow peak time − inflow peak time
+  VolumeBalance volume;
+  ReachNumerics numerics;
+};
+
+enum class NodeKind { Headwater, Confluence, Outlet, Junction /* one in, one out */, Bifurcation };
+
+struct ConfluenceBranch {
+  std::uint32_t reach = 0;          ///< plan index of the incoming reach
+  double peak_q_m3s = kNaN;         ///< its outflow peak (its share, below a bifurcation)
+  double peak_time_s = kNaN;
+};
+
+struct NodeSummary {
+  std::string node_id;
+  NodeKind kind = NodeKind::Junction;
+  double x = kNaN, y = kNaN;        ///< CRS units
+  double peak_q_m3s = kNaN;         ///< combined flow at the node
+  double peak_time_s = kNaN;
+  std::vector<ConfluenceBranch> branches;   ///< confluences only
+  double branch_spread_s = kNaN;            ///< latest − earliest branch peak time
+  double coincidence_ratio = kNaN;          ///< combined peak / sum of branch peaks
+};
+
+/// Receives each reach's outflow series as soon as it is final. Called
+/// from one thread at a time, in an order that may vary between runs;
+/// implementations must not depend on it.
+class SeriesSink {
+public:
+  virtual ~SeriesSink() = default;
+  virtual void write(std::uint32_t reach, std::span<const double> q_m3s,
+                     std::span<const double> depth_m, std::span<const double> velocity_ms) = 0;
+};
+
+struct NetworkResults {
+  TimeAxis axis;
+  std::vector<ReachSummary> reaches;   ///< by plan index
+  std::vector<NodeSummary> nodes;
+  std::vector<std::string> warnings;   ///< summarised, one line each
+  std::size_t peak_live_series = 0;    ///< most series held in memory at once
+};
+
+}  // namespace reachwise::routing
