@@ -107,6 +107,9 @@ public:
   /// relative tolerance 1e-10, at most 200 iterations). Throws
   /// InvalidParameter("discharge") for Q < 0, NaN, or Q beyond a pipe's capacity.
   double normalDepth(double discharge_m3s) const;
+  /// The same, starting Newton from `guess_m` (a nearby solution), which
+  /// typically converges in a few iterations.
+  double normalDepth(double discharge_m3s, double guess_m) const;
   /// Uniform-flow state for Q. A pipe asked for more than its capacity is not
   /// iterated past the cap: depth is held at the cap and `surcharged` is set.
   FlowState normalFlow(double discharge_m3s) const;

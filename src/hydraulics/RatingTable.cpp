@@ -1,0 +1,132 @@
+#include "reachwise/hydraulics/RatingTable.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::hydraulics {
+
+namespace {
+
+/// A pipe's table stops just below capacity: there dQ/dy -> 0 and the
+/// celerity falls steeply to zero, which no interpolant in ln Q follows.
+constexpr double kPipeTableTop = 0.995;
+
+/// Shape-preserving derivatives for data on a uniform grid of spacing h:
+/// interior points use the weighted harmonic mean of the neighbouring
+/// secants, zero at local extrema (Fritsch & Butland 1984, *SIAM J. Sci.
+/// Stat. Comput.* 5(2), 300–304); end points use the non-centred three-point
+/// formula limited as in Fritsch & Carlson (1980).
+void monotoneSlopes(const std::vector<double>& f, double h, std::vector<double>& d) {
+  const std::size_t n = f.size();
+  d.assign(n, 0.0);
+  if (n < 2) return;
+  std::vector<double> delta(n - 1);
+  for (std::size_t k = 0; k + 1 < n; ++k) delta[k] = (f[k + 1] - f[k]) / h;
+  if (n == 2) {
+    d[0] = d[1] = delta[0];
+    return;
+  }
+  for (std::size_t k = 1; k + 1 < n; ++k) {
+    const double a = delta[k - 1], b = delta[k];
+    d[k] = (a * b <= 0) ? 0.0 : 2.0 / (1.0 / a + 1.0 / b);
+  }
+  auto endSlope = [](double d0, double d1) {
+    double s = 0.5 * (3.0 * d0 - d1);
+    if (s * d0 <= 0) return 0.0;
+    if (d0 * d1 <= 0 && std::abs(s) > 3.0 * std::abs(d0)) return 3.0 * d0;
+    return s;
+  };
+  d[0] = endSlope(delta[0], delta[1]);
+  d[n - 1] = endSlope(delta[n - 2], delta[n - 3]);
+}
+
+}  // namespace
+
+RatingTable::RatingTable(const Section& section, double q_min, double q_max, std::size_t nodes)
+    : section_(section) {
+  if (!(q_min > 0) || !std::isfinite(q_min))
+    throw InvalidParameter("rating_table.q_min", "must be a finite discharge > 0");
+  const bool pipe = section.shape() == Shape::Circle;
+  if (pipe) q_max = std::min(q_max, kPipeTableTop * section.capacity());
+  if (!(q_max > q_min) || !std::isfinite(q_max))
+    throw InvalidParameter("rating_table.q_max",
+                           "must be finite and above q_min (and below a pipe's capacity)");
+  if (nodes < 3) throw InvalidParameter("rating_table.nodes", "must be >= 3");
+  q_lo_ = q_min;
+  q_hi_ = q_max;
+  nodes_.reserve(2 * nodes);
+
+  // Second segment: above bank-full for a two-stage section, above half
+  // capacity for a pipe (see the header for why).
+  double q_break = 0, shift = 0, sign = 1;
+  if (section.shape() == Shape::TwoStage) {
+    q_break = section.discharge(section.bankDepth());
+    shift = q_break * (1.0 - 1e-7);
+  } else if (pipe) {
+    q_break = 0.5 * section.capacity();
+    shift = section.capacity();
+    sign = -1;
+  }
+  const int above = section.shape() == Shape::TwoStage ? 1 : 0;
+  if (q_break > q_min && q_break < q_max) {
+    addSegment(section, q_min, q_break, nodes, 0.0, 1.0, -above, 0);
+    addSegment(section, q_break, q_max, nodes, shift, sign, above, 1);
+    q_break_ = q_break;
+  } else if (q_break > 0 && q_min >= q_break) {
+    addSegment(section, q_min, q_max, nodes, shift, sign, above, 0);
+  } else {
+    addSegment(section, q_min, q_max, nodes, 0.0, 1.0, -above, 0);
+  }
+}
+
+void RatingTable::addSegment(const Section& section, double q0, double q1, std::size_t count,
+                             double shift, double sign, int bank_side, int segment) {
+  Segment& s = seg_[segment];
+  segments_ = segment + 1;
+  s.shift = shift;
+  s.sign = sign;
+  s.u0 = sign * std::log(sign * (q0 - shift));
+  s.h = (sign * std::log(sign * (q1 - shift)) - s.u0) / static_cast<double>(count - 1);
+  s.inv_h = 1.0 / s.h;
+  s.first = nodes_.size();
+  s.count = count;
+
+  std::vector<double> c(count), w(count), y(count), v(count);
+  double guess = -1.0;
+  for (std::size_t i = 0; i < count; ++i) {
+    const double u = s.u0 + static_cast<double>(i) * s.h;
+    const double q = (i + 1 == count) ? q1 : shift + sign * std::exp(sign * u);
+    double depth = section.normalDepth(q, guess);
+    guess = depth;
+    // At exactly bank-full each segment takes the values on its own side of the bank.
+    if (bank_side > 0) depth = std::max(depth, section.bankDepth() * (1.0 + 1e-12));
+    if (bank_side < 0) depth = std::min(depth, section.bankDepth());
+    c[i] = section.celerity(depth);
+    w[i] = section.topWidth(depth);
+    y[i] = depth;
+    v[i] = section.velocity(depth);
+  }
+  std::vector<double> dc, dw, dy, dv;
+  monotoneSlopes(c, s.h, dc);
+  monotoneSlopes(w, s.h, dw);
+  monotoneSlopes(y, s.h, dy);
+  monotoneSlopes(v, s.h, dv);
+  for (std::size_t i = 0; i < count; ++i)
+    nodes_.push_back(Node{c[i], dc[i], w[i], dw[i], y[i], dy[i], v[i], dv[i]});
+}
+
+void RatingTable::depthAndVelocity(double q, double& depth_m, double& velocity_ms) const {
+  if (!(q >= q_lo_ && q <= q_hi_)) {  // outside the table (or NaN): solve directly
+    const FlowState s = section_.normalFlow(std::isfinite(q) ? std::max(q, 0.0) : 0.0);
+    depth_m = s.depth_m;
+    velocity_ms = s.velocity_ms;
+    return;
+  }
+  const Cell cell = locate(q);
+  depth_m = hermite(cell.t, cell.h, cell.lo->y, cell.lo->dy, cell.lo[1].y, cell.lo[1].dy);
+  velocity_ms = hermite(cell.t, cell.h, cell.lo->v, cell.lo->dv, cell.lo[1].v, cell.lo[1].dv);
+}
+
+}  // namespace reachwise::hydraulics
