@@ -47,6 +47,16 @@ void checkIds(const ReachGraph& graph, ProblemList& out) {
                                  graph.id(u.reach), u.to_reach)));
 }
 
+void checkLengths(const ReachGraph& graph, ProblemList& out) {
+  for (Vertex v = 0; v < graph.size(); ++v) {
+    const double length_m = graph.lengthM(v);
+    if (length_m > 0 && std::isfinite(length_m)) continue;
+    out.push_back(at(graph, v, graph.top(v), "zero_length", Severity::Error,
+                     fmt::format("Reach {} has length {} m; a reach needs a positive length.",
+                                 graph.id(v), length_m)));
+  }
+}
+
 void checkCycles(const ReachGraph& graph, ProblemList& out) {
   for (const auto& cycle : graph.cycles()) {
     const auto first = cycle.front();
@@ -137,6 +147,7 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
 ProblemList validate(const ReachGraph& graph) {
   ProblemList out;
   checkIds(graph, out);
+  checkLengths(graph, out);
   checkCycles(graph, out);
   checkSplits(graph, out);
   reportBasins(graph, out);

@@ -1,0 +1,204 @@
+#include <gtest/gtest.h>
+
+#include <algorithm>
+
+#include "network/NetworkFixtures.hpp"
+#include "reachwise/network/NetworkSummary.hpp"
+#include "reachwise/network/ReachGraph.hpp"
+#include "reachwise/network/Validation.hpp"
+
+using namespace reachwise::network;
+using reachwise::network::testing::TableBuilder;
+
+namespace {
+
+std::vector<Problem> withCode(const ProblemList& problems, const std::string& code) {
+  std::vector<Problem> out;
+  std::copy_if(problems.begin(), problems.end(), std::back_inserter(out),
+               [&](const Problem& p) { return p.code == code; });
+  return out;
+}
+
+bool mentions(const Problem& p, const std::string& text) {
+  return p.message.find(text) != std::string::npos;
+}
+
+}  // namespace
+
+TEST(Validation, CleanTreeHasNoProblems) {
+  const auto table = TableBuilder().link("A", "C").link("B", "C").link("C", std::nullopt).build();
+  const ReachGraph g(table);
+  EXPECT_TRUE(validate(g).empty());
+}
+
+TEST(Validation, UnknownToReachNamesReachFeatureAndPlace) {
+  const auto table = TableBuilder()
+                         .reach("A", "GHOST", {0, 0}, {400, 300})
+                         .reach("B", std::nullopt, {400, 300}, {900, 300})
+                         .build();
+  const ReachGraph g(table);
+  const auto problems = validate(g);
+  const auto found = withCode(problems, "unknown_to_reach");
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].severity, Severity::Error);
+  EXPECT_EQ(found[0].reach_id, "A");
+  EXPECT_EQ(found[0].fid, 100);
+  EXPECT_DOUBLE_EQ(found[0].x, 400.0);  // the downstream end of A
+  EXPECT_DOUBLE_EQ(found[0].y, 300.0);
+  EXPECT_TRUE(mentions(found[0], "GHOST"));
+  EXPECT_TRUE(hasErrors(problems));
+}
+
+TEST(Validation, SelfLoopAndCycleAreSeparateCodes) {
+  const auto table = TableBuilder()
+                         .link("S", "S")
+                         .link("C1", "C2")
+                         .link("C2", "C3")
+                         .link("C3", "C1")
+                         .build();
+  const ReachGraph g(table);
+  const auto problems = validate(g);
+  const auto loops = withCode(problems, "self_loop");
+  ASSERT_EQ(loops.size(), 1u);
+  EXPECT_EQ(loops[0].reach_id, "S");
+  const auto cycles = withCode(problems, "cycle");
+  ASSERT_EQ(cycles.size(), 1u);
+  EXPECT_EQ(cycles[0].reach_id, "C1");
+  EXPECT_EQ(cycles[0].fid, 101);
+  EXPECT_TRUE(mentions(cycles[0], "C1, C2, C3"));
+}
+
+TEST(Validation, DuplicateIdIsAnError) {
+  const auto table = TableBuilder().link("A", std::nullopt).link("A", std::nullopt).build();
+  const auto problems = validate(ReachGraph(table));
+  const auto found = withCode(problems, "duplicate_id");
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].fid, 101);
+  EXPECT_TRUE(mentions(found[0], "feature 100"));
+}
+
+TEST(Validation, BifurcationWithGoodSplitsPasses) {
+  const auto table = TableBuilder()
+                         .link("A", "B, C")
+                         .link("B", std::nullopt, 0.25)
+                         .link("C", std::nullopt, 0.75)
+                         .build();
+  const auto problems = validate(ReachGraph(table));
+  EXPECT_TRUE(withCode(problems, "bifurcation_split_missing").empty());
+  EXPECT_TRUE(withCode(problems, "bifurcation_split_sum").empty());
+  EXPECT_FALSE(hasErrors(problems));
+}
+
+TEST(Validation, BifurcationWithoutSplitNamesTheBranch) {
+  const auto table = TableBuilder()
+                         .link("A", "B;C")
+                         .reach("B", std::nullopt, {1000, 0}, {2000, 500}, 0.4)
+                         .reach("C", std::nullopt, {1000, 0}, {2000, -500})
+                         .build();
+  const auto problems = validate(ReachGraph(table));
+  const auto found = withCode(problems, "bifurcation_split_missing");
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].reach_id, "C");
+  EXPECT_DOUBLE_EQ(found[0].x, 1000.0);  // where the branch leaves
+  EXPECT_TRUE(withCode(problems, "bifurcation_split_sum").empty());
+}
+
+TEST(Validation, SplitsMustSumToOneWithinTolerance) {
+  // 0.6 + 0.5 = 1.1 is refused; 0.3 + 0.7 - 5e-7 is within 1e-6 and passes.
+  const auto bad = TableBuilder()
+                       .link("A", "B;C")
+                       .link("B", std::nullopt, 0.6)
+                       .link("C", std::nullopt, 0.5)
+                       .build();
+  const auto found = withCode(validate(ReachGraph(bad)), "bifurcation_split_sum");
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].reach_id, "A");
+  EXPECT_TRUE(mentions(found[0], "1.1"));
+
+  const auto close = TableBuilder()
+                         .link("A", "B;C")
+                         .link("B", std::nullopt, 0.3)
+                         .link("C", std::nullopt, 0.7 - 5e-7)
+                         .build();
+  EXPECT_TRUE(withCode(validate(ReachGraph(close)), "bifurcation_split_sum").empty());
+}
+
+TEST(Validation, SplitOutsideZeroToOneIsRefused) {
+  const auto table = TableBuilder()
+                         .link("A", "B;C")
+                         .link("B", std::nullopt, -0.5)
+                         .link("C", std::nullopt, 1.5)
+                         .build();
+  const auto problems = validate(ReachGraph(table));
+  EXPECT_EQ(withCode(problems, "bifurcation_split_range").size(), 2u);
+}
+
+TEST(Validation, SplitOnAnOrdinaryReachIsAWarning) {
+  const auto table = TableBuilder().link("A", "B").link("B", std::nullopt, 0.5).build();
+  const auto problems = validate(ReachGraph(table));
+  const auto found = withCode(problems, "split_unused");
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].severity, Severity::Warning);
+  EXPECT_FALSE(hasErrors(problems));
+}
+
+TEST(Validation, ZeroLengthIsAnError) {
+  const auto table = TableBuilder()
+                         .reach("A", "B", {5, 5}, {5, 5})
+                         .reach("B", std::nullopt, {5, 5}, {100, 5})
+                         .build();
+  const auto found = withCode(validate(ReachGraph(table)), "zero_length");
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].reach_id, "A");
+}
+
+TEST(Validation, SeveralBasinsAreEachReportedWithTheirOutlet) {
+  const auto table = TableBuilder()
+                         .link("A", "B")
+                         .link("B", std::nullopt)
+                         .link("X", "Y")
+                         .link("Y", std::nullopt)
+                         .build();
+  const auto problems = validate(ReachGraph(table));
+  const auto basins = withCode(problems, "basin");
+  ASSERT_EQ(basins.size(), 2u);
+  EXPECT_EQ(basins[0].severity, Severity::Warning);
+  EXPECT_EQ(basins[0].reach_id, "B");
+  EXPECT_EQ(basins[1].reach_id, "Y");
+  EXPECT_TRUE(mentions(basins[1], "Basin 2 of 2"));
+  EXPECT_TRUE(mentions(basins[1], "outlet Y"));
+  EXPECT_FALSE(hasErrors(problems));
+}
+
+TEST(Validation, MergeDropsProblemsAlreadyReported) {
+  ProblemList from_reader{Problem{"duplicate_id", Severity::Error, 7, "R1", 0, 0, "reader"}};
+  const ProblemList from_graph{Problem{"duplicate_id", Severity::Error, 7, "R1", 0, 0, "graph"},
+                               Problem{"cycle", Severity::Error, 7, "R1", 0, 0, "graph"}};
+  mergeProblems(from_reader, from_graph);
+  ASSERT_EQ(from_reader.size(), 2u);
+  EXPECT_EQ(from_reader[0].message, "reader");
+  EXPECT_EQ(from_reader[1].code, "cycle");
+}
+
+TEST(NetworkSummary, CountsAKnownNetwork) {
+  // A, B -> C (confluence); C -> D;E (bifurcation); D, E outlets. Plus a lone reach Z.
+  const auto table = TableBuilder()
+                         .reach("A", "C", {0, 0}, {3000, 4000})  // 5 km
+                         .link("B", "C")
+                         .link("C", "D;E")
+                         .link("D", std::nullopt, 0.5)
+                         .link("E", std::nullopt, 0.5)
+                         .link("Z", std::nullopt)
+                         .build();
+  const auto s = summarize(ReachGraph(table));
+  EXPECT_EQ(s.reaches, 6u);
+  EXPECT_EQ(s.links, 4u);
+  EXPECT_EQ(s.headwaters, 3u);
+  EXPECT_EQ(s.confluences, 1u);
+  EXPECT_EQ(s.bifurcations, 1u);
+  EXPECT_EQ(s.outlets, 3u);
+  EXPECT_EQ(s.basins, 2u);
+  EXPECT_EQ(s.cycles, 0u);
+  EXPECT_DOUBLE_EQ(s.total_length_km, 10.0);
+  EXPECT_EQ(s.max_strahler, 2);
+}
