@@ -1,0 +1,115 @@
+#pragma once
+/// \file
+/// The forcing of a routing run: a time axis and, per reach, the discharge
+/// entering at its top (inflow) and along it (lateral), one value per axis
+/// sample, in m^3/s.
+///
+/// `ForcingSource` is what the scheduler pulls from, reach by reach, so that
+/// a large NetCDF forcing never has to be in memory at once; CSV forcing is
+/// small and read whole into a `Forcing`, served by `MemoryForcingSource`.
+
+#include <functional>
+#include <map>
+#include <set>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::io {
+
+enum class ForcingKind { Inflow, Lateral };
+
+/// "inflow" or "lateral" (also the NetCDF variable names).
+std::string_view kindName(ForcingKind kind);
+
+/// Reach id → series on the axis, m^3/s. Ordered so that output and error
+/// listings are deterministic; `std::less<>` allows lookup by string_view.
+using SeriesMap = std::map<std::string, std::vector<double>, std::less<>>;
+
+struct Forcing {
+  routing::TimeAxis axis;
+  SeriesMap inflow;                   ///< discharge at the top of the reach, m^3/s
+  SeriesMap lateral;                  ///< discharge along the reach, m^3/s
+  std::string inflow_origin;          ///< file it came from (for messages), may be empty
+  std::string lateral_origin;
+  /// Things the reader did that a user should hear about (a series held
+  /// at its first or last value outside its own data, ...), one line each.
+  std::vector<std::string> warnings;
+
+  SeriesMap& series(ForcingKind kind) { return kind == ForcingKind::Inflow ? inflow : lateral; }
+  const SeriesMap& series(ForcingKind kind) const {
+    return kind == ForcingKind::Inflow ? inflow : lateral;
+  }
+  std::string& origin(ForcingKind kind) {
+    return kind == ForcingKind::Inflow ? inflow_origin : lateral_origin;
+  }
+  const std::string& origin(ForcingKind kind) const {
+    return kind == ForcingKind::Inflow ? inflow_origin : lateral_origin;
+  }
+};
+
+/// Per-reach access to forcing, whatever holds it.
+///
+/// Contract: every series has exactly `axis().steps` values, finite and
+/// >= 0, in m^3/s. A reach without a series of a kind gets zero from the
+/// caller (INTERFACE.md: "a reach not named gets zero"). Implementations
+/// are safe to call from several threads at once.
+class ForcingSource {
+public:
+  virtual ~ForcingSource() = default;
+
+  virtual const routing::TimeAxis& axis() const = 0;
+
+  /// Fills `out` (resized to axis().steps) with the series of `kind` for
+  /// reach `id` and returns true; returns false, leaving `out` untouched,
+  /// when the source has none. Throws InputError when stored data are bad.
+  virtual bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const = 0;
+
+  /// Reach ids that have a series of `kind`, sorted.
+  virtual std::vector<std::string> ids(ForcingKind kind) const = 0;
+
+  /// File (or other name) the series of `kind` came from, for messages.
+  virtual std::string origin(ForcingKind kind) const = 0;
+
+  bool inflow(std::string_view id, std::vector<double>& out) const {
+    return series(ForcingKind::Inflow, id, out);
+  }
+  bool lateral(std::string_view id, std::vector<double>& out) const {
+    return series(ForcingKind::Lateral, id, out);
+  }
+  /// Every reach id with any series, sorted, without repeats. (Derived
+  /// classes bring it back into scope with `using ForcingSource::ids;`.)
+  std::vector<std::string> ids() const;
+};
+
+/// Serves a `Forcing` held in memory. Checks the contract on construction
+/// (throws InvalidParameter naming the reach when a series has the wrong
+/// length or a bad value).
+class MemoryForcingSource final : public ForcingSource {
+public:
+  explicit MemoryForcingSource(Forcing forcing);
+
+  const routing::TimeAxis& axis() const override { return forcing_.axis; }
+  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const override;
+  std::vector<std::string> ids(ForcingKind kind) const override;
+  using ForcingSource::ids;
+  std::string origin(ForcingKind kind) const override { return forcing_.origin(kind); }
+
+  const Forcing& forcing() const noexcept { return forcing_; }
+
+private:
+  Forcing forcing_;
+};
+
+/// Throws one InputError listing every reach id of `source` (both kinds)
+/// for which `known` is false, grouped by file, so that a user fixes them
+/// all in one go. Does nothing when all are known.
+void requireKnownReaches(const ForcingSource& source,
+                         const std::function<bool(std::string_view)>& known);
+
+/// Convenience overload for a set of network reach ids.
+void requireKnownReaches(const ForcingSource& source, const std::set<std::string, std::less<>>& known);
+
+}  // namespace reachwise::io

@@ -1,0 +1,83 @@
+#include "reachwise/io/Forcing.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include <fmt/format.h>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::io {
+
+std::string_view kindName(ForcingKind kind) {
+  return kind == ForcingKind::Inflow ? "inflow" : "lateral";
+}
+
+std::vector<std::string> ForcingSource::ids() const {
+  std::vector<std::string> all = ids(ForcingKind::Inflow);
+  const std::vector<std::string> lat = ids(ForcingKind::Lateral);
+  all.insert(all.end(), lat.begin(), lat.end());
+  std::sort(all.begin(), all.end());
+  all.erase(std::unique(all.begin(), all.end()), all.end());
+  return all;
+}
+
+MemoryForcingSource::MemoryForcingSource(Forcing forcing) : forcing_(std::move(forcing)) {
+  for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
+    for (const auto& [id, values] : forcing_.series(kind)) {
+      if (values.size() != forcing_.axis.steps)
+        throw InvalidParameter(std::string(kindName(kind)),
+                               fmt::format("reach {}: {} values on an axis of {} steps", id,
+                                           values.size(), forcing_.axis.steps));
+      for (double q : values)
+        if (!std::isfinite(q) || q < 0)
+          throw InvalidParameter(std::string(kindName(kind)),
+                                 fmt::format("reach {}: discharge {} is not finite and >= 0", id, q));
+    }
+  }
+}
+
+bool MemoryForcingSource::series(ForcingKind kind, std::string_view id,
+                                 std::vector<double>& out) const {
+  const SeriesMap& map = forcing_.series(kind);
+  const auto it = map.find(id);
+  if (it == map.end()) return false;
+  out.assign(it->second.begin(), it->second.end());
+  return true;
+}
+
+std::vector<std::string> MemoryForcingSource::ids(ForcingKind kind) const {
+  std::vector<std::string> out;
+  out.reserve(forcing_.series(kind).size());
+  for (const auto& entry : forcing_.series(kind)) out.push_back(entry.first);
+  return out;
+}
+
+void requireKnownReaches(const ForcingSource& source,
+                         const std::function<bool(std::string_view)>& known) {
+  std::vector<std::string> parts;
+  std::string first_file;
+  std::size_t count = 0;
+  for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
+    std::vector<std::string> unknown;
+    for (const std::string& id : source.ids(kind))
+      if (!known(id)) unknown.push_back(id);
+    if (unknown.empty()) continue;
+    const std::string file = source.origin(kind);
+    if (first_file.empty()) first_file = file;
+    count += unknown.size();
+    parts.push_back(fmt::format("{} {}{}: {}", kindName(kind), file.empty() ? "" : "file ",
+                                file, fmt::join(unknown, ", ")));
+  }
+  if (count == 0) return;
+  InputLocation where;
+  where.file = first_file;
+  throw InputError(where, fmt::format("{} reach id{} not in the network ({})", count,
+                                      count == 1 ? " is" : "s are", fmt::join(parts, "; ")));
+}
+
+void requireKnownReaches(const ForcingSource& source, const std::set<std::string, std::less<>>& known) {
+  requireKnownReaches(source, [&known](std::string_view id) { return known.contains(id); });
+}
+
+}  // namespace reachwise::io
