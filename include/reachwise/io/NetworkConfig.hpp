@@ -1,0 +1,75 @@
+#pragma once
+/// \file
+/// How a network layer is read: which source field holds each attribute,
+/// defaults for missing values, the unit system, and how topology is built.
+/// Parsed from the `[network]` table of a TOML run file (docs/formats.md).
+
+#include <map>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "reachwise/hydraulics/Units.hpp"
+#include "reachwise/network/geos/GeometryTopology.hpp"
+
+namespace reachwise::io {
+
+/// Where topology (each reach's downstream reach) comes from.
+enum class TopologySource {
+  Auto,      ///< from the `to_reach` field when the layer has it, else from geometry
+  Ids,       ///< from the `to_reach` field (missing field is an error)
+  Geometry,  ///< from line ends, even when a `to_reach` field exists
+};
+
+/// How flow direction is found when topology comes from geometry.
+using Orientation = network::geos::Orientation;
+
+/// One attribute: the field that holds it in the user's layer and a value
+/// used when the field is absent from the layer or null in a feature.
+struct FieldSpec {
+  std::string name;                        ///< source field name
+  std::optional<double> default_number;    ///< for numeric attributes, in the config's units
+  std::optional<std::string> default_text; ///< for text attributes (reach_id, to_reach, shape)
+  bool hasDefault() const { return default_number || default_text; }
+};
+
+struct NetworkConfig {
+  std::string origin;                      ///< file the config came from ("" = built-in)
+  std::string layer;                       ///< layer name; empty = choose automatically
+  units::System units = units::System::SI; ///< unit system of widths, depths, lengths, elevations
+  /// Metres per coordinate unit for a layer without a CRS. Without a CRS
+  /// and without this, reading is refused.
+  std::optional<double> length_unit_m;
+  TopologySource topology = TopologySource::Auto;
+  /// Snapping distance for line ends, in CRS units. Unset = 0.5 m expressed in CRS units.
+  std::optional<double> snap_tolerance;
+  Orientation orientation = Orientation::Auto;
+  std::vector<std::string> outlets;        ///< reach ids of outlets (Orientation::Outlets)
+  /// Keyed by the canonical attribute name (kFieldNames); every name is present.
+  std::map<std::string, FieldSpec, std::less<>> fields;
+
+  /// Default field names (INTERFACE.md), SI, automatic topology.
+  NetworkConfig();
+
+  /// Parses a TOML file; throws InputError naming the file (and key) on a
+  /// syntax error, an unknown key, or a value of the wrong type.
+  static NetworkConfig fromFile(const std::string& path);
+  /// Same, from text; `origin` names it in messages.
+  static NetworkConfig fromString(const std::string& text, const std::string& origin);
+
+  /// Throws InternalError for a name not in kFieldNames.
+  const FieldSpec& field(std::string_view canonical) const;
+};
+
+/// The canonical attribute names, which are also the default source field names.
+inline constexpr std::string_view kFieldNames[] = {
+    "reach_id",     "to_reach",       "slope",         "manning_n",    "bottom_width",
+    "side_slope",   "length",         "shape",         "diameter",     "bank_depth",
+    "floodplain_width", "floodplain_n", "muskingum_k_h", "muskingum_x", "split",
+    "up_elevation", "down_elevation"};
+
+/// Parses a length unit name ("m", "ft", "us_ft", "km") or throws InputError.
+double metresPerUnit(const std::string& name, const std::string& origin);
+
+}  // namespace reachwise::io

@@ -1,0 +1,65 @@
+#pragma once
+/// \file
+/// Network topology from line geometry alone: which reach flows into which,
+/// found from where line ends meet.
+
+#include <cstddef>
+#include <string>
+#include <vector>
+
+#include "reachwise/network/Problem.hpp"
+#include "reachwise/network/ReachTable.hpp"
+
+namespace reachwise::network::geos {
+
+/// How flow direction is found.
+enum class Orientation {
+  Auto,       ///< Elevation when every line has Z at both ends (not all level), else Digitised
+  Digitised,  ///< first vertex upstream, last vertex downstream
+  Elevation,  ///< the higher end (Z) is upstream; level lines keep digitising order
+  Outlets,    ///< each connected part flows towards its outlet (see TopologyOptions::outlets)
+};
+
+struct TopologyOptions {
+  /// Line ends closer than this meet at one node; an end this close to the
+  /// interior of another line splits it. CRS units; >= 0.
+  double snap_tolerance = 0.5;
+  /// An unconnected end within gap_factor × snap_tolerance of another line is
+  /// reported as a probable gap.
+  double gap_factor = 10.0;
+  Orientation orientation = Orientation::Auto;
+  /// Outlet reach ids for Orientation::Outlets. A connected part without a
+  /// named outlet flows towards the line end that has no continuation and
+  /// is the digitised downstream end of its line, choosing among several
+  /// such ends the one that needs the fewest lines reversed.
+  std::vector<std::string> outlets;
+};
+
+struct TopologySummary {
+  std::size_t nodes = 0;          ///< distinct junction / end nodes after snapping
+  std::size_t splits = 0;         ///< lines cut where another line's end meets their interior
+  std::size_t flipped = 0;        ///< lines reversed by the orientation step
+  std::size_t probable_gaps = 0;  ///< unconnected ends near another line
+};
+
+/// Rebuilds the topology of `table` from its geometry:
+///  1. a line whose interior another line's end touches (within the
+///     tolerance) is cut there; its pieces get ids `<id>.1`, `<id>.2`, ...
+///     from upstream to downstream in digitising order, keep the attributes
+///     and share `length_m` / `geometry_length_m` in proportion to their
+///     planar length (`split_line`, warning);
+///  2. line ends within the tolerance are snapped to one node (the end
+///     vertices are moved onto it);
+///  3. lines are oriented (`flipped_line`, warning, for each reversed line);
+///  4. `to_reach` of every record is set to the reach leaving its
+///     downstream node (nullopt at an outlet; at a bifurcation all leaving
+///     reaches, sorted, joined by ';' as ReachGraph expects) and
+///     `has_to_reach` is set.
+/// Also reported: `probable_gap` (warning), `closed_line` (error: both ends
+/// on one node), `unknown_outlet` (warning: a configured outlet id is not in the table).
+/// Records with fewer than two vertices or non-finite coordinates are left
+/// out of the topology (their `to_reach` is cleared); the reader reports them.
+TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptions& options,
+                                          ProblemList& problems);
+
+}  // namespace reachwise::network::geos

@@ -1,0 +1,242 @@
+// Writes the sample network of the invented Brannoch catchment and its
+// broken variants (see README.md). Deterministic: the same files every run.
+//   reachwise_make_sample [OUT_DIR]     (default: the folder of this file)
+#include <cpl_conv.h>
+#include <gdal_priv.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <cstdint>
+#include <cstdio>
+#include <filesystem>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+namespace {
+
+struct Pt {
+  double x, y;
+};
+
+struct Reach {
+  std::string id, to, shape = "trapezoid";
+  std::vector<Pt> line;  // upstream to downstream
+  double slope = 0, n = 0, width = 0, side = 0, diameter = NAN;
+  double bank_depth = NAN, fp_width = NAN, fp_n = NAN, k_h = 0, x = 0.2;
+};
+
+/// Small deterministic generator (64-bit LCG, Knuth's MMIX constants), so
+/// the files do not depend on the standard library's distributions.
+class Lcg {
+public:
+  explicit Lcg(std::uint64_t seed) : s_(seed) {}
+  double uniform(double lo, double hi) {
+    s_ = s_ * 6364136223846793005ULL + 1442695040888963407ULL;
+    return lo + (hi - lo) * static_cast<double>(s_ >> 11) / 9007199254740992.0;
+  }
+
+private:
+  std::uint64_t s_;
+};
+
+class Builder {
+public:
+  std::vector<Reach> reaches;
+  Lcg rng{20260501};
+
+  /// Adds a reach from `top` down to `bottom` with two meander vertices.
+  Reach& add(Pt top, Pt bottom, const std::string& to) {
+    Reach r;
+    r.id = "R";
+    r.id += std::to_string(reaches.size() + 1);
+    r.to = to;
+    const double dx = bottom.x - top.x, dy = bottom.y - top.y;
+    const double len = std::hypot(dx, dy);
+    r.line.push_back(top);
+    for (double t : {0.35, 0.7}) {
+      const double off = rng.uniform(-0.08, 0.08) * len;  // sideways, perpendicular
+      r.line.push_back({top.x + t * dx - off * dy / len, top.y + t * dy + off * dx / len});
+    }
+    r.line.push_back(bottom);
+    reaches.push_back(r);
+    return reaches.back();
+  }
+};
+
+double lineLength(const std::vector<Pt>& l) {
+  double s = 0;
+  for (std::size_t i = 1; i < l.size(); ++i) s += std::hypot(l[i].x - l[i - 1].x, l[i].y - l[i - 1].y);
+  return s;
+}
+
+/// A tributary chain of `count` reaches from `mouth` outward, each feeding
+/// the one before; returns the id of its top reach.
+std::string tributary(Builder& b, Pt mouth, const std::string& into, double dir_x, int count,
+                      double slope0, double width0, bool culverts = false) {
+  std::string to = into;
+  Pt bottom = mouth;
+  for (int k = 0; k < count; ++k) {
+    const bool culvert = culverts && k >= 1 && k <= 3;  // pipes under a road embankment
+    const Pt top = culvert ? Pt{bottom.x + dir_x * b.rng.uniform(40, 80), bottom.y + 10}
+                           : Pt{bottom.x + dir_x * b.rng.uniform(1100, 1500),
+                                bottom.y + b.rng.uniform(400, 700)};
+    Reach& r = b.add(top, bottom, to);
+    const std::string id = r.id;
+    r.slope = slope0 * (1 + 0.6 * k);
+    r.width = std::max(2.0, width0 * (1 - 0.18 * k));
+    r.n = 0.035 + 0.005 * k;
+    r.side = 1.5;
+    if (culvert) {
+      r.shape = "circle";
+      r.diameter = 1.2 + 0.2 * (3 - k);
+      r.n = 0.025;  // corrugated metal pipe (common practice)
+      r.width = NAN;
+      r.side = NAN;
+    }
+    // A side branch joins at the bottom of the second reach of each chain.
+    if (k == 1) {
+      const double s = r.slope * 1.5, w = std::max(2.0, r.width * 0.5);
+      for (int j = 0; j < 2; ++j) {
+        const Pt t2{top.x + dir_x * 300 * (j + 1), top.y + 1100.0 * (j + 1)};
+        const Pt b2 = j == 0 ? top : b.reaches.back().line.front();
+        Reach& side = b.add(t2, b2, j == 0 ? id : b.reaches.back().id);
+        side.slope = std::min(0.02, s * (1 + j));
+        side.width = std::isnan(w) ? 2.0 : w;
+        side.n = 0.045 + 0.01 * j;
+        side.side = 2.0;
+      }
+    }
+    to = id;  // `r` may dangle after the side branch was added
+    bottom = top;
+  }
+  return to;
+}
+
+std::vector<Reach> brannoch() {
+  Builder b;
+  // Main stem: 12 reaches from the outlet northwards.
+  Pt bottom{512000.0, 5180000.0};
+  std::string to;
+  std::vector<std::pair<Pt, std::string>> stem;  // node and the reach below it
+  for (int k = 0; k < 12; ++k) {
+    const Pt top{bottom.x + b.rng.uniform(-300, 300), bottom.y + b.rng.uniform(1800, 2400)};
+    Reach& r = b.add(top, bottom, to);
+    r.slope = 0.0005 + 0.00025 * k;
+    r.width = 40.0 - 2.4 * k;
+    r.n = 0.03 + 0.001 * k;
+    r.side = 2.0;
+    r.k_h = 0;
+    if (k < 4) {  // the lowland reaches have an embanked floodplain
+      r.bank_depth = 2.5;
+      r.fp_width = 150.0 + 20 * k;
+      r.fp_n = 0.05;
+    }
+    stem.push_back({top, r.id});
+    to = r.id;
+    bottom = top;
+  }
+  // Tributary systems at alternate sides of the stem.
+  const int junctions[] = {1, 3, 5, 7, 9};
+  for (int j = 0; j < 5; ++j) {
+    const auto& [node, below] = stem[junctions[j]];
+    // The reach above the junction and the tributary both flow into `below`.
+    tributary(b, node, below, j % 2 == 0 ? 1.0 : -1.0, 3 + j % 3, 0.0015 + 0.001 * j,
+              12.0 - 1.5 * j, j == 2);
+  }
+  for (auto& r : b.reaches) r.k_h = lineLength(r.line) / 1.5 / 3600.0;  // ~1.5 m/s wave
+  return b.reaches;
+}
+
+struct Variant {
+  bool to_reach = true, slope = true;
+};
+
+void setReal(OGRFeature& f, const char* name, double v) {
+  if (std::isnan(v))
+    f.SetFieldNull(f.GetFieldIndex(name));
+  else
+    f.SetField(name, v);
+}
+
+void write(const std::filesystem::path& path, const std::vector<Reach>& reaches, Variant v) {
+  const auto tmp = path.string() + ".tmp.gpkg";
+  std::filesystem::remove(tmp);
+  GDALDriver* drv = GetGDALDriverManager()->GetDriverByName("GPKG");
+  GDALDatasetUniquePtr ds(drv->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+  if (!ds) throw std::runtime_error("cannot create " + tmp);
+  OGRSpatialReference srs;
+  srs.importFromEPSG(32633);  // WGS 84 / UTM zone 33N; the coordinates are invented
+  OGRLayer* layer = ds->CreateLayer("reaches", &srs, wkbLineString, nullptr);
+  auto field = [&](const char* name, OGRFieldType t) {
+    OGRFieldDefn def(name, t);
+    layer->CreateField(&def);
+  };
+  field("reach_id", OFTString);
+  if (v.to_reach) field("to_reach", OFTString);
+  if (v.slope) field("slope", OFTReal);
+  for (const char* name : {"manning_n", "bottom_width", "side_slope"}) field(name, OFTReal);
+  field("shape", OFTString);
+  for (const char* name : {"diameter", "bank_depth", "floodplain_width", "floodplain_n",
+                           "muskingum_k_h", "muskingum_x"})
+    field(name, OFTReal);
+  for (const auto& r : reaches) {
+    OGRFeature f(layer->GetLayerDefn());
+    f.SetField("reach_id", r.id.c_str());
+    if (v.to_reach) {
+      if (r.to.empty())
+        f.SetFieldNull(f.GetFieldIndex("to_reach"));
+      else
+        f.SetField("to_reach", r.to.c_str());
+    }
+    if (v.slope) setReal(f, "slope", r.slope);
+    setReal(f, "manning_n", r.n);
+    setReal(f, "bottom_width", r.width);
+    setReal(f, "side_slope", r.side);
+    f.SetField("shape", r.shape.c_str());
+    setReal(f, "diameter", r.diameter);
+    setReal(f, "bank_depth", r.bank_depth);
+    setReal(f, "floodplain_width", r.fp_width);
+    setReal(f, "floodplain_n", r.fp_n);
+    setReal(f, "muskingum_k_h", r.k_h);
+    setReal(f, "muskingum_x", r.x);
+    OGRLineString line;
+    for (const auto& p : r.line) line.addPoint(std::round(p.x * 100) / 100, std::round(p.y * 100) / 100);
+    f.SetGeometry(&line);
+    if (layer->CreateFeature(&f) != OGRERR_NONE) throw std::runtime_error("cannot write " + tmp);
+  }
+  ds.reset();  // flush and close before the rename
+  std::filesystem::rename(tmp, path);
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  try {
+    const std::filesystem::path out =
+        argc > 1 ? std::filesystem::path(argv[1]) : std::filesystem::path(__FILE__).parent_path();
+    GDALAllRegister();
+    CPLSetConfigOption("OGR_CURRENT_DATE", "2026-01-01T00:00:00.000Z");  // stable metadata
+    const auto net = brannoch();
+    write(out / "network.gpkg", net, {});
+
+    // cycle.gpkg: the outlet reach drains back into the third stem reach (R1 -> R3 -> R2 -> R1).
+    auto cycle = net;
+    cycle[0].to = "R3";
+    write(out / "cycle.gpkg", cycle, {});
+
+    // gap.gpkg: no to_reach field, and the first tributary stops 2 m short of its confluence.
+    auto gap = net;
+    for (auto& r : gap)
+      if (r.id == "R13") r.line.back().x += 2.0;
+    write(out / "gap.gpkg", gap, {false, true});
+
+    write(out / "missing_field.gpkg", net, {true, false});
+    std::printf("wrote %zu reaches to %s\n", net.size(), out.string().c_str());
+    return 0;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "reachwise_make_sample: %s\n", e.what());
+    return 1;
+  }
+}

@@ -1,0 +1,187 @@
+#include "reachwise/io/NetworkConfig.hpp"
+
+#include <toml++/toml.h>
+
+#include <fstream>
+#include <sstream>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::io {
+
+namespace {
+
+InputError configError(const std::string& origin, const std::string& key,
+                       const std::string& message) {
+  InputLocation where;
+  where.file = origin;
+  where.field = key;
+  return InputError(where, message);
+}
+
+std::string requireString(const toml::node& node, const std::string& origin,
+                          const std::string& key) {
+  if (auto s = node.value<std::string>()) return *s;
+  throw configError(origin, key, "expected a text value");
+}
+
+double requireNumber(const toml::node& node, const std::string& origin, const std::string& key) {
+  if (auto d = node.value<double>()) return *d;  // integers convert too
+  throw configError(origin, key, "expected a number");
+}
+
+bool isKnownField(std::string_view name) {
+  for (auto f : kFieldNames)
+    if (f == name) return true;
+  return false;
+}
+
+void parseFieldSpec(const toml::node& node, FieldSpec& spec, const std::string& origin,
+                    const std::string& key) {
+  if (node.is_string()) {
+    spec.name = *node.value<std::string>();
+    return;
+  }
+  const auto* table = node.as_table();
+  if (!table) throw configError(origin, key, "expected a field name or a table {name, default}");
+  for (const auto& [k, v] : *table) {
+    const std::string sub = key + "." + std::string(k.str());
+    if (k.str() == "name") {
+      spec.name = requireString(v, origin, sub);
+    } else if (k.str() == "default") {
+      if (v.is_string())
+        spec.default_text = *v.value<std::string>();
+      else
+        spec.default_number = requireNumber(v, origin, sub);
+    } else {
+      throw configError(origin, sub, "unknown key (expected name or default)");
+    }
+  }
+  if (spec.name.empty()) throw configError(origin, key, "field name must not be empty");
+}
+
+void parseFields(const toml::table& fields, NetworkConfig& cfg) {
+  for (const auto& [k, v] : fields) {
+    const std::string name(k.str());
+    const std::string key = "network.fields." + name;
+    if (!isKnownField(name))
+      throw configError(cfg.origin, key, "unknown attribute (see docs/formats.md)");
+    parseFieldSpec(v, cfg.fields[name], cfg.origin, key);
+  }
+}
+
+units::System parseUnits(const std::string& s, const std::string& origin) {
+  if (s == "si") return units::System::SI;
+  if (s == "us") return units::System::USCustomary;
+  throw configError(origin, "network.units", "expected \"si\" or \"us\", got \"" + s + "\"");
+}
+
+TopologySource parseTopology(const std::string& s, const std::string& origin) {
+  if (s == "auto") return TopologySource::Auto;
+  if (s == "ids") return TopologySource::Ids;
+  if (s == "geometry") return TopologySource::Geometry;
+  throw configError(origin, "network.topology",
+                    "expected \"auto\", \"ids\" or \"geometry\", got \"" + s + "\"");
+}
+
+Orientation parseOrientation(const std::string& s, const std::string& origin) {
+  if (s == "auto") return Orientation::Auto;
+  if (s == "digitised") return Orientation::Digitised;
+  if (s == "elevation") return Orientation::Elevation;
+  if (s == "outlets") return Orientation::Outlets;
+  throw configError(origin, "network.orientation",
+                    "expected \"auto\", \"digitised\", \"elevation\" or \"outlets\", got \"" + s +
+                        "\"");
+}
+
+void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
+  const std::string& o = cfg.origin;
+  for (const auto& [k, v] : net) {
+    const std::string key = "network." + std::string(k.str());
+    const std::string_view name = k.str();
+    if (name == "layer") {
+      cfg.layer = requireString(v, o, key);
+    } else if (name == "units") {
+      cfg.units = parseUnits(requireString(v, o, key), o);
+    } else if (name == "length_unit") {
+      cfg.length_unit_m = v.is_string() ? metresPerUnit(*v.value<std::string>(), o)
+                                        : requireNumber(v, o, key);
+      if (!(*cfg.length_unit_m > 0)) throw configError(o, key, "must be positive");
+    } else if (name == "topology") {
+      cfg.topology = parseTopology(requireString(v, o, key), o);
+    } else if (name == "snap_tolerance") {
+      cfg.snap_tolerance = requireNumber(v, o, key);
+      if (!(*cfg.snap_tolerance >= 0)) throw configError(o, key, "must be zero or positive");
+    } else if (name == "orientation") {
+      cfg.orientation = parseOrientation(requireString(v, o, key), o);
+    } else if (name == "outlets") {
+      const auto* arr = v.as_array();
+      if (!arr) throw configError(o, key, "expected an array of reach ids");
+      for (const auto& item : *arr) {
+        if (auto s = item.value<std::string>())
+          cfg.outlets.push_back(*s);
+        else if (auto i = item.value<std::int64_t>())
+          cfg.outlets.push_back(std::to_string(*i));
+        else
+          throw configError(o, key, "expected reach ids (text or integers)");
+      }
+    } else if (name == "fields") {
+      const auto* fields = v.as_table();
+      if (!fields) throw configError(o, key, "expected a table");
+      parseFields(*fields, cfg);
+    } else {
+      throw configError(o, key, "unknown key (see docs/formats.md)");
+    }
+  }
+}
+
+}  // namespace
+
+NetworkConfig::NetworkConfig() {
+  for (auto name : kFieldNames) fields[std::string(name)].name = std::string(name);
+}
+
+const FieldSpec& NetworkConfig::field(std::string_view canonical) const {
+  auto it = fields.find(canonical);
+  REACHWISE_ASSERT(it != fields.end());
+  return it->second;
+}
+
+double metresPerUnit(const std::string& name, const std::string& origin) {
+  if (name == "m" || name == "metre" || name == "meter") return 1.0;
+  if (name == "km") return 1000.0;
+  if (name == "ft") return units::kMetresPerFoot;
+  if (name == "us_ft") return 1200.0 / 3937.0;  // US survey foot, by its definition
+  throw configError(origin, "network.length_unit",
+                    "unknown unit \"" + name + "\" (expected m, km, ft, us_ft or a number)");
+}
+
+NetworkConfig NetworkConfig::fromString(const std::string& text, const std::string& origin) {
+  NetworkConfig cfg;
+  cfg.origin = origin;
+  toml::table root;
+  try {
+    root = toml::parse(text, origin);
+  } catch (const toml::parse_error& e) {
+    InputLocation where;
+    where.file = origin;
+    where.line = static_cast<std::int64_t>(e.source().begin.line);
+    throw InputError(where, std::string(e.description()));
+  }
+  if (const auto* net = root["network"].as_table()) {
+    parseNetworkTable(*net, cfg);
+  } else if (root.contains("network")) {
+    throw configError(origin, "network", "expected a table");
+  }
+  return cfg;
+}
+
+NetworkConfig NetworkConfig::fromFile(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw configError(path, "", "cannot open the config file");
+  std::ostringstream text;
+  text << in.rdbuf();
+  return fromString(text.str(), path);
+}
+
+}  // namespace reachwise::io

@@ -1,0 +1,262 @@
+#include "reachwise/io/NetworkReader.hpp"
+
+#include <fmt/core.h>
+#include <gdal_priv.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <set>
+#include <unordered_set>
+
+#include "ReachAttributes.hpp"
+#include "reachwise/io/Gdal.hpp"
+#include "reachwise/io/LineLength.hpp"
+#include "reachwise/network/geos/LineParts.hpp"
+
+namespace reachwise::io {
+
+using network::Point3;
+using network::ProblemList;
+using network::ReachRecord;
+using network::ReachTable;
+using network::Severity;
+
+namespace {
+
+GDALDatasetUniquePtr openSource(const std::string& source) {
+  ensureGdal();
+  CPLErrorReset();
+  GDALDatasetUniquePtr ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  if (!ds) {
+    InputLocation where;
+    where.file = source;
+    const std::string why = CPLGetLastErrorMsg();
+    throw InputError(where, "cannot open as vector data" + (why.empty() ? "" : ": " + why));
+  }
+  return ds;
+}
+
+bool isLineType(OGRwkbGeometryType t) {
+  switch (wkbFlatten(t)) {
+    case wkbLineString:
+    case wkbMultiLineString:
+    case wkbCircularString:
+    case wkbCompoundCurve:
+    case wkbMultiCurve:
+      return true;
+    default:
+      return false;
+  }
+}
+
+std::vector<std::string> lineLayerNames(GDALDataset& ds) {
+  std::vector<std::string> names;
+  for (OGRLayer* layer : ds.GetLayers())
+    if (isLineType(layer->GetGeomType())) names.emplace_back(layer->GetName());
+  return names;
+}
+
+std::string joined(const std::vector<std::string>& names) {
+  std::string out;
+  for (const auto& n : names) out += (out.empty() ? "" : ", ") + n;
+  return out.empty() ? "(none)" : out;
+}
+
+OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const std::string& source) {
+  InputLocation where;
+  where.file = source;
+  std::vector<std::string> all;
+  for (OGRLayer* layer : ds.GetLayers()) all.emplace_back(layer->GetName());
+  if (!wanted.empty()) {
+    if (OGRLayer* layer = ds.GetLayerByName(wanted.c_str())) return layer;
+    throw InputError(where, fmt::format("no layer named {}; layers: {}", wanted, joined(all)));
+  }
+  const auto lines = lineLayerNames(ds);
+  if (lines.size() == 1) return ds.GetLayerByName(lines.front().c_str());
+  if (lines.size() > 1)
+    throw InputError(where, fmt::format("several line layers ({}); choose one with --layer",
+                                        joined(lines)));
+  // A single layer of unknown geometry type (e.g. mixed GeoJSON) is taken as is.
+  if (all.size() == 1 && wkbFlatten(ds.GetLayer(0)->GetGeomType()) == wkbUnknown)
+    return ds.GetLayer(0);
+  throw InputError(where, fmt::format("no line layer; layers: {}", joined(all)));
+}
+
+/// Length measure for the layer's CRS.
+LineLength lengthMeasure(const OGRLayer& layer, const NetworkConfig& config,
+                         const InputLocation& where, ReachTable& table) {
+  const OGRSpatialReference* srs = const_cast<OGRLayer&>(layer).GetSpatialRef();
+  if (!srs) {
+    if (config.length_unit_m) return LineLength::planar(*config.length_unit_m);
+    throw InputError(where, "the layer has no coordinate reference system; set network.length_unit "
+                            "in the config to state the coordinate unit");
+  }
+  char* wkt = nullptr;
+  srs->exportToWkt(&wkt);
+  table.crs_wkt = wkt ? wkt : "";
+  CPLFree(wkt);
+  if (!srs->IsGeographic()) return LineLength::planar(srs->GetLinearUnits(nullptr));
+  table.geographic = true;
+  OGRErr err = OGRERR_NONE;
+  const double a = srs->GetSemiMajor(&err);
+  const double inv_f = srs->GetInvFlattening(&err);
+  const double f = inv_f > 0 ? 1.0 / inv_f : 0.0;  // 0 = sphere
+  const double deg = srs->GetAngularUnits(nullptr) * 180.0 / M_PI;
+  // Which data axis is latitude depends on the layer's axis mapping
+  // (GDAL vector layers normally use OAMS_TRADITIONAL_GIS_ORDER: lon, lat).
+  const auto& mapping = srs->GetDataAxisToSRSAxisMapping();
+  OGRAxisOrientation orient = OAO_East;
+  const int first_axis = mapping.empty() ? 1 : std::abs(mapping.front());
+  srs->GetAxis(nullptr, first_axis - 1, &orient);
+  const bool lat_first = orient == OAO_North || orient == OAO_South;
+  if (!(a > 0) || !(f >= 0 && f < 1) || !(deg > 0))
+    throw InputError(where, "the geographic CRS has no usable ellipsoid or angular unit");
+  return LineLength::geodesic(a, f, deg, lat_first);
+}
+
+std::vector<Point3> points(const OGRSimpleCurve& c) {
+  std::vector<Point3> out(static_cast<std::size_t>(std::max(0, c.getNumPoints())));
+  const bool z = c.Is3D();
+  for (int i = 0; i < c.getNumPoints(); ++i) {
+    out[i] = {c.getX(i), c.getY(i), z ? c.getZ(i) : ReachRecord::kUnset};
+  }
+  return out;
+}
+
+bool finiteLine(const std::vector<Point3>& line) {
+  for (const auto& p : line)
+    if (!std::isfinite(p.x) || !std::isfinite(p.y)) return false;
+  return true;
+}
+
+/// Fills r.line from the feature's geometry; false (with a problem) when unusable.
+bool readGeometry(const OGRGeometry* geom, ReachRecord& r, ProblemList& problems) {
+  auto fail = [&](const char* code, const std::string& msg) {
+    problems.push_back(detail::recordProblem(code, Severity::Error, r, msg + "; feature skipped"));
+    return false;
+  };
+  if (!geom || geom->IsEmpty()) return fail("empty_geometry", "the feature has no geometry");
+  std::unique_ptr<OGRGeometry> linear;
+  if (geom->hasCurveGeometry()) {
+    linear.reset(geom->getLinearGeometry());
+    geom = linear.get();
+    if (!geom) return fail("non_line_geometry", "the curve geometry cannot be linearised");
+  }
+  std::vector<std::vector<Point3>> parts;
+  const auto type = wkbFlatten(geom->getGeometryType());
+  if (type == wkbLineString) {
+    parts.push_back(points(*geom->toLineString()));
+  } else if (type == wkbMultiLineString) {
+    for (const OGRLineString* part : *geom->toMultiLineString())
+      if (part && part->getNumPoints() > 0) parts.push_back(points(*part));
+  } else {
+    return fail("non_line_geometry",
+                fmt::format("the geometry is a {}, not a line", geom->getGeometryName()));
+  }
+  for (const auto& p : parts) {
+    if (!finiteLine(p)) return fail("invalid_geometry", "the line has non-finite coordinates");
+    if (p.size() < 2) return fail("empty_geometry", "a line part has fewer than two vertices");
+  }
+  if (parts.empty()) return fail("empty_geometry", "the line has no vertices");
+  if (auto merged = network::geos::mergeLineParts(parts)) {
+    r.line = std::move(*merged);
+    return true;
+  }
+  // Keep the reach (its parts in stored order) so later checks still see it.
+  for (const auto& p : parts) r.line.insert(r.line.end(), p.begin(), p.end());
+  problems.push_back(detail::recordProblem(
+      "multipart_gap", Severity::Error, r,
+      fmt::format("the {} parts of the line do not join end to end", parts.size())));
+  return true;
+}
+
+void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const LineLength& measure,
+                  ReachTable& table, ProblemList& problems, ReadSummary& summary) {
+  std::unordered_set<std::string> seen;
+  layer.ResetReading();
+  for (const auto& f : layer) {
+    ++summary.features;
+    ReachRecord r;
+    r.fid = f->GetFID();
+    bool keep = readGeometry(f->GetGeometryRef(), r, problems);
+    if (keep) {
+      r.geometry_length_m = measure(r.line);
+      if (!(r.geometry_length_m > 0))
+        problems.push_back(detail::recordProblem("zero_length", Severity::Error, r,
+                                                 "the line has zero length"));
+    }
+    const bool has_id = attrs.read(*f, r, problems);
+    if (keep && has_id && !seen.insert(r.id).second) {
+      problems.push_back(detail::recordProblem(
+          "duplicate_id", Severity::Error, r,
+          fmt::format("reach id {} is used by an earlier feature; feature skipped", r.id)));
+      keep = false;
+    }
+    if (keep && has_id)
+      table.reaches.push_back(std::move(r));
+    else
+      ++summary.skipped;
+  }
+}
+
+bool useGeometryTopology(const NetworkConfig& config, bool has_field, const InputLocation& where) {
+  switch (config.topology) {
+    case TopologySource::Geometry:
+      return true;
+    case TopologySource::Ids:
+      if (!has_field) {
+        InputLocation w = where;
+        w.field = config.field("to_reach").name;
+        throw InputError(w, "topology = \"ids\" but the layer has no such field");
+      }
+      return false;
+    case TopologySource::Auto:
+      break;
+  }
+  return !has_field;
+}
+
+}  // namespace
+
+std::vector<std::string> lineLayers(const std::string& source) {
+  auto ds = openSource(source);
+  return lineLayerNames(*ds);
+}
+
+ReachTable readNetwork(const std::string& source, const ReadOptions& options,
+                       ProblemList& problems, ReadSummary* summary_out) {
+  const NetworkConfig& config = options.config;
+  auto ds = openSource(source);
+  OGRLayer* layer =
+      chooseLayer(*ds, options.layer.empty() ? config.layer : options.layer, source);
+  ReachTable table;
+  table.source = source;
+  table.layer = layer->GetName();
+  InputLocation where;
+  where.file = source;
+  where.layer = table.layer;
+  const LineLength measure = lengthMeasure(*layer, config, where, table);
+  const detail::ReachAttributes attrs(*layer->GetLayerDefn(), config, where);
+  ReadSummary summary;
+  readFeatures(*layer, attrs, measure, table, problems, summary);
+  if (summary.features == 0) {
+    network::Problem p;
+    p.code = "empty_layer";
+    p.message = fmt::format("layer {} of {} has no features", table.layer, source);
+    problems.push_back(std::move(p));
+  }
+  table.has_to_reach = attrs.hasField("to_reach");
+  if (useGeometryTopology(config, table.has_to_reach, where)) {
+    network::geos::TopologyOptions topo;
+    topo.snap_tolerance = config.snap_tolerance.value_or(0.5 / measure.metresPerUnit());
+    topo.orientation = config.orientation;
+    topo.outlets = config.outlets;
+    summary.topology_from_geometry = true;
+    summary.snap_tolerance = topo.snap_tolerance;
+    summary.topology = network::geos::buildTopologyFromGeometry(table, topo, problems);
+  }
+  if (summary_out) *summary_out = summary;
+  return table;
+}
+
+}  // namespace reachwise::io

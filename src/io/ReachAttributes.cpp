@@ -1,0 +1,319 @@
+#include "ReachAttributes.hpp"
+
+#include <fmt/core.h>
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <cstdlib>
+
+namespace reachwise::io::detail {
+
+using network::Problem;
+using network::ProblemList;
+using network::ReachRecord;
+using network::Severity;
+using hydraulics::Shape;
+
+namespace {
+
+std::string trim(std::string s) {
+  auto space = [](unsigned char c) { return std::isspace(c) != 0; };
+  s.erase(s.begin(), std::find_if_not(s.begin(), s.end(), space));
+  s.erase(std::find_if_not(s.rbegin(), s.rend(), space).base(), s.end());
+  return s;
+}
+
+std::string lower(std::string s) {
+  for (auto& c : s) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  return s;
+}
+
+/// Whole-string number parse; false for text such as "wide" or "3 m".
+bool parseNumber(const std::string& raw, double& out) {
+  const std::string s = trim(raw);
+  if (s.empty()) return false;
+  char* end = nullptr;
+  out = std::strtod(s.c_str(), &end);
+  return end == s.c_str() + s.size();
+}
+
+std::string fieldList(const OGRFeatureDefn& defn) {
+  std::string out;
+  for (int i = 0; i < defn.GetFieldCount(); ++i)
+    out += (i ? ", " : "") + std::string(defn.GetFieldDefn(i)->GetNameRef());
+  return out.empty() ? "(none)" : out;
+}
+
+}  // namespace
+
+Problem recordProblem(std::string code, Severity severity, const ReachRecord& r,
+                      std::string message) {
+  Problem p;
+  p.code = std::move(code);
+  p.severity = severity;
+  p.fid = r.fid;
+  p.reach_id = r.id;
+  if (!r.line.empty()) {
+    p.x = r.line.front().x;
+    p.y = r.line.front().y;
+  }
+  p.message = std::move(message);
+  return p;
+}
+
+ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config,
+                                 InputLocation where)
+    : config_(config),
+      length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0) {
+  for (auto name : kFieldNames)
+    index_[std::string(name)] = defn.GetFieldIndex(config.field(name).name.c_str());
+  auto usable = [&](std::string_view n) { return hasField(n) || config.field(n).hasDefault(); };
+  auto require = [&](std::string_view n, bool ok) {
+    if (ok) return;
+    where.field = config.field(n).name;
+    throw InputError(where, fmt::format("required field not found (attribute {}); fields present: {}",
+                                        n, fieldList(defn)));
+  };
+  require("reach_id", hasField("reach_id"));
+  require("slope", usable("slope") || (hasField("up_elevation") && hasField("down_elevation")));
+  require("manning_n", usable("manning_n"));
+  require("bottom_width", usable("bottom_width") || usable("shape"));
+}
+
+bool ReachAttributes::hasField(std::string_view canonical) const {
+  auto it = index_.find(canonical);
+  return it != index_.end() && it->second >= 0;
+}
+
+ReachAttributes::Value ReachAttributes::text(const OGRFeature& f,
+                                             std::string_view canonical) const {
+  Value v;
+  const int idx = index_.find(canonical)->second;
+  if (idx >= 0 && f.IsFieldSetAndNotNull(idx)) {
+    const OGRFieldType type = f.GetFieldDefnRef(idx)->GetType();
+    if (type == OFTInteger || type == OFTInteger64) {
+      v.text = std::to_string(f.GetFieldAsInteger64(idx));
+    } else if (type == OFTReal) {
+      const double d = f.GetFieldAsDouble(idx);
+      // Integer ids stored in a real field (common in shapefiles) read as integers.
+      v.text = std::isfinite(d) && d == std::trunc(d) && std::abs(d) < 9e15
+                   ? std::to_string(static_cast<std::int64_t>(d))
+                   : fmt::format("{}", d);
+    } else {
+      v.text = trim(f.GetFieldAsString(idx));
+    }
+    if (!v.text.empty()) v.state = Value::State::Ok;
+    return v;
+  }
+  if (const auto& d = config_.field(canonical).default_text) {
+    v.text = *d;
+    v.state = Value::State::Ok;
+  }
+  return v;
+}
+
+ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_view canonical,
+                                               double scale, const ReachRecord& r,
+                                               ProblemList& problems) const {
+  Value v;
+  const int idx = index_.find(canonical)->second;
+  const FieldSpec& spec = config_.field(canonical);
+  if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) {
+    if (spec.default_number) {
+      v.number = *spec.default_number * scale;
+      v.state = Value::State::Ok;
+    }
+    return v;
+  }
+  const OGRFieldType type = f.GetFieldDefnRef(idx)->GetType();
+  double d = 0;
+  bool ok = true;
+  if (type == OFTInteger || type == OFTInteger64 || type == OFTReal) {
+    d = f.GetFieldAsDouble(idx);
+  } else if (type == OFTString) {
+    const std::string s = f.GetFieldAsString(idx);
+    if (trim(s).empty()) return v;  // an empty text cell counts as missing
+    ok = parseNumber(s, d);
+  } else {
+    ok = false;
+  }
+  if (!ok || !std::isfinite(d)) {
+    problems.push_back(recordProblem(
+        "invalid_attribute", Severity::Error, r,
+        fmt::format("field {} ({}): \"{}\" is not a finite number", spec.name, canonical,
+                    f.GetFieldAsString(idx))));
+    v.state = Value::State::Invalid;
+    return v;
+  }
+  v.number = d * scale;
+  v.state = Value::State::Ok;
+  return v;
+}
+
+bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& problems) const {
+  const Value id = text(f, "reach_id");
+  if (id.state != Value::State::Ok) {
+    problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+                                     fmt::format("field {} (reach_id) is empty; feature skipped",
+                                                 config_.field("reach_id").name)));
+    return false;
+  }
+  r.id = id.text;
+  if (r.id.find_first_of(";,") != std::string::npos)
+    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+                                     "reach ids must not contain ';' or ',' (they separate the "
+                                     "branches of a bifurcation in to_reach)"));
+  if (hasField("to_reach")) {
+    const Value to = text(f, "to_reach");
+    if (to.state == Value::State::Ok) r.to_reach = to.text;
+  }
+  readLength(f, r, problems);
+  readSection(f, r, problems);
+  readSlope(f, r, problems);
+  readRouting(f, r, problems);
+  return true;
+}
+
+void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
+                                 ProblemList& problems) const {
+  r.up_elevation_m = number(f, "up_elevation", length_scale_, r, problems).number;
+  r.down_elevation_m = number(f, "down_elevation", length_scale_, r, problems).number;
+  const Value len = number(f, "length", length_scale_, r, problems);
+  if (len.state == Value::State::Invalid) return;
+  if (len.state == Value::State::Missing) {
+    r.length_m = r.geometry_length_m;
+    return;
+  }
+  if (!(len.number > 0)) {
+    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+                                     fmt::format("field {} (length) must be > 0, got {}",
+                                                 config_.field("length").name, len.number)));
+    return;
+  }
+  r.length_m = len.number;
+  const double g = r.geometry_length_m;
+  if (g > 0 && std::abs(len.number - g) > 0.1 * g)
+    problems.push_back(recordProblem(
+        "length_mismatch", Severity::Warning, r,
+        fmt::format("length field says {:.1f} m but the line measures {:.1f} m", len.number, g)));
+}
+
+void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
+                                ProblemList& problems) const {
+  const Value s = number(f, "slope", 1.0, r, problems);
+  double slope = s.number;
+  if (s.state == Value::State::Invalid) return;
+  if (s.state == Value::State::Missing) {
+    // Bed slope from the end elevations when no slope is given.
+    const double drop = r.up_elevation_m - r.down_elevation_m;
+    if (std::isfinite(drop) && r.length_m > 0) slope = drop / r.length_m;
+  }
+  r.section.bed_slope = slope;
+  if (std::isnan(slope)) {
+    problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+                                     "no bed slope (slope field empty and no elevations)"));
+  } else if (!(slope > 0)) {
+    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+                                     fmt::format("bed slope must be > 0, got {}", slope)));
+  } else if (slope > 0.3) {
+    problems.push_back(recordProblem("implausible_attribute", Severity::Warning, r,
+                                     fmt::format("bed slope {} is steeper than 0.3", slope)));
+  }
+}
+
+namespace {
+
+/// Reports a value outside its range; true when it is fine (or absent).
+bool checkRange(double v, bool ok, const char* what, const std::string& rule,
+                const ReachRecord& r, ProblemList& problems) {
+  if (std::isnan(v) || ok) return true;
+  problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+                                   fmt::format("{} must be {}, got {}", what, rule, v)));
+  return false;
+}
+
+void requireValue(double v, const char* what, const ReachRecord& r, ProblemList& problems) {
+  if (!std::isnan(v)) return;
+  problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+                                   fmt::format("{} is required and not given", what)));
+}
+
+}  // namespace
+
+void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
+                                  ProblemList& problems) const {
+  auto& sec = r.section;
+  const Value shape = text(f, "shape");
+  const std::string name = lower(shape.text);
+  if (shape.state != Value::State::Ok || name == "trapezoid" || name == "rectangle") {
+    sec.shape = Shape::Trapezoid;
+  } else if (name == "circle") {
+    sec.shape = Shape::Circle;
+  } else {
+    problems.push_back(recordProblem(
+        "invalid_attribute", Severity::Error, r,
+        fmt::format("field {} (shape): \"{}\" is not trapezoid or circle",
+                    config_.field("shape").name, shape.text)));
+  }
+  sec.manning_n = number(f, "manning_n", 1.0, r, problems).number;
+  requireValue(sec.manning_n, "manning_n", r, problems);
+  if (checkRange(sec.manning_n, sec.manning_n > 0, "manning_n", "> 0", r, problems) &&
+      sec.manning_n > 0.3)
+    problems.push_back(recordProblem("implausible_attribute", Severity::Warning, r,
+                                     fmt::format("manning_n {} is above 0.3", sec.manning_n)));
+  if (sec.shape == Shape::Circle) {
+    sec.diameter_m = number(f, "diameter", length_scale_, r, problems).number;
+    requireValue(sec.diameter_m, "diameter (shape circle)", r, problems);
+    checkRange(sec.diameter_m, sec.diameter_m > 0, "diameter", "> 0", r, problems);
+    return;
+  }
+  sec.bottom_width_m = number(f, "bottom_width", length_scale_, r, problems).number;
+  const double z = number(f, "side_slope", 1.0, r, problems).number;
+  sec.side_slope = std::isnan(z) ? 0.0 : z;
+  requireValue(sec.bottom_width_m, "bottom_width", r, problems);
+  checkRange(sec.bottom_width_m, sec.bottom_width_m >= 0, "bottom_width", ">= 0", r, problems);
+  checkRange(z, z >= 0, "side_slope", ">= 0", r, problems);
+  if (sec.bottom_width_m == 0 && sec.side_slope == 0)
+    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+                                     "bottom_width and side_slope are both 0 (no channel)"));
+  readTwoStage(f, r, problems);
+}
+
+void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
+                                   ProblemList& problems) const {
+  auto& sec = r.section;
+  const double yb = number(f, "bank_depth", length_scale_, r, problems).number;
+  const double wf = number(f, "floodplain_width", length_scale_, r, problems).number;
+  if (std::isnan(yb) && std::isnan(wf)) return;
+  if (std::isnan(yb) != std::isnan(wf)) {
+    problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+                                     "a two-stage section needs both bank_depth and "
+                                     "floodplain_width"));
+    return;
+  }
+  sec.shape = Shape::TwoStage;
+  sec.bank_depth_m = yb;
+  sec.floodplain_width_m = wf;
+  sec.floodplain_n = number(f, "floodplain_n", 1.0, r, problems).number;
+  checkRange(yb, yb > 0, "bank_depth", "> 0", r, problems);
+  checkRange(wf, wf > 0, "floodplain_width", "> 0", r, problems);
+  requireValue(sec.floodplain_n, "floodplain_n (two-stage section)", r, problems);
+  if (checkRange(sec.floodplain_n, sec.floodplain_n > 0, "floodplain_n", "> 0", r, problems) &&
+      sec.floodplain_n > 0.3)
+    problems.push_back(recordProblem("implausible_attribute", Severity::Warning, r,
+                                     fmt::format("floodplain_n {} is above 0.3", sec.floodplain_n)));
+}
+
+void ReachAttributes::readRouting(const OGRFeature& f, ReachRecord& r,
+                                  ProblemList& problems) const {
+  r.muskingum_k_h = number(f, "muskingum_k_h", 1.0, r, problems).number;
+  r.muskingum_x = number(f, "muskingum_x", 1.0, r, problems).number;
+  r.split = number(f, "split", 1.0, r, problems).number;
+  checkRange(r.muskingum_k_h, r.muskingum_k_h > 0, "muskingum_k_h", "> 0", r, problems);
+  checkRange(r.muskingum_x, r.muskingum_x >= 0 && r.muskingum_x <= 0.5, "muskingum_x",
+             "within [0, 0.5]", r, problems);
+  checkRange(r.split, r.split >= 0 && r.split <= 1, "split", "within [0, 1]", r, problems);
+}
+
+}  // namespace reachwise::io::detail
