@@ -1,0 +1,85 @@
+#pragma once
+/// \file
+/// Muskingum and Muskingum–Cunge coefficients, the choice of sub-reaches and
+/// sub-steps that keeps them non-negative, and Ponce's accuracy ratios.
+///
+/// Muskingum: McCarthy (1938); coefficients as in Chow, Maidment & Mays
+/// (1988) *Applied Hydrology*, §8.4. Muskingum–Cunge: Cunge (1969), *J.
+/// Hydraulic Research* 7(2), 205–230; Ponce (1989) *Engineering Hydrology*,
+/// ch. 9. See docs/methods.md.
+
+#include <cstdint>
+
+namespace reachwise::routing {
+
+/// One cell's update, O(n+1) = in_new I(n+1) + in_old I(n) + out_old O(n)
+/// + lateral · q_L Δx, where q_L Δx (m^3/s) is the lateral inflow entering
+/// the cell during the step. in_new + in_old + out_old = 1.
+struct Coefficients {
+  double in_new = 0, in_old = 0, out_old = 0, lateral = 0;
+  bool nonNegative() const { return in_new >= 0 && in_old >= 0 && out_old >= 0; }
+  double sum() const { return in_new + in_old + out_old; }
+};
+
+/// Muskingum coefficients for storage constant K (s), weight X and step Δt (s):
+///   den = K(1 − X) + Δt/2, C1 = (Δt/2 − K X)/den, C2 = (Δt/2 + K X)/den,
+///   C3 = (K(1 − X) − Δt/2)/den, lateral = Δt/den.
+/// Throws InvalidParameter for K <= 0, X outside [0, 0.5], Δt <= 0.
+Coefficients muskingumCoefficients(double k_s, double x, double dt_s);
+
+/// Cunge's parameters for one sub-reach at reference flow Q (Cunge 1969):
+///   K = Δx / c,  X = (1 − D)/2,  C = c Δt / Δx,  D = Q / (T S0 c Δx).
+struct CungeParameters {
+  double k_s = 0, x = 0, courant = 0, cell_reynolds = 0;
+  bool x_clamped = false;  ///< D > 1 gave X < 0; X was raised to 0 (D taken as 1)
+  Coefficients coefficients;
+};
+CungeParameters cungeParameters(double celerity_ms, double top_width_m, double bed_slope,
+                                double q_ref_m3s, double dx_m, double dt_s);
+
+/// Coefficients from Courant number C and cell Reynolds number D:
+///   den = 1 + C + D, C0 = (−1 + C + D)/den, C1 = (1 + C − D)/den,
+///   C2 = (1 − C + D)/den, C3 = 2C/den  (Ponce 1989, eq. 9-62 form).
+inline Coefficients cungeCoefficients(double courant, double cell_reynolds) {
+  const double inv = 1.0 / (1.0 + courant + cell_reynolds);
+  return Coefficients{(-1.0 + courant + cell_reynolds) * inv, (1.0 + courant - cell_reynolds) * inv,
+                      (1.0 - courant + cell_reynolds) * inv, 2.0 * courant * inv};
+}
+
+/// Sub-reach count m (Δx = L/m) and sub-step count k (Δt_sub = Δt/k).
+struct Grid {
+  std::uint32_t subreaches = 1;
+  std::uint32_t substeps = 1;
+  bool x_clamped = false;    ///< reach shorter than Q/(T S0 c): X = 0 used
+  bool compromise = false;   ///< no (m, k) met every bound; the closest was used
+};
+
+struct GridLimits {
+  std::uint32_t max_subreaches = 1000;
+  std::uint32_t max_substeps = 240;
+};
+
+/// Muskingum–Cunge grid: with ℓ = Q/(T S0 c) the coefficients are
+/// non-negative and X >= 0 exactly when max(ℓ, cΔt_sub − ℓ) <= Δx <= ℓ + cΔt_sub.
+/// Takes the fewest sub-steps for which such a Δx = L/m exists, and within
+/// that the m that puts the Courant number closest to 1 (where the scheme
+/// is exact for a pure translation). A reach shorter than ℓ gets m = 1 and
+/// X = 0, with enough sub-steps that C <= 2.
+Grid chooseCungeGrid(double length_m, double celerity_ms, double top_width_m, double bed_slope,
+                     double q_ref_m3s, double dt_s, const GridLimits& limits = {});
+
+/// Muskingum grid for given K and X: splits the reach into m sub-reaches of
+/// K/m and the step into k sub-steps so that 2 (K/m) X <= Δt/k <= 2 (K/m)(1 − X)
+/// (the no-negative-coefficient band; common practice, no source).
+Grid chooseMuskingumGrid(double k_s, double x, double dt_s, const GridLimits& limits = {});
+
+/// Ponce's convergence ratios (Ponce 1989, §9; Ponce & Theurer 1982):
+/// amplitude R1 and phase R2 of the numerical against the analytical
+/// diffusion wave, for Courant number C, weight X and σΔx = 2π Δx / L
+/// (L the wavelength). Both are 1 for an exact scheme.
+struct ConvergenceRatios {
+  double amplitude = 0, phase = 0;
+};
+ConvergenceRatios ponceConvergenceRatios(double courant, double x, double sigma_dx);
+
+}  // namespace reachwise::routing

@@ -1,0 +1,91 @@
+#pragma once
+/// \file
+/// Routing one reach: a top inflow hydrograph (and lateral inflow along the
+/// reach) in, the outflow hydrograph out, with the numerics chosen per reach
+/// and a volume balance. See docs/methods.md.
+
+#include <cmath>
+#include <limits>
+#include <optional>
+#include <span>
+#include <vector>
+
+#include "reachwise/hydraulics/RatingTable.hpp"
+#include "reachwise/hydraulics/Section.hpp"
+#include "reachwise/routing/Muskingum.hpp"
+#include "reachwise/routing/Results.hpp"
+
+namespace reachwise::routing {
+
+enum class Method {
+  VariableParameter,  ///< `vpmc`: c, T, C, D recomputed in every cell (Ponce & Yevjevich 1978)
+  ConstantParameter,  ///< `mc`: one reference flow per reach for the whole event (Cunge 1969)
+  Muskingum,          ///< `muskingum`: the reach's own K and X (McCarthy 1938)
+};
+
+enum class Scheme {
+  ThreePoint,  ///< reference flow from Q[j,n], Q[j,n+1], Q[j+1,n]
+  FourPoint,   ///< ... and Q[j+1,n+1], iterated (Ponce & Chaganti 1994)
+};
+
+/// What the router needs to know about a reach.
+struct ReachSpec {
+  hydraulics::Section section;
+  double length_m = 0;
+  double muskingum_k_s = std::numeric_limits<double>::quiet_NaN();  ///< `muskingum` only
+  double muskingum_x = std::numeric_limits<double>::quiet_NaN();
+};
+
+struct RouteOptions {
+  Method method = Method::VariableParameter;
+  Scheme scheme = Scheme::ThreePoint;
+  std::uint32_t subreaches = 0;   ///< 0 = choose automatically
+  std::uint32_t substeps = 0;     ///< 0 = choose automatically
+  /// Reference flow for the grid (and the `mc` parameters); NaN = the rule
+  /// Q_ref = Q_base + (Q_peak − Q_base)/2 of the total inflow (top + lateral).
+  double reference_q_m3s = std::numeric_limits<double>::quiet_NaN();
+  int four_point_iterations = 3;
+  std::size_t table_nodes = 64;
+  GridLimits limits;
+};
+
+/// Output of routing one reach on the forcing's time axis.
+struct ReachRun {
+  ReachNumerics numerics;
+  VolumeBalance volume;
+  double inflow_peak_m3s = 0;    ///< of top + lateral inflow
+  double inflow_peak_index = 0;  ///< fractional sample
+  double rise_s = 0;             ///< rise time of the total inflow's peak
+};
+
+/// Routes reaches one after another; keeps its work buffers between calls
+/// so a network run does not allocate per reach. Not thread-safe: use one
+/// per thread.
+class ReachRouter {
+public:
+  /// `inflow_m3s[n]` enters at the top, `lateral_m3s[n]` (empty = none) is
+  /// the total lateral inflow along the reach, both on steps of `dt_s`.
+  /// Writes the outflow into `outflow_m3s` (resized to the inflow's length).
+  /// The reach starts in the steady state of the first sample. Throws
+  /// InvalidParameter for a bad reach, step or negative/NaN inflow.
+  ReachRun route(const ReachSpec& reach, std::span<const double> inflow_m3s,
+                 std::span<const double> lateral_m3s, double dt_s, const RouteOptions& options,
+                 std::vector<double>& outflow_m3s);
+
+  /// The rating table the last `vpmc` route used (for depth and velocity of
+  /// its outflow); nullopt after other methods.
+  const std::optional<hydraulics::RatingTable>& lastTable() const { return table_; }
+
+private:
+  std::vector<double> q_;      // flows at the m+1 section ends, current time
+  std::vector<double> total_;  // inflow + lateral, for the reference flow rule
+  std::optional<hydraulics::RatingTable> table_;
+};
+
+/// Depth and velocity of uniform flow for each discharge of `q_m3s`, through
+/// the table when given, else by direct solve.
+void depthAndVelocity(const hydraulics::Section& section, const hydraulics::RatingTable* table,
+                      std::span<const double> q_m3s, std::vector<double>& depth_m,
+                      std::vector<double>& velocity_ms);
+
+}  // namespace reachwise::routing

@@ -1,0 +1,132 @@
+#include "reachwise/routing/Muskingum.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::routing {
+
+namespace {
+void requirePositive(const char* quantity, double v) {
+  if (!(v > 0) || !std::isfinite(v)) throw InvalidParameter(quantity, "must be a finite number > 0");
+}
+}  // namespace
+
+Coefficients muskingumCoefficients(double k_s, double x, double dt_s) {
+  requirePositive("muskingum_k", k_s);
+  requirePositive("dt", dt_s);
+  if (!(x >= 0 && x <= 0.5)) throw InvalidParameter("muskingum_x", "must lie in [0, 0.5]");
+  // Chow, Maidment & Mays (1988), Applied Hydrology, eq. 8.4.7.
+  const double den = k_s * (1.0 - x) + 0.5 * dt_s;
+  return Coefficients{(0.5 * dt_s - k_s * x) / den, (0.5 * dt_s + k_s * x) / den,
+                      (k_s * (1.0 - x) - 0.5 * dt_s) / den, dt_s / den};
+}
+
+CungeParameters cungeParameters(double c, double t, double slope, double q, double dx, double dt) {
+  requirePositive("celerity", c);
+  requirePositive("top_width", t);
+  requirePositive("slope", slope);
+  requirePositive("dx", dx);
+  requirePositive("dt", dt);
+  if (!(q >= 0) || !std::isfinite(q)) throw InvalidParameter("discharge", "must be finite and >= 0");
+  CungeParameters p;
+  p.k_s = dx / c;
+  p.courant = c * dt / dx;
+  p.cell_reynolds = q / (t * slope * c * dx);
+  if (p.cell_reynolds > 1.0) {
+    p.cell_reynolds = 1.0;
+    p.x_clamped = true;
+  }
+  p.x = 0.5 * (1.0 - p.cell_reynolds);
+  p.coefficients = cungeCoefficients(p.courant, p.cell_reynolds);
+  return p;
+}
+
+Grid chooseCungeGrid(double length, double c, double t, double slope, double q, double dt,
+                     const GridLimits& limits) {
+  requirePositive("length", length);
+  requirePositive("celerity", c);
+  requirePositive("top_width", t);
+  requirePositive("slope", slope);
+  requirePositive("dt", dt);
+  const double ell = std::max(q, 0.0) / (t * slope * c);  // Δx at which D = 1
+  Grid g;
+  if (length <= ell) {
+    // Even one sub-reach is shorter than the diffusion length: X = 0 (D = 1),
+    // and C <= 1 + D = 2 bounds the sub-step.
+    g.x_clamped = true;
+    g.substeps = static_cast<std::uint32_t>(
+        std::clamp(std::ceil(c * dt / (2.0 * length)), 1.0, double(limits.max_substeps)));
+    g.compromise = c * dt / g.substeps > 2.0 * length * (1 + 1e-12);
+    return g;
+  }
+  for (std::uint32_t k = 1; k <= limits.max_substeps; ++k) {
+    const double ct = c * dt / k;  // distance the wave travels in one sub-step
+    const double lo = std::max(ell, ct - ell), hi = ell + ct;
+    const double m_lo = std::max(1.0, std::ceil(length / hi * (1 - 1e-12)));
+    const double m_hi = std::min(double(limits.max_subreaches), std::floor(length / lo * (1 + 1e-12)));
+    if (m_lo <= m_hi) {
+      g.substeps = k;
+      g.subreaches = static_cast<std::uint32_t>(std::clamp(std::round(length / ct), m_lo, m_hi));  // C ≈ 1
+      return g;
+    }
+    if (ct < ell) break;  // diffusion dominates; smaller sub-steps only narrow the band
+  }
+  // No Δx = L/m lies in the band (the wave moves less than ℓ per step):
+  // take the coarsest sub-reach not longer than ℓ, so D is just above 1 and
+  // X = 0 is used, with C <= 2 keeping the coefficients non-negative.
+  const double m = std::min(double(limits.max_subreaches), std::ceil(length / ell));
+  const double dx = length / m;
+  const double k = std::clamp(std::ceil(c * dt / (2.0 * dx)), 1.0, double(limits.max_substeps));
+  g.subreaches = static_cast<std::uint32_t>(m);
+  g.substeps = static_cast<std::uint32_t>(k);
+  g.x_clamped = dx < ell;
+  g.compromise = dx > ell * (1 + 1e-12) || c * dt / k > 2.0 * dx * (1 + 1e-12);
+  return g;
+}
+
+Grid chooseMuskingumGrid(double k_s, double x, double dt, const GridLimits& limits) {
+  requirePositive("muskingum_k", k_s);
+  requirePositive("dt", dt);
+  if (!(x >= 0 && x <= 0.5)) throw InvalidParameter("muskingum_x", "must lie in [0, 0.5]");
+  // r = Δt_sub / (2 K_sub) = Δt m / (2 K k) must lie in [X, 1 − X].
+  Grid best;
+  double best_score = std::numeric_limits<double>::infinity();
+  for (std::uint32_t k = 1; k <= limits.max_substeps; ++k) {
+    for (std::uint32_t m = 1; m <= limits.max_subreaches; ++m) {
+      const double r = dt * m / (2.0 * k_s * k);
+      if (r >= x * (1 - 1e-12) && r <= (1.0 - x) * (1 + 1e-12)) {
+        Grid g;
+        g.subreaches = m;
+        g.substeps = k;
+        return g;
+      }
+      const double score = r < x ? x - r : r - (1.0 - x);
+      if (score < best_score) {
+        best_score = score;
+        best.subreaches = m;
+        best.substeps = k;
+      }
+      if (r > 1.0 - x) break;  // larger m only moves r further up
+    }
+  }
+  best.compromise = true;
+  return best;
+}
+
+ConvergenceRatios ponceConvergenceRatios(double courant, double x, double sigma_dx) {
+  // Ponce (1989), Engineering Hydrology, §9.4 (Ponce & Theurer 1982).
+  const double p = std::cos(sigma_dx), s = std::sin(sigma_dx);
+  const double r = x + courant / 2.0, sv = r - courant;
+  const double m = (1.0 - p) * (1.0 - 2.0 * sv) * courant;
+  const double n = s * courant;
+  const double pp = 1.0 - 2.0 * (1.0 - p) * (1.0 - sv) * sv;
+  ConvergenceRatios out;
+  out.amplitude = std::sqrt((pp - m) * (pp - m) + n * n) / pp;
+  out.phase = std::atan2(n, pp - m) / (courant * sigma_dx);
+  return out;
+}
+
+}  // namespace reachwise::routing

@@ -1,0 +1,329 @@
+#include "reachwise/routing/ReachRouter.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/routing/Peak.hpp"
+
+namespace reachwise::routing {
+
+namespace {
+
+constexpr double kNan = std::numeric_limits<double>::quiet_NaN();
+
+void checkSeries(const char* quantity, std::span<const double> s) {
+  for (std::size_t i = 0; i < s.size(); ++i)
+    if (!(s[i] >= 0) || !std::isfinite(s[i]))
+      throw InvalidParameter(quantity, "sample " + std::to_string(i) + " is negative or not finite (" +
+                                           std::to_string(s[i]) + ")");
+}
+
+/// Forcing of one output step, interpolated linearly to sub-steps.
+struct StepForcing {
+  double in0, in1, lat0, lat1;
+  double inflowAt(double f) const { return in0 + (in1 - in0) * f; }
+  double lateralAt(double f) const { return lat0 + (lat1 - lat0) * f; }
+};
+
+struct Totals {
+  double in = 0, lat = 0, out = 0;
+};
+
+/// Storage of a reach with uniform sub-reach parameters, S = Σ K [X I + (1 − X) O].
+double linearStorage(const std::vector<double>& q, double k_s, double x) {
+  double s = 0;
+  for (std::size_t j = 0; j + 1 < q.size(); ++j) s += k_s * (x * q[j] + (1.0 - x) * q[j + 1]);
+  return s;
+}
+
+void initialState(std::vector<double>& q, std::uint32_t m, double inflow0, double lateral0) {
+  // Steady state of the first sample: lateral inflow accumulates linearly.
+  q.resize(m + 1);
+  for (std::uint32_t j = 0; j <= m; ++j) q[j] = inflow0 + lateral0 * j / m;
+}
+
+/// Constant coefficients on every cell and step (`mc`, `muskingum`).
+/// With non-negative coefficients and non-negative forcing no flow can turn
+/// negative, so the clamp is only checked when a coefficient is negative.
+void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
+                   std::span<const double> inflow, std::span<const double> lateral, double dt,
+                   std::vector<double>& q, std::vector<double>& out, Totals& tot,
+                   std::uint64_t& negative_clamps) {
+  const std::size_t n_steps = inflow.size();
+  const double dts = dt / k;
+  const bool check = !cf.nonNegative();
+  const double a = cf.in_new, b = cf.in_old, c = cf.out_old;
+  out[0] = q[m];
+  for (std::size_t n = 0; n + 1 < n_steps; ++n) {
+    const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
+                        lateral.empty() ? 0.0 : lateral[n + 1]};
+    for (std::uint32_t s = 1; s <= k; ++s) {
+      const double fr = double(s) / k, fr0 = double(s - 1) / k;
+      const double lat_term = cf.lateral * 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;
+      const double q_out_old = q[m];
+      double left_new = f.inflowAt(fr), left_old = q[0];
+      q[0] = left_new;
+      for (std::uint32_t j = 1; j <= m; ++j) {
+        const double old = q[j];
+        double v = a * left_new + b * left_old + c * old + lat_term;
+        if (check && v < 0) {
+          v = 0;
+          ++negative_clamps;
+        }
+        q[j] = v;
+        left_new = v;
+        left_old = old;
+      }
+      tot.out += 0.5 * dts * (q_out_old + q[m]);
+    }
+    tot.in += 0.5 * dt * (f.in0 + f.in1);
+    tot.lat += 0.5 * dt * (f.lat0 + f.lat1);
+    out[n + 1] = q[m];
+  }
+}
+
+/// Per-cell parameters of variable-parameter routing.
+struct VpCell {
+  const hydraulics::RatingTable& table;
+  double slope, dx, dts, capacity;
+  std::uint64_t x_clamps = 0, surcharge = 0;
+
+  /// C and D at reference flow qr (Ponce & Yevjevich 1978).
+  void courantAndReynolds(double qr, double& C, double& D) {
+    double c, t;
+    table.celerityAndWidth(qr, c, t);
+    C = c * dts / dx;
+    D = qr / (t * slope * c * dx);
+    if (D > 1.0) {
+      D = 1.0;  // X < 0 raised to 0
+      ++x_clamps;
+    }
+    if (qr > capacity) ++surcharge;
+  }
+  static double update(double C, double D, double left_new, double left_old, double old, double lat) {
+    return ((-1.0 + C + D) * left_new + (1.0 + C - D) * left_old + (1.0 - C + D) * old +
+            2.0 * C * lat) /
+           (1.0 + C + D);
+  }
+  /// Storage with each cell's parameters at the mean of its end flows.
+  double storage(const std::vector<double>& q) {
+    double s = 0;
+    const std::uint64_t keep = x_clamps, keep_s = surcharge;
+    for (std::size_t j = 0; j + 1 < q.size(); ++j) {
+      const double qm = std::max(0.5 * (q[j] + q[j + 1]), table.bottomDischarge());
+      double c, t;
+      table.celerityAndWidth(qm, c, t);
+      const double x = 0.5 * (1.0 - std::min(1.0, qm / (t * slope * c * dx)));
+      s += dx / c * (x * q[j] + (1.0 - x) * q[j + 1]);
+    }
+    x_clamps = keep, surcharge = keep_s;
+    return s;
+  }
+};
+
+void routeVariable(VpCell& cell, Scheme scheme, int iterations, std::uint32_t m, std::uint32_t k,
+                   std::span<const double> inflow, std::span<const double> lateral, double dt,
+                   std::vector<double>& q, std::vector<double>& out, Totals& tot,
+                   std::uint64_t& negative_clamps) {
+  const std::size_t n_steps = inflow.size();
+  const double dts = dt / k;
+  out[0] = q[m];
+  for (std::size_t n = 0; n + 1 < n_steps; ++n) {
+    const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
+                        lateral.empty() ? 0.0 : lateral[n + 1]};
+    for (std::uint32_t s = 1; s <= k; ++s) {
+      const double fr = double(s) / k, fr0 = double(s - 1) / k;
+      const double lat = 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;  // q_L Δx, m^3/s
+      const double q_out_old = q[m];
+      double left_new = f.inflowAt(fr), left_old = q[0];
+      q[0] = left_new;
+      for (std::uint32_t j = 1; j <= m; ++j) {
+        const double old = q[j];
+        double C, D;
+        cell.courantAndReynolds((left_new + left_old + old) / 3.0, C, D);
+        double v = VpCell::update(C, D, left_new, left_old, old, lat);
+        if (scheme == Scheme::FourPoint) {
+          for (int it = 0; it < iterations; ++it) {
+            cell.courantAndReynolds(0.25 * (left_new + left_old + old + std::max(v, 0.0)), C, D);
+            const double next = VpCell::update(C, D, left_new, left_old, old, lat);
+            const bool done = std::abs(next - v) <= 1e-10 * std::abs(next);
+            v = next;
+            if (done) break;
+          }
+        }
+        if (v < 0) {
+          v = 0;
+          ++negative_clamps;
+        }
+        q[j] = v;
+        left_new = v;
+        left_old = old;
+      }
+      tot.out += 0.5 * dts * (q_out_old + q[m]);
+    }
+    tot.in += 0.5 * dt * (f.in0 + f.in1);
+    tot.lat += 0.5 * dt * (f.lat0 + f.lat1);
+    out[n + 1] = q[m];
+  }
+}
+
+void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1) {
+  v.inflow_m3 = t.in;
+  v.lateral_m3 = t.lat;
+  v.outflow_m3 = t.out;
+  v.storage_change_m3 = s1 - s0;
+  const double entered = t.in + t.lat;
+  v.error_pct = entered > 0 ? 100.0 * (entered - t.out - (s1 - s0)) / entered : 0.0;
+}
+
+/// The grid for Muskingum–Cunge: chosen, or as forced by the options. With
+/// only the sub-reach count forced, the sub-steps follow from C <= 1 + D.
+Grid cungeGrid(const RouteOptions& o, double length, double c, double t, double slope, double q,
+               double dt) {
+  if (o.subreaches == 0 && o.substeps == 0)
+    return chooseCungeGrid(length, c, t, slope, q, dt, o.limits);
+  Grid g;
+  g.subreaches = o.subreaches > 0 ? o.subreaches : chooseCungeGrid(length, c, t, slope, q, dt, o.limits).subreaches;
+  const double dx = length / g.subreaches;
+  const double d = std::min(1.0, q / (t * slope * c * dx));
+  g.substeps = o.substeps > 0 ? o.substeps
+                              : static_cast<std::uint32_t>(std::max(1.0, std::ceil(c * dt / (dx * (1.0 + d)))));
+  return g;
+}
+
+Grid muskingumGrid(const RouteOptions& o, double k_s, double x, double dt) {
+  Grid g = chooseMuskingumGrid(k_s, x, dt, o.limits);
+  if (o.subreaches > 0) g.subreaches = o.subreaches;
+  if (o.substeps > 0) g.substeps = o.substeps;
+  if (o.subreaches > 0 || o.substeps > 0) g.compromise = false;
+  return g;
+}
+
+}  // namespace
+
+ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> inflow,
+                            std::span<const double> lateral, double dt, const RouteOptions& opt,
+                            std::vector<double>& out) {
+  if (!(dt > 0) || !std::isfinite(dt)) throw InvalidParameter("dt", "must be a finite step > 0 s");
+  if (!(reach.length_m > 0) || !std::isfinite(reach.length_m))
+    throw InvalidParameter("length", "must be a finite length > 0 m");
+  if (inflow.empty()) throw InvalidParameter("inflow", "has no samples");
+  if (!lateral.empty() && lateral.size() != inflow.size())
+    throw InvalidParameter("lateral", "must have as many samples as the inflow");
+  checkSeries("inflow", inflow);
+  checkSeries("lateral", lateral);
+  table_.reset();
+
+  const std::size_t n_steps = inflow.size();
+  total_.resize(n_steps);
+  for (std::size_t i = 0; i < n_steps; ++i) total_[i] = inflow[i] + (lateral.empty() ? 0.0 : lateral[i]);
+  ReachRun run;
+  const Peak in_peak = findPeak(total_);
+  run.inflow_peak_m3s = in_peak.value;
+  run.inflow_peak_index = in_peak.index;
+  run.rise_s = riseSamples(total_) * dt;
+  const auto [lo_it, hi_it] = std::minmax_element(total_.begin(), total_.end());
+  const double q_base = *lo_it, q_peak = *hi_it;
+  const double q_ref = std::isnan(opt.reference_q_m3s) ? q_base + 0.5 * (q_peak - q_base)
+                                                       : opt.reference_q_m3s;
+  out.assign(n_steps, 0.0);
+  ReachNumerics& num = run.numerics;
+  num.reference_q_m3s = q_ref;
+  if (!(q_peak > 0)) return run;  // a dry reach stays dry
+
+  const hydraulics::Section& sec = reach.section;
+  Totals tot;
+  double s0 = 0, s1 = 0, sigma_dx = kNan;
+
+  if (opt.method == Method::Muskingum) {
+    const double k_s = reach.muskingum_k_s, x = reach.muskingum_x;
+    if (!(k_s > 0) || !std::isfinite(k_s)) throw InvalidParameter("muskingum_k_h", "must be > 0");
+    if (!(x >= 0 && x <= 0.5)) throw InvalidParameter("muskingum_x", "must lie in [0, 0.5]");
+    const Grid g = muskingumGrid(opt, k_s, x, dt);
+    const double k_sub = k_s / g.subreaches, dts = dt / g.substeps;
+    const Coefficients cf = muskingumCoefficients(k_sub, x, dts);
+    num.subreaches = g.subreaches;
+    num.substeps = g.substeps;
+    num.grid_compromise = g.compromise;
+    num.k_s = k_sub;
+    num.x = x;
+    num.courant = dts / k_sub;  // K = Δx / c, so Δt/K is the Courant number
+    num.cell_reynolds = 1.0 - 2.0 * x;
+    num.dx_m = reach.length_m / g.subreaches;
+    num.celerity_ms = num.dx_m / k_sub;
+    num.dt_sub_s = dts;
+    initialState(q_, g.subreaches, inflow[0], lateral.empty() ? 0.0 : lateral[0]);
+    s0 = linearStorage(q_, k_sub, x);
+    routeConstant(cf, g.subreaches, g.substeps, inflow, lateral, dt, q_, out, tot, num.negative_clamps);
+    s1 = linearStorage(q_, k_sub, x);
+  } else {
+    // Parameters (and for `vpmc` the grid) at the reference flow. A pipe
+    // asked for more than it carries is evaluated just below its cap, where
+    // the celerity is still positive.
+    const double q_eval = std::min(q_ref, 0.99 * sec.capacity());
+    const hydraulics::FlowState ref = sec.normalFlow(std::max(q_eval, 1e-9));
+    const double c = ref.celerity_ms, t = ref.top_width_m, slope = sec.bedSlope();
+    const Grid g = cungeGrid(opt, reach.length_m, c, t, slope, q_eval, dt);
+    const double dx = reach.length_m / g.subreaches, dts = dt / g.substeps;
+    const CungeParameters p = cungeParameters(c, t, slope, q_eval, dx, dts);
+    num.subreaches = g.subreaches;
+    num.substeps = g.substeps;
+    num.grid_compromise = g.compromise || !p.coefficients.nonNegative();
+    num.dx_m = dx;
+    num.dt_sub_s = dts;
+    num.celerity_ms = c;
+    num.courant = p.courant;
+    num.cell_reynolds = p.cell_reynolds;
+    num.x = p.x;
+    num.k_s = p.k_s;
+    initialState(q_, g.subreaches, inflow[0], lateral.empty() ? 0.0 : lateral[0]);
+    if (opt.method == Method::ConstantParameter) {
+      if (p.x_clamped) num.x_clamps = 1;
+      if (q_peak > sec.capacity()) num.surcharge_cells = 1;
+      s0 = linearStorage(q_, p.k_s, p.x);
+      routeConstant(p.coefficients, g.subreaches, g.substeps, inflow, lateral, dt, q_, out, tot,
+                    num.negative_clamps);
+      s1 = linearStorage(q_, p.k_s, p.x);
+    } else {
+      const double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
+      table_.emplace(sec, q_hi * 1e-5, q_hi, opt.table_nodes);
+      VpCell cell{*table_, slope, dx, dts, sec.capacity()};
+      s0 = cell.storage(q_);
+      routeVariable(cell, opt.scheme, opt.four_point_iterations, g.subreaches, g.substeps, inflow,
+                    lateral, dt, q_, out, tot, num.negative_clamps);
+      s1 = cell.storage(q_);
+      num.x_clamps = cell.x_clamps;
+      num.surcharge_cells = cell.surcharge;
+    }
+  }
+  // Ponce's ratios for a wave of period 2 t_rise and wavelength c T_w.
+  if (run.rise_s > 0 && num.celerity_ms > 0) {
+    const double wavelength = num.celerity_ms * 2.0 * run.rise_s;
+    sigma_dx = 2.0 * std::numbers::pi * num.dx_m / wavelength;
+    const ConvergenceRatios r = ponceConvergenceRatios(num.courant, num.x, sigma_dx);
+    num.amplitude_ratio = r.amplitude;
+    num.phase_ratio = r.phase;
+  }
+  finishVolume(run.volume, tot, s0, s1);
+  return run;
+}
+
+void depthAndVelocity(const hydraulics::Section& section, const hydraulics::RatingTable* table,
+                      std::span<const double> q, std::vector<double>& depth,
+                      std::vector<double>& velocity) {
+  depth.resize(q.size());
+  velocity.resize(q.size());
+  for (std::size_t i = 0; i < q.size(); ++i) {
+    if (table) {
+      table->depthAndVelocity(q[i], depth[i], velocity[i]);
+    } else {
+      const hydraulics::FlowState f = section.normalFlow(std::max(q[i], 0.0));
+      depth[i] = f.depth_m;
+      velocity[i] = f.velocity_ms;
+    }
+  }
+}
+
+}  // namespace reachwise::routing

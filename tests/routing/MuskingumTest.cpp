@@ -1,0 +1,110 @@
+#include "reachwise/routing/Muskingum.hpp"
+
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <random>
+
+#include "reachwise/Error.hpp"
+
+using namespace reachwise;
+using namespace reachwise::routing;
+
+// Chow, Maidment & Mays (1988), Applied Hydrology, Example 8.4.1 (from memory):
+// K = 2.3 h, X = 0.15, Δt = 1 h -> C1 = 0.0631, C2 = 0.3442, C3 = 0.5927.
+TEST(Muskingum, CoefficientsChowMaidmentMaysExample8_4_1) {
+  const Coefficients c = muskingumCoefficients(2.3 * 3600, 0.15, 3600);
+  EXPECT_NEAR(c.in_new, 0.0631, 5e-5);
+  EXPECT_NEAR(c.in_old, 0.3442, 5e-5);
+  EXPECT_NEAR(c.out_old, 0.5927, 5e-5);
+  EXPECT_NEAR(c.sum(), 1.0, 1e-15);
+}
+
+// C1 + C2 + C3 = 1 for any K, X, Δt (follows from continuity; Chow et al. 1988 §8.4).
+TEST(Muskingum, CoefficientsSumToOne) {
+  std::mt19937 rng(4242);
+  std::uniform_real_distribution<double> k(60, 1e6), x(0, 0.5), dt(1, 86400);
+  for (int i = 0; i < 1000; ++i) EXPECT_NEAR(muskingumCoefficients(k(rng), x(rng), dt(rng)).sum(), 1.0, 1e-12);
+}
+
+// Cunge (1969): K = Δx/c and X = (1 − Q/(T S0 c Δx))/2, here by hand.
+TEST(MuskingumCunge, CungeKAndX) {
+  const double c = 1.5, t = 40, s = 0.0008, q = 120, dx = 3000, dt = 1800;
+  const CungeParameters p = cungeParameters(c, t, s, q, dx, dt);
+  EXPECT_DOUBLE_EQ(p.k_s, 2000.0);
+  EXPECT_NEAR(p.x, 0.5 * (1 - 120.0 / (40 * 0.0008 * 1.5 * 3000)), 1e-15);
+  EXPECT_NEAR(p.courant, 0.9, 1e-15);
+  EXPECT_FALSE(p.x_clamped);
+  // The C/D form equals the Muskingum form with the same K and X.
+  const Coefficients m = muskingumCoefficients(p.k_s, p.x, dt);
+  EXPECT_NEAR(p.coefficients.in_new, m.in_new, 1e-14);
+  EXPECT_NEAR(p.coefficients.in_old, m.in_old, 1e-14);
+  EXPECT_NEAR(p.coefficients.out_old, m.out_old, 1e-14);
+  EXPECT_NEAR(p.coefficients.lateral * dx, m.lateral * dx, 1e-9);
+}
+
+TEST(MuskingumCunge, NegativeXIsClampedAndFlagged) {
+  const CungeParameters p = cungeParameters(1.0, 10, 0.0001, 100, 500, 600);
+  EXPECT_TRUE(p.x_clamped);
+  EXPECT_DOUBLE_EQ(p.x, 0.0);
+  EXPECT_TRUE(p.coefficients.nonNegative());
+}
+
+// Property: the chosen grid keeps all coefficients >= 0 and X >= 0 over a
+// wide range of reaches (the bounds of METHODS §3).
+TEST(MuskingumCunge, ChosenGridKeepsCoefficientsNonNegative) {
+  std::mt19937 rng(99);
+  std::uniform_real_distribution<double> u(0, 1);
+  int compromises = 0;
+  for (int i = 0; i < 2000; ++i) {
+    const double length = 50 + 50000 * u(rng) * u(rng), c = 0.2 + 4 * u(rng), t = 2 + 200 * u(rng);
+    const double s = 1e-5 + 0.02 * u(rng), q = 0.1 + 2000 * u(rng) * u(rng), dt = 300 + 7200 * u(rng);
+    const Grid g = chooseCungeGrid(length, c, t, s, q, dt);
+    if (g.compromise) { ++compromises; continue; }
+    const CungeParameters p = cungeParameters(c, t, s, q, length / g.subreaches, dt / g.substeps);
+    EXPECT_TRUE(p.coefficients.nonNegative()) << i;
+    EXPECT_GE(p.x, 0.0);
+    EXPECT_EQ(p.x_clamped, g.x_clamped) << i;
+  }
+  EXPECT_EQ(compromises, 0);
+}
+
+TEST(Muskingum, SubSteppingBringsStepIntoBand) {
+  // Δt = 6 h against K = 1 h, X = 0.2: band 2KX <= Δt <= 2K(1 − X) fails.
+  const Grid g = chooseMuskingumGrid(3600, 0.2, 6 * 3600);
+  EXPECT_FALSE(g.compromise);
+  const double k_sub = 3600.0 / g.subreaches, dts = 6 * 3600.0 / g.substeps;
+  EXPECT_GE(dts, 2 * k_sub * 0.2);
+  EXPECT_LE(dts, 2 * k_sub * 0.8);
+  EXPECT_TRUE(muskingumCoefficients(k_sub, 0.2, dts).nonNegative());
+  // Δt far below 2KX: the reach is split.
+  const Grid h = chooseMuskingumGrid(10 * 3600, 0.3, 600);
+  EXPECT_GT(h.subreaches, 1u);
+  EXPECT_TRUE(muskingumCoefficients(10 * 3600.0 / h.subreaches, 0.3, 600.0 / h.substeps).nonNegative());
+}
+
+// Ponce (1989): the scheme is exact for C = 1, X = 1/2.
+TEST(MuskingumCunge, ConvergenceRatiosExactCase) {
+  for (double sdx : {0.05, 0.3, 1.0}) {
+    const ConvergenceRatios r = ponceConvergenceRatios(1.0, 0.5, sdx);
+    EXPECT_NEAR(r.amplitude, 1.0, 1e-12);
+    EXPECT_NEAR(r.phase, 1.0, 1e-12);
+  }
+  // Finer grids (smaller σΔx) converge towards 1 (Ponce 1989, Fig. 9-13 trend).
+  const ConvergenceRatios coarse = ponceConvergenceRatios(0.6, 0.2, 0.8);
+  const ConvergenceRatios fine = ponceConvergenceRatios(0.6, 0.2, 0.1);
+  EXPECT_LT(std::abs(fine.amplitude - 1), std::abs(coarse.amplitude - 1));
+  EXPECT_LT(std::abs(fine.phase - 1), std::abs(coarse.phase - 1));
+}
+
+TEST(Muskingum, BadParametersNameTheQuantity) {
+  try {
+    muskingumCoefficients(3600, 0.7, 600);
+    FAIL();
+  } catch (const InvalidParameter& e) {
+    EXPECT_EQ(e.quantity(), "muskingum_x");
+  }
+  EXPECT_THROW(muskingumCoefficients(-1, 0.2, 600), InvalidParameter);
+  EXPECT_THROW(cungeParameters(1, 10, 0.0, 5, 100, 60), InvalidParameter);
+  EXPECT_THROW(cungeParameters(1, 10, 0.001, std::nan(""), 100, 60), InvalidParameter);
+}
