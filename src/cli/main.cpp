@@ -4,6 +4,8 @@
 
 #include <exception>
 
+#include "CheckCommand.hpp"
+#include "Subcommand.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/version.hpp"
 
@@ -12,14 +14,21 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", std::string("reachwise ") + reachwise::kVersion + " (" +
                                         reachwise::kGitHash + ")");
   app.require_subcommand(0, 1);
+  reachwise::cli::Runner chosen;
+  reachwise::cli::addCheckCommand(app, chosen);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
-    return app.exit(e) == 0 ? 0 : 2;
+    return app.exit(e) == 0 ? 0 : reachwise::cli::kExitUsage;
   }
-  if (app.get_subcommands().empty()) {
+  if (!chosen) {
     fmt::print("{}", app.help());
     return 0;
   }
-  return 0;
+  try {
+    return chosen();
+  } catch (const std::exception& e) {
+    fmt::print(stderr, "internal error (please report): {}\n", e.what());
+    return reachwise::cli::kExitBug;
+  }
 }

@@ -134,10 +134,10 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
     const auto& o = outlets[b];
     const auto where = o.empty() ? lowest[b] : o.front();
     const auto drains =
-        o.empty() ? std::string("has no outlet (it contains a cycle)")
-                  : fmt::format("drains to outlet{} {}", o.size() > 1 ? "s" : "", listIds(graph, o));
-    out.push_back(at(graph, where, graph.bottom(where), "basin", Severity::Warning,
-                     fmt::format("Basin {} of {}: {} reach{} {}.", b + 1, comps.count, reaches[b],
+        o.empty() ? std::string("no outlet (it contains a cycle)")
+                  : fmt::format("outlet{} {}", o.size() > 1 ? "s" : "", listIds(graph, o));
+    out.push_back(at(graph, where, graph.bottom(where), "basin", Severity::Info,
+                     fmt::format("Basin {} of {}: {} reach{}, {}.", b + 1, comps.count, reaches[b],
                                  reaches[b] == 1 ? "" : "es", drains)));
   }
 }

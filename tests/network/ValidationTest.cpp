@@ -162,7 +162,7 @@ TEST(Validation, SeveralBasinsAreEachReportedWithTheirOutlet) {
   const auto problems = validate(ReachGraph(table));
   const auto basins = withCode(problems, "basin");
   ASSERT_EQ(basins.size(), 2u);
-  EXPECT_EQ(basins[0].severity, Severity::Warning);
+  EXPECT_EQ(basins[0].severity, Severity::Info);
   EXPECT_EQ(basins[0].reach_id, "B");
   EXPECT_EQ(basins[1].reach_id, "Y");
   EXPECT_TRUE(mentions(basins[1], "Basin 2 of 2"));

@@ -10,6 +10,7 @@
 namespace reachwise::network {
 
 enum class Severity {
+  Info,     ///< a fact worth knowing (e.g. each basin of a layer with several)
   Warning,  ///< reported; routing goes ahead
   Error,    ///< routing is refused
 };

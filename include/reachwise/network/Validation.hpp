@@ -13,7 +13,7 @@
 ///   bifurcation_split_range    error    a branch's `split` is outside [0, 1]
 ///   bifurcation_split_sum      error    a bifurcation's splits do not sum to 1 (1e-6)
 ///   split_unused               warning  `split` on a reach that is not a branch
-///   basin                      warning  one per basin when a layer holds several
+///   basin                      info     one per basin (with its outlet) when a layer holds several
 
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"

@@ -1,0 +1,30 @@
+#pragma once
+/// \file
+/// The `--problems` GeoPackage of `reachwise check`: where each problem is,
+/// and the network as reachwise built it, for a GIS user to inspect.
+
+#include <string>
+
+#include "reachwise/network/Problem.hpp"
+#include "reachwise/network/ReachGraph.hpp"
+
+namespace reachwise::io {
+
+/// Writes a GeoPackage at `path` with
+///  - `problems`: points (code, severity, reach_id, fid, message); a problem
+///    without a location gets an empty geometry;
+///  - `network`: lines in flow direction (reach_id, to_reach, flipped, split,
+///    strahler, basin), one per record of the graph's table. `flipped` is 1
+///    when the line as stored runs against the flow: reversed by the reader
+///    (a `flipped_line` problem for that feature) or judged so from the links.
+///    `strahler` is null when the network has a cycle.
+/// Both layers are in the table's CRS. The file is written under a temporary
+/// name beside `path` and renamed onto it on success (replacing an existing
+/// file); on failure nothing is left behind and InputError names `path`.
+/// "info", "warning" or "error": the spelling used in every output.
+const char* severityName(network::Severity severity);
+
+void writeProblemsGeoPackage(const std::string& path, const network::ReachGraph& graph,
+                             const network::ProblemList& problems);
+
+}  // namespace reachwise::io

@@ -1,0 +1,176 @@
+#include "reachwise/io/ProblemsWriter.hpp"
+
+#include <fmt/format.h>
+#include <gdal_priv.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <filesystem>
+#include <memory>
+#include <unordered_set>
+
+#include <unistd.h>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/io/Gdal.hpp"
+#include "reachwise/network/Strahler.hpp"
+
+namespace reachwise::io {
+
+namespace {
+
+using network::ReachGraph;
+
+[[noreturn]] void fail(const std::string& path, const std::string& what) {
+  InputLocation at;
+  at.file = path;
+  const std::string gdal = CPLGetLastErrorMsg();
+  throw InputError(at, gdal.empty() ? what : what + " (" + gdal + ")");
+}
+
+std::unique_ptr<OGRSpatialReference> spatialReference(const network::ReachTable& table) {
+  if (table.crs_wkt.empty()) return nullptr;
+  auto srs = std::make_unique<OGRSpatialReference>();
+  if (srs->importFromWkt(table.crs_wkt.c_str()) != OGRERR_NONE) return nullptr;
+  // Coordinates are stored x = easting/longitude, as the reader gave them.
+  srs->SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
+  return srs;
+}
+
+void addField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
+              OGRFieldSubType subtype = OFSTNone) {
+  OGRFieldDefn defn(name, type);
+  defn.SetSubType(subtype);
+  if (layer.CreateField(&defn) != OGRERR_NONE) fail(path, std::string("cannot add field ") + name);
+}
+
+}  // namespace
+
+const char* severityName(network::Severity s) {
+  switch (s) {
+    case network::Severity::Info: return "info";
+    case network::Severity::Warning: return "warning";
+    case network::Severity::Error: return "error";
+  }
+  return "error";
+}
+
+namespace {
+
+void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
+                       const network::ProblemList& problems) {
+  OGRLayer* layer = ds.CreateLayer("problems", srs, wkbPoint, nullptr);
+  if (!layer) fail(path, "cannot create layer problems");
+  addField(path, *layer, "code", OFTString);
+  addField(path, *layer, "severity", OFTString);
+  addField(path, *layer, "reach_id", OFTString);
+  addField(path, *layer, "fid", OFTInteger64);
+  addField(path, *layer, "message", OFTString);
+  for (const auto& p : problems) {
+    OGRFeature f(layer->GetLayerDefn());
+    f.SetField("code", p.code.c_str());
+    f.SetField("severity", severityName(p.severity));
+    if (!p.reach_id.empty()) f.SetField("reach_id", p.reach_id.c_str());
+    if (p.fid >= 0) f.SetField("fid", static_cast<GIntBig>(p.fid));
+    f.SetField("message", p.message.c_str());
+    if (std::isfinite(p.x) && std::isfinite(p.y)) f.SetGeometry(std::make_unique<OGRPoint>(p.x, p.y).get());
+    if (layer->CreateFeature(&f) != OGRERR_NONE) fail(path, "cannot write a problem");
+  }
+}
+
+std::unordered_set<std::int64_t> reversedByReader(const network::ProblemList& problems) {
+  std::unordered_set<std::int64_t> out;
+  for (const auto& p : problems)
+    if (p.code == "flipped_line") out.insert(p.fid);
+  return out;
+}
+
+OGRLineString flowLine(const ReachGraph& graph, ReachGraph::Vertex v) {
+  const auto& line = graph.record(v).line;
+  OGRLineString out;
+  out.setNumPoints(static_cast<int>(line.size()));
+  const bool reverse = graph.flipped(v);
+  for (std::size_t i = 0; i < line.size(); ++i) {
+    const auto& p = line[reverse ? line.size() - 1 - i : i];
+    out.setPoint(static_cast<int>(i), p.x, p.y);
+  }
+  return out;
+}
+
+void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
+                       const ReachGraph& graph, const network::ProblemList& problems) {
+  OGRLayer* layer = ds.CreateLayer("network", srs, wkbLineString, nullptr);
+  if (!layer) fail(path, "cannot create layer network");
+  addField(path, *layer, "reach_id", OFTString);
+  addField(path, *layer, "to_reach", OFTString);
+  addField(path, *layer, "flipped", OFTInteger, OFSTBoolean);
+  addField(path, *layer, "split", OFTReal);
+  addField(path, *layer, "strahler", OFTInteger);
+  addField(path, *layer, "basin", OFTInteger);
+
+  const auto order = graph.topologicalOrder();
+  const auto strahler = order ? network::strahlerOrder(graph, *order) : std::vector<std::uint16_t>{};
+  const auto basins = graph.components();
+  const auto reversed = reversedByReader(problems);
+  for (ReachGraph::Vertex v = 0; v < graph.size(); ++v) {
+    const auto& r = graph.record(v);
+    OGRFeature f(layer->GetLayerDefn());
+    f.SetField("reach_id", r.id.c_str());
+    if (r.to_reach && !r.to_reach->empty()) f.SetField("to_reach", r.to_reach->c_str());
+    f.SetField("flipped", (graph.flipped(v) || reversed.count(r.fid)) ? 1 : 0);
+    if (!std::isnan(r.split)) f.SetField("split", r.split);
+    if (!strahler.empty()) f.SetField("strahler", static_cast<int>(strahler[v]));
+    f.SetField("basin", static_cast<int>(basins.basin[v]));
+    auto line = flowLine(graph, v);
+    if (!r.line.empty()) f.SetGeometry(&line);
+    if (layer->CreateFeature(&f) != OGRERR_NONE) fail(path, "cannot write reach " + r.id);
+  }
+}
+
+std::filesystem::path temporaryName(const std::filesystem::path& target) {
+  auto tmp = target;
+  tmp.replace_filename(fmt::format(".{}.partial-{}.gpkg", target.filename().string(), ::getpid()));
+  return tmp;
+}
+
+void writeAll(const std::string& path, const std::filesystem::path& tmp, const ReachGraph& graph,
+              const network::ProblemList& problems) {
+  GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
+  if (!driver) fail(path, "GDAL has no GeoPackage driver");
+  std::unique_ptr<GDALDataset> ds(
+      driver->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+  if (!ds) fail(path, "cannot create the output file");
+  const auto srs = spatialReference(graph.table());
+  // One transaction: a GeoPackage commits row by row otherwise.
+  if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
+  writeProblemLayer(path, *ds, srs.get(), problems);
+  writeNetworkLayer(path, *ds, srs.get(), graph, problems);
+  if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
+  ds.reset();  // closes and flushes the file before it is renamed
+}
+
+}  // namespace
+
+void writeProblemsGeoPackage(const std::string& path, const ReachGraph& graph,
+                             const network::ProblemList& problems) {
+  ensureGdal();
+  CPLErrorReset();
+  const std::filesystem::path target(path);
+  const auto tmp = temporaryName(target);
+  std::error_code ignored;
+  std::filesystem::remove(tmp, ignored);
+  try {
+    writeAll(path, tmp, graph, problems);
+    std::filesystem::rename(tmp, target);
+  } catch (const std::filesystem::filesystem_error& e) {
+    std::filesystem::remove(tmp, ignored);
+    InputLocation at;
+    at.file = path;
+    throw InputError(at, std::string("cannot put the output in place: ") + e.code().message());
+  } catch (...) {
+    std::filesystem::remove(tmp, ignored);
+    throw;
+  }
+}
+
+}  // namespace reachwise::io
