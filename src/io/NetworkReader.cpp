@@ -86,6 +86,10 @@ OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const std::str
 LineLength lengthMeasure(const OGRLayer& layer, const NetworkConfig& config,
                          const InputLocation& where, ReachTable& table) {
   const OGRSpatialReference* srs = const_cast<OGRLayer&>(layer).GetSpatialRef();
+  // GeoPackage stands in "Undefined geographic SRS" / "Undefined Cartesian
+  // SRS" (srs_id 0 / -1) for a missing CRS; they state no unit.
+  const std::string name = srs && srs->GetName() ? srs->GetName() : "";
+  if (name.rfind("Undefined ", 0) == 0) srs = nullptr;
   if (!srs) {
     if (config.length_unit_m) return LineLength::planar(*config.length_unit_m);
     throw InputError(where, "the layer has no coordinate reference system; set network.length_unit "
@@ -178,14 +182,23 @@ void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const L
     ++summary.features;
     ReachRecord r;
     r.fid = f->GetFID();
+    const std::size_t first_problem = problems.size();
     bool keep = readGeometry(f->GetGeometryRef(), r, problems);
     if (keep) {
       r.geometry_length_m = measure(r.line);
-      if (!(r.geometry_length_m > 0))
+      if (std::isnan(r.geometry_length_m)) {
+        problems.push_back(detail::recordProblem(
+            "invalid_geometry", Severity::Error, r,
+            "coordinates are not valid latitude/longitude for the geographic CRS; feature skipped"));
+        keep = false;
+      } else if (!(r.geometry_length_m > 0))
         problems.push_back(detail::recordProblem("zero_length", Severity::Error, r,
                                                  "the line has zero length"));
     }
     const bool has_id = attrs.read(*f, r, problems);
+    // Geometry problems were found before the id was known.
+    for (std::size_t k = first_problem; k < problems.size(); ++k)
+      if (problems[k].reach_id.empty()) problems[k].reach_id = r.id;
     if (keep && has_id && !seen.insert(r.id).second) {
       problems.push_back(detail::recordProblem(
           "duplicate_id", Severity::Error, r,
