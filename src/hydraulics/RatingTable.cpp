@@ -93,7 +93,7 @@ void RatingTable::addSegment(const Section& section, double q0, double q1, std::
   s.first = nodes_.size();
   s.count = count;
 
-  std::vector<double> c(count), w(count), y(count), v(count);
+  std::vector<double> c(count), w(count), g(count), y(count), v(count);
   double guess = -1.0;
   for (std::size_t i = 0; i < count; ++i) {
     const double u = s.u0 + static_cast<double>(i) * s.h;
@@ -105,16 +105,30 @@ void RatingTable::addSegment(const Section& section, double q0, double q1, std::
     if (bank_side < 0) depth = std::min(depth, section.bankDepth());
     c[i] = section.celerity(depth);
     w[i] = section.topWidth(depth);
+    g[i] = 1.0 / (w[i] * c[i]);
     y[i] = depth;
     v[i] = section.velocity(depth);
   }
-  std::vector<double> dc, dw, dy, dv;
+  std::vector<double> dc, dw, dg, dy, dv;
   monotoneSlopes(c, s.h, dc);
   monotoneSlopes(w, s.h, dw);
+  monotoneSlopes(g, s.h, dg);
   monotoneSlopes(y, s.h, dy);
   monotoneSlopes(v, s.h, dv);
   for (std::size_t i = 0; i < count; ++i)
-    nodes_.push_back(Node{c[i], dc[i], w[i], dw[i], y[i], dy[i], v[i], dv[i]});
+    nodes_.push_back(Node{c[i], dc[i], w[i], dw[i], g[i], dg[i], y[i], dy[i], v[i], dv[i]});
+}
+
+const RatingTable::LogEntry* RatingTable::logTable() {
+  static const auto table = [] {
+    std::vector<LogEntry> t(128);
+    for (std::size_t k = 0; k < 128; ++k) {
+      const double m0 = 1.0 + static_cast<double>(k) / 128.0;
+      t[k] = LogEntry{1.0 / m0, std::log(m0)};
+    }
+    return t;
+  }();
+  return table.data();
 }
 
 void RatingTable::depthAndVelocity(double q, double& depth_m, double& velocity_ms) const {

@@ -87,15 +87,22 @@ void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
 /// Per-cell parameters of variable-parameter routing.
 struct VpCell {
   const hydraulics::RatingTable& table;
+  const hydraulics::Section* direct;  // non-null: solve normal depth per cell
   double slope, dx, dts, capacity;
+  double dt_over_dx = dts / dx, inv_slope_dx = 1.0 / (slope * dx);
   std::uint64_t x_clamps = 0, surcharge = 0;
 
   /// C and D at reference flow qr (Ponce & Yevjevich 1978).
   void courantAndReynolds(double qr, double& C, double& D) {
-    double c, t;
-    table.celerityAndWidth(qr, c, t);
-    C = c * dts / dx;
-    D = qr / (t * slope * c * dx);
+    double c, inv_tc;
+    if (direct) {
+      const hydraulics::FlowState f = direct->normalFlow(std::max(qr, table.bottomDischarge()));
+      c = f.celerity_ms, inv_tc = 1.0 / (f.top_width_m * f.celerity_ms);
+    } else {
+      table.celerityAndInverseWidthCelerity(qr, c, inv_tc);
+    }
+    C = c * dt_over_dx;
+    D = qr * inv_tc * inv_slope_dx;
     if (D > 1.0) {
       D = 1.0;  // X < 0 raised to 0
       ++x_clamps;
@@ -289,7 +296,7 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     } else {
       const double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
       table_.emplace(sec, q_hi * 1e-5, q_hi, opt.table_nodes);
-      VpCell cell{*table_, slope, dx, dts, sec.capacity()};
+      VpCell cell{*table_, opt.use_rating_table ? nullptr : &sec, slope, dx, dts, sec.capacity()};
       s0 = cell.storage(q_);
       routeVariable(cell, opt.scheme, opt.four_point_iterations, g.subreaches, g.substeps, inflow,
                     lateral, dt, q_, out, tot, num.negative_clamps);

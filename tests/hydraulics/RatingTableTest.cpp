@@ -73,3 +73,15 @@ TEST(RatingTable, ValuesOutsideRangeAreHeld) {
   EXPECT_DOUBLE_EQ(c1, c_hi);
   EXPECT_NEAR(c_lo, s.celerity(s.normalDepth(1.0)), 1e-9);
 }
+
+// The table's inverse product 1/(T c) agrees with the direct solve as well.
+TEST(RatingTable, InverseWidthCelerityMatchesDirectSolve) {
+  const Section s = Section::trapezoid(7, 1, 0.03, 0.002);
+  const RatingTable t(s, 0.01, 800);
+  for (double q = 0.0123; q < 800; q *= 1.37) {
+    double c, g;
+    t.celerityAndInverseWidthCelerity(q, c, g);
+    const double y = s.normalDepth(q);
+    EXPECT_NEAR(g * s.topWidth(y) * s.celerity(y), 1.0, 1e-3) << q;
+  }
+}

@@ -15,8 +15,10 @@
 ///  - pipe: above half capacity the coordinate is −ln(Q_cap − Q), since
 ///    celerity falls to zero as √(Q_cap − Q) near the cap.
 
+#include <bit>
 #include <cmath>
 #include <cstddef>
+#include <cstdint>
 #include <vector>
 
 #include "reachwise/hydraulics/Section.hpp"
@@ -42,6 +44,13 @@ public:
     celerity_ms = hermite(c.t, c.h, c.lo->c, c.lo->dc, c.lo[1].c, c.lo[1].dc);
     top_width_m = hermite(c.t, c.h, c.lo->w, c.lo->dw, c.lo[1].w, c.lo[1].dw);
   }
+  /// Celerity (m/s) and 1/(T c) (s/m^2) at discharge q, held at the ends:
+  /// what a variable-parameter cell needs (D = Q/(T S0 c Δx) without a division).
+  void celerityAndInverseWidthCelerity(double q_m3s, double& celerity_ms, double& inv_tc) const {
+    const Cell& c = locate(q_m3s);
+    celerity_ms = hermite(c.t, c.h, c.lo->c, c.lo->dc, c.lo[1].c, c.lo[1].dc);
+    inv_tc = hermite(c.t, c.h, c.lo->g, c.lo->dg, c.lo[1].g, c.lo[1].dg);
+  }
   /// Depth (m) and velocity (m/s) at discharge q; outside the table they are
   /// solved directly (a pipe above capacity reports the depth at the cap).
   void depthAndVelocity(double q_m3s, double& depth_m, double& velocity_ms) const;
@@ -50,6 +59,7 @@ private:
   struct Node {
     double c, dc;  // celerity and d(celerity)/d(ln Q)
     double w, dw;  // top width
+    double g, dg;  // 1 / (top width · celerity)
     double y, dy;  // depth
     double v, dv;  // velocity
   };
@@ -70,13 +80,31 @@ private:
     const Segment& s = (segments_ == 2 && q >= q_break_) ? seg_[1] : seg_[0];
     const double top = static_cast<double>(s.count - 1);
     const double arg = s.sign * (q - s.shift);
-    double u = arg > 0 ? (s.sign * std::log(arg) - s.u0) * s.inv_h
+    double u = arg > 0 ? (s.sign * fastLog(arg) - s.u0) * s.inv_h
                        : (s.sign > 0 ? 0.0 : static_cast<double>(s.count));
     if (!(u > 0)) u = 0;  // also catches NaN
     if (u >= top) return Cell{&nodes_[s.first + s.count - 2], 1.0, s.h};
     const auto i = static_cast<std::size_t>(u);
     return Cell{&nodes_[s.first + i], u - static_cast<double>(i), s.h};
   }
+  /// Natural logarithm to about 1e-12 relative, faster than std::log in the
+  /// hot loop: ln q = e ln 2 + ln(m0) + ln(1 + r) with m0 from a 128-entry
+  /// table of the mantissa's leading bits and |r| < 1/128 (a short series).
+  static double fastLog(double q) {
+    const auto bits = std::bit_cast<std::uint64_t>(q);
+    const int e = static_cast<int>((bits >> 52) & 0x7ff) - 1023;
+    const std::size_t k = (bits >> 45) & 0x7f;
+    const double m = std::bit_cast<double>((bits & 0x000fffffffffffffULL) | 0x3ff0000000000000ULL);
+    const LogEntry& le = logTable()[k];
+    const double r = m * le.inv - 1.0;  // in [0, 1/128)
+    const double r2 = r * r;
+    const double series = r - r2 * (0.5 - r * (1.0 / 3.0 - r * (0.25 - r * 0.2)));
+    return e * 0.6931471805599453 + le.ln + series;
+  }
+  struct LogEntry {
+    double inv, ln;  // 1/m0 and ln m0 for m0 = 1 + k/128
+  };
+  static const LogEntry* logTable();
   static double hermite(double t, double h, double f0, double d0, double f1, double d1) {
     const double t2 = t * t, t3 = t2 * t;
     return (2 * t3 - 3 * t2 + 1) * f0 + (t3 - 2 * t2 + t) * h * d0 + (-2 * t3 + 3 * t2) * f1 +

@@ -46,6 +46,9 @@ struct RouteOptions {
   double reference_q_m3s = std::numeric_limits<double>::quiet_NaN();
   int four_point_iterations = 3;
   std::size_t table_nodes = 64;
+  /// `vpmc` reads c and T from a rating table; false solves normal depth in
+  /// every cell instead (slow; for checks and benchmarks).
+  bool use_rating_table = true;
   GridLimits limits;
 };
 
