@@ -59,7 +59,11 @@ namespace {
 
 void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
                        const network::ProblemList& problems) {
-  OGRLayer* layer = ds.CreateLayer("problems", srs, wkbPoint, nullptr);
+  // The GeoPackage driver calls its key column "fid" by default, which would
+  // swallow the field holding the source feature id.
+  CPLStringList layer_options;
+  layer_options.SetNameValue("FID", "problem_id");
+  OGRLayer* layer = ds.CreateLayer("problems", srs, wkbPoint, layer_options.List());
   if (!layer) fail(path, "cannot create layer problems");
   addField(path, *layer, "code", OFTString);
   addField(path, *layer, "severity", OFTString);
@@ -99,9 +103,12 @@ OGRLineString flowLine(const ReachGraph& graph, ReachGraph::Vertex v) {
 
 void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
                        const ReachGraph& graph, const network::ProblemList& problems) {
-  OGRLayer* layer = ds.CreateLayer("network", srs, wkbLineString, nullptr);
+  CPLStringList layer_options;
+  layer_options.SetNameValue("FID", "row_id");
+  OGRLayer* layer = ds.CreateLayer("network", srs, wkbLineString, layer_options.List());
   if (!layer) fail(path, "cannot create layer network");
   addField(path, *layer, "reach_id", OFTString);
+  addField(path, *layer, "fid", OFTInteger64);
   addField(path, *layer, "to_reach", OFTString);
   addField(path, *layer, "flipped", OFTInteger, OFSTBoolean);
   addField(path, *layer, "split", OFTReal);
@@ -116,6 +123,7 @@ void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
     const auto& r = graph.record(v);
     OGRFeature f(layer->GetLayerDefn());
     f.SetField("reach_id", r.id.c_str());
+    if (r.fid >= 0) f.SetField("fid", static_cast<GIntBig>(r.fid));
     if (r.to_reach && !r.to_reach->empty()) f.SetField("to_reach", r.to_reach->c_str());
     f.SetField("flipped", (graph.flipped(v) || reversed.count(r.fid)) ? 1 : 0);
     if (!std::isnan(r.split)) f.SetField("split", r.split);

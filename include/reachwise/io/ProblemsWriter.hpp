@@ -12,8 +12,9 @@ namespace reachwise::io {
 
 /// Writes a GeoPackage at `path` with
 ///  - `problems`: points (code, severity, reach_id, fid, message); a problem
-///    without a location gets an empty geometry;
-///  - `network`: lines in flow direction (reach_id, to_reach, flipped, split,
+///    without a location gets an empty geometry; the key column is `problem_id`
+///    (`row_id` in `network`) so that `fid` holds the source feature id;
+///  - `network`: lines in flow direction (reach_id, fid, to_reach, flipped, split,
 ///    strahler, basin), one per record of the graph's table. `flipped` is 1
 ///    when the line as stored runs against the flow: reversed by the reader
 ///    (a `flipped_line` problem for that feature) or judged so from the links.
