@@ -144,9 +144,9 @@ IsoTime parseTime(std::string_view raw, InputLocation where) {
 void append(RawSeries& series, double t, double q, const InputLocation& where, std::string_view what) {
   if (!series.t_s.empty() && t <= series.t_s.back() + kTimeTolerance_s) {
     const bool same = std::abs(t - series.t_s.back()) <= kTimeTolerance_s;
-    throw InputError(where, fmt::format("{} time {} {} line {}", what,
+    throw InputError(where, fmt::format("{} {} line {}", what,
                                         same ? "repeats the time on" : "is earlier than the time on",
-                                        where.time, series.line.back()));
+                                        series.line.back()));
   }
   series.t_s.push_back(t);
   series.q_m3s.push_back(q);
@@ -183,7 +183,7 @@ void readLong(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
     qwhere.field = "discharge";
     const double q = parseDischarge(rec.fields[col_q], qwhere, unit);
     where.field = "time";
-    append(out.series[id], t.seconds(), q, where, "for this reach the");
+    append(out.series[id], t.seconds(), q, where, "this reach's time");
   }
 }
 
@@ -211,7 +211,7 @@ void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
     if (r > 1 && t.seconds() <= previous + kTimeTolerance_s) {
       where.field = "time";
       const bool same = std::abs(t.seconds() - previous) <= kTimeTolerance_s;
-      throw InputError(where, fmt::format("the time {} {} line {}", where.time,
+      throw InputError(where, fmt::format("the time {} line {}",
                                           same ? "repeats the time on" : "is earlier than the time on",
                                           previous_line));
     }
@@ -222,7 +222,7 @@ void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
       InputLocation qwhere = where;
       qwhere.reach_id = ids[c - 1];
       const double q = parseDischarge(rec.fields[c], qwhere, unit);
-      append(out.series[ids[c - 1]], t.seconds(), q, qwhere, "the");
+      append(out.series[ids[c - 1]], t.seconds(), q, qwhere, "the time");
     }
   }
   for (const std::string& id : ids) {

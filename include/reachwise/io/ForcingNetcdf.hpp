@@ -1,0 +1,114 @@
+#pragma once
+/// \file
+/// Forcing in CF-NetCDF (docs/formats.md, "NetCDF layout"): dimensions
+/// `time` and `reach`, `time` in "seconds since 1970-01-01T00:00:00Z"
+/// (reading also minutes/hours/days since any ISO 8601 reference), the
+/// `reach_id` strings (NC_STRING, or a char array on reading), and
+/// variables `inflow` and/or `lateral` (m3 s-1; ft3 s-1 converted) on
+/// (time, reach) — (reach, time) is read too. Chunks hold the whole time
+/// series of one reach, so reading one reach touches one chunk.
+///
+/// Large files are meant to be read through `NetcdfForcingSource`, which
+/// keeps only the axis and the reach ids in memory and reads a reach's
+/// series when asked.
+
+#include <cstddef>
+#include <filesystem>
+#include <memory>
+#include <span>
+#include <string>
+#include <string_view>
+#include <unordered_map>
+#include <vector>
+
+#include "reachwise/io/Forcing.hpp"
+
+namespace reachwise::io {
+
+namespace detail {
+class SeriesFile;
+}
+
+struct ForcingNetcdfOptions {
+  std::string title = "reachwise forcing";
+  std::string source;                 ///< e.g. "reachwise 0.1.0 (abc123)"
+  std::string history;
+  int deflate_level = 1;              ///< 0-9; 0 = uncompressed
+};
+
+/// Streams forcing to a new file reach by reach (for generators of large
+/// synthetic forcing). Temporary name, renamed by `finish()`, removed when
+/// destroyed unfinished. Reaches not written keep _FillValue, which readers
+/// take as "no series of this kind".
+class NetcdfForcingWriter {
+public:
+  NetcdfForcingWriter(std::filesystem::path path, const routing::TimeAxis& axis,
+                      std::vector<std::string> reach_ids, bool with_inflow, bool with_lateral,
+                      const ForcingNetcdfOptions& options = {});
+  ~NetcdfForcingWriter();
+
+  /// `values_m3s.size()` must be axis.steps; values finite and >= 0.
+  void write(ForcingKind kind, std::size_t reach, std::span<const double> values_m3s);
+  void finish();
+
+private:
+  std::unique_ptr<detail::SeriesFile> file_;
+  int inflow_var_ = -1;
+  int lateral_var_ = -1;
+};
+
+/// Writes all of `forcing` (reaches: the union of both kinds, sorted).
+void writeForcingNetcdf(const std::filesystem::path& path, const Forcing& forcing,
+                        const ForcingNetcdfOptions& options = {});
+
+/// Reads a forcing file's axis and reach ids; series on demand. Thread-safe
+/// (netCDF calls are serialised by one process-wide lock).
+class NetcdfForcingSource final : public ForcingSource {
+public:
+  /// Opens and checks the file: dimensions, `time` units, calendar and a
+  /// uniform step of whole-second start, unique reach ids, variable units.
+  /// Throws InputError naming the file (and variable) on any problem.
+  explicit NetcdfForcingSource(std::filesystem::path path);
+  ~NetcdfForcingSource() override;
+  NetcdfForcingSource(const NetcdfForcingSource&) = delete;
+  NetcdfForcingSource& operator=(const NetcdfForcingSource&) = delete;
+
+  const routing::TimeAxis& axis() const override { return axis_; }
+  /// Reads one reach. Returns false when the file has no such variable or
+  /// reach, or the reach's series is entirely _FillValue. Throws InputError
+  /// (file, reach, field, time) for a partly missing, negative or
+  /// non-finite series.
+  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const override;
+  /// All reach ids of the file when it has the variable of `kind` (a reach
+  /// whose series is all _FillValue is listed but `series` returns false).
+  std::vector<std::string> ids(ForcingKind kind) const override;
+  using ForcingSource::ids;
+  std::string origin(ForcingKind) const override { return path_.string(); }
+
+  bool has(ForcingKind kind, std::string_view id) const;
+
+private:
+  struct Variable {
+    int varid = -1;
+    bool time_first = true;        ///< dims (time, reach), else (reach, time)
+    double fill = 0;
+    double scale = 1;              ///< scale_factor × unit conversion
+    double offset = 0;             ///< add_offset × unit conversion
+  };
+  void openVariable(ForcingKind kind);
+  void readAxis();
+  void readIds();
+
+  std::filesystem::path path_;
+  int ncid_ = -1;
+  routing::TimeAxis axis_;
+  std::vector<std::string> ids_;
+  std::unordered_map<std::string, std::size_t> index_;
+  Variable vars_[2];
+};
+
+/// Reads a whole forcing file into memory (small files, tests). Reaches
+/// whose series of a kind is all _FillValue have no series of that kind.
+Forcing readForcingNetcdf(const std::filesystem::path& path);
+
+}  // namespace reachwise::io

@@ -1,0 +1,69 @@
+#pragma once
+/// \file
+/// Routed hydrographs to a CF-NetCDF file (docs/formats.md, "NetCDF layout"):
+/// variables `outflow` (m3 s-1), `depth` (m), `velocity` (m s-1) on
+/// (time, reach), written reach by reach in whatever order the scheduler
+/// finishes them.
+///
+/// The file is built under a temporary name beside the output
+/// (`OUT.<pid>.partial`) and appears under its own name only when
+/// `finish()` succeeds; a writer destroyed without `finish()` (an exception,
+/// a cancelled run) removes the temporary file, so no half-written output
+/// that looks complete is ever left behind.
+
+#include <cstdint>
+#include <filesystem>
+#include <memory>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "reachwise/routing/Results.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::io {
+
+namespace detail {
+class SeriesFile;
+}
+
+struct SeriesNetcdfOptions {
+  bool depth = true;               ///< write the `depth` variable
+  bool velocity = true;            ///< write the `velocity` variable
+  std::string title = "reachwise routed hydrographs";
+  std::string source;              ///< e.g. "reachwise 0.1.0 (abc123)"
+  std::string history;             ///< e.g. the command line
+  int deflate_level = 1;           ///< 0-9; 0 = uncompressed
+};
+
+class NetcdfSeriesWriter final : public routing::SeriesSink {
+public:
+  /// `reach_ids[i]` names plan reach i. Creates the temporary file now
+  /// (throws InputError naming it when that fails).
+  NetcdfSeriesWriter(std::filesystem::path path, const routing::TimeAxis& axis,
+                     std::vector<std::string> reach_ids, const SeriesNetcdfOptions& options = {});
+  ~NetcdfSeriesWriter() override;
+
+  /// Writes plan reach `reach`. `q_m3s` must have axis.steps values; `depth_m`
+  /// and `velocity_ms` too, or be empty (then that variable keeps its
+  /// _FillValue for this reach). Writing a reach twice is an InternalError.
+  void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
+             std::span<const double> velocity_ms) override;
+
+  /// Closes the file and gives it its final name. Throws InternalError when
+  /// some reach was never written (the file would look complete but is not).
+  void finish();
+
+  std::size_t written() const noexcept { return written_count_; }
+  const std::filesystem::path& temporaryPath() const noexcept;
+
+private:
+  std::unique_ptr<detail::SeriesFile> file_;
+  std::vector<std::string> reach_ids_;
+  std::vector<bool> written_;
+  std::size_t written_count_ = 0;
+  int depth_var_ = -1;
+  int velocity_var_ = -1;
+};
+
+}  // namespace reachwise::io

@@ -1,0 +1,350 @@
+#include "reachwise/io/ForcingNetcdf.hpp"
+
+#include <netcdf.h>
+
+#include <algorithm>
+#include <cmath>
+#include <set>
+
+#include <fmt/format.h>
+
+#include "NetcdfSeriesFile.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/hydraulics/Units.hpp"
+#include "reachwise/io/IsoTime.hpp"
+
+namespace reachwise::io {
+namespace {
+
+std::vector<detail::SeriesVariable> forcingVariables(bool inflow, bool lateral) {
+  std::vector<detail::SeriesVariable> vars;
+  if (inflow) vars.push_back({"inflow", "m3 s-1", "discharge entering at the top of the reach", ""});
+  if (lateral) vars.push_back({"lateral", "m3 s-1", "discharge entering along the reach", ""});
+  return vars;
+}
+
+}  // namespace
+
+NetcdfForcingWriter::NetcdfForcingWriter(std::filesystem::path path, const routing::TimeAxis& axis,
+                                         std::vector<std::string> reach_ids, bool with_inflow,
+                                         bool with_lateral, const ForcingNetcdfOptions& options) {
+  if (!with_inflow && !with_lateral)
+    throw InvalidParameter("forcing", "neither inflow nor lateral to write");
+  if (with_inflow) inflow_var_ = 0;
+  if (with_lateral) lateral_var_ = with_inflow ? 1 : 0;
+  detail::SeriesFileOptions file_options;
+  file_options.title = options.title;
+  file_options.source = options.source;
+  file_options.history = options.history;
+  file_options.deflate_level = options.deflate_level;
+  file_ = std::make_unique<detail::SeriesFile>(std::move(path), axis, reach_ids,
+                                               forcingVariables(with_inflow, with_lateral), file_options);
+}
+
+NetcdfForcingWriter::~NetcdfForcingWriter() = default;
+
+void NetcdfForcingWriter::write(ForcingKind kind, std::size_t reach, std::span<const double> values) {
+  const int var = kind == ForcingKind::Inflow ? inflow_var_ : lateral_var_;
+  if (var < 0)
+    throw InternalError(fmt::format("{} was not declared for {}", kindName(kind), file_->path().string()));
+  for (double q : values)
+    if (!std::isfinite(q) || q < 0)
+      throw InvalidParameter(std::string(kindName(kind)),
+                             fmt::format("discharge {} is not finite and >= 0", q));
+  file_->write(static_cast<std::size_t>(var), reach, values);
+}
+
+void NetcdfForcingWriter::finish() { file_->finish(); }
+
+void writeForcingNetcdf(const std::filesystem::path& path, const Forcing& forcing,
+                        const ForcingNetcdfOptions& options) {
+  std::set<std::string> all;
+  for (const auto& entry : forcing.inflow) all.insert(entry.first);
+  for (const auto& entry : forcing.lateral) all.insert(entry.first);
+  const std::vector<std::string> ids(all.begin(), all.end());
+  NetcdfForcingWriter writer(path, forcing.axis, ids, !forcing.inflow.empty(),
+                             !forcing.lateral.empty(), options);
+  for (std::size_t r = 0; r < ids.size(); ++r) {
+    for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
+      const auto it = forcing.series(kind).find(ids[r]);
+      if (it != forcing.series(kind).end()) writer.write(kind, r, it->second);
+    }
+  }
+  writer.finish();
+}
+
+// ---- reading ----
+
+namespace {
+
+std::string lower(std::string s) {
+  std::transform(s.begin(), s.end(), s.begin(),
+                 [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+  return s;
+}
+
+std::string trim(std::string s) {
+  const auto not_blank = [](unsigned char c) { return !std::isspace(c) && c != '\0'; };
+  s.erase(std::find_if(s.rbegin(), s.rend(), not_blank).base(), s.end());
+  s.erase(s.begin(), std::find_if(s.begin(), s.end(), not_blank));
+  return s;
+}
+
+/// A text attribute, or nullopt when absent.
+std::optional<std::string> textAttribute(int ncid, int varid, const char* name) {
+  nc_type type = NC_NAT;
+  std::size_t len = 0;
+  if (nc_inq_att(ncid, varid, name, &type, &len) != NC_NOERR) return std::nullopt;
+  if (type == NC_STRING) {
+    char* value = nullptr;
+    if (len != 1 || nc_get_att_string(ncid, varid, name, &value) != NC_NOERR) return std::nullopt;
+    std::string out = value ? value : "";
+    nc_free_string(1, &value);
+    return out;
+  }
+  if (type != NC_CHAR) return std::nullopt;
+  std::string out(len, '\0');
+  if (nc_get_att_text(ncid, varid, name, out.data()) != NC_NOERR) return std::nullopt;
+  return trim(out);
+}
+
+std::optional<double> numberAttribute(int ncid, int varid, const char* name) {
+  double value = 0;
+  std::size_t len = 0;
+  if (nc_inq_attlen(ncid, varid, name, &len) != NC_NOERR || len != 1) return std::nullopt;
+  if (nc_get_att_double(ncid, varid, name, &value) != NC_NOERR) return std::nullopt;
+  return value;
+}
+
+InputLocation located(const std::filesystem::path& file, std::string field) {
+  InputLocation where;
+  where.file = file.string();
+  where.field = std::move(field);
+  return where;
+}
+
+/// Seconds per unit and the reference instant of "<unit> since <ISO time>".
+std::pair<double, double> parseTimeUnits(const std::string& units, const std::filesystem::path& file) {
+  const std::string text = lower(units);
+  const std::size_t since = text.find(" since ");
+  const InputLocation where = located(file, "time");
+  if (since == std::string::npos)
+    throw InputError(where, fmt::format("units '{}' are not '<unit> since <date-time>'", units));
+  const std::string unit = trim(text.substr(0, since));
+  double factor = 0;
+  if (unit == "seconds" || unit == "second" || unit == "s" || unit == "sec" || unit == "secs") factor = 1;
+  else if (unit == "minutes" || unit == "minute" || unit == "min" || unit == "mins") factor = 60;
+  else if (unit == "hours" || unit == "hour" || unit == "h" || unit == "hr" || unit == "hrs") factor = 3600;
+  else if (unit == "days" || unit == "day" || unit == "d") factor = 86400;
+  else throw InputError(where, fmt::format("time unit '{}' is not seconds, minutes, hours or days", unit));
+  std::string reference = trim(units.substr(since + 7));
+  if (reference.size() == 10) reference += "T00:00:00";  // a date alone means its midnight (UTC)
+  try {
+    return {factor, parseIsoTime(reference).seconds()};
+  } catch (const InvalidParameter& e) {
+    throw InputError(where, fmt::format("reference time in units '{}': {}", units, e.what()));
+  }
+}
+
+/// m^3/s per unit of a discharge variable.
+double dischargeFactor(const std::optional<std::string>& units, const std::filesystem::path& file,
+                       const std::string& name) {
+  const InputLocation where = located(file, name);
+  if (!units) throw InputError(where, "the variable has no units attribute (expected \"m3 s-1\")");
+  std::string u = lower(*units);
+  u.erase(std::remove(u.begin(), u.end(), '^'), u.end());
+  if (u == "m3 s-1" || u == "m3/s" || u == "m3.s-1" || u == "m3s-1") return 1.0;
+  if (u == "ft3 s-1" || u == "ft3/s" || u == "ft3.s-1" || u == "cfs") return units::cfsToM3s(1.0);
+  throw InputError(where, fmt::format("units '{}' are not a discharge (expected \"m3 s-1\")", *units));
+}
+
+}  // namespace
+
+NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path) : path_(std::move(path)) {
+  const std::lock_guard lock(detail::netcdfMutex());
+  detail::check(nc_open(path_.c_str(), NC_NOWRITE, &ncid_), path_, "opening the file");
+  try {
+    readAxis();
+    readIds();
+    openVariable(ForcingKind::Inflow);
+    openVariable(ForcingKind::Lateral);
+    if (vars_[0].varid < 0 && vars_[1].varid < 0)
+      throw InputError(located(path_, ""), "the file has neither an 'inflow' nor a 'lateral' variable");
+  } catch (...) {
+    nc_close(ncid_);
+    ncid_ = -1;
+    throw;
+  }
+}
+
+NetcdfForcingSource::~NetcdfForcingSource() {
+  if (ncid_ < 0) return;
+  const std::lock_guard lock(detail::netcdfMutex());
+  nc_close(ncid_);
+}
+
+void NetcdfForcingSource::readAxis() {
+  int dim = 0, var = 0, ndims = 0;
+  detail::check(nc_inq_dimid(ncid_, "time", &dim), path_, "finding dimension 'time'");
+  detail::check(nc_inq_varid(ncid_, "time", &var), path_, "finding variable 'time'");
+  std::size_t steps = 0;
+  detail::check(nc_inq_dimlen(ncid_, dim, &steps), path_, "reading the length of 'time'");
+  detail::check(nc_inq_varndims(ncid_, var, &ndims), path_, "inspecting 'time'");
+  const InputLocation where = located(path_, "time");
+  if (ndims != 1) throw InputError(where, "'time' must be one-dimensional");
+  if (steps < 2) throw InputError(where, fmt::format("{} time step(s); at least 2 are needed", steps));
+  const auto units = textAttribute(ncid_, var, "units");
+  if (!units) throw InputError(where, "'time' has no units attribute");
+  const auto [factor, reference] = parseTimeUnits(*units, path_);
+  if (const auto calendar = textAttribute(ncid_, var, "calendar")) {
+    const std::string c = lower(*calendar);
+    if (c != "standard" && c != "gregorian" && c != "proleptic_gregorian")
+      throw InputError(where, fmt::format("calendar '{}' is not supported (use \"standard\")", *calendar));
+  }
+  std::vector<double> raw(steps);
+  detail::check(nc_get_var_double(ncid_, var, raw.data()), path_, "reading 'time'");
+  const auto seconds = [&](std::size_t k) { return reference + raw[k] * factor; };
+  // Sub-millisecond slack for times stored as fractional hours or days.
+  constexpr double kTolerance_s = 1e-3;
+  const double dt = seconds(1) - seconds(0);
+  if (!(dt > 0)) throw InputError(where, "times do not increase");
+  for (std::size_t k = 1; k < steps; ++k) {
+    if (std::abs(seconds(k) - seconds(k - 1) - dt) > kTolerance_s) {
+      InputLocation at = where;
+      at.time = formatIsoTime(seconds(k), 0, 3);
+      throw InputError(at, fmt::format("the step before it is {} s where the first is {} s; "
+                                       "forcing must be on one uniform step",
+                                       seconds(k) - seconds(k - 1), dt));
+    }
+  }
+  const double start = std::round(seconds(0));
+  if (std::abs(start - seconds(0)) > kTolerance_s)
+    throw InputError(where, "the first time is not on a whole second");
+  axis_.start_unix_s = static_cast<std::int64_t>(start);
+  axis_.dt_s = std::abs(dt - std::round(dt)) <= kTolerance_s ? std::round(dt) : dt;
+  axis_.steps = steps;
+  if (const auto offset = numberAttribute(ncid_, var, "utc_offset_minutes"))
+    axis_.utc_offset_min = static_cast<int>(*offset);
+}
+
+void NetcdfForcingSource::readIds() {
+  int dim = 0, var = 0, ndims = 0;
+  nc_type type = NC_NAT;
+  detail::check(nc_inq_dimid(ncid_, "reach", &dim), path_, "finding dimension 'reach'");
+  detail::check(nc_inq_varid(ncid_, "reach_id", &var), path_, "finding variable 'reach_id'");
+  std::size_t n = 0;
+  detail::check(nc_inq_dimlen(ncid_, dim, &n), path_, "reading the length of 'reach'");
+  detail::check(nc_inq_var(ncid_, var, nullptr, &type, &ndims, nullptr, nullptr), path_,
+                "inspecting 'reach_id'");
+  const InputLocation where = located(path_, "reach_id");
+  if (type == NC_STRING && ndims == 1) {
+    std::vector<char*> raw(n, nullptr);
+    detail::check(nc_get_var_string(ncid_, var, raw.data()), path_, "reading 'reach_id'");
+    for (char* s : raw) ids_.push_back(trim(s ? s : ""));
+    nc_free_string(n, raw.data());
+  } else if (type == NC_CHAR && ndims == 2) {
+    int dims[2] = {0, 0};
+    std::size_t len = 0;
+    detail::check(nc_inq_vardimid(ncid_, var, dims), path_, "inspecting 'reach_id'");
+    detail::check(nc_inq_dimlen(ncid_, dims[1], &len), path_, "inspecting 'reach_id'");
+    std::string raw(n * len, '\0');
+    detail::check(nc_get_var_text(ncid_, var, raw.data()), path_, "reading 'reach_id'");
+    for (std::size_t r = 0; r < n; ++r) ids_.push_back(trim(raw.substr(r * len, len)));
+  } else {
+    throw InputError(where, "'reach_id' must be strings (NC_STRING) or a 2-D char array");
+  }
+  if (ids_.size() != n) throw InputError(where, "'reach_id' does not run along 'reach'");
+  for (std::size_t r = 0; r < n; ++r) {
+    InputLocation at = where;
+    at.reach_id = ids_[r];
+    if (ids_[r].empty()) throw InputError(at, fmt::format("reach index {} has an empty id", r));
+    if (!index_.emplace(ids_[r], r).second) throw InputError(at, "the reach id appears twice");
+  }
+}
+
+void NetcdfForcingSource::openVariable(ForcingKind kind) {
+  Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
+  const std::string name(kindName(kind));
+  if (nc_inq_varid(ncid_, name.c_str(), &v.varid) != NC_NOERR) {
+    v.varid = -1;
+    return;
+  }
+  const InputLocation where = located(path_, name);
+  int ndims = 0, dims[NC_MAX_VAR_DIMS] = {};
+  int time_dim = 0, reach_dim = 0;
+  nc_type type = NC_NAT;
+  detail::check(nc_inq_var(ncid_, v.varid, nullptr, &type, &ndims, dims, nullptr), path_,
+                "inspecting " + name);
+  nc_inq_dimid(ncid_, "time", &time_dim);
+  nc_inq_dimid(ncid_, "reach", &reach_dim);
+  if (ndims != 2 || !((dims[0] == time_dim && dims[1] == reach_dim) ||
+                      (dims[0] == reach_dim && dims[1] == time_dim)))
+    throw InputError(where, "the variable must have dimensions (time, reach)");
+  if (type != NC_DOUBLE && type != NC_FLOAT)
+    throw InputError(where, "the variable must be float or double");
+  v.time_first = dims[0] == time_dim;
+  const double to_m3s = dischargeFactor(textAttribute(ncid_, v.varid, "units"), path_, name);
+  v.fill = numberAttribute(ncid_, v.varid, "_FillValue")
+               .value_or(type == NC_DOUBLE ? NC_FILL_DOUBLE : static_cast<double>(NC_FILL_FLOAT));
+  v.scale = numberAttribute(ncid_, v.varid, "scale_factor").value_or(1.0) * to_m3s;
+  v.offset = numberAttribute(ncid_, v.varid, "add_offset").value_or(0.0) * to_m3s;
+}
+
+bool NetcdfForcingSource::has(ForcingKind kind, std::string_view id) const {
+  return vars_[kind == ForcingKind::Inflow ? 0 : 1].varid >= 0 && index_.contains(std::string(id));
+}
+
+std::vector<std::string> NetcdfForcingSource::ids(ForcingKind kind) const {
+  if (vars_[kind == ForcingKind::Inflow ? 0 : 1].varid < 0) return {};
+  std::vector<std::string> out = ids_;
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+bool NetcdfForcingSource::series(ForcingKind kind, std::string_view id,
+                                 std::vector<double>& out) const {
+  const Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
+  if (v.varid < 0) return false;
+  const auto it = index_.find(std::string(id));
+  if (it == index_.end()) return false;
+  std::vector<double> values(axis_.steps);
+  {
+    const std::size_t r = it->second;
+    const std::size_t start[2] = {v.time_first ? 0 : r, v.time_first ? r : 0};
+    const std::size_t count[2] = {v.time_first ? axis_.steps : 1, v.time_first ? 1 : axis_.steps};
+    const std::lock_guard lock(detail::netcdfMutex());
+    detail::check(nc_get_vara_double(ncid_, v.varid, start, count, values.data()), path_,
+                  fmt::format("reading {} of reach {}", kindName(kind), id));
+  }
+  const auto missing = [&](double x) { return std::isnan(x) || x == v.fill; };
+  const auto n_missing = static_cast<std::size_t>(std::count_if(values.begin(), values.end(), missing));
+  if (n_missing == values.size()) return false;
+  InputLocation where = located(path_, std::string(kindName(kind)));
+  where.reach_id = std::string(id);
+  for (std::size_t k = 0; k < values.size(); ++k) {
+    const double raw = values[k];
+    values[k] = raw * v.scale + v.offset;
+    if (missing(raw) || !std::isfinite(values[k]) || values[k] < 0) {
+      where.time = formatIsoTime(axis_.at(static_cast<double>(k)), axis_.utc_offset_min, 0);
+      throw InputError(where, missing(raw) ? std::string("missing value (_FillValue) inside the series")
+                                           : fmt::format("discharge {} is not finite and >= 0", values[k]));
+    }
+  }
+  out = std::move(values);
+  return true;
+}
+
+Forcing readForcingNetcdf(const std::filesystem::path& path) {
+  const NetcdfForcingSource source(path);
+  Forcing forcing;
+  forcing.axis = source.axis();
+  std::vector<double> values;
+  for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
+    for (const std::string& id : source.ids(kind))
+      if (source.series(kind, id, values)) forcing.series(kind)[id] = values;
+    if (!source.ids(kind).empty()) forcing.origin(kind) = path.string();
+  }
+  return forcing;
+}
+
+}  // namespace reachwise::io

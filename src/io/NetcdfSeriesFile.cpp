@@ -1,0 +1,155 @@
+#include "NetcdfSeriesFile.hpp"
+
+#include <netcdf.h>
+#include <unistd.h>
+
+#include <system_error>
+
+#include <fmt/format.h>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::io::detail {
+
+std::mutex& netcdfMutex() {
+  static std::mutex m;
+  return m;
+}
+
+void check(int status, const std::filesystem::path& file, const std::string& doing) {
+  if (status == NC_NOERR) return;
+  InputLocation where;
+  where.file = file.string();
+  throw InputError(where, fmt::format("netCDF: {}: {}", doing, nc_strerror(status)));
+}
+
+namespace {
+
+void putText(int ncid, int varid, const char* name, const std::string& value,
+             const std::filesystem::path& file) {
+  check(nc_put_att_text(ncid, varid, name, value.size(), value.c_str()), file,
+        fmt::format("writing attribute {}", name));
+}
+
+}  // namespace
+
+SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis,
+                       const std::vector<std::string>& reach_ids,
+                       std::vector<SeriesVariable> variables, const SeriesFileOptions& options)
+    : path_(std::move(path)), variables_(std::move(variables)), reaches_(reach_ids.size()),
+      steps_(axis.steps) {
+  if (steps_ == 0) throw InvalidParameter("time axis", "no steps to write");
+  if (reaches_ == 0) throw InvalidParameter("reach_id", "no reaches to write");
+  if (options.reach_chunk == 0) throw InvalidParameter("reach_chunk", "must be at least 1");
+  // Same directory, so that the final rename stays on one file system.
+  temp_ = path_;
+  temp_ += fmt::format(".{}.partial", ::getpid());
+  const std::lock_guard lock(netcdfMutex());
+  check(nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_), temp_, "creating the file");
+  try {
+    define(axis, reach_ids, options);
+  } catch (...) {
+    abandon();
+    throw;
+  }
+}
+
+void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::string>& reach_ids,
+                        const SeriesFileOptions& options) {
+  int dim_time = 0, dim_reach = 0, var_time = 0, var_id = 0;
+  check(nc_def_dim(ncid_, "time", steps_, &dim_time), temp_, "defining dimension time");
+  check(nc_def_dim(ncid_, "reach", reaches_, &dim_reach), temp_, "defining dimension reach");
+  check(nc_def_var(ncid_, "time", NC_DOUBLE, 1, &dim_time, &var_time), temp_, "defining time");
+  putText(ncid_, var_time, "standard_name", "time", temp_);
+  putText(ncid_, var_time, "long_name", "time", temp_);
+  putText(ncid_, var_time, "units", kTimeUnits, temp_);
+  putText(ncid_, var_time, "calendar", "standard", temp_);
+  putText(ncid_, var_time, "axis", "T", temp_);
+  const int offset = axis.utc_offset_min;
+  check(nc_put_att_int(ncid_, var_time, "utc_offset_minutes", NC_INT, 1, &offset), temp_,
+        "writing attribute utc_offset_minutes");
+  check(nc_def_var(ncid_, "reach_id", NC_STRING, 1, &dim_reach, &var_id), temp_, "defining reach_id");
+  putText(ncid_, var_id, "long_name", "reach id", temp_);
+  putText(ncid_, var_id, "cf_role", "timeseries_id", temp_);
+
+  const int dims[2] = {dim_time, dim_reach};
+  const std::size_t chunks[2] = {steps_, std::min(options.reach_chunk, reaches_)};
+  const double fill = NC_FILL_DOUBLE;
+  for (const SeriesVariable& v : variables_) {
+    int id = 0;
+    check(nc_def_var(ncid_, v.name.c_str(), NC_DOUBLE, 2, dims, &id), temp_, "defining " + v.name);
+    check(nc_def_var_chunking(ncid_, id, NC_CHUNKED, chunks), temp_, "chunking " + v.name);
+    if (options.deflate_level > 0)
+      check(nc_def_var_deflate(ncid_, id, 1, 1, options.deflate_level), temp_, "compressing " + v.name);
+    check(nc_put_att_double(ncid_, id, "_FillValue", NC_DOUBLE, 1, &fill), temp_, "fill of " + v.name);
+    putText(ncid_, id, "units", v.units, temp_);
+    putText(ncid_, id, "long_name", v.long_name, temp_);
+    if (!v.standard_name.empty()) putText(ncid_, id, "standard_name", v.standard_name, temp_);
+    putText(ncid_, id, "coordinates", "reach_id", temp_);
+    varids_.push_back(id);
+  }
+  putText(ncid_, NC_GLOBAL, "Conventions", "CF-1.8", temp_);
+  putText(ncid_, NC_GLOBAL, "title", options.title, temp_);
+  putText(ncid_, NC_GLOBAL, "source", options.source, temp_);
+  if (!options.history.empty()) putText(ncid_, NC_GLOBAL, "history", options.history, temp_);
+  check(nc_enddef(ncid_), temp_, "ending definitions");
+
+  std::vector<double> times(steps_);
+  for (std::size_t k = 0; k < steps_; ++k) times[k] = axis.at(static_cast<double>(k));
+  check(nc_put_var_double(ncid_, var_time, times.data()), temp_, "writing time");
+  std::vector<const char*> ids;
+  ids.reserve(reaches_);
+  for (const std::string& id : reach_ids) ids.push_back(id.c_str());
+  check(nc_put_var_string(ncid_, var_id, ids.data()), temp_, "writing reach_id");
+}
+
+void SeriesFile::write(std::size_t variable, std::size_t reach, std::span<const double> values) {
+  if (finished_) throw InternalError("write after finish on " + path_.string());
+  REACHWISE_ASSERT(variable < varids_.size());
+  if (reach >= reaches_)
+    throw InternalError(fmt::format("reach index {} beyond the {} reaches of {}", reach, reaches_,
+                                    path_.string()));
+  if (values.size() != steps_)
+    throw InternalError(fmt::format("{} values for reach index {} on an axis of {} steps",
+                                    values.size(), reach, steps_));
+  const std::size_t start[2] = {0, reach};
+  const std::size_t count[2] = {steps_, 1};
+  const std::lock_guard lock(netcdfMutex());
+  check(nc_put_vara_double(ncid_, varids_[variable], start, count, values.data()), temp_,
+        "writing " + variables_[variable].name);
+}
+
+void SeriesFile::finish() {
+  if (finished_) return;
+  {
+    const std::lock_guard lock(netcdfMutex());
+    const int status = nc_close(ncid_);
+    ncid_ = -1;
+    check(status, temp_, "closing the file");
+  }
+  std::error_code ec;
+  std::filesystem::rename(temp_, path_, ec);
+  if (ec) {
+    InputLocation where;
+    where.file = path_.string();
+    throw InputError(where, "cannot move the finished file into place: " + ec.message());
+  }
+  finished_ = true;
+}
+
+void SeriesFile::abandon() noexcept {
+  if (ncid_ >= 0) {
+    nc_close(ncid_);
+    ncid_ = -1;
+  }
+  std::error_code ec;
+  std::filesystem::remove(temp_, ec);
+}
+
+SeriesFile::~SeriesFile() {
+  if (finished_) return;
+  const std::lock_guard lock(netcdfMutex());
+  abandon();
+}
+
+}  // namespace reachwise::io::detail

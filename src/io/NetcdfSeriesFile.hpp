@@ -1,0 +1,86 @@
+#pragma once
+/// \file
+/// Private to src/io: the CF `time × reach` file layout shared by the
+/// forcing writer and the routed-series writer (docs/formats.md, "NetCDF
+/// layout"), the lock every netCDF-C call takes, and error checking.
+
+#include <cstddef>
+#include <filesystem>
+#include <mutex>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::io::detail {
+
+/// netCDF-C (and the HDF5 below it, as Debian builds it) is not thread-safe,
+/// not even across different files: every call in reachwise takes this lock.
+std::mutex& netcdfMutex();
+
+/// Throws InputError naming `file` and what was being done when `status`
+/// is not NC_NOERR.
+void check(int status, const std::filesystem::path& file, const std::string& doing);
+
+/// The units string written on (and expected, among others, of) `time`.
+inline constexpr const char* kTimeUnits = "seconds since 1970-01-01T00:00:00Z";
+
+struct SeriesVariable {
+  std::string name;            ///< netCDF variable name
+  std::string units;           ///< UDUNITS string, e.g. "m3 s-1"
+  std::string long_name;
+  std::string standard_name;   ///< CF standard name, or empty
+};
+
+struct SeriesFileOptions {
+  std::string title;
+  std::string source;
+  std::string history;
+  int deflate_level = 1;           ///< 0 = none; shuffle is on whenever deflate is
+  std::size_t reach_chunk = 1;     ///< reaches per chunk (time is always whole)
+};
+
+/// A CF file with dimensions `time` and `reach`, coordinate `time`, the
+/// `reach_id` strings, and one double variable (time, reach) per entry of
+/// `variables`, filled with _FillValue until written. Created under a
+/// temporary name beside `path`; `finish()` closes and renames it; the
+/// destructor removes it when `finish()` was not reached.
+class SeriesFile {
+public:
+  SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis,
+             const std::vector<std::string>& reach_ids, std::vector<SeriesVariable> variables,
+             const SeriesFileOptions& options);
+  ~SeriesFile();
+  SeriesFile(const SeriesFile&) = delete;
+  SeriesFile& operator=(const SeriesFile&) = delete;
+
+  /// Writes the whole series of `variable` for reach `reach` (an index into
+  /// `reach_ids`). `values.size()` must be the axis length.
+  void write(std::size_t variable, std::size_t reach, std::span<const double> values);
+
+  /// Closes the file and renames it to its final name (replacing a file
+  /// already there: whether that is allowed is the caller's decision).
+  void finish();
+
+  const std::filesystem::path& path() const noexcept { return path_; }
+  const std::filesystem::path& temporaryPath() const noexcept { return temp_; }
+  std::size_t reachCount() const noexcept { return reaches_; }
+  std::size_t steps() const noexcept { return steps_; }
+
+private:
+  void define(const routing::TimeAxis& axis, const std::vector<std::string>& reach_ids,
+              const SeriesFileOptions& options);
+  void abandon() noexcept;
+
+  std::filesystem::path path_;
+  std::filesystem::path temp_;
+  std::vector<SeriesVariable> variables_;
+  std::vector<int> varids_;
+  std::size_t reaches_ = 0;
+  std::size_t steps_ = 0;
+  int ncid_ = -1;
+  bool finished_ = false;
+};
+
+}  // namespace reachwise::io::detail

@@ -1,0 +1,71 @@
+#include "reachwise/io/SeriesNetcdf.hpp"
+
+#include <fmt/format.h>
+
+#include "NetcdfSeriesFile.hpp"
+#include "reachwise/Error.hpp"
+
+namespace reachwise::io {
+
+NetcdfSeriesWriter::NetcdfSeriesWriter(std::filesystem::path path, const routing::TimeAxis& axis,
+                                       std::vector<std::string> reach_ids,
+                                       const SeriesNetcdfOptions& options)
+    : reach_ids_(std::move(reach_ids)), written_(reach_ids_.size(), false) {
+  // "water_volume_transport_in_river_channel" is the CF standard name for
+  // river discharge in m3 s-1 (CF standard name table, from memory).
+  std::vector<detail::SeriesVariable> vars{
+      {"outflow", "m3 s-1", "discharge at the downstream end of the reach",
+       "water_volume_transport_in_river_channel"}};
+  if (options.depth) {
+    depth_var_ = static_cast<int>(vars.size());
+    vars.push_back({"depth", "m", "flow depth at the downstream end of the reach", ""});
+  }
+  if (options.velocity) {
+    velocity_var_ = static_cast<int>(vars.size());
+    vars.push_back({"velocity", "m s-1", "mean velocity at the downstream end of the reach", ""});
+  }
+  detail::SeriesFileOptions file_options;
+  file_options.title = options.title;
+  file_options.source = options.source;
+  file_options.history = options.history;
+  file_options.deflate_level = options.deflate_level;
+  file_ = std::make_unique<detail::SeriesFile>(std::move(path), axis, reach_ids_, std::move(vars),
+                                               file_options);
+}
+
+NetcdfSeriesWriter::~NetcdfSeriesWriter() = default;
+
+const std::filesystem::path& NetcdfSeriesWriter::temporaryPath() const noexcept {
+  return file_->temporaryPath();
+}
+
+void NetcdfSeriesWriter::write(std::uint32_t reach, std::span<const double> q_m3s,
+                               std::span<const double> depth_m, std::span<const double> velocity_ms) {
+  if (reach >= written_.size())
+    throw InternalError(fmt::format("reach index {} beyond the {} reaches of {}", reach,
+                                    written_.size(), file_->path().string()));
+  if (written_[reach])
+    throw InternalError(fmt::format("reach {} written twice to {}", reach_ids_[reach],
+                                    file_->path().string()));
+  file_->write(0, reach, q_m3s);
+  if (depth_var_ >= 0 && !depth_m.empty())
+    file_->write(static_cast<std::size_t>(depth_var_), reach, depth_m);
+  if (velocity_var_ >= 0 && !velocity_ms.empty())
+    file_->write(static_cast<std::size_t>(velocity_var_), reach, velocity_ms);
+  written_[reach] = true;
+  ++written_count_;
+}
+
+void NetcdfSeriesWriter::finish() {
+  if (written_count_ != written_.size()) {
+    std::vector<std::string> missing;
+    for (std::size_t i = 0; i < written_.size() && missing.size() < 5; ++i)
+      if (!written_[i]) missing.push_back(reach_ids_[i]);
+    throw InternalError(fmt::format("{} of {} reaches never written to {} (first: {})",
+                                    written_.size() - written_count_, written_.size(),
+                                    file_->path().string(), fmt::join(missing, ", ")));
+  }
+  file_->finish();
+}
+
+}  // namespace reachwise::io

@@ -1,0 +1,283 @@
+#include "reachwise/io/ForcingNetcdf.hpp"
+
+#include <netcdf.h>
+#include <unistd.h>
+
+#include <fstream>
+#include <random>
+
+#include <gtest/gtest.h>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/io/IsoTime.hpp"
+
+namespace fs = std::filesystem;
+using namespace reachwise;
+using namespace reachwise::io;
+
+namespace {
+
+class ForcingNetcdfTest : public ::testing::Test {
+protected:
+  void SetUp() override {
+    const auto* info = ::testing::UnitTest::GetInstance()->current_test_info();
+    dir_ = fs::temp_directory_path() /
+           (std::string("reachwise_forcing_nc_") + info->name() + "_" + std::to_string(::getpid()));
+    fs::remove_all(dir_);
+    fs::create_directories(dir_);
+  }
+  void TearDown() override { fs::remove_all(dir_); }
+  std::size_t filesInDir() const {
+    return static_cast<std::size_t>(std::distance(fs::directory_iterator(dir_), fs::directory_iterator()));
+  }
+  fs::path dir_;
+};
+
+Forcing sampleForcing(unsigned seed) {
+  Forcing f;
+  f.axis.start_unix_s = parseIsoTime("2026-05-01T00:00:00+02:00").unix_s;
+  f.axis.dt_s = 1800;
+  f.axis.steps = 48;
+  f.axis.utc_offset_min = 120;
+  std::mt19937 rng(seed);
+  std::uniform_real_distribution<double> q(0, 250);
+  const auto series = [&] {
+    std::vector<double> v(f.axis.steps);
+    for (double& x : v) x = q(rng);
+    return v;
+  };
+  f.inflow["R1"] = series();
+  f.inflow["R12"] = series();
+  f.lateral["R12"] = series();
+  f.lateral["R3"] = series();
+  f.lateral["R3"][5] = 0.0;
+  return f;
+}
+
+std::string textAtt(int ncid, int varid, const char* name) {
+  std::size_t len = 0;
+  EXPECT_EQ(nc_inq_attlen(ncid, varid, name, &len), NC_NOERR) << name;
+  std::string s(len, '\0');
+  EXPECT_EQ(nc_get_att_text(ncid, varid, name, s.data()), NC_NOERR) << name;
+  return s;
+}
+
+/// Builds a file by hand with the netCDF-C API: (reach, time) order, a char
+/// reach_id, float data, time in hours, and the given extra twists.
+struct HandFile {
+  std::string time_units = "hours since 2026-05-01 00:00:00";
+  std::string calendar = "gregorian";
+  std::string units = "ft3 s-1";
+  std::vector<double> hours{0, 1, 2, 3};
+  std::vector<std::string> ids{"A", "B"};
+  std::vector<float> values{1, 2, 3, 4, 10, 20, 30, 40};   // (reach, time)
+  bool with_units = true;
+};
+
+void writeHand(const fs::path& p, const HandFile& h) {
+  int nc = 0, dt = 0, dr = 0, ds = 0, vt = 0, vid = 0, vq = 0;
+  ASSERT_EQ(nc_create(p.c_str(), NC_NETCDF4 | NC_CLOBBER, &nc), NC_NOERR);
+  nc_def_dim(nc, "time", h.hours.size(), &dt);
+  nc_def_dim(nc, "reach", h.ids.size(), &dr);
+  nc_def_dim(nc, "id_len", 8, &ds);
+  nc_def_var(nc, "time", NC_DOUBLE, 1, &dt, &vt);
+  nc_put_att_text(nc, vt, "units", h.time_units.size(), h.time_units.c_str());
+  nc_put_att_text(nc, vt, "calendar", h.calendar.size(), h.calendar.c_str());
+  const int id_dims[2] = {dr, ds};
+  nc_def_var(nc, "reach_id", NC_CHAR, 2, id_dims, &vid);
+  const int q_dims[2] = {dr, dt};
+  nc_def_var(nc, "lateral", NC_FLOAT, 2, q_dims, &vq);
+  if (h.with_units) nc_put_att_text(nc, vq, "units", h.units.size(), h.units.c_str());
+  const float fill = -9999.0f;
+  nc_put_att_float(nc, vq, "_FillValue", NC_FLOAT, 1, &fill);
+  ASSERT_EQ(nc_enddef(nc), NC_NOERR);
+  nc_put_var_double(nc, vt, h.hours.data());
+  std::string ids(h.ids.size() * 8, '\0');
+  for (std::size_t r = 0; r < h.ids.size(); ++r) ids.replace(r * 8, h.ids[r].size(), h.ids[r]);
+  nc_put_var_text(nc, vid, ids.data());
+  nc_put_var_float(nc, vq, h.values.data());
+  ASSERT_EQ(nc_close(nc), NC_NOERR);
+}
+
+void expectInputErrorNaming(const std::function<void()>& f, const fs::path& p, const std::string& says) {
+  try {
+    f();
+    ADD_FAILURE() << "no InputError for " << p << " (" << says << ")";
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    EXPECT_EQ(e.where().file, p.string()) << what;
+    EXPECT_NE(what.find(says), std::string::npos) << what;
+  }
+}
+
+}  // namespace
+
+TEST_F(ForcingNetcdfTest, WriteThenReadBackIdentical) {
+  const Forcing f = sampleForcing(11);
+  const fs::path p = dir_ / "forcing.nc";
+  writeForcingNetcdf(p, f);
+  EXPECT_TRUE(fs::exists(p));
+  EXPECT_EQ(filesInDir(), 1u);  // no temporary left beside it
+  const Forcing g = readForcingNetcdf(p);
+  EXPECT_EQ(g.axis.start_unix_s, f.axis.start_unix_s);
+  EXPECT_EQ(g.axis.dt_s, f.axis.dt_s);
+  EXPECT_EQ(g.axis.steps, f.axis.steps);
+  EXPECT_EQ(g.axis.utc_offset_min, 120);
+  EXPECT_EQ(g.inflow, f.inflow);    // bit-identical doubles
+  EXPECT_EQ(g.lateral, f.lateral);  // R1 has no lateral, R3 no inflow: both stay absent
+  EXPECT_EQ(g.inflow_origin, p.string());
+}
+
+TEST_F(ForcingNetcdfTest, WrittenFileCarriesTheCfAttributesAndLayout) {
+  // Attribute names and values checked against the CF Conventions 1.8
+  // document: §2.6.1 (Conventions = "CF-1.8", title, source), §4.4 (time
+  // units "<unit> since <date>", calendar "standard"), §3.1 (units),
+  // §2.5.1 (_FillValue), §9.5 (cf_role = "timeseries_id").
+  const Forcing f = sampleForcing(3);
+  const fs::path p = dir_ / "cf.nc";
+  ForcingNetcdfOptions options;
+  options.title = "Synthetic storm on the Brannock network";
+  options.source = "reachwise test";
+  writeForcingNetcdf(p, f, options);
+  int nc = 0;
+  ASSERT_EQ(nc_open(p.c_str(), NC_NOWRITE, &nc), NC_NOERR);
+  EXPECT_EQ(textAtt(nc, NC_GLOBAL, "Conventions"), "CF-1.8");
+  EXPECT_EQ(textAtt(nc, NC_GLOBAL, "title"), options.title);
+  EXPECT_EQ(textAtt(nc, NC_GLOBAL, "source"), options.source);
+  int dt = 0, dr = 0, vt = 0, vid = 0, vin = 0, vlat = 0;
+  ASSERT_EQ(nc_inq_dimid(nc, "time", &dt), NC_NOERR);
+  ASSERT_EQ(nc_inq_dimid(nc, "reach", &dr), NC_NOERR);
+  std::size_t nt = 0, nr = 0;
+  nc_inq_dimlen(nc, dt, &nt);
+  nc_inq_dimlen(nc, dr, &nr);
+  EXPECT_EQ(nt, 48u);
+  EXPECT_EQ(nr, 3u);  // R1, R12, R3
+  ASSERT_EQ(nc_inq_varid(nc, "time", &vt), NC_NOERR);
+  EXPECT_EQ(textAtt(nc, vt, "units"), "seconds since 1970-01-01T00:00:00Z");
+  EXPECT_EQ(textAtt(nc, vt, "calendar"), "standard");
+  EXPECT_EQ(textAtt(nc, vt, "standard_name"), "time");
+  double t0 = 0;
+  const std::size_t zero = 0;
+  nc_get_var1_double(nc, vt, &zero, &t0);
+  EXPECT_EQ(t0, static_cast<double>(parseIsoTime("2026-04-30T22:00:00Z").unix_s));
+  ASSERT_EQ(nc_inq_varid(nc, "reach_id", &vid), NC_NOERR);
+  nc_type type = NC_NAT;
+  nc_inq_vartype(nc, vid, &type);
+  EXPECT_EQ(type, NC_STRING);
+  EXPECT_EQ(textAtt(nc, vid, "cf_role"), "timeseries_id");
+  for (const char* name : {"inflow", "lateral"}) {
+    int v = 0;
+    ASSERT_EQ(nc_inq_varid(nc, name, &v), NC_NOERR) << name;
+    EXPECT_EQ(textAtt(nc, v, "units"), "m3 s-1");
+    double fill = 0;
+    ASSERT_EQ(nc_get_att_double(nc, v, "_FillValue", &fill), NC_NOERR);
+    EXPECT_EQ(fill, NC_FILL_DOUBLE);
+    int dims[2] = {-1, -1};
+    nc_inq_vardimid(nc, v, dims);
+    EXPECT_EQ(dims[0], dt);
+    EXPECT_EQ(dims[1], dr);
+    int storage = 0;
+    std::size_t chunks[2] = {0, 0};
+    ASSERT_EQ(nc_inq_var_chunking(nc, v, &storage, chunks), NC_NOERR);
+    EXPECT_EQ(storage, NC_CHUNKED);
+    EXPECT_EQ(chunks[0], 48u);  // the whole series of ...
+    EXPECT_EQ(chunks[1], 1u);   // ... one reach per chunk
+  }
+  nc_inq_varid(nc, "inflow", &vin);
+  nc_inq_varid(nc, "lateral", &vlat);
+  // R3 (index 2) has no inflow: its column is _FillValue.
+  const std::size_t at[2] = {0, 2};
+  double q = 0;
+  nc_get_var1_double(nc, vin, at, &q);
+  EXPECT_EQ(q, NC_FILL_DOUBLE);
+  nc_close(nc);
+}
+
+TEST_F(ForcingNetcdfTest, SourceReadsOneReachOnDemand) {
+  const Forcing f = sampleForcing(5);
+  const fs::path p = dir_ / "src.nc";
+  writeForcingNetcdf(p, f);
+  const NetcdfForcingSource source(p);
+  EXPECT_EQ(source.axis().steps, 48u);
+  EXPECT_TRUE(source.has(ForcingKind::Lateral, "R3"));
+  EXPECT_FALSE(source.has(ForcingKind::Lateral, "R99"));
+  std::vector<double> out{-1};
+  EXPECT_TRUE(source.lateral("R3", out));
+  EXPECT_EQ(out, f.lateral.at("R3"));
+  EXPECT_FALSE(source.lateral("R1", out));  // all _FillValue
+  EXPECT_FALSE(source.inflow("R99", out));
+  EXPECT_EQ(out, f.lateral.at("R3"));       // untouched by the misses
+  EXPECT_EQ(source.ids(), (std::vector<std::string>{"R1", "R12", "R3"}));
+  try {
+    requireKnownReaches(source, std::set<std::string, std::less<>>{"R1"});
+    ADD_FAILURE() << "unknown reaches accepted";
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    EXPECT_NE(what.find("R12"), std::string::npos) << what;
+    EXPECT_NE(what.find("R3"), std::string::npos) << what;
+    EXPECT_NE(what.find(p.string()), std::string::npos) << what;
+  }
+}
+
+TEST_F(ForcingNetcdfTest, ReadsHoursCharIdsReachFirstAndCubicFeet) {
+  const fs::path p = dir_ / "hand.nc";
+  writeHand(p, HandFile{});
+  const NetcdfForcingSource source(p);
+  EXPECT_EQ(source.axis().start_unix_s, parseIsoTime("2026-05-01T00:00:00Z").unix_s);
+  EXPECT_EQ(source.axis().dt_s, 3600.0);
+  EXPECT_TRUE(source.ids(ForcingKind::Inflow).empty());
+  std::vector<double> b;
+  ASSERT_TRUE(source.lateral("B", b));
+  // 1 ft^3/s = 0.3048^3 m^3/s exactly (international foot, 1959).
+  const double cfs = 0.3048 * 0.3048 * 0.3048;
+  ASSERT_EQ(b.size(), 4u);
+  for (std::size_t k = 0; k < 4; ++k) EXPECT_NEAR(b[k], 10.0 * static_cast<double>(k + 1) * cfs, 1e-12);
+}
+
+TEST_F(ForcingNetcdfTest, BadFilesNameTheFile) {
+  int n = 0;
+  const auto variant = [&](auto tweak, const std::string& says) {
+    HandFile h;
+    tweak(h);
+    const fs::path p = dir_ / ("bad" + std::to_string(n++) + ".nc");
+    writeHand(p, h);
+    expectInputErrorNaming(
+        [&] {
+          const NetcdfForcingSource source(p);
+          std::vector<double> out;
+          source.lateral("A", out);
+          source.lateral("B", out);
+        },
+        p, says);
+  };
+  variant([](HandFile& h) { h.with_units = false; }, "units");
+  variant([](HandFile& h) { h.units = "mm"; }, "not a discharge");
+  variant([](HandFile& h) { h.hours = {0, 1, 3, 4}; }, "uniform step");
+  variant([](HandFile& h) { h.calendar = "noleap"; }, "calendar");
+  variant([](HandFile& h) { h.time_units = "fortnights since 2026-05-01"; }, "time unit");
+  variant([](HandFile& h) { h.time_units = "hours since 2026-13-01"; }, "month 13");
+  variant([](HandFile& h) { h.ids = {"A", "A"}; }, "twice");
+  variant([](HandFile& h) { h.values[5] = -9999.0f; }, "missing value");
+  variant([](HandFile& h) { h.values[2] = -1.0f; }, "not finite and >= 0");
+  const fs::path text = dir_ / "not.nc";
+  std::ofstream(text) << "time,R1\n";
+  expectInputErrorNaming([&] { NetcdfForcingSource source(text); }, text, "netCDF");
+  expectInputErrorNaming([&] { NetcdfForcingSource source(dir_ / "none.nc"); }, dir_ / "none.nc", "opening");
+}
+
+TEST_F(ForcingNetcdfTest, UnfinishedWriterLeavesNothing) {
+  const Forcing f = sampleForcing(1);
+  const fs::path p = dir_ / "never.nc";
+  {
+    NetcdfForcingWriter writer(p, f.axis, {"R1", "R2"}, true, false);
+    writer.write(ForcingKind::Inflow, 0, f.inflow.at("R1"));
+    EXPECT_EQ(filesInDir(), 1u);  // the temporary file exists meanwhile
+    EXPECT_FALSE(fs::exists(p));
+  }
+  EXPECT_EQ(filesInDir(), 0u);
+  NetcdfForcingWriter writer(p, f.axis, {"R1"}, true, false);
+  EXPECT_THROW(writer.write(ForcingKind::Lateral, 0, f.inflow.at("R1")), InternalError);
+  std::vector<double> bad = f.inflow.at("R1");
+  bad[3] = -2;
+  EXPECT_THROW(writer.write(ForcingKind::Inflow, 0, bad), InvalidParameter);
+}
