@@ -1,0 +1,55 @@
+#pragma once
+/// \file
+/// Routing a whole network: reaches in topological order, confluence inflow
+/// as the sum of upstream outflows (their shares below a bifurcation) plus
+/// point inflow, lateral inflow along each reach. Independent sub-trees run
+/// in parallel (oneTBB); the result does not depend on the thread count,
+/// because every reach sums its inputs in the plan's fixed order.
+
+#include <cstdint>
+#include <span>
+#include <vector>
+
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/ReachRouter.hpp"
+#include "reachwise/routing/Results.hpp"
+
+namespace reachwise::routing {
+
+/// Forcing per reach (plan index) on the run's time axis. Must be safe to
+/// call from several threads at once. Returning false means "none" (zero).
+class ForcingProvider {
+public:
+  virtual ~ForcingProvider() = default;
+  /// Point inflow at the top of the reach, m^3/s.
+  virtual bool inflow(std::uint32_t reach, std::span<double> out) const = 0;
+  /// Total lateral inflow along the reach, m^3/s.
+  virtual bool lateral(std::uint32_t reach, std::span<double> out) const = 0;
+};
+
+/// Forcing held in memory, by plan index (an empty vector = none).
+class MemoryForcing : public ForcingProvider {
+public:
+  std::vector<std::vector<double>> inflow_m3s, lateral_m3s;
+  bool inflow(std::uint32_t reach, std::span<double> out) const override;
+  bool lateral(std::uint32_t reach, std::span<double> out) const override;
+};
+
+struct NetworkRouteOptions {
+  RouteOptions reach;            ///< method, scheme, forced grid (applies to every reach)
+  unsigned threads = 0;          ///< 0 = all cores
+  /// Constant base flow per reach (m^3/s, by plan index), added to its
+  /// lateral inflow; empty = none. The steady initial state accumulates it
+  /// down the network.
+  std::vector<double> base_flow_m3s;
+};
+
+/// Routes every reach of `plan` over `axis`. Each finished reach's outflow
+/// (with depth and velocity) goes to `sink` (may be null), one call at a
+/// time; its series is dropped once every downstream reach has used it.
+/// Throws InputError naming the reach for a bad section or forcing.
+NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& axis,
+                            const ForcingProvider& forcing, const NetworkRouteOptions& options,
+                            SeriesSink* sink = nullptr);
+
+}  // namespace reachwise::routing

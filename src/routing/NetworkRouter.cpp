@@ -1,0 +1,272 @@
+#include "reachwise/routing/NetworkRouter.hpp"
+
+#include <tbb/enumerable_thread_specific.h>
+#include <tbb/parallel_for_each.h>
+#include <tbb/task_arena.h>
+
+#include <algorithm>
+#include <atomic>
+#include <cmath>
+#include <memory>
+#include <mutex>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/routing/Peak.hpp"
+
+namespace reachwise::routing {
+
+bool MemoryForcing::inflow(std::uint32_t reach, std::span<double> out) const {
+  if (reach >= inflow_m3s.size() || inflow_m3s[reach].empty()) return false;
+  std::copy_n(inflow_m3s[reach].begin(), std::min(out.size(), inflow_m3s[reach].size()), out.begin());
+  return true;
+}
+
+bool MemoryForcing::lateral(std::uint32_t reach, std::span<double> out) const {
+  if (reach >= lateral_m3s.size() || lateral_m3s[reach].empty()) return false;
+  std::copy_n(lateral_m3s[reach].begin(), std::min(out.size(), lateral_m3s[reach].size()), out.begin());
+  return true;
+}
+
+namespace {
+
+struct Workspace {
+  ReachRouter router;
+  std::vector<double> inflow, lateral, point, depth, velocity;
+};
+
+double peakTime(const TimeAxis& axis, const Peak& p) { return axis.at(p.index); }
+
+class Scheduler {
+public:
+  Scheduler(const network::NetworkPlan& plan, const TimeAxis& axis, const ForcingProvider& forcing,
+            const NetworkRouteOptions& options, SeriesSink* sink)
+      : plan_(plan), axis_(axis), forcing_(forcing), options_(options), sink_(sink),
+        n_(plan.size()), pending_(new std::atomic<std::uint32_t>[n_]),
+        consumers_(new std::atomic<std::uint32_t>[n_]), outflow_(n_) {
+    results_.axis = axis;
+    results_.reaches.resize(n_);
+    top_node_.resize(n_);
+    for (std::size_t i = 0; i < n_; ++i) {
+      pending_[i] = plan.up_offset[i + 1] - plan.up_offset[i];
+      consumers_[i] = plan.down_offset[i + 1] - plan.down_offset[i];
+    }
+  }
+
+  NetworkResults run() {
+    std::vector<std::uint32_t> roots;
+    for (std::uint32_t i = 0; i < n_; ++i)
+      if (plan_.isHeadwater(i)) roots.push_back(i);
+    auto body = [this](std::uint32_t i, tbb::feeder<std::uint32_t>& feeder) {
+      routeOne(i);
+      for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k) {
+        const std::uint32_t d = plan_.down_reach[k];
+        if (pending_[d].fetch_sub(1) == 1) feeder.add(d);
+      }
+    };
+    if (options_.threads > 0) {
+      tbb::task_arena arena(static_cast<int>(options_.threads));
+      arena.execute([&] { tbb::parallel_for_each(roots.begin(), roots.end(), body); });
+    } else {
+      tbb::parallel_for_each(roots.begin(), roots.end(), body);
+    }
+    if (error_) std::rethrow_exception(error_);
+    collectNodes();
+    results_.peak_live_series = peak_live_;
+    summariseWarnings();
+    return std::move(results_);
+  }
+
+private:
+  void routeOne(std::uint32_t i) {
+    if (failed_.load()) return;
+    try {
+      routeReach(i);
+    } catch (...) {
+      std::lock_guard lock(error_mutex_);
+      if (!error_) error_ = std::current_exception();
+      failed_ = true;
+    }
+  }
+
+  void routeReach(std::uint32_t i) {
+    Workspace& ws = workspace_.local();
+    const std::size_t steps = axis_.steps;
+    InputLocation where;
+    where.reach_id = plan_.reach_id[i];
+    where.fid = plan_.fid[i];
+
+    // Top inflow: upstream outflows (their shares) in plan order, then point inflow.
+    ws.inflow.assign(steps, 0.0);
+    for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) {
+      const std::uint32_t u = plan_.up_reach[k];
+      const double f = plan_.up_fraction[k];
+      const std::vector<double>& q = *outflow_[u];
+      for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] += f * q[n];
+      release(u);
+    }
+    ws.point.assign(steps, 0.0);
+    if (forcing_.inflow(i, ws.point))
+      for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] += ws.point[n];
+    ws.lateral.assign(steps, 0.0);
+    const bool has_lateral = forcing_.lateral(i, ws.lateral);
+    const double base = i < options_.base_flow_m3s.size() ? options_.base_flow_m3s[i] : 0.0;
+    if (base != 0)
+      for (double& v : ws.lateral) v += base;
+
+    ReachRun run;
+    auto out = std::make_unique<std::vector<double>>();
+    try {
+      const ReachSpec spec{hydraulics::Section::fromSpec(plan_.section[i]), plan_.length_m[i],
+                           plan_.muskingum_k_h[i] * 3600.0, plan_.muskingum_x[i]};
+      run = ws.router.route(spec, ws.inflow,
+                            (has_lateral || base != 0) ? std::span<const double>(ws.lateral)
+                                                       : std::span<const double>(),
+                            axis_.dt_s, options_.reach, *out);
+      const hydraulics::RatingTable* table = ws.router.lastTable() ? &*ws.router.lastTable() : nullptr;
+      depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
+      summarise(i, run, *out, spec.section, table);
+    } catch (const InvalidParameter& e) {
+      where.field = e.quantity();
+      throw InputError(where, e.what());
+    }
+    top_node_[i] = findPeak(ws.inflow);
+    if (sink_) {
+      std::lock_guard lock(sink_mutex_);
+      sink_->write(i, *out, ws.depth, ws.velocity);
+    }
+    if (plan_.isOutlet(i)) return;  // nobody downstream needs it
+    outflow_[i] = std::move(out);
+    const std::size_t live = ++live_;
+    std::size_t seen = peak_live_.load();
+    while (live > seen && !peak_live_.compare_exchange_weak(seen, live)) {
+    }
+  }
+
+  void release(std::uint32_t u) {
+    if (consumers_[u].fetch_sub(1) == 1) {
+      outflow_[u].reset();
+      --live_;
+    }
+  }
+
+  void summarise(std::uint32_t i, const ReachRun& run, const std::vector<double>& q,
+                 const hydraulics::Section& section, const hydraulics::RatingTable* table) {
+    ReachSummary& s = results_.reaches[i];
+    s.numerics = run.numerics;
+    s.volume = run.volume;
+    s.inflow_peak_m3s = run.inflow_peak_m3s;
+    s.inflow_peak_time_s = axis_.at(run.inflow_peak_index);
+    const Peak p = findPeak(q);
+    s.peak_q_m3s = p.value;
+    s.peak_time_s = peakTime(axis_, p);
+    const double qp = p.value;
+    std::vector<double> y, v;
+    depthAndVelocity(section, table, std::span<const double>(&qp, 1), y, v);
+    s.peak_depth_m = y[0];
+    s.peak_velocity_ms = v[0];
+    if (run.inflow_peak_m3s > 0) {
+      s.attenuation_pct = 100.0 * (run.inflow_peak_m3s - p.value) / run.inflow_peak_m3s;
+      s.travel_time_s = s.peak_time_s - s.inflow_peak_time_s;
+    }
+  }
+
+  void collectNodes();
+  void summariseWarnings();
+
+  const network::NetworkPlan& plan_;
+  const TimeAxis& axis_;
+  const ForcingProvider& forcing_;
+  const NetworkRouteOptions& options_;
+  SeriesSink* sink_;
+  std::size_t n_;
+  std::unique_ptr<std::atomic<std::uint32_t>[]> pending_, consumers_;
+  std::vector<std::unique_ptr<std::vector<double>>> outflow_;
+  std::vector<Peak> top_node_;
+  tbb::enumerable_thread_specific<Workspace> workspace_;
+  NetworkResults results_;
+  std::atomic<std::size_t> live_{0}, peak_live_{0};
+  std::atomic<bool> failed_{false};
+  std::mutex error_mutex_, sink_mutex_;
+  std::exception_ptr error_;
+};
+
+void Scheduler::collectNodes() {
+  // A node at the top of every reach (headwater, confluence, junction, or a
+  // branch of a bifurcation) and one below every outlet.
+  for (std::uint32_t i = 0; i < n_; ++i) {
+    NodeSummary node;
+    node.node_id = "N:" + plan_.reach_id[i];
+    node.x = plan_.top[i].x;
+    node.y = plan_.top[i].y;
+    node.peak_q_m3s = top_node_[i].value;
+    node.peak_time_s = peakTime(axis_, top_node_[i]);
+    const std::uint32_t ups = plan_.up_offset[i + 1] - plan_.up_offset[i];
+    if (ups == 0) {
+      node.kind = NodeKind::Headwater;
+    } else if (ups >= 2) {
+      node.kind = NodeKind::Confluence;
+      double earliest = INFINITY, latest = -INFINITY, sum = 0;
+      for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) {
+        const std::uint32_t u = plan_.up_reach[k];
+        const ReachSummary& r = results_.reaches[u];
+        ConfluenceBranch b{u, r.peak_q_m3s * plan_.up_fraction[k], r.peak_time_s};
+        earliest = std::min(earliest, b.peak_time_s);
+        latest = std::max(latest, b.peak_time_s);
+        sum += b.peak_q_m3s;
+        node.branches.push_back(b);
+      }
+      node.branch_spread_s = latest - earliest;
+      node.coincidence_ratio = sum > 0 ? node.peak_q_m3s / sum : NAN;
+    } else {
+      const std::uint32_t u = plan_.up_reach[plan_.up_offset[i]];
+      const bool split = plan_.down_offset[u + 1] - plan_.down_offset[u] > 1;
+      node.kind = split ? NodeKind::Bifurcation : NodeKind::Junction;
+    }
+    results_.nodes.push_back(std::move(node));
+  }
+  for (std::uint32_t i = 0; i < n_; ++i) {
+    if (!plan_.isOutlet(i)) continue;
+    NodeSummary node;
+    node.node_id = "O:" + plan_.reach_id[i];
+    node.kind = NodeKind::Outlet;
+    node.x = plan_.bottom[i].x;
+    node.y = plan_.bottom[i].y;
+    node.peak_q_m3s = results_.reaches[i].peak_q_m3s;
+    node.peak_time_s = results_.reaches[i].peak_time_s;
+    results_.nodes.push_back(std::move(node));
+  }
+}
+
+void Scheduler::summariseWarnings() {
+  // One line per kind of event, with counts, not one per cell.
+  std::uint64_t neg = 0, xc = 0, sur = 0;
+  std::size_t neg_r = 0, xc_r = 0, sur_r = 0, comp_r = 0, vol_r = 0;
+  for (const ReachSummary& r : results_.reaches) {
+    const ReachNumerics& m = r.numerics;
+    if (m.negative_clamps) neg += m.negative_clamps, ++neg_r;
+    if (m.x_clamps) xc += m.x_clamps, ++xc_r;
+    if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
+    if (m.grid_compromise) ++comp_r;
+    if (std::abs(r.volume.error_pct) > 1.0) ++vol_r;
+  }
+  auto& w = results_.warnings;
+  if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + std::to_string(neg_r) + " reaches");
+  if (xc_r) w.push_back(std::to_string(xc) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r) + " reaches (short or flat reaches: less diffusion than physical)");
+  if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + std::to_string(sur_r) + " reaches");
+  if (comp_r) w.push_back(std::to_string(comp_r) + " reaches where no grid kept every coefficient non-negative; the closest was used");
+  if (vol_r) w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 %");
+}
+
+}  // namespace
+
+NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& axis,
+                            const ForcingProvider& forcing, const NetworkRouteOptions& options,
+                            SeriesSink* sink) {
+  if (axis.steps < 2) throw InvalidParameter("steps", "a run needs at least two time steps");
+  REACHWISE_ASSERT(plan.up_offset.size() == plan.size() + 1);
+  REACHWISE_ASSERT(plan.down_offset.size() == plan.size() + 1);
+  Scheduler scheduler(plan, axis, forcing, options, sink);
+  return scheduler.run();
+}
+
+}  // namespace reachwise::routing

@@ -1,0 +1,248 @@
+#include "reachwise/routing/NetworkRouter.hpp"
+
+#include <gtest/gtest.h>
+
+#include <Eigen/Sparse>
+#include <cmath>
+#include <map>
+#include <mutex>
+#include <numbers>
+#include <random>
+
+using namespace reachwise;
+using namespace reachwise::routing;
+using network::NetworkPlan;
+
+namespace {
+
+/// A seeded random tree of n reaches in topological order (upstream first):
+/// reach j of the "outlet-first" numbering drains into a random earlier one.
+NetworkPlan randomTree(std::size_t n, std::mt19937& rng) {
+  std::uniform_real_distribution<double> u(0, 1);
+  std::vector<std::size_t> down(n, n);  // in outlet-first numbering
+  for (std::size_t j = 1; j < n; ++j) down[j] = std::uniform_int_distribution<std::size_t>(0, j - 1)(rng);
+  NetworkPlan p;
+  std::vector<std::vector<std::uint32_t>> ups(n), downs(n);
+  for (std::size_t j = 1; j < n; ++j) {
+    const auto a = static_cast<std::uint32_t>(n - 1 - j), b = static_cast<std::uint32_t>(n - 1 - down[j]);
+    ups[b].push_back(a);
+    downs[a].push_back(b);
+  }
+  p.up_offset.push_back(0);
+  p.down_offset.push_back(0);
+  for (std::size_t i = 0; i < n; ++i) {
+    p.reach_id.push_back("R" + std::to_string(i));
+    p.fid.push_back(static_cast<std::int64_t>(i));
+    p.record.push_back(static_cast<std::uint32_t>(i));
+    p.length_m.push_back(1000 + 9000 * u(rng));
+    hydraulics::SectionSpec s;
+    s.bottom_width_m = 3 + 20 * u(rng);
+    s.side_slope = 2 * u(rng);
+    s.manning_n = 0.03 + 0.02 * u(rng);
+    s.bed_slope = 0.0005 + 0.005 * u(rng);
+    p.section.push_back(s);
+    // K in [0.7, 2.5] h and X in [0, 0.2] keep Muskingum's coefficients
+    // non-negative at Δt = 1 h (2KX <= Δt <= 2K(1 − X)).
+    p.muskingum_k_h.push_back(0.7 + 1.8 * u(rng));
+    p.muskingum_x.push_back(0.2 * u(rng));
+    p.basin.push_back(0);
+    p.strahler.push_back(1);
+    p.top.push_back({double(i), 0});
+    p.bottom.push_back({double(i), 1});
+    for (auto a : ups[i]) p.up_reach.push_back(a), p.up_fraction.push_back(1.0);
+    for (auto b : downs[i]) p.down_reach.push_back(b);
+    p.up_offset.push_back(static_cast<std::uint32_t>(p.up_reach.size()));
+    p.down_offset.push_back(static_cast<std::uint32_t>(p.down_reach.size()));
+  }
+  return p;
+}
+
+std::vector<double> storm(std::size_t steps, double base, double peak, double start_h, double len_h) {
+  std::vector<double> q(steps, base);
+  for (std::size_t n = 0; n < steps; ++n) {
+    const double t = double(n) - start_h;
+    if (t > 0 && t < len_h) q[n] += peak * std::pow(std::sin(std::numbers::pi * t / len_h), 2);
+  }
+  return q;
+}
+
+MemoryForcing randomForcing(const NetworkPlan& p, std::size_t steps, std::mt19937& rng) {
+  std::uniform_real_distribution<double> u(0, 1);
+  MemoryForcing f;
+  f.inflow_m3s.resize(p.size());
+  f.lateral_m3s.resize(p.size());
+  for (std::uint32_t i = 0; i < p.size(); ++i) {
+    if (p.isHeadwater(i)) f.inflow_m3s[i] = storm(steps, 1 + 4 * u(rng), 50 * u(rng), 10 * u(rng), 6 + 20 * u(rng));
+    if (u(rng) < 0.5) f.lateral_m3s[i] = storm(steps, 0.2 * u(rng), 8 * u(rng), 10 * u(rng), 6 + 20 * u(rng));
+  }
+  return f;
+}
+
+struct Capture : SeriesSink {
+  std::map<std::uint32_t, std::vector<double>> q;
+  void write(std::uint32_t reach, std::span<const double> qs, std::span<const double>,
+             std::span<const double>) override {
+    q[reach].assign(qs.begin(), qs.end());
+  }
+};
+
+TimeAxis hourly(std::size_t steps) {
+  TimeAxis a;
+  a.start_unix_s = 1777593600;  // 2026-05-01T00:00:00Z
+  a.dt_s = 3600;
+  a.steps = steps;
+  return a;
+}
+
+}  // namespace
+
+// Independent oracle: linear Muskingum network routing in matrix form. With
+// one sub-reach and one sub-step per reach, O^{n+1} = C1∘I^{n+1} + C2∘I^n +
+// C3∘O^n + Cl∘L̄ and I = A O + P (A: upstream adjacency), so each step solves
+// the lower-triangular system (E − diag(C1) A) O^{n+1} = rhs with Eigen.
+// Coefficients from Chow, Maidment & Mays (1988) eq. 8.4.7, written here anew.
+TEST(NetworkRouter, MatchesSparseMatrixOracleOnRandomTrees) {
+  for (unsigned seed : {1u, 2u, 3u, 4u, 5u}) {
+    std::mt19937 rng(seed);
+    const std::size_t n = 20 + seed * 37, steps = 96;
+    const NetworkPlan p = randomTree(n, rng);
+    const MemoryForcing f = randomForcing(p, steps, rng);
+    NetworkRouteOptions opt;
+    opt.reach.method = Method::Muskingum;
+    opt.reach.subreaches = 1;
+    opt.reach.substeps = 1;
+    Capture cap;
+    routeNetwork(p, hourly(steps), f, opt, &cap);
+
+    const double dt = 3600;
+    Eigen::VectorXd c1(n), c2(n), c3(n), cl(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      const double k = p.muskingum_k_h[i] * 3600, x = p.muskingum_x[i], den = k * (1 - x) + dt / 2;
+      c1[i] = (dt / 2 - k * x) / den;
+      c2[i] = (dt / 2 + k * x) / den;
+      c3[i] = (k * (1 - x) - dt / 2) / den;
+      cl[i] = dt / den;
+    }
+    Eigen::SparseMatrix<double> a(n, n), m(n, n);
+    std::vector<Eigen::Triplet<double>> ta, tm;
+    for (std::size_t i = 0; i < n; ++i) {
+      tm.emplace_back(i, i, 1.0);
+      for (auto k = p.up_offset[i]; k < p.up_offset[i + 1]; ++k) {
+        ta.emplace_back(i, p.up_reach[k], 1.0);
+        tm.emplace_back(i, p.up_reach[k], -c1[i]);
+      }
+    }
+    a.setFromTriplets(ta.begin(), ta.end());
+    m.setFromTriplets(tm.begin(), tm.end());
+    auto at = [&](const std::vector<std::vector<double>>& s, std::size_t t) {
+      Eigen::VectorXd v = Eigen::VectorXd::Zero(n);
+      for (std::size_t i = 0; i < n; ++i)
+        if (!s[i].empty()) v[i] = s[i][t];
+      return v;
+    };
+    // Steady start: (E − A) O^0 = P^0 + L^0.
+    Eigen::SparseMatrix<double> e_minus_a(n, n);
+    e_minus_a.setIdentity();
+    e_minus_a -= a;
+    Eigen::VectorXd o = e_minus_a.triangularView<Eigen::Lower>().solve(at(f.inflow_m3s, 0) + at(f.lateral_m3s, 0));
+    double worst = 0;
+    for (std::size_t t = 0; t + 1 < steps; ++t) {
+      const Eigen::VectorXd p0 = at(f.inflow_m3s, t), p1 = at(f.inflow_m3s, t + 1);
+      const Eigen::VectorXd lbar = 0.5 * (at(f.lateral_m3s, t) + at(f.lateral_m3s, t + 1));
+      const Eigen::VectorXd i0 = a * o + p0;
+      const Eigen::VectorXd rhs = c1.cwiseProduct(p1) + c2.cwiseProduct(i0) + c3.cwiseProduct(o) + cl.cwiseProduct(lbar);
+      o = m.triangularView<Eigen::Lower>().solve(rhs);
+      for (std::size_t i = 0; i < n; ++i)
+        worst = std::max(worst, std::abs(cap.q.at(i)[t + 1] - o[i]) / std::max(1.0, std::abs(o[i])));
+    }
+    EXPECT_LT(worst, 1e-9) << "seed " << seed;
+  }
+}
+
+// Bit-identical results for any thread count.
+TEST(NetworkRouter, IdenticalForOneAndTwoThreads) {
+  std::mt19937 rng(77);
+  const NetworkPlan p = randomTree(400, rng);
+  const MemoryForcing f = randomForcing(p, 120, rng);
+  Capture one, two;
+  NetworkRouteOptions opt;  // vpmc, automatic grid
+  opt.threads = 1;
+  const NetworkResults r1 = routeNetwork(p, hourly(120), f, opt, &one);
+  opt.threads = 2;
+  const NetworkResults r2 = routeNetwork(p, hourly(120), f, opt, &two);
+  ASSERT_EQ(one.q.size(), p.size());
+  for (std::uint32_t i = 0; i < p.size(); ++i) {
+    ASSERT_EQ(one.q[i], two.q[i]) << i;  // exact equality, not a tolerance
+    EXPECT_EQ(r1.reaches[i].peak_q_m3s, r2.reaches[i].peak_q_m3s);
+  }
+}
+
+// Superposition under constant parameters (linear routing): routing the
+// forcing of two halves separately and adding equals routing them together.
+TEST(NetworkRouter, SuperpositionUnderConstantParameters) {
+  std::mt19937 rng(5);
+  const NetworkPlan p = randomTree(60, rng);
+  const MemoryForcing all = randomForcing(p, 100, rng);
+  MemoryForcing a = all, b = all;
+  for (std::uint32_t i = 0; i < p.size(); ++i) {
+    (i % 2 ? a : b).inflow_m3s[i].clear();
+    (i % 2 ? a : b).lateral_m3s[i].clear();
+  }
+  NetworkRouteOptions opt;
+  opt.reach.method = Method::ConstantParameter;
+  opt.reach.reference_q_m3s = 40;  // fixed, so the parameters do not depend on the forcing
+  Capture ca, cb, cab;
+  routeNetwork(p, hourly(100), a, opt, &ca);
+  routeNetwork(p, hourly(100), b, opt, &cb);
+  routeNetwork(p, hourly(100), all, opt, &cab);
+  for (std::uint32_t i = 0; i < p.size(); ++i)
+    for (std::size_t t = 0; t < 100; ++t)
+      EXPECT_NEAR(ca.q[i][t] + cb.q[i][t], cab.q[i][t], 1e-9 * std::max(1.0, cab.q[i][t]));
+}
+
+// Volume balance over the network: everything that entered (point inflows
+// and lateral inflows) left through the outlet or is still stored.
+TEST(NetworkRouter, VolumeBalanceAtTheOutlet) {
+  std::mt19937 rng(11);
+  const NetworkPlan p = randomTree(150, rng);
+  const MemoryForcing f = randomForcing(p, 200, rng);
+  for (Method m : {Method::ConstantParameter, Method::VariableParameter}) {
+    NetworkRouteOptions opt;
+    opt.reach.method = m;
+    const NetworkResults r = routeNetwork(p, hourly(200), f, opt);
+    double entered = 0, out = 0, stored = 0, internal = 0;
+    for (std::uint32_t i = 0; i < p.size(); ++i) {
+      const VolumeBalance& v = r.reaches[i].volume;
+      entered += v.lateral_m3;
+      internal += v.inflow_m3;
+      stored += v.storage_change_m3;
+      if (p.isOutlet(i)) out += v.outflow_m3;
+      else internal -= v.outflow_m3;
+    }
+    entered += internal;  // what is left of the top inflows is the point inflow
+    const double tol = m == Method::ConstantParameter ? 1e-9 : 1e-2;
+    EXPECT_NEAR((entered - out - stored) / entered, 0.0, tol) << int(m);
+  }
+}
+
+TEST(NetworkRouter, ConfluenceNodesCarryBranchTiming) {
+  std::mt19937 rng(21);
+  const NetworkPlan p = randomTree(80, rng);
+  const MemoryForcing f = randomForcing(p, 150, rng);
+  const NetworkResults r = routeNetwork(p, hourly(150), f, NetworkRouteOptions{});
+  std::size_t confluences = 0, outlets = 0;
+  for (const NodeSummary& node : r.nodes) {
+    if (node.kind == NodeKind::Outlet) ++outlets;
+    if (node.kind != NodeKind::Confluence) continue;
+    ++confluences;
+    ASSERT_GE(node.branches.size(), 2u);
+    double lo = INFINITY, hi = -INFINITY;
+    for (const ConfluenceBranch& b : node.branches) lo = std::min(lo, b.peak_time_s), hi = std::max(hi, b.peak_time_s);
+    EXPECT_DOUBLE_EQ(node.branch_spread_s, hi - lo);
+    EXPECT_GT(node.coincidence_ratio, 0.0);
+    EXPECT_LE(node.coincidence_ratio, 1.0 + 1e-9);  // a sum of waves peaks no higher than the sum of peaks
+  }
+  EXPECT_GT(confluences, 0u);
+  EXPECT_EQ(outlets, 1u);
+  EXPECT_LT(r.peak_live_series, p.size());
+}
