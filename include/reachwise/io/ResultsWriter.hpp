@@ -1,0 +1,180 @@
+#pragma once
+/// \file
+/// Routing results as layers and tables any GIS opens (docs/formats.md,
+/// "Outputs"): `reaches` (lines), `nodes` (points), `confluence_branches`,
+/// `hydrographs` and `run_info` (tables), in a GeoPackage, written back into
+/// the input GeoPackage under a prefix, or as CSV files.
+///
+/// Every writer builds its output where a failure cannot leave something
+/// that looks complete: a new GeoPackage or CSV file is written under a
+/// temporary name and renamed in `commit()`; a write-back runs in one
+/// transaction that `commit()` ends. Destroying a writer without `commit()`
+/// (an exception, a cancelled run) removes or rolls back what it wrote.
+
+#include <cstddef>
+#include <cstdint>
+#include <filesystem>
+#include <memory>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/network/ReachTable.hpp"
+#include "reachwise/routing/Results.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
+
+class GDALDataset;
+class OGRLayer;
+class OGRFeature;
+
+namespace reachwise::io {
+
+namespace detail {
+struct TextFileOutput;
+}
+
+/// What was run, for the `run_info` table. The time axis, version and git
+/// hash are added by the writer; warnings are these plus NetworkResults'.
+struct RunInfo {
+  std::vector<std::string> inputs;   ///< network, forcing and config files (one `input` row each)
+  std::string method;                ///< `vpmc`, `mc` or `muskingum`
+  std::string command_line;
+  std::vector<std::string> warnings; ///< one `warning` row each
+};
+
+/// The caution every run_info table carries.
+extern const char* const kResultsCaution;
+
+/// Which reaches' hydrographs are written (the caller decides).
+class SeriesSelection {
+public:
+  static SeriesSelection all() { return SeriesSelection(true, {}); }
+  static SeriesSelection none() { return SeriesSelection(false, {}); }
+  /// Plan indices; out-of-range indices are an InvalidParameter at use.
+  static SeriesSelection of(std::vector<std::uint32_t> reaches) {
+    return SeriesSelection(false, std::move(reaches));
+  }
+  /// One flag per plan reach.
+  std::vector<bool> mask(std::size_t n_reaches) const;
+
+private:
+  SeriesSelection(bool all, std::vector<std::uint32_t> reaches)
+      : all_(all), reaches_(std::move(reaches)) {}
+  bool all_;
+  std::vector<std::uint32_t> reaches_;
+};
+
+struct GpkgWriterOptions {
+  bool overwrite = false;                        ///< replace an existing output / prefixed layers
+  SeriesSelection series = SeriesSelection::all();
+  std::size_t batch_rows = 10000;                ///< rows per transaction (new file only)
+  bool depth_velocity = true;                    ///< write depth and velocity in `hydrographs`
+};
+
+/// Writes results into a GeoPackage. Use: construct, let the scheduler
+/// stream series into it (SeriesSink), call writeSummaries(), then commit().
+/// Table rows of plan reach i come from `table.reaches[plan.record[i]]`;
+/// geometry is written in `table.crs_wkt` (no CRS when it is empty).
+/// Both `table` and `plan` must outlive the writer.
+class GpkgResultsWriter final : public routing::SeriesSink {
+public:
+  /// A new GeoPackage at `out`. Throws InputError naming `out` when it
+  /// exists and `options.overwrite` is false, or when it cannot be created.
+  GpkgResultsWriter(std::filesystem::path out, const network::ReachTable& table,
+                    const network::NetworkPlan& plan, const routing::TimeAxis& axis,
+                    GpkgWriterOptions options = {});
+
+  /// Adds the layers, named `prefix` + name (e.g. `rw_reaches`), to the
+  /// existing GeoPackage `input`, leaving its other layers untouched. All
+  /// writes form one transaction. Throws InputError naming `input` when it
+  /// is not a GeoPackage, cannot be opened for update, or already holds a
+  /// prefixed layer and `options.overwrite` is false (with it, those layers
+  /// are deleted and written anew).
+  static std::unique_ptr<GpkgResultsWriter> writeBack(std::filesystem::path input,
+                                                      std::string prefix,
+                                                      const network::ReachTable& table,
+                                                      const network::NetworkPlan& plan,
+                                                      const routing::TimeAxis& axis,
+                                                      GpkgWriterOptions options = {});
+
+  ~GpkgResultsWriter() override;
+  GpkgResultsWriter(const GpkgResultsWriter&) = delete;
+  GpkgResultsWriter& operator=(const GpkgResultsWriter&) = delete;
+
+  /// Appends one row per time step to `hydrographs` for a selected reach
+  /// (ignored otherwise). `q_m3s` must have axis.steps values; depth and
+  /// velocity the same or be empty (then NULL).
+  void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
+             std::span<const double> velocity_ms) override;
+
+  /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`.
+  void writeSummaries(const routing::NetworkResults& results, const RunInfo& info);
+
+  /// Ends the writing: commits, closes, and (new file) renames onto the target.
+  void commit();
+
+  /// Where rows go until commit(): the temporary file, or the input itself.
+  const std::filesystem::path& workingPath() const noexcept { return working_; }
+  std::size_t hydrographRows() const noexcept { return hydrograph_rows_; }
+
+private:
+  struct WriteBackTag {};
+  GpkgResultsWriter(WriteBackTag, std::filesystem::path input, std::string prefix,
+                    const network::ReachTable& table, const network::NetworkPlan& plan,
+                    const routing::TimeAxis& axis, GpkgWriterOptions options);
+  void openSeriesTable();
+  void countRow();
+  std::string layerName(const char* base) const { return prefix_ + base; }
+  [[noreturn]] void fail(const std::string& what) const;
+
+  std::filesystem::path target_;    ///< what the user named
+  std::filesystem::path working_;   ///< where GDAL writes
+  std::string prefix_;
+  bool write_back_ = false;
+  const network::ReachTable& table_;
+  const network::NetworkPlan& plan_;
+  routing::TimeAxis axis_;
+  GpkgWriterOptions options_;
+  std::vector<bool> selected_;
+  std::unique_ptr<GDALDataset> ds_;
+  OGRLayer* series_layer_ = nullptr;
+  std::unique_ptr<OGRFeature> series_feature_;   ///< reused for every row
+  std::size_t rows_in_transaction_ = 0;
+  std::size_t hydrograph_rows_ = 0;
+  bool summaries_written_ = false;
+  bool committed_ = false;
+};
+
+/// Writes `reaches.csv` (with a WKT `geometry` column), `nodes.csv` (x, y),
+/// `confluence_branches.csv` and `run_info.csv` into `dir` (created when
+/// missing), each under a temporary name renamed on success. Throws
+/// InputError naming the file when one exists and `overwrite` is false.
+/// Text is quoted when it holds a comma, quote or line break; NaN is empty.
+void writeCsvTables(const std::filesystem::path& dir, bool overwrite,
+                    const network::ReachTable& table, const network::NetworkPlan& plan,
+                    const routing::NetworkResults& results, const RunInfo& info);
+
+/// Streams `hydrographs.csv` (reach_id, time, q, depth, velocity) into
+/// `dir`; the file appears under its name in commit().
+class CsvSeriesWriter final : public routing::SeriesSink {
+public:
+  CsvSeriesWriter(const std::filesystem::path& dir, bool overwrite, const network::NetworkPlan& plan,
+                  const routing::TimeAxis& axis, SeriesSelection selection = SeriesSelection::all());
+  ~CsvSeriesWriter() override;
+  CsvSeriesWriter(const CsvSeriesWriter&) = delete;
+  CsvSeriesWriter& operator=(const CsvSeriesWriter&) = delete;
+
+  void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
+             std::span<const double> velocity_ms) override;
+  void commit();
+
+private:
+  std::unique_ptr<detail::TextFileOutput> out_;
+  const network::NetworkPlan& plan_;
+  routing::TimeAxis axis_;
+  std::vector<bool> selected_;
+  int fraction_digits_ = 0;
+};
+
+}  // namespace reachwise::io

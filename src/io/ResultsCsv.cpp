@@ -1,0 +1,195 @@
+#include <fmt/format.h>
+
+#include <cmath>
+#include <fstream>
+#include <system_error>
+
+#include <unistd.h>
+
+#include "ResultsTables.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/ResultsWriter.hpp"
+
+namespace reachwise::io {
+
+namespace fs = std::filesystem;
+using results::Value;
+
+namespace {
+
+[[noreturn]] void failAt(const fs::path& file, const std::string& what) {
+  InputLocation at;
+  at.file = file.string();
+  throw InputError(at, what);
+}
+
+void prepareDirectory(const fs::path& dir) {
+  std::error_code ec;
+  fs::create_directories(dir, ec);
+  if (ec || !fs::is_directory(dir)) failAt(dir, "cannot create the output directory");
+}
+
+/// RFC 4180 quoting: only when the text needs it.
+std::string quoted(const std::string& text) {
+  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
+  std::string out = "\"";
+  for (const char c : text) {
+    if (c == '"') out += '"';
+    out += c;
+  }
+  return out + '"';
+}
+
+std::string cell(const Value& value, int utc_offset_min) {
+  if (const auto* d = std::get_if<double>(&value)) return fmt::format("{}", *d);
+  if (const auto* i = std::get_if<std::int64_t>(&value)) return fmt::format("{}", *i);
+  if (const auto* s = std::get_if<std::string>(&value)) return quoted(*s);
+  if (const auto* t = std::get_if<results::Instant>(&value))
+    return formatIsoTime(t->unix_s, results::writableOffsetMin(utc_offset_min), 3);
+  return {};
+}
+
+std::string real(double v) { return std::isnan(v) ? std::string() : fmt::format("{}", v); }
+
+std::string wkt(const network::ReachRecord& record) {
+  if (record.line.size() < 2) return {};
+  std::string out = "\"LINESTRING (";
+  for (std::size_t k = 0; k < record.line.size(); ++k)
+    out += fmt::format("{}{} {}", k ? ", " : "", record.line[k].x, record.line[k].y);
+  return out + ")\"";
+}
+
+}  // namespace
+
+/// A text file written under a temporary name beside its target and renamed
+/// onto it in commit(); removed when destroyed before that.
+namespace detail {
+struct TextFileOutput {
+  TextFileOutput(const fs::path& dir, const std::string& name, bool overwrite)
+      : target(dir / name), tmp(dir / fmt::format(".{}.partial-{}", name, ::getpid())) {
+    std::error_code ec;
+    if (fs::exists(target, ec) && !overwrite)
+      failAt(target, "the output exists; pass --overwrite to replace it");
+    out.open(tmp, std::ios::binary | std::ios::trunc);
+    if (!out) failAt(target, "cannot create the output file");
+  }
+  ~TextFileOutput() {
+    if (committed) return;
+    out.close();
+    std::error_code ec;
+    fs::remove(tmp, ec);
+  }
+  TextFileOutput(const TextFileOutput&) = delete;
+  TextFileOutput& operator=(const TextFileOutput&) = delete;
+
+  void commit() {
+    out.close();
+    if (!out) failAt(target, "cannot write the output file");
+    std::error_code ec;
+    fs::rename(tmp, target, ec);
+    if (ec) failAt(target, "cannot put the output in place: " + ec.message());
+    committed = true;
+  }
+
+  fs::path target, tmp;
+  std::ofstream out;
+  bool committed = false;
+};
+}  // namespace detail
+
+namespace {
+
+using Stream = detail::TextFileOutput;
+
+void header(std::ostream& out, const std::vector<results::Column>& columns) {
+  for (std::size_t c = 0; c < columns.size(); ++c) out << (c ? "," : "") << columns[c].name;
+}
+
+void writeRow(std::ostream& out, const results::Row& row, int offset) {
+  for (std::size_t c = 0; c < row.size(); ++c) out << (c ? "," : "") << cell(row[c], offset);
+}
+
+}  // namespace
+
+void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTable& table,
+                    const network::NetworkPlan& plan, const routing::NetworkResults& results,
+                    const RunInfo& info) {
+  REACHWISE_ASSERT(results.reaches.size() == plan.size());
+  prepareDirectory(dir);
+  const int offset = results.axis.utc_offset_min;
+  // All four are opened first, so that a refusal to overwrite leaves nothing new.
+  Stream reaches(dir, "reaches.csv", overwrite);
+  Stream nodes(dir, "nodes.csv", overwrite);
+  Stream branches(dir, "confluence_branches.csv", overwrite);
+  Stream run_info(dir, "run_info.csv", overwrite);
+
+  header(reaches.out, results::reachColumns());
+  reaches.out << ",geometry\n";
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    writeRow(reaches.out, results::reachRow(plan, results.reaches[i], i), offset);
+    REACHWISE_ASSERT(plan.record[i] < table.reaches.size());
+    reaches.out << ',' << wkt(table.reaches[plan.record[i]]) << '\n';
+  }
+
+  header(nodes.out, results::nodeColumns());
+  nodes.out << ",x,y\n";
+  header(branches.out, results::branchColumns());
+  branches.out << '\n';
+  for (const auto& node : results.nodes) {
+    writeRow(nodes.out, results::nodeRow(node), offset);
+    nodes.out << ',' << real(node.x) << ',' << real(node.y) << '\n';
+    for (const auto& branch : node.branches) {
+      writeRow(branches.out, results::branchRow(plan, node, branch), offset);
+      branches.out << '\n';
+    }
+  }
+
+  run_info.out << "key,value\n";
+  for (const auto& [key, value] : results::runInfoRows(results, info))
+    run_info.out << quoted(key) << ',' << quoted(value) << '\n';
+
+  reaches.commit();
+  nodes.commit();
+  branches.commit();
+  run_info.commit();
+}
+
+CsvSeriesWriter::CsvSeriesWriter(const fs::path& dir, bool overwrite,
+                                 const network::NetworkPlan& plan, const routing::TimeAxis& axis,
+                                 SeriesSelection selection)
+    : plan_(plan), axis_(axis), selected_(selection.mask(plan.size())) {
+  prepareDirectory(dir);
+  out_ = std::make_unique<Stream>(dir, "hydrographs.csv", overwrite);
+  // Whole-second steps need no fraction in the time stamps.
+  fraction_digits_ = axis_.dt_s == std::floor(axis_.dt_s) ? 0 : 3;
+  out_->out << "reach_id,time,q,depth,velocity\n";
+}
+
+CsvSeriesWriter::~CsvSeriesWriter() = default;
+
+void CsvSeriesWriter::write(std::uint32_t reach, std::span<const double> q_m3s,
+                            std::span<const double> depth_m, std::span<const double> velocity_ms) {
+  REACHWISE_ASSERT(out_ && !out_->committed);
+  REACHWISE_ASSERT(reach < plan_.size());
+  if (!selected_[reach]) return;
+  REACHWISE_ASSERT(q_m3s.size() == axis_.steps);
+  REACHWISE_ASSERT(depth_m.empty() || depth_m.size() == axis_.steps);
+  REACHWISE_ASSERT(velocity_ms.empty() || velocity_ms.size() == axis_.steps);
+  const auto id = quoted(plan_.reach_id[reach]);
+  const int offset = results::writableOffsetMin(axis_.utc_offset_min);
+  auto& out = out_->out;
+  for (std::size_t k = 0; k < axis_.steps; ++k) {
+    out << id << ',' << formatIsoTime(axis_.at(static_cast<double>(k)), offset, fraction_digits_)
+        << ',' << real(q_m3s[k]) << ',' << (depth_m.empty() ? std::string() : real(depth_m[k]))
+        << ',' << (velocity_ms.empty() ? std::string() : real(velocity_ms[k])) << '\n';
+  }
+  if (!out) failAt(out_->target, "cannot write the output file");
+}
+
+void CsvSeriesWriter::commit() {
+  REACHWISE_ASSERT(out_ && !out_->committed);
+  out_->commit();
+}
+
+}  // namespace reachwise::io

@@ -1,0 +1,206 @@
+#include "ResultsTables.hpp"
+
+#include <fmt/format.h>
+
+#include <chrono>
+#include <cmath>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/io/IsoTime.hpp"
+#include "reachwise/version.hpp"
+
+namespace reachwise::io {
+
+const char* const kResultsCaution =
+    "Estimates from simplified hydraulics (no backwater, no structures); not a substitute for "
+    "local design codes and the judgement of a licensed engineer.";
+
+std::vector<bool> SeriesSelection::mask(std::size_t n_reaches) const {
+  std::vector<bool> out(n_reaches, all_);
+  for (const auto r : reaches_) {
+    if (r >= n_reaches)
+      throw InvalidParameter("hydrograph selection",
+                             fmt::format("reach index {} is beyond the {} reaches of the network",
+                                         r, n_reaches));
+    out[r] = true;
+  }
+  return out;
+}
+
+namespace results {
+
+namespace {
+
+using CT = ColumnType;
+
+Value real(double v) { return std::isnan(v) ? Value{} : Value{v}; }
+Value instant(double t) { return std::isnan(t) ? Value{} : Value{Instant{t}}; }
+Value integer(std::uint64_t v) { return Value{static_cast<std::int64_t>(v)}; }
+Value hours(double s) { return std::isnan(s) ? Value{} : Value{s / 3600.0}; }
+
+}  // namespace
+
+const std::vector<Column>& reachColumns() {
+  static const std::vector<Column> columns = {
+      {"reach_id", CT::Text},          {"peak_q", CT::Real},
+      {"peak_time", CT::DateTime},     {"peak_depth", CT::Real},
+      {"peak_velocity", CT::Real},     {"inflow_peak_q", CT::Real},
+      {"inflow_peak_time", CT::DateTime}, {"attenuation_pct", CT::Real},
+      {"travel_time_h", CT::Real},     {"volume_in_m3", CT::Real},
+      {"volume_lateral_m3", CT::Real}, {"volume_out_m3", CT::Real},
+      {"storage_change_m3", CT::Real}, {"volume_error_pct", CT::Real},
+      {"subreaches", CT::Integer},     {"substeps", CT::Integer},
+      {"dx_m", CT::Real},              {"dt_sub_s", CT::Real},
+      {"courant", CT::Real},           {"x", CT::Real},
+      {"cell_reynolds", CT::Real},     {"reference_q", CT::Real},
+      {"amplitude_ratio", CT::Real},   {"phase_ratio", CT::Real},
+      {"negative_clamps", CT::Integer64}, {"x_clamps", CT::Integer64},
+      {"surcharge_cells", CT::Integer64}, {"grid_compromise", CT::Boolean},
+      {"strahler", CT::Integer},       {"basin", CT::Integer},
+  };
+  return columns;
+}
+
+Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, std::size_t i) {
+  const auto& n = s.numerics;
+  const auto& v = s.volume;
+  Row row;
+  row.reserve(reachColumns().size());
+  row.emplace_back(plan.reach_id[i]);
+  row.push_back(real(s.peak_q_m3s));
+  row.push_back(instant(s.peak_time_s));
+  row.push_back(real(s.peak_depth_m));
+  row.push_back(real(s.peak_velocity_ms));
+  row.push_back(real(s.inflow_peak_m3s));
+  row.push_back(instant(s.inflow_peak_time_s));
+  row.push_back(real(s.attenuation_pct));
+  row.push_back(hours(s.travel_time_s));
+  row.push_back(real(v.inflow_m3));
+  row.push_back(real(v.lateral_m3));
+  row.push_back(real(v.outflow_m3));
+  row.push_back(real(v.storage_change_m3));
+  row.push_back(real(v.error_pct));
+  row.push_back(integer(n.subreaches));
+  row.push_back(integer(n.substeps));
+  row.push_back(real(n.dx_m));
+  row.push_back(real(n.dt_sub_s));
+  row.push_back(real(n.courant));
+  row.push_back(real(n.x));
+  row.push_back(real(n.cell_reynolds));
+  row.push_back(real(n.reference_q_m3s));
+  row.push_back(real(n.amplitude_ratio));
+  row.push_back(real(n.phase_ratio));
+  row.push_back(integer(n.negative_clamps));
+  row.push_back(integer(n.x_clamps));
+  row.push_back(integer(n.surcharge_cells));
+  row.push_back(integer(n.grid_compromise ? 1 : 0));
+  row.push_back(i < plan.strahler.size() ? integer(plan.strahler[i]) : Value{});
+  row.push_back(i < plan.basin.size() ? integer(plan.basin[i]) : Value{});
+  REACHWISE_ASSERT(row.size() == reachColumns().size());
+  return row;
+}
+
+const char* nodeKindName(routing::NodeKind kind) {
+  switch (kind) {
+    case routing::NodeKind::Headwater: return "headwater";
+    case routing::NodeKind::Confluence: return "confluence";
+    case routing::NodeKind::Outlet: return "outlet";
+    case routing::NodeKind::Junction: return "junction";
+    case routing::NodeKind::Bifurcation: return "bifurcation";
+  }
+  return "junction";
+}
+
+const std::vector<Column>& nodeColumns() {
+  static const std::vector<Column> columns = {
+      {"node_id", CT::Text},          {"kind", CT::Text},
+      {"peak_q", CT::Real},           {"peak_time", CT::DateTime},
+      {"branch_count", CT::Integer},  {"branch_spread_h", CT::Real},
+      {"coincidence_ratio", CT::Real},
+  };
+  return columns;
+}
+
+Row nodeRow(const routing::NodeSummary& node) {
+  Row row;
+  row.emplace_back(node.node_id);
+  row.emplace_back(std::string(nodeKindName(node.kind)));
+  row.push_back(real(node.peak_q_m3s));
+  row.push_back(instant(node.peak_time_s));
+  row.push_back(integer(node.branches.size()));
+  row.push_back(hours(node.branch_spread_s));
+  row.push_back(real(node.coincidence_ratio));
+  REACHWISE_ASSERT(row.size() == nodeColumns().size());
+  return row;
+}
+
+const std::vector<Column>& branchColumns() {
+  static const std::vector<Column> columns = {
+      {"node_id", CT::Text},
+      {"branch_reach_id", CT::Text},
+      {"branch_peak_q", CT::Real},
+      {"branch_peak_time", CT::DateTime},
+  };
+  return columns;
+}
+
+Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node,
+              const routing::ConfluenceBranch& branch) {
+  REACHWISE_ASSERT(branch.reach < plan.size());
+  Row row;
+  row.emplace_back(node.node_id);
+  row.emplace_back(plan.reach_id[branch.reach]);
+  row.push_back(real(branch.peak_q_m3s));
+  row.push_back(instant(branch.peak_time_s));
+  return row;
+}
+
+std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::NetworkResults& results,
+                                                             const RunInfo& info) {
+  const auto& axis = results.axis;
+  const int offset = writableOffsetMin(axis.utc_offset_min);
+  std::vector<std::pair<std::string, std::string>> rows;
+  for (const auto& input : info.inputs) rows.emplace_back("input", input);
+  rows.emplace_back("method", info.method);
+  rows.emplace_back("dt_s", fmt::format("{}", axis.dt_s));
+  rows.emplace_back("steps", fmt::format("{}", axis.steps));
+  rows.emplace_back("start", formatIsoTime(axis.start_unix_s, offset));
+  rows.emplace_back("end", formatIsoTime(axis.at(static_cast<double>(axis.steps > 0 ? axis.steps - 1 : 0)),
+                                         offset, 0));
+  rows.emplace_back("utc_offset_min", fmt::format("{}", axis.utc_offset_min));
+  rows.emplace_back("reaches", fmt::format("{}", results.reaches.size()));
+  rows.emplace_back("version", kVersion);
+  rows.emplace_back("git_hash", kGitHash);
+  rows.emplace_back("command_line", info.command_line);
+  for (const auto& w : info.warnings) rows.emplace_back("warning", w);
+  for (const auto& w : results.warnings) rows.emplace_back("warning", w);
+  rows.emplace_back("caution", kResultsCaution);
+  return rows;
+}
+
+int writableOffsetMin(int utc_offset_min) {
+  return utc_offset_min % 15 == 0 ? utc_offset_min : 0;
+}
+
+WallClock wallClock(double unix_s, int utc_offset_min) {
+  using namespace std::chrono;
+  const int offset = writableOffsetMin(utc_offset_min);
+  constexpr std::int64_t kDayMs = 86'400'000;
+  const auto local_ms = static_cast<std::int64_t>(std::llround((unix_s + offset * 60.0) * 1000.0));
+  std::int64_t day = local_ms / kDayMs;
+  if (local_ms % kDayMs < 0) --day;  // floor division for instants before 1970
+  const std::int64_t in_day = local_ms - day * kDayMs;
+  const year_month_day ymd{sys_days{days{day}}};
+  WallClock w{};
+  w.year = static_cast<int>(ymd.year());
+  w.month = static_cast<int>(static_cast<unsigned>(ymd.month()));
+  w.day = static_cast<int>(static_cast<unsigned>(ymd.day()));
+  w.hour = static_cast<int>(in_day / 3'600'000);
+  w.minute = static_cast<int>(in_day / 60'000 % 60);
+  w.second = static_cast<float>(in_day % 60'000) / 1000.0f;
+  w.tz_flag = 100 + offset / 15;
+  return w;
+}
+
+}  // namespace results
+}  // namespace reachwise::io

@@ -1,0 +1,62 @@
+#pragma once
+/// \file
+/// The columns and rows of the result tables, shared by the GeoPackage and
+/// CSV writers so that both always hold the same fields in the same order.
+
+#include <cstdint>
+#include <string>
+#include <utility>
+#include <variant>
+#include <vector>
+
+#include "reachwise/io/ResultsWriter.hpp"
+
+namespace reachwise::io::results {
+
+enum class ColumnType { Text, Real, Integer, Integer64, Boolean, DateTime };
+
+struct Column {
+  const char* name;
+  ColumnType type;
+};
+
+/// An instant, seconds since the epoch (written as a date-time).
+struct Instant {
+  double unix_s;
+};
+
+/// monostate = NULL (NaN reals become NULL too).
+using Value = std::variant<std::monostate, double, std::int64_t, std::string, Instant>;
+using Row = std::vector<Value>;
+
+const std::vector<Column>& reachColumns();
+Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& summary, std::size_t i);
+
+const std::vector<Column>& nodeColumns();
+Row nodeRow(const routing::NodeSummary& node);
+
+const std::vector<Column>& branchColumns();
+Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node,
+              const routing::ConfluenceBranch& branch);
+
+/// key/value rows of `run_info`, in order.
+std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::NetworkResults& results,
+                                                             const RunInfo& info);
+
+const char* nodeKindName(routing::NodeKind kind);
+
+/// Wall-clock fields of an instant at a UTC offset, rounded to the
+/// millisecond; `tz_flag` is OGR's (100 = UTC, each unit 15 minutes).
+/// Offsets that are not a whole number of quarter hours cannot be flagged
+/// in OGR, so such instants are given in UTC.
+struct WallClock {
+  int year, month, day, hour, minute;
+  float second;
+  int tz_flag;
+};
+WallClock wallClock(double unix_s, int utc_offset_min);
+
+/// Offset the writers use for `axis`: its own, or 0 when OGR cannot flag it.
+int writableOffsetMin(int utc_offset_min);
+
+}  // namespace reachwise::io::results

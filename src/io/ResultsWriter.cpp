@@ -1,0 +1,348 @@
+#include "reachwise/io/ResultsWriter.hpp"
+
+#include <fmt/format.h>
+#include <gdal_priv.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <system_error>
+
+#include <unistd.h>
+
+#include "ResultsTables.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/io/Gdal.hpp"
+
+namespace reachwise::io {
+
+namespace fs = std::filesystem;
+using results::Column;
+using results::ColumnType;
+using results::Value;
+
+namespace {
+
+[[noreturn]] void failAt(const fs::path& file, const std::string& what, const std::string& layer = {}) {
+  InputLocation at;
+  at.file = file.string();
+  at.layer = layer;
+  const std::string gdal = CPLGetLastErrorMsg();
+  throw InputError(at, gdal.empty() ? what : what + " (" + gdal + ")");
+}
+
+std::unique_ptr<OGRSpatialReference> spatialReference(const network::ReachTable& table) {
+  if (table.crs_wkt.empty()) return nullptr;
+  auto srs = std::make_unique<OGRSpatialReference>();
+  if (srs->importFromWkt(table.crs_wkt.c_str()) != OGRERR_NONE) return nullptr;
+  // Coordinates are x = easting/longitude, as the reader gave them.
+  srs->SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
+  return srs;
+}
+
+void addField(const fs::path& file, OGRLayer& layer, const Column& column) {
+  OGRFieldType type = OFTString;
+  OGRFieldSubType subtype = OFSTNone;
+  switch (column.type) {
+    case ColumnType::Text: type = OFTString; break;
+    case ColumnType::Real: type = OFTReal; break;
+    case ColumnType::Integer: type = OFTInteger; break;
+    case ColumnType::Integer64: type = OFTInteger64; break;
+    case ColumnType::Boolean: type = OFTInteger; subtype = OFSTBoolean; break;
+    case ColumnType::DateTime: type = OFTDateTime; break;
+  }
+  OGRFieldDefn defn(column.name, type);
+  defn.SetSubType(subtype);
+  if (layer.CreateField(&defn) != OGRERR_NONE)
+    failAt(file, std::string("cannot add field ") + column.name, layer.GetName());
+}
+
+void setDateTime(OGRFeature& f, int index, double unix_s, int utc_offset_min) {
+  const auto w = results::wallClock(unix_s, utc_offset_min);
+  f.SetField(index, w.year, w.month, w.day, w.hour, w.minute, w.second, w.tz_flag);
+}
+
+void setValue(OGRFeature& f, int index, const Value& value, int utc_offset_min) {
+  if (std::holds_alternative<std::monostate>(value)) {
+    f.SetFieldNull(index);
+  } else if (const auto* d = std::get_if<double>(&value)) {
+    f.SetField(index, *d);
+  } else if (const auto* i = std::get_if<std::int64_t>(&value)) {
+    f.SetField(index, static_cast<GIntBig>(*i));
+  } else if (const auto* s = std::get_if<std::string>(&value)) {
+    f.SetField(index, s->c_str());
+  } else {
+    setDateTime(f, index, std::get<results::Instant>(value).unix_s, utc_offset_min);
+  }
+}
+
+OGRLayer* createTable(const fs::path& file, GDALDataset& ds, const std::string& name,
+                      OGRSpatialReference* srs, OGRwkbGeometryType geometry,
+                      const std::vector<Column>& columns) {
+  OGRLayer* layer = ds.CreateLayer(name.c_str(), geometry == wkbNone ? nullptr : srs, geometry, nullptr);
+  if (!layer) failAt(file, "cannot create layer " + name, name);
+  for (const auto& c : columns) addField(file, *layer, c);
+  return layer;
+}
+
+void insert(const fs::path& file, OGRLayer& layer, OGRFeature& f) {
+  f.SetFID(OGRNullFID);
+  if (layer.CreateFeature(&f) != OGRERR_NONE) failAt(file, "cannot write a row", layer.GetName());
+}
+
+OGRLineString lineOf(const network::ReachRecord& record) {
+  OGRLineString line;
+  line.setNumPoints(static_cast<int>(record.line.size()));
+  for (std::size_t k = 0; k < record.line.size(); ++k)
+    line.setPoint(static_cast<int>(k), record.line[k].x, record.line[k].y);
+  return line;
+}
+
+fs::path temporaryName(const fs::path& target) {
+  auto tmp = target;
+  tmp.replace_filename(fmt::format("{}.partial-{}.gpkg", target.filename().string(), ::getpid()));
+  return tmp;
+}
+
+constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info"};
+
+}  // namespace
+
+GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& table,
+                                     const network::NetworkPlan& plan, const routing::TimeAxis& axis,
+                                     GpkgWriterOptions options)
+    : target_(std::move(out)), table_(table), plan_(plan), axis_(axis), options_(std::move(options)) {
+  ensureGdal();
+  CPLErrorReset();
+  selected_ = options_.series.mask(plan_.size());
+  std::error_code ec;
+  if (fs::exists(target_, ec) && !options_.overwrite)
+    failAt(target_, "the output exists; pass --overwrite to replace it");
+  working_ = temporaryName(target_);
+  fs::remove(working_, ec);
+  GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
+  if (!driver) failAt(target_, "GDAL has no GeoPackage driver");
+  ds_.reset(driver->Create(working_.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+  if (!ds_) failAt(target_, "cannot create the output file");
+  try {
+    if (ds_->StartTransaction() != OGRERR_NONE) failAt(target_, "cannot start writing");
+    openSeriesTable();
+  } catch (...) {
+    ds_.reset();
+    fs::remove(working_, ec);
+    throw;
+  }
+}
+
+std::unique_ptr<GpkgResultsWriter> GpkgResultsWriter::writeBack(
+    fs::path input, std::string prefix, const network::ReachTable& table,
+    const network::NetworkPlan& plan, const routing::TimeAxis& axis, GpkgWriterOptions options) {
+  return std::unique_ptr<GpkgResultsWriter>(new GpkgResultsWriter(
+      WriteBackTag{}, std::move(input), std::move(prefix), table, plan, axis, std::move(options)));
+}
+
+namespace {
+
+/// Opens `input` for update after checking that it is a writable GeoPackage.
+std::unique_ptr<GDALDataset> openForWriteBack(const fs::path& input) {
+  std::error_code ec;
+  if (!fs::is_regular_file(input, ec)) failAt(input, "write-back needs an existing GeoPackage file");
+  {
+    std::unique_ptr<GDALDataset> probe(
+        GDALDataset::Open(input.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+    if (!probe) failAt(input, "cannot be opened as vector data");
+    const char* driver = probe->GetDriver() ? probe->GetDriver()->GetDescription() : "";
+    if (std::string(driver) != "GPKG")
+      failAt(input, fmt::format("write-back needs a GeoPackage, this is read by GDAL's {} driver; "
+                                "use --out instead", driver));
+  }
+  if (::access(input.c_str(), W_OK) != 0 || ::access(input.parent_path().empty() ? "." : input.parent_path().c_str(), W_OK) != 0)
+    failAt(input, "is read-only; write-back needs to modify it (use --out instead)");
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(input.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
+  if (!ds) failAt(input, "cannot be opened for update");
+  return ds;
+}
+
+int layerIndex(GDALDataset& ds, const std::string& name) {
+  for (int i = 0; i < ds.GetLayerCount(); ++i)
+    if (EQUAL(ds.GetLayer(i)->GetName(), name.c_str())) return i;
+  return -1;
+}
+
+}  // namespace
+
+GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string prefix,
+                                     const network::ReachTable& table,
+                                     const network::NetworkPlan& plan, const routing::TimeAxis& axis,
+                                     GpkgWriterOptions options)
+    : target_(std::move(input)), working_(target_), prefix_(std::move(prefix)), write_back_(true),
+      table_(table), plan_(plan), axis_(axis), options_(std::move(options)) {
+  ensureGdal();
+  CPLErrorReset();
+  // An empty prefix would put results under the plain names, where they
+  // could replace the user's own layers.
+  if (prefix_.empty()) throw InvalidParameter("write-back prefix", "must not be empty");
+  selected_ = options_.series.mask(plan_.size());
+  ds_ = openForWriteBack(target_);
+  std::vector<std::string> existing;
+  for (const char* base : kTables) {
+    const auto name = layerName(base);
+    if (EQUAL(name.c_str(), table_.layer.c_str()))
+      failAt(target_, "the network layer itself is named " + name + "; choose another prefix", name);
+    if (layerIndex(*ds_, name) >= 0) existing.push_back(name);
+  }
+  if (!existing.empty() && !options_.overwrite)
+    failAt(target_, fmt::format("already holds the layer {}; pass --overwrite to replace it",
+                                existing.front()),
+           existing.front());
+  if (ds_->StartTransaction() != OGRERR_NONE) failAt(target_, "cannot start a transaction");
+  for (const auto& name : existing)
+    if (ds_->DeleteLayer(layerIndex(*ds_, name)) != OGRERR_NONE)
+      failAt(target_, "cannot delete the old layer " + name, name);
+  openSeriesTable();
+}
+
+GpkgResultsWriter::~GpkgResultsWriter() {
+  if (committed_) return;
+  try {
+    if (ds_) {
+      ds_->RollbackTransaction();
+      ds_.reset();
+    }
+    std::error_code ec;
+    if (!write_back_) fs::remove(working_, ec);
+  } catch (...) {
+    // A destructor must not throw; the temporary file is all that is at stake.
+  }
+}
+
+void GpkgResultsWriter::fail(const std::string& what) const { failAt(target_, what); }
+
+void GpkgResultsWriter::openSeriesTable() {
+  std::vector<Column> columns = {{"reach_id", ColumnType::Text},
+                                 {"time", ColumnType::DateTime},
+                                 {"q", ColumnType::Real}};
+  if (options_.depth_velocity) {
+    columns.push_back({"depth", ColumnType::Real});
+    columns.push_back({"velocity", ColumnType::Real});
+  }
+  series_layer_ = createTable(target_, *ds_, layerName("hydrographs"), nullptr, wkbNone, columns);
+  series_feature_ = std::make_unique<OGRFeature>(series_layer_->GetLayerDefn());
+}
+
+void GpkgResultsWriter::countRow() {
+  ++hydrograph_rows_;
+  // A new file commits in batches so that memory and journal stay small; a
+  // write-back keeps its one transaction so that it stays all-or-nothing.
+  if (write_back_ || ++rows_in_transaction_ < options_.batch_rows) return;
+  if (ds_->CommitTransaction() != OGRERR_NONE || ds_->StartTransaction() != OGRERR_NONE)
+    fail("cannot commit a batch of rows");
+  rows_in_transaction_ = 0;
+}
+
+void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s,
+                              std::span<const double> depth_m, std::span<const double> velocity_ms) {
+  REACHWISE_ASSERT(ds_ && !committed_);
+  REACHWISE_ASSERT(reach < plan_.size());
+  if (!selected_[reach]) return;
+  REACHWISE_ASSERT(q_m3s.size() == axis_.steps);
+  REACHWISE_ASSERT(depth_m.empty() || depth_m.size() == axis_.steps);
+  REACHWISE_ASSERT(velocity_ms.empty() || velocity_ms.size() == axis_.steps);
+  OGRFeature& f = *series_feature_;
+  f.SetField(0, plan_.reach_id[reach].c_str());
+  const auto value = [](std::span<const double> s, std::size_t k) {
+    return s.empty() || std::isnan(s[k]) ? Value{} : Value{s[k]};
+  };
+  for (std::size_t k = 0; k < axis_.steps; ++k) {
+    setDateTime(f, 1, axis_.at(static_cast<double>(k)), axis_.utc_offset_min);
+    setValue(f, 2, value(q_m3s, k), 0);
+    if (options_.depth_velocity) {
+      setValue(f, 3, value(depth_m, k), 0);
+      setValue(f, 4, value(velocity_ms, k), 0);
+    }
+    insert(target_, *series_layer_, f);
+    countRow();
+  }
+}
+
+void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, const RunInfo& info) {
+  REACHWISE_ASSERT(ds_ && !committed_ && !summaries_written_);
+  REACHWISE_ASSERT(results.reaches.size() == plan_.size());
+  REACHWISE_ASSERT(plan_.record.size() == plan_.size());
+  const int offset = results.axis.utc_offset_min;
+  const auto srs = spatialReference(table_);
+
+  OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
+                                  results::reachColumns());
+  {
+    OGRFeature f(reaches->GetLayerDefn());
+    for (std::size_t i = 0; i < plan_.size(); ++i) {
+      const auto row = results::reachRow(plan_, results.reaches[i], i);
+      for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+      REACHWISE_ASSERT(plan_.record[i] < table_.reaches.size());
+      const auto& record = table_.reaches[plan_.record[i]];
+      if (record.line.size() >= 2) {
+        auto line = lineOf(record);
+        f.SetGeometry(&line);
+      } else {
+        f.SetGeometryDirectly(nullptr);
+      }
+      insert(target_, *reaches, f);
+    }
+  }
+
+  OGRLayer* nodes =
+      createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint, results::nodeColumns());
+  OGRLayer* branches = createTable(target_, *ds_, layerName("confluence_branches"), nullptr, wkbNone,
+                                   results::branchColumns());
+  {
+    OGRFeature f(nodes->GetLayerDefn());
+    OGRFeature b(branches->GetLayerDefn());
+    for (const auto& node : results.nodes) {
+      const auto row = results::nodeRow(node);
+      for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+      if (std::isfinite(node.x) && std::isfinite(node.y)) {
+        OGRPoint point(node.x, node.y);
+        f.SetGeometry(&point);
+      } else {
+        f.SetGeometryDirectly(nullptr);
+      }
+      insert(target_, *nodes, f);
+      for (const auto& branch : node.branches) {
+        const auto brow = results::branchRow(plan_, node, branch);
+        for (std::size_t c = 0; c < brow.size(); ++c) setValue(b, static_cast<int>(c), brow[c], offset);
+        insert(target_, *branches, b);
+      }
+    }
+  }
+
+  OGRLayer* run_info = createTable(target_, *ds_, layerName("run_info"), nullptr, wkbNone,
+                                   {{"key", ColumnType::Text}, {"value", ColumnType::Text}});
+  OGRFeature f(run_info->GetLayerDefn());
+  for (const auto& [key, value] : results::runInfoRows(results, info)) {
+    f.SetField(0, key.c_str());
+    f.SetField(1, value.c_str());
+    insert(target_, *run_info, f);
+  }
+  summaries_written_ = true;
+}
+
+void GpkgResultsWriter::commit() {
+  REACHWISE_ASSERT(ds_ && !committed_);
+  REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
+  if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
+  series_feature_.reset();
+  ds_.reset();  // closes and flushes the file before it is renamed
+  if (!write_back_) {
+    std::error_code ec;
+    fs::rename(working_, target_, ec);
+    if (ec) {
+      fs::remove(working_, ec);
+      InputLocation at;
+      at.file = target_.string();
+      throw InputError(at, "cannot put the output in place: " + ec.message());
+    }
+  }
+  committed_ = true;
+}
+
+}  // namespace reachwise::io
