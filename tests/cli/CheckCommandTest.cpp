@@ -11,6 +11,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <regex>
 #include <set>
 #include <sstream>
@@ -114,7 +115,89 @@ bool isEndOf(const std::string& path, long long fid, double x, double y) {
   return near(a) || near(b);
 }
 
+struct Row {
+  const char* id;
+  const char* to;  // nullptr = outlet
+  double split;    // NaN = not given
+  double x0, y0, x1, y1;
+};
+
+/// A small invented layer (EPSG:32633) written with GDAL.
+std::string writeLayer(const std::string& name, const std::vector<Row>& rows) {
+  const auto path = (std::filesystem::path(::testing::TempDir()) / name).string();
+  std::filesystem::remove(path);
+  GDALAllRegister();
+  std::unique_ptr<GDALDataset> ds(
+      GetGDALDriverManager()->GetDriverByName("GPKG")->Create(path.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+  OGRSpatialReference srs;
+  srs.importFromEPSG(32633);
+  OGRLayer* layer = ds->CreateLayer("reaches", &srs, wkbLineString, nullptr);
+  for (const char* f : {"reach_id", "to_reach"}) {
+    OGRFieldDefn d(f, OFTString);
+    layer->CreateField(&d);
+  }
+  for (const char* f : {"slope", "manning_n", "bottom_width", "split"}) {
+    OGRFieldDefn d(f, OFTReal);
+    layer->CreateField(&d);
+  }
+  for (const auto& r : rows) {
+    OGRFeature f(layer->GetLayerDefn());
+    f.SetField("reach_id", r.id);
+    if (r.to) f.SetField("to_reach", r.to);
+    if (!std::isnan(r.split)) f.SetField("split", r.split);
+    f.SetField("slope", 0.002);
+    f.SetField("manning_n", 0.04);
+    f.SetField("bottom_width", 12.0);
+    OGRLineString line;
+    line.addPoint(r.x0, r.y0);
+    line.addPoint(r.x1, r.y1);
+    f.SetGeometry(&line);
+    EXPECT_EQ(layer->CreateFeature(&f), OGRERR_NONE);
+  }
+  return path;
+}
+
+std::vector<Row> bifurcation(double split_a, double split_b) {
+  // Upper reach U splits at (1000, 1000) into A and B, which meet again in L.
+  return {{"U", "A;B", NAN, 1000, 0, 1000, 1000},
+          {"A", "L", split_a, 1000, 1000, 500, 2000},
+          {"B", "L", split_b, 1000, 1000, 1500, 2000},
+          {"L", nullptr, NAN, 1000, 3000, 1000, 4000}};
+}
+
 }  // namespace
+
+TEST(CheckCommand, BifurcationWithSplitsSummingToOnePasses) {
+  const auto r = run("check " + writeLayer("bifurcation_ok.gpkg", bifurcation(0.4, 0.6)));
+  EXPECT_EQ(r.code, 0) << r.err;
+  EXPECT_EQ(summaryValue(r.out, "bifurcations"), "1");
+  EXPECT_EQ(summaryValue(r.out, "confluences"), "1");
+}
+
+TEST(CheckCommand, BifurcationSplitSumIsRefusedAtTheSplit) {
+  const auto r = run("check " + writeLayer("bifurcation_bad.gpkg", bifurcation(0.4, 0.7)));
+  EXPECT_EQ(r.code, 1);
+  const auto lines = problemLines(r.err);
+  const auto it = std::find_if(lines.begin(), lines.end(),
+                               [](const auto& p) { return p.code == "bifurcation_split_sum"; });
+  ASSERT_NE(it, lines.end()) << r.err;
+  EXPECT_EQ(it->reach_id, "U");
+  EXPECT_DOUBLE_EQ(it->x, 1000.0);  // the downstream end of U
+  EXPECT_DOUBLE_EQ(it->y, 1000.0);
+}
+
+TEST(CheckCommand, UnknownToReachIsRefused) {
+  const auto path = writeLayer("unknown_to.gpkg", {{"U", "NOWHERE", NAN, 0, 0, 0, 1000},
+                                                   {"L", nullptr, NAN, 0, 1000, 0, 2000}});
+  const auto r = run("check " + path);
+  EXPECT_EQ(r.code, 1);
+  const auto lines = problemLines(r.err);
+  ASSERT_FALSE(lines.empty()) << r.err;
+  EXPECT_EQ(lines[0].code, "unknown_to_reach");
+  EXPECT_EQ(lines[0].reach_id, "U");
+  EXPECT_TRUE(isEndOf(path, lines[0].fid, lines[0].x, lines[0].y));
+  EXPECT_NE(r.err.find("NOWHERE"), std::string::npos);
+}
 
 TEST(CheckCommand, CleanSampleExitsZeroWithSummary) {
   const auto r = run("check " + kSamples + "network.gpkg");
