@@ -328,3 +328,25 @@ TEST(ReachGraph, RandomTreesFreezeToConsistentTopologicalPlans) {
     }
   }
 }
+
+TEST(ReachGraph, EmptyTableFreezesToAnEmptyPlan) {
+  const ReachTable table;
+  const ReachGraph g(table);
+  EXPECT_EQ(g.size(), 0u);
+  EXPECT_EQ(g.components().count, 0u);
+  EXPECT_TRUE(g.cycles().empty());
+  const auto plan = g.freeze();
+  EXPECT_EQ(plan.size(), 0u);
+  EXPECT_EQ(plan.up_offset, (std::vector<std::uint32_t>{0}));
+  EXPECT_EQ(plan.down_offset, (std::vector<std::uint32_t>{0}));
+}
+
+TEST(ReachGraph, RecordWithoutGeometryHasNoEndPoints) {
+  auto table = TableBuilder().link("A", "B").link("B", std::nullopt).build();
+  table.reaches[0].line.clear();
+  const ReachGraph g(table);
+  EXPECT_FALSE(g.flipped(0));
+  EXPECT_TRUE(std::isnan(g.top(0).x));
+  EXPECT_TRUE(std::isnan(g.bottom(0).y));
+  EXPECT_FALSE(g.flipped(1));  // judged against a reach with no line: kept as digitised
+}
