@@ -1,0 +1,536 @@
+// Results writers, checked by reading the files back with GDAL/OGR (an
+// independent reader of GeoPackage and CSV) and instants against POSIX
+// timegm().
+#include <gdal_priv.h>
+#include <gtest/gtest.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <ctime>
+#include <filesystem>
+#include <fstream>
+#include <set>
+#include <string>
+#include <vector>
+
+#include "NetworkFixtures.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/io/ResultsWriter.hpp"
+
+namespace {
+
+namespace fs = std::filesystem;
+using namespace reachwise;
+using io::GpkgResultsWriter;
+using io::GpkgWriterOptions;
+using routing::kNaN;
+
+/// Seconds since the epoch of a UTC wall-clock time, by POSIX timegm().
+double utc(int y, int mo, int d, int h, int mi, double s) {
+  std::tm tm{};
+  tm.tm_year = y - 1900;
+  tm.tm_mon = mo - 1;
+  tm.tm_mday = d;
+  tm.tm_hour = h;
+  tm.tm_min = mi;
+  return static_cast<double>(timegm(&tm)) + s;
+}
+
+/// Instant of an OGR date-time field (TZ flag 100 = UTC, 15 minutes a unit).
+double readInstant(OGRFeature& f, const char* field) {
+  int y, mo, d, h, mi, tz;
+  float s;
+  EXPECT_TRUE(f.GetFieldAsDateTime(f.GetFieldIndex(field), &y, &mo, &d, &h, &mi, &s, &tz));
+  EXPECT_GE(tz, 2) << "time zone flag unknown or local";
+  const double offset_s = tz >= 100 ? (tz - 100) * 15 * 60.0 : 0.0;
+  return utc(y, mo, d, h, mi, s) - offset_s;
+}
+
+/// Three reaches, A and B join at a Y and feed C. The table rows are in
+/// another order than the plan so that plan.record is exercised.
+struct Network {
+  network::ReachTable table;
+  network::NetworkPlan plan;
+  routing::TimeAxis axis;
+  routing::NetworkResults results;
+  io::RunInfo info;
+
+  static double t0() { return utc(2026, 5, 1, 0, 0, 0); }
+
+  Network() {
+    OGRSpatialReference srs;
+    srs.importFromEPSG(32633);
+    char* wkt = nullptr;
+    srs.exportToWkt(&wkt);
+    table.crs_wkt = wkt;
+    CPLFree(wkt);
+    table.source = "brannoch.gpkg";
+    table.layer = "reaches";
+    auto record = [](std::string id, std::vector<network::Point3> line) {
+      network::ReachRecord r;
+      r.id = std::move(id);
+      r.line = std::move(line);
+      return r;
+    };
+    table.reaches = {record("C,lower", {{500, 500}, {500, 0}}),
+                     record("A", {{0, 1000}, {250, 750}, {500, 500}}),
+                     record("B", {{1000, 1000}, {500, 500}})};
+    plan.reach_id = {"A", "B", "C,lower"};
+    plan.fid = {2, 3, 1};
+    plan.record = {1, 2, 0};
+    plan.length_m = {707.1, 707.1, 500};
+    plan.section.resize(3);
+    plan.muskingum_k_h = {kNaN, kNaN, kNaN};
+    plan.muskingum_x = {kNaN, kNaN, kNaN};
+    plan.basin = {0, 0, 0};
+    plan.strahler = {1, 1, 2};
+    plan.top = {{0, 1000}, {1000, 1000}, {500, 500}};
+    plan.bottom = {{500, 500}, {500, 500}, {500, 0}};
+    plan.up_offset = {0, 0, 0, 2};
+    plan.up_reach = {0, 1};
+    plan.up_fraction = {1, 1};
+    plan.down_offset = {0, 1, 2, 2};
+    plan.down_reach = {2, 2};
+
+    axis.start_unix_s = static_cast<std::int64_t>(t0());
+    axis.dt_s = 900;
+    axis.steps = 5;
+    axis.utc_offset_min = 60;
+    results.axis = axis;
+    results.reaches.resize(3);
+    for (std::size_t i = 0; i < 3; ++i) {
+      auto& s = results.reaches[i];
+      s.peak_q_m3s = 10.0 + static_cast<double>(i);
+      s.peak_time_s = t0() + 3600.0 * static_cast<double>(i + 1) + 0.25;
+      s.peak_depth_m = 1.5;
+      s.peak_velocity_ms = 0.8;
+      s.volume.error_pct = 0.01 * static_cast<double>(i);
+      s.numerics.subreaches = 3 + static_cast<std::uint32_t>(i);
+      s.numerics.substeps = 2;
+      s.numerics.courant = 0.9;
+      s.numerics.x = 0.31;
+      s.numerics.negative_clamps = 5'000'000'000ull;  // beyond 32 bits
+      s.numerics.grid_compromise = i == 2;
+    }
+    results.reaches[0].peak_depth_m = kNaN;  // must come back as NULL
+    results.reaches[2].travel_time_s = 5400;
+
+    auto node = [](std::string id, routing::NodeKind kind, double x, double y, double q, double t) {
+      routing::NodeSummary n;
+      n.node_id = std::move(id);
+      n.kind = kind;
+      n.x = x;
+      n.y = y;
+      n.peak_q_m3s = q;
+      n.peak_time_s = t;
+      return n;
+    };
+    results.nodes = {node("n_a", routing::NodeKind::Headwater, 0, 1000, 10, t0() + 1800),
+                     node("n_b", routing::NodeKind::Headwater, 1000, 1000, 11, t0() + 2700),
+                     node("n_y", routing::NodeKind::Confluence, 500, 500, 19.5, t0() + 9000),
+                     node("n_out", routing::NodeKind::Outlet, 500, 0, 12, t0() + 10800)};
+    auto& y = results.nodes[2];
+    y.branches = {{0, 10.0, t0() + 3600.25}, {1, 11.0, t0() + 7200.25}};
+    y.branch_spread_s = 3600;
+    y.coincidence_ratio = 19.5 / 21.0;
+    results.warnings = {"reach C,lower: grid compromise"};
+
+    info.inputs = {"brannoch.gpkg", "inflow.csv"};
+    info.method = "vpmc";
+    info.command_line = "reachwise route brannoch.gpkg --inflow inflow.csv";
+  }
+
+  std::vector<double> series(std::uint32_t reach) const {
+    std::vector<double> q(axis.steps);
+    for (std::size_t k = 0; k < q.size(); ++k) q[k] = 100.0 * reach + static_cast<double>(k);
+    return q;
+  }
+
+  template <class Sink>
+  void stream(Sink& sink) const {
+    for (std::uint32_t r = 0; r < 3; ++r) {
+      const auto q = series(r);
+      std::vector<double> depth(q.size(), 1.0), velocity(q.size(), 0.5);
+      velocity[1] = kNaN;
+      sink.write(r, q, depth, velocity);
+    }
+  }
+};
+
+GDALDatasetUniquePtr openVector(const fs::path& path, unsigned flags = 0,
+                                const char* const* options = nullptr) {
+  io::ensureGdal();
+  return GDALDatasetUniquePtr(GDALDataset::Open(path.c_str(), GDAL_OF_VECTOR | flags, nullptr, options));
+}
+
+std::set<std::string> fieldNames(OGRLayer& layer) {
+  std::set<std::string> out;
+  const auto* defn = layer.GetLayerDefn();
+  for (int i = 0; i < defn->GetFieldCount(); ++i) out.insert(defn->GetFieldDefn(i)->GetNameRef());
+  return out;
+}
+
+void expectFields(OGRLayer& layer, const std::vector<std::string>& names) {
+  const auto have = fieldNames(layer);
+  for (const auto& n : names) EXPECT_TRUE(have.count(n)) << layer.GetName() << " lacks " << n;
+}
+
+// Field names fixed by the output contract (INTERFACE.md, docs/formats.md "Outputs").
+const std::vector<std::string> kReachFields = {
+    "reach_id", "peak_q", "peak_time", "peak_depth", "peak_velocity", "inflow_peak_q",
+    "inflow_peak_time", "attenuation_pct", "travel_time_h", "volume_in_m3", "volume_lateral_m3",
+    "volume_out_m3", "storage_change_m3", "volume_error_pct", "subreaches", "substeps", "dx_m",
+    "dt_sub_s", "courant", "x", "cell_reynolds", "reference_q", "amplitude_ratio", "phase_ratio",
+    "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin"};
+const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
+                                              "branch_count", "branch_spread_h", "coincidence_ratio"};
+
+std::unique_ptr<OGRFeature> featureWhere(OGRLayer& layer, const std::string& filter) {
+  layer.SetAttributeFilter(filter.c_str());
+  layer.ResetReading();
+  std::unique_ptr<OGRFeature> f(layer.GetNextFeature());
+  layer.SetAttributeFilter(nullptr);
+  return f;
+}
+
+void writeGpkg(const Network& net, const fs::path& out, GpkgWriterOptions options = {}) {
+  GpkgResultsWriter writer(out, net.table, net.plan, net.axis, std::move(options));
+  net.stream(writer);
+  writer.writeSummaries(net.results, net.info);
+  writer.commit();
+}
+
+std::vector<fs::path> listDir(const fs::path& dir) {
+  std::vector<fs::path> out;
+  for (const auto& e : fs::directory_iterator(dir)) out.push_back(e.path().filename());
+  return out;
+}
+
+TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  GpkgWriterOptions options;
+  options.batch_rows = 4;  // several batches for 15 rows
+  writeGpkg(net, out, options);
+
+  auto ds = openVector(out);
+  ASSERT_TRUE(ds) << CPLGetLastErrorMsg();
+  for (const char* name : {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info"})
+    ASSERT_NE(ds->GetLayerByName(name), nullptr) << name;
+  OGRLayer& reaches = *ds->GetLayerByName("reaches");
+  OGRLayer& nodes = *ds->GetLayerByName("nodes");
+  expectFields(reaches, kReachFields);
+  expectFields(nodes, kNodeFields);
+  expectFields(*ds->GetLayerByName("confluence_branches"),
+               {"node_id", "branch_reach_id", "branch_peak_q", "branch_peak_time"});
+  expectFields(*ds->GetLayerByName("hydrographs"), {"reach_id", "time", "q", "depth", "velocity"});
+  expectFields(*ds->GetLayerByName("run_info"), {"key", "value"});
+  EXPECT_EQ(reaches.GetGeomType(), wkbLineString);
+  EXPECT_EQ(nodes.GetGeomType(), wkbPoint);
+  EXPECT_EQ(reaches.GetLayerDefn()->GetFieldDefn(reaches.FindFieldIndex("peak_time", TRUE))->GetType(),
+            OFTDateTime);
+
+  // CRS as given (GDAL's own comparison).
+  OGRSpatialReference utm33;
+  utm33.importFromEPSG(32633);
+  ASSERT_NE(reaches.GetSpatialRef(), nullptr);
+  EXPECT_TRUE(reaches.GetSpatialRef()->IsSame(&utm33));
+  ASSERT_NE(nodes.GetSpatialRef(), nullptr);
+  EXPECT_TRUE(nodes.GetSpatialRef()->IsSame(&utm33));
+
+  EXPECT_EQ(reaches.GetFeatureCount(), 3);
+  auto a = featureWhere(reaches, "reach_id = 'A'");
+  ASSERT_TRUE(a);
+  EXPECT_DOUBLE_EQ(a->GetFieldAsDouble("peak_q"), 10.0);
+  EXPECT_TRUE(a->IsFieldNull(a->GetFieldIndex("peak_depth")));    // NaN -> NULL
+  EXPECT_TRUE(a->IsFieldNull(a->GetFieldIndex("travel_time_h")));
+  EXPECT_NEAR(readInstant(*a, "peak_time"), Network::t0() + 3600.25, 1e-3);
+  EXPECT_EQ(a->GetFieldAsInteger64("negative_clamps"), 5'000'000'000ll);
+  EXPECT_EQ(a->GetFieldAsInteger("subreaches"), 3);
+  EXPECT_EQ(a->GetFieldAsInteger("grid_compromise"), 0);
+  // Geometry: table row 1 is reach A's (three vertices).
+  const auto* line = a->GetGeometryRef()->toLineString();
+  ASSERT_EQ(line->getNumPoints(), 3);
+  EXPECT_DOUBLE_EQ(line->getX(1), 250.0);
+  EXPECT_DOUBLE_EQ(line->getY(1), 750.0);
+
+  auto c = featureWhere(reaches, "reach_id = 'C,lower'");
+  ASSERT_TRUE(c);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("travel_time_h"), 1.5);
+  EXPECT_EQ(c->GetFieldAsInteger("grid_compromise"), 1);
+  EXPECT_EQ(c->GetFieldAsInteger("strahler"), 2);
+  EXPECT_DOUBLE_EQ(c->GetGeometryRef()->toLineString()->getY(1), 0.0);
+
+  EXPECT_EQ(nodes.GetFeatureCount(), 4);
+  auto y = featureWhere(nodes, "node_id = 'n_y'");
+  ASSERT_TRUE(y);
+  EXPECT_STREQ(y->GetFieldAsString("kind"), "confluence");
+  EXPECT_EQ(y->GetFieldAsInteger("branch_count"), 2);
+  EXPECT_DOUBLE_EQ(y->GetFieldAsDouble("branch_spread_h"), 1.0);
+  EXPECT_NEAR(readInstant(*y, "peak_time"), Network::t0() + 9000, 1e-3);
+  EXPECT_DOUBLE_EQ(y->GetGeometryRef()->toPoint()->getX(), 500.0);
+
+  OGRLayer& branches = *ds->GetLayerByName("confluence_branches");
+  EXPECT_EQ(branches.GetFeatureCount(), 2);
+  auto b = featureWhere(branches, "branch_reach_id = 'B'");
+  ASSERT_TRUE(b);
+  EXPECT_STREQ(b->GetFieldAsString("node_id"), "n_y");
+  EXPECT_NEAR(readInstant(*b, "branch_peak_time"), Network::t0() + 7200.25, 1e-3);
+
+  OGRLayer& series = *ds->GetLayerByName("hydrographs");
+  EXPECT_EQ(series.GetFeatureCount(), 15);
+  auto row = featureWhere(series, "reach_id = 'B' AND q = 103");
+  ASSERT_TRUE(row);
+  EXPECT_NEAR(readInstant(*row, "time"), Network::t0() + 3 * 900.0, 1e-3);
+  auto nan_row = featureWhere(series, "reach_id = 'A' AND q = 1");
+  ASSERT_TRUE(nan_row);
+  EXPECT_TRUE(nan_row->IsFieldNull(nan_row->GetFieldIndex("velocity")));
+
+  OGRLayer& run_info = *ds->GetLayerByName("run_info");
+  std::multiset<std::string> keys;
+  run_info.ResetReading();
+  for (auto& f : run_info) keys.insert(f->GetFieldAsString("key"));
+  EXPECT_EQ(keys.count("input"), 2u);
+  EXPECT_EQ(keys.count("warning"), 1u);
+  for (const char* key : {"method", "dt_s", "steps", "start", "end", "version", "git_hash",
+                          "command_line", "caution"})
+    EXPECT_EQ(keys.count(key), 1u) << key;
+  auto start = featureWhere(run_info, "key = 'start'");
+  EXPECT_STREQ(start->GetFieldAsString("value"), "2026-05-01T01:00:00+01:00");  // ISO 8601 at +01:00
+}
+
+TEST(GpkgResultsWriter, NothingRemainsWithoutCommit) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  fs::path working;
+  {
+    GpkgResultsWriter writer(out, net.table, net.plan, net.axis);
+    working = writer.workingPath();
+    net.stream(writer);
+    writer.writeSummaries(net.results, net.info);
+    EXPECT_TRUE(fs::exists(working));
+    EXPECT_FALSE(fs::exists(out));
+  }
+  EXPECT_FALSE(fs::exists(working));
+  EXPECT_FALSE(fs::exists(out));
+  EXPECT_TRUE(listDir(out.parent_path()).empty());
+}
+
+TEST(GpkgResultsWriter, RefusesToReplaceAnOutputWithoutOverwrite) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  { std::ofstream(out) << "keep me"; }
+  try {
+    GpkgResultsWriter writer(out, net.table, net.plan, net.axis);
+    FAIL() << "an existing output was not refused";
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.where().file, out.string());
+  }
+  EXPECT_EQ(fs::file_size(out), 7u);
+  EXPECT_EQ(listDir(out.parent_path()).size(), 1u);
+
+  GpkgWriterOptions options;
+  options.overwrite = true;
+  writeGpkg(net, out, options);
+  auto ds = openVector(out);
+  ASSERT_TRUE(ds);
+  EXPECT_EQ(ds->GetLayerByName("reaches")->GetFeatureCount(), 3);
+}
+
+TEST(GpkgResultsWriter, WritesOnlySelectedHydrographs) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  GpkgWriterOptions options;
+  options.series = io::SeriesSelection::of({2});
+  writeGpkg(net, out, options);
+  auto ds = openVector(out);
+  ASSERT_TRUE(ds);
+  OGRLayer& series = *ds->GetLayerByName("hydrographs");
+  EXPECT_EQ(series.GetFeatureCount(), 5);
+  for (auto& f : series) EXPECT_STREQ(f->GetFieldAsString("reach_id"), "C,lower");
+
+  options.series = io::SeriesSelection::of({7});
+  EXPECT_THROW(GpkgResultsWriter(dir.file("bad.gpkg"), net.table, net.plan, net.axis, options),
+               InvalidParameter);
+}
+
+/// A GeoPackage holding the user's own network layer, named `reaches`.
+void writeInput(const std::string& path) {
+  fixtures::Layer layer;
+  layer.fields = fixtures::reachFields();
+  layer.features = {fixtures::reach("LINESTRING (500 500, 500 0)", "C,lower", std::nullopt),
+                    fixtures::reach("LINESTRING (0 1000, 250 750, 500 500)", "A", "C,lower"),
+                    fixtures::reach("LINESTRING (1000 1000, 500 500)", "B", "C,lower")};
+  fixtures::write(path, "GPKG", {layer});
+}
+
+void expectOriginalIntact(GDALDataset& ds) {
+  OGRLayer* original = ds.GetLayerByName("reaches");
+  ASSERT_NE(original, nullptr);
+  EXPECT_EQ(original->GetFeatureCount(), 3);
+  std::set<std::string> expected;
+  for (const auto& f : fixtures::reachFields()) expected.insert(f.name);
+  EXPECT_EQ(fieldNames(*original), expected);
+}
+
+TEST(GpkgResultsWriter, WriteBackAddsPrefixedLayersBesideTheOriginal) {
+  fixtures::TempDir dir;
+  const Network net;
+  const auto input = dir.file("network.gpkg");
+  writeInput(input);
+  auto run = [&](bool overwrite) {
+    GpkgWriterOptions options;
+    options.overwrite = overwrite;
+    auto writer = GpkgResultsWriter::writeBack(input, "rw_", net.table, net.plan, net.axis, options);
+    net.stream(*writer);
+    writer->writeSummaries(net.results, net.info);
+    writer->commit();
+  };
+  run(false);
+  {
+    auto ds = openVector(input);
+    ASSERT_TRUE(ds);
+    expectOriginalIntact(*ds);
+    for (const char* name : {"rw_reaches", "rw_nodes", "rw_confluence_branches", "rw_hydrographs",
+                             "rw_run_info"})
+      ASSERT_NE(ds->GetLayerByName(name), nullptr) << name;
+    expectFields(*ds->GetLayerByName("rw_reaches"), kReachFields);
+    EXPECT_EQ(ds->GetLayerByName("rw_hydrographs")->GetFeatureCount(), 15);
+    EXPECT_EQ(ds->GetLayerCount(), 6);
+  }
+  // A second run is refused without overwrite, and replaces the layers with it.
+  EXPECT_THROW(run(false), InputError);
+  run(true);
+  auto ds = openVector(input);
+  ASSERT_TRUE(ds);
+  expectOriginalIntact(*ds);
+  EXPECT_EQ(ds->GetLayerCount(), 6);
+  EXPECT_EQ(ds->GetLayerByName("rw_reaches")->GetFeatureCount(), 3);
+  EXPECT_EQ(ds->GetLayerByName("rw_hydrographs")->GetFeatureCount(), 15);
+}
+
+TEST(GpkgResultsWriter, WriteBackWithoutCommitLeavesTheInputAsItWas) {
+  fixtures::TempDir dir;
+  const Network net;
+  const auto input = dir.file("network.gpkg");
+  writeInput(input);
+  {
+    auto writer = GpkgResultsWriter::writeBack(input, "rw_", net.table, net.plan, net.axis);
+    net.stream(*writer);
+    writer->writeSummaries(net.results, net.info);
+  }
+  auto ds = openVector(input);
+  ASSERT_TRUE(ds);
+  expectOriginalIntact(*ds);
+  EXPECT_EQ(ds->GetLayerCount(), 1);
+}
+
+TEST(GpkgResultsWriter, WriteBackRefusesWhatIsNotAGeoPackage) {
+  fixtures::TempDir dir;
+  const Network net;
+  const auto input = dir.file("network.geojson");
+  fixtures::Layer layer;
+  layer.fields = fixtures::reachFields();
+  layer.features = {fixtures::reach("LINESTRING (500 500, 500 0)", "C", std::nullopt)};
+  fixtures::write(input, "GeoJSON", {layer});
+  try {
+    GpkgResultsWriter::writeBack(input, "rw_", net.table, net.plan, net.axis);
+    FAIL() << "a GeoJSON source was accepted for write-back";
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.where().file, input);
+    EXPECT_NE(std::string(e.what()).find("GeoPackage"), std::string::npos) << e.what();
+  }
+  EXPECT_THROW(GpkgResultsWriter::writeBack(dir.file("missing.gpkg"), "rw_", net.table, net.plan,
+                                            net.axis),
+               InputError);
+  const auto gpkg = dir.file("network.gpkg");
+  writeInput(gpkg);
+  EXPECT_THROW(GpkgResultsWriter::writeBack(gpkg, "", net.table, net.plan, net.axis),
+               InvalidParameter);
+}
+
+TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("csv");
+  io::writeCsvTables(out, false, net.table, net.plan, net.results, net.info);
+  {
+    io::CsvSeriesWriter series(out, false, net.plan, net.axis);
+    net.stream(series);
+    series.commit();
+  }
+  EXPECT_EQ(listDir(out).size(), 5u);  // no temporary files left
+
+  const char* const options[] = {"EMPTY_STRING_AS_NULL=YES", nullptr};
+  auto reaches = openVector(out / "reaches.csv", 0, options);
+  ASSERT_TRUE(reaches) << CPLGetLastErrorMsg();
+  OGRLayer& rl = *reaches->GetLayer(0);
+  expectFields(rl, kReachFields);
+  EXPECT_EQ(rl.GetFeatureCount(), 3);
+  auto c = featureWhere(rl, "reach_id = 'C,lower'");  // the comma survived quoting
+  ASSERT_TRUE(c);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("peak_q"), 12.0);
+  // ISO 8601 at the run's offset: 03:00:00.25Z is 04:00:00.250+01:00.
+  EXPECT_STREQ(c->GetFieldAsString("peak_time"), "2026-05-01T04:00:00.250+01:00");
+  OGRGeometry* geometry = nullptr;
+  ASSERT_EQ(OGRGeometryFactory::createFromWkt(c->GetFieldAsString("geometry"), nullptr, &geometry),
+            OGRERR_NONE);
+  std::unique_ptr<OGRGeometry> owned(geometry);
+  EXPECT_DOUBLE_EQ(geometry->toLineString()->getY(1), 0.0);
+  auto a = featureWhere(rl, "reach_id = 'A'");
+  ASSERT_TRUE(a);
+  EXPECT_TRUE(a->IsFieldNull(a->GetFieldIndex("peak_depth")));
+  EXPECT_EQ(a->GetFieldAsInteger64("negative_clamps"), 5'000'000'000ll);
+
+  auto nodes = openVector(out / "nodes.csv", 0, options);
+  ASSERT_TRUE(nodes);
+  expectFields(*nodes->GetLayer(0), kNodeFields);
+  auto y = featureWhere(*nodes->GetLayer(0), "node_id = 'n_y'");
+  ASSERT_TRUE(y);
+  EXPECT_DOUBLE_EQ(y->GetFieldAsDouble("x"), 500.0);
+  EXPECT_STREQ(y->GetFieldAsString("kind"), "confluence");
+
+  auto branches = openVector(out / "confluence_branches.csv", 0, options);
+  ASSERT_TRUE(branches);
+  EXPECT_EQ(branches->GetLayer(0)->GetFeatureCount(), 2);
+
+  auto series = openVector(out / "hydrographs.csv", 0, options);
+  ASSERT_TRUE(series);
+  OGRLayer& sl = *series->GetLayer(0);
+  EXPECT_EQ(sl.GetFeatureCount(), 15);
+  auto row = featureWhere(sl, "reach_id = 'C,lower' AND q = '204'");
+  ASSERT_TRUE(row);
+  EXPECT_STREQ(row->GetFieldAsString("time"), "2026-05-01T02:00:00+01:00");
+  auto nan_row = featureWhere(sl, "reach_id = 'A' AND q = '1'");
+  ASSERT_TRUE(nan_row);
+  EXPECT_TRUE(nan_row->IsFieldNull(nan_row->GetFieldIndex("velocity")));
+
+  auto run_info = openVector(out / "run_info.csv", 0, options);
+  ASSERT_TRUE(run_info);
+  auto warning = featureWhere(*run_info->GetLayer(0), "key = 'warning'");
+  ASSERT_TRUE(warning);
+  EXPECT_STREQ(warning->GetFieldAsString("value"), "reach C,lower: grid compromise");
+}
+
+TEST(CsvResults, RefusesExistingFilesAndLeavesNothingHalfWritten) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("csv");
+  fs::create_directories(out);
+  { std::ofstream(out / "nodes.csv") << "mine"; }
+  EXPECT_THROW(io::writeCsvTables(out, false, net.table, net.plan, net.results, net.info), InputError);
+  EXPECT_EQ(listDir(out).size(), 1u);
+  {
+    io::CsvSeriesWriter series(out, false, net.plan, net.axis);
+    net.stream(series);
+  }
+  EXPECT_EQ(listDir(out).size(), 1u);  // hydrographs.csv never appeared
+  io::writeCsvTables(out, true, net.table, net.plan, net.results, net.info);
+  EXPECT_EQ(listDir(out).size(), 4u);
+}
+
+}  // namespace
