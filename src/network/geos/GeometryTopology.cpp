@@ -318,12 +318,11 @@ bool matchesOutlet(const std::string& id, const std::vector<std::string>& outlet
 std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
                          const std::vector<std::vector<std::size_t>>& inc, const Bfs& b,
                          const TopologyOptions& opt) {
-  std::vector<std::size_t> named, downstream_leaves, leaves;
+  std::vector<std::size_t> named, leaves;
   for (std::size_t u : b.order) {
     if (inc[u].size() != 1) continue;
     const std::size_t rec = inc[u].front();
     leaves.push_back(u);
-    if (g.to[rec] == u) downstream_leaves.push_back(u);
     if (matchesOutlet(table.reaches[rec].id, opt.outlets)) named.push_back(u);
   }
   // A named single-line part has two free ends: prefer its digitised downstream end.
@@ -331,11 +330,20 @@ std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
     return (g.to[inc[a].front()] == a) > (g.to[inc[c].front()] == c);
   });
   if (!named.empty()) return named.front();
-  const auto& pool = !downstream_leaves.empty() ? downstream_leaves : leaves;
-  if (pool.empty()) return b.order.front();
+  if (leaves.empty()) return b.order.front();  // a ring: keep digitising order
   const auto cost = flipCounts(g, b);
-  return *std::min_element(pool.begin(), pool.end(), [&](std::size_t a, std::size_t c) {
-    return cost[a] != cost[c] ? cost[a] < cost[c] : a < c;
+  auto is_down = [&](std::size_t u) { return g.to[inc[u].front()] == u; };
+  // Channel size breaks a tie: the outlet reach is usually the widest.
+  auto size = [&](std::size_t u) {
+    const auto& sec = table.reaches[inc[u].front()].section;
+    const double w = std::isfinite(sec.bottom_width_m) ? sec.bottom_width_m : sec.diameter_m;
+    return std::isfinite(w) ? w : 0.0;
+  };
+  return *std::min_element(leaves.begin(), leaves.end(), [&](std::size_t a, std::size_t c) {
+    if (cost[a] != cost[c]) return cost[a] < cost[c];
+    if (size(a) != size(c)) return size(a) > size(c);
+    if (is_down(a) != is_down(c)) return is_down(a);
+    return a < c;
   });
 }
 

@@ -28,10 +28,12 @@ struct TopologyOptions {
   /// reported as a probable gap.
   double gap_factor = 10.0;
   Orientation orientation = Orientation::Auto;
-  /// Outlet reach ids for Orientation::Outlets. A connected part without a
-  /// named outlet flows towards the line end that has no continuation and
-  /// is the digitised downstream end of its line, choosing among several
-  /// such ends the one that needs the fewest lines reversed.
+  /// Outlet reach ids for Orientation::Outlets (a split line's pieces
+  /// `<id>.k` count as `<id>`). A connected part without a named outlet
+  /// flows towards the free line end (no continuation) that needs the
+  /// fewest lines reversed; on a tie, the end of the widest line (bottom
+  /// width, else diameter), then an end that is its line's digitised
+  /// downstream end, wins.
   std::vector<std::string> outlets;
 };
 

@@ -1,0 +1,90 @@
+// The [network] table of a TOML run file.
+#include "reachwise/io/NetworkConfig.hpp"
+
+#include <gtest/gtest.h>
+
+#include "reachwise/Error.hpp"
+
+using namespace reachwise;
+using io::NetworkConfig;
+
+TEST(NetworkConfig, DefaultsUseTheDocumentedFieldNames) {
+  const NetworkConfig cfg;
+  for (auto name : io::kFieldNames) EXPECT_EQ(cfg.field(name).name, name);
+  EXPECT_EQ(cfg.units, units::System::SI);
+  EXPECT_EQ(cfg.topology, io::TopologySource::Auto);
+  EXPECT_FALSE(cfg.snap_tolerance.has_value());
+  EXPECT_THROW(cfg.field("colour"), InternalError);
+}
+
+TEST(NetworkConfig, ParsesMappingsDefaultsAndSettings) {
+  const auto cfg = NetworkConfig::fromString(R"(
+[network]
+layer = "streams"
+units = "us"
+length_unit = "us_ft"
+topology = "geometry"
+snap_tolerance = 1.5
+orientation = "outlets"
+outlets = ["R1", 77]
+
+[network.fields]
+reach_id = "CODE"
+manning_n = { name = "N_MAIN", default = 0.04 }
+side_slope = { default = 2 }
+shape = { default = "circle" }
+
+[routing]
+method = "vpmc"   # other tables belong to other parts of the program
+)",
+                                             "run.toml");
+  EXPECT_EQ(cfg.layer, "streams");
+  EXPECT_EQ(cfg.units, units::System::USCustomary);
+  // US survey foot = 1200/3937 m (its definition).
+  EXPECT_DOUBLE_EQ(*cfg.length_unit_m, 1200.0 / 3937.0);
+  EXPECT_EQ(cfg.topology, io::TopologySource::Geometry);
+  EXPECT_DOUBLE_EQ(*cfg.snap_tolerance, 1.5);
+  EXPECT_EQ(cfg.orientation, io::Orientation::Outlets);
+  ASSERT_EQ(cfg.outlets.size(), 2u);
+  EXPECT_EQ(cfg.outlets[1], "77");
+  EXPECT_EQ(cfg.field("reach_id").name, "CODE");
+  EXPECT_EQ(cfg.field("manning_n").name, "N_MAIN");
+  EXPECT_DOUBLE_EQ(*cfg.field("manning_n").default_number, 0.04);
+  EXPECT_EQ(cfg.field("side_slope").name, "side_slope");  // default kept
+  EXPECT_DOUBLE_EQ(*cfg.field("side_slope").default_number, 2.0);
+  EXPECT_EQ(*cfg.field("shape").default_text, "circle");
+}
+
+TEST(NetworkConfig, MistakesAreInputErrorsNamingTheKey) {
+  auto fails_at = [](const std::string& text, const std::string& key) {
+    try {
+      NetworkConfig::fromString(text, "bad.toml");
+      ADD_FAILURE() << "no error for: " << text;
+    } catch (const InputError& e) {
+      EXPECT_EQ(e.where().file, "bad.toml");
+      EXPECT_EQ(e.where().field, key) << e.what();
+    }
+  };
+  fails_at("[network]\nunits = \"imperial\"\n", "network.units");
+  fails_at("[network]\nsnap_tolrance = 1\n", "network.snap_tolrance");
+  fails_at("[network]\nsnap_tolerance = -1\n", "network.snap_tolerance");
+  fails_at("[network]\nsnap_tolerance = \"big\"\n", "network.snap_tolerance");
+  fails_at("[network]\nlength_unit = \"furlong\"\n", "network.length_unit");
+  fails_at("[network]\ntopology = \"magic\"\n", "network.topology");
+  fails_at("[network]\norientation = \"north\"\n", "network.orientation");
+  fails_at("[network]\noutlets = \"R1\"\n", "network.outlets");
+  fails_at("[network.fields]\ncolour = \"C\"\n", "network.fields.colour");
+  fails_at("[network.fields]\nslope = { nme = \"S\" }\n", "network.fields.slope.nme");
+  fails_at("[network.fields]\nslope = 3\n", "network.fields.slope");
+}
+
+TEST(NetworkConfig, SyntaxErrorGivesTheLine) {
+  try {
+    NetworkConfig::fromString("[network]\nlayer = \"a\"\nunits = = \"si\"\n", "broken.toml");
+    FAIL() << "expected InputError";
+  } catch (const InputError& e) {
+    ASSERT_TRUE(e.where().line.has_value());
+    EXPECT_EQ(*e.where().line, 3);
+  }
+  EXPECT_THROW(NetworkConfig::fromFile("/nonexistent/run.toml"), InputError);
+}
