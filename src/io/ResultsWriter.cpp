@@ -253,7 +253,7 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
     return s.empty() || std::isnan(s[k]) ? Value{} : Value{s[k]};
   };
   for (std::size_t k = 0; k < axis_.steps; ++k) {
-    setDateTime(f, 1, axis_.at(static_cast<double>(k)), axis_.utc_offset_min);
+    setDateTime(f, 1, axis_.at(static_cast<double>(k)), timeOffsetMin(axis_.utc_offset_min));
     setValue(f, 2, value(q_m3s, k), 0);
     if (options_.depth_velocity) {
       setValue(f, 3, value(depth_m, k), 0);
@@ -268,7 +268,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   REACHWISE_ASSERT(ds_ && !committed_ && !summaries_written_);
   REACHWISE_ASSERT(results.reaches.size() == plan_.size());
   REACHWISE_ASSERT(plan_.record.size() == plan_.size());
-  const int offset = results.axis.utc_offset_min;
+  const int offset = timeOffsetMin(results.axis.utc_offset_min);
   const auto srs = spatialReference(table_);
 
   OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
@@ -329,6 +329,12 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
 void GpkgResultsWriter::commit() {
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
+  // GIS users pick one reach's hydrograph; an index keeps that fast.
+  const auto series = layerName("hydrographs");
+  CPLErrorReset();
+  ds_->ExecuteSQL(fmt::format("CREATE INDEX \"idx_{0}_reach_id\" ON \"{0}\" (reach_id)", series).c_str(),
+                  nullptr, nullptr);
+  if (CPLGetLastErrorType() >= CE_Failure) fail("cannot index " + series);
   if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
   series_feature_.reset();
   ds_.reset();  // closes and flushes the file before it is renamed

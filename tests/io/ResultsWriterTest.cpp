@@ -300,6 +300,36 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   EXPECT_STREQ(start->GetFieldAsString("value"), "2026-05-01T01:00:00+01:00");  // ISO 8601 at +01:00
 }
 
+int timeZoneFlag(OGRFeature& f, const char* field) {
+  int y, mo, d, h, mi, tz;
+  float s;
+  EXPECT_TRUE(f.GetFieldAsDateTime(f.GetFieldIndex(field), &y, &mo, &d, &h, &mi, &s, &tz));
+  return tz;
+}
+
+TEST(GpkgResultsWriter, DateTimesInUtcByDefaultOrAtTheRunOffset) {
+  // GeoPackage 1.2 (OGC 12-128r15), DATETIME: ISO 8601 in UTC ("Z"); OGR's
+  // time-zone flag is 100 for UTC plus one per 15 minutes east.
+  fixtures::TempDir dir;
+  const Network net;
+  writeGpkg(net, dir.file("utc.gpkg"));
+  GpkgWriterOptions local;
+  local.local_offset_times = true;
+  writeGpkg(net, dir.file("local.gpkg"), local);
+  for (const auto& [name, flag] : {std::pair{"utc.gpkg", 100}, std::pair{"local.gpkg", 104}}) {
+    auto ds = openVector(dir.file(name));
+    ASSERT_TRUE(ds);
+    auto c = featureWhere(*ds->GetLayerByName("reaches"), "reach_id = 'C,lower'");
+    ASSERT_TRUE(c);
+    EXPECT_EQ(timeZoneFlag(*c, "peak_time"), flag) << name;
+    EXPECT_NEAR(readInstant(*c, "peak_time"), Network::t0() + 3 * 3600.0 + 0.25, 1e-3) << name;
+    auto row = featureWhere(*ds->GetLayerByName("hydrographs"), "reach_id = 'A' AND q = 4");
+    ASSERT_TRUE(row);
+    EXPECT_EQ(timeZoneFlag(*row, "time"), flag) << name;
+    EXPECT_NEAR(readInstant(*row, "time"), Network::t0() + 3600.0, 1e-3) << name;
+  }
+}
+
 TEST(GpkgResultsWriter, NothingRemainsWithoutCommit) {
   fixtures::TempDir dir;
   const Network net;

@@ -70,6 +70,12 @@ struct GpkgWriterOptions {
   SeriesSelection series = SeriesSelection::all();
   std::size_t batch_rows = 10000;                ///< rows per transaction (new file only)
   bool depth_velocity = true;                    ///< write depth and velocity in `hydrographs`
+  /// The GeoPackage standard stores date-times in UTC (`...Z`), and GDAL
+  /// warns of anything else as non-conformant; so by default they are
+  /// written in UTC, and `run_info` keeps the run's offset (`utc_offset_min`,
+  /// `start`, `end`). `true` writes them with the run's offset as the
+  /// time-zone flag instead (read correctly by GDAL, not by every reader).
+  bool local_offset_times = false;
 };
 
 /// Writes results into a GeoPackage. Use: construct, let the scheduler
@@ -127,6 +133,7 @@ private:
   void countRow();
   std::string layerName(const char* base) const { return prefix_ + base; }
   [[noreturn]] void fail(const std::string& what) const;
+  int timeOffsetMin(int run_offset_min) const { return options_.local_offset_times ? run_offset_min : 0; }
 
   std::filesystem::path target_;    ///< what the user named
   std::filesystem::path working_;   ///< where GDAL writes
