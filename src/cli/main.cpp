@@ -5,6 +5,7 @@
 #include <exception>
 
 #include "CheckCommand.hpp"
+#include "RouteCommand.hpp"
 #include "Subcommand.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/version.hpp"
@@ -16,6 +17,8 @@ int main(int argc, char** argv) {
   app.require_subcommand(0, 1);
   reachwise::cli::Runner chosen;
   reachwise::cli::addCheckCommand(app, chosen);
+  reachwise::cli::addRouteCommand(app, chosen);
+  reachwise::cli::addDemoCommand(app, chosen);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
