@@ -52,11 +52,11 @@ std::string cell(const Value& value, int utc_offset_min) {
 
 std::string real(double v) { return std::isnan(v) ? std::string() : fmt::format("{}", v); }
 
-std::string wkt(const network::ReachRecord& record) {
-  if (record.line.size() < 2) return {};
+std::string wkt(const std::vector<network::Point3>& line) {
+  if (line.size() < 2) return {};
   std::string out = "\"LINESTRING (";
-  for (std::size_t k = 0; k < record.line.size(); ++k)
-    out += fmt::format("{}{} {}", k ? ", " : "", record.line[k].x, record.line[k].y);
+  for (std::size_t k = 0; k < line.size(); ++k)
+    out += fmt::format("{}{} {}", k ? ", " : "", line[k].x, line[k].y);
   return out + ")\"";
 }
 
@@ -128,8 +128,7 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
   reaches.out << ",geometry\n";
   for (std::size_t i = 0; i < plan.size(); ++i) {
     writeRow(reaches.out, results::reachRow(plan, results.reaches[i], i), offset);
-    REACHWISE_ASSERT(plan.record[i] < table.reaches.size());
-    reaches.out << ',' << wkt(table.reaches[plan.record[i]]) << '\n';
+    reaches.out << ',' << wkt(results::flowLine(table, plan, i)) << '\n';
   }
 
   header(nodes.out, results::nodeColumns());

@@ -45,6 +45,11 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
 
 const char* nodeKindName(routing::NodeKind kind);
 
+/// The vertices of plan reach `i`'s line in flow direction (from the end
+/// nearer `plan.top[i]`), so that a GIS draws arrows downstream.
+std::vector<network::Point3> flowLine(const network::ReachTable& table,
+                                      const network::NetworkPlan& plan, std::size_t i);
+
 /// Wall-clock fields of an instant at a UTC offset, rounded to the
 /// millisecond; `tz_flag` is OGR's (100 = UTC, each unit 15 minutes).
 /// Offsets that are not a whole number of quarter hours cannot be flagged

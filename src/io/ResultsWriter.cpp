@@ -89,11 +89,11 @@ void insert(const fs::path& file, OGRLayer& layer, OGRFeature& f) {
   if (layer.CreateFeature(&f) != OGRERR_NONE) failAt(file, "cannot write a row", layer.GetName());
 }
 
-OGRLineString lineOf(const network::ReachRecord& record) {
+OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
   OGRLineString line;
-  line.setNumPoints(static_cast<int>(record.line.size()));
-  for (std::size_t k = 0; k < record.line.size(); ++k)
-    line.setPoint(static_cast<int>(k), record.line[k].x, record.line[k].y);
+  line.setNumPoints(static_cast<int>(vertices.size()));
+  for (std::size_t k = 0; k < vertices.size(); ++k)
+    line.setPoint(static_cast<int>(k), vertices[k].x, vertices[k].y);
   return line;
 }
 
@@ -278,10 +278,9 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
     for (std::size_t i = 0; i < plan_.size(); ++i) {
       const auto row = results::reachRow(plan_, results.reaches[i], i);
       for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
-      REACHWISE_ASSERT(plan_.record[i] < table_.reaches.size());
-      const auto& record = table_.reaches[plan_.record[i]];
-      if (record.line.size() >= 2) {
-        auto line = lineOf(record);
+      const auto vertices = results::flowLine(table_, plan_, i);
+      if (vertices.size() >= 2) {
+        auto line = lineOf(vertices);
         f.SetGeometry(&line);
       } else {
         f.SetGeometryDirectly(nullptr);

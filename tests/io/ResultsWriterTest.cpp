@@ -73,7 +73,7 @@ struct Network {
       return r;
     };
     table.reaches = {record("C,lower", {{500, 500}, {500, 0}}),
-                     record("A", {{0, 1000}, {250, 750}, {500, 500}}),
+                     record("A", {{500, 500}, {250, 750}, {0, 1000}}),  // digitised upstream
                      record("B", {{1000, 1000}, {500, 500}})};
     plan.reach_id = {"A", "B", "C,lower"};
     plan.fid = {2, 3, 1};
@@ -249,9 +249,11 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   EXPECT_EQ(a->GetFieldAsInteger64("negative_clamps"), 5'000'000'000ll);
   EXPECT_EQ(a->GetFieldAsInteger("subreaches"), 3);
   EXPECT_EQ(a->GetFieldAsInteger("grid_compromise"), 0);
-  // Geometry: table row 1 is reach A's (three vertices).
+  // Geometry: table row 1 is reach A's (three vertices), drawn from its top.
   const auto* line = a->GetGeometryRef()->toLineString();
   ASSERT_EQ(line->getNumPoints(), 3);
+  EXPECT_DOUBLE_EQ(line->getX(0), 0.0);
+  EXPECT_DOUBLE_EQ(line->getY(0), 1000.0);
   EXPECT_DOUBLE_EQ(line->getX(1), 250.0);
   EXPECT_DOUBLE_EQ(line->getY(1), 750.0);
 
@@ -513,6 +515,11 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   EXPECT_DOUBLE_EQ(geometry->toLineString()->getY(1), 0.0);
   auto a = featureWhere(rl, "reach_id = 'A'");
   ASSERT_TRUE(a);
+  OGRGeometry* a_geometry = nullptr;
+  ASSERT_EQ(OGRGeometryFactory::createFromWkt(a->GetFieldAsString("geometry"), nullptr, &a_geometry),
+            OGRERR_NONE);
+  std::unique_ptr<OGRGeometry> a_owned(a_geometry);
+  EXPECT_DOUBLE_EQ(a_geometry->toLineString()->getY(0), 1000.0);  // in flow direction
   EXPECT_TRUE(a->IsFieldNull(a->GetFieldIndex("peak_depth")));
   EXPECT_EQ(a->GetFieldAsInteger64("negative_clamps"), 5'000'000'000ll);
 

@@ -81,7 +81,8 @@ struct GpkgWriterOptions {
 /// Writes results into a GeoPackage. Use: construct, let the scheduler
 /// stream series into it (SeriesSink), call writeSummaries(), then commit().
 /// Table rows of plan reach i come from `table.reaches[plan.record[i]]`;
-/// geometry is written in `table.crs_wkt` (no CRS when it is empty).
+/// geometry is written in `table.crs_wkt` (no CRS when it is empty), each
+/// line drawn in flow direction (from the end nearer `plan.top[i]`).
 /// Both `table` and `plan` must outlive the writer.
 class GpkgResultsWriter final : public routing::SeriesSink {
 public:
