@@ -15,8 +15,8 @@
 
 namespace reachwise::io::detail {
 
-/// netCDF-C (and the HDF5 below it, as Debian builds it) is not thread-safe,
-/// not even across different files: every call in reachwise takes this lock.
+/// netCDF-C documents no thread safety (its shared state spans files), so
+/// every netCDF call in reachwise takes this one process-wide lock.
 std::mutex& netcdfMutex();
 
 /// Throws InputError naming `file` and what was being done when `status`
