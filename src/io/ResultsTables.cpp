@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <unordered_set>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
@@ -186,8 +187,11 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
   rows.emplace_back("version", kVersion);
   rows.emplace_back("git_hash", kGitHash);
   rows.emplace_back("command_line", info.command_line);
-  for (const auto& w : info.warnings) rows.emplace_back("warning", w);
-  for (const auto& w : results.warnings) rows.emplace_back("warning", w);
+  // The caller may pass the results' warnings in `info` too; each is listed once.
+  std::unordered_set<std::string> seen;
+  for (const auto* list : {&info.warnings, &results.warnings})
+    for (const auto& w : *list)
+      if (seen.insert(w).second) rows.emplace_back("warning", w);
   rows.emplace_back("caution", kResultsCaution);
   return rows;
 }

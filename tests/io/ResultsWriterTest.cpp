@@ -138,6 +138,7 @@ struct Network {
     info.inputs = {"brannoch.gpkg", "inflow.csv"};
     info.method = "vpmc";
     info.command_line = "reachwise route brannoch.gpkg --inflow inflow.csv";
+    info.warnings = {"forcing resampled to 900 s", "reach C,lower: grid compromise"};
   }
 
   std::vector<double> series(std::uint32_t reach) const {
@@ -294,7 +295,7 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   run_info.ResetReading();
   for (auto& f : run_info) keys.insert(f->GetFieldAsString("key"));
   EXPECT_EQ(keys.count("input"), 2u);
-  EXPECT_EQ(keys.count("warning"), 1u);
+  EXPECT_EQ(keys.count("warning"), 2u);  // the one in both lists once
   for (const char* key : {"method", "dt_s", "steps", "start", "end", "version", "git_hash",
                           "command_line", "caution"})
     EXPECT_EQ(keys.count(key), 1u) << key;
@@ -491,9 +492,13 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   const fs::path out = dir.file("csv");
   io::writeCsvTables(out, false, net.table, net.plan, net.results, net.info);
   {
+    // One stream feeding both writers, as a run with --out and --csv does.
     io::CsvSeriesWriter series(out, false, net.plan, net.axis);
-    net.stream(series);
+    GpkgResultsWriter gpkg(dir.file("both.gpkg"), net.table, net.plan, net.axis);
+    io::SeriesFanOut both({&series, &gpkg});
+    net.stream(both);
     series.commit();
+    EXPECT_EQ(gpkg.hydrographRows(), 15u);
   }
   EXPECT_EQ(listDir(out).size(), 5u);  // no temporary files left
 
@@ -548,7 +553,7 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
 
   auto run_info = openVector(out / "run_info.csv", 0, options);
   ASSERT_TRUE(run_info);
-  auto warning = featureWhere(*run_info->GetLayer(0), "key = 'warning'");
+  auto warning = featureWhere(*run_info->GetLayer(0), "key = 'warning' AND value LIKE 'reach%'");
   ASSERT_TRUE(warning);
   EXPECT_STREQ(warning->GetFieldAsString("value"), "reach C,lower: grid compromise");
 }

@@ -35,7 +35,8 @@ struct TextFileOutput;
 }
 
 /// What was run, for the `run_info` table. The time axis, version and git
-/// hash are added by the writer; warnings are these plus NetworkResults'.
+/// hash are added by the writer; warnings are these plus NetworkResults'
+/// (a warning in both is listed once).
 struct RunInfo {
   std::vector<std::string> inputs;   ///< network, forcing and config files (one `input` row each)
   std::string method;                ///< `vpmc`, `mc` or `muskingum`
@@ -183,6 +184,21 @@ private:
   routing::TimeAxis axis_;
   std::vector<bool> selected_;
   int fraction_digits_ = 0;
+};
+
+/// Passes every series on to several sinks (e.g. a GeoPackage and a CSV
+/// writer), in the order given. The sinks must outlive it.
+class SeriesFanOut final : public routing::SeriesSink {
+public:
+  explicit SeriesFanOut(std::vector<routing::SeriesSink*> sinks) : sinks_(std::move(sinks)) {}
+  void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
+             std::span<const double> velocity_ms) override {
+    for (auto* sink : sinks_)
+      if (sink) sink->write(reach, q_m3s, depth_m, velocity_ms);
+  }
+
+private:
+  std::vector<routing::SeriesSink*> sinks_;
 };
 
 }  // namespace reachwise::io
