@@ -391,6 +391,24 @@ TEST(GpkgResultsWriter, WritesOnlySelectedHydrographs) {
                InvalidParameter);
 }
 
+TEST(GpkgResultsWriter, CallerMistakesAreInternalErrorsAndLeaveNothing) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  {
+    GpkgResultsWriter writer(out, net.table, net.plan, net.axis);
+    const std::vector<double> short_series(net.axis.steps - 1, 1.0);
+    EXPECT_THROW(writer.write(0, short_series, {}, {}), InternalError);
+    EXPECT_THROW(writer.write(3, net.series(0), {}, {}), InternalError);  // no plan reach 3
+    EXPECT_THROW(writer.commit(), InternalError);  // summaries were never written
+    auto results = net.results;
+    results.reaches.pop_back();
+    EXPECT_THROW(writer.writeSummaries(results, net.info), InternalError);
+  }
+  EXPECT_FALSE(fs::exists(out));
+  EXPECT_TRUE(listDir(out.parent_path()).empty());
+}
+
 /// A GeoPackage holding the user's own network layer, named `reaches`.
 void writeInput(const std::string& path) {
   fixtures::Layer layer;
@@ -508,7 +526,8 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   OGRLayer& rl = *reaches->GetLayer(0);
   expectFields(rl, kReachFields);
   EXPECT_EQ(rl.GetFeatureCount(), 3);
-  auto c = featureWhere(rl, "reach_id = 'C,lower'");  // the comma survived quoting
+  // RFC 4180 quoting, read back by GDAL's CSV driver: the comma survived.
+  auto c = featureWhere(rl, "reach_id = 'C,lower'");
   ASSERT_TRUE(c);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("peak_q"), 12.0);
   // ISO 8601 at the run's offset: 03:00:00.25Z is 04:00:00.250+01:00.
