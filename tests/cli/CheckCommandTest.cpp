@@ -237,6 +237,8 @@ TEST(CheckCommand, GapIsReportedAtTheLooseEnd) {
   const auto it =
       std::find_if(lines.begin(), lines.end(), [](const auto& p) { return p.code == "probable_gap"; });
   ASSERT_NE(it, lines.end()) << r.err;
+  EXPECT_EQ(r.code, 1);
+  EXPECT_EQ(it->severity, "error");
   EXPECT_TRUE(isEndOf(path, it->fid, it->x, it->y)) << "fid " << it->fid;
   // A gap leaves the tributary as a basin of its own, listed with its outlet.
   EXPECT_EQ(summaryValue(r.out, "basins"), "2");

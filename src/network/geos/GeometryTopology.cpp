@@ -451,7 +451,7 @@ std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g
     ++gaps;
     const auto& r = table.reaches[i];
     problems.push_back(makeProblem(
-        "probable_gap", Severity::Warning, r, p.x, p.y,
+        "probable_gap", Severity::Error, r, p.x, p.y,
         fmt::format("an end of {} is {:.3g} CRS units from {} but not connected (snap tolerance "
                     "{:.3g})",
                     r.id, best, table.reaches[best_j].id, tol)));
