@@ -158,10 +158,22 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     writer = std::make_unique<io::GpkgResultsWriter>(target, table, plan, axis, wo);
   }
 
+  // --csv: the series stream to both writers.
+  std::unique_ptr<io::CsvSeriesWriter> csv_series;
+  std::unique_ptr<io::SeriesFanOut> fan_out;
+  routing::SeriesSink* sink = writer.get();
+  if (!o.csv.empty()) {
+    std::error_code ec;
+    fs::create_directories(o.csv, ec);
+    csv_series = std::make_unique<io::CsvSeriesWriter>(o.csv, o.overwrite, plan, axis, wo.series);
+    fan_out = std::make_unique<io::SeriesFanOut>(std::vector<routing::SeriesSink*>{writer.get(), csv_series.get()});
+    sink = fan_out.get();
+  }
+
   routing::NetworkRouteOptions ro;
   ro.reach.method = parseMethod(o.method);
   const ForcingAdapter adapter(forcing, plan);
-  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, writer.get());
+  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, sink);
   for (const auto& w : forcing.forcing().warnings) results.warnings.push_back(w);
   for (const auto& p : problems)
     if (p.severity == network::Severity::Warning) results.warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
@@ -175,7 +187,10 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   info.command_line = o.command_line;
   info.warnings = results.warnings;
   writer->writeSummaries(results, info);
-  if (!o.csv.empty()) io::writeCsvTables(o.csv, o.overwrite, table, plan, results, info);
+  if (!o.csv.empty()) {
+    io::writeCsvTables(o.csv, o.overwrite, table, plan, results, info);
+    csv_series->commit();
+  }
   writer->commit();
 
   if (o.demo) {
