@@ -306,3 +306,19 @@ TEST(NetworkReader, SampleNetworkReadsCleanly) {
   EXPECT_GE(circles, 2u);
   EXPECT_GE(two_stage, 2u);
 }
+
+TEST(NetworkReader, EndElevationsGiveTheSlopeWhenNoSlopeFieldExists) {
+  fixtures::TempDir dir;
+  Layer l;
+  l.fields = {{"reach_id", OFTString},     {"manning_n", OFTReal},     {"bottom_width", OFTReal},
+              {"up_elevation", OFTReal},   {"down_elevation", OFTReal}};
+  l.features = {{"LINESTRING (500000 5001000,500000 5000000)", {"E1", "0.03", "6", "102.5", "100"}},
+                {"LINESTRING (500000 5002000,500000 5001000)", {"E2", "0.03", "6", "90", "102.5"}}};
+  fixtures::write(dir.file("elev.gpkg"), "GPKG", {l});
+  network::ProblemList problems;
+  io::ReadOptions opt;
+  opt.config.topology = io::TopologySource::Geometry;
+  auto t = byId(read(dir.file("elev.gpkg"), opt, problems));
+  EXPECT_NEAR(t["E1"].section.bed_slope, 2.5 / 1000.0, 1e-15);  // drop over length
+  EXPECT_NE(findProblem(problems, "invalid_attribute", "E2"), nullptr) << codes(problems);
+}

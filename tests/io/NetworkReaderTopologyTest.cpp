@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <map>
 
+#include "io/NetworkFixtures.hpp"
 #include "reachwise/io/NetworkReader.hpp"
 #include "reachwise/network/ReachGraph.hpp"
 #include "reachwise/network/geos/GeometryTopology.hpp"
@@ -106,4 +107,30 @@ TEST(NetworkReaderTopology, OutletOrientationUndoesReversedDigitising) {
   opt.outlets.clear();
   network::geos::buildTopologyFromGeometry(scrambled2, opt, ps);
   EXPECT_EQ(downstream(scrambled2), downstream(ids));
+}
+
+TEST(NetworkReaderTopology, SplitPiecesKeepTheAttributesOfTheirLine) {
+  fixtures::TempDir dir;
+  fixtures::Layer l;
+  l.fields = {{"reach_id", OFTInteger}, {"slope", OFTReal}, {"manning_n", OFTReal},
+              {"bottom_width", OFTReal}, {"length", OFTReal}};
+  l.features = {{"LINESTRING (500000 5000000,500000 4997000)", {"7", "0.001", "0.03", "12", "3300"}},
+                {"LINESTRING (499000 4999000,500000 4999000)", {"8", "0.004", "0.05", "3", ""}}};
+  fixtures::write(dir.file("t.gpkg"), "GPKG", {l});
+  network::ProblemList ps;
+  io::ReadSummary summary;
+  const auto t = io::readNetwork(dir.file("t.gpkg"), {}, ps, &summary);
+  EXPECT_EQ(summary.topology.splits, 1u);
+  const auto links = downstream(t);
+  EXPECT_EQ(links.at("7.1"), "7.2");
+  EXPECT_EQ(links.at("8"), "7.2");
+  EXPECT_EQ(links.at("7.2"), "");
+  for (const auto& r : t.reaches) {
+    if (r.id.rfind("7.", 0) != 0) continue;
+    EXPECT_DOUBLE_EQ(r.section.bottom_width_m, 12.0) << r.id;
+    EXPECT_DOUBLE_EQ(r.section.bed_slope, 0.001) << r.id;
+    EXPECT_EQ(r.fid, 1) << r.id;
+    // The 3300 m length field is shared 1:2 like the planar pieces (1000 m, 2000 m).
+    EXPECT_NEAR(r.length_m, r.id == "7.1" ? 1100.0 : 2200.0, 1e-9) << r.id;
+  }
 }
