@@ -260,52 +260,53 @@ std::size_t other(const Graph& g, std::size_t rec, std::size_t node) {
   return g.from[rec] == node ? g.to[rec] : g.from[rec];
 }
 
-/// Breadth-first order from `root`: parent record and depth of every node reached.
+/// Breadth-first search over one connected part. The arrays span all
+/// nodes and are reused from part to part (only the visited entries are
+/// reset), so a layer of many small parts stays linear in time.
 struct Bfs {
-  std::vector<std::size_t> order, parent_rec, depth;
-};
-Bfs bfs(const Graph& g, const std::vector<std::vector<std::size_t>>& inc, std::size_t root) {
-  Bfs b;
-  b.parent_rec.assign(g.node.size(), npos);
-  b.depth.assign(g.node.size(), npos);
-  b.depth[root] = 0;
-  std::queue<std::size_t> q;
-  q.push(root);
-  while (!q.empty()) {
-    const std::size_t u = q.front();
-    q.pop();
-    b.order.push_back(u);
-    for (std::size_t rec : inc[u]) {
-      const std::size_t v = other(g, rec, u);
-      if (b.depth[v] != npos) continue;
-      b.depth[v] = b.depth[u] + 1;
-      b.parent_rec[v] = rec;
-      q.push(v);
+  std::vector<std::size_t> order, parent_rec, depth, cost;
+  explicit Bfs(std::size_t nodes) : parent_rec(nodes, npos), depth(nodes, npos), cost(nodes, 0) {}
+
+  void run(const Graph& g, const std::vector<std::vector<std::size_t>>& inc, std::size_t root) {
+    for (std::size_t u : order) parent_rec[u] = depth[u] = npos;
+    order.clear();
+    depth[root] = 0;
+    std::queue<std::size_t> q;
+    q.push(root);
+    while (!q.empty()) {
+      const std::size_t u = q.front();
+      q.pop();
+      order.push_back(u);
+      for (std::size_t rec : inc[u]) {
+        const std::size_t v = other(g, rec, u);
+        if (depth[v] != npos) continue;
+        depth[v] = depth[u] + 1;
+        parent_rec[v] = rec;
+        q.push(v);
+      }
     }
   }
-  return b;
-}
 
-/// Number of lines to reverse for flow towards each node of the component,
-/// over the spanning tree of `b` (moving the outlet across one edge changes
-/// only that edge's direction).
-std::vector<std::size_t> flipCounts(const Graph& g, const Bfs& b) {
-  std::vector<std::size_t> cost(g.node.size(), 0);
-  const std::size_t root = b.order.front();
-  for (std::size_t k = 1; k < b.order.size(); ++k) {
-    const std::size_t v = b.order[k];
-    if (g.from[b.parent_rec[v]] != v) ++cost[root];  // must flow v -> parent
+  /// cost[u] = lines to reverse for flow towards node u, over the spanning
+  /// tree of the last run (moving the outlet across one edge changes only
+  /// that edge's direction).
+  void flipCounts(const Graph& g) {
+    const std::size_t root = order.front();
+    cost[root] = 0;
+    for (std::size_t k = 1; k < order.size(); ++k) {
+      const std::size_t v = order[k];
+      if (g.from[parent_rec[v]] != v) ++cost[root];  // must flow v -> parent
+    }
+    for (std::size_t k = 1; k < order.size(); ++k) {
+      const std::size_t v = order[k];
+      const std::size_t rec = parent_rec[v];
+      const std::size_t p = other(g, rec, v);
+      const bool need_up = g.from[rec] != v;    // towards the old side
+      const bool need_down = g.from[rec] != p;  // towards v
+      cost[v] = cost[p] - (need_up ? 1 : 0) + (need_down ? 1 : 0);
+    }
   }
-  for (std::size_t k = 1; k < b.order.size(); ++k) {
-    const std::size_t v = b.order[k];
-    const std::size_t rec = b.parent_rec[v];
-    const std::size_t p = other(g, rec, v);
-    const bool need_up = g.from[rec] != v;    // towards the old side
-    const bool need_down = g.from[rec] != p;  // towards v
-    cost[v] = cost[p] - (need_up ? 1 : 0) + (need_down ? 1 : 0);
-  }
-  return cost;
-}
+};
 
 bool matchesOutlet(const std::string& id, const std::vector<std::string>& outlets) {
   for (const auto& o : outlets)
@@ -316,7 +317,7 @@ bool matchesOutlet(const std::string& id, const std::vector<std::string>& outlet
 
 /// The outlet node of the component reached by `b`.
 std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
-                         const std::vector<std::vector<std::size_t>>& inc, const Bfs& b,
+                         const std::vector<std::vector<std::size_t>>& inc, Bfs& b,
                          const TopologyOptions& opt) {
   std::vector<std::size_t> named, leaves;
   for (std::size_t u : b.order) {
@@ -331,7 +332,8 @@ std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
   });
   if (!named.empty()) return named.front();
   if (leaves.empty()) return b.order.front();  // a ring: keep digitising order
-  const auto cost = flipCounts(g, b);
+  b.flipCounts(g);
+  const auto& cost = b.cost;
   auto is_down = [&](std::size_t u) { return g.to[inc[u].front()] == u; };
   // Channel size breaks a tie: the outlet reach is usually the widest.
   auto size = [&](std::size_t u) {
@@ -351,14 +353,15 @@ std::size_t orientToOutlets(ReachTable& table, Graph& g, const TopologyOptions& 
                             ProblemList& problems) {
   const auto inc = incidence(g);
   std::vector<bool> seen(g.node.size(), false);
+  std::vector<bool> done(table.reaches.size(), false);
+  Bfs b(g.node.size());
   std::size_t flips = 0;
   for (std::size_t start = 0; start < g.node.size(); ++start) {
     if (seen[start] || inc[start].empty()) continue;
-    const Bfs first = bfs(g, inc, start);
-    for (std::size_t u : first.order) seen[u] = true;
-    const std::size_t outlet = chooseOutlet(table, g, inc, first, opt);
-    const Bfs b = bfs(g, inc, outlet);
-    std::vector<bool> done(table.reaches.size(), false);
+    b.run(g, inc, start);
+    for (std::size_t u : b.order) seen[u] = true;
+    const std::size_t outlet = chooseOutlet(table, g, inc, b, opt);
+    b.run(g, inc, outlet);
     for (std::size_t u : b.order) {
       for (std::size_t rec : inc[u]) {
         if (done[rec]) continue;
