@@ -57,7 +57,7 @@ struct TopologySummary {
 ///     downstream node (nullopt at an outlet; at a bifurcation all leaving
 ///     reaches, sorted, joined by ';' as ReachGraph expects) and
 ///     `has_to_reach` is set.
-/// Also reported: `probable_gap` (warning), `closed_line` (error: both ends
+/// Also reported: `probable_gap` (error: a loose end would be a false outlet), `closed_line` (error: both ends
 /// on one node), `unknown_outlet` (warning: a configured outlet id is not in the table).
 /// Records with fewer than two vertices or non-finite coordinates are left
 /// out of the topology (their `to_reach` is cleared); the reader reports them.
