@@ -44,34 +44,30 @@ void initialState(std::vector<double>& q, std::uint32_t m, double inflow0, doubl
   for (std::uint32_t j = 0; j <= m; ++j) q[j] = inflow0 + lateral0 * j / m;
 }
 
-/// Constant coefficients on every cell and step (`mc`, `muskingum`).
-/// With non-negative coefficients and non-negative forcing no flow can turn
-/// negative, so the clamp is only checked when a coefficient is negative.
-void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
-                   std::span<const double> inflow, std::span<const double> lateral, double dt,
-                   std::vector<double>& q, std::vector<double>& out, Totals& tot,
-                   std::uint64_t& negative_clamps) {
+/// Advances the reach over every output step and its k sub-steps, with the
+/// forcing linear within a step and the lateral inflow of a sub-step (the
+/// mean of its end values) spread evenly over the m sub-reaches. `cell`
+/// gives Q[j+1,n+1] from Q[j,n+1], Q[j,n], Q[j+1,n] and that lateral share
+/// (m^3/s); the sweep keeps the volume totals and writes the outflow.
+template <class Cell>
+void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
+           std::span<const double> lateral, double dt, std::vector<double>& q,
+           std::vector<double>& out, Totals& tot, Cell&& cell) {
   const std::size_t n_steps = inflow.size();
   const double dts = dt / k;
-  const bool check = !cf.nonNegative();
-  const double a = cf.in_new, b = cf.in_old, c = cf.out_old;
   out[0] = q[m];
   for (std::size_t n = 0; n + 1 < n_steps; ++n) {
     const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
                         lateral.empty() ? 0.0 : lateral[n + 1]};
     for (std::uint32_t s = 1; s <= k; ++s) {
       const double fr = double(s) / k, fr0 = double(s - 1) / k;
-      const double lat_term = cf.lateral * 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;
+      const double lat = 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;  // q_L Δx, m^3/s
       const double q_out_old = q[m];
       double left_new = f.inflowAt(fr), left_old = q[0];
       q[0] = left_new;
       for (std::uint32_t j = 1; j <= m; ++j) {
         const double old = q[j];
-        double v = a * left_new + b * left_old + c * old + lat_term;
-        if (check && v < 0) {
-          v = 0;
-          ++negative_clamps;
-        }
+        const double v = cell(left_new, left_old, old, lat);
         q[j] = v;
         left_new = v;
         left_old = old;
@@ -82,6 +78,28 @@ void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
     tot.lat += 0.5 * dt * (f.lat0 + f.lat1);
     out[n + 1] = q[m];
   }
+}
+
+/// Constant coefficients on every cell and step (`mc`, `muskingum`).
+/// With non-negative coefficients and non-negative forcing no flow can turn
+/// negative, so the clamp is only checked when a coefficient is negative.
+void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
+                   std::span<const double> inflow, std::span<const double> lateral, double dt,
+                   std::vector<double>& q, std::vector<double>& out, Totals& tot,
+                   std::uint64_t& negative_clamps) {
+  const double a = cf.in_new, b = cf.in_old, c = cf.out_old, l = cf.lateral;
+  if (cf.nonNegative()) {
+    sweep(m, k, inflow, lateral, dt, q, out, tot, [=](double left_new, double left_old, double old, double lat) {
+      return a * left_new + b * left_old + c * old + l * lat;
+    });
+    return;
+  }
+  sweep(m, k, inflow, lateral, dt, q, out, tot, [&](double left_new, double left_old, double old, double lat) {
+    const double v = a * left_new + b * left_old + c * old + l * lat;
+    if (v >= 0) return v;
+    ++negative_clamps;
+    return 0.0;
+  });
 }
 
 /// Per-cell parameters of variable-parameter routing.
@@ -115,9 +133,8 @@ struct VpCell {
            (1.0 + C + D);
   }
   /// Storage with each cell's parameters at the mean of its end flows.
-  double storage(const std::vector<double>& q) {
+  double storage(const std::vector<double>& q) const {
     double s = 0;
-    const std::uint64_t keep = x_clamps, keep_s = surcharge;
     for (std::size_t j = 0; j + 1 < q.size(); ++j) {
       const double qm = std::max(0.5 * (q[j] + q[j + 1]), table.bottomDischarge());
       double c, t;
@@ -125,7 +142,6 @@ struct VpCell {
       const double x = 0.5 * (1.0 - std::min(1.0, qm / (t * slope * c * dx)));
       s += dx / c * (x * q[j] + (1.0 - x) * q[j + 1]);
     }
-    x_clamps = keep, surcharge = keep_s;
     return s;
   }
 };
@@ -134,46 +150,23 @@ void routeVariable(VpCell& cell, Scheme scheme, int iterations, std::uint32_t m,
                    std::span<const double> inflow, std::span<const double> lateral, double dt,
                    std::vector<double>& q, std::vector<double>& out, Totals& tot,
                    std::uint64_t& negative_clamps) {
-  const std::size_t n_steps = inflow.size();
-  const double dts = dt / k;
-  out[0] = q[m];
-  for (std::size_t n = 0; n + 1 < n_steps; ++n) {
-    const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
-                        lateral.empty() ? 0.0 : lateral[n + 1]};
-    for (std::uint32_t s = 1; s <= k; ++s) {
-      const double fr = double(s) / k, fr0 = double(s - 1) / k;
-      const double lat = 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;  // q_L Δx, m^3/s
-      const double q_out_old = q[m];
-      double left_new = f.inflowAt(fr), left_old = q[0];
-      q[0] = left_new;
-      for (std::uint32_t j = 1; j <= m; ++j) {
-        const double old = q[j];
-        double C, D;
-        cell.courantAndReynolds((left_new + left_old + old) / 3.0, C, D);
-        double v = VpCell::update(C, D, left_new, left_old, old, lat);
-        if (scheme == Scheme::FourPoint) {
-          for (int it = 0; it < iterations; ++it) {
-            cell.courantAndReynolds(0.25 * (left_new + left_old + old + std::max(v, 0.0)), C, D);
-            const double next = VpCell::update(C, D, left_new, left_old, old, lat);
-            const bool done = std::abs(next - v) <= 1e-10 * std::abs(next);
-            v = next;
-            if (done) break;
-          }
-        }
-        if (v < 0) {
-          v = 0;
-          ++negative_clamps;
-        }
-        q[j] = v;
-        left_new = v;
-        left_old = old;
+  sweep(m, k, inflow, lateral, dt, q, out, tot, [&](double left_new, double left_old, double old, double lat) {
+    double C, D;
+    cell.courantAndReynolds((left_new + left_old + old) / 3.0, C, D);
+    double v = VpCell::update(C, D, left_new, left_old, old, lat);
+    if (scheme == Scheme::FourPoint) {
+      for (int it = 0; it < iterations; ++it) {
+        cell.courantAndReynolds(0.25 * (left_new + left_old + old + std::max(v, 0.0)), C, D);
+        const double next = VpCell::update(C, D, left_new, left_old, old, lat);
+        const bool done = std::abs(next - v) <= 1e-10 * std::abs(next);
+        v = next;
+        if (done) break;
       }
-      tot.out += 0.5 * dts * (q_out_old + q[m]);
     }
-    tot.in += 0.5 * dt * (f.in0 + f.in1);
-    tot.lat += 0.5 * dt * (f.lat0 + f.lat1);
-    out[n + 1] = q[m];
-  }
+    if (v >= 0) return v;
+    ++negative_clamps;
+    return 0.0;
+  });
 }
 
 void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1) {
