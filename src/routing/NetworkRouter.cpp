@@ -123,7 +123,7 @@ private:
                                                        : std::span<const double>(),
                             axis_.dt_s, options_.reach, *out);
       const hydraulics::RatingTable* table = ws.router.lastTable() ? &*ws.router.lastTable() : nullptr;
-      depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
+      if (sink_) depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
       summarise(i, run, *out, spec.section, table);
     } catch (const InvalidParameter& e) {
       where.field = e.quantity();
@@ -159,11 +159,7 @@ private:
     const Peak p = findPeak(q);
     s.peak_q_m3s = p.value;
     s.peak_time_s = peakTime(axis_, p);
-    const double qp = p.value;
-    std::vector<double> y, v;
-    depthAndVelocity(section, table, std::span<const double>(&qp, 1), y, v);
-    s.peak_depth_m = y[0];
-    s.peak_velocity_ms = v[0];
+    depthAndVelocityAt(section, table, p.value, s.peak_depth_m, s.peak_velocity_ms);
     if (run.inflow_peak_m3s > 0) {
       s.attenuation_pct = 100.0 * (run.inflow_peak_m3s - p.value) / run.inflow_peak_m3s;
       s.travel_time_s = s.peak_time_s - s.inflow_peak_time_s;

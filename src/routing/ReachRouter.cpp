@@ -310,20 +310,23 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   return run;
 }
 
+void depthAndVelocityAt(const hydraulics::Section& section, const hydraulics::RatingTable* table,
+                        double q, double& depth, double& velocity) {
+  if (table) {
+    table->depthAndVelocity(q, depth, velocity);
+    return;
+  }
+  const hydraulics::FlowState f = section.normalFlow(std::max(q, 0.0));
+  depth = f.depth_m;
+  velocity = f.velocity_ms;
+}
+
 void depthAndVelocity(const hydraulics::Section& section, const hydraulics::RatingTable* table,
                       std::span<const double> q, std::vector<double>& depth,
                       std::vector<double>& velocity) {
   depth.resize(q.size());
   velocity.resize(q.size());
-  for (std::size_t i = 0; i < q.size(); ++i) {
-    if (table) {
-      table->depthAndVelocity(q[i], depth[i], velocity[i]);
-    } else {
-      const hydraulics::FlowState f = section.normalFlow(std::max(q[i], 0.0));
-      depth[i] = f.depth_m;
-      velocity[i] = f.velocity_ms;
-    }
-  }
+  for (std::size_t i = 0; i < q.size(); ++i) depthAndVelocityAt(section, table, q[i], depth[i], velocity[i]);
 }
 
 }  // namespace reachwise::routing

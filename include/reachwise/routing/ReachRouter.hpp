@@ -85,8 +85,12 @@ private:
   std::optional<hydraulics::RatingTable> table_;
 };
 
-/// Depth and velocity of uniform flow for each discharge of `q_m3s`, through
-/// the table when given, else by direct solve.
+/// Depth and velocity of uniform flow at discharge `q_m3s`, through the
+/// table when given, else by direct solve.
+void depthAndVelocityAt(const hydraulics::Section& section, const hydraulics::RatingTable* table,
+                        double q_m3s, double& depth_m, double& velocity_ms);
+
+/// The same for each discharge of `q_m3s`.
 void depthAndVelocity(const hydraulics::Section& section, const hydraulics::RatingTable* table,
                       std::span<const double> q_m3s, std::vector<double>& depth_m,
                       std::vector<double>& velocity_ms);
