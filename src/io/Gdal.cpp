@@ -1,8 +1,11 @@
 #include "reachwise/io/Gdal.hpp"
 
+#include "GdalSupport.hpp"
+
 #include <cpl_error.h>
 #include <gdal.h>
 #include <ogr_api.h>
+#include <ogr_spatialref.h>
 
 #include <mutex>
 
@@ -24,5 +27,18 @@ void ensureGdal() {
 }
 
 std::string gdalVersion() { return GDALVersionInfo("RELEASE_NAME"); }
+
+void throwWithGdalMessage(const InputLocation& where, const std::string& what) {
+  const std::string gdal = CPLGetLastErrorMsg();
+  throw InputError(where, gdal.empty() ? what : what + " (" + gdal + ")");
+}
+
+std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt) {
+  if (crs_wkt.empty()) return nullptr;
+  auto srs = std::make_unique<OGRSpatialReference>();
+  if (srs->importFromWkt(crs_wkt.c_str()) != OGRERR_NONE) return nullptr;
+  srs->SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
+  return srs;
+}
 
 }  // namespace reachwise::io

@@ -16,6 +16,7 @@
 namespace reachwise::io {
 
 using network::Point3;
+using network::reachProblem;
 using network::ProblemList;
 using network::ReachRecord;
 using network::ReachTable;
@@ -136,7 +137,7 @@ bool finiteLine(const std::vector<Point3>& line) {
 /// Fills r.line from the feature's geometry; false (with a problem) when unusable.
 bool readGeometry(const OGRGeometry* geom, ReachRecord& r, ProblemList& problems) {
   auto fail = [&](const char* code, const std::string& msg) {
-    problems.push_back(detail::recordProblem(code, Severity::Error, r, msg + "; feature skipped"));
+    problems.push_back(reachProblem(code, Severity::Error, r, msg + "; feature skipped"));
     return false;
   };
   if (!geom || geom->IsEmpty()) return fail("empty_geometry", "the feature has no geometry");
@@ -168,7 +169,7 @@ bool readGeometry(const OGRGeometry* geom, ReachRecord& r, ProblemList& problems
   }
   // Keep the reach (its parts in stored order) so later checks still see it.
   for (const auto& p : parts) r.line.insert(r.line.end(), p.begin(), p.end());
-  problems.push_back(detail::recordProblem(
+  problems.push_back(reachProblem(
       "multipart_gap", Severity::Error, r,
       fmt::format("the {} parts of the line do not join end to end", parts.size())));
   return true;
@@ -187,12 +188,12 @@ void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const L
     if (keep) {
       r.geometry_length_m = measure(r.line);
       if (std::isnan(r.geometry_length_m)) {
-        problems.push_back(detail::recordProblem(
+        problems.push_back(reachProblem(
             "invalid_geometry", Severity::Error, r,
             "coordinates are not valid latitude/longitude for the geographic CRS; feature skipped"));
         keep = false;
       } else if (!(r.geometry_length_m > 0))
-        problems.push_back(detail::recordProblem("zero_length", Severity::Error, r,
+        problems.push_back(reachProblem("zero_length", Severity::Error, r,
                                                  "the line has zero length"));
     }
     const bool has_id = attrs.read(*f, r, problems);
@@ -200,7 +201,7 @@ void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const L
     for (std::size_t k = first_problem; k < problems.size(); ++k)
       if (problems[k].reach_id.empty()) problems[k].reach_id = r.id;
     if (keep && has_id && !seen.insert(r.id).second) {
-      problems.push_back(detail::recordProblem(
+      problems.push_back(reachProblem(
           "duplicate_id", Severity::Error, r,
           fmt::format("reach id {} is used by an earlier feature; feature skipped", r.id)));
       keep = false;

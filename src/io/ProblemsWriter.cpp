@@ -11,6 +11,7 @@
 
 #include <unistd.h>
 
+#include "GdalSupport.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Gdal.hpp"
 #include "reachwise/network/Strahler.hpp"
@@ -24,17 +25,7 @@ using network::ReachGraph;
 [[noreturn]] void fail(const std::string& path, const std::string& what) {
   InputLocation at;
   at.file = path;
-  const std::string gdal = CPLGetLastErrorMsg();
-  throw InputError(at, gdal.empty() ? what : what + " (" + gdal + ")");
-}
-
-std::unique_ptr<OGRSpatialReference> spatialReference(const network::ReachTable& table) {
-  if (table.crs_wkt.empty()) return nullptr;
-  auto srs = std::make_unique<OGRSpatialReference>();
-  if (srs->importFromWkt(table.crs_wkt.c_str()) != OGRERR_NONE) return nullptr;
-  // Coordinates are stored x = easting/longitude, as the reader gave them.
-  srs->SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
-  return srs;
+  throwWithGdalMessage(at, what);
 }
 
 void addField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
@@ -148,7 +139,7 @@ void writeAll(const std::string& path, const std::filesystem::path& tmp, const R
   std::unique_ptr<GDALDataset> ds(
       driver->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
   if (!ds) fail(path, "cannot create the output file");
-  const auto srs = spatialReference(graph.table());
+  const auto srs = spatialReferenceFromWkt(graph.table().crs_wkt);
   // One transaction: a GeoPackage commits row by row otherwise.
   if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
   writeProblemLayer(path, *ds, srs.get(), problems);

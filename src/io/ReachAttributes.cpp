@@ -10,6 +10,7 @@
 namespace reachwise::io::detail {
 
 using network::Problem;
+using network::reachProblem;
 using network::ProblemList;
 using network::ReachRecord;
 using network::Severity;
@@ -46,21 +47,6 @@ std::string fieldList(const OGRFeatureDefn& defn) {
 }
 
 }  // namespace
-
-Problem recordProblem(std::string code, Severity severity, const ReachRecord& r,
-                      std::string message) {
-  Problem p;
-  p.code = std::move(code);
-  p.severity = severity;
-  p.fid = r.fid;
-  p.reach_id = r.id;
-  if (!r.line.empty()) {
-    p.x = r.line.front().x;
-    p.y = r.line.front().y;
-  }
-  p.message = std::move(message);
-  return p;
-}
 
 ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config,
                                  InputLocation where)
@@ -139,7 +125,7 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
     ok = false;
   }
   if (!ok || !std::isfinite(d)) {
-    problems.push_back(recordProblem(
+    problems.push_back(reachProblem(
         "invalid_attribute", Severity::Error, r,
         fmt::format("field {} ({}): \"{}\" is not a finite number", spec.name, canonical,
                     f.GetFieldAsString(idx))));
@@ -154,14 +140,14 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
 bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& problems) const {
   const Value id = text(f, "reach_id");
   if (id.state != Value::State::Ok) {
-    problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
                                      fmt::format("field {} (reach_id) is empty; feature skipped",
                                                  config_.field("reach_id").name)));
     return false;
   }
   r.id = id.text;
   if (r.id.find_first_of(";,") != std::string::npos)
-    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
                                      "reach ids must not contain ';' or ',' (they separate the "
                                      "branches of a bifurcation in to_reach)"));
   if (hasField("to_reach")) {
@@ -186,7 +172,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
     return;
   }
   if (!(len.number > 0)) {
-    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
                                      fmt::format("field {} (length) must be > 0, got {}",
                                                  config_.field("length").name, len.number)));
     return;
@@ -194,7 +180,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
   r.length_m = len.number;
   const double g = r.geometry_length_m;
   if (g > 0 && std::abs(len.number - g) > 0.1 * g)
-    problems.push_back(recordProblem(
+    problems.push_back(reachProblem(
         "length_mismatch", Severity::Warning, r,
         fmt::format("length field says {:.1f} m but the line measures {:.1f} m", len.number, g)));
 }
@@ -211,13 +197,13 @@ void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
   }
   r.section.bed_slope = slope;
   if (std::isnan(slope)) {
-    problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
                                      "no bed slope (slope field empty and no elevations)"));
   } else if (!(slope > 0)) {
-    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
                                      fmt::format("bed slope must be > 0, got {}", slope)));
   } else if (slope > 0.3) {
-    problems.push_back(recordProblem("implausible_attribute", Severity::Warning, r,
+    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
                                      fmt::format("bed slope {} is steeper than 0.3", slope)));
   }
 }
@@ -228,14 +214,14 @@ namespace {
 bool checkRange(double v, bool ok, const char* what, const std::string& rule,
                 const ReachRecord& r, ProblemList& problems) {
   if (std::isnan(v) || ok) return true;
-  problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+  problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
                                    fmt::format("{} must be {}, got {}", what, rule, v)));
   return false;
 }
 
 void requireValue(double v, const char* what, const ReachRecord& r, ProblemList& problems) {
   if (!std::isnan(v)) return;
-  problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+  problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
                                    fmt::format("{} is required and not given", what)));
 }
 
@@ -251,7 +237,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
   } else if (name == "circle") {
     sec.shape = Shape::Circle;
   } else {
-    problems.push_back(recordProblem(
+    problems.push_back(reachProblem(
         "invalid_attribute", Severity::Error, r,
         fmt::format("field {} (shape): \"{}\" is not trapezoid or circle",
                     config_.field("shape").name, shape.text)));
@@ -260,7 +246,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
   requireValue(sec.manning_n, "manning_n", r, problems);
   if (checkRange(sec.manning_n, sec.manning_n > 0, "manning_n", "> 0", r, problems) &&
       sec.manning_n > 0.3)
-    problems.push_back(recordProblem("implausible_attribute", Severity::Warning, r,
+    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
                                      fmt::format("manning_n {} is above 0.3", sec.manning_n)));
   if (sec.shape == Shape::Circle) {
     sec.diameter_m = number(f, "diameter", length_scale_, r, problems).number;
@@ -275,7 +261,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
   checkRange(sec.bottom_width_m, sec.bottom_width_m >= 0, "bottom_width", ">= 0", r, problems);
   checkRange(z, z >= 0, "side_slope", ">= 0", r, problems);
   if (sec.bottom_width_m == 0 && sec.side_slope == 0)
-    problems.push_back(recordProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
                                      "bottom_width and side_slope are both 0 (no channel)"));
   readTwoStage(f, r, problems);
 }
@@ -287,7 +273,7 @@ void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
   const double wf = number(f, "floodplain_width", length_scale_, r, problems).number;
   if (std::isnan(yb) && std::isnan(wf)) return;
   if (std::isnan(yb) != std::isnan(wf)) {
-    problems.push_back(recordProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
                                      "a two-stage section needs both bank_depth and "
                                      "floodplain_width"));
     return;
@@ -301,7 +287,7 @@ void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
   requireValue(sec.floodplain_n, "floodplain_n (two-stage section)", r, problems);
   if (checkRange(sec.floodplain_n, sec.floodplain_n > 0, "floodplain_n", "> 0", r, problems) &&
       sec.floodplain_n > 0.3)
-    problems.push_back(recordProblem("implausible_attribute", Severity::Warning, r,
+    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
                                      fmt::format("floodplain_n {} is above 0.3", sec.floodplain_n)));
 }
 

@@ -11,6 +11,7 @@
 #include "reachwise/io/NetworkConfig.hpp"
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachTable.hpp"
+#include "reachwise/network/ReachProblem.hpp"
 
 namespace reachwise::io::detail {
 
@@ -52,9 +53,5 @@ private:
   std::map<std::string, int, std::less<>> index_;  ///< canonical name -> field index, -1 absent
   double length_scale_ = 1.0;                      ///< metres per unit of widths/depths/lengths
 };
-
-/// A problem tied to one record.
-network::Problem recordProblem(std::string code, network::Severity severity,
-                               const network::ReachRecord& r, std::string message);
 
 }  // namespace reachwise::io::detail

@@ -9,6 +9,7 @@
 
 #include <unistd.h>
 
+#include "GdalSupport.hpp"
 #include "ResultsTables.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Gdal.hpp"
@@ -26,17 +27,7 @@ namespace {
   InputLocation at;
   at.file = file.string();
   at.layer = layer;
-  const std::string gdal = CPLGetLastErrorMsg();
-  throw InputError(at, gdal.empty() ? what : what + " (" + gdal + ")");
-}
-
-std::unique_ptr<OGRSpatialReference> spatialReference(const network::ReachTable& table) {
-  if (table.crs_wkt.empty()) return nullptr;
-  auto srs = std::make_unique<OGRSpatialReference>();
-  if (srs->importFromWkt(table.crs_wkt.c_str()) != OGRERR_NONE) return nullptr;
-  // Coordinates are x = easting/longitude, as the reader gave them.
-  srs->SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
-  return srs;
+  throwWithGdalMessage(at, what);
 }
 
 void addField(const fs::path& file, OGRLayer& layer, const Column& column) {
@@ -269,7 +260,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   REACHWISE_ASSERT(results.reaches.size() == plan_.size());
   REACHWISE_ASSERT(plan_.record.size() == plan_.size());
   const int offset = timeOffsetMin(results.axis.utc_offset_min);
-  const auto srs = spatialReference(table_);
+  const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
 
   OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
                                   results::reachColumns());

@@ -9,6 +9,7 @@
 #include <queue>
 
 #include "GeosHandle.hpp"
+#include "reachwise/network/ReachProblem.hpp"
 
 namespace reachwise::network::geos {
 
@@ -19,19 +20,6 @@ bool usable(const ReachRecord& r) {
   for (const auto& p : r.line)
     if (!std::isfinite(p.x) || !std::isfinite(p.y)) return false;
   return true;
-}
-
-Problem makeProblem(std::string code, Severity severity, const ReachRecord& r, double x, double y,
-                    std::string message) {
-  Problem p;
-  p.code = std::move(code);
-  p.severity = severity;
-  p.fid = r.fid;
-  p.reach_id = r.id;
-  p.x = x;
-  p.y = y;
-  p.message = std::move(message);
-  return p;
 }
 
 // ---------------------------------------------------------------- splitting
@@ -99,7 +87,7 @@ std::vector<std::vector<double>> findCuts(const GeosContext& ctx, const ReachTab
         GEOSGeomGetLength_r(ctx.get(), lines[j].get(), &len);
         if (!(m > tol && m < len - tol)) continue;  // near an end: snapping handles it
         cuts[j].push_back(m);
-        problems.push_back(makeProblem(
+        problems.push_back(reachProblem(
             "split_line", Severity::Warning, rs[j], end->x, end->y,
             fmt::format("line {} is cut where the end of {} meets it", rs[j].id, rs[i].id)));
       }
@@ -214,7 +202,7 @@ void flip(ReachRecord& r, Graph& g, std::size_t i, ProblemList& problems, const 
   std::reverse(r.line.begin(), r.line.end());
   std::swap(g.from[i], g.to[i]);
   std::swap(r.up_elevation_m, r.down_elevation_m);
-  problems.push_back(makeProblem("flipped_line", Severity::Warning, r, r.line.front().x,
+  problems.push_back(reachProblem("flipped_line", Severity::Warning, r, r.line.front().x,
                                  r.line.front().y,
                                  fmt::format("line {} reversed: {}", r.id, why)));
 }
@@ -404,7 +392,7 @@ void linkDownstream(ReachTable& table, const Graph& g, ProblemList& problems) {
     r.to_reach.reset();
     if (g.from[i] == npos) continue;
     if (g.from[i] == g.to[i]) {
-      problems.push_back(makeProblem("closed_line", Severity::Error, r, r.line.front().x,
+      problems.push_back(reachProblem("closed_line", Severity::Error, r, r.line.front().x,
                                      r.line.front().y,
                                      fmt::format("both ends of line {} meet at one node", r.id)));
       continue;
@@ -453,7 +441,7 @@ std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g
     if (best_j == npos) continue;
     ++gaps;
     const auto& r = table.reaches[i];
-    problems.push_back(makeProblem(
+    problems.push_back(reachProblem(
         "probable_gap", Severity::Error, r, p.x, p.y,
         fmt::format("an end of {} is {:.3g} CRS units from {} but not connected (snap tolerance "
                     "{:.3g})",

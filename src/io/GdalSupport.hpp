@@ -1,0 +1,21 @@
+#pragma once
+// GDAL helpers shared by the readers and writers in src/io (private).
+
+#include <memory>
+#include <string>
+
+#include "reachwise/Error.hpp"
+
+class OGRSpatialReference;
+
+namespace reachwise::io {
+
+/// Throws InputError at `where` with `what`, followed by GDAL's last error
+/// message in parentheses when there is one.
+[[noreturn]] void throwWithGdalMessage(const InputLocation& where, const std::string& what);
+
+/// The CRS of a layer from its WKT, with coordinates taken x = easting /
+/// longitude as the reader stored them; null for an empty or unreadable WKT.
+std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt);
+
+}  // namespace reachwise::io
