@@ -4,34 +4,20 @@
 #include <fmt/ostream.h>
 
 #include <cmath>
-#include <filesystem>
 #include <iostream>
 #include <memory>
 
+#include "Common.hpp"
 #include "reachwise/Error.hpp"
-#include "reachwise/io/NetworkReader.hpp"
 #include "reachwise/io/ProblemsWriter.hpp"
 #include "reachwise/network/NetworkSummary.hpp"
-#include "reachwise/network/ReachGraph.hpp"
-#include "reachwise/network/Validation.hpp"
 
 namespace reachwise::cli {
 
 namespace {
 
-using network::Problem;
 using network::ProblemList;
 using network::Severity;
-
-std::string coordinate(double v) { return std::isfinite(v) ? fmt::format("{}", v) : "-"; }
-
-/// `severity code reach_id fid (x, y): sentence` (docs/formats.md).
-std::string problemLine(const Problem& p) {
-  return fmt::format("{} {} {} {} ({}, {}): {}", io::severityName(p.severity),
-                     p.code, p.reach_id.empty() ? "-" : p.reach_id,
-                     p.fid < 0 ? std::string("-") : std::to_string(p.fid), coordinate(p.x),
-                     coordinate(p.y), p.message);
-}
 
 void printSummary(std::ostream& out, const network::ReachTable& table,
                   const network::NetworkSummary& s, const io::ReadSummary& read,
@@ -62,56 +48,21 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
              problems.size() - errors - warnings, problems.size() - errors - warnings == 1 ? "" : "s");
 }
 
-/// A plain path (not a connection string such as "PG:..." nor a GDAL
-/// virtual path) that does not exist gets a plainer message than GDAL's.
-void requireExisting(const std::string& source) {
-  const bool plain_path = source.find(':') == std::string::npos && source.rfind("/vsi", 0) != 0;
-  if (!plain_path || std::filesystem::exists(source)) return;
-  InputLocation at;
-  at.file = source;
-  throw InputError(at, "no such file or directory");
-}
-
 int check(const CheckOptions& options, std::ostream& out, std::ostream& err) {
-  requireExisting(options.network);
-  if (!options.config.empty()) requireExisting(options.config);
-  io::ReadOptions read_options;
-  if (!options.config.empty()) read_options.config = io::NetworkConfig::fromFile(options.config);
-  read_options.layer = options.layer;
-
-  ProblemList problems;
-  io::ReadSummary read;
-  const auto table = io::readNetwork(options.network, read_options, problems, &read);
-  const network::ReachGraph graph(table);
-  network::mergeProblems(problems, network::validate(graph));
-
-  printSummary(out, table, network::summarize(graph), read, problems);
-  for (const auto& p : problems) fmt::print(err, "{}\n", problemLine(p));
+  const auto net = loadNetwork(options.network, options.layer, options.config);
+  printSummary(out, net->table, network::summarize(*net->graph), net->read, net->problems);
+  for (const auto& p : net->problems) fmt::print(err, "{}\n", problemLine(p));
   if (!options.problems.empty()) {
-    io::writeProblemsGeoPackage(options.problems, graph, problems);
+    io::writeProblemsGeoPackage(options.problems, *net->graph, net->problems);
     fmt::print(out, "wrote          {}\n", options.problems);
   }
-  return network::hasErrors(problems) ? kExitInput : kExitOk;
+  return network::hasErrors(net->problems) ? kExitInput : kExitOk;
 }
 
 }  // namespace
 
 int runCheck(const CheckOptions& options, std::ostream& out, std::ostream& err) {
-  try {
-    return check(options, out, err);
-  } catch (const InternalError& e) {
-    fmt::print(err, "internal error (please report): {}\n", e.what());
-    return kExitBug;
-  } catch (const Error& e) {
-    fmt::print(err, "error: {}\n", e.what());
-    return kExitInput;
-  } catch (const std::bad_alloc&) {
-    fmt::print(err, "error: out of memory while checking {}\n", options.network);
-    return kExitInput;
-  } catch (const std::exception& e) {
-    fmt::print(err, "internal error (please report): {}\n", e.what());
-    return kExitBug;
-  }
+  return guarded(err, options.network, [&] { return check(options, out, err); });
 }
 
 void addCheckCommand(CLI::App& app, Runner& chosen) {

@@ -12,13 +12,11 @@
 #include <memory>
 #include <set>
 
+#include "Common.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/ForcingCsv.hpp"
 #include "reachwise/io/IsoTime.hpp"
-#include "reachwise/io/NetworkReader.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
-#include "reachwise/network/ReachGraph.hpp"
-#include "reachwise/network/Validation.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
 
 namespace reachwise::cli {
@@ -95,17 +93,9 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
     fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], s.attenuation_pct,
                hours(s.travel_time_s));
   }
-  double in = 0, out_v = 0, stored = 0, internal = 0;
-  for (std::uint32_t i = 0; i < plan.size(); ++i) {
-    const auto& v = r.reaches[i].volume;
-    in += v.lateral_m3;
-    internal += v.inflow_m3;
-    stored += v.storage_change_m3;
-    if (plan.isOutlet(i)) out_v += v.outflow_m3; else internal -= v.outflow_m3;
-  }
-  in += internal;
-  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} %\n", in,
-             out_v, stored, in > 0 ? 100 * (in - out_v - stored) / in : 0.0);
+  const routing::VolumeBalance v = routing::networkVolumeBalance(plan, r);
+  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} %\n",
+             v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
   fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
   for (const auto& w : r.warnings) fmt::print(out, "  {}\n", w);
   fmt::print(out, "open in a GIS: {}\n", gpkg);
@@ -113,21 +103,16 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
 }
 
 int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
-  io::ReadOptions read_options;
-  if (!o.config.empty()) read_options.config = io::NetworkConfig::fromFile(o.config);
-  read_options.layer = o.layer;
-  network::ProblemList problems;
-  const network::ReachTable table = io::readNetwork(o.network, read_options, problems);
-  const network::ReachGraph graph(table);
-  network::mergeProblems(problems, network::validate(graph));
+  const auto net = loadNetwork(o.network, o.layer, o.config);
+  const network::ReachTable& table = net->table;
+  const network::ProblemList& problems = net->problems;
   if (network::hasErrors(problems)) {
     for (const auto& p : problems)
-      if (p.severity == network::Severity::Error)
-        fmt::print(err, "error {} reach {} feature {}: {}\n", p.code, p.reach_id, p.fid, p.message);
+      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", problemLine(p));
     fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
     return kExitInput;
   }
-  const network::NetworkPlan plan = graph.freeze();
+  const network::NetworkPlan plan = net->graph->freeze();
 
   io::CsvForcingOptions fo;
   if (o.dt_s > 0) fo.dt_s = o.dt_s;
@@ -203,20 +188,12 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
 }
 
 int runGuarded(const RouteOptions& o) {
-  try {
-    return route(o, std::cout, std::cerr);
-  } catch (const InternalError& e) {
-    fmt::print(stderr, "internal error (please report): {}\n", e.what());
-    return kExitBug;
-  } catch (const Error& e) {
-    fmt::print(stderr, "error: {}\n", e.what());
-    return kExitInput;
-  }
+  return guarded(std::cerr, o.network, [&] { return route(o, std::cout, std::cerr); });
 }
 
 }  // namespace
 
-void addRouteCommand(CLI::App& app, Runner& chosen) {
+void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
   auto o = std::make_shared<RouteOptions>();
   CLI::App* sub = app.add_subcommand("route", "Route inflow hydrographs through a network and write the results");
   sub->add_option("NETWORK", o->network, "Network: any path or connection string GDAL opens as vector data")->required();
@@ -232,19 +209,18 @@ void addRouteCommand(CLI::App& app, Runner& chosen) {
   sub->add_flag("--write-back", o->write_back, "Write the result layers into the input GeoPackage (prefix rw_)");
   sub->add_flag("--overwrite", o->overwrite, "Replace existing outputs");
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
-  sub->callback([&chosen, o, sub] {
-    o->command_line = "reachwise route " + o->network;
-    (void)sub;
+  sub->callback([&chosen, o, command_line] {
+    o->command_line = command_line;
     chosen = [o] { return runGuarded(*o); };
   });
 }
 
-void addDemoCommand(CLI::App& app, Runner& chosen) {
+void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
   auto dir = std::make_shared<std::string>("reachwise-demo");
   CLI::App* sub = app.add_subcommand("demo", "Route the shipped sample network with its storm scenario");
   sub->add_option("--out", *dir, "Output folder (default reachwise-demo)");
-  sub->callback([&chosen, dir] {
-    chosen = [dir] {
+  sub->callback([&chosen, dir, command_line] {
+    chosen = [dir, command_line] {
       const fs::path sample = REACHWISE_SAMPLE_DIR;
       RouteOptions o;
       o.network = (sample / "network.gpkg").string();
@@ -252,7 +228,7 @@ void addDemoCommand(CLI::App& app, Runner& chosen) {
       o.lateral = (sample / "lateral.csv").string();
       o.demo = true;
       o.overwrite = true;  // the demo folder is ours to refresh
-      o.command_line = "reachwise demo --out " + *dir;
+      o.command_line = command_line;
       std::error_code ec;
       fs::create_directories(*dir, ec);
       o.out = (fs::path(*dir) / "demo-results.gpkg").string();

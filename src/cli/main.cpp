@@ -17,8 +17,10 @@ int main(int argc, char** argv) {
   app.require_subcommand(0, 1);
   reachwise::cli::Runner chosen;
   reachwise::cli::addCheckCommand(app, chosen);
-  reachwise::cli::addRouteCommand(app, chosen);
-  reachwise::cli::addDemoCommand(app, chosen);
+  std::string command_line = "reachwise";
+  for (int i = 1; i < argc; ++i) command_line += std::string(" ") + argv[i];
+  reachwise::cli::addRouteCommand(app, chosen, command_line);
+  reachwise::cli::addDemoCommand(app, chosen, command_line);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {

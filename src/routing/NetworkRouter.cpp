@@ -265,4 +265,19 @@ NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& ax
   return scheduler.run();
 }
 
+VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const NetworkResults& results) {
+  VolumeBalance b;
+  for (std::uint32_t i = 0; i < plan.size(); ++i) {
+    const VolumeBalance& v = results.reaches[i].volume;
+    b.inflow_m3 += v.inflow_m3;  // less what arrived from upstream, below
+    b.lateral_m3 += v.lateral_m3;
+    b.storage_change_m3 += v.storage_change_m3;
+    if (plan.isOutlet(i)) b.outflow_m3 += v.outflow_m3;
+    else b.inflow_m3 -= v.outflow_m3;
+  }
+  const double entered = b.inflow_m3 + b.lateral_m3;
+  b.error_pct = entered > 0 ? 100.0 * (entered - b.outflow_m3 - b.storage_change_m3) / entered : 0.0;
+  return b;
+}
+
 }  // namespace reachwise::routing
