@@ -15,6 +15,9 @@
 #include <regex>
 #include <set>
 #include <sstream>
+#include <string>
+
+#include "support/Scratch.hpp"
 
 namespace {
 
@@ -34,7 +37,7 @@ std::string slurp(const std::filesystem::path& p) {
 }
 
 Run run(const std::string& args) {
-  const auto dir = std::filesystem::path(::testing::TempDir());
+  const auto dir = testsupport::testScratchDir();
   const auto out = dir / "check_out.txt", err = dir / "check_err.txt";
   const auto cmd = fmt::format("{} {} >{} 2>{}", kBinary, args, out.string(), err.string());
   const int status = std::system(cmd.c_str());
@@ -124,7 +127,7 @@ struct Row {
 
 /// A small invented layer (EPSG:32633) written with GDAL.
 std::string writeLayer(const std::string& name, const std::vector<Row>& rows) {
-  const auto path = (std::filesystem::path(::testing::TempDir()) / name).string();
+  const auto path = (testsupport::testScratchDir() / name).string();
   std::filesystem::remove(path);
   GDALAllRegister();
   std::unique_ptr<GDALDataset> ds(
@@ -270,7 +273,7 @@ TEST(CheckCommand, UsageErrorsExitTwo) {
 }
 
 TEST(CheckCommand, ProblemsGeoPackageHoldsProblemsAndNetwork) {
-  const auto out = std::filesystem::path(::testing::TempDir()) / "check_problems.gpkg";
+  const auto out = testsupport::testScratchDir() / "check_problems.gpkg";
   std::filesystem::remove(out);
   const auto r = run(fmt::format("check {}cycle.gpkg --problems {}", kSamples, out.string()));
   EXPECT_EQ(r.code, 1);
@@ -303,7 +306,7 @@ TEST(CheckCommand, ProblemsGeoPackageHoldsProblemsAndNetwork) {
 TEST(CheckCommand, StrahlerInProblemsFileMatchesAHandCount) {
   // The clean sample: read back strahler and check the Strahler (1957) rule on
   // every reach against its upstream reaches, using to_reach as GDAL reads it.
-  const auto out = std::filesystem::path(::testing::TempDir()) / "check_clean.gpkg";
+  const auto out = testsupport::testScratchDir() / "check_clean.gpkg";
   const auto r = run(fmt::format("check {}network.gpkg --problems {}", kSamples, out.string()));
   ASSERT_EQ(r.code, 0) << r.err;
   const auto ds = open(out.string());

@@ -9,6 +9,7 @@
 #include <string>
 
 #include "reachwise/io/Gdal.hpp"
+#include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
 
@@ -21,8 +22,8 @@ int run(const std::string& args) {
 }  // namespace
 
 TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {
-  const fs::path dir = fs::temp_directory_path() / "reachwise-demo-test";
-  fs::remove_all(dir);
+  const testsupport::TempDir tmp;
+  const fs::path dir = tmp.path() / "demo";
   ASSERT_EQ(run("demo --out " + dir.string()), 0);
   reachwise::io::ensureGdal();
   const fs::path gpkg = dir / "demo-results.gpkg";
@@ -46,13 +47,11 @@ TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {
     EXPECT_GT(f->GetFieldAsDouble("peak_q"), 0.0);
     EXPECT_LT(std::abs(f->GetFieldAsDouble("volume_error_pct")), 1.0);
   }
-  fs::remove_all(dir);
 }
 
 TEST(RouteCommand, BadForcingLeavesNoOutput) {
-  const fs::path dir = fs::temp_directory_path() / "reachwise-route-bad";
-  fs::remove_all(dir);
-  fs::create_directories(dir);
+  const testsupport::TempDir tmp;
+  const fs::path& dir = tmp.path();
   {
     FILE* f = std::fopen((dir / "in.csv").c_str(), "w");
     std::fputs("reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,1\nNOPE,2026-05-01T01:00:00Z,2\n", f);
@@ -64,5 +63,4 @@ TEST(RouteCommand, BadForcingLeavesNoOutput) {
             1);
   EXPECT_FALSE(fs::exists(out));
   for (const auto& e : fs::directory_iterator(dir)) EXPECT_EQ(e.path().extension(), ".csv") << e.path();
-  fs::remove_all(dir);
 }

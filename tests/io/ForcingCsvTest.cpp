@@ -1,3 +1,4 @@
+#include "support/Scratch.hpp"
 #include "reachwise/io/ForcingCsv.hpp"
 
 #include <ctime>
@@ -20,15 +21,6 @@ namespace {
 
 class ForcingCsvTest : public ::testing::Test {
 protected:
-  void SetUp() override {
-    const auto* info = ::testing::UnitTest::GetInstance()->current_test_info();
-    dir_ = fs::temp_directory_path() /
-           (std::string("reachwise_forcing_csv_") + info->name() + "_" + std::to_string(::getpid()));
-    fs::remove_all(dir_);
-    fs::create_directories(dir_);
-  }
-  void TearDown() override { fs::remove_all(dir_); }
-
   fs::path write(const std::string& name, const std::string& text) {
     const fs::path p = dir_ / name;
     std::ofstream(p, std::ios::binary) << text;
@@ -55,20 +47,10 @@ protected:
     return {};
   }
 
-  fs::path dir_;
+  testsupport::TempDir tmp_;
+  const fs::path dir_ = tmp_.path();
 };
 
-/// Epoch seconds of a UTC wall-clock time by glibc's timegm, a reference
-/// independent of the parser.
-std::int64_t utc(int y, int mo, int d, int h, int mi = 0) {
-  std::tm tm{};
-  tm.tm_year = y - 1900;
-  tm.tm_mon = mo - 1;
-  tm.tm_mday = d;
-  tm.tm_hour = h;
-  tm.tm_min = mi;
-  return static_cast<std::int64_t>(timegm(&tm));
-}
 
 const char* kLong =
     "reach_id,time,discharge\n"
@@ -95,7 +77,7 @@ TEST_F(ForcingCsvTest, LongAndWideFormsGiveTheSameSeries) {
   EXPECT_EQ(a.axis.steps, 3u);
   EXPECT_EQ(b.axis.steps, 3u);
   EXPECT_DOUBLE_EQ(a.axis.dt_s, 3600.0);
-  EXPECT_EQ(a.axis.start_unix_s, utc(2026, 5, 1, 0));
+  EXPECT_EQ(a.axis.start_unix_s, testsupport::utcSeconds(2026, 5, 1, 0));
   EXPECT_EQ(a.inflow.at("R12"), (std::vector<double>{4.2, 6.5, 5.0}));
   EXPECT_EQ(a.inflow.at("R13"), (std::vector<double>{1.0, 1.5, 1.25}));
   EXPECT_TRUE(a.lateral.empty());
@@ -108,12 +90,12 @@ TEST_F(ForcingCsvTest, OffsetTimesGiveTheUtcInstantAndKeepTheOffset) {
                                          "2026-05-01T03:00:00+02:00,1\n"
                                          "2026-05-01T04:00:00+02:00,2\n"),
                                    std::nullopt);
-  EXPECT_EQ(f.axis.start_unix_s, utc(2026, 5, 1, 1));  // 03:00 at +02:00 is 01:00 UTC
+  EXPECT_EQ(f.axis.start_unix_s, testsupport::utcSeconds(2026, 5, 1, 1));  // 03:00 at +02:00 is 01:00 UTC
   EXPECT_EQ(f.axis.utc_offset_min, 120);
   // Naive times are UTC; a space may replace the T.
   const Forcing n = readForcingCsv(write("naive.csv", "time,R1\n2026-05-01 01:00,1\n2026-05-01 02:00,2\n"),
                                    std::nullopt);
-  EXPECT_EQ(n.axis.start_unix_s, utc(2026, 5, 1, 1));
+  EXPECT_EQ(n.axis.start_unix_s, testsupport::utcSeconds(2026, 5, 1, 1));
   EXPECT_EQ(n.axis.utc_offset_min, 0);
 }
 
@@ -176,7 +158,7 @@ TEST_F(ForcingCsvTest, CommonAxisHoldsSeriesOutsideTheirDataAndSaysSo) {
                              "reach_id,time,discharge\n"
                              "R2,2026-05-01T01:00Z,0.5\nR2,2026-05-01T02:00Z,0.7\nR2,2026-05-01T03:00Z,0.2\n");
   const Forcing f = readForcingCsv(in, lat);
-  EXPECT_EQ(f.axis.start_unix_s, utc(2026, 5, 1, 0));
+  EXPECT_EQ(f.axis.start_unix_s, testsupport::utcSeconds(2026, 5, 1, 0));
   EXPECT_EQ(f.axis.steps, 4u);  // 00:00 .. 03:00, the union of both spans
   EXPECT_EQ(f.inflow.at("R1"), (std::vector<double>{1, 3, 3, 3}));
   EXPECT_EQ(f.lateral.at("R2"), (std::vector<double>{0.5, 0.5, 0.7, 0.2}));
@@ -187,8 +169,8 @@ TEST_F(ForcingCsvTest, CommonAxisHoldsSeriesOutsideTheirDataAndSaysSo) {
   EXPECT_EQ(f.lateral_origin, lat.string());
   // An explicit window cuts both.
   CsvForcingOptions window;
-  window.start_unix_s = utc(2026, 5, 1, 1);
-  window.end_unix_s = utc(2026, 5, 1, 2);
+  window.start_unix_s = testsupport::utcSeconds(2026, 5, 1, 1);
+  window.end_unix_s = testsupport::utcSeconds(2026, 5, 1, 2);
   const Forcing w = readForcingCsv(in, lat, window);
   EXPECT_EQ(w.axis.steps, 2u);
   EXPECT_EQ(w.inflow.at("R1"), (std::vector<double>{3, 3}));
@@ -304,7 +286,7 @@ TEST_F(ForcingCsvTest, SeededRandomLongAndWideAgree) {
   wide += "\n";
   std::vector<std::string> rows;
   for (int k = 0; k < steps; ++k) {
-    const std::string t = formatIsoTime(std::int64_t{utc(2026, 5, 1, 0)} + k * 900, 60);
+    const std::string t = formatIsoTime(std::int64_t{testsupport::utcSeconds(2026, 5, 1, 0)} + k * 900, 60);
     wide += t;
     for (int r = 0; r < reaches; ++r) {
       values[r][k] = q(rng);

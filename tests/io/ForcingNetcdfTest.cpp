@@ -1,3 +1,4 @@
+#include "support/Scratch.hpp"
 #include "reachwise/io/ForcingNetcdf.hpp"
 
 #include <netcdf.h>
@@ -20,18 +21,11 @@ namespace {
 
 class ForcingNetcdfTest : public ::testing::Test {
 protected:
-  void SetUp() override {
-    const auto* info = ::testing::UnitTest::GetInstance()->current_test_info();
-    dir_ = fs::temp_directory_path() /
-           (std::string("reachwise_forcing_nc_") + info->name() + "_" + std::to_string(::getpid()));
-    fs::remove_all(dir_);
-    fs::create_directories(dir_);
-  }
-  void TearDown() override { fs::remove_all(dir_); }
   std::size_t filesInDir() const {
     return static_cast<std::size_t>(std::distance(fs::directory_iterator(dir_), fs::directory_iterator()));
   }
-  fs::path dir_;
+  testsupport::TempDir tmp_;
+  const fs::path dir_ = tmp_.path();
 };
 
 Forcing sampleForcing(unsigned seed) {

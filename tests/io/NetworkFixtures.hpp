@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "reachwise/io/Gdal.hpp"
+#include "support/Scratch.hpp"
 
 namespace fixtures {
 
@@ -35,26 +36,7 @@ struct Layer {
   std::vector<Feature> features;
 };
 
-/// A folder under the system temp dir, unique per test, removed afterwards.
-class TempDir {
-public:
-  TempDir() {
-    const auto* info = ::testing::UnitTest::GetInstance()->current_test_info();
-    path_ = std::filesystem::temp_directory_path() /
-            ("reachwise_" + std::string(info->test_suite_name()) + "_" + info->name() + "_" +
-             std::to_string(::getpid()));
-    std::filesystem::remove_all(path_);
-    std::filesystem::create_directories(path_);
-  }
-  ~TempDir() {
-    std::error_code ec;
-    std::filesystem::remove_all(path_, ec);
-  }
-  std::string file(const std::string& name) const { return (path_ / name).string(); }
-
-private:
-  std::filesystem::path path_;
-};
+using testsupport::TempDir;
 
 inline void addLayer(GDALDataset& ds, const Layer& spec) {
   OGRSpatialReference srs;

@@ -14,6 +14,7 @@
 #include <vector>
 
 #include "NetworkFixtures.hpp"
+#include "support/Scratch.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 
@@ -27,13 +28,7 @@ using routing::kNaN;
 
 /// Seconds since the epoch of a UTC wall-clock time, by POSIX timegm().
 double utc(int y, int mo, int d, int h, int mi, double s) {
-  std::tm tm{};
-  tm.tm_year = y - 1900;
-  tm.tm_mon = mo - 1;
-  tm.tm_mday = d;
-  tm.tm_hour = h;
-  tm.tm_min = mi;
-  return static_cast<double>(timegm(&tm)) + s;
+  return static_cast<double>(testsupport::utcSeconds(y, mo, d, h, mi)) + s;
 }
 
 /// Instant of an OGR date-time field (TZ flag 100 = UTC, 15 minutes a unit).

@@ -1,3 +1,4 @@
+#include "support/Scratch.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
 
 #include <netcdf.h>
@@ -21,16 +22,10 @@ namespace {
 class SeriesNetcdfTest : public ::testing::Test {
 protected:
   void SetUp() override {
-    const auto* info = ::testing::UnitTest::GetInstance()->current_test_info();
-    dir_ = fs::temp_directory_path() /
-           (std::string("reachwise_series_nc_") + info->name() + "_" + std::to_string(::getpid()));
-    fs::remove_all(dir_);
-    fs::create_directories(dir_);
     axis_.start_unix_s = 1777593600;  // 2026-05-01T00:00:00Z (Python calendar.timegm)
     axis_.dt_s = 900;
     axis_.steps = 24;
   }
-  void TearDown() override { fs::remove_all(dir_); }
   std::size_t filesInDir() const {
     return static_cast<std::size_t>(std::distance(fs::directory_iterator(dir_), fs::directory_iterator()));
   }
@@ -39,7 +34,8 @@ protected:
     for (std::size_t i = 0; i < n; ++i) out.push_back(fmt::format("Brook-{}", i));
     return out;
   }
-  fs::path dir_;
+  testsupport::TempDir tmp_;
+  const fs::path dir_ = tmp_.path();
   routing::TimeAxis axis_;
 };
 
