@@ -17,8 +17,10 @@ namespace reachwise::cli {
 
 namespace {
 
-/// A plain path (not a connection string such as "PG:..." nor a GDAL
-/// virtual path) that does not exist gets a plainer message than GDAL's.
+std::string coordinate(double v) { return std::isfinite(v) ? fmt::format("{}", v) : "-"; }
+
+}  // namespace
+
 void requireExisting(const std::string& source) {
   const bool plain_path = source.find(':') == std::string::npos && source.rfind("/vsi", 0) != 0;
   if (!plain_path || std::filesystem::exists(source)) return;
@@ -27,9 +29,12 @@ void requireExisting(const std::string& source) {
   throw InputError(at, "no such file or directory");
 }
 
-std::string coordinate(double v) { return std::isfinite(v) ? fmt::format("{}", v) : "-"; }
-
-}  // namespace
+void refuseExisting(const std::string& output, bool overwrite) {
+  if (overwrite || !std::filesystem::exists(output)) return;
+  InputLocation at;
+  at.file = output;
+  throw InputError(at, "already exists; pass --overwrite to replace it");
+}
 
 std::unique_ptr<LoadedNetwork> loadNetwork(const std::string& source, const std::string& layer,
                                            const std::string& config) {
@@ -39,6 +44,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const std::string& source, const std:
   if (!config.empty()) read_options.config = io::NetworkConfig::fromFile(config);
   read_options.layer = layer;
   auto net = std::make_unique<LoadedNetwork>();
+  net->config = read_options.config;
   net->table = io::readNetwork(source, read_options, net->problems, &net->read);
   net->graph.emplace(net->table);
   network::mergeProblems(net->problems, network::validate(*net->graph));

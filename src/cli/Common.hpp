@@ -16,11 +16,20 @@ namespace reachwise::cli {
 
 /// A network as read and validated. Not movable: `graph` refers to `table`.
 struct LoadedNetwork {
+  io::NetworkConfig config;       ///< as read from --config (or the defaults)
   network::ReachTable table;
   io::ReadSummary read;
   network::ProblemList problems;  ///< reader's and graph's, without repeats
   std::optional<network::ReachGraph> graph;
 };
+
+/// A plain path (not a connection string such as "PG:..." nor a GDAL
+/// virtual path) that does not exist is an InputError with a plainer
+/// message than GDAL's.
+void requireExisting(const std::string& source);
+
+/// An existing `output` without `overwrite` is an InputError naming it.
+void refuseExisting(const std::string& output, bool overwrite);
 
 /// Reads `source` (with `layer` and the TOML `config`, either may be empty),
 /// builds the reach graph and validates it. A plain path that does not

@@ -5,19 +5,26 @@
 
 #include <fmt/core.h>
 #include <fmt/ostream.h>
+#include <fmt/ranges.h>
 
 #include <algorithm>
+#include <chrono>
 #include <filesystem>
 #include <iostream>
+#include <map>
 #include <memory>
 #include <set>
+#include <thread>
 
 #include "Common.hpp"
+#include "Progress.hpp"
 #include "reachwise/Error.hpp"
-#include "reachwise/io/ForcingCsv.hpp"
+#include "reachwise/io/ForcingFiles.hpp"
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/io/SeriesNetcdf.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/version.hpp"
 
 namespace reachwise::cli {
 
@@ -26,11 +33,114 @@ namespace {
 namespace fs = std::filesystem;
 
 struct RouteOptions {
-  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv;
+  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc;
+  std::string hydrographs = "auto";
   double dt_s = 0;
+  unsigned threads = 0;
   bool write_back = false, overwrite = false, quiet = false, demo = false;
   std::string command_line;
 };
+
+/// Forwards the series of selected plan reaches to a sink that numbers
+/// them 0..k-1 in plan order (the NetCDF series file holds only those).
+class SelectedSeries final : public routing::SeriesSink {
+public:
+  SelectedSeries(const std::vector<bool>& mask, routing::SeriesSink& inner) : inner_(inner) {
+    position_.assign(mask.size(), kNone);
+    std::uint32_t k = 0;
+    for (std::size_t i = 0; i < mask.size(); ++i)
+      if (mask[i]) position_[i] = k++;
+  }
+  void write(std::uint32_t reach, std::span<const double> q, std::span<const double> d,
+             std::span<const double> v) override {
+    if (position_[reach] != kNone) inner_.write(position_[reach], q, d, v);
+  }
+
+private:
+  static constexpr std::uint32_t kNone = ~0u;
+  std::vector<std::uint32_t> position_;
+  routing::SeriesSink& inner_;
+};
+
+bool flowsIntoConfluence(const network::NetworkPlan& plan, std::uint32_t i) {
+  for (std::uint32_t k = plan.down_offset[i]; k < plan.down_offset[i + 1]; ++k) {
+    const std::uint32_t d = plan.down_reach[k];
+    if (plan.up_offset[d + 1] - plan.up_offset[d] >= 2) return true;
+  }
+  return false;
+}
+
+/// `--hydrographs`: comma-separated `all`, `none`, `outlets`, `confluences`
+/// (the reaches whose outflow meets another at a confluence: every branch),
+/// `auto` (all below 10,000 reaches, else outlets and confluences) and
+/// reach ids. Unknown ids are an error listing them all.
+io::SeriesSelection chooseSeries(const std::string& spec, const network::NetworkPlan& plan) {
+  const std::uint32_t n = static_cast<std::uint32_t>(plan.size());
+  std::vector<bool> pick(n, false);
+  std::map<std::string_view, std::uint32_t> by_id;
+  std::vector<std::string> unknown;
+  auto mark = [&](auto&& wanted) {
+    for (std::uint32_t i = 0; i < n; ++i)
+      if (wanted(i)) pick[i] = true;
+  };
+  auto outlets = [&](std::uint32_t i) { return plan.isOutlet(i); };
+  auto confluences = [&](std::uint32_t i) { return flowsIntoConfluence(plan, i); };
+  std::size_t start = 0;
+  while (start <= spec.size()) {
+    std::size_t end = spec.find(',', start);
+    if (end == std::string::npos) end = spec.size();
+    const std::string token = spec.substr(start, end - start);
+    start = end + 1;
+    if (token.empty() || token == "none") continue;
+    if (token == "all" || (token == "auto" && n < 10000)) {
+      mark([](std::uint32_t) { return true; });
+    } else if (token == "auto") {
+      mark(outlets);
+      mark(confluences);
+    } else if (token == "outlets") {
+      mark(outlets);
+    } else if (token == "confluences") {
+      mark(confluences);
+    } else {
+      if (by_id.empty())
+        for (std::uint32_t i = 0; i < n; ++i) by_id.emplace(plan.reach_id[i], i);
+      auto it = by_id.find(token);
+      if (it == by_id.end())
+        unknown.push_back(token);
+      else
+        pick[it->second] = true;
+    }
+  }
+  if (!unknown.empty()) {
+    InputLocation at;
+    at.field = "--hydrographs";
+    throw InputError(at, fmt::format("reach ids not in the network: {}", fmt::join(unknown, ", ")));
+  }
+  std::vector<std::uint32_t> chosen;
+  for (std::uint32_t i = 0; i < n; ++i)
+    if (pick[i]) chosen.push_back(i);
+  return chosen.size() == n ? io::SeriesSelection::all() : io::SeriesSelection::of(std::move(chosen));
+}
+
+/// Base flow of each plan reach (the `base_flow` attribute; none = 0).
+std::vector<double> baseFlows(const network::ReachTable& table, const network::NetworkPlan& plan) {
+  std::vector<double> q(plan.size(), 0.0);
+  bool any = false;
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    const double b = table.reaches[plan.record[i]].base_flow_m3s;
+    if (b > 0) q[i] = b, any = true;
+  }
+  return any ? q : std::vector<double>{};
+}
+
+/// Sub-reach × sub-step cell updates of a whole run.
+double cellUpdates(const routing::NetworkResults& r) {
+  double cells = 0;
+  const double steps = r.axis.steps > 1 ? static_cast<double>(r.axis.steps - 1) : 0.0;
+  for (const auto& s : r.reaches)
+    cells += static_cast<double>(s.numerics.subreaches) * s.numerics.substeps * steps;
+  return cells;
+}
 
 /// Serves the io forcing to the scheduler by plan index.
 class ForcingAdapter : public routing::ForcingProvider {
@@ -116,23 +226,25 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
 
   io::CsvForcingOptions fo;
   if (o.dt_s > 0) fo.dt_s = o.dt_s;
-  const io::MemoryForcingSource forcing(io::readForcingCsv(
-      o.inflow.empty() ? std::nullopt : std::optional<fs::path>(o.inflow),
-      o.lateral.empty() ? std::nullopt : std::optional<fs::path>(o.lateral), fo));
+  fo.unit = net->config.units;
+  auto optionalPath = [](const std::string& p) {
+    return p.empty() ? std::nullopt : std::optional<fs::path>(p);
+  };
+  for (const std::string* f : {&o.inflow, &o.lateral})
+    if (!f->empty()) requireExisting(*f);
+  const io::OpenedForcing opened = io::openForcing(optionalPath(o.inflow), optionalPath(o.lateral), fo);
+  const io::ForcingSource& forcing = *opened.source;
   std::set<std::string, std::less<>> known(plan.reach_id.begin(), plan.reach_id.end());
   io::requireKnownReaches(forcing, known);
   const routing::TimeAxis& axis = forcing.axis();
 
   // Outputs: a new GeoPackage (temporary name, renamed on success) or
-  // prefixed layers in the input GeoPackage.
+  // prefixed layers in the input GeoPackage; with --series the chosen
+  // hydrographs go to NetCDF instead of the GeoPackage table.
   io::GpkgWriterOptions wo;
   wo.overwrite = o.overwrite;
-  if (plan.size() >= 10000) {
-    std::vector<std::uint32_t> pick;
-    for (std::uint32_t i = 0; i < plan.size(); ++i)
-      if (plan.isOutlet(i) || plan.up_offset[i + 1] - plan.up_offset[i] >= 2) pick.push_back(i);
-    wo.series = io::SeriesSelection::of(pick);
-  }
+  const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
+  wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
   std::unique_ptr<io::GpkgResultsWriter> writer;
   std::string target = o.out;
   if (o.write_back) {
@@ -143,23 +255,44 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     writer = std::make_unique<io::GpkgResultsWriter>(target, table, plan, axis, wo);
   }
 
-  // --csv: the series stream to both writers.
+  // The series stream to every writer: GeoPackage, --csv, --series.
+  std::vector<routing::SeriesSink*> sinks{writer.get()};
   std::unique_ptr<io::CsvSeriesWriter> csv_series;
-  std::unique_ptr<io::SeriesFanOut> fan_out;
-  routing::SeriesSink* sink = writer.get();
   if (!o.csv.empty()) {
     std::error_code ec;
     fs::create_directories(o.csv, ec);
-    csv_series = std::make_unique<io::CsvSeriesWriter>(o.csv, o.overwrite, plan, axis, wo.series);
-    fan_out = std::make_unique<io::SeriesFanOut>(std::vector<routing::SeriesSink*>{writer.get(), csv_series.get()});
-    sink = fan_out.get();
+    csv_series = std::make_unique<io::CsvSeriesWriter>(o.csv, o.overwrite, plan, axis, selection);
+    sinks.push_back(csv_series.get());
   }
+  std::unique_ptr<io::NetcdfSeriesWriter> nc_series;
+  std::unique_ptr<SelectedSeries> nc_selected;
+  if (!o.series_nc.empty()) {
+    refuseExisting(o.series_nc, o.overwrite);
+    const std::vector<bool> mask = selection.mask(plan.size());
+    std::vector<std::string> ids;
+    for (std::size_t i = 0; i < plan.size(); ++i)
+      if (mask[i]) ids.push_back(plan.reach_id[i]);
+    io::SeriesNetcdfOptions so;
+    so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
+    so.history = o.command_line;
+    nc_series = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
+    nc_selected = std::make_unique<SelectedSeries>(mask, *nc_series);
+    sinks.push_back(nc_selected.get());
+  }
+  io::SeriesFanOut fan_out(sinks);
 
   routing::NetworkRouteOptions ro;
   ro.reach.method = parseMethod(o.method);
+  ro.threads = o.threads;
+  ro.base_flow_m3s = baseFlows(table, plan);
+  ProgressBar bar("routing", !o.quiet);
+  ro.progress = [&bar](std::size_t done, std::size_t total) { bar.update(done, total); };
   const ForcingAdapter adapter(forcing, plan);
-  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, sink);
-  for (const auto& w : forcing.forcing().warnings) results.warnings.push_back(w);
+  const auto t0 = std::chrono::steady_clock::now();
+  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, &fan_out);
+  const double route_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  bar.finish();
+  for (const auto& w : opened.warnings) results.warnings.push_back(w);
   for (const auto& p : problems)
     if (p.severity == network::Severity::Warning) results.warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
 
@@ -176,12 +309,18 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     io::writeCsvTables(o.csv, o.overwrite, table, plan, results, info);
     csv_series->commit();
   }
+  if (nc_series) nc_series->finish();
   writer->commit();
 
   if (o.demo) {
     printDemoSummary(out, plan, results, target);
   } else if (!o.quiet) {
-    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}\n", plan.size(), axis.steps, o.method, target);
+    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}\n", plan.size(), axis.steps, o.method,
+               target, o.series_nc.empty() ? "" : " and " + o.series_nc);
+    fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
+               "series held at once\n",
+               route_s, cellUpdates(results) / std::max(route_s, 1e-9) / 1e6,
+               o.threads ? o.threads : std::thread::hardware_concurrency(), results.peak_live_series);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }
   return kExitOk;
@@ -197,8 +336,9 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   auto o = std::make_shared<RouteOptions>();
   CLI::App* sub = app.add_subcommand("route", "Route inflow hydrographs through a network and write the results");
   sub->add_option("NETWORK", o->network, "Network: any path or connection string GDAL opens as vector data")->required();
-  sub->add_option("--inflow", o->inflow, "CSV of discharge entering at the top of named reaches")->required();
-  sub->add_option("--lateral", o->lateral, "CSV of lateral inflow along named reaches");
+  sub->add_option("--inflow", o->inflow,
+                                  "CSV or NetCDF of discharge entering at the top of named reaches");
+  sub->add_option("--lateral", o->lateral, "CSV or NetCDF of lateral inflow along named reaches");
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
   sub->add_option("--config", o->config, "TOML run file with field mappings and defaults");
   sub->add_option("--method", o->method, "vpmc (default), mc or muskingum")
@@ -208,8 +348,16 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--csv", o->csv, "Also write the tables as CSV files into this folder");
   sub->add_flag("--write-back", o->write_back, "Write the result layers into the input GeoPackage (prefix rw_)");
   sub->add_flag("--overwrite", o->overwrite, "Replace existing outputs");
+  sub->add_option("--hydrographs", o->hydrographs,
+                  "Reaches whose hydrographs are written: comma-separated all, none, outlets, confluences, "
+                  "auto (default: all below 10,000 reaches, else outlets and confluences) or reach ids");
+  sub->add_option("--series", o->series_nc,
+                  "Write the chosen hydrographs to this NetCDF file instead of the GeoPackage table");
+  sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
   sub->callback([&chosen, o, command_line] {
+    if (o->inflow.empty() && o->lateral.empty())
+      throw CLI::ValidationError("--inflow/--lateral", "give at least one forcing file");
     o->command_line = command_line;
     chosen = [o] { return runGuarded(*o); };
   });

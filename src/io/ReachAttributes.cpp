@@ -51,7 +51,9 @@ std::string fieldList(const OGRFeatureDefn& defn) {
 ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config,
                                  InputLocation where)
     : config_(config),
-      length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0) {
+      length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0),
+      discharge_scale_(config.units == units::System::USCustomary ? units::kCubicMetresPerCubicFoot
+                                                                  : 1.0) {
   for (auto name : kFieldNames)
     index_[std::string(name)] = defn.GetFieldIndex(config.field(name).name.c_str());
   auto usable = [&](std::string_view n) { return hasField(n) || config.field(n).hasDefault(); };
@@ -296,10 +298,12 @@ void ReachAttributes::readRouting(const OGRFeature& f, ReachRecord& r,
   r.muskingum_k_h = number(f, "muskingum_k_h", 1.0, r, problems).number;
   r.muskingum_x = number(f, "muskingum_x", 1.0, r, problems).number;
   r.split = number(f, "split", 1.0, r, problems).number;
+  r.base_flow_m3s = number(f, "base_flow", discharge_scale_, r, problems).number;
   checkRange(r.muskingum_k_h, r.muskingum_k_h > 0, "muskingum_k_h", "> 0", r, problems);
   checkRange(r.muskingum_x, r.muskingum_x >= 0 && r.muskingum_x <= 0.5, "muskingum_x",
              "within [0, 0.5]", r, problems);
   checkRange(r.split, r.split >= 0 && r.split <= 1, "split", "within [0, 1]", r, problems);
+  checkRange(r.base_flow_m3s, r.base_flow_m3s >= 0, "base_flow", ">= 0", r, problems);
 }
 
 }  // namespace reachwise::io::detail

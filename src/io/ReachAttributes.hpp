@@ -52,6 +52,7 @@ private:
   const NetworkConfig& config_;
   std::map<std::string, int, std::less<>> index_;  ///< canonical name -> field index, -1 absent
   double length_scale_ = 1.0;                      ///< metres per unit of widths/depths/lengths
+  double discharge_scale_ = 1.0;                   ///< m^3/s per unit of discharge (base flow)
 };
 
 }  // namespace reachwise::io::detail

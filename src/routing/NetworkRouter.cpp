@@ -58,6 +58,7 @@ public:
       if (plan_.isHeadwater(i)) roots.push_back(i);
     auto body = [this](std::uint32_t i, tbb::feeder<std::uint32_t>& feeder) {
       routeOne(i);
+      reportProgress();
       for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k) {
         const std::uint32_t d = plan_.down_reach[k];
         if (pending_[d].fetch_sub(1) == 1) feeder.add(d);
@@ -142,6 +143,15 @@ private:
     }
   }
 
+  void reportProgress() {
+    if (!options_.progress) return;
+    const std::size_t done = ++done_;
+    const std::size_t stride = std::max<std::size_t>(1, n_ / 200);
+    if (done % stride != 0 && done != n_) return;
+    std::lock_guard lock(progress_mutex_);
+    options_.progress(done, n_);
+  }
+
   void release(std::uint32_t u) {
     if (consumers_[u].fetch_sub(1) == 1) {
       outflow_[u].reset();
@@ -180,9 +190,9 @@ private:
   std::vector<Peak> top_node_;
   tbb::enumerable_thread_specific<Workspace> workspace_;
   NetworkResults results_;
-  std::atomic<std::size_t> live_{0}, peak_live_{0};
+  std::atomic<std::size_t> live_{0}, peak_live_{0}, done_{0};
   std::atomic<bool> failed_{false};
-  std::mutex error_mutex_, sink_mutex_;
+  std::mutex error_mutex_, sink_mutex_, progress_mutex_;
   std::exception_ptr error_;
 };
 

@@ -34,6 +34,7 @@ struct ReachRecord {
   double split = kUnset;                 ///< share at a bifurcation, NaN = not given
   double up_elevation_m = kUnset;        ///< optional elevation fields
   double down_elevation_m = kUnset;
+  double base_flow_m3s = kUnset;         ///< constant flow entering along the reach, NaN = none
 };
 
 struct ReachTable {

@@ -6,7 +6,9 @@
 /// in parallel (oneTBB); the result does not depend on the thread count,
 /// because every reach sums its inputs in the plan's fixed order.
 
+#include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <span>
 #include <vector>
 
@@ -42,6 +44,10 @@ struct NetworkRouteOptions {
   /// lateral inflow; empty = none. The steady initial state accumulates it
   /// down the network.
   std::vector<double> base_flow_m3s;
+  /// Called with (reaches routed, total) about 200 times over a run and
+  /// once at the end, from whichever thread finished the reach, one call
+  /// at a time. Empty = no reports.
+  std::function<void(std::size_t done, std::size_t total)> progress;
 };
 
 /// Routes every reach of `plan` over `axis`. Each finished reach's outflow

@@ -1,0 +1,136 @@
+#include "reachwise/io/ForcingFiles.hpp"
+
+#include <fmt/format.h>
+
+#include <array>
+#include <cstring>
+#include <fstream>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/io/ForcingNetcdf.hpp"
+#include "reachwise/io/IsoTime.hpp"
+
+namespace reachwise::io {
+
+namespace {
+
+namespace fs = std::filesystem;
+
+InputError fileError(const fs::path& file, const std::string& message) {
+  InputLocation at;
+  at.file = file.string();
+  return InputError(at, message);
+}
+
+/// Serves each kind from its own source (one of them may be absent).
+class PerKindSource final : public ForcingSource {
+public:
+  PerKindSource(std::unique_ptr<ForcingSource> inflow, std::unique_ptr<ForcingSource> lateral)
+      : inflow_(std::move(inflow)), lateral_(std::move(lateral)) {}
+  const routing::TimeAxis& axis() const override { return (inflow_ ? inflow_ : lateral_)->axis(); }
+  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const override {
+    const auto& s = of(kind);
+    return s && s->series(kind, id, out);
+  }
+  std::vector<std::string> ids(ForcingKind kind) const override {
+    const auto& s = of(kind);
+    return s ? s->ids(kind) : std::vector<std::string>{};
+  }
+  using ForcingSource::ids;
+  std::string origin(ForcingKind kind) const override {
+    const auto& s = of(kind);
+    return s ? s->origin(kind) : std::string();
+  }
+
+private:
+  const std::unique_ptr<ForcingSource>& of(ForcingKind kind) const {
+    return kind == ForcingKind::Inflow ? inflow_ : lateral_;
+  }
+  std::unique_ptr<ForcingSource> inflow_, lateral_;
+};
+
+std::unique_ptr<NetcdfForcingSource> openNetcdf(const fs::path& path, ForcingKind kind) {
+  auto source = std::make_unique<NetcdfForcingSource>(path);
+  if (source->ids(kind).empty())
+    throw fileError(path, fmt::format("given as {} forcing but has no `{}` variable (docs/formats.md, "
+                                      "\"NetCDF layout\")",
+                                      kindName(kind), kindName(kind)));
+  return source;
+}
+
+bool sameAxis(const routing::TimeAxis& a, const routing::TimeAxis& b) {
+  return a.start_unix_s == b.start_unix_s && a.dt_s == b.dt_s && a.steps == b.steps;
+}
+
+std::string describe(const routing::TimeAxis& a) {
+  return fmt::format("{} steps of {} s from {}", a.steps, a.dt_s,
+                     formatIsoTime(static_cast<double>(a.start_unix_s), a.utc_offset_min));
+}
+
+/// NetCDF forcing is not resampled: the options must agree with its axis.
+void requireCompatible(const fs::path& file, const routing::TimeAxis& axis, const CsvForcingOptions& o) {
+  if (o.dt_s && *o.dt_s != axis.dt_s)
+    throw fileError(file, fmt::format("NetCDF forcing is not resampled: its step is {} s, --dt asks "
+                                      "for {} s",
+                                      axis.dt_s, *o.dt_s));
+  const auto last = axis.start_unix_s + static_cast<std::int64_t>(axis.duration_s());
+  if ((o.start_unix_s && *o.start_unix_s != axis.start_unix_s) || (o.end_unix_s && *o.end_unix_s != last))
+    throw fileError(file, fmt::format("NetCDF forcing sets the run's time axis ({}); a different "
+                                      "start or end cannot be asked for",
+                                      describe(axis)));
+}
+
+}  // namespace
+
+bool isNetcdfFile(const fs::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::array<char, 8> head{};
+  in.read(head.data(), head.size());
+  if (in.gcount() < 4) return false;
+  static constexpr char kHdf5[] = "\x89HDF\r\n\x1a\n";
+  return std::memcmp(head.data(), "CDF", 3) == 0 ||
+         (in.gcount() == 8 && std::memcmp(head.data(), kHdf5, 8) == 0);
+}
+
+OpenedForcing openForcing(const std::optional<fs::path>& inflow, const std::optional<fs::path>& lateral,
+                          const CsvForcingOptions& options) {
+  if (!inflow && !lateral) throw InvalidParameter("forcing", "no inflow or lateral file given");
+  const bool nc_inflow = inflow && isNetcdfFile(*inflow);
+  const bool nc_lateral = lateral && isNetcdfFile(*lateral);
+  OpenedForcing opened;
+  if (!nc_inflow && !nc_lateral) {
+    Forcing f = readForcingCsv(inflow, lateral, options);
+    opened.warnings = f.warnings;
+    opened.source = std::make_unique<MemoryForcingSource>(std::move(f));
+    return opened;
+  }
+
+  std::unique_ptr<ForcingSource> in_src, lat_src;
+  if (nc_inflow) in_src = openNetcdf(*inflow, ForcingKind::Inflow);
+  if (nc_lateral) lat_src = openNetcdf(*lateral, ForcingKind::Lateral);
+  const fs::path& nc_file = nc_inflow ? *inflow : *lateral;
+  const routing::TimeAxis axis = (in_src ? in_src : lat_src)->axis();
+  requireCompatible(nc_file, axis, options);
+  if (in_src && lat_src && !sameAxis(in_src->axis(), lat_src->axis()))
+    throw fileError(*lateral, fmt::format("its time axis ({}) differs from the inflow file's ({})",
+                                          describe(lat_src->axis()), describe(axis)));
+
+  // A CSV file beside a NetCDF one is put on the NetCDF axis.
+  CsvForcingOptions on_axis = options;
+  on_axis.dt_s = axis.dt_s;
+  on_axis.start_unix_s = axis.start_unix_s;
+  on_axis.end_unix_s = axis.start_unix_s + static_cast<std::int64_t>(axis.duration_s());
+  auto readCsv = [&](const fs::path& path, bool as_inflow) {
+    Forcing f = as_inflow ? readForcingCsv(path, std::nullopt, on_axis)
+                          : readForcingCsv(std::nullopt, path, on_axis);
+    f.axis.utc_offset_min = axis.utc_offset_min;
+    for (auto& w : f.warnings) opened.warnings.push_back(w);
+    return std::make_unique<MemoryForcingSource>(std::move(f));
+  };
+  if (inflow && !nc_inflow) in_src = readCsv(*inflow, true);
+  if (lateral && !nc_lateral) lat_src = readCsv(*lateral, false);
+  opened.source = std::make_unique<PerKindSource>(std::move(in_src), std::move(lat_src));
+  return opened;
+}
+
+}  // namespace reachwise::io
