@@ -1,0 +1,107 @@
+#pragma once
+/// \file
+/// The run report: one self-contained folder (index.html plus figure files
+/// drawn with cairo) that a practitioner opens in any browser. It shows a
+/// map of the network coloured by peak discharge, hydrographs at the
+/// outlets and at the confluences with the largest combined peaks, a chart
+/// of how far apart the branch peaks of those confluences arrive, and
+/// tables of the run, the top reaches and the coinciding confluences.
+///
+/// Use: build a ReportSeries from the plan before routing, let it receive
+/// the series (alone or through io::SeriesFanOut beside the GeoPackage
+/// writer), then call writeReport() once the results are written.
+
+#include <cstddef>
+#include <cstdint>
+#include <filesystem>
+#include <mutex>
+#include <span>
+#include <string>
+#include <unordered_map>
+#include <vector>
+
+#include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/network/ReachTable.hpp"
+#include "reachwise/routing/Results.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::report {
+
+/// Captures, while routing runs, the series the report draws: outlets, and
+/// the incoming branches and the leaving reach of candidate confluences.
+/// Memory stays bounded on huge networks: the reaches are chosen up front
+/// from the plan (at most kMaxOutlets outlets and kMaxCandidateConfluences
+/// confluences, those with the largest upstream networks); the report ranks
+/// the captured confluences by combined peak flow after the run.
+class ReportSeries final : public routing::SeriesSink {
+public:
+  static constexpr std::size_t kMaxOutlets = 48;
+  static constexpr std::size_t kMaxCandidateConfluences = 40;
+
+  ReportSeries(const network::NetworkPlan& plan, const routing::TimeAxis& axis);
+
+  /// Keeps `q_m3s` of a chosen reach (ignores the others and the depth and
+  /// velocity series). Thread-safe.
+  void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
+             std::span<const double> velocity_ms) override;
+
+  /// Plan indices of the outlets whose series are captured (largest
+  /// upstream network first).
+  const std::vector<std::uint32_t>& outlets() const noexcept { return outlets_; }
+  /// Plan indices of the reaches that leave the candidate confluences (the
+  /// confluence is the node at the top of that reach, `N:<reach_id>`).
+  const std::vector<std::uint32_t>& confluences() const noexcept { return confluences_; }
+  /// Number of outlets in the plan (may exceed outlets().size()).
+  std::size_t outletCount() const noexcept { return outlet_count_; }
+
+  /// The captured outflow series of `reach` (plan index), empty when the
+  /// reach was not chosen or never written.
+  std::span<const double> series(std::uint32_t reach) const;
+  /// True when the series of `reach` is captured (chosen and written).
+  bool has(std::uint32_t reach) const;
+
+  const routing::TimeAxis& axis() const noexcept { return axis_; }
+  const network::NetworkPlan& plan() const noexcept { return plan_; }
+
+private:
+  const network::NetworkPlan& plan_;
+  routing::TimeAxis axis_;
+  std::vector<std::uint32_t> outlets_, confluences_;
+  std::size_t outlet_count_ = 0;
+  std::unordered_map<std::uint32_t, std::vector<double>> q_;   ///< chosen reaches; filled by write()
+  std::vector<bool> written_;                                  ///< by plan index of a chosen reach
+  mutable std::mutex mutex_;
+};
+
+struct ReportInputs {
+  const network::ReachTable& table;      ///< attributes + geometry as the reader gives them
+  const network::NetworkPlan& plan;
+  const routing::NetworkResults& results;
+  const io::RunInfo& info;               ///< include/reachwise/io/ResultsWriter.hpp
+  std::string gpkg_path;                 ///< the GeoPackage written by the same run (shown as text)
+  bool us_units = false;                 ///< label and convert to cfs / ft (the run's config is US customary)
+  /// Above this many reaches the map is a PNG instead of an SVG (an SVG of
+  /// a million lines would be too heavy for a browser).
+  std::size_t svg_map_max_reaches = 20000;
+};
+
+/// Name of the marker file every report folder holds; writeReport() only
+/// ever replaces a folder that has it (or an empty one).
+inline constexpr const char* kReportMarker = ".reachwise-report";
+
+/// Writes DIR/index.html and the figure files (SVG through cairo's SVG
+/// surface; the map as PNG for large networks) into DIR, a folder of its
+/// own (e.g. OUT/report; never a folder holding other outputs).
+///
+/// Builds the report in a temporary folder beside DIR and renames it onto
+/// DIR on success. An existing DIR is refused (InputError naming it) unless
+/// `overwrite`; even then a non-empty folder without the kReportMarker file
+/// is refused, so that other files are never deleted. Missing parent
+/// folders are created. Throws InputError naming the file for any file
+/// that cannot be written, InternalError when `series` was built for
+/// another plan.
+void writeReport(const std::filesystem::path& dir, const ReportInputs& in, const ReportSeries& series,
+                 bool overwrite);
+
+}  // namespace reachwise::report

@@ -1,0 +1,150 @@
+#pragma once
+// The report's figures, drawn with cairo (SVG or PNG surfaces). Values
+// arrive already converted to the unit they are labelled in.
+
+#include <cairo.h>
+
+#include <cmath>
+#include <cstdint>
+#include <filesystem>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace reachwise::report::detail {
+
+enum class ImageFormat { Svg, Png };
+
+/// One figure file: a cairo surface and context, written by finish().
+class Canvas {
+public:
+  Canvas(std::filesystem::path file, double width, double height, ImageFormat format);
+  ~Canvas();
+  Canvas(const Canvas&) = delete;
+  Canvas& operator=(const Canvas&) = delete;
+
+  cairo_t* cr() const noexcept { return cr_; }
+  double width() const noexcept { return width_; }
+  double height() const noexcept { return height_; }
+  /// Writes the file; throws InputError naming it when cairo reports a fault.
+  void finish();
+
+private:
+  [[noreturn]] void fail(cairo_status_t status) const;
+  std::filesystem::path file_;
+  double width_, height_;
+  ImageFormat format_;
+  cairo_surface_t* surface_ = nullptr;
+  cairo_t* cr_ = nullptr;
+};
+
+struct Rgb {
+  double r = 0, g = 0, b = 0;
+};
+void setColour(cairo_t* cr, Rgb c, double alpha = 1.0);
+
+/// Sequential ramp, t in [0, 1] (light for small flows, dark for large).
+Rgb rampColour(double t);
+/// Distinct colours for the branches of a hydrograph.
+Rgb seriesColour(std::size_t i);
+
+enum class Align { Left, Centre, Right };
+/// Text with its baseline at y (toy text API, the system sans font).
+void drawText(cairo_t* cr, double x, double y, std::string_view text, double size, Align align = Align::Left,
+              bool bold = false);
+double textWidth(cairo_t* cr, std::string_view text, double size, bool bold = false);
+/// Text drawn over a white halo, readable on top of lines.
+void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold = false);
+
+/// A "nice" tick step (1, 2 or 5 × 10^k) giving about `target` ticks over `span`.
+double niceStep(double span, int target);
+/// A short number for axis labels (no trailing zeros).
+std::string tickLabel(double v, double step);
+
+/// Linear time scale in pixels, labelled in the run's UTC offset.
+struct TimeScale {
+  double t0 = 0, t1 = 1;    ///< unix seconds at the left and right ends
+  double x0 = 0, x1 = 1;    ///< pixels
+  int utc_offset_min = 0;
+  double x(double t) const { return x0 + (t - t0) / (t1 - t0) * (x1 - x0); }
+};
+/// Ticks and labels (HH:MM, the date under the first tick and at each new
+/// day) below the line y; grid lines up to y_top when y_top < y.
+void drawTimeAxis(cairo_t* cr, const TimeScale& scale, double y, double y_top);
+/// "UTC", "UTC+01:00", ...
+std::string offsetName(int utc_offset_min);
+
+// ---- map ----
+
+struct MapLine {
+  std::vector<double> xy;   ///< x0, y0, x1, y1, ... in CRS units
+  double value = NAN;       ///< peak discharge (display unit); NaN = none
+};
+
+struct MapMarker {
+  enum class Kind { Confluence, MajorConfluence, Outlet };
+  double x = 0, y = 0;
+  Kind kind = Kind::Confluence;
+  std::string label;        ///< empty = no label
+};
+
+struct MapFigure {
+  std::vector<MapLine> lines;
+  std::vector<MapMarker> markers;
+  std::string value_label;  ///< e.g. "peak discharge (m³/s)"
+  /// Metres per CRS unit along x at the map's centre (for the scale bar);
+  /// NaN when unknown (then the bar is labelled in CRS units).
+  double metres_per_unit_x = NAN;
+  double aspect_x = 1.0;    ///< x stretch (cos latitude for a geographic CRS)
+  std::string crs_unit = "m";
+  bool feet = false;        ///< scale bar in ft / mi
+};
+
+void drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format);
+
+// ---- hydrographs ----
+
+struct Curve {
+  std::string label;
+  std::vector<double> q;    ///< one value per axis step (display unit)
+  double peak_q = NAN, peak_t = NAN;
+  Rgb colour;
+  double line_width = 1.6;
+  bool dashed = false;
+};
+
+struct HydrographFigure {
+  std::string title;
+  std::vector<Curve> curves;
+  std::int64_t start_unix_s = 0;
+  double dt_s = 3600;
+  int utc_offset_min = 0;
+  std::string q_unit;
+};
+
+void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& fig);
+
+// ---- confluence timing ----
+
+struct TimingBranch {
+  std::string label;
+  double peak_t = NAN, peak_q = NAN;
+};
+
+struct TimingRow {
+  std::string label;                 ///< node id
+  double combined_peak_t = NAN, combined_peak_q = NAN;
+  std::vector<TimingBranch> branches;
+  double spread_s = NAN;
+};
+
+struct TimingFigure {
+  std::vector<TimingRow> rows;       ///< drawn top to bottom
+  int utc_offset_min = 0;
+  std::string q_unit;
+  double coincidence_s = 3600;       ///< spreads within this are highlighted
+};
+
+void drawTiming(const std::filesystem::path& file, const TimingFigure& fig);
+
+}  // namespace reachwise::report::detail

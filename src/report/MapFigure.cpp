@@ -1,0 +1,292 @@
+// The network map: reaches coloured (and widened) by peak discharge,
+// confluences and outlets marked, a colour legend, a scale bar and a north
+// arrow in a strip below the map.
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <numeric>
+
+#include "Figures.hpp"
+
+namespace reachwise::report::detail {
+
+namespace {
+
+constexpr double kWidth = 960, kMargin = 10, kStrip = 100;
+
+struct Box {
+  double x0, y0, x1, y1;
+  bool overlaps(const Box& o) const { return x0 < o.x1 && o.x0 < x1 && y0 < o.y1 && o.y0 < y1; }
+};
+
+/// Position in [0, 1] of a value on the colour scale.
+struct ValueScale {
+  double lo = 0, hi = 1;
+  bool log = false;
+  double t(double v) const {
+    if (!std::isfinite(v)) return NAN;
+    if (log) return v <= 0 ? 0.0 : (std::log(v) - std::log(lo)) / (std::log(hi) - std::log(lo));
+    return (v - lo) / (hi - lo);
+  }
+};
+
+ValueScale valueScale(const std::vector<MapLine>& lines) {
+  double lo = INFINITY, hi = 0;
+  for (const MapLine& l : lines)
+    if (std::isfinite(l.value) && l.value > 0) lo = std::min(lo, l.value), hi = std::max(hi, l.value);
+  ValueScale s;
+  if (!(hi > 0)) return s;
+  // A log scale once the flows span more than a factor 30, so that small
+  // tributaries do not all take the same colour (common practice).
+  if (hi / lo > 30) {
+    s.log = true;
+    s.lo = lo;
+    s.hi = hi;
+  } else {
+    s.lo = 0;
+    s.hi = hi;
+  }
+  return s;
+}
+
+/// Tick values of the colour legend: 1-2-5 steps on a log scale.
+std::vector<double> legendTicks(const ValueScale& s) {
+  std::vector<double> ticks;
+  if (!s.log) {
+    const double step = niceStep(s.hi - s.lo, 5);
+    for (double v = std::ceil(s.lo / step) * step; v <= s.hi * (1 + 1e-9); v += step) ticks.push_back(v);
+    return ticks;
+  }
+  for (double mag = std::pow(10.0, std::floor(std::log10(s.lo))); mag <= s.hi; mag *= 10)
+    for (const double f : {1.0, 2.0, 5.0})
+      if (f * mag >= s.lo * (1 - 1e-9) && f * mag <= s.hi * (1 + 1e-9)) ticks.push_back(f * mag);
+  return ticks;
+}
+
+std::string legendLabel(double v) {
+  if (v >= 100 || v == std::floor(v)) return fmt::format("{:.0f}", v);
+  if (v >= 1) return fmt::format("{:.1f}", v);
+  return fmt::format("{:.2g}", v);
+}
+
+void drawColourLegend(cairo_t* cr, const MapFigure& map, const ValueScale& vs, double x, double y) {
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  drawText(cr, x, y, map.value_label + (vs.log ? ", log scale" : ""), 12, Align::Left, true);
+  const double bx = x, by = y + 10, bw = 330, bh = 14;
+  cairo_pattern_t* grad = cairo_pattern_create_linear(bx, 0, bx + bw, 0);
+  for (int k = 0; k <= 16; ++k) {
+    const Rgb c = rampColour(k / 16.0);
+    cairo_pattern_add_color_stop_rgb(grad, k / 16.0, c.r, c.g, c.b);
+  }
+  cairo_rectangle(cr, bx, by, bw, bh);
+  cairo_set_source(cr, grad);
+  cairo_fill(cr);
+  cairo_pattern_destroy(grad);
+  cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
+  cairo_set_line_width(cr, 1);
+  cairo_rectangle(cr, bx + 0.5, by + 0.5, bw - 1, bh - 1);
+  cairo_stroke(cr);
+  double last_right = -INFINITY;
+  for (const double v : legendTicks(vs)) {
+    const double tx = bx + vs.t(v) * bw;
+    cairo_move_to(cr, std::round(tx) + 0.5, by + bh);
+    cairo_line_to(cr, std::round(tx) + 0.5, by + bh + 4);
+    cairo_stroke(cr);
+    const std::string label = legendLabel(v);
+    const double w = textWidth(cr, label, 11);
+    if (tx - w / 2 < last_right + 4) continue;  // keep tick labels apart
+    drawText(cr, tx, by + bh + 16, label, 11, Align::Centre);
+    last_right = tx + w / 2;
+  }
+}
+
+/// Scale bar: a round length about 150 px long, in km / m (or mi / ft).
+void drawScaleBar(cairo_t* cr, const MapFigure& map, double px_per_unit_x, double x, double y) {
+  double px_per_display = px_per_unit_x;  // pixels per displayed unit
+  std::string small = map.crs_unit, big;
+  double big_factor = 0;
+  if (std::isfinite(map.metres_per_unit_x) && map.metres_per_unit_x > 0) {
+    const double px_per_m = px_per_unit_x / map.metres_per_unit_x;
+    if (map.feet) {
+      px_per_display = px_per_m * 0.3048;
+      small = "ft", big = "mi", big_factor = 5280;
+    } else {
+      px_per_display = px_per_m;
+      small = "m", big = "km", big_factor = 1000;
+    }
+  }
+  double length = 150 / px_per_display;
+  std::string unit = small;
+  double factor = 1;
+  if (big_factor > 0 && length >= big_factor) unit = big, factor = big_factor;
+  double nice = niceStep(length / factor, 1);
+  if (nice > length / factor * 1.5) nice /= 2;  // keep the bar at most ~1.5 × its target
+  const double w = nice * factor * px_per_display;
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  drawText(cr, x, y, "scale", 12, Align::Left, true);
+  const double by = y + 12;
+  for (int k = 0; k < 4; ++k) {
+    cairo_rectangle(cr, x + k * w / 4, by, w / 4, 6);
+    if (k % 2 == 0) cairo_set_source_rgb(cr, 0.15, 0.15, 0.15);
+    else cairo_set_source_rgb(cr, 1, 1, 1);
+    cairo_fill_preserve(cr);
+    cairo_set_source_rgb(cr, 0.15, 0.15, 0.15);
+    cairo_set_line_width(cr, 1);
+    cairo_stroke(cr);
+  }
+  drawText(cr, x, by + 20, "0", 11, Align::Centre);
+  drawText(cr, x + w, by + 20, fmt::format("{:g} {}", nice, unit), 11, Align::Centre);
+}
+
+void drawMarker(cairo_t* cr, MapMarker::Kind kind, double x, double y) {
+  cairo_set_line_width(cr, 1.3);
+  switch (kind) {
+    case MapMarker::Kind::Confluence:
+      cairo_arc(cr, x, y, 2.8, 0, 2 * M_PI);
+      cairo_set_source_rgb(cr, 1, 1, 1);
+      cairo_fill_preserve(cr);
+      cairo_set_source_rgb(cr, 0.2, 0.2, 0.2);
+      break;
+    case MapMarker::Kind::MajorConfluence:
+      cairo_arc(cr, x, y, 5.5, 0, 2 * M_PI);
+      setColour(cr, seriesColour(0));
+      cairo_fill_preserve(cr);
+      cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+      break;
+    case MapMarker::Kind::Outlet:
+      cairo_rectangle(cr, x - 5.5, y - 5.5, 11, 11);
+      cairo_set_source_rgb(cr, 0.70, 0.09, 0.17);
+      cairo_fill_preserve(cr);
+      cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+      break;
+  }
+  cairo_stroke(cr);
+}
+
+void drawMarkerLegend(cairo_t* cr, double x, double y) {
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  drawText(cr, x, y, "nodes", 12, Align::Left, true);
+  const std::pair<MapMarker::Kind, const char*> items[] = {
+      {MapMarker::Kind::Outlet, "outlet"},
+      {MapMarker::Kind::MajorConfluence, "confluence with hydrograph"},
+      {MapMarker::Kind::Confluence, "other confluence"}};
+  double yy = y + 18;
+  for (const auto& [kind, text] : items) {
+    drawMarker(cr, kind, x + 7, yy - 4);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    drawText(cr, x + 20, yy, text, 11);
+    yy += 18;
+  }
+}
+
+void drawNorthArrow(cairo_t* cr, double x, double y) {
+  cairo_move_to(cr, x, y);
+  cairo_line_to(cr, x + 8, y + 24);
+  cairo_line_to(cr, x, y + 18);
+  cairo_close_path(cr);
+  cairo_set_source_rgb(cr, 0.15, 0.15, 0.15);
+  cairo_fill(cr);
+  cairo_move_to(cr, x, y);
+  cairo_line_to(cr, x - 8, y + 24);
+  cairo_line_to(cr, x, y + 18);
+  cairo_close_path(cr);
+  cairo_set_source_rgb(cr, 1, 1, 1);
+  cairo_fill_preserve(cr);
+  cairo_set_source_rgb(cr, 0.15, 0.15, 0.15);
+  cairo_set_line_width(cr, 1);
+  cairo_stroke(cr);
+  drawText(cr, x, y + 38, "N", 12, Align::Centre, true);
+}
+
+}  // namespace
+
+void drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format) {
+  double xmin = INFINITY, xmax = -INFINITY, ymin = INFINITY, ymax = -INFINITY;
+  for (const MapLine& l : map.lines)
+    for (std::size_t k = 0; k + 1 < l.xy.size(); k += 2) {
+      xmin = std::min(xmin, l.xy[k]), xmax = std::max(xmax, l.xy[k]);
+      ymin = std::min(ymin, l.xy[k + 1]), ymax = std::max(ymax, l.xy[k + 1]);
+    }
+  if (!(xmax >= xmin)) xmin = 0, xmax = 1, ymin = 0, ymax = 1;
+  const double dx = std::max((xmax - xmin) * map.aspect_x, 1e-9), dy = std::max(ymax - ymin, 1e-9);
+  const double pw = kWidth - 2 * kMargin;
+  const double ph = std::clamp(pw * dy / dx, 360.0, 820.0);
+  const double pad = 28;  // room for markers and labels at the edge
+  const double s = std::min((pw - 2 * pad) / dx, (ph - 2 * pad) / dy);
+  const double cx = (xmin + xmax) / 2, cy = (ymin + ymax) / 2;
+  const auto X = [&](double x) { return kMargin + pw / 2 + (x - cx) * map.aspect_x * s; };
+  const auto Y = [&](double y) { return kMargin + ph / 2 - (y - cy) * s; };
+
+  Canvas canvas(file, kWidth, ph + 2 * kMargin + kStrip, format);
+  cairo_t* cr = canvas.cr();
+  cairo_set_source_rgb(cr, 0.975, 0.975, 0.965);
+  cairo_rectangle(cr, kMargin, kMargin, pw, ph);
+  cairo_fill(cr);
+
+  // Reaches, smallest flows first so that large rivers are drawn on top.
+  const ValueScale vs = valueScale(map.lines);
+  std::vector<std::size_t> order(map.lines.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
+    const double va = std::isfinite(map.lines[a].value) ? map.lines[a].value : -1;
+    const double vb = std::isfinite(map.lines[b].value) ? map.lines[b].value : -1;
+    return va < vb;
+  });
+  cairo_set_line_cap(cr, CAIRO_LINE_CAP_ROUND);
+  cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
+  for (const std::size_t i : order) {
+    const MapLine& l = map.lines[i];
+    if (l.xy.size() < 4) continue;
+    for (std::size_t k = 0; k + 1 < l.xy.size(); k += 2)
+      (k == 0 ? cairo_move_to : cairo_line_to)(cr, X(l.xy[k]), Y(l.xy[k + 1]));
+    const double t = vs.t(l.value);
+    setColour(cr, rampColour(t));
+    cairo_set_line_width(cr, std::isfinite(t) ? 1.2 + 4.0 * std::clamp(t, 0.0, 1.0) : 1.0);
+    cairo_stroke(cr);
+  }
+
+  // Markers (minor first), then labels placed where they collide with no
+  // marker and no other label.
+  std::vector<Box> taken;
+  for (const auto kind : {MapMarker::Kind::Confluence, MapMarker::Kind::MajorConfluence, MapMarker::Kind::Outlet})
+    for (const MapMarker& m : map.markers) {
+      if (m.kind != kind) continue;
+      const double x = X(m.x), y = Y(m.y);
+      drawMarker(cr, kind, x, y);
+      if (kind != MapMarker::Kind::Confluence) taken.push_back({x - 6, y - 6, x + 6, y + 6});
+    }
+  const Box frame{kMargin, kMargin, kMargin + pw, kMargin + ph};
+  for (const MapMarker& m : map.markers) {
+    if (m.label.empty()) continue;
+    const double x = X(m.x), y = Y(m.y), size = 11.5;
+    const double w = textWidth(cr, m.label, size, true), h = 12;
+    const std::pair<double, double> tries[] = {{9, 4},          {-9 - w, 4},      {-w / 2, -10},    {-w / 2, 18},
+                                               {9, -8},         {9, 16},          {-9 - w, -8},     {-9 - w, 16},
+                                               {16, 4},         {-16 - w, 4},     {-w / 2, -20},    {-w / 2, 28}};
+    Box chosen{x + 9, y + 4 - h, x + 9 + w, y + 4};
+    for (const auto& [ox, oy] : tries) {
+      const Box b{x + ox - 1, y + oy - h, x + ox + w + 1, y + oy + 2};
+      const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
+      if (!inside || std::any_of(taken.begin(), taken.end(), [&](const Box& o) { return o.overlaps(b); }))
+        continue;
+      chosen = b;
+      break;
+    }
+    taken.push_back(chosen);
+    drawHaloText(cr, chosen.x0 + 1, chosen.y1 - 2, m.label, size, true);
+  }
+  drawNorthArrow(cr, kMargin + pw - 24, kMargin + 12);
+  cairo_set_source_rgb(cr, 0.55, 0.55, 0.55);
+  cairo_set_line_width(cr, 1);
+  cairo_rectangle(cr, kMargin + 0.5, kMargin + 0.5, pw - 1, ph - 1);
+  cairo_stroke(cr);
+
+  const double strip = kMargin + ph + 22;
+  drawColourLegend(cr, map, vs, kMargin + 10, strip + 6);
+  drawScaleBar(cr, map, s * map.aspect_x, kMargin + 400, strip + 6);
+  drawMarkerLegend(cr, kMargin + 660, strip + 6);
+  canvas.finish();
+}
+
+}  // namespace reachwise::report::detail

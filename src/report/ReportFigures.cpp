@@ -1,0 +1,231 @@
+// From results to figures: the map, the outlet and confluence hydrographs
+// and the confluence timing chart, each written into the report folder.
+#include <GeographicLib/Geodesic.hpp>
+#include <fmt/format.h>
+#include <ogr_spatialref.h>
+
+#include <algorithm>
+#include <cmath>
+
+#include "Figures.hpp"
+#include "ReportModel.hpp"
+#include "reachwise/Error.hpp"
+
+namespace reachwise::report::detail {
+
+namespace {
+
+/// Scale-bar facts of the layer's CRS: metres per x unit, the unit's name,
+/// the x stretch of a geographic CRS (cos latitude).
+void crsScale(const network::ReachTable& table, double mid_lat, MapFigure& map) {
+  map.crs_unit = "CRS units";
+  if (table.crs_wkt.empty()) return;
+  OGRSpatialReference srs;
+  srs.SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
+  if (srs.importFromWkt(table.crs_wkt.c_str()) != OGRERR_NONE) return;
+  if (srs.IsGeographic()) {
+    // One degree of longitude along the map's middle latitude, on the
+    // WGS 84 ellipsoid (GeographicLib, Karney 2013): close enough for a bar.
+    const double lat = std::clamp(mid_lat, -89.0, 89.0);
+    double s12 = NAN;
+    GeographicLib::Geodesic::WGS84().Inverse(lat, 0.0, lat, 1.0, s12);
+    map.metres_per_unit_x = s12;
+    map.aspect_x = std::max(0.05, std::cos(lat * M_PI / 180.0));
+    map.crs_unit = "degrees";
+    return;
+  }
+  const char* unit = nullptr;
+  const double metres = srs.GetLinearUnits(&unit);
+  if (metres > 0) map.metres_per_unit_x = metres;
+  if (unit) map.crs_unit = unit;
+}
+
+MapFigure mapFigure(const ReportInputs& in, const ReportModel& m) {
+  MapFigure map;
+  map.value_label = fmt::format("peak discharge ({})", m.units.q_unit());
+  map.feet = m.units.us;
+  const auto& plan = in.plan;
+  double ymin = INFINITY, ymax = -INFINITY;
+  map.lines.reserve(plan.size());
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    MapLine line;
+    const auto& pts = in.table.reaches[plan.record[i]].line;
+    line.xy.reserve(2 * pts.size());
+    for (const auto& p : pts) {
+      line.xy.push_back(p.x);
+      line.xy.push_back(p.y);
+      ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
+    }
+    line.value = m.units.q(in.results.reaches[i].peak_q_m3s);
+    map.lines.push_back(std::move(line));
+  }
+  crsScale(in.table, std::isfinite(ymin) ? (ymin + ymax) / 2 : 0.0, map);
+
+  // Every confluence and outlet while they stay legible; on very large
+  // networks only those the report draws hydrographs for.
+  constexpr std::size_t kMaxMarkers = 5000;
+  std::vector<bool> major(in.results.nodes.size(), false);
+  for (const std::size_t k : m.hydrograph_confluences) major[k] = true;
+  std::vector<bool> shown_outlet(plan.size(), false);
+  for (const std::uint32_t o : m.hydrograph_outlets) shown_outlet[o] = true;
+  const bool all_confluences = m.confluence_count <= kMaxMarkers;
+  const bool all_outlets = m.outlet_count <= kMaxMarkers;
+  for (std::size_t k = 0; k < in.results.nodes.size(); ++k) {
+    const auto& n = in.results.nodes[k];
+    if (!std::isfinite(n.x) || !std::isfinite(n.y)) continue;
+    if (n.kind == routing::NodeKind::Confluence && (major[k] || all_confluences))
+      map.markers.push_back({n.x, n.y, major[k] ? MapMarker::Kind::MajorConfluence : MapMarker::Kind::Confluence,
+                             major[k] ? n.node_id : std::string()});
+  }
+  for (std::uint32_t i = 0; i < plan.size(); ++i) {
+    if (!plan.isOutlet(i) || !(shown_outlet[i] || all_outlets)) continue;
+    map.markers.push_back({plan.bottom[i].x, plan.bottom[i].y, MapMarker::Kind::Outlet,
+                           shown_outlet[i] ? "O:" + plan.reach_id[i] : std::string()});
+  }
+  return map;
+}
+
+std::vector<double> scaled(std::span<const double> q, const DisplayUnits& u, double fraction = 1.0) {
+  std::vector<double> out(q.size());
+  for (std::size_t k = 0; k < q.size(); ++k) out[k] = u.q(q[k] * fraction);
+  return out;
+}
+
+HydrographFigure emptyFigure(const ReportInputs& in, const ReportModel& m, std::string title) {
+  HydrographFigure fig;
+  fig.title = std::move(title);
+  fig.start_unix_s = in.results.axis.start_unix_s;
+  fig.dt_s = in.results.axis.dt_s;
+  fig.utc_offset_min = m.utc_offset_min;
+  fig.q_unit = m.units.q_unit();
+  return fig;
+}
+
+HydrographFigure outletFigure(const ReportInputs& in, const ReportSeries& series, const ReportModel& m,
+                              std::uint32_t reach) {
+  const auto& s = in.results.reaches[reach];
+  HydrographFigure fig = emptyFigure(in, m, "Outlet O:" + in.plan.reach_id[reach]);
+  Curve c;
+  c.label = "outflow of " + in.plan.reach_id[reach];
+  c.q = scaled(series.series(reach), m.units);
+  c.peak_q = m.units.q(s.peak_q_m3s);
+  c.peak_t = s.peak_time_s;
+  c.colour = {0.08, 0.11, 0.35};
+  c.line_width = 2.2;
+  fig.curves.push_back(std::move(c));
+  if (std::isfinite(s.inflow_peak_m3s)) {
+    // The reach's own inflow shows how much the last reach attenuated.
+    Curve note;
+    note.label = "inflow of " + in.plan.reach_id[reach] + " (peak only)";
+    note.peak_q = m.units.q(s.inflow_peak_m3s);
+    note.peak_t = s.inflow_peak_time_s;
+    note.colour = {0.55, 0.55, 0.55};
+    fig.curves.push_back(std::move(note));
+  }
+  return fig;
+}
+
+HydrographFigure confluenceFigure(const ReportInputs& in, const ReportSeries& series, const ReportModel& m,
+                                  const routing::NodeSummary& node, std::uint32_t leaving) {
+  const auto& plan = in.plan;
+  HydrographFigure fig =
+      emptyFigure(in, m, fmt::format("Confluence {}: combined peak {:.2f} {}", node.node_id,
+                                     m.units.q(node.peak_q_m3s), m.units.q_unit()));
+  std::vector<double> combined(in.results.axis.steps, 0.0);
+  bool complete = true;
+  std::size_t k = 0;
+  for (std::uint32_t e = plan.up_offset[leaving]; e < plan.up_offset[leaving + 1]; ++e, ++k) {
+    const std::uint32_t u = plan.up_reach[e];
+    const double share = plan.up_fraction[e];
+    Curve c;
+    c.label = share < 1 ? fmt::format("{} ({:.0f} % share)", plan.reach_id[u], 100 * share) : plan.reach_id[u];
+    c.q = scaled(series.series(u), m.units, share);
+    if (c.q.size() != combined.size()) complete = false;
+    for (std::size_t j = 0; j < std::min(c.q.size(), combined.size()); ++j) combined[j] += c.q[j];
+    const auto* b = std::find_if(node.branches.data(), node.branches.data() + node.branches.size(),
+                                 [&](const routing::ConfluenceBranch& x) { return x.reach == u; });
+    if (b != node.branches.data() + node.branches.size()) {
+      c.peak_q = m.units.q(b->peak_q_m3s);
+      c.peak_t = b->peak_time_s;
+    }
+    c.colour = seriesColour(k + 1);
+    c.line_width = 1.8;
+    fig.curves.push_back(std::move(c));
+  }
+  Curve sum;
+  sum.label = "combined (sum of branches)";
+  if (complete) sum.q = std::move(combined);
+  sum.peak_q = m.units.q(node.peak_q_m3s);
+  sum.peak_t = node.peak_time_s;
+  sum.colour = {0.1, 0.1, 0.1};
+  sum.line_width = 2.6;
+  fig.curves.insert(fig.curves.begin(), std::move(sum));
+  const auto& out = in.results.reaches[leaving];
+  Curve below;
+  below.label = "outflow of " + plan.reach_id[leaving] + " (downstream end)";
+  below.q = scaled(series.series(leaving), m.units);
+  below.peak_q = m.units.q(out.peak_q_m3s);
+  below.peak_t = out.peak_time_s;
+  below.colour = {0.45, 0.45, 0.45};
+  below.line_width = 1.5;
+  below.dashed = true;
+  fig.curves.push_back(std::move(below));
+  return fig;
+}
+
+/// Plan index of the reach leaving confluence node `node_id` ("N:<id>").
+std::uint32_t leavingReach(const ReportSeries& series, const std::string& node_id) {
+  for (const std::uint32_t c : series.confluences())
+    if ("N:" + series.plan().reach_id[c] == node_id) return c;
+  throw InternalError("report: confluence " + node_id + " has no captured leaving reach");
+}
+
+TimingFigure timingFigure(const ReportInputs& in, const ReportModel& m) {
+  TimingFigure fig;
+  fig.utc_offset_min = m.utc_offset_min;
+  fig.q_unit = m.units.q_unit();
+  fig.coincidence_s = kCoincidenceS;
+  for (const std::size_t k : m.timing_confluences) {
+    const auto& n = in.results.nodes[k];
+    TimingRow row;
+    row.label = n.node_id;
+    row.combined_peak_t = n.peak_time_s;
+    row.combined_peak_q = m.units.q(n.peak_q_m3s);
+    row.spread_s = n.branch_spread_s;
+    for (const auto& b : n.branches)
+      row.branches.push_back({in.plan.reach_id[b.reach], b.peak_time_s, m.units.q(b.peak_q_m3s)});
+    fig.rows.push_back(std::move(row));
+  }
+  return fig;
+}
+
+}  // namespace
+
+void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, const ReportSeries& series,
+                 ReportModel& m) {
+  const bool png = in.plan.size() > in.svg_map_max_reaches;
+  m.map = {png ? "map.png" : "map.svg",
+           fmt::format("Reaches coloured and widened by peak discharge ({}); node labels are the ids of the "
+                       "GeoPackage's nodes layer.",
+                       m.units.q_unit()),
+           960};
+  drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
+
+  for (std::size_t k = 0; k < m.hydrograph_outlets.size(); ++k) {
+    const std::uint32_t o = m.hydrograph_outlets[k];
+    if (!series.has(o)) continue;
+    FigureFile f{fmt::format("outlet-{}.svg", k + 1), "Outlet O:" + in.plan.reach_id[o], 620};
+    drawHydrograph(folder / f.file, outletFigure(in, series, m, o));
+    m.outlet_figures.push_back(std::move(f));
+  }
+  for (std::size_t k = 0; k < m.hydrograph_confluences.size(); ++k) {
+    const auto& node = in.results.nodes[m.hydrograph_confluences[k]];
+    FigureFile f{fmt::format("confluence-{}.svg", k + 1), "Confluence " + node.node_id, 620};
+    drawHydrograph(folder / f.file, confluenceFigure(in, series, m, node, leavingReach(series, node.node_id)));
+    m.confluence_figures.push_back(std::move(f));
+  }
+  m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960};
+  drawTiming(folder / m.timing.file, timingFigure(in, m));
+}
+
+}  // namespace reachwise::report::detail

@@ -1,0 +1,65 @@
+#pragma once
+// What the report shows, decided once from the results: the units, the
+// outlets and confluences drawn, the figure files written. The page and
+// the figures both read it.
+
+#include <cstdint>
+#include <filesystem>
+#include <string>
+#include <vector>
+
+#include "reachwise/report/Report.hpp"
+
+namespace reachwise::report::detail {
+
+/// Display units: SI, or US customary when the run's config is.
+struct DisplayUnits {
+  bool us = false;
+  double q(double m3s) const;      ///< discharge in m³/s or cfs
+  double len(double m) const;      ///< depth in m or ft
+  double vel(double ms) const;     ///< velocity in m/s or ft/s
+  double vol(double m3) const;     ///< volume in m³ or ft³
+  const char* q_unit() const { return us ? "cfs" : "m³/s"; }
+  const char* len_unit() const { return us ? "ft" : "m"; }
+  const char* vel_unit() const { return us ? "ft/s" : "m/s"; }
+  const char* vol_unit() const { return us ? "ft³" : "m³"; }
+};
+
+/// A figure file of the report and what it shows.
+struct FigureFile {
+  std::string file;      ///< name inside the report folder
+  std::string caption;
+  double width_px = 0;   ///< layout width (the HTML shows it at most this wide)
+};
+
+struct ReportModel {
+  DisplayUnits units;
+  int utc_offset_min = 0;
+  /// Confluence nodes (index into results.nodes) drawn as hydrographs, by
+  /// combined peak, largest first; and those in the timing chart.
+  std::vector<std::size_t> hydrograph_confluences, timing_confluences;
+  /// Outlet reaches (plan index) drawn as hydrographs, by peak, largest first.
+  std::vector<std::uint32_t> hydrograph_outlets;
+  std::size_t outlet_count = 0, confluence_count = 0;
+  FigureFile map, timing;
+  std::vector<FigureFile> outlet_figures, confluence_figures;
+};
+
+/// Branch peaks closer than this count as coinciding (the report's rule).
+inline constexpr double kCoincidenceS = 3600;
+inline constexpr std::size_t kShownConfluences = 6;
+inline constexpr std::size_t kTimingConfluences = 12;
+inline constexpr std::size_t kShownOutlets = 12;
+inline constexpr std::size_t kTableRows = 10;
+
+/// `YYYY-MM-DD HH:MM` in the run's offset, rounded to the minute; "-" for NaN.
+std::string displayTime(double unix_s, int utc_offset_min);
+
+/// Draws every figure into `folder` and fills `model`'s figure entries.
+void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, const ReportSeries& series,
+                 ReportModel& model);
+
+/// Writes `folder`/index.html.
+void writePage(const std::filesystem::path& folder, const ReportInputs& in, const ReportModel& model);
+
+}  // namespace reachwise::report::detail

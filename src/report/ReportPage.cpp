@@ -1,0 +1,324 @@
+// index.html of the run report: key numbers and the caution first, then
+// the figures, then the tables. Only inline CSS; every image is a file of
+// the report folder.
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <fstream>
+#include <numeric>
+#include <set>
+#include <sstream>
+
+#include "ReportModel.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/version.hpp"
+
+namespace reachwise::report::detail {
+
+namespace {
+
+std::string esc(std::string_view s) {
+  std::string out;
+  out.reserve(s.size());
+  for (const char c : s) {
+    switch (c) {
+      case '&': out += "&amp;"; break;
+      case '<': out += "&lt;"; break;
+      case '>': out += "&gt;"; break;
+      case '"': out += "&quot;"; break;
+      case '\'': out += "&#39;"; break;
+      default: out += c;
+    }
+  }
+  return out;
+}
+
+std::string num(double v, int digits) { return std::isfinite(v) ? fmt::format("{:.{}f}", v, digits) : "-"; }
+
+/// Large volumes with thousands separators: 1 234 567.
+std::string volume(double v) {
+  if (!std::isfinite(v)) return "-";
+  std::string s = fmt::format("{:.0f}", std::abs(v));
+  for (int k = static_cast<int>(s.size()) - 3; k > 0; k -= 3) s.insert(static_cast<std::size_t>(k), "\u202f");
+  return (v < 0 ? "−" : "") + s;
+}
+
+constexpr const char* kStyle = R"(
+body{font-family:sans-serif;color:#1a1a1a;margin:0;background:#f3f3f1;line-height:1.4}
+main{max-width:1260px;margin:0 auto;padding:18px 24px 40px;background:#fff}
+h1{font-size:26px;margin:4px 0 2px}
+h2{font-size:19px;margin:28px 0 8px;border-bottom:2px solid #dde3ea;padding-bottom:3px}
+p.sub{color:#555;margin:0 0 12px}
+.caution{background:#fff6dc;border-left:5px solid #d99a00;padding:9px 14px;margin:12px 0}
+.cards{display:grid;grid-template-columns:repeat(auto-fit,minmax(220px,1fr));gap:10px;margin:14px 0}
+.card{border:1px solid #dde3ea;border-radius:6px;padding:9px 12px;background:#fafbfc}
+.card .v{font-size:21px;font-weight:bold}
+.card .k{color:#555;font-size:13px}
+.card .d{color:#555;font-size:12.5px}
+figure{margin:8px 0 14px}
+figure img{max-width:100%;height:auto;border:1px solid #e3e3e3}
+figcaption{color:#555;font-size:13px}
+.grid{display:grid;grid-template-columns:repeat(auto-fit,minmax(520px,1fr));gap:6px 18px}
+table{border-collapse:collapse;font-size:14px;margin:6px 0 10px}
+th,td{border-bottom:1px solid #e3e6ea;padding:4px 10px;text-align:left;vertical-align:top}
+th{background:#f0f3f6}
+td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}
+table.kv th{width:230px;background:none;font-weight:normal;color:#555}
+.warn{color:#8a4b00}
+footer{color:#777;font-size:12.5px;margin-top:30px}
+code{font-size:13px}
+)";
+
+class Page {
+public:
+  Page(const ReportInputs& in, const ReportModel& m) : in_(in), m_(m), u_(m.units) {}
+
+  std::string html() {
+    head();
+    keyNumbers();
+    figures();
+    runSummary();
+    topPeaks();
+    topAttenuation();
+    coincident();
+    out_ << "<footer>Written by reachwise " << esc(kVersion) << " (" << esc(kGitHash)
+         << "). Figures drawn with cairo. Times are in the input's offset (" << esc(offset())
+         << ").</footer>\n</main>\n</body>\n</html>\n";
+    return out_.str();
+  }
+
+private:
+  std::string offset() const {
+    const int o = m_.utc_offset_min;
+    if (o == 0) return "UTC";
+    return fmt::format("UTC{}{:02d}:{:02d}", o < 0 ? '-' : '+', std::abs(o) / 60, std::abs(o) % 60);
+  }
+  std::string time(double t) const { return displayTime(t, m_.utc_offset_min); }
+  const std::string& id(std::size_t i) const { return in_.plan.reach_id[i]; }
+
+  void head() {
+    const auto& axis = in_.results.axis;
+    out_ << "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+         << "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+         << "<meta name=\"generator\" content=\"reachwise " << esc(kVersion) << "\">\n"
+         << "<title>reachwise run report: " << esc(in_.table.layer) << "</title>\n<style>" << kStyle
+         << "</style>\n</head>\n<body>\n<main>\n";
+    out_ << "<h1>Run report: " << esc(in_.table.layer.empty() ? in_.table.source : in_.table.layer) << "</h1>\n";
+    out_ << "<p class=\"sub\">" << in_.plan.size() << " reaches, " << m_.confluence_count << " confluences, "
+         << m_.outlet_count << (m_.outlet_count == 1 ? " outlet" : " outlets") << " &middot; method <b>"
+         << esc(in_.info.method) << "</b> &middot; " << esc(time(static_cast<double>(axis.start_unix_s)))
+         << " to " << esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0)))) << " ("
+         << esc(offset()) << "), " << axis.steps << " steps of " << num(axis.dt_s, 0) << " s</p>\n";
+    out_ << "<p class=\"caution\"><b>Caution.</b> " << esc(io::kResultsCaution) << "</p>\n";
+  }
+
+  void card(const std::string& key, const std::string& value, const std::string& detail) {
+    out_ << "<div class=\"card\"><div class=\"k\">" << esc(key) << "</div><div class=\"v\">" << esc(value)
+         << "</div><div class=\"d\">" << esc(detail) << "</div></div>\n";
+  }
+
+  void keyNumbers() {
+    out_ << "<div class=\"cards\">\n";
+    if (!m_.hydrograph_outlets.empty()) {
+      const std::uint32_t o = m_.hydrograph_outlets.front();
+      const auto& s = in_.results.reaches[o];
+      card(m_.outlet_count > 1 ? "largest outlet peak" : "outlet peak",
+           num(u_.q(s.peak_q_m3s), 2) + " " + u_.q_unit(), "at O:" + id(o) + ", " + time(s.peak_time_s));
+    }
+    std::size_t close = 0;
+    for (const auto& n : in_.results.nodes)
+      if (n.kind == routing::NodeKind::Confluence && n.branch_spread_s <= kCoincidenceS) ++close;
+    card("confluences with branch peaks within 1 h", std::to_string(close),
+         fmt::format("of {} confluences", m_.confluence_count));
+    const routing::VolumeBalance v = routing::networkVolumeBalance(in_.plan, in_.results);
+    card("volume balance error", num(v.error_pct, 3) + " %",
+         volume(u_.vol(v.inflow_m3 + v.lateral_m3)) + " " + u_.vol_unit() + " in, " +
+             volume(u_.vol(v.outflow_m3)) + " out");
+    const auto w = warnings();
+    card("warnings", std::to_string(w.size()), w.empty() ? "none" : "listed in the run summary");
+    out_ << "</div>\n";
+  }
+
+  void figure(const FigureFile& f, const std::string& alt) {
+    out_ << "<figure><img src=\"" << esc(f.file) << "\" alt=\"" << esc(alt) << "\" style=\"width:"
+         << num(f.width_px, 0) << "px\">";
+    if (!f.caption.empty() && f.caption != alt) out_ << "<figcaption>" << esc(f.caption) << "</figcaption>";
+    out_ << "</figure>\n";
+  }
+
+  void figures() {
+    out_ << "<h2>Network</h2>\n";
+    figure(m_.map, "Map of the network coloured by peak discharge");
+    out_ << "<h2>Hydrographs at the " << (m_.outlet_count == 1 ? "outlet" : "outlets") << "</h2>\n";
+    if (m_.outlet_figures.size() < m_.outlet_count)
+      out_ << "<p>The " << m_.outlet_figures.size() << " outlets with the largest peaks of " << m_.outlet_count
+           << "; every outlet is in the GeoPackage's <code>reaches</code> layer.</p>\n";
+    out_ << "<div class=\"grid\">\n";
+    for (const auto& f : m_.outlet_figures) figure(f, "Hydrograph at " + f.caption);
+    out_ << "</div>\n<h2>Hydrographs at the major confluences</h2>\n";
+    if (m_.confluence_figures.empty()) {
+      out_ << "<p>The network has no confluences.</p>\n";
+    } else {
+      out_ << "<p>The " << m_.confluence_figures.size()
+           << " confluences with the largest combined peak (of the " << ReportSeries::kMaxCandidateConfluences
+           << " with the largest upstream networks): each incoming branch, their sum, and the outflow at the "
+              "downstream end of the reach below. Dots mark the peaks.</p>\n<div class=\"grid\">\n";
+      for (const auto& f : m_.confluence_figures) figure(f, "Hydrographs at " + f.caption);
+      out_ << "</div>\n";
+    }
+    out_ << "<h2>Confluence timing</h2>\n<p>How far apart the branch peaks reach each confluence. Where they "
+            "arrive within an hour of each other the floods add up; a wide spread lets the main peak pass "
+            "before the tributary's arrives.</p>\n";
+    figure(m_.timing, "Chart of branch peak times at the major confluences");
+  }
+
+  std::vector<std::string> warnings() const {
+    std::vector<std::string> all;
+    std::set<std::string> seen;
+    for (const auto* list : {&in_.info.warnings, &in_.results.warnings})
+      for (const auto& w : *list)
+        if (seen.insert(w).second) all.push_back(w);
+    return all;
+  }
+
+  void row(const std::string& key, const std::string& value_html) {
+    out_ << "<tr><th>" << esc(key) << "</th><td>" << value_html << "</td></tr>\n";
+  }
+
+  void runSummary() {
+    const auto& axis = in_.results.axis;
+    out_ << "<h2>Run summary</h2>\n<table class=\"kv\" id=\"run-summary\">\n";
+    row("network", "<code>" + esc(in_.table.source) + "</code>, layer <code>" + esc(in_.table.layer) + "</code>");
+    std::string inputs;
+    for (const auto& f : in_.info.inputs) inputs += (inputs.empty() ? "" : "<br>") + ("<code>" + esc(f) + "</code>");
+    row("inputs", inputs.empty() ? "-" : inputs);
+    row("method", esc(in_.info.method));
+    row("time steps", fmt::format("{} steps of {} s", axis.steps, num(axis.dt_s, 0)));
+    row("start", esc(time(static_cast<double>(axis.start_unix_s)) + " (" + offset() + ")"));
+    row("end", esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0))) + " (" + offset() + ")"));
+    const routing::VolumeBalance v = routing::networkVolumeBalance(in_.plan, in_.results);
+    const std::string vu = std::string(" ") + u_.vol_unit();
+    row("volume in", esc(volume(u_.vol(v.inflow_m3 + v.lateral_m3)) + vu + " (" + volume(u_.vol(v.inflow_m3)) +
+                         " point inflow, " + volume(u_.vol(v.lateral_m3)) + " lateral)"));
+    row("volume out", esc(volume(u_.vol(v.outflow_m3)) + vu + " through the outlets"));
+    row("volume still stored", esc(volume(u_.vol(v.storage_change_m3)) + vu + " (storage change over the run)"));
+    row("volume balance error", esc(num(v.error_pct, 3) + " %"));
+    const auto w = warnings();
+    std::string wl;
+    for (const auto& x : w) wl += (wl.empty() ? "" : "<br>") + ("<span class=\"warn\">" + esc(x) + "</span>");
+    row("warnings", w.empty() ? "none" : wl);
+    row("results GeoPackage", in_.gpkg_path.empty() ? "-" : "<code>" + esc(in_.gpkg_path) + "</code>");
+    if (!in_.info.command_line.empty()) row("command", "<code>" + esc(in_.info.command_line) + "</code>");
+    out_ << "</table>\n";
+  }
+
+  std::vector<std::size_t> ranked(const auto& key) const {
+    std::vector<std::size_t> order(in_.plan.size());
+    std::iota(order.begin(), order.end(), std::size_t{0});
+    const auto value = [&](std::size_t i) {
+      const double v = key(in_.results.reaches[i]);
+      return std::isnan(v) ? -INFINITY : v;
+    };
+    const std::size_t n = std::min(kTableRows, order.size());
+    std::partial_sort(order.begin(), order.begin() + static_cast<std::ptrdiff_t>(n), order.end(),
+                      [&](std::size_t a, std::size_t b) { return value(a) != value(b) ? value(a) > value(b) : a < b; });
+    order.resize(n);
+    return order;
+  }
+
+  void topPeaks() {
+    out_ << "<h2>Reaches with the largest peak flow</h2>\n<table id=\"top-peak\">\n<thead><tr><th>#</th>"
+         << "<th>reach</th><th class=\"num\">peak flow (" << u_.q_unit() << ")</th><th>peak time</th>"
+         << "<th class=\"num\">peak depth (" << u_.len_unit() << ")</th><th class=\"num\">peak velocity ("
+         << u_.vel_unit() << ")</th><th class=\"num\">Strahler order</th></tr></thead>\n<tbody>\n";
+    std::size_t rank = 0;
+    for (const std::size_t i : ranked([](const routing::ReachSummary& s) { return s.peak_q_m3s; })) {
+      const auto& s = in_.results.reaches[i];
+      out_ << "<tr><td>" << ++rank << "</td><td>" << esc(id(i)) << "</td><td class=\"num\">"
+           << num(u_.q(s.peak_q_m3s), 2) << "</td><td>" << esc(time(s.peak_time_s)) << "</td><td class=\"num\">"
+           << num(u_.len(s.peak_depth_m), 2) << "</td><td class=\"num\">" << num(u_.vel(s.peak_velocity_ms), 2)
+           << "</td><td class=\"num\">" << (i < in_.plan.strahler.size() ? std::to_string(in_.plan.strahler[i]) : "-")
+           << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
+  }
+
+  void topAttenuation() {
+    out_ << "<h2>Reaches with the largest attenuation</h2>\n<p>Attenuation: how much lower the outflow peak is "
+            "than the reach's inflow peak (top inflow plus lateral inflow).</p>\n<table id=\"top-attenuation\">\n"
+         << "<thead><tr><th>#</th><th>reach</th><th class=\"num\">inflow peak (" << u_.q_unit()
+         << ")</th><th class=\"num\">outflow peak (" << u_.q_unit()
+         << ")</th><th class=\"num\">attenuation (%)</th><th class=\"num\">peak travel time (h)</th></tr></thead>\n"
+            "<tbody>\n";
+    std::size_t rank = 0;
+    for (const std::size_t i : ranked([](const routing::ReachSummary& s) { return s.attenuation_pct; })) {
+      const auto& s = in_.results.reaches[i];
+      out_ << "<tr><td>" << ++rank << "</td><td>" << esc(id(i)) << "</td><td class=\"num\">"
+           << num(u_.q(s.inflow_peak_m3s), 2) << "</td><td class=\"num\">" << num(u_.q(s.peak_q_m3s), 2)
+           << "</td><td class=\"num\">" << num(s.attenuation_pct, 1) << "</td><td class=\"num\">"
+           << num(s.travel_time_s / 3600, 2) << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
+  }
+
+  void coincident() {
+    constexpr std::size_t kMaxRows = 50;
+    std::vector<const routing::NodeSummary*> close;
+    for (const auto& n : in_.results.nodes)
+      if (n.kind == routing::NodeKind::Confluence && n.branch_spread_s <= kCoincidenceS) close.push_back(&n);
+    std::stable_sort(close.begin(), close.end(), [](const auto* a, const auto* b) {
+      return (std::isnan(a->peak_q_m3s) ? -INFINITY : a->peak_q_m3s) >
+             (std::isnan(b->peak_q_m3s) ? -INFINITY : b->peak_q_m3s);
+    });
+    out_ << "<h2>Confluences where branch peaks coincide within one hour</h2>\n";
+    if (close.empty()) {
+      out_ << "<p id=\"coincident-none\">None: at every confluence the branch peaks arrive more than an hour "
+              "apart.</p>\n";
+      return;
+    }
+    out_ << "<p>Coincidence ratio: the combined peak over the sum of the branch peaks (1 = the peaks add up "
+            "fully).";
+    if (close.size() > kMaxRows)
+      out_ << " The " << kMaxRows << " with the largest combined peak of " << close.size()
+           << "; all are in the GeoPackage's <code>nodes</code> layer.";
+    out_ << "</p>\n<table id=\"coincident\">\n<thead><tr><th>confluence</th><th class=\"num\">combined peak ("
+         << u_.q_unit() << ")</th><th>combined peak time</th><th>branches: peak (" << u_.q_unit()
+         << ") at time</th><th class=\"num\">spread (h)</th><th class=\"num\">coincidence ratio</th></tr></thead>\n"
+            "<tbody>\n";
+    for (std::size_t k = 0; k < std::min(kMaxRows, close.size()); ++k) {
+      const auto& n = *close[k];
+      std::string branches;
+      for (const auto& b : n.branches)
+        branches += (branches.empty() ? "" : "<br>") +
+                    esc(id(b.reach) + ": " + num(u_.q(b.peak_q_m3s), 2) + " at " + time(b.peak_time_s));
+      out_ << "<tr><td>" << esc(n.node_id) << "</td><td class=\"num\">" << num(u_.q(n.peak_q_m3s), 2) << "</td><td>"
+           << esc(time(n.peak_time_s)) << "</td><td>" << branches << "</td><td class=\"num\">"
+           << num(n.branch_spread_s / 3600, 2) << "</td><td class=\"num\">" << num(n.coincidence_ratio, 2)
+           << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
+  }
+
+  const ReportInputs& in_;
+  const ReportModel& m_;
+  const DisplayUnits& u_;
+  std::ostringstream out_;
+};
+
+}  // namespace
+
+void writePage(const std::filesystem::path& folder, const ReportInputs& in, const ReportModel& model) {
+  const std::filesystem::path file = folder / "index.html";
+  std::ofstream out(file, std::ios::binary);
+  out << Page(in, model).html();
+  out.close();
+  if (!out) {
+    InputLocation at;
+    at.file = file.string();
+    throw InputError(at, "cannot write the report page");
+  }
+}
+
+}  // namespace reachwise::report::detail
