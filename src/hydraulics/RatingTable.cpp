@@ -2,6 +2,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
+#include <utility>
 
 #include "reachwise/Error.hpp"
 
@@ -79,6 +81,62 @@ RatingTable::RatingTable(const Section& section, double q_min, double q_max, std
   } else {
     addSegment(section, q_min, q_max, nodes, 0.0, 1.0, -above, 0);
   }
+  buildLinearGrid();
+}
+
+void RatingTable::buildLinearGrid() {
+  const auto range = [](const Segment& s, double q0, double q1) {
+    const double a0 = s.sign * (q0 - s.shift), a1 = s.sign * (q1 - s.shift);
+    return std::pair<double, double>{std::min(a0, a1), std::max(a0, a1)};
+  };
+  if (segments_ == 2) {
+    addLinearSegment(seg_[0], q_lo_, q_break_, linear_[0]);
+    const auto [a0, a1] = range(seg_[1], q_break_, q_hi_);
+    addLinearSegment(seg_[1], a0, a1, linear_[1]);
+    q_linear_break_ = q_break_;
+  } else if (seg_[0].shift == 0 && seg_[0].sign == 1) {
+    addLinearSegment(seg_[0], q_lo_, q_hi_, linear_[0]);
+    linear_[1] = linear_[0];  // reached only by q = +inf, and correct for it
+    q_linear_break_ = std::numeric_limits<double>::infinity();
+  } else {  // the whole table lies beyond the singular point
+    const auto [a0, a1] = range(seg_[0], q_lo_, q_hi_);
+    addLinearSegment(seg_[0], a0, a1, linear_[1]);
+    linear_[0] = linear_[1];  // reached only by NaN, and memory-safe for it
+    q_linear_break_ = -std::numeric_limits<double>::infinity();
+  }
+}
+
+/// Cells for a in [a_lo, a_hi] (a_lo > 0): one per key, each the chord of
+/// the Hermite interpolant between the cell's edges, clipped to the range.
+/// The values come from the cubic rather than from new normal-depth solves
+/// so a table stays cheap to build (one per reach and run); the tests bound
+/// the sum of both interpolation errors against the direct solve.
+void RatingTable::addLinearSegment(const Segment& s, double a_lo, double a_hi, LinearSegment& out) {
+  out.shift = s.shift;
+  out.sign = s.sign;
+  out.a_lo = a_lo;
+  out.a_hi = a_hi;
+  out.key0 = linearKey(a_lo);
+  out.first = linear_cells_.size();
+  double left = a_lo, c_left, g_left;
+  hermiteCelerityAndG(s, left, c_left, g_left);
+  for (std::int64_t key = out.key0; key <= linearKey(a_hi); ++key) {
+    const double right = std::min(a_hi, linearKeyStart(key + 1));
+    double c_right, g_right;
+    hermiteCelerityAndG(s, right, c_right, g_right);
+    const double width = right - left;
+    const double c1 = width > 0 ? (c_right - c_left) / width : 0.0;
+    const double g1 = width > 0 ? (g_right - g_left) / width : 0.0;
+    linear_cells_.push_back(LinearCell{c_left - c1 * left, c1, g_left - g1 * left, g1});
+    left = right, c_left = c_right, g_left = g_right;
+  }
+}
+
+void RatingTable::hermiteCelerityAndG(const Segment& s, double a, double& celerity_ms,
+                                      double& inv_tc) const {
+  const Cell c = cellAt(s, (s.sign * std::log(a) - s.u0) * s.inv_h);
+  celerity_ms = hermite(c.t, c.h, c.lo->c, c.lo->dc, c.lo[1].c, c.lo[1].dc);
+  inv_tc = hermite(c.t, c.h, c.lo->g, c.lo->dg, c.lo[1].g, c.lo[1].dg);
 }
 
 void RatingTable::addSegment(const Section& section, double q0, double q1, std::size_t count,

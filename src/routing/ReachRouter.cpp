@@ -102,6 +102,17 @@ void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
   });
 }
 
+/// The flow sums one variable-parameter cell needs; all but Q[j,n+1] are
+/// known before the cell upstream is done (see VpCell::update).
+struct CellFlows {
+  double for_c, for_d, rest, three_point_sum;
+  CellFlows(double left_new, double left_old, double old, double lat)
+      : for_c(left_new + (left_old - old + 2.0 * lat)),
+        for_d(left_new + (old - left_old)),
+        rest((left_old + old) - left_new),
+        three_point_sum(left_new + (left_old + old)) {}
+};
+
 /// Per-cell parameters of variable-parameter routing.
 struct VpCell {
   const hydraulics::RatingTable& table;
@@ -127,10 +138,12 @@ struct VpCell {
     }
     if (qr > capacity) ++surcharge;
   }
-  static double update(double C, double D, double left_new, double left_old, double old, double lat) {
-    return ((-1.0 + C + D) * left_new + (1.0 + C - D) * left_old + (1.0 - C + D) * old +
-            2.0 * C * lat) /
-           (1.0 + C + D);
+  static double update(double C, double D, const CellFlows& f) {
+    // The scheme's numerator (−1 + C + D) Q[j,n+1] + (1 + C − D) Q[j,n]
+    // + (1 − C + D) Q[j+1,n] + 2 C qL Δx regrouped by C and D, so the sums
+    // of flows are formed while C and D are still being looked up and only
+    // two products, two sums and the division wait for them.
+    return (C * f.for_c + f.rest + D * f.for_d) / (1.0 + C + D);
   }
   /// Storage with each cell's parameters at the mean of its end flows.
   double storage(const std::vector<double>& q) const {
@@ -151,13 +164,14 @@ void routeVariable(VpCell& cell, Scheme scheme, int iterations, std::uint32_t m,
                    std::vector<double>& q, std::vector<double>& out, Totals& tot,
                    std::uint64_t& negative_clamps) {
   sweep(m, k, inflow, lateral, dt, q, out, tot, [&](double left_new, double left_old, double old, double lat) {
+    const CellFlows f(left_new, left_old, old, lat);
     double C, D;
-    cell.courantAndReynolds((left_new + left_old + old) / 3.0, C, D);
-    double v = VpCell::update(C, D, left_new, left_old, old, lat);
+    cell.courantAndReynolds(f.three_point_sum * (1.0 / 3.0), C, D);
+    double v = VpCell::update(C, D, f);
     if (scheme == Scheme::FourPoint) {
       for (int it = 0; it < iterations; ++it) {
-        cell.courantAndReynolds(0.25 * (left_new + left_old + old + std::max(v, 0.0)), C, D);
-        const double next = VpCell::update(C, D, left_new, left_old, old, lat);
+        cell.courantAndReynolds(0.25 * (f.three_point_sum + std::max(v, 0.0)), C, D);
+        const double next = VpCell::update(C, D, f);
         const bool done = std::abs(next - v) <= 1e-10 * std::abs(next);
         v = next;
         if (done) break;

@@ -14,6 +14,14 @@
 ///    jump at the bank (kept, not smeared);
 ///  - pipe: above half capacity the coordinate is −ln(Q_cap − Q), since
 ///    celerity falls to zero as √(Q_cap − Q) near the cap.
+///
+/// For the routing hot loop the table also keeps c and 1/(T c) on a dense
+/// grid, linear between nodes, whose cell is read straight off the bits of
+/// the segment's coordinate a (Q, Q − Q_b or Q_cap − Q): the exponent and
+/// the top kLinearBits mantissa bits, i.e. 2^kLinearBits cells per octave of
+/// a. No logarithm, no cubic, no search: a shift, one load, one multiply-add.
+/// The dense grid is split at the same singular points, so the bank's jump
+/// stays a cell edge.
 
 #include <bit>
 #include <cmath>
@@ -45,12 +53,20 @@ public:
     top_width_m = hermite(c.t, c.h, c.lo->w, c.lo->dw, c.lo[1].w, c.lo[1].dw);
   }
   /// Celerity (m/s) and 1/(T c) (s/m^2) at discharge q, held at the ends:
-  /// what a variable-parameter cell needs (D = Q/(T S0 c Δx) without a division).
+  /// what a variable-parameter cell needs (D = Q/(T S0 c Δx) without a
+  /// division). Read from the dense linear grid (see the file comment); its
+  /// distance from the direct solve is stated in RatingTableTest.
   void celerityAndInverseWidthCelerity(double q_m3s, double& celerity_ms, double& inv_tc) const {
-    const Cell& c = locate(q_m3s);
-    celerity_ms = hermite(c.t, c.h, c.lo->c, c.lo->dc, c.lo[1].c, c.lo[1].dc);
-    inv_tc = hermite(c.t, c.h, c.lo->g, c.lo->dg, c.lo[1].g, c.lo[1].dg);
+    // One branch on a per-table constant for one-segment tables, so it is
+    // predicted and costs no latency; two-segment tables branch on the side
+    // of the singular point, which changes only when the flow crosses it.
+    if (q_m3s >= q_linear_break_) [[unlikely]]
+      linearAt(linear_[1], linear_[1].sign * (q_m3s - linear_[1].shift), celerity_ms, inv_tc);
+    else
+      linearAt(linear_[0], q_m3s, celerity_ms, inv_tc);  // plain segment: a = Q
   }
+  /// Dense-grid cells per octave of the coordinate: 2^kLinearBits.
+  static constexpr int kLinearBits = 5;
   /// Depth (m) and velocity (m/s) at discharge q; outside the table they are
   /// solved directly (a pipe above capacity reports the depth at the cap).
   void depthAndVelocity(double q_m3s, double& depth_m, double& velocity_ms) const;
@@ -68,6 +84,18 @@ private:
     double u0 = 0, inv_h = 0, h = 0;
     std::size_t first = 0, count = 0;  // nodes[first .. first+count)
   };
+  /// One dense-grid cell: c = c0 + c1 a and 1/(T c) = g0 + g1 a, the chords
+  /// through the values at the cell's ends (slope-intercept form, so the
+  /// lookup needs no position within the cell).
+  struct LinearCell {
+    double c0, c1, g0, g1;
+  };
+  struct LinearSegment {
+    double shift = 0, sign = 1;  // coordinate a = sign · (q − shift)
+    double a_lo = 1, a_hi = 1;   // range of a; a is held inside it
+    std::int64_t key0 = 0;       // key(a_lo): the first cell's key
+    std::size_t first = 0;       // linear_cells_[first + key(a) − key0]
+  };
   struct Cell {
     const Node* lo;
     double t;  // position in [0, 1] within the interval
@@ -76,12 +104,33 @@ private:
 
   void addSegment(const Section& section, double q0, double q1, std::size_t nodes, double shift,
                   double sign, int bank_side, int segment);
+  void buildLinearGrid();
+  void addLinearSegment(const Segment& s, double a_lo, double a_hi, LinearSegment& out);
+  void hermiteCelerityAndG(const Segment& s, double a, double& celerity_ms, double& inv_tc) const;
+  /// Cell key of a > 0: its exponent and top mantissa bits. The bits of a
+  /// positive double grow with its value, so keys grow with a.
+  static std::int64_t linearKey(double a) {
+    return static_cast<std::int64_t>(std::bit_cast<std::uint64_t>(a) >> (52 - kLinearBits));
+  }
+  static double linearKeyStart(std::int64_t key) {
+    return std::bit_cast<double>(static_cast<std::uint64_t>(key) << (52 - kLinearBits));
+  }
+  void linearAt(const LinearSegment& s, double a, double& celerity_ms, double& inv_tc) const {
+    if (!(a > s.a_lo)) a = s.a_lo;  // held at the ends (NaN too), so the key stays in range
+    if (a > s.a_hi) a = s.a_hi;
+    const LinearCell& c = linear_cells_[s.first + static_cast<std::size_t>(linearKey(a) - s.key0)];
+    celerity_ms = c.c0 + c.c1 * a;
+    inv_tc = c.g0 + c.g1 * a;
+  }
   Cell locate(double q) const {
     const Segment& s = (segments_ == 2 && q >= q_break_) ? seg_[1] : seg_[0];
-    const double top = static_cast<double>(s.count - 1);
     const double arg = s.sign * (q - s.shift);
-    double u = arg > 0 ? (s.sign * fastLog(arg) - s.u0) * s.inv_h
-                       : (s.sign > 0 ? 0.0 : static_cast<double>(s.count));
+    return cellAt(s, arg > 0 ? (s.sign * fastLog(arg) - s.u0) * s.inv_h
+                             : (s.sign > 0 ? 0.0 : static_cast<double>(s.count)));
+  }
+  /// The interval holding position u (in node spacings from the segment's first node).
+  Cell cellAt(const Segment& s, double u) const {
+    const double top = static_cast<double>(s.count - 1);
     if (!(u > 0)) u = 0;  // also catches NaN
     if (u >= top) return Cell{&nodes_[s.first + s.count - 2], 1.0, s.h};
     const auto i = static_cast<std::size_t>(u);
@@ -117,6 +166,9 @@ private:
   int segments_ = 1;
   double q_break_ = 0;  // first discharge of the second segment
   double q_lo_ = 0, q_hi_ = 0;
+  std::vector<LinearCell> linear_cells_;
+  LinearSegment linear_[2];  // [0] plain (a = Q), [1] the second segment's coordinate
+  double q_linear_break_ = 0;  // queries at or above it use linear_[1]
 };
 
 }  // namespace reachwise::hydraulics
