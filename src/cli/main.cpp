@@ -7,6 +7,7 @@
 #include "CheckCommand.hpp"
 #include "RouteCommand.hpp"
 #include "Subcommand.hpp"
+#include "SynthCommand.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/version.hpp"
 
@@ -21,6 +22,7 @@ int main(int argc, char** argv) {
   for (int i = 1; i < argc; ++i) command_line += std::string(" ") + argv[i];
   reachwise::cli::addRouteCommand(app, chosen, command_line);
   reachwise::cli::addDemoCommand(app, chosen, command_line);
+  reachwise::cli::addSynthCommand(app, chosen);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
