@@ -50,10 +50,19 @@ bool isLineType(OGRwkbGeometryType t) {
   }
 }
 
+/// A `reaches` layer that `route --write-back` added to the source (prefix
+/// `rw_`, a `peak_q` field): not a network to choose automatically, so that
+/// a second run on the same file finds the original layer again.
+bool isWrittenBackResults(OGRLayer& layer) {
+  return std::string_view(layer.GetName()).rfind("rw_", 0) == 0 &&
+         layer.GetLayerDefn()->GetFieldIndex("peak_q") >= 0;
+}
+
 std::vector<std::string> lineLayerNames(GDALDataset& ds) {
   std::vector<std::string> names;
   for (OGRLayer* layer : ds.GetLayers())
-    if (isLineType(layer->GetGeomType())) names.emplace_back(layer->GetName());
+    if (isLineType(layer->GetGeomType()) && !isWrittenBackResults(*layer))
+      names.emplace_back(layer->GetName());
   return names;
 }
 
