@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <numbers>
+#include <utility>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/Peak.hpp"
@@ -44,39 +45,94 @@ void initialState(std::vector<double>& q, std::uint32_t m, double inflow0, doubl
   for (std::uint32_t j = 0; j <= m; ++j) q[j] = inflow0 + lateral0 * j / m;
 }
 
-/// Advances the reach over every output step and its k sub-steps, with the
-/// forcing linear within a step and the lateral inflow of a sub-step (the
-/// mean of its end values) spread evenly over the m sub-reaches. `cell`
-/// gives Q[j+1,n+1] from Q[j,n+1], Q[j,n], Q[j+1,n] and that lateral share
-/// (m^3/s); the sweep keeps the volume totals and writes the outflow.
+/// Forcing of one row (one sub-step over the whole reach): the top inflow
+/// at its end and the lateral inflow per sub-reach (q_L Δx, m^3/s, the mean
+/// of the sub-step's end values spread evenly over the m sub-reaches).
+struct Row {
+  double inflow, lat;
+};
+
+/// The rows of a run, numbered from 0: k per output step, the forcing
+/// linear within a step.
+struct Rows {
+  std::span<const double> inflow, lateral;
+  std::uint32_t m, k;
+
+  std::size_t count() const { return (inflow.size() - 1) * k; }
+  Row operator()(std::size_t r) const {
+    const std::size_t n = r / k;
+    const std::uint32_t s = static_cast<std::uint32_t>(r % k) + 1;
+    const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
+                        lateral.empty() ? 0.0 : lateral[n + 1]};
+    const double fr = double(s) / k, fr0 = double(s - 1) / k;
+    return Row{f.inflowAt(fr), 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m};
+  }
+};
+
+/// Advances q (the m+1 section flows) by one row; returns the outflow.
+template <class Cell>
+double oneRow(std::vector<double>& q, std::uint32_t m, Row a, Cell& cell) {
+  double left_new = a.inflow, left_old = q[0];
+  q[0] = left_new;
+  for (std::uint32_t j = 1; j <= m; ++j) {
+    const double old = q[j];
+    q[j] = cell(left_new, left_old, old, a.lat);
+    left_new = q[j];
+    left_old = old;
+  }
+  return q[m];
+}
+
+/// Advances q by two rows a and b at once, b one cell behind a. Cell j of a
+/// waits on cell j−1 of a; cell j−1 of b waits on cell j−2 of b and on
+/// cells j−2, j−1 of a, all done one iteration earlier. So each iteration
+/// holds two independent dependency chains that the core overlaps, while
+/// every cell sees the same inputs as in row-by-row order (same results).
+/// Row a lives in registers only; returns both outflows.
+template <class Cell>
+std::pair<double, double> twoRows(std::vector<double>& q, std::uint32_t m, Row a, Row b, Cell& cell) {
+  double a_new = cell(a.inflow, q[0], q[1], a.lat);  // Q_a[1]
+  double a_old = q[1];                                // Q_prev[1]
+  double b_new = b.inflow, b_old = a.inflow;          // Q_b[0], Q_a[0]
+  for (std::uint32_t j = 2; j <= m; ++j) {
+    const double old = q[j];
+    const double va = cell(a_new, a_old, old, a.lat);        // Q_a[j]
+    const double vb = cell(b_new, b_old, a_new, b.lat);      // Q_b[j-1]
+    q[j - 1] = vb;
+    b_old = a_new, b_new = vb;
+    a_old = old, a_new = va;
+  }
+  q[m] = cell(b_new, b_old, a_new, b.lat);  // Q_b[m]
+  q[0] = b.inflow;
+  return {a_new, q[m]};
+}
+
+/// Advances the reach over every row of the run. `cell` gives Q[j+1,n+1]
+/// from Q[j,n+1], Q[j,n], Q[j+1,n] and the lateral share (m^3/s); the sweep
+/// keeps the volume totals and writes the outflow at each output step.
 template <class Cell>
 void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
            std::span<const double> lateral, double dt, std::vector<double>& q,
            std::vector<double>& out, Totals& tot, Cell&& cell) {
-  const std::size_t n_steps = inflow.size();
+  const Rows rows{inflow, lateral, m, k};
   const double dts = dt / k;
-  out[0] = q[m];
-  for (std::size_t n = 0; n + 1 < n_steps; ++n) {
-    const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
-                        lateral.empty() ? 0.0 : lateral[n + 1]};
-    for (std::uint32_t s = 1; s <= k; ++s) {
-      const double fr = double(s) / k, fr0 = double(s - 1) / k;
-      const double lat = 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;  // q_L Δx, m^3/s
-      const double q_out_old = q[m];
-      double left_new = f.inflowAt(fr), left_old = q[0];
-      q[0] = left_new;
-      for (std::uint32_t j = 1; j <= m; ++j) {
-        const double old = q[j];
-        const double v = cell(left_new, left_old, old, lat);
-        q[j] = v;
-        left_new = v;
-        left_old = old;
-      }
-      tot.out += 0.5 * dts * (q_out_old + q[m]);
-    }
-    tot.in += 0.5 * dt * (f.in0 + f.in1);
-    tot.lat += 0.5 * dt * (f.lat0 + f.lat1);
-    out[n + 1] = q[m];
+  double q_out = q[m];
+  out[0] = q_out;
+  const auto finishRow = [&](std::size_t r, double q_out_new) {
+    tot.out += 0.5 * dts * (q_out + q_out_new);
+    q_out = q_out_new;
+    if ((r + 1) % k == 0) out[(r + 1) / k] = q_out;
+  };
+  std::size_t r = 0;
+  for (; r + 1 < rows.count(); r += 2) {
+    const auto [out_a, out_b] = twoRows(q, m, rows(r), rows(r + 1), cell);
+    finishRow(r, out_a);
+    finishRow(r + 1, out_b);
+  }
+  if (r < rows.count()) finishRow(r, oneRow(q, m, rows(r), cell));
+  for (std::size_t n = 0; n + 1 < inflow.size(); ++n) {
+    tot.in += 0.5 * dt * (inflow[n] + inflow[n + 1]);
+    if (!lateral.empty()) tot.lat += 0.5 * dt * (lateral[n] + lateral[n + 1]);
   }
 }
 
@@ -131,7 +187,7 @@ struct VpCell {
       table.celerityAndInverseWidthCelerity(qr, c, inv_tc);
     }
     C = c * dt_over_dx;
-    D = qr * inv_tc * inv_slope_dx;
+    D = inv_tc * (qr * inv_slope_dx);  // qr/(S0 Δx) is formed while the table is read
     if (D > 1.0) {
       D = 1.0;  // X < 0 raised to 0
       ++x_clamps;
