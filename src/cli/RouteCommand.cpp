@@ -22,7 +22,9 @@
 #include "reachwise/io/ForcingFiles.hpp"
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/io/RouteConfig.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
+#include "reachwise/report/Report.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/version.hpp"
 
@@ -33,7 +35,7 @@ namespace {
 namespace fs = std::filesystem;
 
 struct RouteOptions {
-  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc;
+  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report;
   std::string hydrographs = "auto";
   double dt_s = 0;
   unsigned threads = 0;
@@ -174,7 +176,8 @@ routing::Method parseMethod(const std::string& m) {
 std::string hours(double s) { return fmt::format("{:.1f} h", s / 3600.0); }
 
 void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
-                      const routing::NetworkResults& r, const std::string& gpkg) {
+                      const routing::NetworkResults& r, const std::string& gpkg,
+                      const std::string& report_dir) {
   const int off = r.axis.utc_offset_min;
   fmt::print(out, "reachwise demo: {} reaches, {} steps of {} s from {}\n", plan.size(), r.axis.steps,
              r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off));
@@ -209,6 +212,8 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
   fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
   for (const auto& w : r.warnings) fmt::print(out, "  {}\n", w);
   fmt::print(out, "open in a GIS: {}\n", gpkg);
+  if (!report_dir.empty())
+    fmt::print(out, "run report (open in a web browser): {}\n", (fs::path(report_dir) / "index.html").string());
   fmt::print(out, "caution: {}\n", io::kResultsCaution);
 }
 
@@ -279,6 +284,12 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     nc_selected = std::make_unique<SelectedSeries>(mask, *nc_series);
     sinks.push_back(nc_selected.get());
   }
+  std::unique_ptr<report::ReportSeries> report_series;
+  if (!o.report.empty()) {
+    refuseExisting(o.report, o.overwrite);
+    report_series = std::make_unique<report::ReportSeries>(plan, axis);
+    sinks.push_back(report_series.get());
+  }
   io::SeriesFanOut fan_out(sinks);
 
   routing::NetworkRouteOptions ro;
@@ -305,6 +316,12 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   info.command_line = o.command_line;
   info.warnings = results.warnings;
   writer->writeSummaries(results, info);
+  // The report first: if it fails, no output is committed.
+  if (report_series) {
+    const report::ReportInputs ri{table, plan, results, info, target,
+                                  net->config.units == units::System::USCustomary};
+    report::writeReport(o.report, ri, *report_series, o.overwrite);
+  }
   if (!o.csv.empty()) {
     io::writeCsvTables(o.csv, o.overwrite, table, plan, results, info);
     csv_series->commit();
@@ -313,10 +330,11 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   writer->commit();
 
   if (o.demo) {
-    printDemoSummary(out, plan, results, target);
+    printDemoSummary(out, plan, results, target, o.report);
   } else if (!o.quiet) {
-    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}\n", plan.size(), axis.steps, o.method,
-               target, o.series_nc.empty() ? "" : " and " + o.series_nc);
+    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", plan.size(), axis.steps, o.method,
+               target, o.series_nc.empty() ? "" : " and " + o.series_nc,
+               o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
                route_s, cellUpdates(results) / std::max(route_s, 1e-9) / 1e6,
@@ -330,6 +348,30 @@ int runGuarded(const RouteOptions& o) {
   return guarded(std::cerr, o.network, [&] { return route(o, std::cout, std::cerr); });
 }
 
+/// Fills what the command line left unset from the run file's `[route]`
+/// table (flags win).
+void applyRunFile(const CLI::App& sub, RouteOptions& o) {
+  if (o.config.empty()) return;
+  requireExisting(o.config);
+  const io::RouteConfig c = io::RouteConfig::fromFile(o.config);
+  auto take = [&](const char* flag, auto& field, const auto& value) {
+    if (value && sub.count(flag) == 0) field = *value;
+  };
+  take("--inflow", o.inflow, c.inflow);
+  take("--lateral", o.lateral, c.lateral);
+  take("--method", o.method, c.method);
+  take("--dt", o.dt_s, c.dt_s);
+  take("--out", o.out, c.out);
+  take("--csv", o.csv, c.csv);
+  take("--series", o.series_nc, c.series);
+  take("--report", o.report, c.report);
+  take("--hydrographs", o.hydrographs, c.hydrographs);
+  take("--threads", o.threads, c.threads);
+  take("--write-back", o.write_back, c.write_back);
+  take("--overwrite", o.overwrite, c.overwrite);
+  take("--quiet", o.quiet, c.quiet);
+}
+
 }  // namespace
 
 void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
@@ -340,7 +382,8 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
                                   "CSV or NetCDF of discharge entering at the top of named reaches");
   sub->add_option("--lateral", o->lateral, "CSV or NetCDF of lateral inflow along named reaches");
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
-  sub->add_option("--config", o->config, "TOML run file with field mappings and defaults");
+  sub->add_option("--config", o->config,
+                  "TOML run file: field mappings and defaults ([network]), any of these options ([route])");
   sub->add_option("--method", o->method, "vpmc (default), mc or muskingum")
       ->check(CLI::IsMember({"vpmc", "mc", "muskingum"}));
   sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(CLI::PositiveNumber);
@@ -353,13 +396,24 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
                   "auto (default: all below 10,000 reaches, else outlets and confluences) or reach ids");
   sub->add_option("--series", o->series_nc,
                   "Write the chosen hydrographs to this NetCDF file instead of the GeoPackage table");
+  sub->add_option("--report", o->report, "Write an HTML run report with figures into this folder");
   sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
-  sub->callback([&chosen, o, command_line] {
-    if (o->inflow.empty() && o->lateral.empty())
-      throw CLI::ValidationError("--inflow/--lateral", "give at least one forcing file");
+  sub->callback([&chosen, o, sub, command_line] {
     o->command_line = command_line;
-    chosen = [o] { return runGuarded(*o); };
+    chosen = [o, sub] {
+      const int loaded = guarded(std::cerr, o->config, [&] {
+        applyRunFile(*sub, *o);
+        return kExitOk;
+      });
+      if (loaded != kExitOk) return loaded;
+      if (o->inflow.empty() && o->lateral.empty()) {
+        fmt::print(std::cerr, "route: give --inflow and/or --lateral (or set them in the run file's [route] "
+                              "table)\n");
+        return kExitUsage;
+      }
+      return runGuarded(*o);
+    };
   });
 }
 
@@ -380,6 +434,7 @@ void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_li
       std::error_code ec;
       fs::create_directories(*dir, ec);
       o.out = (fs::path(*dir) / "demo-results.gpkg").string();
+      o.report = (fs::path(*dir) / "report").string();
       return runGuarded(o);
     };
   });

@@ -29,6 +29,7 @@ TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {
   const fs::path gpkg = dir / "demo-results.gpkg";
   std::unique_ptr<GDALDataset> ds(GDALDataset::Open(gpkg.c_str(), GDAL_OF_VECTOR));
   ASSERT_TRUE(ds);
+  EXPECT_TRUE(fs::exists(dir / "report" / "index.html"));  // the demo writes its run report too
   for (const char* name : {"reaches", "nodes", "hydrographs", "run_info", "confluence_branches"})
     EXPECT_NE(ds->GetLayerByName(name), nullptr) << name;
   OGRLayer* reaches = ds->GetLayerByName("reaches");

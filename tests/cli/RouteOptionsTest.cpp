@@ -224,6 +224,17 @@ TEST(RouteOptions, QuietPrintsNothingAndForcingIsRequired) {
   EXPECT_EQ(run("route " + kNetwork + " --out " + tmp.file("x.gpkg")).code, 2);  // usage: no forcing
 }
 
+TEST(RouteOptions, RunFileHoldsTheOptionsAndFlagsWin) {
+  const testsupport::TempDir tmp;
+  writeText(tmp.path() / "run.toml", "[route]\ninflow = \"" + kSample + "inflow.csv\"\nlateral = \"" + kSample +
+                                         "lateral.csv\"\nout = \"from-file.gpkg\"\nhydrographs = \"outlets\"\n");
+  const Outcome r = run("route " + kNetwork + " --config " + tmp.file("run.toml") + " --hydrographs R12");
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto q = hydrographs(tmp.path() / "from-file.gpkg");  // out relative to the run file
+  ASSERT_EQ(q.size(), 1u);
+  EXPECT_EQ(q.begin()->first, "R12");  // the flag overrides the file
+}
+
 // Each bad forcing file gives its own error, naming the file and line, and
 // leaves nothing behind in the output folder.
 struct BadForcing {

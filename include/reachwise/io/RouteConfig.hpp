@@ -1,0 +1,26 @@
+#pragma once
+/// \file
+/// The `[route]` table of a TOML run file: everything the `route` flags
+/// hold, so that a run can be kept in one file (docs/formats.md). Flags
+/// given on the command line override it. Relative paths are taken from
+/// the run file's folder.
+
+#include <optional>
+#include <string>
+
+namespace reachwise::io {
+
+struct RouteConfig {
+  std::optional<std::string> inflow, lateral, method, out, csv, series, hydrographs, report;
+  std::optional<double> dt_s;
+  std::optional<unsigned> threads;
+  std::optional<bool> write_back, overwrite, quiet;
+
+  /// Parses the `[route]` table of `path` (absent table = all unset).
+  /// Throws InputError naming the file and key for an unknown key, a value
+  /// of the wrong type, or a method / step / thread count out of range.
+  static RouteConfig fromFile(const std::string& path);
+  static RouteConfig fromString(const std::string& text, const std::string& origin);
+};
+
+}  // namespace reachwise::io

@@ -1,0 +1,112 @@
+#include "reachwise/io/RouteConfig.hpp"
+
+#include <toml++/toml.h>
+
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::io {
+
+namespace {
+
+namespace fs = std::filesystem;
+
+InputError keyError(const std::string& origin, const std::string& key, const std::string& message) {
+  InputLocation where;
+  where.file = origin;
+  where.field = "route." + key;
+  return InputError(where, message);
+}
+
+template <class T>
+T required(const toml::node& node, const std::string& origin, const std::string& key, const char* what) {
+  if (auto v = node.value<T>()) return *v;
+  throw keyError(origin, key, std::string("expected ") + what);
+}
+
+/// `hydrographs` may be one text ("outlets,R12") or an array of texts.
+std::string hydrographList(const toml::node& node, const std::string& origin) {
+  if (auto s = node.value<std::string>()) return *s;
+  const auto* arr = node.as_array();
+  if (!arr) throw keyError(origin, "hydrographs", "expected a text or an array of texts");
+  std::string out;
+  for (const auto& item : *arr) {
+    std::string v;
+    if (auto s = item.value<std::string>())
+      v = *s;
+    else if (auto i = item.value<std::int64_t>())
+      v = std::to_string(*i);
+    else
+      throw keyError(origin, "hydrographs", "expected texts (or integer reach ids)");
+    out += (out.empty() ? "" : ",") + v;
+  }
+  return out;
+}
+
+}  // namespace
+
+RouteConfig RouteConfig::fromString(const std::string& text, const std::string& origin) {
+  toml::table doc;
+  try {
+    doc = toml::parse(text, origin);
+  } catch (const toml::parse_error& e) {
+    InputLocation where;
+    where.file = origin;
+    where.line = static_cast<std::int64_t>(e.source().begin.line);
+    throw InputError(where, std::string(e.description()));
+  }
+  RouteConfig c;
+  const auto* route = doc["route"].as_table();
+  if (!route) {
+    if (doc.contains("route")) throw keyError(origin, "", "expected a table");
+    return c;
+  }
+  const fs::path base = fs::path(origin).parent_path();
+  auto path = [&](const toml::node& v, const std::string& key) {
+    const fs::path p = required<std::string>(v, origin, key, "a file or folder path");
+    return (p.is_relative() && !base.empty() ? base / p : p).string();
+  };
+  for (const auto& [k, v] : *route) {
+    const std::string key(k.str());
+    if (key == "inflow") c.inflow = path(v, key);
+    else if (key == "lateral") c.lateral = path(v, key);
+    else if (key == "out") c.out = path(v, key);
+    else if (key == "csv") c.csv = path(v, key);
+    else if (key == "series") c.series = path(v, key);
+    else if (key == "report") c.report = path(v, key);
+    else if (key == "hydrographs") c.hydrographs = hydrographList(v, origin);
+    else if (key == "method") {
+      c.method = required<std::string>(v, origin, key, "a text");
+      if (*c.method != "vpmc" && *c.method != "mc" && *c.method != "muskingum")
+        throw keyError(origin, key, "expected \"vpmc\", \"mc\" or \"muskingum\", got \"" + *c.method + "\"");
+    } else if (key == "dt") {
+      c.dt_s = required<double>(v, origin, key, "a number of seconds");
+      if (!(*c.dt_s > 0)) throw keyError(origin, key, "must be positive");
+    } else if (key == "threads") {
+      const auto t = required<std::int64_t>(v, origin, key, "a whole number");
+      if (t < 1 || t > 4096) throw keyError(origin, key, "must be between 1 and 4096");
+      c.threads = static_cast<unsigned>(t);
+    } else if (key == "write_back") c.write_back = required<bool>(v, origin, key, "true or false");
+    else if (key == "overwrite") c.overwrite = required<bool>(v, origin, key, "true or false");
+    else if (key == "quiet") c.quiet = required<bool>(v, origin, key, "true or false");
+    else throw keyError(origin, key, "unknown key (see docs/formats.md)");
+  }
+  return c;
+}
+
+RouteConfig RouteConfig::fromFile(const std::string& path) {
+  std::ifstream in(path);
+  if (!in) {
+    InputLocation where;
+    where.file = path;
+    throw InputError(where, "cannot read the run file");
+  }
+  std::stringstream text;
+  text << in.rdbuf();
+  return fromString(text.str(), path);
+}
+
+}  // namespace reachwise::io

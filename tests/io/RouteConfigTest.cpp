@@ -1,0 +1,66 @@
+// The [route] table of a run file (docs/formats.md).
+#include <gtest/gtest.h>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/io/RouteConfig.hpp"
+
+using reachwise::InputError;
+using reachwise::io::RouteConfig;
+
+TEST(RouteConfig, ReadsEveryKeyAndResolvesPathsFromTheFilesFolder) {
+  const RouteConfig c = RouteConfig::fromString(R"(
+[network]
+layer = "reaches"
+[route]
+inflow = "forcing/in.csv"
+lateral = "/data/lat.nc"
+method = "mc"
+dt = 900
+out = "out.gpkg"
+csv = "tables"
+series = "s.nc"
+report = "report"
+hydrographs = ["outlets", 17, "R3"]
+threads = 2
+write_back = false
+overwrite = true
+quiet = true
+)",
+                                                "/runs/a/run.toml");
+  EXPECT_EQ(*c.inflow, "/runs/a/forcing/in.csv");
+  EXPECT_EQ(*c.lateral, "/data/lat.nc");
+  EXPECT_EQ(*c.method, "mc");
+  EXPECT_EQ(*c.dt_s, 900.0);
+  EXPECT_EQ(*c.out, "/runs/a/out.gpkg");
+  EXPECT_EQ(*c.csv, "/runs/a/tables");
+  EXPECT_EQ(*c.series, "/runs/a/s.nc");
+  EXPECT_EQ(*c.report, "/runs/a/report");
+  EXPECT_EQ(*c.hydrographs, "outlets,17,R3");
+  EXPECT_EQ(*c.threads, 2u);
+  EXPECT_FALSE(*c.write_back);
+  EXPECT_TRUE(*c.overwrite);
+  EXPECT_TRUE(*c.quiet);
+}
+
+TEST(RouteConfig, AbsentTableLeavesEverythingUnset) {
+  const RouteConfig c = RouteConfig::fromString("[network]\nlayer = \"x\"\n", "run.toml");
+  EXPECT_FALSE(c.inflow || c.method || c.dt_s || c.threads || c.overwrite);
+}
+
+TEST(RouteConfig, BadValuesNameTheFileAndKey) {
+  auto message = [](const std::string& text) {
+    try {
+      RouteConfig::fromString(text, "run.toml");
+    } catch (const InputError& e) {
+      return std::string(e.what());
+    }
+    return std::string("no error");
+  };
+  EXPECT_NE(message("[route]\nspeed = 1\n").find("route.speed"), std::string::npos);
+  EXPECT_NE(message("[route]\nmethod = \"kinematic\"\n").find("route.method"), std::string::npos);
+  EXPECT_NE(message("[route]\ndt = -5\n").find("route.dt"), std::string::npos);
+  EXPECT_NE(message("[route]\nthreads = 0\n").find("route.threads"), std::string::npos);
+  EXPECT_NE(message("[route]\nquiet = \"yes\"\n").find("route.quiet"), std::string::npos);
+  EXPECT_NE(message("[route]\ninflow = 3\n").find("route.inflow"), std::string::npos);
+  EXPECT_NE(message("[route\n").find("run.toml"), std::string::npos);
+}
