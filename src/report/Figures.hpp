@@ -100,7 +100,8 @@ struct MapFigure {
   bool feet = false;        ///< scale bar in ft / mi
 };
 
-void drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format);
+/// Returns the figure's layout width (px).
+double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format);
 
 // ---- hydrographs ----
 

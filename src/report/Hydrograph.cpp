@@ -143,13 +143,19 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   double y = y0 + 58 + 10;
   for (const Curve& c : fig.curves) {
     setColour(cr, c.colour);
-    cairo_set_line_width(cr, c.line_width + 0.4);
-    const double dash[] = {5.0, 3.0};
-    cairo_set_dash(cr, dash, c.dashed ? 2 : 0, 0);
-    cairo_move_to(cr, kLeft, y - 4);
-    cairo_line_to(cr, kLeft + 26, y - 4);
-    cairo_stroke(cr);
-    cairo_set_dash(cr, nullptr, 0, 0);
+    if (c.q.empty()) {
+      // A peak without a drawn series: the legend shows its marker only.
+      cairo_arc(cr, kLeft + 13, y - 4, 4.2, 0, 2 * M_PI);
+      cairo_fill(cr);
+    } else {
+      cairo_set_line_width(cr, c.line_width + 0.4);
+      const double dash[] = {5.0, 3.0};
+      cairo_set_dash(cr, dash, c.dashed ? 2 : 0, 0);
+      cairo_move_to(cr, kLeft, y - 4);
+      cairo_line_to(cr, kLeft + 26, y - 4);
+      cairo_stroke(cr);
+      cairo_set_dash(cr, nullptr, 0, 0);
+    }
     cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
     drawText(cr, kLeft + 34, y, c.label, 11.5, Align::Left, true);
     const double label_w = std::max(150.0, textWidth(cr, c.label, 11.5, true) + 12);

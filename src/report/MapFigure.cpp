@@ -13,7 +13,8 @@ namespace reachwise::report::detail {
 
 namespace {
 
-constexpr double kWidth = 960, kMargin = 10, kStrip = 100;
+constexpr double kMargin = 10, kLegendRow = 84;
+constexpr double kMaxPlotWidth = 940, kMaxPlotHeight = 760, kMinPlotWidth = 540, kMinPlotHeight = 360;
 
 struct Box {
   double x0, y0, x1, y1;
@@ -73,7 +74,7 @@ std::string legendLabel(double v) {
 void drawColourLegend(cairo_t* cr, const MapFigure& map, const ValueScale& vs, double x, double y) {
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
   drawText(cr, x, y, map.value_label + (vs.log ? ", log scale" : ""), 12, Align::Left, true);
-  const double bx = x, by = y + 10, bw = 330, bh = 14;
+  const double bx = x, by = y + 10, bw = 280, bh = 14;
   cairo_pattern_t* grad = cairo_pattern_create_linear(bx, 0, bx + bw, 0);
   for (int k = 0; k <= 16; ++k) {
     const Rgb c = rampColour(k / 16.0);
@@ -201,7 +202,7 @@ void drawNorthArrow(cairo_t* cr, double x, double y) {
 
 }  // namespace
 
-void drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format) {
+double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format) {
   double xmin = INFINITY, xmax = -INFINITY, ymin = INFINITY, ymax = -INFINITY;
   for (const MapLine& l : map.lines)
     for (std::size_t k = 0; k + 1 < l.xy.size(); k += 2) {
@@ -210,15 +211,26 @@ void drawMap(const std::filesystem::path& file, const MapFigure& map, ImageForma
     }
   if (!(xmax >= xmin)) xmin = 0, xmax = 1, ymin = 0, ymax = 1;
   const double dx = std::max((xmax - xmin) * map.aspect_x, 1e-9), dy = std::max(ymax - ymin, 1e-9);
-  const double pw = kWidth - 2 * kMargin;
-  const double ph = std::clamp(pw * dy / dx, 360.0, 820.0);
+  // The map takes the network's shape within kMaxPlot; a tall network gets
+  // a narrow map, so that the page can put the outlet hydrograph beside it.
   const double pad = 28;  // room for markers and labels at the edge
-  const double s = std::min((pw - 2 * pad) / dx, (ph - 2 * pad) / dy);
+  const double s = std::min((kMaxPlotWidth - 2 * pad) / dx, (kMaxPlotHeight - 2 * pad) / dy);
+  const double pw = std::max(dx * s + 2 * pad, kMinPlotWidth), ph = std::max(dy * s + 2 * pad, kMinPlotHeight);
   const double cx = (xmin + xmax) / 2, cy = (ymin + ymax) / 2;
   const auto X = [&](double x) { return kMargin + pw / 2 + (x - cx) * map.aspect_x * s; };
   const auto Y = [&](double y) { return kMargin + ph / 2 - (y - cy) * s; };
 
-  Canvas canvas(file, kWidth, ph + 2 * kMargin + kStrip, format);
+  // Legend blocks flow left to right and wrap below the map.
+  const double block_w[] = {300, 200, 230};
+  double bx[3], by[3], cursor = kMargin + 10, row_y = kMargin + ph + 28;
+  for (int b = 0; b < 3; ++b) {
+    if (cursor + block_w[b] > kMargin + pw && cursor > kMargin + 10) cursor = kMargin + 10, row_y += kLegendRow;
+    bx[b] = cursor, by[b] = row_y;
+    cursor += block_w[b] + 10;
+  }
+  const double width = pw + 2 * kMargin, height = row_y + kLegendRow - 16;
+
+  Canvas canvas(file, width, height, format);
   cairo_t* cr = canvas.cr();
   cairo_set_source_rgb(cr, 0.975, 0.975, 0.965);
   cairo_rectangle(cr, kMargin, kMargin, pw, ph);
@@ -282,11 +294,11 @@ void drawMap(const std::filesystem::path& file, const MapFigure& map, ImageForma
   cairo_rectangle(cr, kMargin + 0.5, kMargin + 0.5, pw - 1, ph - 1);
   cairo_stroke(cr);
 
-  const double strip = kMargin + ph + 22;
-  drawColourLegend(cr, map, vs, kMargin + 10, strip + 6);
-  drawScaleBar(cr, map, s * map.aspect_x, kMargin + 400, strip + 6);
-  drawMarkerLegend(cr, kMargin + 660, strip + 6);
+  drawColourLegend(cr, map, vs, bx[0], by[0]);
+  drawScaleBar(cr, map, s * map.aspect_x, bx[1], by[1]);
+  drawMarkerLegend(cr, bx[2], by[2]);
   canvas.finish();
+  return width;
 }
 
 }  // namespace reachwise::report::detail

@@ -116,7 +116,7 @@ HydrographFigure outletFigure(const ReportInputs& in, const ReportSeries& series
   if (std::isfinite(s.inflow_peak_m3s)) {
     // The reach's own inflow shows how much the last reach attenuated.
     Curve note;
-    note.label = "inflow of " + in.plan.reach_id[reach] + " (peak only)";
+    note.label = "inflow peak of " + in.plan.reach_id[reach];
     note.peak_q = m.units.q(s.inflow_peak_m3s);
     note.peak_t = s.inflow_peak_time_s;
     note.colour = {0.55, 0.55, 0.55};
@@ -208,8 +208,8 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
            fmt::format("Reaches coloured and widened by peak discharge ({}); node labels are the ids of the "
                        "GeoPackage's nodes layer.",
                        m.units.q_unit()),
-           960};
-  drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
+           0, true};
+  m.map.width_px = drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
 
   for (std::size_t k = 0; k < m.hydrograph_outlets.size(); ++k) {
     const std::uint32_t o = m.hydrograph_outlets[k];
@@ -224,7 +224,7 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
     drawHydrograph(folder / f.file, confluenceFigure(in, series, m, node, leavingReach(series, node.node_id)));
     m.confluence_figures.push_back(std::move(f));
   }
-  m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960};
+  m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960, true};
   drawTiming(folder / m.timing.file, timingFigure(in, m));
 }
 

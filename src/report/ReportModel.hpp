@@ -30,6 +30,7 @@ struct FigureFile {
   std::string file;      ///< name inside the report folder
   std::string caption;
   double width_px = 0;   ///< layout width (the HTML shows it at most this wide)
+  bool show_caption = false;  ///< else the caption is only the image's alt text
 };
 
 struct ReportModel {

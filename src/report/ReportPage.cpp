@@ -57,10 +57,13 @@ p.sub{color:#555;margin:0 0 12px}
 .card .v{font-size:21px;font-weight:bold}
 .card .k{color:#555;font-size:13px}
 .card .d{color:#555;font-size:12.5px}
-figure{margin:8px 0 14px}
-figure img{max-width:100%;height:auto;border:1px solid #e3e3e3}
+figure{margin:8px 0 14px;max-width:100%}
+figure img{width:100%;height:auto;border:1px solid #e3e3e3}
 figcaption{color:#555;font-size:13px}
+.row{display:flex;flex-wrap:wrap;gap:0 18px;align-items:flex-start}
+h3{font-size:16px;margin:8px 0 4px}
 .grid{display:grid;grid-template-columns:repeat(auto-fit,minmax(520px,1fr));gap:6px 18px}
+.grid figure{width:auto!important}
 table{border-collapse:collapse;font-size:14px;margin:6px 0 10px}
 th,td{border-bottom:1px solid #e3e6ea;padding:4px 10px;text-align:left;vertical-align:top}
 th{background:#f0f3f6}
@@ -142,27 +145,38 @@ private:
   }
 
   void figure(const FigureFile& f, const std::string& alt) {
-    out_ << "<figure><img src=\"" << esc(f.file) << "\" alt=\"" << esc(alt) << "\" style=\"width:"
-         << num(f.width_px, 0) << "px\">";
-    if (!f.caption.empty() && f.caption != alt) out_ << "<figcaption>" << esc(f.caption) << "</figcaption>";
+    // The figure is as wide as its image (at most the page); the caption wraps under it.
+    out_ << "<figure style=\"width:" << num(f.width_px, 0) << "px\"><img src=\"" << esc(f.file) << "\" alt=\""
+         << esc(alt) << "\">";
+    if (f.show_caption && !f.caption.empty()) out_ << "<figcaption>" << esc(f.caption) << "</figcaption>";
     out_ << "</figure>\n";
   }
 
   void figures() {
-    out_ << "<h2>Network</h2>\n";
+    // A few outlets sit beside the map (a tall network leaves room there);
+    // many get their own grid below it.
+    const bool beside = m_.outlet_figures.size() <= 2;
+    const char* outlet_title = m_.outlet_count == 1 ? "Hydrograph at the outlet" : "Hydrographs at the outlets";
+    out_ << "<h2>Network" << (beside ? (m_.outlet_count == 1 ? " and outlet" : " and outlets") : "") << "</h2>\n";
+    out_ << "<div class=\"row\">\n";
     figure(m_.map, "Map of the network coloured by peak discharge");
-    out_ << "<h2>Hydrographs at the " << (m_.outlet_count == 1 ? "outlet" : "outlets") << "</h2>\n";
-    if (m_.outlet_figures.size() < m_.outlet_count)
-      out_ << "<p>The " << m_.outlet_figures.size() << " outlets with the largest peaks of " << m_.outlet_count
-           << "; every outlet is in the GeoPackage's <code>reaches</code> layer.</p>\n";
-    out_ << "<div class=\"grid\">\n";
-    for (const auto& f : m_.outlet_figures) figure(f, "Hydrograph at " + f.caption);
-    out_ << "</div>\n<h2>Hydrographs at the major confluences</h2>\n";
+    if (beside) {
+      out_ << "<div>\n<h3>" << outlet_title << "</h3>\n";
+      outletFigures();
+      out_ << "</div>\n";
+    }
+    out_ << "</div>\n";
+    if (!beside) {
+      out_ << "<h2>" << outlet_title << "</h2>\n<div class=\"grid\">\n";
+      outletFigures();
+      out_ << "</div>\n";
+    }
+    out_ << "<h2>Hydrographs at the major confluences</h2>\n";
     if (m_.confluence_figures.empty()) {
       out_ << "<p>The network has no confluences.</p>\n";
     } else {
       out_ << "<p>The " << m_.confluence_figures.size()
-           << " confluences with the largest combined peak (of the " << ReportSeries::kMaxCandidateConfluences
+           << " confluences with the largest combined peak (among the " << ReportSeries::kMaxCandidateConfluences
            << " with the largest upstream networks): each incoming branch, their sum, and the outflow at the "
               "downstream end of the reach below. Dots mark the peaks.</p>\n<div class=\"grid\">\n";
       for (const auto& f : m_.confluence_figures) figure(f, "Hydrographs at " + f.caption);
@@ -172,6 +186,13 @@ private:
             "arrive within an hour of each other the floods add up; a wide spread lets the main peak pass "
             "before the tributary's arrives.</p>\n";
     figure(m_.timing, "Chart of branch peak times at the major confluences");
+  }
+
+  void outletFigures() {
+    if (m_.outlet_figures.size() < m_.outlet_count)
+      out_ << "<p>The " << m_.outlet_figures.size() << " outlets with the largest peaks of " << m_.outlet_count
+           << "; every outlet is in the GeoPackage's <code>reaches</code> layer.</p>\n";
+    for (const auto& f : m_.outlet_figures) figure(f, "Hydrograph at " + f.caption);
   }
 
   std::vector<std::string> warnings() const {
@@ -257,7 +278,7 @@ private:
       const auto& s = in_.results.reaches[i];
       out_ << "<tr><td>" << ++rank << "</td><td>" << esc(id(i)) << "</td><td class=\"num\">"
            << num(u_.q(s.inflow_peak_m3s), 2) << "</td><td class=\"num\">" << num(u_.q(s.peak_q_m3s), 2)
-           << "</td><td class=\"num\">" << num(s.attenuation_pct, 1) << "</td><td class=\"num\">"
+           << "</td><td class=\"num\">" << num(s.attenuation_pct, 2) << "</td><td class=\"num\">"
            << num(s.travel_time_s / 3600, 2) << "</td></tr>\n";
     }
     out_ << "</tbody>\n</table>\n";

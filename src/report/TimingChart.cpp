@@ -6,6 +6,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <utility>
+#include <vector>
 
 #include "Figures.hpp"
 
@@ -13,7 +15,7 @@ namespace reachwise::report::detail {
 
 namespace {
 
-constexpr double kWidth = 960, kLeft = 190, kRight = 120, kTop = 58, kRow = 40;
+constexpr double kWidth = 960, kLeft = 190, kRight = 120, kTop = 58, kRow = 48;
 constexpr Rgb kCoincident{0.84, 0.37, 0.0};
 constexpr Rgb kApart{0.55, 0.62, 0.70};
 
@@ -116,17 +118,35 @@ void drawTiming(const std::filesystem::path& file, const TimingFigure& fig) {
       cairo_rectangle(cr, x0, yc - 5, x1 - x0, 10);
       cairo_fill(cr);
     }
+    // Branch circles, then their ids above (or below) them where they do
+    // not run into another id of the row.
+    std::vector<std::pair<double, double>> above, below;
     for (std::size_t k = 0; k < r.branches.size(); ++k) {
       const TimingBranch& b = r.branches[k];
       if (!std::isfinite(b.peak_t)) continue;
       const double share = q_max > 0 && std::isfinite(b.peak_q) ? std::max(0.0, b.peak_q) / q_max : 0;
       const double radius = 2.5 + 7.5 * std::sqrt(share);  // area by flow
-      cairo_arc(cr, ts.x(b.peak_t), yc, radius, 0, 2 * M_PI);
+      const double x = ts.x(b.peak_t);
+      cairo_arc(cr, x, yc, radius, 0, 2 * M_PI);
       setColour(cr, seriesColour(k + 1), 0.85);
       cairo_fill_preserve(cr);
       cairo_set_source_rgb(cr, 0.2, 0.2, 0.2);
       cairo_set_line_width(cr, 1);
       cairo_stroke(cr);
+      const double w = textWidth(cr, b.label, 10);
+      const std::pair<double, double> span{x - w / 2 - 2, x + w / 2 + 2};
+      const auto clear = [&](const auto& list) {
+        return std::none_of(list.begin(), list.end(),
+                            [&](const auto& o) { return span.first < o.second && o.first < span.second; });
+      };
+      cairo_set_source_rgb(cr, 0.25, 0.25, 0.25);
+      if (clear(above)) {
+        drawText(cr, x, yc - 12.5, b.label, 10, Align::Centre);
+        above.push_back(span);
+      } else if (clear(below)) {
+        drawText(cr, x, yc + 19.5, b.label, 10, Align::Centre);
+        below.push_back(span);
+      }
     }
     if (std::isfinite(r.combined_peak_t)) {
       diamond(cr, ts.x(r.combined_peak_t), yc, 6);

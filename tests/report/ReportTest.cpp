@@ -1,0 +1,476 @@
+// The run report, checked on the shipped sample network routed in-library:
+// figures are parsed back by independent readers (GDAL's CPL XML parser for
+// SVG, cairo's PNG reader), table values are compared with the GeoPackage
+// the same run wrote (read back with GDAL/OGR), links are resolved against
+// the folder, and existing folders are protected.
+#include <cairo.h>
+#include <cpl_minixml.h>
+#include <fmt/format.h>
+#include <gdal_priv.h>
+#include <gtest/gtest.h>
+#include <ogrsf_frmts.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <memory>
+#include <optional>
+#include <regex>
+#include <set>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "support/Scratch.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/io/Forcing.hpp"
+#include "reachwise/io/ForcingCsv.hpp"
+#include "reachwise/io/NetworkReader.hpp"
+#include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/network/ReachGraph.hpp"
+#include "reachwise/network/Validation.hpp"
+#include "reachwise/report/Report.hpp"
+#include "reachwise/routing/NetworkRouter.hpp"
+
+namespace {
+
+namespace fs = std::filesystem;
+using namespace reachwise;
+
+const fs::path kSample = fs::path(REACHWISE_SOURCE_DIR) / "sample-network";
+
+/// Serves the forcing by plan index (as the route command does).
+class Adapter : public routing::ForcingProvider {
+public:
+  Adapter(const io::ForcingSource& source, const network::NetworkPlan& plan) : source_(source), plan_(plan) {}
+  bool inflow(std::uint32_t r, std::span<double> out) const override { return fill(io::ForcingKind::Inflow, r, out); }
+  bool lateral(std::uint32_t r, std::span<double> out) const override { return fill(io::ForcingKind::Lateral, r, out); }
+
+private:
+  bool fill(io::ForcingKind kind, std::uint32_t r, std::span<double> out) const {
+    std::vector<double> buf;
+    if (!source_.series(kind, plan_.reach_id[r], buf)) return false;
+    std::copy_n(buf.begin(), std::min(buf.size(), out.size()), out.begin());
+    return true;
+  }
+  const io::ForcingSource& source_;
+  const network::NetworkPlan& plan_;
+};
+
+/// The sample network routed once per process: GeoPackage and captured
+/// series, as `reachwise route` produces them.
+struct SampleRun {
+  fs::path dir;
+  network::ReachTable table;
+  std::optional<network::ReachGraph> graph;
+  network::NetworkPlan plan;
+  std::unique_ptr<io::MemoryForcingSource> forcing;
+  std::unique_ptr<report::ReportSeries> series;
+  routing::NetworkResults results;
+  io::RunInfo info;
+  fs::path gpkg;
+
+  SampleRun() {
+    dir = fs::temp_directory_path() / fmt::format("reachwise_ReportTest_run_{}", ::getpid());
+    fs::remove_all(dir);
+    fs::create_directories(dir);
+    network::ProblemList problems;
+    table = io::readNetwork((kSample / "network.gpkg").string(), io::ReadOptions{}, problems);
+    graph.emplace(table);
+    network::mergeProblems(problems, network::validate(*graph));
+    if (network::hasErrors(problems)) throw std::runtime_error("sample network has errors");
+    plan = graph->freeze();
+    forcing = std::make_unique<io::MemoryForcingSource>(
+        io::readForcingCsv(kSample / "inflow.csv", kSample / "lateral.csv"));
+    const routing::TimeAxis& axis = forcing->axis();
+    gpkg = dir / "results.gpkg";
+    io::GpkgResultsWriter writer(gpkg, table, plan, axis);
+    series = std::make_unique<report::ReportSeries>(plan, axis);
+    io::SeriesFanOut fan({&writer, series.get()});
+    const Adapter adapter(*forcing, plan);
+    results = routing::routeNetwork(plan, axis, adapter, routing::NetworkRouteOptions{}, &fan);
+    info.inputs = {(kSample / "network.gpkg").string(), (kSample / "inflow.csv").string(),
+                   (kSample / "lateral.csv").string()};
+    info.method = "vpmc";
+    info.command_line = "reachwise route (test)";
+    info.warnings = results.warnings;
+    writer.writeSummaries(results, info);
+    writer.commit();
+  }
+  ~SampleRun() {
+    std::error_code ec;
+    fs::remove_all(dir, ec);
+  }
+
+  report::ReportInputs inputs(bool us = false) const {
+    return report::ReportInputs{table, plan, results, info, gpkg.string(), us};
+  }
+};
+
+const SampleRun& sampleRun() {
+  static const SampleRun run;
+  return run;
+}
+
+std::string readText(const fs::path& p) {
+  std::ifstream in(p, std::ios::binary);
+  std::stringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+/// Every src= and href= value of the page.
+std::vector<std::string> references(const std::string& html) {
+  static const std::regex attr(R"re(\b(?:src|href)\s*=\s*["']([^"']*)["'])re", std::regex::icase);
+  std::vector<std::string> out;
+  for (auto it = std::sregex_iterator(html.begin(), html.end(), attr); it != std::sregex_iterator(); ++it)
+    out.push_back((*it)[1].str());
+  return out;
+}
+
+/// Cell texts of each body row of the table with this id (tags inside a
+/// cell removed, entities left as written).
+std::vector<std::vector<std::string>> tableRows(const std::string& html, const std::string& id) {
+  const auto start = html.find("<table id=\"" + id + "\"");
+  if (start == std::string::npos) return {};
+  const auto body = html.find("<tbody>", start), end = html.find("</table>", start);
+  std::vector<std::vector<std::string>> rows;
+  if (body == std::string::npos || body > end) return rows;
+  const std::string part = html.substr(body, end - body);
+  static const std::regex tr(R"(<tr>(.*?)</tr>)"), td(R"(<td[^>]*>(.*?)</td>)"), tag(R"(<[^>]*>)");
+  for (auto r = std::sregex_iterator(part.begin(), part.end(), tr); r != std::sregex_iterator(); ++r) {
+    const std::string cells = (*r)[1].str();
+    std::vector<std::string> row;
+    for (auto c = std::sregex_iterator(cells.begin(), cells.end(), td); c != std::sregex_iterator(); ++c)
+      row.push_back(std::regex_replace((*c)[1].str(), tag, " "));
+    rows.push_back(row);
+  }
+  return rows;
+}
+
+struct GpkgReach {
+  std::string id;
+  double peak_q = NAN, attenuation_pct = NAN;
+};
+
+/// The `reaches` layer of the run's GeoPackage, read with OGR.
+std::vector<GpkgReach> gpkgReaches(const fs::path& gpkg) {
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  EXPECT_TRUE(ds);
+  std::vector<GpkgReach> out;
+  if (!ds) return out;
+  OGRLayer* layer = ds->GetLayerByName("reaches");
+  EXPECT_NE(layer, nullptr);
+  if (!layer) return out;
+  for (auto& f : *layer) {
+    GpkgReach r;
+    r.id = f->GetFieldAsString("reach_id");
+    if (f->IsFieldSetAndNotNull(f->GetFieldIndex("peak_q"))) r.peak_q = f->GetFieldAsDouble("peak_q");
+    if (f->IsFieldSetAndNotNull(f->GetFieldIndex("attenuation_pct")))
+      r.attenuation_pct = f->GetFieldAsDouble("attenuation_pct");
+    out.push_back(r);
+  }
+  return out;
+}
+
+/// Ids of the confluence nodes whose branch peaks lie within an hour
+/// (`nodes` layer: kind = confluence, branch_spread_h <= 1).
+std::set<std::string> gpkgCoincidentConfluences(const fs::path& gpkg) {
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  std::set<std::string> out;
+  EXPECT_TRUE(ds);
+  if (!ds) return out;
+  OGRLayer* layer = ds->GetLayerByName("nodes");
+  EXPECT_NE(layer, nullptr);
+  if (!layer) return out;
+  for (auto& f : *layer) {
+    const int spread = f->GetFieldIndex("branch_spread_h");
+    if (std::string(f->GetFieldAsString("kind")) == "confluence" && f->IsFieldSetAndNotNull(spread) &&
+        f->GetFieldAsDouble(spread) <= 1.0)
+      out.insert(f->GetFieldAsString("node_id"));
+  }
+  return out;
+}
+
+std::string trim(std::string s) {
+  const auto a = s.find_first_not_of(" \t\n"), b = s.find_last_not_of(" \t\n");
+  return a == std::string::npos ? std::string() : s.substr(a, b - a + 1);
+}
+
+class ReportTest : public ::testing::Test {
+protected:
+  void SetUp() override { GDALAllRegister(); }
+  testsupport::TempDir tmp;
+  fs::path report() const { return tmp.path() / "report"; }
+  std::string writeAndRead(bool us = false) {
+    const SampleRun& run = sampleRun();
+    report::writeReport(report(), run.inputs(us), *run.series, false);
+    return readText(report() / "index.html");
+  }
+};
+
+TEST_F(ReportTest, EveryFigureExistsAndParses) {
+  const std::string html = writeAndRead();
+  const auto refs = references(html);
+  std::size_t svgs = 0, outlets = 0, confluences = 0;
+  for (const auto& ref : refs) {
+    const fs::path file = report() / ref;
+    ASSERT_TRUE(fs::exists(file)) << ref;
+    if (file.extension() != ".svg") continue;
+    // GDAL's CPL XML parser: an independent reader that refuses malformed XML.
+    CPLXMLNode* root = CPLParseXMLString(readText(file).c_str());
+    ASSERT_NE(root, nullptr) << ref;
+    const CPLXMLNode* svg = CPLGetXMLNode(root, "=svg");
+    ASSERT_NE(svg, nullptr) << ref << " has no <svg> root";
+    EXPECT_GT(std::atof(CPLGetXMLValue(svg, "width", "0")), 300) << ref;
+    EXPECT_GT(std::atof(CPLGetXMLValue(svg, "height", "0")), 150) << ref;
+    // Drawn content, not an empty page: cairo writes glyphs and lines as paths.
+    EXPECT_NE(readText(file).find("<path"), std::string::npos) << ref;
+    CPLDestroyXMLNode(root);
+    ++svgs;
+    outlets += ref.rfind("outlet-", 0) == 0;
+    confluences += ref.rfind("confluence-", 0) == 0;
+  }
+  const auto& plan = sampleRun().plan;
+  std::size_t plan_outlets = 0, plan_confluences = 0;
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    plan_outlets += plan.isOutlet(i);
+    plan_confluences += plan.up_offset[i + 1] - plan.up_offset[i] >= 2;
+  }
+  EXPECT_NE(std::find(refs.begin(), refs.end(), "map.svg"), refs.end());
+  EXPECT_NE(std::find(refs.begin(), refs.end(), "timing.svg"), refs.end());
+  EXPECT_EQ(outlets, plan_outlets);                                    // every outlet of the sample
+  EXPECT_EQ(confluences, std::min<std::size_t>(6, plan_confluences));  // the top confluences
+  EXPECT_EQ(svgs, 2 + outlets + confluences);
+}
+
+TEST_F(ReportTest, PageReferencesOnlyFilesInsideTheFolder) {
+  const std::string html = writeAndRead();
+  const auto refs = references(html);
+  EXPECT_FALSE(refs.empty());
+  for (const auto& ref : refs) {
+    EXPECT_EQ(ref.find(':'), std::string::npos) << ref << " (a URL or drive)";
+    EXPECT_FALSE(fs::path(ref).is_absolute()) << ref;
+    EXPECT_EQ(ref.find(".."), std::string::npos) << ref;
+    EXPECT_TRUE(fs::is_regular_file(report() / ref)) << ref;
+  }
+  EXPECT_EQ(html.find("<script"), std::string::npos);
+  EXPECT_EQ(html.find("url("), std::string::npos);
+  EXPECT_EQ(html.find("@import"), std::string::npos);
+  // Every file in the folder (but the marker) is an output the page uses.
+  for (const auto& e : fs::directory_iterator(report())) {
+    const std::string name = e.path().filename().string();
+    if (name == "index.html" || name == report::kReportMarker) continue;
+    EXPECT_NE(std::find(refs.begin(), refs.end(), name), refs.end()) << name << " is not shown";
+  }
+}
+
+TEST_F(ReportTest, TopPeakAndAttenuationMatchTheGeoPackage) {
+  const std::string html = writeAndRead();
+  const auto reaches = gpkgReaches(sampleRun().gpkg);
+  ASSERT_EQ(reaches.size(), sampleRun().plan.size());
+  const auto top_peak = *std::max_element(reaches.begin(), reaches.end(),
+                                          [](const auto& a, const auto& b) { return a.peak_q < b.peak_q; });
+  const auto top_att = *std::max_element(reaches.begin(), reaches.end(), [](const auto& a, const auto& b) {
+    return (std::isnan(a.attenuation_pct) ? -1e300 : a.attenuation_pct) <
+           (std::isnan(b.attenuation_pct) ? -1e300 : b.attenuation_pct);
+  });
+
+  const auto peak_rows = tableRows(html, "top-peak");
+  ASSERT_EQ(peak_rows.size(), 10u);
+  ASSERT_GE(peak_rows[0].size(), 3u);
+  EXPECT_EQ(trim(peak_rows[0][1]), top_peak.id);
+  EXPECT_EQ(trim(peak_rows[0][2]), fmt::format("{:.2f}", top_peak.peak_q));
+  // Rows go down in peak flow, as the GeoPackage's values do.
+  std::vector<double> gpkg_peaks;
+  for (const auto& r : reaches) gpkg_peaks.push_back(r.peak_q);
+  std::sort(gpkg_peaks.rbegin(), gpkg_peaks.rend());
+  for (std::size_t k = 0; k < peak_rows.size(); ++k)
+    EXPECT_EQ(trim(peak_rows[k][2]), fmt::format("{:.2f}", gpkg_peaks[k])) << "row " << k + 1;
+
+  const auto att_rows = tableRows(html, "top-attenuation");
+  ASSERT_FALSE(att_rows.empty());
+  ASSERT_GE(att_rows[0].size(), 5u);
+  EXPECT_EQ(trim(att_rows[0][1]), top_att.id);
+  EXPECT_EQ(trim(att_rows[0][3]), fmt::format("{:.2f}", top_att.peak_q));
+  EXPECT_EQ(trim(att_rows[0][4]), fmt::format("{:.2f}", top_att.attenuation_pct));
+}
+
+TEST_F(ReportTest, CoincidentConfluencesMatchTheNodesLayer) {
+  const std::string html = writeAndRead();
+  const std::set<std::string> expected = gpkgCoincidentConfluences(sampleRun().gpkg);
+  std::set<std::string> shown;
+  for (const auto& row : tableRows(html, "coincident"))
+    if (!row.empty()) shown.insert(trim(row[0]));
+  EXPECT_EQ(shown, expected);
+  EXPECT_EQ(html.find("id=\"coincident-none\"") != std::string::npos, expected.empty());
+}
+
+TEST_F(ReportTest, CarriesTheCautionAndTheGeoPackagePath) {
+  const std::string html = writeAndRead();
+  std::string caution = io::kResultsCaution;
+  ASSERT_EQ(caution.find_first_of("<>&\"'"), std::string::npos) << "compare escaped text instead";
+  EXPECT_NE(html.find(caution), std::string::npos);
+  EXPECT_NE(html.find(sampleRun().gpkg.string()), std::string::npos);
+}
+
+TEST_F(ReportTest, UsCustomaryUnitsConvertTheTables) {
+  const std::string html = writeAndRead(true);
+  const auto reaches = gpkgReaches(sampleRun().gpkg);
+  const auto top = *std::max_element(reaches.begin(), reaches.end(),
+                                     [](const auto& a, const auto& b) { return a.peak_q < b.peak_q; });
+  // 1 ft = 0.3048 m exactly (international foot, 1959).
+  const double cfs = top.peak_q / (0.3048 * 0.3048 * 0.3048);
+  const auto rows = tableRows(html, "top-peak");
+  ASSERT_FALSE(rows.empty());
+  EXPECT_EQ(trim(rows[0][2]), fmt::format("{:.2f}", cfs));
+  EXPECT_NE(html.find("peak flow (cfs)"), std::string::npos);
+  EXPECT_EQ(html.find("m³/s"), std::string::npos);
+}
+
+TEST_F(ReportTest, ExistingReportIsRefusedWithoutOverwrite) {
+  const SampleRun& run = sampleRun();
+  report::writeReport(report(), run.inputs(), *run.series, false);
+  const fs::path page = report() / "index.html";
+  { std::ofstream(page, std::ios::app) << "<!-- edited -->"; }
+  const std::string before = readText(page);
+  EXPECT_THROW(report::writeReport(report(), run.inputs(), *run.series, false), InputError);
+  EXPECT_EQ(readText(page), before);
+  report::writeReport(report(), run.inputs(), *run.series, true);
+  EXPECT_NE(readText(page), before);
+  EXPECT_EQ(readText(page).find("<!-- edited -->"), std::string::npos);
+  // No temporary folder is left beside it.
+  for (const auto& e : fs::directory_iterator(tmp.path()))
+    EXPECT_EQ(e.path().filename(), "report") << e.path();
+}
+
+TEST_F(ReportTest, FolderWithOtherFilesIsNeverReplaced) {
+  const SampleRun& run = sampleRun();
+  fs::create_directories(report());
+  { std::ofstream(report() / "results.gpkg") << "not a report"; }
+  EXPECT_THROW(report::writeReport(report(), run.inputs(), *run.series, true), InputError);
+  EXPECT_TRUE(fs::exists(report() / "results.gpkg"));
+  EXPECT_FALSE(fs::exists(report() / "index.html"));
+  // An empty folder (made by a caller beforehand) is fine to fill.
+  const fs::path empty = tmp.path() / "empty";
+  fs::create_directories(empty);
+  report::writeReport(empty, run.inputs(), *run.series, true);
+  EXPECT_TRUE(fs::exists(empty / "index.html"));
+}
+
+TEST_F(ReportTest, LargeNetworksGetAPngMap) {
+  const SampleRun& run = sampleRun();
+  report::ReportInputs in = run.inputs();
+  in.svg_map_max_reaches = 0;  // treat the sample as large
+  report::writeReport(report(), in, *run.series, false);
+  const auto refs = references(readText(report() / "index.html"));
+  ASSERT_NE(std::find(refs.begin(), refs.end(), "map.png"), refs.end());
+  // Read back by cairo's own PNG decoder (libpng underneath).
+  cairo_surface_t* png = cairo_image_surface_create_from_png((report() / "map.png").c_str());
+  ASSERT_EQ(cairo_surface_status(png), CAIRO_STATUS_SUCCESS);
+  EXPECT_GE(cairo_image_surface_get_width(png), 960);
+  EXPECT_GE(cairo_image_surface_get_height(png), 400);
+  // Not a blank image: some pixels are neither white nor the map's background.
+  cairo_surface_flush(png);
+  const unsigned char* data = cairo_image_surface_get_data(png);
+  const int stride = cairo_image_surface_get_stride(png), h = cairo_image_surface_get_height(png);
+  std::size_t dark = 0;
+  for (int y = 0; y < h; ++y)
+    for (int x = 0; x < cairo_image_surface_get_width(png); ++x) {
+      const unsigned char* p = data + y * stride + 4 * x;  // native-endian ARGB32
+      if (p[0] < 150 && p[1] < 150) ++dark;
+    }
+  EXPECT_GT(dark, 1000u);
+  cairo_surface_destroy(png);
+}
+
+TEST(ReportSeriesTest, CapturedOutletSeriesEqualsTheGeoPackageHydrograph) {
+  GDALAllRegister();
+  const SampleRun& run = sampleRun();
+  ASSERT_FALSE(run.series->outlets().empty());
+  const std::uint32_t outlet = run.series->outlets().front();
+  ASSERT_TRUE(run.series->has(outlet));
+  const auto q = run.series->series(outlet);
+  ASSERT_EQ(q.size(), run.results.axis.steps);
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(run.gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* layer = ds->GetLayerByName("hydrographs");
+  ASSERT_NE(layer, nullptr);
+  layer->SetAttributeFilter(fmt::format("reach_id = '{}'", run.plan.reach_id[outlet]).c_str());
+  std::vector<double> stored;
+  for (auto& f : *layer) stored.push_back(f->GetFieldAsDouble("q"));
+  ASSERT_EQ(stored.size(), q.size());
+  for (std::size_t k = 0; k < q.size(); ++k) EXPECT_DOUBLE_EQ(q[k], stored[k]) << "step " << k;
+  // Every branch of every candidate confluence is captured.
+  for (const std::uint32_t c : run.series->confluences())
+    for (std::uint32_t e = run.plan.up_offset[c]; e < run.plan.up_offset[c + 1]; ++e)
+      EXPECT_TRUE(run.series->has(run.plan.up_reach[e])) << run.plan.reach_id[run.plan.up_reach[e]];
+}
+
+/// A comb: main stem m0 (outlet) .. m(n-1) (head), a tributary joining at
+/// the top of every main-stem reach but the head. Filled by hand in
+/// topological order (only the fields ReportSeries reads).
+network::NetworkPlan comb(std::size_t n) {
+  network::NetworkPlan p;
+  std::vector<std::uint32_t> main_index(n);
+  std::vector<std::vector<std::uint32_t>> ups;
+  const auto add = [&](std::string id, std::vector<std::uint32_t> up) {
+    p.reach_id.push_back(std::move(id));
+    ups.push_back(std::move(up));
+    return static_cast<std::uint32_t>(p.reach_id.size() - 1);
+  };
+  main_index[n - 1] = add(fmt::format("m{}", n - 1), {});
+  for (std::size_t i = n - 1; i-- > 0;) {
+    const std::uint32_t t = add(fmt::format("t{}", i), {});
+    main_index[i] = add(fmt::format("m{}", i), {main_index[i + 1], t});
+  }
+  std::vector<std::vector<std::uint32_t>> downs(p.reach_id.size());
+  p.up_offset.push_back(0);
+  for (std::uint32_t r = 0; r < ups.size(); ++r) {
+    for (const auto u : ups[r]) {
+      p.up_reach.push_back(u);
+      p.up_fraction.push_back(1.0);
+      downs[u].push_back(r);
+    }
+    p.up_offset.push_back(static_cast<std::uint32_t>(p.up_reach.size()));
+  }
+  p.down_offset.push_back(0);
+  for (const auto& d : downs) {
+    p.down_reach.insert(p.down_reach.end(), d.begin(), d.end());
+    p.down_offset.push_back(static_cast<std::uint32_t>(p.down_reach.size()));
+  }
+  return p;
+}
+
+TEST(ReportSeriesTest, ChoosesABoundedSetByUpstreamNetwork) {
+  const std::size_t n = 500;  // 499 confluences, far more than the report keeps
+  const network::NetworkPlan plan = comb(n);
+  routing::TimeAxis axis;
+  axis.steps = 3;
+  report::ReportSeries series(plan, axis);
+  ASSERT_EQ(series.outletCount(), 1u);
+  ASSERT_EQ(series.outlets().size(), 1u);
+  EXPECT_EQ(plan.reach_id[series.outlets()[0]], "m0");
+  // The confluences with the largest upstream networks of a comb are the
+  // lowest on the main stem: m0, m1, ... (counted by hand from the shape).
+  ASSERT_EQ(series.confluences().size(), report::ReportSeries::kMaxCandidateConfluences);
+  for (std::size_t k = 0; k < series.confluences().size(); ++k)
+    EXPECT_EQ(plan.reach_id[series.confluences()[k]], fmt::format("m{}", k));
+  // Only the chosen reaches (leaving reach + two branches, plus the outlet)
+  // keep their series.
+  const std::vector<double> q = {1, 2, 3};
+  std::size_t kept = 0;
+  for (std::uint32_t r = 0; r < plan.size(); ++r) {
+    series.write(r, q, {}, {});
+    kept += series.has(r);
+  }
+  EXPECT_EQ(kept, 2 * report::ReportSeries::kMaxCandidateConfluences + 1);
+  EXPECT_TRUE(series.has(series.outlets()[0]));
+  EXPECT_EQ(series.series(series.outlets()[0]).size(), 3u);
+  EXPECT_TRUE(series.series(static_cast<std::uint32_t>(0)).empty());  // the head of the stem, m499
+}
+
+}  // namespace
