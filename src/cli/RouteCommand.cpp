@@ -135,14 +135,6 @@ std::vector<double> baseFlows(const network::ReachTable& table, const network::N
   return any ? q : std::vector<double>{};
 }
 
-/// Sub-reach × sub-step cell updates of a whole run.
-double cellUpdates(const routing::NetworkResults& r) {
-  double cells = 0;
-  const double steps = r.axis.steps > 1 ? static_cast<double>(r.axis.steps - 1) : 0.0;
-  for (const auto& s : r.reaches)
-    cells += static_cast<double>(s.numerics.subreaches) * s.numerics.substeps * steps;
-  return cells;
-}
 
 /// Serves the io forcing to the scheduler by plan index.
 class ForcingAdapter : public routing::ForcingProvider {
@@ -315,6 +307,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   info.method = o.method;
   info.command_line = o.command_line;
   info.warnings = results.warnings;
+  info.series_file = o.series_nc;
   writer->writeSummaries(results, info);
   // The report first: if it fails, no output is committed.
   if (report_series) {
@@ -337,7 +330,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
                o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
-               route_s, cellUpdates(results) / std::max(route_s, 1e-9) / 1e6,
+               route_s, routing::cellUpdates(results) / std::max(route_s, 1e-9) / 1e6,
                o.threads ? o.threads : std::thread::hardware_concurrency(), results.peak_live_series);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }

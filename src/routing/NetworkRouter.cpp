@@ -290,4 +290,12 @@ VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const Netwo
   return b;
 }
 
+double cellUpdates(const NetworkResults& results) {
+  const double steps = results.axis.steps > 1 ? static_cast<double>(results.axis.steps - 1) : 0.0;
+  double cells = 0;
+  for (const auto& s : results.reaches)
+    cells += static_cast<double>(s.numerics.subreaches) * s.numerics.substeps * steps;
+  return cells;
+}
+
 }  // namespace reachwise::routing

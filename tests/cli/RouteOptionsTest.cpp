@@ -145,6 +145,15 @@ TEST(RouteOptions, SeriesGoToNetcdfInsteadOfTheTable) {
   const Outcome r = run("route " + kNetwork + kStorm + " --out " + out + " --hydrographs R1,R12 --series " + nc);
   ASSERT_EQ(r.code, 0) << r.err;
   EXPECT_TRUE(hydrographs(out).empty());
+  {  // run_info says where the series went, and how many series were held at once
+    auto ds = open(out);
+    std::map<std::string, std::string> info;
+    for (auto& f : *ds->GetLayerByName("run_info")) info[f->GetFieldAsString("key")] = f->GetFieldAsString("value");
+    EXPECT_EQ(info["series"], nc);
+    ASSERT_TRUE(info.count("peak_live_series"));
+    EXPECT_GT(std::stoi(info["peak_live_series"]), 0);
+    EXPECT_LT(std::stoi(info["peak_live_series"]), 41);  // fewer than the reaches: series are released
+  }
   const auto expected = hydrographs(ref);
 
   int ncid = 0, dim = 0, var = 0;

@@ -42,6 +42,7 @@ struct RunInfo {
   std::string method;                ///< `vpmc`, `mc` or `muskingum`
   std::string command_line;
   std::vector<std::string> warnings; ///< one `warning` row each
+  std::string series_file;           ///< NetCDF file holding the hydrographs instead (`series` row), if any
 };
 
 /// The caution every run_info table carries.

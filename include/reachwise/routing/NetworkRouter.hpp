@@ -64,4 +64,8 @@ NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& ax
 /// the sum over reaches.
 VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const NetworkResults& results);
 
+/// Cell updates of a whole run: sub-reaches × sub-steps × time steps,
+/// summed over the reaches (the unit of the kernel speed figures).
+double cellUpdates(const NetworkResults& results);
+
 }  // namespace reachwise::routing
