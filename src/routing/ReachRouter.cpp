@@ -158,8 +158,9 @@ void routeConstant(const Coefficients& cf, std::uint32_t m, std::uint32_t k,
   });
 }
 
-/// The flow sums one variable-parameter cell needs; all but Q[j,n+1] are
-/// known before the cell upstream is done (see VpCell::update).
+/// The flow sums one variable-parameter cell needs. Each is Q[j,n+1] (the
+/// cell upstream, just finished) plus a sum of values known long before, so
+/// only one addition per sum waits on the upstream cell (see VpCell::update).
 struct CellFlows {
   double for_c, for_d, rest, three_point_sum;
   CellFlows(double left_new, double left_old, double old, double lat)
@@ -222,6 +223,7 @@ void routeVariable(VpCell& cell, Scheme scheme, int iterations, std::uint32_t m,
   sweep(m, k, inflow, lateral, dt, q, out, tot, [&](double left_new, double left_old, double old, double lat) {
     const CellFlows f(left_new, left_old, old, lat);
     double C, D;
+    // Times 1/3 rather than divided by 3: a division would wait on the chain.
     cell.courantAndReynolds(f.three_point_sum * (1.0 / 3.0), C, D);
     double v = VpCell::update(C, D, f);
     if (scheme == Scheme::FourPoint) {
