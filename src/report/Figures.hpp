@@ -11,6 +11,8 @@
 #include <string_view>
 #include <vector>
 
+#include "reachwise/network/ReachTable.hpp"
+
 namespace reachwise::report::detail {
 
 enum class ImageFormat { Svg, Png };
@@ -77,7 +79,7 @@ std::string offsetName(int utc_offset_min);
 // ---- map ----
 
 struct MapLine {
-  std::vector<double> xy;   ///< x0, y0, x1, y1, ... in CRS units
+  const std::vector<network::Point3>* line = nullptr;   ///< vertices in CRS units (not copied: networks can be huge)
   double value = NAN;       ///< peak discharge (display unit); NaN = none
 };
 
@@ -119,6 +121,7 @@ struct HydrographFigure {
   std::vector<Curve> curves;
   std::int64_t start_unix_s = 0;
   double dt_s = 3600;
+  std::size_t steps = 0;    ///< samples on the axis (curves may be shorter: not captured)
   int utc_offset_min = 0;
   std::string q_unit;
 };

@@ -63,10 +63,9 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
   drawText(cr, 12, 22, fig.title, 14, Align::Left, true);
 
-  std::size_t steps = 0;
+  const std::size_t steps = fig.steps;
   double q_max = 0;
   for (const Curve& c : fig.curves) {
-    steps = std::max(steps, c.q.size());
     for (const double v : c.q)
       if (std::isfinite(v)) q_max = std::max(q_max, v);
     if (std::isfinite(c.peak_q)) q_max = std::max(q_max, c.peak_q);
@@ -139,7 +138,9 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   }
   cairo_restore(cr);
 
-  // Legend: one row per curve with its peak.
+  // Legend: one row per curve with its peak, the peaks in one column.
+  double label_w = 150;
+  for (const Curve& c : fig.curves) label_w = std::max(label_w, textWidth(cr, c.label, 11.5, true) + 12);
   double y = y0 + 58 + 10;
   for (const Curve& c : fig.curves) {
     setColour(cr, c.colour);
@@ -158,7 +159,6 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
     }
     cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
     drawText(cr, kLeft + 34, y, c.label, 11.5, Align::Left, true);
-    const double label_w = std::max(150.0, textWidth(cr, c.label, 11.5, true) + 12);
     const std::string peak =
         std::isfinite(c.peak_q) && std::isfinite(c.peak_t)
             ? fmt::format("peak {:.2f} {} at {}", c.peak_q, fig.q_unit, localMinute(c.peak_t, fig.utc_offset_min))

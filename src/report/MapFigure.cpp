@@ -117,12 +117,15 @@ void drawScaleBar(cairo_t* cr, const MapFigure& map, double px_per_unit_x, doubl
       small = "m", big = "km", big_factor = 1000;
     }
   }
-  double length = 150 / px_per_display;
+  // The longest 1-2-5 length that fits in 150 px (so the bar is 60-150 px).
+  const double length = 150 / px_per_display;
   std::string unit = small;
   double factor = 1;
   if (big_factor > 0 && length >= big_factor) unit = big, factor = big_factor;
-  double nice = niceStep(length / factor, 1);
-  if (nice > length / factor * 1.5) nice /= 2;  // keep the bar at most ~1.5 × its target
+  const double target = length / factor, mag = std::pow(10.0, std::floor(std::log10(target)));
+  double nice = mag;
+  for (const double f : {2.0, 5.0})
+    if (f * mag <= target) nice = f * mag;
   const double w = nice * factor * px_per_display;
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
   drawText(cr, x, y, "scale", 12, Align::Left, true);
@@ -137,7 +140,7 @@ void drawScaleBar(cairo_t* cr, const MapFigure& map, double px_per_unit_x, doubl
     cairo_stroke(cr);
   }
   drawText(cr, x, by + 20, "0", 11, Align::Centre);
-  drawText(cr, x + w, by + 20, fmt::format("{:g} {}", nice, unit), 11, Align::Centre);
+  drawText(cr, x + w, by + 20, fmt::format("{:g} {}", nice, unit), 11, Align::Right);
 }
 
 void drawMarker(cairo_t* cr, MapMarker::Kind kind, double x, double y) {
@@ -205,9 +208,9 @@ void drawNorthArrow(cairo_t* cr, double x, double y) {
 double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format) {
   double xmin = INFINITY, xmax = -INFINITY, ymin = INFINITY, ymax = -INFINITY;
   for (const MapLine& l : map.lines)
-    for (std::size_t k = 0; k + 1 < l.xy.size(); k += 2) {
-      xmin = std::min(xmin, l.xy[k]), xmax = std::max(xmax, l.xy[k]);
-      ymin = std::min(ymin, l.xy[k + 1]), ymax = std::max(ymax, l.xy[k + 1]);
+    for (const auto& p : *l.line) {
+      xmin = std::min(xmin, p.x), xmax = std::max(xmax, p.x);
+      ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
     }
   if (!(xmax >= xmin)) xmin = 0, xmax = 1, ymin = 0, ymax = 1;
   const double dx = std::max((xmax - xmin) * map.aspect_x, 1e-9), dy = std::max(ymax - ymin, 1e-9);
@@ -249,9 +252,12 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
   cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
   for (const std::size_t i : order) {
     const MapLine& l = map.lines[i];
-    if (l.xy.size() < 4) continue;
-    for (std::size_t k = 0; k + 1 < l.xy.size(); k += 2)
-      (k == 0 ? cairo_move_to : cairo_line_to)(cr, X(l.xy[k]), Y(l.xy[k + 1]));
+    if (l.line->size() < 2) continue;
+    bool first = true;
+    for (const auto& p : *l.line) {
+      (first ? cairo_move_to : cairo_line_to)(cr, X(p.x), Y(p.y));
+      first = false;
+    }
     const double t = vs.t(l.value);
     setColour(cr, rampColour(t));
     cairo_set_line_width(cr, std::isfinite(t) ? 1.2 + 4.0 * std::clamp(t, 0.0, 1.0) : 1.0);

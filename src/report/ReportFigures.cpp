@@ -48,16 +48,9 @@ MapFigure mapFigure(const ReportInputs& in, const ReportModel& m) {
   double ymin = INFINITY, ymax = -INFINITY;
   map.lines.reserve(plan.size());
   for (std::size_t i = 0; i < plan.size(); ++i) {
-    MapLine line;
     const auto& pts = in.table.reaches[plan.record[i]].line;
-    line.xy.reserve(2 * pts.size());
-    for (const auto& p : pts) {
-      line.xy.push_back(p.x);
-      line.xy.push_back(p.y);
-      ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
-    }
-    line.value = m.units.q(in.results.reaches[i].peak_q_m3s);
-    map.lines.push_back(std::move(line));
+    for (const auto& p : pts) ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
+    map.lines.push_back({&pts, m.units.q(in.results.reaches[i].peak_q_m3s)});
   }
   crsScale(in.table, std::isfinite(ymin) ? (ymin + ymax) / 2 : 0.0, map);
 
@@ -96,6 +89,7 @@ HydrographFigure emptyFigure(const ReportInputs& in, const ReportModel& m, std::
   fig.title = std::move(title);
   fig.start_unix_s = in.results.axis.start_unix_s;
   fig.dt_s = in.results.axis.dt_s;
+  fig.steps = in.results.axis.steps;
   fig.utc_offset_min = m.utc_offset_min;
   fig.q_unit = m.units.q_unit();
   return fig;

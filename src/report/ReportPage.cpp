@@ -62,6 +62,9 @@ figure img{width:100%;height:auto;border:1px solid #e3e3e3}
 figcaption{color:#555;font-size:13px}
 .row{display:flex;flex-wrap:wrap;gap:0 18px;align-items:flex-start}
 h3{font-size:16px;margin:8px 0 4px}
+.side{flex:1 1 540px;min-width:0;max-width:660px}
+.side table{font-size:13px}
+.side th,.side td{padding:3px 7px}
 .grid{display:grid;grid-template-columns:repeat(auto-fit,minmax(520px,1fr));gap:6px 18px}
 .grid figure{width:auto!important}
 table{border-collapse:collapse;font-size:14px;margin:6px 0 10px}
@@ -108,7 +111,9 @@ private:
          << "<meta name=\"generator\" content=\"reachwise " << esc(kVersion) << "\">\n"
          << "<title>reachwise run report: " << esc(in_.table.layer) << "</title>\n<style>" << kStyle
          << "</style>\n</head>\n<body>\n<main>\n";
-    out_ << "<h1>Run report: " << esc(in_.table.layer.empty() ? in_.table.source : in_.table.layer) << "</h1>\n";
+    const std::string source = std::filesystem::path(in_.table.source).filename().string();
+    out_ << "<h1>Run report: " << esc(source.empty() ? in_.table.source : source)
+         << (in_.table.layer.empty() ? "" : ", layer " + esc(in_.table.layer)) << "</h1>\n";
     out_ << "<p class=\"sub\">" << in_.plan.size() << " reaches, " << m_.confluence_count << " confluences, "
          << m_.outlet_count << (m_.outlet_count == 1 ? " outlet" : " outlets") << " &middot; method <b>"
          << esc(in_.info.method) << "</b> &middot; " << esc(time(static_cast<double>(axis.start_unix_s)))
@@ -161,11 +166,13 @@ private:
     out_ << "<div class=\"row\">\n";
     figure(m_.map, "Map of the network coloured by peak discharge");
     if (beside) {
-      out_ << "<div>\n<h3>" << outlet_title << "</h3>\n";
+      out_ << "<div class=\"side\">\n<h3>" << outlet_title << "</h3>\n";
       outletFigures();
+      majorConfluences();
       out_ << "</div>\n";
     }
     out_ << "</div>\n";
+    if (!beside) majorConfluences();
     if (!beside) {
       out_ << "<h2>" << outlet_title << "</h2>\n<div class=\"grid\">\n";
       outletFigures();
@@ -186,6 +193,23 @@ private:
             "arrive within an hour of each other the floods add up; a wide spread lets the main peak pass "
             "before the tributary's arrives.</p>\n";
     figure(m_.timing, "Chart of branch peak times at the major confluences");
+  }
+
+  /// The confluences labelled on the map, with the numbers behind them.
+  void majorConfluences() {
+    if (m_.hydrograph_confluences.empty()) return;
+    out_ << "<h3>Major confluences (labelled on the map)</h3>\n<table id=\"major-confluences\">\n<thead><tr>"
+         << "<th>confluence</th><th class=\"num\">combined peak (" << u_.q_unit()
+         << ")</th><th>peak time</th><th class=\"num\">branch spread (h)</th><th class=\"num\">coincidence</th>"
+            "</tr></thead>\n<tbody>\n";
+    for (const std::size_t k : m_.hydrograph_confluences) {
+      const auto& n = in_.results.nodes[k];
+      out_ << "<tr><td>" << esc(n.node_id) << "</td><td class=\"num\">" << num(u_.q(n.peak_q_m3s), 2)
+           << "</td><td>" << esc(time(n.peak_time_s)) << "</td><td class=\"num\">"
+           << num(n.branch_spread_s / 3600, 2) << "</td><td class=\"num\">" << num(n.coincidence_ratio, 2)
+           << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
   }
 
   void outletFigures() {

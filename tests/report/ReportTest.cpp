@@ -176,6 +176,19 @@ std::vector<GpkgReach> gpkgReaches(const fs::path& gpkg) {
   return out;
 }
 
+/// peak_q of every node of the `nodes` layer, by node_id.
+std::map<std::string, double> gpkgNodePeaks(const fs::path& gpkg) {
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  std::map<std::string, double> out;
+  EXPECT_TRUE(ds);
+  if (!ds) return out;
+  OGRLayer* layer = ds->GetLayerByName("nodes");
+  EXPECT_NE(layer, nullptr);
+  if (!layer) return out;
+  for (auto& f : *layer) out[f->GetFieldAsString("node_id")] = f->GetFieldAsDouble("peak_q");
+  return out;
+}
+
 /// Ids of the confluence nodes whose branch peaks lie within an hour
 /// (`nodes` layer: kind = confluence, branch_spread_h <= 1).
 std::set<std::string> gpkgCoincidentConfluences(const fs::path& gpkg) {
@@ -307,6 +320,30 @@ TEST_F(ReportTest, CoincidentConfluencesMatchTheNodesLayer) {
     if (!row.empty()) shown.insert(trim(row[0]));
   EXPECT_EQ(shown, expected);
   EXPECT_EQ(html.find("id=\"coincident-none\"") != std::string::npos, expected.empty());
+}
+
+TEST_F(ReportTest, MajorConfluencesAreTheLargestCombinedPeaksOfTheNodesLayer) {
+  const std::string html = writeAndRead();
+  const auto peaks = gpkgNodePeaks(sampleRun().gpkg);
+  const auto rows = tableRows(html, "major-confluences");
+  ASSERT_FALSE(rows.empty());
+  // The sample has fewer confluences than the report's candidates, so the
+  // rows are the nodes layer's confluences with the largest peak_q.
+  std::vector<double> confluence_peaks;
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(sampleRun().gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* nodes = ds->GetLayerByName("nodes");
+  ASSERT_NE(nodes, nullptr);
+  nodes->SetAttributeFilter("kind = 'confluence'");
+  for (auto& f : *nodes) confluence_peaks.push_back(f->GetFieldAsDouble("peak_q"));
+  std::sort(confluence_peaks.rbegin(), confluence_peaks.rend());
+  ASSERT_EQ(rows.size(), std::min<std::size_t>(6, confluence_peaks.size()));
+  for (std::size_t k = 0; k < rows.size(); ++k) {
+    const std::string id = trim(rows[k][0]);
+    ASSERT_TRUE(peaks.count(id)) << id << " is not in the nodes layer";
+    EXPECT_EQ(trim(rows[k][1]), fmt::format("{:.2f}", peaks.at(id))) << id;
+    EXPECT_EQ(trim(rows[k][1]), fmt::format("{:.2f}", confluence_peaks[k])) << "row " << k + 1;
+  }
 }
 
 TEST_F(ReportTest, CarriesTheCautionAndTheGeoPackagePath) {
