@@ -180,13 +180,15 @@ void drawTimeAxis(cairo_t* cr, const TimeScale& s, double y, double y_top) {
   static constexpr std::array<double, 13> steps = {600,   900,   1800,  3600,   7200,   10800,  21600,
                                                    43200, 86400, 172800, 345600, 604800, 1209600};
   const double span = s.t1 - s.t0;
-  const double max_ticks = std::max(2.0, (s.x1 - s.x0) / 70.0);
-  double step = steps.back();
+  const double max_ticks = std::max(2.0, (s.x1 - s.x0) / 75.0);
+  // Beyond two weeks: whole days (runs of months or years).
+  double step = std::ceil(span / max_ticks / 86400.0) * 86400.0;
   for (const double c : steps)
     if (span / c <= max_ticks) {
       step = c;
       break;
     }
+  const bool whole_days = step >= 86400;
   const double offset_s = s.utc_offset_min * 60.0;
   // Ticks at whole local steps (local midnight for days).
   double t = std::ceil((s.t0 + offset_s) / step) * step - offset_s;
@@ -206,6 +208,10 @@ void drawTimeAxis(cairo_t* cr, const TimeScale& s, double y, double y_top) {
     cairo_stroke(cr);
     const std::string iso = io::formatIsoTime(t, s.utc_offset_min, 0);
     const std::string date = iso.substr(0, 10), clock = iso.substr(11, 5);
+    if (whole_days) {
+      drawText(cr, x, y + 16, date, 10.5, Align::Centre);  // the clock would read 00:00 at every tick
+      continue;
+    }
     drawText(cr, x, y + 16, clock, 11, Align::Centre);
     if (date != last_date) {
       drawText(cr, x, y + 30, date, 10.5, Align::Centre);

@@ -218,6 +218,7 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
     drawHydrograph(folder / f.file, confluenceFigure(in, series, m, node, leavingReach(series, node.node_id)));
     m.confluence_figures.push_back(std::move(f));
   }
+  if (m.timing_confluences.empty()) return;  // the page says there are none
   m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960, true};
   drawTiming(folder / m.timing.file, timingFigure(in, m));
 }

@@ -114,8 +114,12 @@ private:
     const std::string source = std::filesystem::path(in_.table.source).filename().string();
     out_ << "<h1>Run report: " << esc(source.empty() ? in_.table.source : source)
          << (in_.table.layer.empty() ? "" : ", layer " + esc(in_.table.layer)) << "</h1>\n";
-    out_ << "<p class=\"sub\">" << in_.plan.size() << " reaches, " << m_.confluence_count << " confluences, "
-         << m_.outlet_count << (m_.outlet_count == 1 ? " outlet" : " outlets") << " &middot; method <b>"
+    const auto count = [](std::size_t n, const char* one, const char* many) {
+      return std::to_string(n) + " " + (n == 1 ? one : many);
+    };
+    out_ << "<p class=\"sub\">" << count(in_.plan.size(), "reach", "reaches") << ", "
+         << count(m_.confluence_count, "confluence", "confluences") << ", "
+         << count(m_.outlet_count, "outlet", "outlets") << " &middot; method <b>"
          << esc(in_.info.method) << "</b> &middot; " << esc(time(static_cast<double>(axis.start_unix_s)))
          << " to " << esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0)))) << " ("
          << esc(offset()) << "), " << axis.steps << " steps of " << num(axis.dt_s, 0) << " s</p>\n";
@@ -192,7 +196,8 @@ private:
     out_ << "<h2>Confluence timing</h2>\n<p>How far apart the branch peaks reach each confluence. Where they "
             "arrive within an hour of each other the floods add up; a wide spread lets the main peak pass "
             "before the tributary's arrives.</p>\n";
-    figure(m_.timing, "Chart of branch peak times at the major confluences");
+    if (m_.timing.file.empty()) out_ << "<p>The network has no confluences.</p>\n";
+    else figure(m_.timing, "Chart of branch peak times at the major confluences");
   }
 
   /// The confluences labelled on the map, with the numbers behind them.

@@ -424,6 +424,97 @@ TEST_F(ReportTest, LargeNetworksGetAPngMap) {
   cairo_surface_destroy(png);
 }
 
+/// One straight reach, routed in-library: a network without confluences.
+struct SingleReach {
+  network::ReachTable table;
+  std::optional<network::ReachGraph> graph;
+  network::NetworkPlan plan;
+  routing::TimeAxis axis;
+  std::unique_ptr<report::ReportSeries> series;
+  routing::NetworkResults results;
+  io::RunInfo info;
+
+  explicit SingleReach(bool geographic) {
+    OGRSpatialReference srs;
+    srs.importFromEPSG(geographic ? 4326 : 32633);
+    char* wkt = nullptr;
+    srs.exportToWkt(&wkt);
+    table.crs_wkt = wkt;
+    CPLFree(wkt);
+    table.geographic = geographic;
+    table.source = "single.gpkg";
+    table.layer = "reaches";
+    network::ReachRecord r;
+    r.id = "S1";
+    r.fid = 1;
+    // 3 km eastwards: in UTM metres, or along 46° N in degrees.
+    r.line = geographic ? std::vector<network::Point3>{{15.0, 46.0, NAN}, {15.039, 46.0, NAN}}
+                        : std::vector<network::Point3>{{500000, 5100000, NAN}, {503000, 5100000, NAN}};
+    r.length_m = 3000;
+    r.geometry_length_m = 3000;
+    r.section.bottom_width_m = 10;
+    r.section.side_slope = 2;
+    r.section.manning_n = 0.035;
+    r.section.bed_slope = 0.001;
+    table.reaches.push_back(r);
+    graph.emplace(table);
+    plan = graph->freeze();
+    axis.start_unix_s = testsupport::utcSeconds(2026, 5, 1, 0);
+    axis.dt_s = 1800;
+    axis.steps = 96;
+    routing::MemoryForcing forcing;
+    forcing.inflow_m3s.assign(1, std::vector<double>(axis.steps, 1.0));
+    for (std::size_t k = 10; k < 30; ++k)  // a triangular flood wave, peak 21 m3/s at step 20
+      forcing.inflow_m3s[0][k] = 1.0 + 20.0 * (1.0 - std::abs(static_cast<double>(k) - 20.0) / 10.0);
+    series = std::make_unique<report::ReportSeries>(plan, axis);
+    results = routing::routeNetwork(plan, axis, forcing, routing::NetworkRouteOptions{}, series.get());
+    info.method = "vpmc";
+  }
+  report::ReportInputs inputs() const { return report::ReportInputs{table, plan, results, info, "", false}; }
+};
+
+TEST_F(ReportTest, NetworkWithoutConfluencesStillGetsEveryPart) {
+  for (const bool geographic : {false, true}) {
+    SCOPED_TRACE(geographic ? "geographic CRS" : "projected CRS");
+    const SingleReach net(geographic);
+    const fs::path dir = tmp.path() / (geographic ? "geo" : "utm");
+    report::writeReport(dir, net.inputs(), *net.series, false);
+    const std::string html = readText(dir / "index.html");
+    for (const char* f : {"map.svg", "outlet-1.svg"}) {
+      CPLXMLNode* root = CPLParseXMLString(readText(dir / f).c_str());
+      ASSERT_NE(root, nullptr) << f;
+      EXPECT_NE(CPLGetXMLNode(root, "=svg"), nullptr) << f;
+      CPLDestroyXMLNode(root);
+    }
+    EXPECT_FALSE(fs::exists(dir / "confluence-1.svg"));
+    EXPECT_FALSE(fs::exists(dir / "timing.svg"));  // no chart of nothing
+    for (const auto& ref : references(html)) EXPECT_TRUE(fs::is_regular_file(dir / ref)) << ref;
+    EXPECT_NE(html.find("The network has no confluences"), std::string::npos);
+    EXPECT_NE(html.find("id=\"coincident-none\""), std::string::npos);
+    const auto rows = tableRows(html, "top-peak");
+    ASSERT_EQ(rows.size(), 1u);
+    EXPECT_EQ(trim(rows[0][1]), "S1");
+    EXPECT_EQ(trim(rows[0][2]), fmt::format("{:.2f}", net.results.reaches[0].peak_q_m3s));
+  }
+}
+
+TEST_F(ReportTest, UnwritableFolderIsAnInputErrorNamingIt) {
+  const SampleRun& run = sampleRun();
+  const fs::path file = tmp.path() / "plain-file";
+  { std::ofstream(file) << "x"; }
+  try {
+    report::writeReport(file / "report", run.inputs(), *run.series, false);
+    FAIL() << "expected an InputError";
+  } catch (const InputError& e) {
+    EXPECT_NE(e.where().file.find("plain-file"), std::string::npos) << e.what();
+  }
+  // A path without a folder name of its own is refused before anything is written.
+  EXPECT_THROW(report::writeReport(".", run.inputs(), *run.series, true), InvalidParameter);
+  // ".." names the parent, a folder of other files: never replaced, even with overwrite.
+  EXPECT_THROW(report::writeReport(tmp.path() / "..", run.inputs(), *run.series, true), InputError);
+  EXPECT_TRUE(fs::exists(file));
+}
+
 TEST(ReportSeriesTest, CapturedOutletSeriesEqualsTheGeoPackageHydrograph) {
   GDALAllRegister();
   const SampleRun& run = sampleRun();
