@@ -44,6 +44,17 @@ void routeKernel(benchmark::State& state, Method method, Scheme scheme, bool tab
       benchmark::Counter(static_cast<double>(cells), benchmark::Counter::kIsRate);
 }
 
+// Building the benchmark reach's rating table (Q_hi = 1.5 × the 415 m³/s
+// peak, as the router chooses): part of every vpmc figure above.
+void ratingTableBuild(benchmark::State& state) {
+  const hydraulics::Section section = hydraulics::Section::trapezoid(25, 2, 0.035, 0.0008);
+  const double q_hi = 1.5 * 415.0;
+  for (auto _ : state) {
+    const hydraulics::RatingTable table(section, q_hi * 1e-5, q_hi);
+    benchmark::DoNotOptimize(&table);
+  }
+}
+
 }  // namespace
 
 BENCHMARK_CAPTURE(routeKernel, constant_parameter, Method::ConstantParameter, Scheme::ThreePoint, true)
@@ -56,5 +67,7 @@ BENCHMARK_CAPTURE(routeKernel, vpmc_four_point_table, Method::VariableParameter,
     ->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(routeKernel, vpmc_three_point_direct_solve, Method::VariableParameter, Scheme::ThreePoint, false)
     ->Unit(benchmark::kMillisecond);
+
+BENCHMARK(ratingTableBuild)->Unit(benchmark::kMicrosecond);
 
 BENCHMARK_MAIN();

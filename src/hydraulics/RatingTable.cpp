@@ -118,15 +118,15 @@ void RatingTable::addLinearSegment(const Segment& s, double a_lo, double a_hi, L
   out.a_hi = a_hi;
   out.key0 = linearKey(a_lo);
   out.first = linear_cells_.size();
+  linear_cells_.reserve(out.first + static_cast<std::size_t>(linearKey(a_hi) - out.key0) + 1);
   double left = a_lo, c_left, g_left;
   hermiteCelerityAndG(s, left, c_left, g_left);
   for (std::int64_t key = out.key0; key <= linearKey(a_hi); ++key) {
     const double right = std::min(a_hi, linearKeyStart(key + 1));
     double c_right, g_right;
     hermiteCelerityAndG(s, right, c_right, g_right);
-    const double width = right - left;
-    const double c1 = width > 0 ? (c_right - c_left) / width : 0.0;
-    const double g1 = width > 0 ? (g_right - g_left) / width : 0.0;
+    const double inv_width = right > left ? 1.0 / (right - left) : 0.0;  // 0: a one-point cell
+    const double c1 = (c_right - c_left) * inv_width, g1 = (g_right - g_left) * inv_width;
     linear_cells_.push_back(LinearCell{c_left - c1 * left, c1, g_left - g1 * left, g1});
     left = right, c_left = c_right, g_left = g_right;
   }
@@ -134,7 +134,7 @@ void RatingTable::addLinearSegment(const Segment& s, double a_lo, double a_hi, L
 
 void RatingTable::hermiteCelerityAndG(const Segment& s, double a, double& celerity_ms,
                                       double& inv_tc) const {
-  const Cell c = cellAt(s, (s.sign * std::log(a) - s.u0) * s.inv_h);
+  const Cell c = cellAt(s, (s.sign * fastLog(a) - s.u0) * s.inv_h);
   celerity_ms = hermite(c.t, c.h, c.lo->c, c.lo->dc, c.lo[1].c, c.lo[1].dc);
   inv_tc = hermite(c.t, c.h, c.lo->g, c.lo->dg, c.lo[1].g, c.lo[1].dg);
 }
