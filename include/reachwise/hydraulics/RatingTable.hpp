@@ -45,8 +45,8 @@ public:
   double bottomDischarge() const noexcept { return q_lo_; }
   double topDischarge() const noexcept { return q_hi_; }
 
-  /// Celerity (m/s) and top width (m) at discharge q; q outside the table is
-  /// held at the nearest end. The hot-loop lookup.
+  /// Celerity (m/s) and top width (m) at discharge q from the cubic; q
+  /// outside the table is held at the nearest end.
   void celerityAndWidth(double q_m3s, double& celerity_ms, double& top_width_m) const {
     const Cell& c = locate(q_m3s);
     celerity_ms = hermite(c.t, c.h, c.lo->c, c.lo->dc, c.lo[1].c, c.lo[1].dc);
