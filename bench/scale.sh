@@ -32,6 +32,11 @@ selections="${SELECTIONS-outlets default}"
 bin="$build/reachwise"
 bw="$build/bench/bandwidth_bench"
 mkdir -p "$work/logs"
+# GDAL 3.6 builds a large layer's spatial index in a background thread in a
+# temporary database; with it, route's results writer fails at 100k reaches
+# ("cannot index hydrographs ... DETACH DATABASE temp_rtree_... is locked").
+# Building the index in the writing thread avoids that (same file written).
+export OGR_GPKG_ALLOW_THREADED_RTREE="${OGR_GPKG_ALLOW_THREADED_RTREE:-NO}"
 results="$work/results.tsv"
 : >"$results"
 
