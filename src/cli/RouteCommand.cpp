@@ -24,6 +24,7 @@
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/io/RouteConfig.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
+#include "reachwise/network/PlanRanking.hpp"
 #include "reachwise/report/Report.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/version.hpp"
@@ -72,10 +73,25 @@ bool flowsIntoConfluence(const network::NetworkPlan& plan, std::uint32_t i) {
   return false;
 }
 
+/// Confluences whose branches `auto` writes on a large network.
+constexpr std::size_t kAutoConfluences = 1000;
+
+/// The incoming branches of the `limit` confluences with the largest
+/// upstream networks: the main stems, with a count that does not grow
+/// with the network (half of all reaches meet at some confluence).
+std::vector<bool> mainConfluenceBranches(const network::NetworkPlan& plan, std::size_t limit) {
+  std::vector<bool> pick(plan.size(), false);
+  const auto main = network::largestFirst(network::confluenceReaches(plan), network::upstreamSize(plan), limit);
+  for (const std::uint32_t c : main)
+    for (std::uint32_t k = plan.up_offset[c]; k < plan.up_offset[c + 1]; ++k) pick[plan.up_reach[k]] = true;
+  return pick;
+}
+
 /// `--hydrographs`: comma-separated `all`, `none`, `outlets`, `confluences`
 /// (the reaches whose outflow meets another at a confluence: every branch),
-/// `auto` (all below 10,000 reaches, else outlets and confluences) and
-/// reach ids. Unknown ids are an error listing them all.
+/// `auto` (all below 10,000 reaches, else the outlets and the branches of
+/// the 1,000 largest confluences) and reach ids. Unknown ids are an error
+/// listing them all.
 io::SeriesSelection chooseSeries(const std::string& spec, const network::NetworkPlan& plan) {
   const std::uint32_t n = static_cast<std::uint32_t>(plan.size());
   std::vector<bool> pick(n, false);
@@ -98,7 +114,8 @@ io::SeriesSelection chooseSeries(const std::string& spec, const network::Network
       mark([](std::uint32_t) { return true; });
     } else if (token == "auto") {
       mark(outlets);
-      mark(confluences);
+      const std::vector<bool> main = mainConfluenceBranches(plan, kAutoConfluences);
+      mark([&](std::uint32_t i) { return bool(main[i]); });
     } else if (token == "outlets") {
       mark(outlets);
     } else if (token == "confluences") {

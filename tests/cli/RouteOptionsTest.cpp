@@ -112,6 +112,29 @@ TEST(RouteOptions, HydrographSelection) {
   EXPECT_FALSE(fs::exists(tmp.file("b.gpkg")));
 }
 
+TEST(RouteOptions, AutoSelectionStaysBoundedOnALargeNetwork) {
+  // 12,000 reaches: above the 10,000 where `auto` stops writing every reach.
+  const testsupport::TempDir tmp;
+  const std::string net = tmp.file("net.gpkg"), lat = tmp.file("lat.nc"), out = tmp.file("o.gpkg");
+  ASSERT_EQ(run("synth " + net + " --reaches 12000 --outlets 2 --steps 4 --lateral " + lat).code, 0);
+  const Outcome r = run("route " + net + " --lateral " + lat + " --out " + out);
+  ASSERT_EQ(r.code, 0) << r.err;
+  auto ds = open(out);
+  ASSERT_TRUE(ds);
+  OGRLayer* h = ds->ExecuteSQL("SELECT COUNT(DISTINCT reach_id) FROM hydrographs", nullptr, nullptr);
+  const auto written = h->GetNextFeature()->GetFieldAsInteger64(0);
+  ds->ReleaseResultSet(h);
+  // Both outlets, and the branches of at most 1,000 confluences (two or
+  // three each in a synthetic tree): far fewer than the 12,000 reaches.
+  EXPECT_GE(written, 2 + 2 * 1000);
+  EXPECT_LE(written, 2 + 3 * 1000);
+  OGRLayer* outlets = ds->ExecuteSQL(
+      "SELECT COUNT(*) FROM nodes WHERE kind = 'outlet' AND substr(node_id, 3) IN (SELECT reach_id FROM hydrographs)",
+      nullptr, nullptr);
+  EXPECT_EQ(outlets->GetNextFeature()->GetFieldAsInteger64(0), 2);
+  ds->ReleaseResultSet(outlets);
+}
+
 TEST(RouteOptions, NetcdfForcingGivesTheSameRunAsCsv) {
   const testsupport::TempDir tmp;
   reachwise::io::Forcing lateral = reachwise::io::readForcingCsv(std::nullopt, fs::path(kSample + "lateral.csv"));
