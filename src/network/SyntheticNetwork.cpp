@@ -237,6 +237,70 @@ void assignAttributes(std::mt19937_64& gen, SyntheticNetwork& net) {
   }
 }
 
+/// Depth-first post-order from the roots (children by grid index): every
+/// reach after all reaches upstream of it, and each subtree contiguous.
+std::vector<std::uint32_t> postOrder(const std::vector<std::uint32_t>& downstream,
+                                     const std::vector<std::uint32_t>& roots) {
+  const std::size_t n = downstream.size();
+  std::vector<std::uint32_t> begin(n + 1, 0), child(n);
+  for (std::uint32_t d : downstream)
+    if (d != kSyntheticOutlet) ++begin[d + 1];
+  for (std::size_t i = 0; i < n; ++i) begin[i + 1] += begin[i];
+  std::vector<std::uint32_t> fill(begin.begin(), begin.end() - 1);
+  for (std::size_t i = 0; i < n; ++i)
+    if (downstream[i] != kSyntheticOutlet) child[fill[downstream[i]]++] = static_cast<std::uint32_t>(i);
+  std::vector<std::uint32_t> order;
+  order.reserve(n);
+  std::vector<std::pair<std::uint32_t, std::uint32_t>> stack;  // node, next child slot
+  for (std::uint32_t root : roots) {
+    stack.emplace_back(root, begin[root]);
+    while (!stack.empty()) {
+      auto& [node, next] = stack.back();
+      if (next < begin[node + 1]) {
+        const std::uint32_t c = child[next++];
+        stack.emplace_back(c, begin[c]);
+      } else {
+        order.push_back(node);
+        stack.pop_back();
+      }
+    }
+  }
+  REACHWISE_ASSERT(order.size() == n);
+  return order;
+}
+
+/// Renumbers the reaches so that reach k is order[k].
+SyntheticNetwork renumbered(const SyntheticNetwork& in, const std::vector<std::uint32_t>& order) {
+  const std::size_t n = in.size();
+  std::vector<std::uint32_t> position(n);
+  for (std::size_t k = 0; k < n; ++k) position[order[k]] = static_cast<std::uint32_t>(k);
+  SyntheticNetwork out;
+  out.min_x_m = in.min_x_m, out.max_x_m = in.max_x_m, out.min_y_m = in.min_y_m, out.max_y_m = in.max_y_m;
+  const auto permute = [&](const std::vector<double>& v) {
+    std::vector<double> r(n);
+    for (std::size_t k = 0; k < n; ++k) r[k] = v[order[k]];
+    return r;
+  };
+  out.length_m = permute(in.length_m);
+  out.upstream_length_m = permute(in.upstream_length_m);
+  out.slope = permute(in.slope);
+  out.manning_n = permute(in.manning_n);
+  out.bottom_width_m = permute(in.bottom_width_m);
+  out.side_slope = permute(in.side_slope);
+  out.downstream.resize(n);
+  out.vertex_begin.reserve(n + 1);
+  out.vertices.reserve(in.vertices.size());
+  for (std::size_t k = 0; k < n; ++k) {
+    const std::uint32_t d = in.downstream[order[k]];
+    out.downstream[k] = d == kSyntheticOutlet ? kSyntheticOutlet : position[d];
+    out.vertex_begin.push_back(static_cast<std::uint32_t>(out.vertices.size()));
+    const auto line = in.line(order[k]);
+    out.vertices.insert(out.vertices.end(), line.begin(), line.end());
+  }
+  out.vertex_begin.push_back(static_cast<std::uint32_t>(out.vertices.size()));
+  return out;
+}
+
 }  // namespace
 
 std::string SyntheticNetwork::id(std::size_t reach) { return "R" + std::to_string(reach); }
@@ -279,7 +343,10 @@ SyntheticNetwork generateSyntheticNetwork(const SyntheticOptions& options) {
   net.downstream = wilsonForest(gen, g, roots);
   drawLines(gen, g, node, outlet_gap, net);
   assignAttributes(gen, net);
-  return net;
+  // Grid order scatters a subtree over many rows; depth-first order keeps
+  // it together in the layer and in the forcing file, as coded river
+  // networks usually are, and makes the feature order a topological order.
+  return renumbered(net, postOrder(net.downstream, roots));
 }
 
 ReachTable toReachTable(const SyntheticNetwork& net) {

@@ -111,9 +111,12 @@ TEST(SyntheticGeometry, TheIntersectionCheckFindsACrossingWhenThereIsOne) {
   while (other == head || net.downstream[head] == other || net.downstream[other] == head ||
          net.downstream[other] == net.downstream[head])
     ++other;
-  // The headwater's top is shared with no other line; put it on `other`.
+  // The headwater's top is shared with no other line; move it just past the
+  // middle of `other`'s first segment, so that its first segment crosses it.
   const auto o = net.line(other);
-  net.vertices[net.vertex_begin[head]] = {0.5 * (o[0].x + o[1].x), 0.5 * (o[0].y + o[1].y)};
+  const Point2 m{0.5 * (o[0].x + o[1].x), 0.5 * (o[0].y + o[1].y)};
+  const Point2 v = net.vertices[net.vertex_begin[head] + 1];
+  net.vertices[net.vertex_begin[head]] = {m.x + 0.05 * (m.x - v.x), m.y + 0.05 * (m.y - v.y)};
   const auto bad = badIntersections(net);
   const std::string a = SyntheticNetwork::id(std::min(head, other)), b = SyntheticNetwork::id(std::max(head, other));
   EXPECT_NE(std::find(bad.begin(), bad.end(), a + " x " + b), bad.end());

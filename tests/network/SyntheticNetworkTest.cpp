@@ -261,3 +261,22 @@ TEST(SyntheticStorm, InflowAtTheFarthestHeadwaterOfEachBasin) {
     EXPECT_TRUE(found) << "outlet " << outlet;
   }
 }
+
+TEST(SyntheticNetwork, NumberedDepthFirstWithContiguousSubtrees) {
+  const auto net = make(3000, 13, 2);
+  std::vector<std::size_t> size(net.size(), 1);
+  for (std::size_t i = 0; i < net.size(); ++i) {
+    const std::uint32_t d = net.downstream[i];
+    if (d == kSyntheticOutlet) continue;
+    EXPECT_GT(d, i);  // every reach after all reaches upstream of it
+    size[d] += size[i];  // complete: all of i's upstream reaches come before i
+  }
+  // The size[i] reaches just before and including i are exactly i's subtree.
+  for (std::size_t i = 0; i < net.size(); i += 7) {
+    for (std::size_t j = i + 1 - size[i]; j <= i; ++j) {
+      std::size_t at = j;
+      while (at != i && net.downstream[at] != kSyntheticOutlet) at = net.downstream[at];
+      ASSERT_EQ(at, i) << "reach " << j << " in the block of " << i;
+    }
+  }
+}

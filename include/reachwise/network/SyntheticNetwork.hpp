@@ -12,6 +12,9 @@
 /// on the southern row, one step south to an outlet point). Grid edges of a
 /// jittered grid cannot cross (the jitter stays inside a quarter of each
 /// gap), so the lines are a planar drawing whose ends agree with the links.
+/// Reaches are numbered in depth-first post-order from the outlets: every
+/// reach comes after all reaches upstream of it and each subtree's reaches
+/// are contiguous (in the layer and in the forcing file).
 ///
 /// Determinism: one std::mt19937_64 seeded with `seed` (its output sequence
 /// is fixed by the C++ standard) and our own uniform, log-uniform and
