@@ -37,6 +37,7 @@ NetcdfForcingWriter::NetcdfForcingWriter(std::filesystem::path path, const routi
   file_options.source = options.source;
   file_options.history = options.history;
   file_options.deflate_level = options.deflate_level;
+  file_options.single_precision = options.single_precision;
   file_ = std::make_unique<detail::SeriesFile>(std::move(path), axis, reach_ids,
                                                forcingVariables(with_inflow, with_lateral), file_options);
 }

@@ -74,14 +74,15 @@ void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::st
 
   const int dims[2] = {dim_time, dim_reach};
   const std::size_t chunks[2] = {steps_, std::min(options.reach_chunk, reaches_)};
-  const double fill = NC_FILL_DOUBLE;
+  const nc_type type = options.single_precision ? NC_FLOAT : NC_DOUBLE;
+  const double fill = options.single_precision ? static_cast<double>(NC_FILL_FLOAT) : NC_FILL_DOUBLE;
   for (const SeriesVariable& v : variables_) {
     int id = 0;
-    check(nc_def_var(ncid_, v.name.c_str(), NC_DOUBLE, 2, dims, &id), temp_, "defining " + v.name);
+    check(nc_def_var(ncid_, v.name.c_str(), type, 2, dims, &id), temp_, "defining " + v.name);
     check(nc_def_var_chunking(ncid_, id, NC_CHUNKED, chunks), temp_, "chunking " + v.name);
     if (options.deflate_level > 0)
       check(nc_def_var_deflate(ncid_, id, 1, 1, options.deflate_level), temp_, "compressing " + v.name);
-    check(nc_put_att_double(ncid_, id, "_FillValue", NC_DOUBLE, 1, &fill), temp_, "fill of " + v.name);
+    check(nc_put_att_double(ncid_, id, "_FillValue", type, 1, &fill), temp_, "fill of " + v.name);
     putText(ncid_, id, "units", v.units, temp_);
     putText(ncid_, id, "long_name", v.long_name, temp_);
     if (!v.standard_name.empty()) putText(ncid_, id, "standard_name", v.standard_name, temp_);

@@ -39,10 +39,13 @@ struct SeriesFileOptions {
   std::string history;
   int deflate_level = 1;           ///< 0 = none; shuffle is on whenever deflate is
   std::size_t reach_chunk = 1;     ///< reaches per chunk (time is always whole)
+  /// Store values as 32-bit floats (7 significant digits: ample for
+  /// discharges, half the bytes to store and inflate on reading).
+  bool single_precision = false;
 };
 
 /// A CF file with dimensions `time` and `reach`, coordinate `time`, the
-/// `reach_id` strings, and one double variable (time, reach) per entry of
+/// `reach_id` strings, and one double (or float) variable (time, reach) per entry of
 /// `variables`, filled with _FillValue until written. Created under a
 /// temporary name beside `path`; `finish()` closes and renames it; the
 /// destructor removes it when `finish()` was not reached.

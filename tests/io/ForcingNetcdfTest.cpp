@@ -299,3 +299,35 @@ TEST_F(ForcingNetcdfTest, ConcurrentReadsFromSeveralThreadsGiveTheStoredSeries) 
   for (auto& th : threads) th.join();
   EXPECT_EQ(mismatches, std::vector<int>(4, 0));
 }
+
+TEST_F(ForcingNetcdfTest, SinglePrecisionStoresFloatsAndReadsThemBack) {
+  // Values come back as the nearest IEEE 754 single-precision number, and a
+  // reach never written still reads as "no series" (the float _FillValue).
+  const Forcing f = sampleForcing(4);
+  const fs::path p = dir_ / "single.nc";
+  ForcingNetcdfOptions options;
+  options.single_precision = true;
+  {
+    NetcdfForcingWriter writer(p, f.axis, {"R1", "R12", "R9"}, true, false, options);
+    writer.write(ForcingKind::Inflow, 0, f.inflow.at("R1"));
+    writer.write(ForcingKind::Inflow, 1, f.inflow.at("R12"));
+    writer.finish();
+  }
+  int ncid = 0, var = 0;
+  nc_type type = NC_NAT;
+  ASSERT_EQ(nc_open(p.c_str(), NC_NOWRITE, &ncid), NC_NOERR);
+  ASSERT_EQ(nc_inq_varid(ncid, "inflow", &var), NC_NOERR);
+  ASSERT_EQ(nc_inq_vartype(ncid, var, &type), NC_NOERR);
+  nc_close(ncid);
+  EXPECT_EQ(type, NC_FLOAT);
+  const NetcdfForcingSource source(p);
+  std::vector<double> got;
+  for (const char* id : {"R1", "R12"}) {
+    ASSERT_TRUE(source.inflow(id, got)) << id;
+    const auto& want = f.inflow.at(id);
+    ASSERT_EQ(got.size(), want.size());
+    for (std::size_t k = 0; k < want.size(); ++k)
+      EXPECT_EQ(got[k], static_cast<double>(static_cast<float>(want[k]))) << id << " " << k;
+  }
+  EXPECT_FALSE(source.inflow("R9", got));
+}

@@ -34,6 +34,7 @@ struct ForcingNetcdfOptions {
   std::string source;                 ///< e.g. "reachwise 0.1.0 (abc123)"
   std::string history;
   int deflate_level = 1;              ///< 0-9; 0 = uncompressed
+  bool single_precision = false;      ///< store 32-bit floats (half the bytes; 7 digits)
 };
 
 /// Streams forcing to a new file reach by reach (for generators of large
