@@ -17,36 +17,16 @@
 #include <sstream>
 #include <string>
 
+#include "support/Cli.hpp"
 #include "support/Scratch.hpp"
 
 namespace {
 
-const std::string kBinary = REACHWISE_BINARY_DIR "/reachwise";
 const std::string kSamples = REACHWISE_SOURCE_DIR "/sample-network/";
 
-struct Run {
-  int code = -1;
-  std::string out, err;
-};
+using Run = testsupport::CliRun;
 
-std::string slurp(const std::filesystem::path& p) {
-  std::ifstream in(p);
-  std::stringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
-Run run(const std::string& args) {
-  const auto dir = testsupport::testScratchDir();
-  const auto out = dir / "check_out.txt", err = dir / "check_err.txt";
-  const auto cmd = fmt::format("{} {} >{} 2>{}", kBinary, args, out.string(), err.string());
-  const int status = std::system(cmd.c_str());
-  Run r;
-  r.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  r.out = slurp(out);
-  r.err = slurp(err);
-  return r;
-}
+Run run(const std::string& args) { return testsupport::runReachwise(args); }
 
 GDALDatasetUniquePtr open(const std::string& path) {
   GDALAllRegister();

@@ -9,16 +9,13 @@
 #include <string>
 
 #include "reachwise/io/Gdal.hpp"
+#include "support/Cli.hpp"
 #include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
 
 namespace {
-int run(const std::string& args) {
-  const std::string cmd = std::string(REACHWISE_BINARY_DIR) + "/reachwise " + args + " > /dev/null 2>&1";
-  const int status = std::system(cmd.c_str());
-  return WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-}
+int run(const std::string& args) { return testsupport::runReachwise(args).code; }
 }  // namespace
 
 TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {

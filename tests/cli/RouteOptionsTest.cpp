@@ -7,17 +7,16 @@
 #include <ogrsf_frmts.h>
 
 #include <cmath>
-#include <cstdlib>
 #include <filesystem>
 #include <fstream>
 #include <map>
 #include <memory>
-#include <sstream>
 #include <string>
 
 #include "reachwise/io/ForcingCsv.hpp"
 #include "reachwise/io/ForcingNetcdf.hpp"
 #include "reachwise/io/Gdal.hpp"
+#include "support/Cli.hpp"
 #include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
@@ -28,33 +27,9 @@ const std::string kSample = REACHWISE_SOURCE_DIR "/sample-network/";
 const std::string kNetwork = kSample + "network.gpkg";
 const std::string kStorm = " --inflow " + kSample + "inflow.csv --lateral " + kSample + "lateral.csv";
 
-struct Outcome {
-  int code = -1;
-  std::string out, err;
-};
+using Outcome = testsupport::CliRun;
 
-std::string slurp(const fs::path& p) {
-  std::ifstream in(p);
-  std::stringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
-Outcome run(const std::string& args) {
-  // Beside the test's TempDir (testScratchDir() would be the same folder).
-  const std::string base = (fs::temp_directory_path() / testsupport::uniqueTestName()).string();
-  const fs::path out = base + ".stdout", err = base + ".stderr";
-  const std::string cmd = std::string(REACHWISE_BINARY_DIR) + "/reachwise " + args + " > " + out.string() +
-                          " 2> " + err.string();
-  const int status = std::system(cmd.c_str());
-  Outcome o;
-  o.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  o.out = slurp(out);
-  o.err = slurp(err);
-  fs::remove(out);
-  fs::remove(err);
-  return o;
-}
+Outcome run(const std::string& args) { return testsupport::runReachwise(args); }
 
 void writeText(const fs::path& p, const std::string& text) { std::ofstream(p) << text; }
 

@@ -1,0 +1,47 @@
+#pragma once
+// Test support: running the built `reachwise` program and capturing what it
+// prints, for the end-to-end command tests.
+
+#include <sys/wait.h>
+
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+#include <string>
+
+#include "support/Scratch.hpp"
+
+namespace testsupport {
+
+struct CliRun {
+  int code = -1;          ///< exit status (-1: did not exit normally)
+  std::string out, err;   ///< what it printed on stdout and stderr
+};
+
+inline std::string slurp(const std::filesystem::path& p) {
+  std::ifstream in(p);
+  std::stringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+/// Runs `reachwise ARGS` (ARGS as a shell would split them). The captured
+/// output goes to files beside, not inside, the test's scratch folder, so
+/// a TempDir of the same name is left alone.
+inline CliRun runReachwise(const std::string& args) {
+  const std::string base = (std::filesystem::temp_directory_path() / uniqueTestName()).string();
+  const std::filesystem::path out = base + ".stdout", err = base + ".stderr";
+  const std::string cmd = std::string(REACHWISE_BINARY_DIR) + "/reachwise " + args + " > " + out.string() +
+                          " 2> " + err.string();
+  const int status = std::system(cmd.c_str());
+  CliRun r;
+  r.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  r.out = slurp(out);
+  r.err = slurp(err);
+  std::filesystem::remove(out);
+  std::filesystem::remove(err);
+  return r;
+}
+
+}  // namespace testsupport
