@@ -14,6 +14,15 @@ namespace reachwise::io {
 /// message in parentheses when there is one.
 [[noreturn]] void throwWithGdalMessage(const InputLocation& where, const std::string& what);
 
+/// The same, at `file` (and `layer`, when given).
+[[noreturn]] inline void throwWithGdalMessage(const std::string& file, const std::string& what,
+                                              const std::string& layer = {}) {
+  InputLocation at;
+  at.file = file;
+  at.layer = layer;
+  throwWithGdalMessage(at, what);
+}
+
 /// The CRS of a layer from its WKT, with coordinates taken x = easting /
 /// longitude as the reader stored them; null for an empty or unreadable WKT.
 std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt);

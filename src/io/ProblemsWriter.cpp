@@ -22,11 +22,7 @@ namespace {
 
 using network::ReachGraph;
 
-[[noreturn]] void fail(const std::string& path, const std::string& what) {
-  InputLocation at;
-  at.file = path;
-  throwWithGdalMessage(at, what);
-}
+[[noreturn]] void fail(const std::string& path, const std::string& what) { throwWithGdalMessage(path, what); }
 
 void addField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
               OGRFieldSubType subtype = OFSTNone) {

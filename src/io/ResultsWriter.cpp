@@ -24,10 +24,7 @@ using results::Value;
 namespace {
 
 [[noreturn]] void failAt(const fs::path& file, const std::string& what, const std::string& layer = {}) {
-  InputLocation at;
-  at.file = file.string();
-  at.layer = layer;
-  throwWithGdalMessage(at, what);
+  throwWithGdalMessage(file.string(), what, layer);
 }
 
 void addField(const fs::path& file, OGRLayer& layer, const Column& column) {
