@@ -213,8 +213,17 @@ void GpkgResultsWriter::openSeriesTable() {
     columns.push_back({"depth", ColumnType::Real});
     columns.push_back({"velocity", ColumnType::Real});
   }
-  series_layer_ = createTable(target_, *ds_, layerName("hydrographs"), nullptr, wkbNone, columns);
+  const auto series = layerName("hydrographs");
+  series_layer_ = createTable(target_, *ds_, series, nullptr, wkbNone, columns);
   series_feature_ = std::make_unique<OGRFeature>(series_layer_->GetLayerDefn());
+  // GIS users pick one reach's hydrograph; an index keeps that fast. It is
+  // made now, before any layer holds rows: SQL run later inside the open
+  // transaction would make GDAL finish the deferred spatial index of a large
+  // layer, which it cannot do within a transaction ("database is locked").
+  CPLErrorReset();
+  ds_->ExecuteSQL(fmt::format("CREATE INDEX \"idx_{0}_reach_id\" ON \"{0}\" (reach_id)", series).c_str(),
+                  nullptr, nullptr);
+  if (CPLGetLastErrorType() >= CE_Failure) failAt(target_, "cannot index " + series, series);
 }
 
 void GpkgResultsWriter::countRow() {
@@ -316,12 +325,6 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
 void GpkgResultsWriter::commit() {
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
-  // GIS users pick one reach's hydrograph; an index keeps that fast.
-  const auto series = layerName("hydrographs");
-  CPLErrorReset();
-  ds_->ExecuteSQL(fmt::format("CREATE INDEX \"idx_{0}_reach_id\" ON \"{0}\" (reach_id)", series).c_str(),
-                  nullptr, nullptr);
-  if (CPLGetLastErrorType() >= CE_Failure) fail("cannot index " + series);
   if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
   series_feature_.reset();
   ds_.reset();  // closes and flushes the file before it is renamed
