@@ -58,6 +58,7 @@ public:
              std::span<const double> v) override {
     if (position_[reach] != kNone) inner_.write(position_[reach], q, d, v);
   }
+  bool wants(std::uint32_t reach) const override { return position_[reach] != kNone; }
 
 private:
   static constexpr std::uint32_t kNone = ~0u;

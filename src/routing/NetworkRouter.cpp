@@ -116,6 +116,7 @@ private:
 
     ReachRun run;
     auto out = std::make_unique<std::vector<double>>();
+    const bool send = sink_ && sink_->wants(i);
     try {
       const ReachSpec spec{hydraulics::Section::fromSpec(plan_.section[i]), plan_.length_m[i],
                            plan_.muskingum_k_h[i] * 3600.0, plan_.muskingum_x[i]};
@@ -124,14 +125,14 @@ private:
                                                        : std::span<const double>(),
                             axis_.dt_s, options_.reach, *out);
       const hydraulics::RatingTable* table = ws.router.lastTable() ? &*ws.router.lastTable() : nullptr;
-      if (sink_) depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
+      if (send) depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
       summarise(i, run, *out, spec.section, table);
     } catch (const InvalidParameter& e) {
       where.field = e.quantity();
       throw InputError(where, e.what());
     }
     top_node_[i] = findPeak(ws.inflow);
-    if (sink_) {
+    if (send) {
       std::lock_guard lock(sink_mutex_);
       sink_->write(i, *out, ws.depth, ws.velocity);
     }

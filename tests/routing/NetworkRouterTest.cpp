@@ -177,6 +177,32 @@ TEST(NetworkRouter, IdenticalForOneAndTwoThreads) {
   }
 }
 
+// A sink that wants only some reaches gets only those, with the same
+// values as a sink that takes them all; the rest of the run is unchanged.
+TEST(NetworkRouter, SinkGetsOnlyTheReachesItWants) {
+  struct EvenOnly : Capture {
+    std::size_t depth_series = 0;
+    void write(std::uint32_t reach, std::span<const double> qs, std::span<const double> depth,
+               std::span<const double> v) override {
+      EXPECT_EQ(reach % 2, 0u) << "unwanted reach " << reach;
+      depth_series += depth.empty() ? 0 : 1;
+      Capture::write(reach, qs, depth, v);
+    }
+    bool wants(std::uint32_t reach) const override { return reach % 2 == 0; }
+  };
+  std::mt19937 rng(91);
+  const NetworkPlan p = randomTree(50, rng);
+  const MemoryForcing f = randomForcing(p, 48, rng);
+  Capture all;
+  EvenOnly even;
+  const NetworkResults ra = routeNetwork(p, hourly(48), f, {}, &all);
+  const NetworkResults re = routeNetwork(p, hourly(48), f, {}, &even);
+  EXPECT_EQ(even.q.size(), (p.size() + 1) / 2);
+  EXPECT_EQ(even.depth_series, even.q.size());  // depth and velocity still come with a wanted reach
+  for (const auto& [reach, q] : even.q) EXPECT_EQ(q, all.q.at(reach)) << reach;
+  for (std::uint32_t i = 0; i < p.size(); ++i) EXPECT_EQ(ra.reaches[i].peak_depth_m, re.reaches[i].peak_depth_m);
+}
+
 // Superposition under constant parameters (linear routing): routing the
 // forcing of two halves separately and adding equals routing them together.
 TEST(NetworkRouter, SuperpositionUnderConstantParameters) {

@@ -116,6 +116,7 @@ public:
   /// velocity the same or be empty (then NULL).
   void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
              std::span<const double> velocity_ms) override;
+  bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
 
   /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`.
   void writeSummaries(const routing::NetworkResults& results, const RunInfo& info);
@@ -172,6 +173,7 @@ public:
   CsvSeriesWriter(const std::filesystem::path& dir, bool overwrite, const network::NetworkPlan& plan,
                   const routing::TimeAxis& axis, SeriesSelection selection = SeriesSelection::all());
   ~CsvSeriesWriter() override;
+  bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
   CsvSeriesWriter(const CsvSeriesWriter&) = delete;
   CsvSeriesWriter& operator=(const CsvSeriesWriter&) = delete;
 
@@ -195,7 +197,12 @@ public:
   void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
              std::span<const double> velocity_ms) override {
     for (auto* sink : sinks_)
-      if (sink) sink->write(reach, q_m3s, depth_m, velocity_ms);
+      if (sink && sink->wants(reach)) sink->write(reach, q_m3s, depth_m, velocity_ms);
+  }
+  bool wants(std::uint32_t reach) const override {
+    for (auto* sink : sinks_)
+      if (sink && sink->wants(reach)) return true;
+    return false;
   }
 
 private:

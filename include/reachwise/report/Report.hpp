@@ -45,6 +45,8 @@ public:
   /// velocity series). Thread-safe.
   void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
              std::span<const double> velocity_ms) override;
+  /// True for the chosen reaches only.
+  bool wants(std::uint32_t reach) const override { return q_.count(reach) != 0; }
 
   /// Plan indices of the outlets whose series are captured (largest
   /// upstream network first).

@@ -86,6 +86,9 @@ public:
   virtual ~SeriesSink() = default;
   virtual void write(std::uint32_t reach, std::span<const double> q_m3s,
                      std::span<const double> depth_m, std::span<const double> velocity_ms) = 0;
+  /// False when write() would ignore `reach`: the router then neither
+  /// computes the reach's depth and velocity series nor calls write().
+  virtual bool wants(std::uint32_t /*reach*/) const { return true; }
 };
 
 struct NetworkResults {
