@@ -227,6 +227,111 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
   fmt::print(out, "caution: {}\n", io::kResultsCaution);
 }
 
+/// Every output of a run, opened before routing (so that a refused output
+/// costs no routing time) and committed only when all of them are written.
+struct Outputs {
+  Outputs(const RouteOptions& o, const network::ReachTable& table, const network::NetworkPlan& plan,
+          const routing::TimeAxis& axis)
+      : options(o), table(table), plan(plan), selection(chooseSeries(o.hydrographs, plan)) {
+    // A new GeoPackage (temporary name, renamed on success) or prefixed
+    // layers in the input GeoPackage; with --series the chosen hydrographs
+    // go to NetCDF instead of the GeoPackage table.
+    io::GpkgWriterOptions wo;
+    wo.overwrite = o.overwrite;
+    wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
+    if (o.write_back) {
+      gpkg = io::GpkgResultsWriter::writeBack(o.network, "rw_", table, plan, axis, wo);
+      target = o.network;
+    } else {
+      target = o.out.empty() ? "reachwise-results.gpkg" : o.out;
+      gpkg = std::make_unique<io::GpkgResultsWriter>(target, table, plan, axis, wo);
+    }
+    sinks.push_back(gpkg.get());
+    if (!o.csv.empty()) {
+      std::error_code ec;
+      fs::create_directories(o.csv, ec);
+      csv = std::make_unique<io::CsvSeriesWriter>(o.csv, o.overwrite, plan, axis, selection);
+      sinks.push_back(csv.get());
+    }
+    if (!o.series_nc.empty()) {
+      refuseExisting(o.series_nc, o.overwrite);
+      const std::vector<bool> mask = selection.mask(plan.size());
+      std::vector<std::string> ids;
+      for (std::size_t i = 0; i < plan.size(); ++i)
+        if (mask[i]) ids.push_back(plan.reach_id[i]);
+      io::SeriesNetcdfOptions so;
+      so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
+      so.history = o.command_line;
+      netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
+      netcdf_selected = std::make_unique<SelectedSeries>(mask, *netcdf);
+      sinks.push_back(netcdf_selected.get());
+    }
+    if (!o.report.empty()) {
+      refuseExisting(o.report, o.overwrite);
+      report_series = std::make_unique<report::ReportSeries>(plan, axis);
+      sinks.push_back(report_series.get());
+    }
+    fan_out = std::make_unique<io::SeriesFanOut>(sinks);
+  }
+
+  routing::SeriesSink* sink() { return fan_out.get(); }
+
+  /// Writes the summaries and the report, then commits every file; the
+  /// report comes first so that a failing report leaves no output behind.
+  void commit(const routing::NetworkResults& results, const io::RunInfo& info, bool us_units) {
+    gpkg->writeSummaries(results, info);
+    if (report_series) {
+      const report::ReportInputs ri{table, plan, results, info, target, us_units};
+      report::writeReport(options.report, ri, *report_series, options.overwrite);
+    }
+    if (csv) {
+      io::writeCsvTables(options.csv, options.overwrite, table, plan, results, info);
+      csv->commit();
+    }
+    if (netcdf) netcdf->finish();
+    gpkg->commit();
+  }
+
+  const RouteOptions& options;
+  const network::ReachTable& table;
+  const network::NetworkPlan& plan;
+  const io::SeriesSelection selection;
+  std::string target;   ///< the GeoPackage written (the input itself with --write-back)
+  std::unique_ptr<io::GpkgResultsWriter> gpkg;
+  std::unique_ptr<io::CsvSeriesWriter> csv;
+  std::unique_ptr<io::NetcdfSeriesWriter> netcdf;
+  std::unique_ptr<SelectedSeries> netcdf_selected;
+  std::unique_ptr<report::ReportSeries> report_series;
+  std::vector<routing::SeriesSink*> sinks;
+  std::unique_ptr<io::SeriesFanOut> fan_out;
+};
+
+/// The forcing files, checked: they exist, and name only reaches of the network.
+io::OpenedForcing openRunForcing(const RouteOptions& o, const network::NetworkPlan& plan, units::System unit) {
+  io::CsvForcingOptions fo;
+  if (o.dt_s > 0) fo.dt_s = o.dt_s;
+  fo.unit = unit;
+  auto optionalPath = [](const std::string& p) { return p.empty() ? std::nullopt : std::optional<fs::path>(p); };
+  for (const std::string* f : {&o.inflow, &o.lateral})
+    if (!f->empty()) requireExisting(*f);
+  io::OpenedForcing opened = io::openForcing(optionalPath(o.inflow), optionalPath(o.lateral), fo);
+  const std::set<std::string, std::less<>> known(plan.reach_id.begin(), plan.reach_id.end());
+  io::requireKnownReaches(*opened.source, known);
+  return opened;
+}
+
+io::RunInfo runInfo(const RouteOptions& o, const routing::NetworkResults& results) {
+  io::RunInfo info;
+  info.inputs = {o.network};
+  for (const std::string* f : {&o.inflow, &o.lateral, &o.config})
+    if (!f->empty()) info.inputs.push_back(*f);
+  info.method = o.method;
+  info.command_line = o.command_line;
+  info.warnings = results.warnings;
+  info.series_file = o.series_nc;
+  return info;
+}
+
 int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   const auto net = loadNetwork(o.network, o.layer, o.config);
   const network::ReachTable& table = net->table;
@@ -239,69 +344,11 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   }
   const network::NetworkPlan plan = net->graph->freeze();
 
-  io::CsvForcingOptions fo;
-  if (o.dt_s > 0) fo.dt_s = o.dt_s;
-  fo.unit = net->config.units;
-  auto optionalPath = [](const std::string& p) {
-    return p.empty() ? std::nullopt : std::optional<fs::path>(p);
-  };
-  for (const std::string* f : {&o.inflow, &o.lateral})
-    if (!f->empty()) requireExisting(*f);
-  const io::OpenedForcing opened = io::openForcing(optionalPath(o.inflow), optionalPath(o.lateral), fo);
+  const io::OpenedForcing opened = openRunForcing(o, plan, net->config.units);
   const io::ForcingSource& forcing = *opened.source;
-  std::set<std::string, std::less<>> known(plan.reach_id.begin(), plan.reach_id.end());
-  io::requireKnownReaches(forcing, known);
   const routing::TimeAxis& axis = forcing.axis();
 
-  // Outputs: a new GeoPackage (temporary name, renamed on success) or
-  // prefixed layers in the input GeoPackage; with --series the chosen
-  // hydrographs go to NetCDF instead of the GeoPackage table.
-  io::GpkgWriterOptions wo;
-  wo.overwrite = o.overwrite;
-  const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
-  wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
-  std::unique_ptr<io::GpkgResultsWriter> writer;
-  std::string target = o.out;
-  if (o.write_back) {
-    writer = io::GpkgResultsWriter::writeBack(o.network, "rw_", table, plan, axis, wo);
-    target = o.network;
-  } else {
-    if (target.empty()) target = "reachwise-results.gpkg";
-    writer = std::make_unique<io::GpkgResultsWriter>(target, table, plan, axis, wo);
-  }
-
-  // The series stream to every writer: GeoPackage, --csv, --series.
-  std::vector<routing::SeriesSink*> sinks{writer.get()};
-  std::unique_ptr<io::CsvSeriesWriter> csv_series;
-  if (!o.csv.empty()) {
-    std::error_code ec;
-    fs::create_directories(o.csv, ec);
-    csv_series = std::make_unique<io::CsvSeriesWriter>(o.csv, o.overwrite, plan, axis, selection);
-    sinks.push_back(csv_series.get());
-  }
-  std::unique_ptr<io::NetcdfSeriesWriter> nc_series;
-  std::unique_ptr<SelectedSeries> nc_selected;
-  if (!o.series_nc.empty()) {
-    refuseExisting(o.series_nc, o.overwrite);
-    const std::vector<bool> mask = selection.mask(plan.size());
-    std::vector<std::string> ids;
-    for (std::size_t i = 0; i < plan.size(); ++i)
-      if (mask[i]) ids.push_back(plan.reach_id[i]);
-    io::SeriesNetcdfOptions so;
-    so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
-    so.history = o.command_line;
-    nc_series = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
-    nc_selected = std::make_unique<SelectedSeries>(mask, *nc_series);
-    sinks.push_back(nc_selected.get());
-  }
-  std::unique_ptr<report::ReportSeries> report_series;
-  if (!o.report.empty()) {
-    refuseExisting(o.report, o.overwrite);
-    report_series = std::make_unique<report::ReportSeries>(plan, axis);
-    sinks.push_back(report_series.get());
-  }
-  io::SeriesFanOut fan_out(sinks);
-
+  Outputs outputs(o, table, plan, axis);
   routing::NetworkRouteOptions ro;
   ro.reach.method = parseMethod(o.method);
   ro.threads = o.threads;
@@ -310,41 +357,21 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   ro.progress = [&bar](std::size_t done, std::size_t total) { bar.update(done, total); };
   const ForcingAdapter adapter(forcing, plan);
   const auto t0 = std::chrono::steady_clock::now();
-  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, &fan_out);
+  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, outputs.sink());
   const double route_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   bar.finish();
   for (const auto& w : opened.warnings) results.warnings.push_back(w);
   for (const auto& p : problems)
     if (p.severity == network::Severity::Warning) results.warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
 
-  io::RunInfo info;
-  info.inputs = {o.network};
-  if (!o.inflow.empty()) info.inputs.push_back(o.inflow);
-  if (!o.lateral.empty()) info.inputs.push_back(o.lateral);
-  if (!o.config.empty()) info.inputs.push_back(o.config);
-  info.method = o.method;
-  info.command_line = o.command_line;
-  info.warnings = results.warnings;
-  info.series_file = o.series_nc;
-  writer->writeSummaries(results, info);
-  // The report first: if it fails, no output is committed.
-  if (report_series) {
-    const report::ReportInputs ri{table, plan, results, info, target,
-                                  net->config.units == units::System::USCustomary};
-    report::writeReport(o.report, ri, *report_series, o.overwrite);
-  }
-  if (!o.csv.empty()) {
-    io::writeCsvTables(o.csv, o.overwrite, table, plan, results, info);
-    csv_series->commit();
-  }
-  if (nc_series) nc_series->finish();
-  writer->commit();
+  const io::RunInfo info = runInfo(o, results);
+  outputs.commit(results, info, net->config.units == units::System::USCustomary);
 
   if (o.demo) {
-    printDemoSummary(out, plan, results, target, o.report);
+    printDemoSummary(out, plan, results, outputs.target, o.report);
   } else if (!o.quiet) {
     fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", plan.size(), axis.steps, o.method,
-               target, o.series_nc.empty() ? "" : " and " + o.series_nc,
+               outputs.target, o.series_nc.empty() ? "" : " and " + o.series_nc,
                o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
