@@ -2,7 +2,9 @@
 // One cell update = one sub-reach advanced by one sub-step.
 #include <benchmark/benchmark.h>
 
+#include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <numbers>
 #include <vector>
 
@@ -55,6 +57,85 @@ void ratingTableBuild(benchmark::State& state) {
   }
 }
 
+// A network's worth of short reaches: 2 km each, trapezoids of width
+// 5–40 m, side slope 1–3, slope 0.001–0.01, n = 0.035, 720 hourly steps, a
+// storm (scaled with the reach's size) over base flow. One router is reused
+// across reaches as a network run's worker thread does, so the figure
+// includes each reach's fixed cost: checks, peak, grid, rating table.
+constexpr std::size_t kShortReaches = 256;
+
+struct ShortReach {
+  ReachSpec spec;
+  std::vector<double> inflow;
+};
+
+std::vector<ShortReach> shortReaches(double dt) {
+  std::vector<ShortReach> r;
+  r.reserve(kShortReaches);
+  for (std::size_t i = 0; i < kShortReaches; ++i) {
+    // Deterministic spread over the ranges (golden-ratio sequence).
+    const double u = std::fmod(0.6180339887498949 * static_cast<double>(i + 1), 1.0);
+    const double v = std::fmod(0.7548776662466927 * static_cast<double>(i + 1), 1.0);
+    const double w = std::fmod(0.5698402909980532 * static_cast<double>(i + 1), 1.0);
+    const double width = 5.0 + 35.0 * u, slope = 0.001 * std::pow(10.0, v);
+    const double scale = width / 25.0;  // bigger channel, bigger flood
+    std::vector<double> in(720);
+    const double base = 2.0 * scale, peak = 80.0 * scale, d = (12.0 + 36.0 * w) * 3600.0;
+    for (std::size_t n = 0; n < in.size(); ++n) {
+      const double t = static_cast<double>(n) * dt - 24 * 3600.0;
+      in[n] = base + (t > 0 && t < d ? peak * std::pow(std::sin(std::numbers::pi * t / d), 2) : 0.0);
+    }
+    r.push_back(ShortReach{ReachSpec{hydraulics::Section::trapezoid(width, 1.0 + 2.0 * w, 0.035, slope),
+                                     2000.0, 1800.0, 0.2},
+                           std::move(in)});
+  }
+  return r;
+}
+
+void routeShortReaches(benchmark::State& state, Method method) {
+  const double dt = 3600;
+  const std::vector<ShortReach> reaches = shortReaches(dt);
+  RouteOptions opt;
+  opt.method = method;
+  ReachRouter router;
+  std::vector<double> out;
+  std::uint64_t cells = 0, routed = 0;
+  for (auto _ : state) {
+    for (const ShortReach& r : reaches) {
+      const ReachRun run = router.route(r.spec, r.inflow, {}, dt, opt, out);
+      benchmark::DoNotOptimize(out.data());
+      cells += std::uint64_t(run.numerics.subreaches) * run.numerics.substeps * (r.inflow.size() - 1);
+    }
+    routed += reaches.size();
+  }
+  state.counters["cell_updates_per_s"] =
+      benchmark::Counter(static_cast<double>(cells), benchmark::Counter::kIsRate);
+  state.counters["cells_per_reach"] = static_cast<double>(cells) / static_cast<double>(routed);
+  state.counters["us_per_reach"] = benchmark::Counter(static_cast<double>(routed) * 1e-6,
+                                                      benchmark::Counter::kIsRate |
+                                                          benchmark::Counter::kInvert);
+}
+
+// The rating tables alone of the short reaches (the range the router picks:
+// Q_hi = 1.5 × peak, Q_lo = 1e-5 Q_hi): the table's share of us_per_reach.
+void shortReachTables(benchmark::State& state) {
+  const std::vector<ShortReach> reaches = shortReaches(3600);
+  std::uint64_t built = 0;
+  for (auto _ : state) {
+    for (const ShortReach& r : reaches) {
+      double peak = 0;
+      for (double q : r.inflow) peak = std::max(peak, q);
+      const double q_hi = 1.5 * peak;
+      const hydraulics::RatingTable table(r.spec.section, q_hi * 1e-5, q_hi);
+      benchmark::DoNotOptimize(&table);
+    }
+    built += reaches.size();
+  }
+  state.counters["us_per_table"] = benchmark::Counter(static_cast<double>(built) * 1e-6,
+                                                      benchmark::Counter::kIsRate |
+                                                          benchmark::Counter::kInvert);
+}
+
 }  // namespace
 
 BENCHMARK_CAPTURE(routeKernel, constant_parameter, Method::ConstantParameter, Scheme::ThreePoint, true)
@@ -69,5 +150,12 @@ BENCHMARK_CAPTURE(routeKernel, vpmc_three_point_direct_solve, Method::VariablePa
     ->Unit(benchmark::kMillisecond);
 
 BENCHMARK(ratingTableBuild)->Unit(benchmark::kMicrosecond);
+BENCHMARK_CAPTURE(routeShortReaches, vpmc_2km_reaches, Method::VariableParameter)
+    ->Unit(benchmark::kMillisecond);
+BENCHMARK_CAPTURE(routeShortReaches, mc_2km_reaches, Method::ConstantParameter)
+    ->Unit(benchmark::kMillisecond);
+BENCHMARK_CAPTURE(routeShortReaches, muskingum_2km_reaches, Method::Muskingum)
+    ->Unit(benchmark::kMillisecond);
+BENCHMARK(shortReachTables)->Unit(benchmark::kMillisecond);
 
 BENCHMARK_MAIN();
