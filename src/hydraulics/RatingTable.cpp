@@ -20,11 +20,12 @@ constexpr double kPipeTableTop = 0.995;
 /// secants, zero at local extrema (Fritsch & Butland 1984, *SIAM J. Sci.
 /// Stat. Comput.* 5(2), 300–304); end points use the non-centred three-point
 /// formula limited as in Fritsch & Carlson (1980).
-void monotoneSlopes(const std::vector<double>& f, double h, std::vector<double>& d) {
+void monotoneSlopes(const std::vector<double>& f, double h, std::vector<double>& d,
+                    std::vector<double>& delta) {
   const std::size_t n = f.size();
   d.assign(n, 0.0);
   if (n < 2) return;
-  std::vector<double> delta(n - 1);
+  delta.resize(n - 1);
   for (std::size_t k = 0; k + 1 < n; ++k) delta[k] = (f[k + 1] - f[k]) / h;
   if (n == 2) {
     d[0] = d[1] = delta[0];
@@ -44,10 +45,24 @@ void monotoneSlopes(const std::vector<double>& f, double h, std::vector<double>&
   d[n - 1] = endSlope(delta[n - 2], delta[n - 3]);
 }
 
+/// Work arrays of one segment's build, kept per thread so building a table
+/// per reach does not allocate once they have grown.
+struct SegmentScratch {
+  std::vector<double> c, w, g, y, v, dc, dw, dg, dy, dv, delta;
+};
+SegmentScratch& segmentScratch() {
+  thread_local SegmentScratch scratch;
+  return scratch;
+}
+
 }  // namespace
 
 RatingTable::RatingTable(const Section& section, double q_min, double q_max, std::size_t nodes)
     : section_(section) {
+  rebuild(section, q_min, q_max, nodes);
+}
+
+void RatingTable::rebuild(const Section& section, double q_min, double q_max, std::size_t nodes) {
   if (!(q_min > 0) || !std::isfinite(q_min))
     throw InvalidParameter("rating_table.q_min", "must be a finite discharge > 0");
   const bool pipe = section.shape() == Shape::Circle;
@@ -56,6 +71,14 @@ RatingTable::RatingTable(const Section& section, double q_min, double q_max, std
     throw InvalidParameter("rating_table.q_max",
                            "must be finite and above q_min (and below a pipe's capacity)");
   if (nodes < 3) throw InvalidParameter("rating_table.nodes", "must be >= 3");
+  section_ = section;
+  nodes_.clear();
+  linear_cells_.clear();
+  seg_[0] = seg_[1] = Segment{};
+  linear_[0] = linear_[1] = LinearSegment{};
+  segments_ = 1;
+  q_break_ = 0;
+  q_linear_break_ = 0;
   q_lo_ = q_min;
   q_hi_ = q_max;
   nodes_.reserve(2 * nodes);
@@ -151,30 +174,42 @@ void RatingTable::addSegment(const Section& section, double q0, double q1, std::
   s.first = nodes_.size();
   s.count = count;
 
-  std::vector<double> c(count), w(count), g(count), y(count), v(count);
-  double guess = -1.0;
+  SegmentScratch& sc = segmentScratch();
+  auto &c = sc.c, &w = sc.w, &g = sc.g, &y = sc.y, &v = sc.v;
+  for (auto* f : {&c, &w, &g, &y, &v}) f->resize(count);
+  // Nodes are uniform in the segment's log coordinate and ln y is nearly
+  // linear in it, so the depth two nodes back and one back extrapolate the
+  // next one (y1^2 / y0) to within a fraction of a percent: Newton then
+  // converges in one or two steps.
+  double solved_prev = -1.0, solved_prev2 = -1.0;
   for (std::size_t i = 0; i < count; ++i) {
     const double u = s.u0 + static_cast<double>(i) * s.h;
     const double q = (i + 1 == count) ? q1 : shift + sign * std::exp(sign * u);
+    const double guess = solved_prev2 > 0 ? solved_prev * (solved_prev / solved_prev2) : solved_prev;
     double depth = section.normalDepth(q, guess);
-    guess = depth;
+    solved_prev2 = solved_prev;
+    solved_prev = depth;
     // At exactly bank-full each segment takes the values on its own side of the bank.
     if (bank_side > 0) depth = std::max(depth, section.bankDepth() * (1.0 + 1e-12));
     if (bank_side < 0) depth = std::min(depth, section.bankDepth());
-    c[i] = section.celerity(depth);
-    w[i] = section.topWidth(depth);
+    // One Manning evaluation gives Q and dQ/dy: the same numbers as
+    // section.celerity() and section.velocity().
+    double q_at, dq_at;
+    section.dischargeAndDerivative(depth, q_at, dq_at);
+    const double width = section.topWidth(depth), area = section.area(depth);
+    c[i] = width > 0 ? dq_at / width : 0.0;
+    w[i] = width;
     g[i] = 1.0 / (w[i] * c[i]);
     y[i] = depth;
-    v[i] = section.velocity(depth);
+    v[i] = area > 0 ? q_at / area : 0.0;
   }
-  std::vector<double> dc, dw, dg, dy, dv;
-  monotoneSlopes(c, s.h, dc);
-  monotoneSlopes(w, s.h, dw);
-  monotoneSlopes(g, s.h, dg);
-  monotoneSlopes(y, s.h, dy);
-  monotoneSlopes(v, s.h, dv);
+  monotoneSlopes(c, s.h, sc.dc, sc.delta);
+  monotoneSlopes(w, s.h, sc.dw, sc.delta);
+  monotoneSlopes(g, s.h, sc.dg, sc.delta);
+  monotoneSlopes(y, s.h, sc.dy, sc.delta);
+  monotoneSlopes(v, s.h, sc.dv, sc.delta);
   for (std::size_t i = 0; i < count; ++i)
-    nodes_.push_back(Node{c[i], dc[i], w[i], dw[i], g[i], dg[i], y[i], dy[i], v[i], dv[i]});
+    nodes_.push_back(Node{c[i], sc.dc[i], w[i], sc.dw[i], g[i], sc.dg[i], y[i], sc.dy[i], v[i], sc.dv[i]});
 }
 
 const RatingTable::LogEntry* RatingTable::logTable() {

@@ -214,6 +214,46 @@ double Section::dischargeDerivative(double y) const {
   return 0.0;
 }
 
+void Section::dischargeAndDerivative(double y, double& q, double& dq) const {
+  q = 0.0;
+  dq = 0.0;
+  if (!(y > 0)) return;
+  // Each branch repeats discharge() and dischargeDerivative() term by term,
+  // so both numbers are bit-identical to theirs.
+  const double side = std::sqrt(1.0 + z_ * z_);
+  switch (shape_) {
+    case Shape::Circle: {
+      const double a = area(y), p = wettedPerimeter(y);
+      q = manning(a, p, n_, slope_);
+      if (y >= d_) return;
+      const double dP = 2.0 / std::sin(pipeTheta(y, d_) / 2.0);
+      dq = manningDerivative(q, a, p, topWidth(y), dP);
+      return;
+    }
+    case Shape::TwoStage:
+      if (y > yb_) {
+        const double t_bank = b_ + 2 * z_ * yb_;
+        const double a_main = (b_ + z_ * yb_) * yb_ + t_bank * (y - yb_);
+        const double p_main = b_ + 2 * yb_ * side;
+        const double a_fp = wf_ * (y - yb_);
+        const double p_fp = wf_ + 2 * (y - yb_);
+        const double q_main = manning(a_main, p_main, n_, slope_);
+        const double q_fp = manning(a_fp, p_fp, nf_, slope_);
+        q = q_main + q_fp;
+        dq = manningDerivative(q_main, a_main, p_main, t_bank, 0.0) +
+             manningDerivative(q_fp, a_fp, p_fp, wf_, 2.0);
+        return;
+      }
+      [[fallthrough]];
+    case Shape::Trapezoid: {
+      const double a = area(y), p = wettedPerimeter(y);
+      q = manning(a, p, n_, slope_);
+      dq = manningDerivative(q, a, p, b_ + 2 * z_ * y, 2 * side);
+      return;
+    }
+  }
+}
+
 double Section::velocity(double y) const {
   const double a = area(y);
   return a > 0 ? discharge(y) / a : 0.0;
@@ -247,30 +287,31 @@ double Section::normalDepth(double q, double guess) const {
     throw InvalidParameter("discharge", "exceeds the full-pipe capacity of " +
                                             std::to_string(q_cap_) + " m3/s (got " +
                                             std::to_string(q) + ")");
-  // Bracket: Q(y) is increasing on [0, y_cap]. For open sections grow the
-  // upper bound geometrically from a wide-channel first guess.
-  double lo = 0.0, hi;
-  if (shape_ == Shape::Circle) {
-    hi = y_cap_;
-  } else {
-    hi = guess > 0 ? 1.5 * guess
-                   : std::max(1e-3, std::pow(q * n_ / (std::max(b_, 1.0) * std::sqrt(slope_)), 0.6));
-    for (int i = 0; i < 200 && discharge(hi) < q; ++i) lo = hi, hi *= 2.0;
-    if (discharge(hi) < q) throw InvalidParameter("discharge", "normal depth not bracketed");
-  }
-  // Bracketed Newton: take the Newton step when it stays inside (lo, hi),
-  // else bisect. Bounded iterations.
-  double y = (guess > lo && guess < hi) ? guess : 0.5 * (lo + hi);
+  // Q(y) is increasing on [0, y_cap]; (lo, hi) brackets the root as far as
+  // it is known. A pipe starts bracketed by (0, y_cap); an open section has
+  // no upper bound until Q(y) > q has been seen, and a step that would leave
+  // the bracket doubles y instead. Each iteration costs one Manning
+  // evaluation (Q and dQ/dy together).
+  double lo = 0.0, hi = shape_ == Shape::Circle ? y_cap_ : std::numeric_limits<double>::infinity();
+  double y;
+  if (guess > lo && guess < hi)
+    y = guess;
+  else if (shape_ == Shape::Circle)
+    y = 0.5 * y_cap_;
+  else  // wide-channel first guess
+    y = std::max(1e-3, std::pow(q * n_ / (std::max(b_, 1.0) * std::sqrt(slope_)), 0.6));
   for (int it = 0; it < 200; ++it) {
-    const double f = discharge(y) - q;
+    double qy, dq;
+    dischargeAndDerivative(y, qy, dq);
+    const double f = qy - q;
     if (f == 0) return y;
     if (f < 0) lo = y; else hi = y;
-    const double df = dischargeDerivative(y);
-    double next = df > 0 ? y - f / df : 0.5 * (lo + hi);
-    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
-    if (std::abs(next - y) <= 1e-10 * std::max(next, 1e-12)) return next;
+    double next = dq > 0 ? y - f / dq : lo;  // lo: never inside (lo, hi), so replaced below
+    if (!(next > lo && next < hi)) next = std::isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * y;
+    if (std::isfinite(hi) && std::abs(next - y) <= 1e-10 * std::max(next, 1e-12)) return next;
     y = next;
   }
+  if (!std::isfinite(hi)) throw InvalidParameter("discharge", "normal depth not bracketed");
   return y;  // converged to the bracket width limit; still within (lo, hi)
 }
 

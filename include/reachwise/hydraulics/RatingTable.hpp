@@ -40,6 +40,10 @@ public:
   /// (see topDischarge()). Throws InvalidParameter for a bad range.
   RatingTable(const Section& section, double q_min_m3s, double q_max_m3s,
               std::size_t nodes = 64);
+  /// Replaces the table by the one the constructor would build, reusing its
+  /// storage (a router building one table per reach allocates nothing once
+  /// warm). On InvalidParameter the table is left unchanged.
+  void rebuild(const Section& section, double q_min_m3s, double q_max_m3s, std::size_t nodes = 64);
 
   const Section& section() const noexcept { return section_; }
   double bottomDischarge() const noexcept { return q_lo_; }

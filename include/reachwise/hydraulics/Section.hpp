@@ -90,6 +90,10 @@ public:
   double discharge(double depth_m) const;
   /// dQ/dy, analytical.
   double dischargeDerivative(double depth_m) const;
+  /// Q(y) and dQ/dy at once, the same numbers as discharge() and
+  /// dischargeDerivative() from one Manning evaluation (one cube root per
+  /// flow part instead of two): what a Newton step needs.
+  void dischargeAndDerivative(double depth_m, double& discharge_m3s, double& derivative_m2s) const;
   /// Mean velocity Q/A.
   double velocity(double depth_m) const;
   /// Kinematic wave celerity c = dQ/dA = (1/T) dQ/dy.
@@ -103,8 +107,10 @@ public:
   /// Depth at capacity (the pipe cap), infinite for open sections.
   double capacityDepth() const noexcept { return y_cap_; }
 
-  /// Normal depth for discharge Q (bracketed Newton with bisection fallback,
-  /// relative tolerance 1e-10, at most 200 iterations). Throws
+  /// Normal depth for discharge Q (safeguarded Newton: steps that leave the
+  /// bracket known so far are replaced by bisection, or by doubling while an
+  /// open section has no upper bound yet; relative tolerance 1e-10, at most
+  /// 200 iterations). Throws
   /// InvalidParameter("discharge") for Q < 0, NaN, or Q beyond a pipe's capacity.
   double normalDepth(double discharge_m3s) const;
   /// The same, starting Newton from `guess_m` (a nearby solution), which
