@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdint>
 #include <numbers>
+#include <optional>
 #include <vector>
 
 #include "reachwise/routing/ReachRouter.hpp"
@@ -116,18 +117,28 @@ void routeShortReaches(benchmark::State& state, Method method) {
                                                           benchmark::Counter::kInvert);
 }
 
-// The rating tables alone of the short reaches (the range the router picks:
-// Q_hi = 1.5 × peak, Q_lo = 1e-5 Q_hi): the table's share of us_per_reach.
-void shortReachTables(benchmark::State& state) {
+// The rating tables alone of the short reaches, over the range and with
+// the nodes ReachRouter picks (Q_hi = 1.5 × peak; Q_lo = max(1e-5 Q_hi, a
+// tenth of the smallest inflow); 64 nodes per five decades, at least 16),
+// rebuilt in one table's storage as the router does: the table's share of
+// us_per_reach. `five_decades` builds the fixed 1e-5 Q_hi .. Q_hi, 64-node
+// table the router used before.
+void shortReachTables(benchmark::State& state, bool five_decades) {
   const std::vector<ShortReach> reaches = shortReaches(3600);
   std::uint64_t built = 0;
+  std::optional<hydraulics::RatingTable> table;
   for (auto _ : state) {
     for (const ShortReach& r : reaches) {
-      double peak = 0;
-      for (double q : r.inflow) peak = std::max(peak, q);
-      const double q_hi = 1.5 * peak;
-      const hydraulics::RatingTable table(r.spec.section, q_hi * 1e-5, q_hi);
-      benchmark::DoNotOptimize(&table);
+      const auto [lo, hi] = std::minmax_element(r.inflow.begin(), r.inflow.end());
+      const double q_hi = 1.5 * *hi;
+      const double q_lo = five_decades ? q_hi * 1e-5 : std::max(q_hi * 1e-5, 0.1 * *lo);
+      const auto nodes = five_decades ? std::size_t{64}
+                                      : std::clamp<std::size_t>(static_cast<std::size_t>(std::ceil(
+                                                                    64 * std::log10(q_hi / q_lo) / 5.0 - 1e-9)),
+                                                                16, 64);
+      if (table) table->rebuild(r.spec.section, q_lo, q_hi, nodes);
+      else table.emplace(r.spec.section, q_lo, q_hi, nodes);
+      benchmark::DoNotOptimize(&*table);
     }
     built += reaches.size();
   }
@@ -156,6 +167,7 @@ BENCHMARK_CAPTURE(routeShortReaches, mc_2km_reaches, Method::ConstantParameter)
     ->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(routeShortReaches, muskingum_2km_reaches, Method::Muskingum)
     ->Unit(benchmark::kMillisecond);
-BENCHMARK(shortReachTables)->Unit(benchmark::kMillisecond);
+BENCHMARK_CAPTURE(shortReachTables, router_range, false)->Unit(benchmark::kMillisecond);
+BENCHMARK_CAPTURE(shortReachTables, five_decades, true)->Unit(benchmark::kMillisecond);
 
 BENCHMARK_MAIN();

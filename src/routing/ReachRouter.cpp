@@ -52,20 +52,29 @@ struct Row {
   double inflow, lat;
 };
 
-/// The rows of a run, numbered from 0: k per output step, the forcing
-/// linear within a step.
+/// The rows of a run in order, k per output step, the forcing linear
+/// within a step. A cursor (step n, sub-step s) rather than a row number,
+/// so a row costs no integer division: short reaches have only a few cells
+/// per row and the division showed beside them.
 struct Rows {
   std::span<const double> inflow, lateral;
   std::uint32_t m, k;
+  std::size_t n = 0;      // step of the next row
+  std::uint32_t s = 1;    // its sub-step, 1..k
 
   std::size_t count() const { return (inflow.size() - 1) * k; }
-  Row operator()(std::size_t r) const {
-    const std::size_t n = r / k;
-    const std::uint32_t s = static_cast<std::uint32_t>(r % k) + 1;
+  /// The next row; `ends_step` set when it is a step's last sub-step (its
+  /// outflow is the sample at step n + 1).
+  Row next(bool& ends_step, std::size_t& step) {
     const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
                         lateral.empty() ? 0.0 : lateral[n + 1]};
     const double fr = double(s) / k, fr0 = double(s - 1) / k;
-    return Row{f.inflowAt(fr), 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m};
+    const Row row{f.inflowAt(fr), 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m};
+    step = n;
+    ends_step = s == k;
+    if (ends_step) s = 1, ++n;
+    else ++s;
+    return row;
   }
 };
 
@@ -114,22 +123,30 @@ template <class Cell>
 void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
            std::span<const double> lateral, double dt, std::vector<double>& q,
            std::vector<double>& out, Totals& tot, Cell&& cell) {
-  const Rows rows{inflow, lateral, m, k};
+  Rows rows{inflow, lateral, m, k};
+  const std::size_t count = rows.count();
   const double dts = dt / k;
   double q_out = q[m];
   out[0] = q_out;
-  const auto finishRow = [&](std::size_t r, double q_out_new) {
+  const auto finishRow = [&](bool ends_step, std::size_t step, double q_out_new) {
     tot.out += 0.5 * dts * (q_out + q_out_new);
     q_out = q_out_new;
-    if ((r + 1) % k == 0) out[(r + 1) / k] = q_out;
+    if (ends_step) out[step + 1] = q_out;
   };
   std::size_t r = 0;
-  for (; r + 1 < rows.count(); r += 2) {
-    const auto [out_a, out_b] = twoRows(q, m, rows(r), rows(r + 1), cell);
-    finishRow(r, out_a);
-    finishRow(r + 1, out_b);
+  bool ends_a, ends_b;
+  std::size_t step_a, step_b;
+  for (; r + 1 < count; r += 2) {
+    const Row a = rows.next(ends_a, step_a);
+    const Row b = rows.next(ends_b, step_b);
+    const auto [out_a, out_b] = twoRows(q, m, a, b, cell);
+    finishRow(ends_a, step_a, out_a);
+    finishRow(ends_b, step_b, out_b);
   }
-  if (r < rows.count()) finishRow(r, oneRow(q, m, rows(r), cell));
+  if (r < count) {
+    const Row a = rows.next(ends_a, step_a);
+    finishRow(ends_a, step_a, oneRow(q, m, a, cell));
+  }
   for (std::size_t n = 0; n + 1 < inflow.size(); ++n) {
     tot.in += 0.5 * dt * (inflow[n] + inflow[n + 1]);
     if (!lateral.empty()) tot.lat += 0.5 * dt * (lateral[n] + lateral[n + 1]);
@@ -220,7 +237,11 @@ void routeVariable(VpCell& cell, Scheme scheme, int iterations, std::uint32_t m,
                    std::span<const double> inflow, std::span<const double> lateral, double dt,
                    std::vector<double>& q, std::vector<double>& out, Totals& tot,
                    std::uint64_t& negative_clamps) {
-  sweep(m, k, inflow, lateral, dt, q, out, tot, [&](double left_new, double left_old, double old, double lat) {
+  // Inlined into the sweep (the compiler kept it a call, three per pair of
+  // rows): on short reaches the call's register spills cost as much as the
+  // cell.
+  sweep(m, k, inflow, lateral, dt, q, out, tot, [&](double left_new, double left_old, double old, double lat)
+                                                    __attribute__((always_inline)) {
     const CellFlows f(left_new, left_old, old, lat);
     double C, D;
     // Times 1/3 rather than divided by 3: a division would wait on the chain.
@@ -273,6 +294,30 @@ Grid muskingumGrid(const RouteOptions& o, double k_s, double x, double dt) {
   return g;
 }
 
+/// The rating table of a `vpmc` route, rebuilt in `spare`'s storage. Its
+/// top is max(1.5 Q_peak, 2 Q_ref) as always; its bottom is a tenth of the
+/// smallest top inflow (where flows in the reach can reach: lateral inflow
+/// only adds), but never below 1e-5 of the top: the flows a reach sees span
+/// a decade or three, not five, so most of a five-decade table went unread.
+/// The node spacing in ln Q stays that of `nodes` over five decades, so the
+/// table is as accurate where it is read and costs fewer solves.
+hydraulics::RatingTable ratingTableFor(const hydraulics::Section& sec, std::span<const double> inflow,
+                                       double q_peak, double q_ref, std::size_t nodes,
+                                       std::optional<hydraulics::RatingTable>& spare) {
+  const double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
+  const double q_in_min = *std::min_element(inflow.begin(), inflow.end());
+  const double q_lo = std::max(q_hi * 1e-5, 0.1 * q_in_min);
+  const double decades = std::log10(q_hi / q_lo);
+  // (− 1e-9: a full five-decade table keeps exactly `nodes`.)
+  const auto scaled = static_cast<std::size_t>(std::ceil(static_cast<double>(nodes) * decades / 5.0 - 1e-9));
+  const std::size_t n = std::min(nodes, std::max<std::size_t>(16, scaled));  // nodes < 3 still throws
+  if (!spare) return hydraulics::RatingTable(sec, q_lo, q_hi, n);
+  hydraulics::RatingTable t = std::move(*spare);
+  spare.reset();
+  t.rebuild(sec, q_lo, q_hi, n);
+  return t;
+}
+
 }  // namespace
 
 ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> inflow,
@@ -286,6 +331,7 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     throw InvalidParameter("lateral", "must have as many samples as the inflow");
   checkSeries("inflow", inflow);
   checkSeries("lateral", lateral);
+  if (table_) spare_ = std::move(table_);  // keeps its storage for the next vpmc table
   table_.reset();
 
   const std::size_t n_steps = inflow.size();
@@ -359,8 +405,7 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
                     num.negative_clamps);
       s1 = linearStorage(q_, p.k_s, p.x);
     } else {
-      const double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
-      table_.emplace(sec, q_hi * 1e-5, q_hi, opt.table_nodes);
+      table_ = ratingTableFor(sec, inflow, q_peak, q_ref, opt.table_nodes, spare_);
       VpCell cell{*table_, opt.use_rating_table ? nullptr : &sec, slope, dx, dts, sec.capacity()};
       s0 = cell.storage(q_);
       routeVariable(cell, opt.scheme, opt.four_point_iterations, g.subreaches, g.substeps, inflow,

@@ -45,6 +45,10 @@ struct RouteOptions {
   /// Q_ref = Q_base + (Q_peak − Q_base)/2 of the total inflow (top + lateral).
   double reference_q_m3s = std::numeric_limits<double>::quiet_NaN();
   int four_point_iterations = 3;
+  /// Rating-table nodes per segment for a table spanning five decades of Q;
+  /// the router builds its table over the reach's own flow range and gives
+  /// a narrower table proportionally fewer nodes (the same spacing, at
+  /// least 16).
   std::size_t table_nodes = 64;
   /// `vpmc` reads c and T from a rating table; false solves normal depth in
   /// every cell instead (slow; for checks and benchmarks).
@@ -83,6 +87,7 @@ private:
   std::vector<double> q_;      // flows at the m+1 section ends, current time
   std::vector<double> total_;  // inflow + lateral, for the reference flow rule
   std::optional<hydraulics::RatingTable> table_;
+  std::optional<hydraulics::RatingTable> spare_;  // the last table's storage, rebuilt in place
 };
 
 /// Depth and velocity of uniform flow at discharge `q_m3s`, through the
