@@ -2,6 +2,8 @@
 
 #include <gtest/gtest.h>
 
+#include "reachwise/Error.hpp"
+
 #include <algorithm>
 #include <cmath>
 
@@ -174,4 +176,34 @@ TEST(RatingTable, LinearGridHoldsEnds) {
   EXPECT_DOUBLE_EQ(g1, g_hi);
   const double y_top = s.normalDepth(t.topDischarge());
   EXPECT_NEAR(c_hi, s.celerity(y_top), 1e-3 * c_hi);
+}
+
+// A table rebuilt in another table's storage is the table the constructor
+// builds, bit for bit (a router rebuilds one per reach), and a bad range
+// leaves the table as it was.
+TEST(RatingTable, RebuildEqualsFreshTable) {
+  const Section a = Section::twoStage(10, 1.5, 2.5, 80, 0.035, 0.07, 0.0009);
+  const Section b = Section::trapezoid(7, 1, 0.03, 0.002);
+  RatingTable t(a, 0.05, 3000);
+  t.rebuild(b, 0.3, 250, 40);
+  const RatingTable fresh(b, 0.3, 250, 40);
+  EXPECT_EQ(t.bottomDischarge(), fresh.bottomDischarge());
+  EXPECT_EQ(t.topDischarge(), fresh.topDischarge());
+  for (double q = 0.2; q < 300; q *= 1.11) {
+    double c1, g1, c2, g2, w1, w2, y1, v1, y2, v2;
+    t.celerityAndInverseWidthCelerity(q, c1, g1);
+    fresh.celerityAndInverseWidthCelerity(q, c2, g2);
+    EXPECT_EQ(c1, c2) << q;
+    EXPECT_EQ(g1, g2) << q;
+    t.celerityAndWidth(q, c1, w1);
+    fresh.celerityAndWidth(q, c2, w2);
+    EXPECT_EQ(c1, c2) << q;
+    EXPECT_EQ(w1, w2) << q;
+    t.depthAndVelocity(q, y1, v1);
+    fresh.depthAndVelocity(q, y2, v2);
+    EXPECT_EQ(y1, y2) << q;
+    EXPECT_EQ(v1, v2) << q;
+  }
+  EXPECT_THROW(t.rebuild(a, -1.0, 10.0), reachwise::InvalidParameter);
+  EXPECT_EQ(t.topDischarge(), 250.0);
 }

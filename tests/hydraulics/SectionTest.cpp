@@ -127,6 +127,50 @@ TEST(Section, NormalDepthRoundTripsDischarge) {
   }
 }
 
+// Started from a guess, however poor, the solve still satisfies Manning's
+// equation (Chow 1959, eq. 5-7) to the same tolerance as from cold, and
+// agrees with the cold solve.
+TEST(Section, NormalDepthFromAnyGuessRoundTripsDischarge) {
+  std::mt19937 rng(4242);
+  std::uniform_real_distribution<double> u(0, 1);
+  for (int i = 0; i < 200; ++i) {
+    const Section shapes[] = {
+        Section::trapezoid(1 + 30 * u(rng), 3 * u(rng), 0.02 + 0.05 * u(rng), 1e-4 + 0.02 * u(rng)),
+        Section::circle(0.3 + 2 * u(rng), 0.012 + 0.01 * u(rng), 1e-4 + 0.02 * u(rng)),
+        Section::twoStage(2 + 10 * u(rng), 2 * u(rng), 0.5 + 2 * u(rng), 10 + 100 * u(rng), 0.03, 0.07,
+                          1e-4 + 0.01 * u(rng))};
+    for (const Section& s : shapes) {
+      const double q = s.shape() == Shape::Circle ? s.capacity() * u(rng) : 1000 * u(rng) * u(rng);
+      const double cold = s.normalDepth(q);
+      for (double guess : {1e-9, 0.5 * cold, 0.999 * cold, 1.001 * cold, 3.0 * cold, 1e4}) {
+        const double y = s.normalDepth(q, guess);
+        EXPECT_NEAR(s.discharge(y), q, 1e-8 * q + 1e-14) << "shape " << int(s.shape()) << " guess " << guess;
+        EXPECT_NEAR(y, cold, 1e-8 * cold + 1e-14) << "shape " << int(s.shape()) << " guess " << guess;
+      }
+    }
+  }
+}
+
+// Q and dQ/dy together are the separate functions' numbers, bit for bit
+// (the rating table relies on it), and dQ/dy is the slope of Q: a central
+// difference agrees (common practice).
+TEST(Section, DischargeAndDerivativeTogether) {
+  const Section shapes[] = {Section::trapezoid(12, 2, 0.035, 0.0012), Section::circle(1.2, 0.013, 0.003),
+                            Section::twoStage(10, 1.5, 2.5, 80, 0.035, 0.07, 0.0009)};
+  for (const Section& s : shapes) {
+    for (double y : {0.0, 0.01, 0.3, 1.1, 2.5, 2.6, 4.0}) {
+      double q, dq;
+      s.dischargeAndDerivative(y, q, dq);
+      EXPECT_EQ(q, s.discharge(y)) << y;
+      EXPECT_EQ(dq, s.dischargeDerivative(y)) << y;
+      if (y > 0.005 && y != 2.5 && !(s.shape() == Shape::Circle && y >= 1.1)) {
+        const double h = 1e-6 * y;
+        EXPECT_NEAR(dq, (s.discharge(y + h) - s.discharge(y - h)) / (2 * h), 1e-5 * dq) << y;
+      }
+    }
+  }
+}
+
 // Divided-channel method: discharge is continuous at bank-full and, above
 // the bank, exceeds what the main channel alone would carry.
 TEST(Section, TwoStageDividedChannel) {
