@@ -32,6 +32,13 @@ void ProgressBar::update(std::size_t done, std::size_t total) {
   drawn_ = true;
 }
 
+void ProgressBar::stage(const std::string& what) {
+  if (!enabled_) return;
+  fmt::print(stderr, "\r\033[K{} ...", what);
+  std::fflush(stderr);
+  drawn_ = true;
+}
+
 void ProgressBar::finish() {
   if (!drawn_) return;
   fmt::print(stderr, "\r\033[K");

@@ -333,10 +333,13 @@ io::RunInfo runInfo(const RouteOptions& o, const routing::NetworkResults& result
 }
 
 int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
+  ProgressBar bar("routing", !o.quiet);
+  bar.stage("reading " + o.network);
   const auto net = loadNetwork(o.network, o.layer, o.config);
   const network::ReachTable& table = net->table;
   const network::ProblemList& problems = net->problems;
   if (network::hasErrors(problems)) {
+    bar.finish();
     for (const auto& p : problems)
       if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", problemLine(p));
     fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
@@ -344,6 +347,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   }
   const network::NetworkPlan plan = net->graph->freeze();
 
+  bar.stage("reading the forcing");
   const io::OpenedForcing opened = openRunForcing(o, plan, net->config.units);
   const io::ForcingSource& forcing = *opened.source;
   const routing::TimeAxis& axis = forcing.axis();
@@ -353,19 +357,19 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   ro.reach.method = parseMethod(o.method);
   ro.threads = o.threads;
   ro.base_flow_m3s = baseFlows(table, plan);
-  ProgressBar bar("routing", !o.quiet);
   ro.progress = [&bar](std::size_t done, std::size_t total) { bar.update(done, total); };
   const ForcingAdapter adapter(forcing, plan);
   const auto t0 = std::chrono::steady_clock::now();
   routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, outputs.sink());
   const double route_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  bar.finish();
+  bar.stage("writing the results");
   for (const auto& w : opened.warnings) results.warnings.push_back(w);
   for (const auto& p : problems)
     if (p.severity == network::Severity::Warning) results.warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
 
   const io::RunInfo info = runInfo(o, results);
   outputs.commit(results, info, net->config.units == units::System::USCustomary);
+  bar.finish();
 
   if (o.demo) {
     printDemoSummary(out, plan, results, outputs.target, o.report);
