@@ -2,9 +2,8 @@
 
 #include <toml++/toml.h>
 
-#include <fstream>
-#include <sstream>
 
+#include "RunFile.hpp"
 #include "reachwise/Error.hpp"
 
 namespace reachwise::io {
@@ -159,15 +158,7 @@ double metresPerUnit(const std::string& name, const std::string& origin) {
 NetworkConfig NetworkConfig::fromString(const std::string& text, const std::string& origin) {
   NetworkConfig cfg;
   cfg.origin = origin;
-  toml::table root;
-  try {
-    root = toml::parse(text, origin);
-  } catch (const toml::parse_error& e) {
-    InputLocation where;
-    where.file = origin;
-    where.line = static_cast<std::int64_t>(e.source().begin.line);
-    throw InputError(where, std::string(e.description()));
-  }
+  const toml::table root = detail::parseRunFile(text, origin);
   if (const auto* net = root["network"].as_table()) {
     parseNetworkTable(*net, cfg);
   } else if (root.contains("network")) {
@@ -177,11 +168,7 @@ NetworkConfig NetworkConfig::fromString(const std::string& text, const std::stri
 }
 
 NetworkConfig NetworkConfig::fromFile(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw configError(path, "", "cannot open the config file");
-  std::ostringstream text;
-  text << in.rdbuf();
-  return fromString(text.str(), path);
+  return fromString(detail::readRunFile(path), path);
 }
 
 }  // namespace reachwise::io

@@ -3,9 +3,8 @@
 #include <toml++/toml.h>
 
 #include <filesystem>
-#include <fstream>
-#include <sstream>
 
+#include "RunFile.hpp"
 #include "reachwise/Error.hpp"
 
 namespace reachwise::io {
@@ -49,15 +48,7 @@ std::string hydrographList(const toml::node& node, const std::string& origin) {
 }  // namespace
 
 RouteConfig RouteConfig::fromString(const std::string& text, const std::string& origin) {
-  toml::table doc;
-  try {
-    doc = toml::parse(text, origin);
-  } catch (const toml::parse_error& e) {
-    InputLocation where;
-    where.file = origin;
-    where.line = static_cast<std::int64_t>(e.source().begin.line);
-    throw InputError(where, std::string(e.description()));
-  }
+  const toml::table doc = detail::parseRunFile(text, origin);
   RouteConfig c;
   const auto* route = doc["route"].as_table();
   if (!route) {
@@ -98,15 +89,7 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
 }
 
 RouteConfig RouteConfig::fromFile(const std::string& path) {
-  std::ifstream in(path);
-  if (!in) {
-    InputLocation where;
-    where.file = path;
-    throw InputError(where, "cannot read the run file");
-  }
-  std::stringstream text;
-  text << in.rdbuf();
-  return fromString(text.str(), path);
+  return fromString(detail::readRunFile(path), path);
 }
 
 }  // namespace reachwise::io
