@@ -100,15 +100,19 @@ void routeShortReaches(benchmark::State& state, Method method) {
   opt.method = method;
   ReachRouter router;
   std::vector<double> out;
-  std::uint64_t cells = 0, routed = 0;
+  std::uint64_t cells = 0, routed = 0, subreaches = 0, substeps = 0;
   for (auto _ : state) {
     for (const ShortReach& r : reaches) {
       const ReachRun run = router.route(r.spec, r.inflow, {}, dt, opt, out);
       benchmark::DoNotOptimize(out.data());
       cells += std::uint64_t(run.numerics.subreaches) * run.numerics.substeps * (r.inflow.size() - 1);
+      subreaches += run.numerics.subreaches;
+      substeps += run.numerics.substeps;
     }
     routed += reaches.size();
   }
+  state.counters["mean_subreaches"] = static_cast<double>(subreaches) / static_cast<double>(routed);
+  state.counters["mean_substeps"] = static_cast<double>(substeps) / static_cast<double>(routed);
   state.counters["cell_updates_per_s"] =
       benchmark::Counter(static_cast<double>(cells), benchmark::Counter::kIsRate);
   state.counters["cells_per_reach"] = static_cast<double>(cells) / static_cast<double>(routed);

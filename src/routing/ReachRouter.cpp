@@ -65,11 +65,19 @@ struct Rows {
   std::size_t count() const { return (inflow.size() - 1) * k; }
   /// The next row; `ends_step` set when it is a step's last sub-step (its
   /// outflow is the sample at step n + 1).
+  const double* fraction;  // fraction[s] = s / k, s = 0..k
+
   Row next(bool& ends_step, std::size_t& step) {
-    const StepForcing f{inflow[n], inflow[n + 1], lateral.empty() ? 0.0 : lateral[n],
-                        lateral.empty() ? 0.0 : lateral[n + 1]};
-    const double fr = double(s) / k, fr0 = double(s - 1) / k;
-    const Row row{f.inflowAt(fr), 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m};
+    const double fr = fraction[s], fr0 = fraction[s - 1];
+    const double in = inflow[n] + (inflow[n + 1] - inflow[n]) * fr;
+    // Without lateral inflow the share is +0 either way; skipping it takes a
+    // division off every row.
+    double lat = 0.0;
+    if (!lateral.empty()) {
+      const StepForcing f{inflow[n], inflow[n + 1], lateral[n], lateral[n + 1]};
+      lat = 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;
+    }
+    const Row row{in, lat};
     step = n;
     ends_step = s == k;
     if (ends_step) s = 1, ++n;
@@ -123,7 +131,11 @@ template <class Cell>
 void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
            std::span<const double> lateral, double dt, std::vector<double>& q,
            std::vector<double>& out, Totals& tot, Cell&& cell) {
-  Rows rows{inflow, lateral, m, k};
+  // s / k once per route rather than twice per row (the same quotients).
+  thread_local std::vector<double> fractions;
+  fractions.resize(std::size_t{k} + 1);
+  for (std::uint32_t i = 0; i <= k; ++i) fractions[i] = double(i) / k;
+  Rows rows{inflow, lateral, m, k, 0, 1, fractions.data()};
   const std::size_t count = rows.count();
   const double dts = dt / k;
   double q_out = q[m];
@@ -301,11 +313,10 @@ Grid muskingumGrid(const RouteOptions& o, double k_s, double x, double dt) {
 /// a decade or three, not five, so most of a five-decade table went unread.
 /// The node spacing in ln Q stays that of `nodes` over five decades, so the
 /// table is as accurate where it is read and costs fewer solves.
-hydraulics::RatingTable ratingTableFor(const hydraulics::Section& sec, std::span<const double> inflow,
+hydraulics::RatingTable ratingTableFor(const hydraulics::Section& sec, double q_in_min,
                                        double q_peak, double q_ref, std::size_t nodes,
                                        std::optional<hydraulics::RatingTable>& spare) {
   const double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
-  const double q_in_min = *std::min_element(inflow.begin(), inflow.end());
   const double q_lo = std::max(q_hi * 1e-5, 0.1 * q_in_min);
   const double decades = std::log10(q_hi / q_lo);
   // (− 1e-9: a full five-decade table keeps exactly `nodes`.)
@@ -329,21 +340,37 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   if (inflow.empty()) throw InvalidParameter("inflow", "has no samples");
   if (!lateral.empty() && lateral.size() != inflow.size())
     throw InvalidParameter("lateral", "must have as many samples as the inflow");
-  checkSeries("inflow", inflow);
-  checkSeries("lateral", lateral);
+  // One pass forms the total inflow, its range and the smallest top inflow
+  // and finds whether any sample is bad; only then do the checks run again
+  // sample by sample to name the first bad one.
+  const std::size_t n_samples = inflow.size();
+  total_.resize(n_samples);
+  bool good = true;
+  double q_base = inflow[0] + (lateral.empty() ? 0.0 : lateral[0]), q_peak = q_base;
+  double q_in_min = inflow[0];
+  for (std::size_t i = 0; i < n_samples; ++i) {
+    const double in = inflow[i], lat = lateral.empty() ? 0.0 : lateral[i];
+    good &= (in >= 0) & (in <= std::numeric_limits<double>::max()) & (lat >= 0) &
+            (lat <= std::numeric_limits<double>::max());
+    const double t = in + lat;
+    total_[i] = t;
+    q_base = std::min(q_base, t);
+    q_peak = std::max(q_peak, t);
+    q_in_min = std::min(q_in_min, in);
+  }
+  if (!good) {
+    checkSeries("inflow", inflow);
+    checkSeries("lateral", lateral);
+  }
   if (table_) spare_ = std::move(table_);  // keeps its storage for the next vpmc table
   table_.reset();
 
   const std::size_t n_steps = inflow.size();
-  total_.resize(n_steps);
-  for (std::size_t i = 0; i < n_steps; ++i) total_[i] = inflow[i] + (lateral.empty() ? 0.0 : lateral[i]);
   ReachRun run;
   const Peak in_peak = findPeak(total_);
   run.inflow_peak_m3s = in_peak.value;
   run.inflow_peak_index = in_peak.index;
   run.rise_s = riseSamples(total_) * dt;
-  const auto [lo_it, hi_it] = std::minmax_element(total_.begin(), total_.end());
-  const double q_base = *lo_it, q_peak = *hi_it;
   const double q_ref = std::isnan(opt.reference_q_m3s) ? q_base + 0.5 * (q_peak - q_base)
                                                        : opt.reference_q_m3s;
   out.assign(n_steps, 0.0);
@@ -405,7 +432,7 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
                     num.negative_clamps);
       s1 = linearStorage(q_, p.k_s, p.x);
     } else {
-      table_ = ratingTableFor(sec, inflow, q_peak, q_ref, opt.table_nodes, spare_);
+      table_ = ratingTableFor(sec, q_in_min, q_peak, q_ref, opt.table_nodes, spare_);
       VpCell cell{*table_, opt.use_rating_table ? nullptr : &sec, slope, dx, dts, sec.capacity()};
       s0 = cell.storage(q_);
       routeVariable(cell, opt.scheme, opt.four_point_iterations, g.subreaches, g.substeps, inflow,
