@@ -195,7 +195,7 @@ for kind in dict.fromkeys(r[0] for r in routes):
               + (f"; routing time alone b = {br:.3f}" if br is not None else ""))
 for r in routes:
     if r[2] != "1": continue
-    two = get(r[0], r[1], 2)
+    two = best.get((r[0], r[1], "2"))
     if two and num(r[3]) and num(two[3]):
         rs = f", routing {num(r[7]) / num(two[7]):.2f}x" if num(r[7]) and num(two[7]) else ""
         print(f"threads 1 -> 2, {r[0][6:]} {r[1]}: end-to-end {num(r[3]) / num(two[3]):.2f}x{rs}")
