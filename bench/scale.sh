@@ -15,7 +15,8 @@
 #   LONG           reach count of the 8760-step case     [100000]; empty: skip
 #   SELECTIONS     hydrograph selections to route with   [outlets default]
 #                  ("default" is route's own choice: every reach below
-#                  10,000 reaches, else outlets and confluences)
+#                  10,000 reaches, else outlets and the branches of the
+#                  1,000 largest confluences)
 #   REPEATS        runs per case up to 100k reaches with the first selection
 #                  [3]; the table shows the fastest (the machine may be
 #                  shared) and the slowest
@@ -38,11 +39,6 @@ repeats="${REPEATS:-3}"
 bin="$build/reachwise"
 bw="$build/bench/bandwidth_bench"
 mkdir -p "$work/logs"
-# GDAL 3.6 builds a large layer's spatial index in a background thread in a
-# temporary database; with it, route's results writer fails at 100k reaches
-# ("cannot index hydrographs ... DETACH DATABASE temp_rtree_... is locked").
-# Building the index in the writing thread avoids that (same file written).
-export OGR_GPKG_ALLOW_THREADED_RTREE="${OGR_GPKG_ALLOW_THREADED_RTREE:-NO}"
 results="$work/results.tsv"
 [ -n "${APPEND:-}${REPORT_ONLY:-}" ] || : >"$results"
 

@@ -63,6 +63,7 @@ int synth(const SynthOptions& o, std::ostream& out) {
   nc.source = std::string("reachwise ") + kVersion + " (" + kGitHash + ")";
   nc.history = fmt::format("reachwise synth --reaches {} --seed {} --steps {} --dt {}", o.reaches,
                            o.seed, o.steps, o.dt_s);
+  nc.single_precision = true;  // 7 digits are ample for a made-up storm; half the bytes to read
   if (!o.lateral.empty()) {
     t0 = Clock::now();
     io::writeSyntheticLateralNetcdf(o.lateral, net, storm, axis, o.overwrite, nc);
