@@ -112,12 +112,15 @@ TEST(RouteOptions, AutoSelectionStaysBoundedOnALargeNetwork) {
 
 TEST(RouteOptions, LargeLayersWithABackgroundSpatialIndexStillCommit) {
   // GDAL builds the R-tree of a GeoPackage layer of 100,000 features or more
-  // in a background thread; this GDAL setting starts that at the first
+  // in a background thread when allowed (the writer turns it off unless the
+  // user allows it, as here); this GDAL setting starts that at the first
   // feature, so the sample network takes the same path as a national one.
+  ASSERT_EQ(setenv("OGR_GPKG_ALLOW_THREADED_RTREE", "YES", 1), 0);
   ASSERT_EQ(setenv("OGR_GPKG_THREADED_RTREE_AT_FIRST_FEATURE", "YES", 1), 0);
   const testsupport::TempDir tmp;
   const Outcome r = run("route " + kNetwork + kStorm + " --out " + tmp.file("o.gpkg"));
   unsetenv("OGR_GPKG_THREADED_RTREE_AT_FIRST_FEATURE");
+  unsetenv("OGR_GPKG_ALLOW_THREADED_RTREE");
   ASSERT_EQ(r.code, 0) << r.err;
   EXPECT_EQ(peaks(tmp.file("o.gpkg")).size(), 41u);
 }
