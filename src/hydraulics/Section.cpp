@@ -185,41 +185,17 @@ double Section::discharge(double y) const {
 }
 
 double Section::dischargeDerivative(double y) const {
-  if (!(y > 0)) return 0.0;
-  const double side = std::sqrt(1.0 + z_ * z_);
-  switch (shape_) {
-    case Shape::Circle: {
-      if (y >= d_) return 0.0;
-      const double a = area(y), p = wettedPerimeter(y), t = topWidth(y);
-      // dP/dy = d/2 dθ/dy = 2 / sin(θ/2)
-      const double dP = 2.0 / std::sin(pipeTheta(y, d_) / 2.0);
-      return manningDerivative(manning(a, p, n_, slope_), a, p, t, dP);
-    }
-    case Shape::TwoStage:
-      if (y > yb_) {
-        const double t_bank = b_ + 2 * z_ * yb_;
-        const double a_main = (b_ + z_ * yb_) * yb_ + t_bank * (y - yb_);
-        const double p_main = b_ + 2 * yb_ * side;
-        const double a_fp = wf_ * (y - yb_);
-        const double p_fp = wf_ + 2 * (y - yb_);
-        return manningDerivative(manning(a_main, p_main, n_, slope_), a_main, p_main, t_bank, 0.0) +
-               manningDerivative(manning(a_fp, p_fp, nf_, slope_), a_fp, p_fp, wf_, 2.0);
-      }
-      [[fallthrough]];
-    case Shape::Trapezoid: {
-      const double a = area(y), p = wettedPerimeter(y);
-      return manningDerivative(manning(a, p, n_, slope_), a, p, b_ + 2 * z_ * y, 2 * side);
-    }
-  }
-  return 0.0;
+  double q = 0, dq = 0;
+  dischargeAndDerivative(y, q, dq);
+  return dq;
 }
 
 void Section::dischargeAndDerivative(double y, double& q, double& dq) const {
   q = 0.0;
   dq = 0.0;
   if (!(y > 0)) return;
-  // Each branch repeats discharge() and dischargeDerivative() term by term,
-  // so both numbers are bit-identical to theirs.
+  // Each branch repeats discharge() term by term, so q is bit-identical to
+  // it (dischargeDerivative() is this function's dq).
   const double side = std::sqrt(1.0 + z_ * z_);
   switch (shape_) {
     case Shape::Circle: {
