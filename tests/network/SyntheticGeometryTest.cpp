@@ -18,18 +18,13 @@
 #include "reachwise/network/SyntheticNetwork.hpp"
 #include "reachwise/network/Validation.hpp"
 #include "support/Scratch.hpp"
+#include "network/SyntheticFixtures.hpp"
 
 using namespace reachwise::network;
 
 namespace {
 
-SyntheticNetwork make(std::size_t n, std::uint64_t seed, std::size_t outlets = 1) {
-  SyntheticOptions o;
-  o.reaches = n;
-  o.seed = seed;
-  o.outlets = outlets;
-  return generateSyntheticNetwork(o);
-}
+using synthfixture::make;
 
 struct Geos {
   GEOSContextHandle_t ctx = GEOS_init_r();

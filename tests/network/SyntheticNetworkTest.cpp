@@ -18,19 +18,14 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/network/ReachGraph.hpp"
 #include "reachwise/network/Validation.hpp"
+#include "network/SyntheticFixtures.hpp"
 
 using namespace reachwise::network;
 using reachwise::InvalidParameter;
 
 namespace {
 
-SyntheticNetwork make(std::size_t n, std::uint64_t seed, std::size_t outlets = 1) {
-  SyntheticOptions o;
-  o.reaches = n;
-  o.seed = seed;
-  o.outlets = outlets;
-  return generateSyntheticNetwork(o);
-}
+using synthfixture::make;
 
 /// Upstream-first order by Boost.Graph's topological_sort (an independent
 /// reference for the project's own graph code); throws not_a_dag on a cycle.
