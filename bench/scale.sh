@@ -25,6 +25,11 @@
 #   ROUTE_TIMEOUT  seconds before a route run is stopped [3600]
 #   SEED           synth seed                            [1]
 # Inputs are kept in WORK_DIR (default $TMPDIR/reachwise_scale) and reused.
+# The figures in docs/performance.md came from
+#   SELECTIONS=default REPEATS=2 bench/scale.sh build /dev/shm/reachwise_scale
+#   APPEND=1 SELECTIONS=outlets REPEATS=1 LONG= bench/scale.sh build /dev/shm/reachwise_scale
+# (memory-backed WORK_DIR: on a machine that evicts cold file pages quickly
+# a disk WORK_DIR measures the disk; needs ~6 GB of memory).
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 build="$(cd "${1:?usage: bench/scale.sh BUILD_DIR [WORK_DIR]}" && pwd)"
