@@ -29,13 +29,6 @@ void requireExisting(const std::string& source) {
   throw InputError(at, "no such file or directory");
 }
 
-void refuseExisting(const std::string& output, bool overwrite) {
-  if (overwrite || !std::filesystem::exists(output)) return;
-  InputLocation at;
-  at.file = output;
-  throw InputError(at, "already exists; pass --overwrite to replace it");
-}
-
 std::unique_ptr<LoadedNetwork> loadNetwork(const std::string& source, const std::string& layer,
                                            const std::string& config) {
   requireExisting(source);

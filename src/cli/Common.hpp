@@ -28,9 +28,6 @@ struct LoadedNetwork {
 /// message than GDAL's.
 void requireExisting(const std::string& source);
 
-/// An existing `output` without `overwrite` is an InputError naming it.
-void refuseExisting(const std::string& output, bool overwrite);
-
 /// Reads `source` (with `layer` and the TOML `config`, either may be empty),
 /// builds the reach graph and validates it. A plain path that does not
 /// exist gets a plain message. Throws reachwise::Error for unreadable input.

@@ -21,6 +21,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/ForcingFiles.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/io/RouteConfig.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
@@ -254,7 +255,7 @@ struct Outputs {
       sinks.push_back(csv.get());
     }
     if (!o.series_nc.empty()) {
-      refuseExisting(o.series_nc, o.overwrite);
+      io::refuseExisting(o.series_nc, o.overwrite);
       const std::vector<bool> mask = selection.mask(plan.size());
       std::vector<std::string> ids;
       for (std::size_t i = 0; i < plan.size(); ++i)
@@ -267,7 +268,7 @@ struct Outputs {
       sinks.push_back(netcdf_selected.get());
     }
     if (!o.report.empty()) {
-      refuseExisting(o.report, o.overwrite);
+      io::refuseExisting(o.report, o.overwrite);
       report_series = std::make_unique<report::ReportSeries>(plan, axis);
       sinks.push_back(report_series.get());
     }

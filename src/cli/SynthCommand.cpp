@@ -12,6 +12,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/SyntheticWriter.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/version.hpp"
 
 namespace reachwise::cli {

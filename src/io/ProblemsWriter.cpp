@@ -9,11 +9,11 @@
 #include <memory>
 #include <unordered_set>
 
-#include <unistd.h>
 
 #include "GdalSupport.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Gdal.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/network/Strahler.hpp"
 
 namespace reachwise::io {
@@ -122,11 +122,6 @@ void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
   }
 }
 
-std::filesystem::path temporaryName(const std::filesystem::path& target) {
-  auto tmp = target;
-  tmp.replace_filename(fmt::format(".{}.partial-{}.gpkg", target.filename().string(), ::getpid()));
-  return tmp;
-}
 
 void writeAll(const std::string& path, const std::filesystem::path& tmp, const ReachGraph& graph,
               const network::ProblemList& problems) {
@@ -151,7 +146,7 @@ void writeProblemsGeoPackage(const std::string& path, const ReachGraph& graph,
   ensureGdal();
   CPLErrorReset();
   const std::filesystem::path target(path);
-  const auto tmp = temporaryName(target);
+  const auto tmp = partialPath(target, ".gpkg");
   std::error_code ignored;
   std::filesystem::remove(tmp, ignored);
   try {

@@ -4,11 +4,11 @@
 #include <fstream>
 #include <system_error>
 
-#include <unistd.h>
 
 #include "ResultsTables.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 
 namespace reachwise::io {
@@ -67,10 +67,8 @@ std::string wkt(const std::vector<network::Point3>& line) {
 namespace detail {
 struct TextFileOutput {
   TextFileOutput(const fs::path& dir, const std::string& name, bool overwrite)
-      : target(dir / name), tmp(dir / fmt::format(".{}.partial-{}", name, ::getpid())) {
-    std::error_code ec;
-    if (fs::exists(target, ec) && !overwrite)
-      failAt(target, "the output exists; pass --overwrite to replace it");
+      : target(dir / name), tmp(partialPath(target)) {
+    refuseExisting(target, overwrite);
     out.open(tmp, std::ios::binary | std::ios::trunc);
     if (!out) failAt(target, "cannot create the output file");
   }

@@ -13,6 +13,7 @@
 #include "GdalSupport.hpp"
 #include "ResultsTables.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/Gdal.hpp"
 
 namespace reachwise::io {
@@ -103,9 +104,8 @@ GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& ta
   ensureGdal();
   CPLErrorReset();
   selected_ = options_.series.mask(plan_.size());
+  refuseExisting(target_, options_.overwrite);
   std::error_code ec;
-  if (fs::exists(target_, ec) && !options_.overwrite)
-    failAt(target_, "the output exists; pass --overwrite to replace it");
   working_ = temporaryName(target_);
   fs::remove(working_, ec);
   GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");

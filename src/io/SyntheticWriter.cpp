@@ -3,7 +3,6 @@
 #include <fmt/format.h>
 #include <gdal_priv.h>
 #include <ogrsf_frmts.h>
-#include <unistd.h>
 
 #include <cstdio>
 #include <memory>
@@ -13,6 +12,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Gdal.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 
 namespace reachwise::io {
 namespace fs = std::filesystem;
@@ -57,12 +57,6 @@ private:
   fs::path path_;
 };
 
-fs::path besideTarget(const fs::path& target, const std::string& suffix) {
-  fs::path tmp = target;
-  tmp.replace_filename(fmt::format(".{}.partial-{}{}", target.filename().string(), ::getpid(), suffix));
-  return tmp;
-}
-
 /// Text id "R<k>" into a caller buffer (no allocation per feature).
 const char* idText(char (&buffer)[24], std::size_t reach) {
   const auto end = fmt::format_to_n(buffer, sizeof buffer - 1, "R{}", reach);
@@ -106,20 +100,12 @@ void writeFeatures(const fs::path& target, OGRLayer& layer, const network::Synth
 
 }  // namespace
 
-void refuseExisting(const fs::path& path, bool overwrite) {
-  std::error_code ec;
-  if (overwrite || !fs::exists(path, ec)) return;
-  InputLocation at;
-  at.file = path.string();
-  throw InputError(at, "the output exists; pass --overwrite to replace it");
-}
-
 void writeSyntheticGpkg(const fs::path& path, const network::SyntheticNetwork& net,
                         const SyntheticGpkgOptions& options) {
   refuseExisting(path, options.overwrite);
   ensureGdal();
   CPLErrorReset();
-  TemporaryFile tmp(besideTarget(path, ".gpkg"));
+  TemporaryFile tmp(partialPath(path, ".gpkg"));
   GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
   if (!driver) failAt(path, "GDAL has no GeoPackage driver");
   {
@@ -160,7 +146,7 @@ void writeSyntheticInflowCsv(const fs::path& path, const network::SyntheticNetwo
                              bool overwrite) {
   refuseExisting(path, overwrite);
   const auto inflows = network::syntheticInflow(net, storm, axis);
-  TemporaryFile tmp(besideTarget(path, ".csv"));
+  TemporaryFile tmp(partialPath(path, ".csv"));
   {
     std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(std::fopen(tmp.path().c_str(), "w"), &std::fclose);
     InputLocation at;

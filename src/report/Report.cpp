@@ -15,6 +15,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/hydraulics/Units.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 
 namespace reachwise::report {
 
@@ -142,7 +143,7 @@ void writeReport(const fs::path& dir, const ReportInputs& in, const ReportSeries
   const bool replace = checkTarget(target, overwrite);
 
   const std::string name = target.filename().string();
-  TemporaryFolder work(parent / fmt::format(".{}.partial-{}", name, ::getpid()));
+  TemporaryFolder work(io::partialPath(target));
   detail::ReportModel model = chooseContents(in, series);
   detail::drawFigures(work.path(), in, series, model);
   detail::writePage(work.path(), in, model);

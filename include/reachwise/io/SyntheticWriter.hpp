@@ -40,7 +40,4 @@ void writeSyntheticInflowCsv(const std::filesystem::path& path, const network::S
                              const network::SyntheticStorm& storm, const routing::TimeAxis& axis,
                              bool overwrite);
 
-/// Throws InputError naming `path` when it exists and `overwrite` is false.
-void refuseExisting(const std::filesystem::path& path, bool overwrite);
-
 }  // namespace reachwise::io

@@ -1,0 +1,26 @@
+#include "reachwise/io/OutputFiles.hpp"
+
+#include <fmt/format.h>
+#include <unistd.h>
+
+#include <system_error>
+
+#include "reachwise/Error.hpp"
+
+namespace reachwise::io {
+
+void refuseExisting(const std::filesystem::path& path, bool overwrite) {
+  std::error_code ec;
+  if (overwrite || !std::filesystem::exists(path, ec)) return;
+  InputLocation at;
+  at.file = path.string();
+  throw InputError(at, "the output exists; pass --overwrite to replace it");
+}
+
+std::filesystem::path partialPath(const std::filesystem::path& target, const std::string& suffix) {
+  std::filesystem::path tmp = target;
+  tmp.replace_filename(fmt::format(".{}.partial-{}{}", target.filename().string(), ::getpid(), suffix));
+  return tmp;
+}
+
+}  // namespace reachwise::io
