@@ -9,8 +9,8 @@
 
 #include "Common.hpp"
 #include "reachwise/Error.hpp"
-#include "reachwise/io/ProblemsWriter.hpp"
 #include "reachwise/network/NetworkSummary.hpp"
+#include "reachwise/run/Network.hpp"
 
 namespace reachwise::cli {
 
@@ -49,11 +49,11 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
 }
 
 int check(const CheckOptions& options, std::ostream& out, std::ostream& err) {
-  const auto net = loadNetwork(options.network, options.layer, options.config);
+  const auto net = run::loadNetwork({options.network, options.layer, options.config});
   printSummary(out, net->table, network::summarize(*net->graph), net->read, net->problems);
-  for (const auto& p : net->problems) fmt::print(err, "{}\n", problemLine(p));
+  for (const auto& p : net->problems) fmt::print(err, "{}\n", run::problemLine(p));
   if (!options.problems.empty()) {
-    io::writeProblemsGeoPackage(options.problems, *net->graph, net->problems);
+    run::writeProblems(options.problems, *net);
     fmt::print(out, "wrote          {}\n", options.problems);
   }
   return network::hasErrors(net->problems) ? kExitInput : kExitOk;

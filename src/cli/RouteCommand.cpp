@@ -11,24 +11,14 @@
 #include <chrono>
 #include <filesystem>
 #include <iostream>
-#include <map>
 #include <memory>
-#include <set>
-#include <thread>
 
 #include "Common.hpp"
 #include "Progress.hpp"
 #include "reachwise/Error.hpp"
-#include "reachwise/io/ForcingFiles.hpp"
 #include "reachwise/io/IsoTime.hpp"
-#include "reachwise/io/OutputFiles.hpp"
-#include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/io/RouteConfig.hpp"
-#include "reachwise/io/SeriesNetcdf.hpp"
-#include "reachwise/network/PlanRanking.hpp"
-#include "reachwise/report/Report.hpp"
-#include "reachwise/routing/NetworkRouter.hpp"
-#include "reachwise/version.hpp"
+#include "reachwise/run/Route.hpp"
 
 namespace reachwise::cli {
 
@@ -44,145 +34,6 @@ struct RouteOptions {
   bool write_back = false, overwrite = false, quiet = false, demo = false;
   std::string command_line;
 };
-
-/// Forwards the series of selected plan reaches to a sink that numbers
-/// them 0..k-1 in plan order (the NetCDF series file holds only those).
-class SelectedSeries final : public routing::SeriesSink {
-public:
-  SelectedSeries(const std::vector<bool>& mask, routing::SeriesSink& inner) : inner_(inner) {
-    position_.assign(mask.size(), kNone);
-    std::uint32_t k = 0;
-    for (std::size_t i = 0; i < mask.size(); ++i)
-      if (mask[i]) position_[i] = k++;
-  }
-  void write(std::uint32_t reach, std::span<const double> q, std::span<const double> d,
-             std::span<const double> v) override {
-    if (position_[reach] != kNone) inner_.write(position_[reach], q, d, v);
-  }
-  bool wants(std::uint32_t reach) const override { return position_[reach] != kNone; }
-
-private:
-  static constexpr std::uint32_t kNone = ~0u;
-  std::vector<std::uint32_t> position_;
-  routing::SeriesSink& inner_;
-};
-
-bool flowsIntoConfluence(const network::NetworkPlan& plan, std::uint32_t i) {
-  for (std::uint32_t k = plan.down_offset[i]; k < plan.down_offset[i + 1]; ++k) {
-    const std::uint32_t d = plan.down_reach[k];
-    if (plan.up_offset[d + 1] - plan.up_offset[d] >= 2) return true;
-  }
-  return false;
-}
-
-/// Confluences whose branches `auto` writes on a large network.
-constexpr std::size_t kAutoConfluences = 1000;
-
-/// The incoming branches of the `limit` confluences with the largest
-/// upstream networks: the main stems, with a count that does not grow
-/// with the network (half of all reaches meet at some confluence).
-std::vector<bool> mainConfluenceBranches(const network::NetworkPlan& plan, std::size_t limit) {
-  std::vector<bool> pick(plan.size(), false);
-  const auto main = network::largestFirst(network::confluenceReaches(plan), network::upstreamSize(plan), limit);
-  for (const std::uint32_t c : main)
-    for (std::uint32_t k = plan.up_offset[c]; k < plan.up_offset[c + 1]; ++k) pick[plan.up_reach[k]] = true;
-  return pick;
-}
-
-/// `--hydrographs`: comma-separated `all`, `none`, `outlets`, `confluences`
-/// (the reaches whose outflow meets another at a confluence: every branch),
-/// `auto` (all below 10,000 reaches, else the outlets and the branches of
-/// the 1,000 largest confluences) and reach ids. Unknown ids are an error
-/// listing them all.
-io::SeriesSelection chooseSeries(const std::string& spec, const network::NetworkPlan& plan) {
-  const std::uint32_t n = static_cast<std::uint32_t>(plan.size());
-  std::vector<bool> pick(n, false);
-  std::map<std::string_view, std::uint32_t> by_id;
-  std::vector<std::string> unknown;
-  auto mark = [&](auto&& wanted) {
-    for (std::uint32_t i = 0; i < n; ++i)
-      if (wanted(i)) pick[i] = true;
-  };
-  auto outlets = [&](std::uint32_t i) { return plan.isOutlet(i); };
-  auto confluences = [&](std::uint32_t i) { return flowsIntoConfluence(plan, i); };
-  std::size_t start = 0;
-  while (start <= spec.size()) {
-    std::size_t end = spec.find(',', start);
-    if (end == std::string::npos) end = spec.size();
-    const std::string token = spec.substr(start, end - start);
-    start = end + 1;
-    if (token.empty() || token == "none") continue;
-    if (token == "all" || (token == "auto" && n < 10000)) {
-      mark([](std::uint32_t) { return true; });
-    } else if (token == "auto") {
-      mark(outlets);
-      const std::vector<bool> main = mainConfluenceBranches(plan, kAutoConfluences);
-      mark([&](std::uint32_t i) { return bool(main[i]); });
-    } else if (token == "outlets") {
-      mark(outlets);
-    } else if (token == "confluences") {
-      mark(confluences);
-    } else {
-      if (by_id.empty())
-        for (std::uint32_t i = 0; i < n; ++i) by_id.emplace(plan.reach_id[i], i);
-      auto it = by_id.find(token);
-      if (it == by_id.end())
-        unknown.push_back(token);
-      else
-        pick[it->second] = true;
-    }
-  }
-  if (!unknown.empty()) {
-    InputLocation at;
-    at.field = "--hydrographs";
-    throw InputError(at, fmt::format("reach ids not in the network: {}", fmt::join(unknown, ", ")));
-  }
-  std::vector<std::uint32_t> chosen;
-  for (std::uint32_t i = 0; i < n; ++i)
-    if (pick[i]) chosen.push_back(i);
-  return chosen.size() == n ? io::SeriesSelection::all() : io::SeriesSelection::of(std::move(chosen));
-}
-
-/// Base flow of each plan reach (the `base_flow` attribute; none = 0).
-std::vector<double> baseFlows(const network::ReachTable& table, const network::NetworkPlan& plan) {
-  std::vector<double> q(plan.size(), 0.0);
-  bool any = false;
-  for (std::size_t i = 0; i < plan.size(); ++i) {
-    const double b = table.reaches[plan.record[i]].base_flow_m3s;
-    if (b > 0) q[i] = b, any = true;
-  }
-  return any ? q : std::vector<double>{};
-}
-
-
-/// Serves the io forcing to the scheduler by plan index.
-class ForcingAdapter : public routing::ForcingProvider {
-public:
-  ForcingAdapter(const io::ForcingSource& source, const network::NetworkPlan& plan)
-      : source_(source), plan_(plan) {}
-  bool inflow(std::uint32_t reach, std::span<double> out) const override {
-    return fill(io::ForcingKind::Inflow, reach, out);
-  }
-  bool lateral(std::uint32_t reach, std::span<double> out) const override {
-    return fill(io::ForcingKind::Lateral, reach, out);
-  }
-
-private:
-  bool fill(io::ForcingKind kind, std::uint32_t reach, std::span<double> out) const {
-    thread_local std::vector<double> buf;
-    if (!source_.series(kind, plan_.reach_id[reach], buf)) return false;
-    std::copy_n(buf.begin(), std::min(buf.size(), out.size()), out.begin());
-    return true;
-  }
-  const io::ForcingSource& source_;
-  const network::NetworkPlan& plan_;
-};
-
-routing::Method parseMethod(const std::string& m) {
-  if (m == "mc") return routing::Method::ConstantParameter;
-  if (m == "muskingum") return routing::Method::Muskingum;
-  return routing::Method::VariableParameter;
-}
 
 std::string hours(double s) { return fmt::format("{:.1f} h", s / 3600.0); }
 
@@ -225,163 +76,66 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
   fmt::print(out, "open in a GIS: {}\n", gpkg);
   if (!report_dir.empty())
     fmt::print(out, "run report (open in a web browser): {}\n", (fs::path(report_dir) / "index.html").string());
-  fmt::print(out, "caution: {}\n", io::kResultsCaution);
+  fmt::print(out, "caution: {}\n", run::kResultsCaution);
 }
 
-/// Every output of a run, opened before routing (so that a refused output
-/// costs no routing time) and committed only when all of them are written.
-struct Outputs {
-  Outputs(const RouteOptions& o, const network::ReachTable& table, const network::NetworkPlan& plan,
-          const routing::TimeAxis& axis)
-      : options(o), table(table), plan(plan), selection(chooseSeries(o.hydrographs, plan)) {
-    // A new GeoPackage (temporary name, renamed on success) or prefixed
-    // layers in the input GeoPackage; with --series the chosen hydrographs
-    // go to NetCDF instead of the GeoPackage table.
-    io::GpkgWriterOptions wo;
-    wo.overwrite = o.overwrite;
-    wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
-    if (o.write_back) {
-      gpkg = io::GpkgResultsWriter::writeBack(o.network, "rw_", table, plan, axis, wo);
-      target = o.network;
-    } else {
-      target = o.out.empty() ? "reachwise-results.gpkg" : o.out;
-      gpkg = std::make_unique<io::GpkgResultsWriter>(target, table, plan, axis, wo);
-    }
-    sinks.push_back(gpkg.get());
-    if (!o.csv.empty()) {
-      std::error_code ec;
-      fs::create_directories(o.csv, ec);
-      csv = std::make_unique<io::CsvSeriesWriter>(o.csv, o.overwrite, plan, axis, selection);
-      sinks.push_back(csv.get());
-    }
-    if (!o.series_nc.empty()) {
-      io::refuseExisting(o.series_nc, o.overwrite);
-      const std::vector<bool> mask = selection.mask(plan.size());
-      std::vector<std::string> ids;
-      for (std::size_t i = 0; i < plan.size(); ++i)
-        if (mask[i]) ids.push_back(plan.reach_id[i]);
-      io::SeriesNetcdfOptions so;
-      so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
-      so.history = o.command_line;
-      netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
-      netcdf_selected = std::make_unique<SelectedSeries>(mask, *netcdf);
-      sinks.push_back(netcdf_selected.get());
-    }
-    if (!o.report.empty()) {
-      io::refuseExisting(o.report, o.overwrite);
-      report_series = std::make_unique<report::ReportSeries>(plan, axis);
-      sinks.push_back(report_series.get());
-    }
-    fan_out = std::make_unique<io::SeriesFanOut>(sinks);
-  }
+/// Draws the run's stages and routing progress on the terminal.
+class BarProgress final : public run::Progress {
+public:
+  explicit BarProgress(bool enabled) : bar_("routing", enabled) {}
+  void stage(std::string_view what) override { bar_.stage(std::string(what)); }
+  void routed(std::size_t done, std::size_t total) override { bar_.update(done, total); }
+  void finish() { bar_.finish(); }
 
-  routing::SeriesSink* sink() { return fan_out.get(); }
-
-  /// Writes the summaries and the report, then commits every file; the
-  /// report comes first so that a failing report leaves no output behind.
-  void commit(const routing::NetworkResults& results, const io::RunInfo& info, bool us_units) {
-    gpkg->writeSummaries(results, info);
-    if (report_series) {
-      const report::ReportInputs ri{table, plan, results, info, target, us_units};
-      report::writeReport(options.report, ri, *report_series, options.overwrite);
-    }
-    if (csv) {
-      io::writeCsvTables(options.csv, options.overwrite, table, plan, results, info);
-      csv->commit();
-    }
-    if (netcdf) netcdf->finish();
-    gpkg->commit();
-  }
-
-  const RouteOptions& options;
-  const network::ReachTable& table;
-  const network::NetworkPlan& plan;
-  const io::SeriesSelection selection;
-  std::string target;   ///< the GeoPackage written (the input itself with --write-back)
-  std::unique_ptr<io::GpkgResultsWriter> gpkg;
-  std::unique_ptr<io::CsvSeriesWriter> csv;
-  std::unique_ptr<io::NetcdfSeriesWriter> netcdf;
-  std::unique_ptr<SelectedSeries> netcdf_selected;
-  std::unique_ptr<report::ReportSeries> report_series;
-  std::vector<routing::SeriesSink*> sinks;
-  std::unique_ptr<io::SeriesFanOut> fan_out;
+private:
+  ProgressBar bar_;
 };
 
-/// The forcing files, checked: they exist, and name only reaches of the network.
-io::OpenedForcing openRunForcing(const RouteOptions& o, const network::NetworkPlan& plan, units::System unit) {
-  io::CsvForcingOptions fo;
-  if (o.dt_s > 0) fo.dt_s = o.dt_s;
-  fo.unit = unit;
-  auto optionalPath = [](const std::string& p) { return p.empty() ? std::nullopt : std::optional<fs::path>(p); };
-  for (const std::string* f : {&o.inflow, &o.lateral})
-    if (!f->empty()) requireExisting(*f);
-  io::OpenedForcing opened = io::openForcing(optionalPath(o.inflow), optionalPath(o.lateral), fo);
-  const std::set<std::string, std::less<>> known(plan.reach_id.begin(), plan.reach_id.end());
-  io::requireKnownReaches(*opened.source, known);
-  return opened;
-}
-
-io::RunInfo runInfo(const RouteOptions& o, const routing::NetworkResults& results) {
-  io::RunInfo info;
-  info.inputs = {o.network};
-  for (const std::string* f : {&o.inflow, &o.lateral, &o.config})
-    if (!f->empty()) info.inputs.push_back(*f);
-  info.method = o.method;
-  info.command_line = o.command_line;
-  info.warnings = results.warnings;
-  info.series_file = o.series_nc;
-  return info;
+run::RouteRequest requestOf(const RouteOptions& o) {
+  run::RouteRequest r;
+  r.network = {o.network, o.layer, o.config};
+  r.forcing.inflow = o.inflow;
+  r.forcing.lateral = o.lateral;
+  if (o.dt_s > 0) r.forcing.dt_s = o.dt_s;
+  r.method = *run::methodFromName(o.method);  // CLI11 and the run file admit only the three names
+  r.threads = o.threads;
+  r.command_line = o.command_line;
+  run::OutputRequest& out = r.outputs;
+  out.write_back = o.write_back;
+  if (!o.write_back) out.gpkg = o.out.empty() ? "reachwise-results.gpkg" : o.out;
+  out.csv_dir = o.csv;
+  out.series_nc = o.series_nc;
+  out.report_dir = o.report;
+  out.hydrographs = o.hydrographs;
+  out.overwrite = o.overwrite;
+  return r;
 }
 
 int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
-  ProgressBar bar("routing", !o.quiet);
-  bar.stage("reading " + o.network);
-  const auto net = loadNetwork(o.network, o.layer, o.config);
-  const network::ReachTable& table = net->table;
-  const network::ProblemList& problems = net->problems;
-  if (network::hasErrors(problems)) {
-    bar.finish();
-    for (const auto& p : problems)
-      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", problemLine(p));
+  BarProgress progress(!o.quiet);
+  run::RouteSummary s;
+  try {
+    s = run::route(requestOf(o), &progress);
+  } catch (const run::NetworkHasErrors& e) {
+    progress.finish();
+    for (const auto& p : e.problems())
+      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p));
     fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
     return kExitInput;
   }
-  const network::NetworkPlan plan = net->graph->freeze();
-
-  bar.stage("reading the forcing");
-  const io::OpenedForcing opened = openRunForcing(o, plan, net->config.units);
-  const io::ForcingSource& forcing = *opened.source;
-  const routing::TimeAxis& axis = forcing.axis();
-
-  Outputs outputs(o, table, plan, axis);
-  routing::NetworkRouteOptions ro;
-  ro.reach.method = parseMethod(o.method);
-  ro.threads = o.threads;
-  ro.base_flow_m3s = baseFlows(table, plan);
-  ro.progress = [&bar](std::size_t done, std::size_t total) { bar.update(done, total); };
-  const ForcingAdapter adapter(forcing, plan);
-  const auto t0 = std::chrono::steady_clock::now();
-  routing::NetworkResults results = routing::routeNetwork(plan, axis, adapter, ro, outputs.sink());
-  const double route_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  bar.stage("writing the results");
-  for (const auto& w : opened.warnings) results.warnings.push_back(w);
-  for (const auto& p : problems)
-    if (p.severity == network::Severity::Warning) results.warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
-
-  const io::RunInfo info = runInfo(o, results);
-  outputs.commit(results, info, net->config.units == units::System::USCustomary);
-  bar.finish();
+  progress.finish();
+  const routing::NetworkResults& results = s.results;
 
   if (o.demo) {
-    printDemoSummary(out, plan, results, outputs.target, o.report);
+    printDemoSummary(out, s.plan, results, s.gpkg, o.report);
   } else if (!o.quiet) {
-    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", plan.size(), axis.steps, o.method,
-               outputs.target, o.series_nc.empty() ? "" : " and " + o.series_nc,
+    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", s.plan.size(), results.axis.steps,
+               o.method, s.gpkg, o.series_nc.empty() ? "" : " and " + o.series_nc,
                o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
-               route_s, routing::cellUpdates(results) / std::max(route_s, 1e-9) / 1e6,
-               o.threads ? o.threads : std::thread::hardware_concurrency(), results.peak_live_series);
+               s.routing_s, routing::cellUpdates(results) / std::max(s.routing_s, 1e-9) / 1e6, s.threads,
+               results.peak_live_series);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }
   return kExitOk;
@@ -395,7 +149,7 @@ int runGuarded(const RouteOptions& o) {
 /// table (flags win).
 void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   if (o.config.empty()) return;
-  requireExisting(o.config);
+  run::requireExisting(o.config);
   const io::RouteConfig c = io::RouteConfig::fromFile(o.config);
   auto take = [&](const char* flag, auto& field, const auto& value) {
     if (value && sub.count(flag) == 0) field = *value;

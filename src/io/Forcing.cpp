@@ -37,12 +37,22 @@ MemoryForcingSource::MemoryForcingSource(Forcing forcing) : forcing_(std::move(f
   }
 }
 
-bool MemoryForcingSource::series(ForcingKind kind, std::string_view id,
-                                 std::vector<double>& out) const {
+bool ForcingSource::series(ForcingKind kind, std::string_view id, std::vector<double>& out) const {
+  std::vector<double> values(axis().steps);
+  if (!fill(kind, id, values)) return false;
+  out = std::move(values);
+  return true;
+}
+
+bool MemoryForcingSource::fill(ForcingKind kind, std::string_view id, std::span<double> out) const {
+  REACHWISE_ASSERT(out.size() == forcing_.axis.steps);
   const SeriesMap& map = forcing_.series(kind);
   const auto it = map.find(id);
-  if (it == map.end()) return false;
-  out.assign(it->second.begin(), it->second.end());
+  if (it == map.end()) {
+    std::fill(out.begin(), out.end(), 0.0);
+    return false;
+  }
+  std::copy(it->second.begin(), it->second.end(), out.begin());
   return true;
 }
 

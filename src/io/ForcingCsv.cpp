@@ -283,7 +283,7 @@ double fileStep(const CsvForcingFile& file, bool require) {
       where.reach_id = id;
       where.field = "time";
       throw InputError(where, fmt::format("a step of {} s from the previous sample, where the "
-                                          "file's step is {} s; give --dt to resample",
+                                          "file's step is {} s; give a time step to resample",
                                           d, step));
     }
   }
@@ -304,13 +304,13 @@ double chooseStep(const CsvForcingFile* inflow, const CsvForcingFile* lateral,
     InputLocation where;
     where.file = lateral->file;
     throw InputError(where, fmt::format("its step of {} s differs from the inflow file's {} s; "
-                                        "give --dt to resample both", lat, in));
+                                        "give a time step to resample both", lat, in));
   }
   if (!std::isnan(in)) return in;
   if (!std::isnan(lat)) return lat;
   InputLocation where;
   where.file = (inflow ? inflow : lateral)->file;
-  throw InputError(where, "no reach has two samples, so the time step is unknown; give --dt");
+  throw InputError(where, "no reach has two samples, so the time step is unknown; give one");
 }
 
 struct Span {
@@ -350,7 +350,7 @@ routing::TimeAxis chooseAxis(const CsvForcingFile* inflow, const CsvForcingFile*
   const double intervals = std::round((end - start) / axis.dt_s);
   if (std::abs(end - start - intervals * axis.dt_s) > kTimeTolerance_s)
     throw InputError(where, fmt::format("the run from {} to {} ({} s) is not a whole number of "
-                                        "{} s steps; choose a --dt that divides it",
+                                        "{} s steps; choose a time step that divides it",
                                         formatIsoTime(start, axis.utc_offset_min, 3),
                                         formatIsoTime(end, axis.utc_offset_min, 3), end - start,
                                         axis.dt_s));
@@ -372,7 +372,7 @@ std::vector<double> placeOnGrid(const RawSeries& s, const routing::TimeAxis& axi
       where.reach_id = id;
       where.field = "time";
       throw InputError(where, fmt::format("the time is not on the run's grid ({} + k × {} s); "
-                                          "give --dt to resample",
+                                          "give a time step to resample",
                                           formatIsoTime(axis.start_unix_s, axis.utc_offset_min),
                                           axis.dt_s));
     }

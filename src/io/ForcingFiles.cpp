@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <array>
 #include <cstring>
 #include <fstream>
@@ -28,9 +29,10 @@ public:
   PerKindSource(std::unique_ptr<ForcingSource> inflow, std::unique_ptr<ForcingSource> lateral)
       : inflow_(std::move(inflow)), lateral_(std::move(lateral)) {}
   const routing::TimeAxis& axis() const override { return (inflow_ ? inflow_ : lateral_)->axis(); }
-  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const override {
-    const auto& s = of(kind);
-    return s && s->series(kind, id, out);
+  bool fill(ForcingKind kind, std::string_view id, std::span<double> out) const override {
+    if (const auto& s = of(kind)) return s->fill(kind, id, out);
+    std::fill(out.begin(), out.end(), 0.0);
+    return false;
   }
   std::vector<std::string> ids(ForcingKind kind) const override {
     const auto& s = of(kind);
@@ -70,7 +72,7 @@ std::string describe(const routing::TimeAxis& a) {
 /// NetCDF forcing is not resampled: the options must agree with its axis.
 void requireCompatible(const fs::path& file, const routing::TimeAxis& axis, const CsvForcingOptions& o) {
   if (o.dt_s && *o.dt_s != axis.dt_s)
-    throw fileError(file, fmt::format("NetCDF forcing is not resampled: its step is {} s, --dt asks "
+    throw fileError(file, fmt::format("NetCDF forcing is not resampled: its step is {} s, the run asks "
                                       "for {} s",
                                       axis.dt_s, *o.dt_s));
   const auto last = axis.start_unix_s + static_cast<std::int64_t>(axis.duration_s());

@@ -302,36 +302,37 @@ std::vector<std::string> NetcdfForcingSource::ids(ForcingKind kind) const {
   return out;
 }
 
-bool NetcdfForcingSource::series(ForcingKind kind, std::string_view id,
-                                 std::vector<double>& out) const {
+bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<double> out) const {
+  REACHWISE_ASSERT(out.size() == axis_.steps);
+  const auto none = [&] {
+    std::fill(out.begin(), out.end(), 0.0);
+    return false;
+  };
   const Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
-  if (v.varid < 0) return false;
+  if (v.varid < 0) return none();
   const auto it = index_.find(std::string(id));
-  if (it == index_.end()) return false;
-  std::vector<double> values(axis_.steps);
+  if (it == index_.end()) return none();
   {
     const std::size_t r = it->second;
     const std::size_t start[2] = {v.time_first ? 0 : r, v.time_first ? r : 0};
     const std::size_t count[2] = {v.time_first ? axis_.steps : 1, v.time_first ? 1 : axis_.steps};
     const std::lock_guard lock(detail::netcdfMutex());
-    detail::check(nc_get_vara_double(ncid_, v.varid, start, count, values.data()), path_,
+    detail::check(nc_get_vara_double(ncid_, v.varid, start, count, out.data()), path_,
                   fmt::format("reading {} of reach {}", kindName(kind), id));
   }
   const auto missing = [&](double x) { return std::isnan(x) || x == v.fill; };
-  const auto n_missing = static_cast<std::size_t>(std::count_if(values.begin(), values.end(), missing));
-  if (n_missing == values.size()) return false;
+  if (std::all_of(out.begin(), out.end(), missing)) return none();
   InputLocation where = located(path_, std::string(kindName(kind)));
   where.reach_id = std::string(id);
-  for (std::size_t k = 0; k < values.size(); ++k) {
-    const double raw = values[k];
-    values[k] = raw * v.scale + v.offset;
-    if (missing(raw) || !std::isfinite(values[k]) || values[k] < 0) {
+  for (std::size_t k = 0; k < out.size(); ++k) {
+    const double raw = out[k];
+    out[k] = raw * v.scale + v.offset;
+    if (missing(raw) || !std::isfinite(out[k]) || out[k] < 0) {
       where.time = formatIsoTime(axis_.at(static_cast<double>(k)), axis_.utc_offset_min, 0);
       throw InputError(where, missing(raw) ? std::string("missing value (_FillValue) inside the series")
-                                           : fmt::format("discharge {} is not finite and >= 0", values[k]));
+                                           : fmt::format("discharge {} is not finite and >= 0", out[k]));
     }
   }
-  out = std::move(values);
   return true;
 }
 

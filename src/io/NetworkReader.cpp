@@ -84,7 +84,7 @@ OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const std::str
   const auto lines = lineLayerNames(ds);
   if (lines.size() == 1) return ds.GetLayerByName(lines.front().c_str());
   if (lines.size() > 1)
-    throw InputError(where, fmt::format("several line layers ({}); choose one with --layer",
+    throw InputError(where, fmt::format("several line layers ({}); choose one by name",
                                         joined(lines)));
   // A single layer of unknown geometry type (e.g. mixed GeoJSON) is taken as is.
   if (all.size() == 1 && wkbFlatten(ds.GetLayer(0)->GetGeomType()) == wkbUnknown)

@@ -14,7 +14,7 @@ void refuseExisting(const std::filesystem::path& path, bool overwrite) {
   if (overwrite || !std::filesystem::exists(path, ec)) return;
   InputLocation at;
   at.file = path.string();
-  throw InputError(at, "the output exists; pass --overwrite to replace it");
+  throw InputError(at, "the output exists; it is replaced only when overwriting is allowed");
 }
 
 std::filesystem::path partialPath(const std::filesystem::path& target, const std::string& suffix) {

@@ -142,10 +142,10 @@ std::unique_ptr<GDALDataset> openForWriteBack(const fs::path& input) {
     const char* driver = probe->GetDriver() ? probe->GetDriver()->GetDescription() : "";
     if (std::string(driver) != "GPKG")
       failAt(input, fmt::format("write-back needs a GeoPackage, this is read by GDAL's {} driver; "
-                                "use --out instead", driver));
+                                "write a new GeoPackage instead", driver));
   }
   if (::access(input.c_str(), W_OK) != 0 || ::access(input.parent_path().empty() ? "." : input.parent_path().c_str(), W_OK) != 0)
-    failAt(input, "is read-only; write-back needs to modify it (use --out instead)");
+    failAt(input, "is read-only; write-back needs to modify it (write a new GeoPackage instead)");
   std::unique_ptr<GDALDataset> ds(GDALDataset::Open(input.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
   if (!ds) failAt(input, "cannot be opened for update");
   return ds;
@@ -180,7 +180,7 @@ GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string p
     if (layerIndex(*ds_, name) >= 0) existing.push_back(name);
   }
   if (!existing.empty() && !options_.overwrite)
-    failAt(target_, fmt::format("already holds the layer {}; pass --overwrite to replace it",
+    failAt(target_, fmt::format("already holds the layer {}; it is replaced only when overwriting is allowed",
                                 existing.front()),
            existing.front());
   if (ds_->StartTransaction() != OGRERR_NONE) failAt(target_, "cannot start a transaction");

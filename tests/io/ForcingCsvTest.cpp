@@ -209,8 +209,8 @@ TEST_F(ForcingCsvTest, BadInputNamesFileAndLine) {
       {"headeronly.csv", "reach_id,time,discharge\n", 2, "no data rows"},
       {"header.csv", "id,when,q\nR1,2026-05-01T00:00Z,1\n", 1, "header"},
       {"fields.csv", "time,R1,R2\n2026-05-01T00:00Z,1\n", 2, "fields"},
-      {"irregular.csv", "time,R1\n2026-05-01T00:00Z,1\n2026-05-01T01:00Z,1\n2026-05-01T03:00Z,1\n", 4, "--dt"},
-      {"gap.csv", "time,R1,R2\n2026-05-01T00:00Z,1,1\n2026-05-01T01:00Z,,1\n2026-05-01T02:00Z,1,1\n", 4, "--dt"},
+      {"irregular.csv", "time,R1\n2026-05-01T00:00Z,1\n2026-05-01T01:00Z,1\n2026-05-01T03:00Z,1\n", 4, "to resample"},
+      {"gap.csv", "time,R1,R2\n2026-05-01T00:00Z,1,1\n2026-05-01T01:00Z,,1\n2026-05-01T02:00Z,1,1\n", 4, "to resample"},
       {"noid.csv", "reach_id,time,discharge\n ,2026-05-01T00:00Z,1\n", 2, "reach id"},
       {"twocols.csv", "time,R1,R1\n2026-05-01T00:00Z,1,1\n", 1, "two columns"},
       {"nocol.csv", "time,R1,R2\n2026-05-01T00:00Z,1,\n", 1, "no values"},
@@ -239,7 +239,7 @@ TEST_F(ForcingCsvTest, BadAxesAreRefused) {
   // Lateral on a different step, without --dt.
   const fs::path half = write("half.csv", "time,R2\n2026-05-01T00:00Z,1\n2026-05-01T00:30Z,1\n");
   const std::string what = expectInputError([&] { readForcingCsv(in, half); }, half, std::nullopt);
-  EXPECT_NE(what.find("--dt"), std::string::npos);
+  EXPECT_NE(what.find("give a time step"), std::string::npos);
   // A file that cannot be opened.
   const fs::path missing = dir_ / "missing.csv";
   expectInputError([&] { readForcingCsv(missing, std::nullopt); }, missing, std::nullopt);

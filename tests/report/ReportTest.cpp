@@ -42,24 +42,6 @@ using namespace reachwise;
 
 const fs::path kSample = fs::path(REACHWISE_SOURCE_DIR) / "sample-network";
 
-/// Serves the forcing by plan index (as the route command does).
-class Adapter : public routing::ForcingProvider {
-public:
-  Adapter(const io::ForcingSource& source, const network::NetworkPlan& plan) : source_(source), plan_(plan) {}
-  bool inflow(std::uint32_t r, std::span<double> out) const override { return fill(io::ForcingKind::Inflow, r, out); }
-  bool lateral(std::uint32_t r, std::span<double> out) const override { return fill(io::ForcingKind::Lateral, r, out); }
-
-private:
-  bool fill(io::ForcingKind kind, std::uint32_t r, std::span<double> out) const {
-    std::vector<double> buf;
-    if (!source_.series(kind, plan_.reach_id[r], buf)) return false;
-    std::copy_n(buf.begin(), std::min(buf.size(), out.size()), out.begin());
-    return true;
-  }
-  const io::ForcingSource& source_;
-  const network::NetworkPlan& plan_;
-};
-
 /// The sample network routed once per process: GeoPackage and captured
 /// series, as `reachwise route` produces them.
 struct SampleRun {
@@ -90,7 +72,7 @@ struct SampleRun {
     io::GpkgResultsWriter writer(gpkg, table, plan, axis);
     series = std::make_unique<report::ReportSeries>(plan, axis);
     io::SeriesFanOut fan({&writer, series.get()});
-    const Adapter adapter(*forcing, plan);
+    const io::PlanForcing adapter(*forcing, plan);
     results = routing::routeNetwork(plan, axis, adapter, routing::NetworkRouteOptions{}, &fan);
     info.inputs = {(kSample / "network.gpkg").string(), (kSample / "inflow.csv").string(),
                    (kSample / "lateral.csv").string()};

@@ -11,10 +11,13 @@
 #include <functional>
 #include <map>
 #include <set>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
 
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::io {
@@ -62,10 +65,15 @@ public:
 
   virtual const routing::TimeAxis& axis() const = 0;
 
-  /// Fills `out` (resized to axis().steps) with the series of `kind` for
-  /// reach `id` and returns true; returns false, leaving `out` untouched,
-  /// when the source has none. Throws InputError when stored data are bad.
-  virtual bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const = 0;
+  /// Writes the series of `kind` for reach `id` into `out` (exactly
+  /// axis().steps values) and returns true; returns false when the source
+  /// has none, with `out` then all zero. Throws InputError when stored data
+  /// are bad. The one virtual read: the router's buffers are filled in place.
+  virtual bool fill(ForcingKind kind, std::string_view id, std::span<double> out) const = 0;
+
+  /// Like fill(), into a vector resized to axis().steps; `out` is left
+  /// untouched when the source has none.
+  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const;
 
   /// Reach ids that have a series of `kind`, sorted.
   virtual std::vector<std::string> ids(ForcingKind kind) const = 0;
@@ -92,7 +100,7 @@ public:
   explicit MemoryForcingSource(Forcing forcing);
 
   const routing::TimeAxis& axis() const override { return forcing_.axis; }
-  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const override;
+  bool fill(ForcingKind kind, std::string_view id, std::span<double> out) const override;
   std::vector<std::string> ids(ForcingKind kind) const override;
   using ForcingSource::ids;
   std::string origin(ForcingKind kind) const override { return forcing_.origin(kind); }
@@ -101,6 +109,24 @@ public:
 
 private:
   Forcing forcing_;
+};
+
+/// A forcing source bound to a plan: what the router pulls from, by plan
+/// index (routing::ForcingProvider), read straight into the router's
+/// buffers. `source` and `plan` must outlive it.
+class PlanForcing final : public routing::ForcingProvider {
+public:
+  PlanForcing(const ForcingSource& source, const network::NetworkPlan& plan) : source_(source), plan_(plan) {}
+  bool inflow(std::uint32_t reach, std::span<double> out) const override {
+    return source_.fill(ForcingKind::Inflow, plan_.reach_id[reach], out);
+  }
+  bool lateral(std::uint32_t reach, std::span<double> out) const override {
+    return source_.fill(ForcingKind::Lateral, plan_.reach_id[reach], out);
+  }
+
+private:
+  const ForcingSource& source_;
+  const network::NetworkPlan& plan_;
 };
 
 /// Throws one InputError listing every reach id of `source` (both kinds)

@@ -79,7 +79,7 @@ public:
   /// reach, or the reach's series is entirely _FillValue. Throws InputError
   /// (file, reach, field, time) for a partly missing, negative or
   /// non-finite series.
-  bool series(ForcingKind kind, std::string_view id, std::vector<double>& out) const override;
+  bool fill(ForcingKind kind, std::string_view id, std::span<double> out) const override;
   /// All reach ids of the file when it has the variable of `kind` (a reach
   /// whose series is all _FillValue is listed but `series` returns false).
   std::vector<std::string> ids(ForcingKind kind) const override;

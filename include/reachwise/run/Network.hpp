@@ -1,0 +1,76 @@
+#pragma once
+/// \file
+/// The first step of every run: read a network layer, build the reach
+/// graph and validate it.
+
+#include <memory>
+#include <optional>
+#include <string>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/io/NetworkReader.hpp"
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/network/Problem.hpp"
+#include "reachwise/network/ReachGraph.hpp"
+
+namespace reachwise::run {
+
+/// Where a network comes from.
+struct NetworkSource {
+  std::string path;     ///< any path or connection string GDAL opens as vector data
+  std::string layer;    ///< empty: the config's layer, else the only line layer
+  std::string config;   ///< TOML run file with the `[network]` table; empty: defaults
+};
+
+/// A network as read and validated. Not movable: `graph` refers to `table`.
+struct LoadedNetwork {
+  NetworkSource source;
+  io::NetworkConfig config;       ///< as read from the run file (or the defaults)
+  network::ReachTable table;
+  io::ReadSummary read;
+  network::ProblemList problems;  ///< the reader's and the graph's, without repeats
+  std::optional<network::ReachGraph> graph;
+
+  LoadedNetwork() = default;
+  LoadedNetwork(const LoadedNetwork&) = delete;
+  LoadedNetwork& operator=(const LoadedNetwork&) = delete;
+
+  bool hasErrors() const { return network::hasErrors(problems); }
+  bool usUnits() const { return config.units == units::System::USCustomary; }
+};
+
+/// The network has errors, so it cannot be routed. `problems()` holds
+/// every problem found (the errors among them say why).
+class NetworkHasErrors : public Error {
+public:
+  explicit NetworkHasErrors(network::ProblemList problems);
+  const network::ProblemList& problems() const noexcept { return problems_; }
+
+private:
+  network::ProblemList problems_;
+};
+
+/// A plain path (not a connection string such as "PG:..." nor a GDAL
+/// virtual path) that does not exist is an InputError naming it, with a
+/// plainer message than GDAL's.
+void requireExisting(const std::string& source);
+
+/// Reads `source`, builds the reach graph and validates it. Problems with
+/// single features go into the result; a source that cannot be read at
+/// all throws reachwise::InputError naming the file (and layer / field).
+std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source);
+
+/// `severity code reach_id fid (x, y): sentence`, the one-line form of a
+/// problem (docs/formats.md).
+std::string problemLine(const network::Problem& p);
+
+/// Writes `out`: a GeoPackage with the problems (points) and the network
+/// as built (lines), for a GIS. Throws InputError naming `out` when it
+/// cannot be written.
+void writeProblems(const std::string& out, const LoadedNetwork& net);
+
+/// The plan routing runs on. Throws NetworkHasErrors when the network has
+/// errors.
+network::NetworkPlan routablePlan(const LoadedNetwork& net);
+
+}  // namespace reachwise::run

@@ -1,0 +1,69 @@
+#pragma once
+/// \file
+/// Every output of a run (GeoPackage, CSV tables, NetCDF series, HTML
+/// report), opened before routing, so that a refused output costs no
+/// routing time, and committed together once all are written: a failed
+/// run leaves nothing that looks complete.
+
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/Results.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::run {
+
+struct LoadedNetwork;
+
+/// What a run writes. Everything empty/false: nothing (the results stay
+/// in memory, e.g. for a calibration loop).
+struct OutputRequest {
+  std::string gpkg;         ///< a new results GeoPackage (written under a temporary name, renamed at the end)
+  bool write_back = false;  ///< instead: the result layers into the network's own GeoPackage, prefixed `rw_`
+  std::string csv_dir;      ///< the tables and hydrographs as CSV files into this folder
+  std::string series_nc;    ///< the chosen hydrographs as CF-NetCDF instead of the GeoPackage table
+  std::string report_dir;   ///< the HTML run report into this folder
+  std::string hydrographs = "auto";   ///< which reaches' hydrographs: see chooseSeries()
+  bool overwrite = false;   ///< replace existing outputs (else an existing one is an InputError naming it)
+};
+
+/// The prefix of written-back layers (`rw_reaches`, ...).
+inline constexpr const char* kWriteBackPrefix = "rw_";
+
+class Outputs {
+public:
+  /// Opens every requested output for `net` routed over `axis`; throws
+  /// InputError naming the output that exists (without `overwrite`) or
+  /// cannot be created. `history` goes into the NetCDF `history` attribute.
+  /// `extra` sinks (owned by the caller, may be empty) receive every series
+  /// beside the files. `net` and `plan` must outlive the object.
+  Outputs(const OutputRequest& request, const LoadedNetwork& net, const network::NetworkPlan& plan,
+          const routing::TimeAxis& axis, const std::string& history,
+          std::vector<routing::SeriesSink*> extra = {});
+  ~Outputs();
+  Outputs(const Outputs&) = delete;
+  Outputs& operator=(const Outputs&) = delete;
+
+  /// Where the router sends each finished series.
+  routing::SeriesSink& sink();
+
+  /// Writes the summaries and the report, then commits every file; the
+  /// report comes first so that a failing report leaves no output behind.
+  void commit(const routing::NetworkResults& results, const io::RunInfo& info);
+
+  /// The GeoPackage written (the network itself with write-back), or empty.
+  const std::string& geopackage() const noexcept { return gpkg_target_; }
+
+private:
+  struct Writers;
+  OutputRequest request_;
+  const LoadedNetwork& net_;
+  const network::NetworkPlan& plan_;
+  std::string gpkg_target_;
+  std::unique_ptr<Writers> w_;
+};
+
+}  // namespace reachwise::run

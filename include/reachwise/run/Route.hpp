@@ -1,0 +1,86 @@
+#pragma once
+/// \file
+/// One call routes a network: read and validate the layer, open and bind
+/// the forcing, route every reach, write the outputs.
+///
+///     reachwise::run::RouteRequest request;
+///     request.network.path = "network.gpkg";
+///     request.forcing.inflow = "inflow.csv";
+///     request.outputs.gpkg = "results.gpkg";
+///     const auto summary = reachwise::run::route(request);
+///
+/// The pieces it is made of (loadNetwork, RunForcing, Outputs, runInfo)
+/// are public, for callers that route one network many times.
+
+#include <cstddef>
+#include <memory>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/ReachRouter.hpp"
+#include "reachwise/routing/Results.hpp"
+#include "reachwise/run/Forcing.hpp"
+#include "reachwise/run/Network.hpp"
+#include "reachwise/run/Outputs.hpp"
+
+namespace reachwise::run {
+
+/// The caution every output and summary carries.
+using io::kResultsCaution;
+
+/// The method names of the command line and run files: `vpmc`, `mc`, `muskingum`.
+std::string_view methodName(routing::Method method);
+/// The method of a name above; nothing for any other name.
+std::optional<routing::Method> methodFromName(std::string_view name);
+
+struct RouteRequest {
+  NetworkSource network;
+  ForcingFiles forcing;
+  routing::Method method = routing::Method::VariableParameter;
+  unsigned threads = 0;              ///< worker threads; 0 = all cores
+  OutputRequest outputs;
+  /// How the run was asked for, recorded in run_info and the NetCDF
+  /// history (the command line; empty: "reachwise library").
+  std::string command_line;
+  /// Further series sinks (owned by the caller), given every routed series.
+  std::vector<routing::SeriesSink*> sinks;
+};
+
+/// Told what a run is doing. Called from the thread that called route(),
+/// except routed(), which comes from whichever worker finished a reach,
+/// one call at a time.
+class Progress {
+public:
+  virtual ~Progress() = default;
+  /// A new stage starts ("reading NETWORK", "reading the forcing", "routing",
+  /// "writing the results").
+  virtual void stage(std::string_view /*what*/) {}
+  /// Reaches routed so far, about 200 times over a run.
+  virtual void routed(std::size_t /*done*/, std::size_t /*total*/) {}
+};
+
+struct RouteSummary {
+  std::unique_ptr<LoadedNetwork> network;   ///< the layer as read, its graph and its problems
+  network::NetworkPlan plan;
+  /// Per-reach and per-node results; `warnings` holds the forcing readers'
+  /// and the network's warnings too.
+  routing::NetworkResults results;
+  io::RunInfo info;                         ///< what run_info records
+  std::string gpkg;                         ///< the GeoPackage written, or empty
+  double routing_s = 0;                     ///< wall time of the routing alone
+  unsigned threads = 0;                     ///< worker threads used
+};
+
+/// Routes `request`. Throws NetworkHasErrors when the network cannot be
+/// routed, InputError naming file / feature / field for bad input or an
+/// output that may not be written; nothing is left behind then.
+RouteSummary route(const RouteRequest& request, Progress* progress = nullptr);
+
+/// The run_info record of a run: inputs, method, command line, warnings.
+io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results);
+
+}  // namespace reachwise::run

@@ -1,0 +1,70 @@
+#include "reachwise/run/Network.hpp"
+
+#include <fmt/format.h>
+
+#include <cmath>
+#include <filesystem>
+
+#include "reachwise/io/ProblemsWriter.hpp"
+#include "reachwise/network/Validation.hpp"
+
+namespace reachwise::run {
+
+namespace {
+
+std::string coordinate(double v) { return std::isfinite(v) ? fmt::format("{}", v) : "-"; }
+
+std::size_t countErrors(const network::ProblemList& problems) {
+  std::size_t n = 0;
+  for (const auto& p : problems) n += p.severity == network::Severity::Error;
+  return n;
+}
+
+}  // namespace
+
+NetworkHasErrors::NetworkHasErrors(network::ProblemList problems)
+    : Error(fmt::format("the network has {} error(s), so it cannot be routed", countErrors(problems))),
+      problems_(std::move(problems)) {}
+
+void requireExisting(const std::string& source) {
+  const bool plain_path = source.find(':') == std::string::npos && source.rfind("/vsi", 0) != 0;
+  if (!plain_path || std::filesystem::exists(source)) return;
+  InputLocation at;
+  at.file = source;
+  throw InputError(at, "no such file or directory");
+}
+
+std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
+  requireExisting(source.path);
+  io::ReadOptions read_options;
+  if (!source.config.empty()) {
+    requireExisting(source.config);
+    read_options.config = io::NetworkConfig::fromFile(source.config);
+  }
+  read_options.layer = source.layer;
+  auto net = std::make_unique<LoadedNetwork>();
+  net->source = source;
+  net->config = read_options.config;
+  net->table = io::readNetwork(source.path, read_options, net->problems, &net->read);
+  net->graph.emplace(net->table);
+  network::mergeProblems(net->problems, network::validate(*net->graph));
+  return net;
+}
+
+std::string problemLine(const network::Problem& p) {
+  return fmt::format("{} {} {} {} ({}, {}): {}", io::severityName(p.severity), p.code,
+                     p.reach_id.empty() ? "-" : p.reach_id,
+                     p.fid < 0 ? std::string("-") : std::to_string(p.fid), coordinate(p.x),
+                     coordinate(p.y), p.message);
+}
+
+void writeProblems(const std::string& out, const LoadedNetwork& net) {
+  io::writeProblemsGeoPackage(out, *net.graph, net.problems);
+}
+
+network::NetworkPlan routablePlan(const LoadedNetwork& net) {
+  if (net.hasErrors()) throw NetworkHasErrors(net.problems);
+  return net.graph->freeze();
+}
+
+}  // namespace reachwise::run

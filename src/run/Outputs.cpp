@@ -1,0 +1,119 @@
+#include "reachwise/run/Outputs.hpp"
+
+#include <fmt/format.h>
+
+#include <filesystem>
+
+#include "reachwise/io/OutputFiles.hpp"
+#include "reachwise/io/SeriesNetcdf.hpp"
+#include "reachwise/report/Report.hpp"
+#include "reachwise/run/Network.hpp"
+#include "reachwise/run/SeriesChoice.hpp"
+#include "reachwise/version.hpp"
+
+namespace reachwise::run {
+
+namespace {
+
+namespace fs = std::filesystem;
+
+/// Forwards the series of selected plan reaches to a sink that numbers
+/// them 0..k-1 in plan order (the NetCDF series file holds only those).
+class SelectedSeries final : public routing::SeriesSink {
+public:
+  SelectedSeries(const std::vector<bool>& mask, routing::SeriesSink& inner) : inner_(inner) {
+    position_.assign(mask.size(), kNone);
+    std::uint32_t k = 0;
+    for (std::size_t i = 0; i < mask.size(); ++i)
+      if (mask[i]) position_[i] = k++;
+  }
+  void write(std::uint32_t reach, std::span<const double> q, std::span<const double> d,
+             std::span<const double> v) override {
+    if (position_[reach] != kNone) inner_.write(position_[reach], q, d, v);
+  }
+  bool wants(std::uint32_t reach) const override { return position_[reach] != kNone; }
+
+private:
+  static constexpr std::uint32_t kNone = ~0u;
+  std::vector<std::uint32_t> position_;
+  routing::SeriesSink& inner_;
+};
+
+}  // namespace
+
+struct Outputs::Writers {
+  std::unique_ptr<io::GpkgResultsWriter> gpkg;
+  std::unique_ptr<io::CsvSeriesWriter> csv;
+  std::unique_ptr<io::NetcdfSeriesWriter> netcdf;
+  std::unique_ptr<SelectedSeries> netcdf_selected;
+  std::unique_ptr<report::ReportSeries> report;
+  std::unique_ptr<io::SeriesFanOut> fan_out;
+};
+
+Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const network::NetworkPlan& plan,
+                 const routing::TimeAxis& axis, const std::string& history,
+                 std::vector<routing::SeriesSink*> extra)
+    : request_(request), net_(net), plan_(plan), w_(std::make_unique<Writers>()) {
+  const OutputRequest& o = request_;
+  const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
+  std::vector<routing::SeriesSink*> sinks = std::move(extra);
+  // A new GeoPackage (temporary name, renamed on success) or prefixed
+  // layers in the input GeoPackage; with a NetCDF series file the chosen
+  // hydrographs go there instead of the GeoPackage table.
+  io::GpkgWriterOptions wo;
+  wo.overwrite = o.overwrite;
+  wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
+  if (o.write_back) {
+    w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
+    gpkg_target_ = net.source.path;
+  } else if (!o.gpkg.empty()) {
+    w_->gpkg = std::make_unique<io::GpkgResultsWriter>(o.gpkg, net.table, plan, axis, wo);
+    gpkg_target_ = o.gpkg;
+  }
+  if (w_->gpkg) sinks.push_back(w_->gpkg.get());
+  if (!o.csv_dir.empty()) {
+    std::error_code ec;
+    fs::create_directories(o.csv_dir, ec);
+    w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection);
+    sinks.push_back(w_->csv.get());
+  }
+  if (!o.series_nc.empty()) {
+    io::refuseExisting(o.series_nc, o.overwrite);
+    const std::vector<bool> mask = selection.mask(plan.size());
+    std::vector<std::string> ids;
+    for (std::size_t i = 0; i < plan.size(); ++i)
+      if (mask[i]) ids.push_back(plan.reach_id[i]);
+    io::SeriesNetcdfOptions so;
+    so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
+    so.history = history;
+    w_->netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
+    w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
+    sinks.push_back(w_->netcdf_selected.get());
+  }
+  if (!o.report_dir.empty()) {
+    io::refuseExisting(o.report_dir, o.overwrite);
+    w_->report = std::make_unique<report::ReportSeries>(plan, axis);
+    sinks.push_back(w_->report.get());
+  }
+  w_->fan_out = std::make_unique<io::SeriesFanOut>(std::move(sinks));
+}
+
+Outputs::~Outputs() = default;
+
+routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
+
+void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info) {
+  if (w_->gpkg) w_->gpkg->writeSummaries(results, info);
+  if (w_->report) {
+    const report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
+    report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
+  }
+  if (w_->csv) {
+    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info);
+    w_->csv->commit();
+  }
+  if (w_->netcdf) w_->netcdf->finish();
+  if (w_->gpkg) w_->gpkg->commit();
+}
+
+}  // namespace reachwise::run

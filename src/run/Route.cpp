@@ -1,0 +1,82 @@
+#include "reachwise/run/Route.hpp"
+
+#include <chrono>
+#include <thread>
+
+#include "reachwise/network/Problem.hpp"
+
+namespace reachwise::run {
+
+namespace {
+
+constexpr std::pair<routing::Method, std::string_view> kMethodNames[] = {
+    {routing::Method::VariableParameter, "vpmc"},
+    {routing::Method::ConstantParameter, "mc"},
+    {routing::Method::Muskingum, "muskingum"},
+};
+
+}  // namespace
+
+std::string_view methodName(routing::Method method) {
+  for (const auto& [m, name] : kMethodNames)
+    if (m == method) return name;
+  REACHWISE_ASSERT(!"every method has a name");
+  return {};
+}
+
+std::optional<routing::Method> methodFromName(std::string_view name) {
+  for (const auto& [m, n] : kMethodNames)
+    if (n == name) return m;
+  return std::nullopt;
+}
+
+io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results) {
+  io::RunInfo info;
+  info.inputs = {request.network.path};
+  for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config})
+    if (!f->empty()) info.inputs.push_back(*f);
+  info.method = methodName(request.method);
+  info.command_line = request.command_line.empty() ? "reachwise library" : request.command_line;
+  info.warnings = results.warnings;
+  info.series_file = request.outputs.series_nc;
+  return info;
+}
+
+RouteSummary route(const RouteRequest& request, Progress* progress) {
+  Progress silent;
+  Progress& tell = progress ? *progress : silent;
+  RouteSummary summary;
+  tell.stage("reading " + request.network.path);
+  summary.network = loadNetwork(request.network);
+  const LoadedNetwork& net = *summary.network;
+  summary.plan = routablePlan(net);
+  const network::NetworkPlan& plan = summary.plan;
+
+  tell.stage("reading the forcing");
+  const RunForcing forcing(request.forcing, plan, net.config.units);
+  Outputs outputs(request.outputs, net, plan, forcing.axis(),
+                  request.command_line.empty() ? "reachwise library" : request.command_line, request.sinks);
+
+  tell.stage("routing");
+  routing::NetworkRouteOptions ro;
+  ro.reach.method = request.method;
+  ro.threads = request.threads;
+  ro.base_flow_m3s = baseFlows(net.table, plan);
+  ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
+  const auto t0 = std::chrono::steady_clock::now();
+  summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
+  summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  summary.threads = request.threads ? request.threads : std::thread::hardware_concurrency();
+
+  tell.stage("writing the results");
+  auto& warnings = summary.results.warnings;
+  warnings.insert(warnings.end(), forcing.warnings().begin(), forcing.warnings().end());
+  for (const auto& p : net.problems)
+    if (p.severity == network::Severity::Warning) warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
+  summary.info = runInfo(request, summary.results);
+  outputs.commit(summary.results, summary.info);
+  summary.gpkg = outputs.geopackage();
+  return summary;
+}
+
+}  // namespace reachwise::run

@@ -1,0 +1,85 @@
+#include "reachwise/run/SeriesChoice.hpp"
+
+#include <fmt/format.h>
+#include <fmt/ranges.h>
+
+#include <map>
+#include <string>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/network/PlanRanking.hpp"
+
+namespace reachwise::run {
+
+namespace {
+
+bool flowsIntoConfluence(const network::NetworkPlan& plan, std::uint32_t i) {
+  for (std::uint32_t k = plan.down_offset[i]; k < plan.down_offset[i + 1]; ++k) {
+    const std::uint32_t d = plan.down_reach[k];
+    if (plan.up_offset[d + 1] - plan.up_offset[d] >= 2) return true;
+  }
+  return false;
+}
+
+/// The incoming branches of the `limit` confluences with the largest
+/// upstream networks.
+std::vector<bool> mainConfluenceBranches(const network::NetworkPlan& plan, std::size_t limit) {
+  std::vector<bool> pick(plan.size(), false);
+  const auto main = network::largestFirst(network::confluenceReaches(plan), network::upstreamSize(plan), limit);
+  for (const std::uint32_t c : main)
+    for (std::uint32_t k = plan.up_offset[c]; k < plan.up_offset[c + 1]; ++k) pick[plan.up_reach[k]] = true;
+  return pick;
+}
+
+}  // namespace
+
+io::SeriesSelection chooseSeries(std::string_view spec, const network::NetworkPlan& plan) {
+  const std::uint32_t n = static_cast<std::uint32_t>(plan.size());
+  std::vector<bool> pick(n, false);
+  std::map<std::string_view, std::uint32_t> by_id;
+  std::vector<std::string> unknown;
+  auto mark = [&](auto&& wanted) {
+    for (std::uint32_t i = 0; i < n; ++i)
+      if (wanted(i)) pick[i] = true;
+  };
+  auto outlets = [&](std::uint32_t i) { return plan.isOutlet(i); };
+  auto confluences = [&](std::uint32_t i) { return flowsIntoConfluence(plan, i); };
+  std::size_t start = 0;
+  while (start <= spec.size()) {
+    std::size_t end = spec.find(',', start);
+    if (end == std::string_view::npos) end = spec.size();
+    const std::string_view token = spec.substr(start, end - start);
+    start = end + 1;
+    if (token.empty() || token == "none") continue;
+    if (token == "all" || (token == "auto" && n < kAutoAllBelowReaches)) {
+      mark([](std::uint32_t) { return true; });
+    } else if (token == "auto") {
+      mark(outlets);
+      const std::vector<bool> main = mainConfluenceBranches(plan, kAutoConfluences);
+      mark([&](std::uint32_t i) { return bool(main[i]); });
+    } else if (token == "outlets") {
+      mark(outlets);
+    } else if (token == "confluences") {
+      mark(confluences);
+    } else {
+      if (by_id.empty())
+        for (std::uint32_t i = 0; i < n; ++i) by_id.emplace(plan.reach_id[i], i);
+      auto it = by_id.find(token);
+      if (it == by_id.end())
+        unknown.emplace_back(token);
+      else
+        pick[it->second] = true;
+    }
+  }
+  if (!unknown.empty()) {
+    InputLocation at;
+    at.field = "hydrographs";
+    throw InputError(at, fmt::format("reach ids not in the network: {}", fmt::join(unknown, ", ")));
+  }
+  std::vector<std::uint32_t> chosen;
+  for (std::uint32_t i = 0; i < n; ++i)
+    if (pick[i]) chosen.push_back(i);
+  return chosen.size() == n ? io::SeriesSelection::all() : io::SeriesSelection::of(std::move(chosen));
+}
+
+}  // namespace reachwise::run

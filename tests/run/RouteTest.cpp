@@ -1,0 +1,419 @@
+// The run layer in-process: one call routes the shipped sample network
+// (forcing formats, hydrograph selection, NetCDF series, base flow,
+// write-back, outputs left behind on failure), and its pieces.
+#include "reachwise/run/Route.hpp"
+
+#include <gtest/gtest.h>
+
+#include <netcdf.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <memory>
+#include <mutex>
+#include <string>
+
+#include "reachwise/io/ForcingCsv.hpp"
+#include "reachwise/io/ForcingNetcdf.hpp"
+#include "reachwise/io/Gdal.hpp"
+#include "reachwise/network/SyntheticNetwork.hpp"
+#include "reachwise/run/SeriesChoice.hpp"
+#include "support/Scratch.hpp"
+
+namespace fs = std::filesystem;
+using namespace reachwise;
+
+namespace {
+
+const std::string kSample = REACHWISE_SOURCE_DIR "/sample-network/";
+
+void writeText(const fs::path& p, const std::string& text) { std::ofstream(p) << text; }
+
+/// The sample network with its storm, written to `gpkg`.
+run::RouteRequest sampleRequest(const std::string& gpkg) {
+  run::RouteRequest r;
+  r.network.path = kSample + "network.gpkg";
+  r.forcing.inflow = kSample + "inflow.csv";
+  r.forcing.lateral = kSample + "lateral.csv";
+  r.outputs.gpkg = gpkg;
+  return r;
+}
+
+std::unique_ptr<GDALDataset> open(const fs::path& p) {
+  io::ensureGdal();
+  return std::unique_ptr<GDALDataset>(GDALDataset::Open(p.c_str(), GDAL_OF_VECTOR));
+}
+
+/// reach_id -> q series from the `hydrographs` table, in time order.
+std::map<std::string, std::vector<double>> hydrographs(const fs::path& gpkg, const char* table = "hydrographs") {
+  auto ds = open(gpkg);
+  std::map<std::string, std::vector<double>> q;
+  if (!ds) return q;
+  OGRLayer* h = ds->ExecuteSQL(
+      (std::string("SELECT reach_id, q FROM ") + table + " ORDER BY reach_id, time").c_str(), nullptr, nullptr);
+  for (auto& f : *h) q[f->GetFieldAsString(0)].push_back(f->GetFieldAsDouble(1));
+  ds->ReleaseResultSet(h);
+  return q;
+}
+
+std::map<std::string, double> peaks(const fs::path& gpkg, const char* layer = "reaches") {
+  auto ds = open(gpkg);
+  std::map<std::string, double> p;
+  if (!ds || !ds->GetLayerByName(layer)) return p;
+  for (auto& f : *ds->GetLayerByName(layer)) p[f->GetFieldAsString("reach_id")] = f->GetFieldAsDouble("peak_q");
+  return p;
+}
+
+/// Keeps every outflow series it is given, by plan index.
+class Capture final : public routing::SeriesSink {
+public:
+  void write(std::uint32_t reach, std::span<const double> q, std::span<const double>,
+             std::span<const double>) override {
+    const std::lock_guard lock(mutex_);
+    q_[reach].assign(q.begin(), q.end());
+  }
+  std::map<std::uint32_t, std::vector<double>> q_;
+
+private:
+  std::mutex mutex_;
+};
+
+}  // namespace
+
+TEST(Route, OneCallRoutesTheSampleAndEveryOutputAgreesWithTheResults) {
+  const testsupport::TempDir tmp;
+  run::RouteRequest request = sampleRequest(tmp.file("o.gpkg"));
+  Capture capture;
+  request.sinks = {&capture};
+  const run::RouteSummary s = run::route(request);
+  ASSERT_EQ(s.plan.size(), 41u);  // sample-network/README.md
+  EXPECT_EQ(s.gpkg, tmp.file("o.gpkg"));
+  EXPECT_EQ(s.info.method, "vpmc");
+  EXPECT_EQ(s.info.command_line, "reachwise library");
+  ASSERT_EQ(s.info.inputs.size(), 3u);
+  // The caller's sink saw every reach; its series peak where the summary says.
+  ASSERT_EQ(capture.q_.size(), 41u);
+  const auto written = peaks(s.gpkg);
+  for (std::uint32_t i = 0; i < s.plan.size(); ++i) {
+    const auto& q = capture.q_.at(i);
+    const double max_sample = *std::max_element(q.begin(), q.end());
+    // The reported peak is interpolated between samples: never below the largest sample.
+    EXPECT_GE(s.results.reaches[i].peak_q_m3s, max_sample * (1 - 1e-12)) << s.plan.reach_id[i];
+    EXPECT_DOUBLE_EQ(written.at(s.plan.reach_id[i]), s.results.reaches[i].peak_q_m3s);
+  }
+  // Mass conservation over the network (continuity; the method is held to 1 %, METHODS §3).
+  EXPECT_LT(std::abs(routing::networkVolumeBalance(s.plan, s.results).error_pct), 1.0);
+}
+
+TEST(Route, NothingWrittenWhenNoOutputIsAskedFor) {
+  const testsupport::TempDir tmp;
+  run::RouteRequest request = sampleRequest("");
+  const fs::path before = fs::current_path();
+  fs::current_path(tmp.path());
+  const run::RouteSummary s = run::route(request);
+  fs::current_path(before);
+  EXPECT_TRUE(s.gpkg.empty());
+  EXPECT_TRUE(fs::is_empty(tmp.path()));
+  EXPECT_EQ(s.results.reaches.size(), 41u);
+}
+
+TEST(Route, TheSameNetworkRoutesTwiceFromItsPiecesWithTheSameResult) {
+  // What a calibration loop does: load once, bind the forcing once, route
+  // many times; the router is deterministic (same inputs, same bits).
+  const auto net = run::loadNetwork({kSample + "network.gpkg", "", ""});
+  const network::NetworkPlan plan = run::routablePlan(*net);
+  const run::RunForcing forcing({kSample + "inflow.csv", kSample + "lateral.csv", std::nullopt}, plan);
+  routing::NetworkRouteOptions options;
+  options.base_flow_m3s = run::baseFlows(net->table, plan);
+  const auto a = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options);
+  options.threads = 1;
+  const auto b = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options);
+  ASSERT_EQ(a.reaches.size(), b.reaches.size());
+  for (std::size_t i = 0; i < a.reaches.size(); ++i)
+    EXPECT_EQ(a.reaches[i].peak_q_m3s, b.reaches[i].peak_q_m3s) << plan.reach_id[i];
+  // And one call gives the same numbers.
+  const run::RouteSummary s = run::route(sampleRequest(""));
+  for (std::size_t i = 0; i < a.reaches.size(); ++i) EXPECT_EQ(s.results.reaches[i].peak_q_m3s, a.reaches[i].peak_q_m3s);
+}
+
+TEST(Route, HydrographSelection) {
+  const testsupport::TempDir tmp;
+  run::RouteRequest request = sampleRequest(tmp.file("o.gpkg"));
+  request.outputs.hydrographs = "outlets";
+  run::route(request);
+  auto q = hydrographs(tmp.file("o.gpkg"));
+  ASSERT_EQ(q.size(), 1u);  // the sample network drains to one outlet, R1
+  EXPECT_EQ(q.begin()->first, "R1");
+  EXPECT_EQ(q.begin()->second.size(), 145u);  // 72 h at 30 min (sample-network/README.md)
+
+  request.outputs.overwrite = true;
+  request.outputs.hydrographs = "R12,R16";
+  run::route(request);
+  q = hydrographs(tmp.file("o.gpkg"));
+  ASSERT_EQ(q.size(), 2u);
+  EXPECT_TRUE(q.count("R12") && q.count("R16"));
+
+  // Every branch meeting at a confluence; with `none` the table is empty.
+  request.outputs.hydrographs = "confluences";
+  run::route(request);
+  q = hydrographs(tmp.file("o.gpkg"));
+  EXPECT_GE(q.size(), 2u);
+  EXPECT_FALSE(q.count("R1"));
+  request.outputs.hydrographs = "none";
+  run::route(request);
+  EXPECT_TRUE(hydrographs(tmp.file("o.gpkg")).empty());
+
+  // Unknown ids: one error naming all of them, and no output.
+  run::RouteRequest bad = sampleRequest(tmp.file("b.gpkg"));
+  bad.outputs.hydrographs = "R1,NOPE,ALSO";
+  try {
+    run::route(bad);
+    ADD_FAILURE() << "unknown reach ids were accepted";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("NOPE, ALSO"), std::string::npos) << e.what();
+  }
+  EXPECT_FALSE(fs::exists(tmp.file("b.gpkg")));
+}
+
+TEST(Route, AutoSelectionStaysBoundedOnALargeNetwork) {
+  // 12,000 reaches: above the size where `auto` stops writing every reach.
+  static_assert(run::kAutoAllBelowReaches < 12000);
+  const network::ReachTable table =
+      network::toReachTable(network::generateSyntheticNetwork({12000, 2, 7}));
+  const network::ReachGraph graph(table);
+  const network::NetworkPlan plan = graph.freeze();
+  const std::vector<bool> mask = run::chooseSeries("auto", plan).mask(plan.size());
+  std::size_t written = 0, outlets = 0;
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    written += mask[i];
+    outlets += mask[i] && plan.isOutlet(i);
+  }
+  // Both outlets, and the branches of kAutoConfluences confluences (two or
+  // three each in a synthetic tree): far fewer than the 12,000 reaches.
+  EXPECT_EQ(outlets, 2u);
+  EXPECT_GE(written, 2 + 2 * run::kAutoConfluences);
+  EXPECT_LE(written, 2 + 3 * run::kAutoConfluences);
+  // Below the threshold, auto is everything.
+  const network::ReachTable small = network::toReachTable(network::generateSyntheticNetwork({50, 1, 7}));
+  const network::ReachGraph small_graph(small);
+  const auto small_mask = run::chooseSeries("auto", small_graph.freeze()).mask(50);
+  EXPECT_EQ(std::count(small_mask.begin(), small_mask.end(), true), 50);
+}
+
+TEST(Route, LargeLayersWithABackgroundSpatialIndexStillCommit) {
+  // GDAL builds the R-tree of a GeoPackage layer of 100,000 features or more
+  // in a background thread when allowed (the writer turns it off unless the
+  // user allows it, as here); this GDAL setting starts that at the first
+  // feature, so the sample network takes the same path as a national one.
+  CPLSetConfigOption("OGR_GPKG_ALLOW_THREADED_RTREE", "YES");
+  CPLSetConfigOption("OGR_GPKG_THREADED_RTREE_AT_FIRST_FEATURE", "YES");
+  const testsupport::TempDir tmp;
+  EXPECT_NO_THROW(run::route(sampleRequest(tmp.file("o.gpkg"))));
+  CPLSetConfigOption("OGR_GPKG_THREADED_RTREE_AT_FIRST_FEATURE", nullptr);
+  CPLSetConfigOption("OGR_GPKG_ALLOW_THREADED_RTREE", nullptr);
+  EXPECT_EQ(peaks(tmp.file("o.gpkg")).size(), 41u);
+}
+
+TEST(Route, NetcdfForcingGivesTheSameRunAsCsv) {
+  const testsupport::TempDir tmp;
+  io::Forcing lateral = io::readForcingCsv(std::nullopt, fs::path(kSample + "lateral.csv"));
+  io::writeForcingNetcdf(tmp.path() / "lateral.nc", lateral);
+  const run::RouteSummary csv = run::route(sampleRequest(""));
+  run::RouteRequest nc_request = sampleRequest("");
+  nc_request.forcing.lateral = tmp.file("lateral.nc");
+  const run::RouteSummary nc = run::route(nc_request);
+  ASSERT_EQ(nc.results.reaches.size(), csv.results.reaches.size());
+  for (std::size_t i = 0; i < csv.results.reaches.size(); ++i) {
+    const double q = csv.results.reaches[i].peak_q_m3s;
+    EXPECT_NEAR(nc.results.reaches[i].peak_q_m3s, q, 1e-9 * q) << csv.plan.reach_id[i];
+  }
+
+  // A NetCDF file without the variable of its kind is refused by name.
+  run::RouteRequest wrong = sampleRequest(tmp.file("w.gpkg"));
+  wrong.forcing = {tmp.file("lateral.nc"), "", std::nullopt};
+  try {
+    run::route(wrong);
+    ADD_FAILURE() << "a lateral file was taken for inflow";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("no `inflow` variable"), std::string::npos) << e.what();
+  }
+  // NetCDF forcing is not resampled.
+  wrong.forcing = {"", tmp.file("lateral.nc"), 600.0};
+  try {
+    run::route(wrong);
+    ADD_FAILURE() << "NetCDF forcing was resampled";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("not resampled"), std::string::npos) << e.what();
+  }
+  EXPECT_FALSE(fs::exists(tmp.file("w.gpkg")));
+}
+
+TEST(Route, SeriesGoToNetcdfInsteadOfTheTable) {
+  const testsupport::TempDir tmp;
+  const std::string ref = tmp.file("ref.gpkg"), out = tmp.file("o.gpkg"), nc = tmp.file("s.nc");
+  run::RouteRequest request = sampleRequest(ref);
+  request.outputs.hydrographs = "R1,R12";
+  run::route(request);
+  request.outputs.gpkg = out;
+  request.outputs.series_nc = nc;
+  run::route(request);
+  EXPECT_TRUE(hydrographs(out).empty());
+  {  // run_info says where the series went, and how many series were held at once
+    auto ds = open(out);
+    std::map<std::string, std::string> info;
+    for (auto& f : *ds->GetLayerByName("run_info")) info[f->GetFieldAsString("key")] = f->GetFieldAsString("value");
+    EXPECT_EQ(info["series"], nc);
+    ASSERT_TRUE(info.count("peak_live_series"));
+    EXPECT_GT(std::stoi(info["peak_live_series"]), 0);
+    EXPECT_LT(std::stoi(info["peak_live_series"]), 41);  // fewer than the reaches: series are released
+  }
+  const auto expected = hydrographs(ref);
+
+  int ncid = 0, dim = 0, var = 0;
+  ASSERT_EQ(nc_open(nc.c_str(), NC_NOWRITE, &ncid), NC_NOERR);
+  std::size_t n_reach = 0, n_time = 0;
+  ASSERT_EQ(nc_inq_dimid(ncid, "reach", &dim), NC_NOERR);
+  nc_inq_dimlen(ncid, dim, &n_reach);
+  ASSERT_EQ(nc_inq_dimid(ncid, "time", &dim), NC_NOERR);
+  nc_inq_dimlen(ncid, dim, &n_time);
+  ASSERT_EQ(n_reach, 2u);
+  ASSERT_EQ(n_time, 145u);
+  ASSERT_EQ(nc_inq_varid(ncid, "reach_id", &var), NC_NOERR);
+  char* ids[2] = {nullptr, nullptr};
+  ASSERT_EQ(nc_get_var_string(ncid, var, ids), NC_NOERR);
+  std::vector<double> q(n_time * n_reach);
+  ASSERT_EQ(nc_inq_varid(ncid, "outflow", &var), NC_NOERR);
+  ASSERT_EQ(nc_get_var_double(ncid, var, q.data()), NC_NOERR);
+  for (std::size_t r = 0; r < n_reach; ++r) {
+    const auto& want = expected.at(ids[r]);
+    ASSERT_EQ(want.size(), n_time);
+    for (std::size_t t = 0; t < n_time; ++t) EXPECT_NEAR(q[t * n_reach + r], want[t], 1e-9 * (1 + want[t]));
+  }
+  nc_free_string(2, ids);
+  nc_close(ncid);
+  // An existing series file is kept unless overwriting is asked for.
+  request.outputs.gpkg = tmp.file("p.gpkg");
+  EXPECT_THROW(run::route(request), InputError);
+  EXPECT_FALSE(fs::exists(tmp.file("p.gpkg")));
+}
+
+TEST(Route, BaseFlowAccumulatesToASteadyOutletFlow) {
+  // With only a base flow, every reach carries the base flows of all reaches
+  // above it, at every step: the steady state of mass conservation
+  // (continuity, common practice). 41 reaches × 0.5 m3/s at the outlet.
+  const testsupport::TempDir tmp;
+  writeText(tmp.path() / "run.toml", "[network.fields]\nbase_flow = { default = 0.5 }\n");
+  writeText(tmp.path() / "in.csv", "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,0\nR12,2026-05-01T12:00:00Z,0\n");
+  run::RouteRequest request;
+  request.network = {kSample + "network.gpkg", "", tmp.file("run.toml")};
+  request.forcing = {tmp.file("in.csv"), "", 1800.0};
+  Capture capture;
+  request.sinks = {&capture};
+  const run::RouteSummary s = run::route(request);
+  std::uint32_t outlet = 0;
+  while (!s.plan.isOutlet(outlet)) ++outlet;
+  const auto& q = capture.q_.at(outlet);
+  ASSERT_EQ(q.size(), 25u);
+  for (double v : q) EXPECT_NEAR(v, 41 * 0.5, 1e-9);
+
+  writeText(tmp.path() / "neg.toml", "[network.fields]\nbase_flow = { default = -1 }\n");
+  request.network.config = tmp.file("neg.toml");
+  try {
+    run::route(request);
+    ADD_FAILURE() << "a negative base flow was accepted";
+  } catch (const run::NetworkHasErrors& e) {
+    ASSERT_FALSE(e.problems().empty());
+    EXPECT_NE(run::problemLine(e.problems().front()).find("base_flow"), std::string::npos)
+        << run::problemLine(e.problems().front());
+  }
+}
+
+TEST(Route, WriteBackRunsAgainOnTheSameFile) {
+  const testsupport::TempDir tmp;
+  const fs::path copy = tmp.path() / "net.gpkg";
+  fs::copy_file(kSample + "network.gpkg", copy);
+  run::RouteRequest request = sampleRequest("");
+  request.network.path = copy.string();
+  request.outputs.write_back = true;
+  EXPECT_EQ(run::route(request).gpkg, copy.string());
+  // The written-back results layer is not taken for a second network layer,
+  // and is kept unless overwriting is asked for.
+  EXPECT_THROW(run::route(request), InputError);
+  request.outputs.overwrite = true;
+  EXPECT_NO_THROW(run::route(request));
+  EXPECT_EQ(peaks(copy, "rw_reaches").size(), 41u);
+  EXPECT_EQ(hydrographs(copy, "rw_hydrographs").size(), 41u);
+  EXPECT_FALSE(run::loadNetwork({copy.string(), "", ""})->hasErrors());
+}
+
+TEST(Route, ANetworkWithErrorsIsRefusedWithItsProblems) {
+  run::RouteRequest request = sampleRequest("");
+  request.network.path = kSample + "cycle.gpkg";
+  try {
+    run::route(request);
+    ADD_FAILURE() << "a network with a cycle was routed";
+  } catch (const run::NetworkHasErrors& e) {
+    bool cycle = false;
+    for (const auto& p : e.problems()) cycle |= p.severity == network::Severity::Error &&
+                                                run::problemLine(p).find("cycle") != std::string::npos;
+    EXPECT_TRUE(cycle) << e.what();
+  }
+}
+
+// Each bad forcing file gives its own error, naming the file and line, and
+// leaves nothing behind in the output folder.
+struct BadForcing {
+  const char* name;
+  const char* csv;
+  const char* expected;
+};
+
+class RouteBadForcing : public ::testing::TestWithParam<BadForcing> {};
+
+TEST_P(RouteBadForcing, ErrorNamesFileAndLineAndLeavesNoOutput) {
+  const testsupport::TempDir tmp;
+  const fs::path out_dir = tmp.path() / "out";
+  fs::create_directories(out_dir);
+  writeText(tmp.path() / "in.csv", GetParam().csv);
+  run::RouteRequest request = sampleRequest((out_dir / "o.gpkg").string());
+  request.forcing = {tmp.file("in.csv"), "", std::nullopt};
+  request.outputs.csv_dir = (out_dir / "tables").string();
+  try {
+    run::route(request);
+    ADD_FAILURE() << "bad forcing was accepted";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("in.csv"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find(GetParam().expected), std::string::npos) << e.what();
+  }
+  EXPECT_TRUE(fs::is_empty(out_dir)) << "something was left in " << out_dir;
+}
+
+INSTANTIATE_TEST_SUITE_P(
+    Cases, RouteBadForcing,
+    ::testing::Values(
+        BadForcing{"UnparsableTime", "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,1\nR12,2026-05-01T0x:00,2\n",
+                   "line 3"},
+        BadForcing{"OutOfOrder", "reach_id,time,discharge\nR12,2026-05-01T01:00:00Z,1\nR12,2026-05-01T00:00:00Z,2\n",
+                   "line 3"},
+        BadForcing{"Duplicated", "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,1\nR12,2026-05-01T00:00:00Z,2\n",
+                   "repeats the time on line 2"},
+        BadForcing{"Negative", "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,1\nR12,2026-05-01T01:00:00Z,-2\n",
+                   "negative"},
+        BadForcing{"NotANumber", "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,1\nR12,2026-05-01T01:00:00Z,abc\n",
+                   "not a finite number"},
+        BadForcing{"UnknownReaches",
+                   "time,R12,Q1,Q2\n2026-05-01T00:00:00Z,1,1,1\n2026-05-01T01:00:00Z,1,1,1\n", "Q1, Q2"},
+        BadForcing{"OffTheGrid",
+                   "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,1\nR12,2026-05-01T01:00:00Z,2\n"
+                   "R12,2026-05-01T02:30:00Z,2\n",
+                   "line 4"}),
+    [](const ::testing::TestParamInfo<BadForcing>& info) { return std::string(info.param.name); });
+
+TEST(Route, MethodNamesRoundTrip) {
+  for (const auto m : {routing::Method::VariableParameter, routing::Method::ConstantParameter, routing::Method::Muskingum})
+    EXPECT_EQ(run::methodFromName(run::methodName(m)), m);
+  EXPECT_FALSE(run::methodFromName("kinematic").has_value());
+}
