@@ -1,13 +1,13 @@
 #include "NetcdfSeriesFile.hpp"
 
 #include <netcdf.h>
-#include <unistd.h>
 
 #include <system_error>
 
 #include <fmt/format.h>
 
 #include "reachwise/Error.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 
 namespace reachwise::io::detail {
 
@@ -42,8 +42,7 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
   if (reaches_ == 0) throw InvalidParameter("reach_id", "no reaches to write");
   if (options.reach_chunk == 0) throw InvalidParameter("reach_chunk", "must be at least 1");
   // Same directory, so that the final rename stays on one file system.
-  temp_ = path_;
-  temp_ += fmt::format(".{}.partial", ::getpid());
+  temp_ = partialPath(path_);
   const std::lock_guard lock(netcdfMutex());
   check(nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_), temp_, "creating the file");
   try {

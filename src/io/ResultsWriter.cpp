@@ -8,7 +8,6 @@
 #include <cmath>
 #include <system_error>
 
-#include <unistd.h>
 
 #include "GdalSupport.hpp"
 #include "ResultsTables.hpp"
@@ -87,12 +86,6 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
   return line;
 }
 
-fs::path temporaryName(const fs::path& target) {
-  auto tmp = target;
-  tmp.replace_filename(fmt::format("{}.partial-{}.gpkg", target.filename().string(), ::getpid()));
-  return tmp;
-}
-
 constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info"};
 
 }  // namespace
@@ -106,7 +99,7 @@ GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& ta
   selected_ = options_.series.mask(plan_.size());
   refuseExisting(target_, options_.overwrite);
   std::error_code ec;
-  working_ = temporaryName(target_);
+  working_ = partialPath(target_, ".gpkg");
   fs::remove(working_, ec);
   GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
   if (!driver) failAt(target_, "GDAL has no GeoPackage driver");

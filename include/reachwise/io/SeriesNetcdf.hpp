@@ -6,7 +6,7 @@
 /// finishes them.
 ///
 /// The file is built under a temporary name beside the output
-/// (`OUT.<pid>.partial`) and appears under its own name only when
+/// (`.OUT.partial-<pid>`, io/OutputFiles.hpp) and appears under its own name only when
 /// `finish()` succeeds; a writer destroyed without `finish()` (an exception,
 /// a cancelled run) removes the temporary file, so no half-written output
 /// that looks complete is ever left behind.
