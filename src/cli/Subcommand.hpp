@@ -2,7 +2,7 @@
 // How a subcommand plugs into main(): `addXCommand(app, chosen)` adds its
 // options to the CLI11 app; when the user picks it, parsing stores in
 // `chosen` the function that runs it and returns the exit code
-// (0 ok, 1 bad input, 2 usage; INTERFACE.md).
+// (0 ok, 1 bad input, 2 usage; README.md, "Commands").
 
 #include <functional>
 

@@ -34,13 +34,13 @@ TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {
   for (const char* f : {"reach_id", "peak_q", "peak_time", "peak_depth", "peak_velocity", "volume_error_pct",
                         "subreaches", "substeps", "courant", "x"})
     EXPECT_GE(reaches->GetLayerDefn()->GetFieldIndex(f), 0) << f;
-  // Same CRS as the input layer (INTERFACE.md: reaches in the input CRS).
+  // Same CRS as the input layer (docs/formats.md, "Layers and tables": reaches in the input CRS).
   std::unique_ptr<GDALDataset> in(GDALDataset::Open(REACHWISE_SOURCE_DIR "/sample-network/network.gpkg", GDAL_OF_VECTOR));
   ASSERT_TRUE(in);
   EXPECT_TRUE(reaches->GetSpatialRef()->IsSame(in->GetLayer(0)->GetSpatialRef()));
   EXPECT_EQ(reaches->GetFeatureCount(), in->GetLayer(0)->GetFeatureCount());
   // Every routed peak is positive and the variable-parameter volume error
-  // stays below the 1 % the method is held to (METHODS §3).
+  // stays below 1 %, the bound the project holds `vpmc` to (docs/methods.md §4, "Volume balance").
   for (auto& f : *reaches) {
     EXPECT_GT(f->GetFieldAsDouble("peak_q"), 0.0);
     EXPECT_LT(std::abs(f->GetFieldAsDouble("volume_error_pct")), 1.0);

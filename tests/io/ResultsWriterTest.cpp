@@ -171,7 +171,7 @@ void expectFields(OGRLayer& layer, const std::vector<std::string>& names) {
   for (const auto& n : names) EXPECT_TRUE(have.count(n)) << layer.GetName() << " lacks " << n;
 }
 
-// Field names fixed by the output contract (INTERFACE.md, docs/formats.md "Outputs").
+// Field names fixed by the output contract (docs/formats.md, "Outputs").
 const std::vector<std::string> kReachFields = {
     "reach_id", "peak_q", "peak_time", "peak_depth", "peak_velocity", "inflow_peak_q",
     "inflow_peak_time", "attenuation_pct", "travel_time_h", "volume_in_m3", "volume_lateral_m3",

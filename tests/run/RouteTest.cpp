@@ -104,7 +104,7 @@ TEST(Route, OneCallRoutesTheSampleAndEveryOutputAgreesWithTheResults) {
     EXPECT_GE(s.results.reaches[i].peak_q_m3s, max_sample * (1 - 1e-12)) << s.plan.reach_id[i];
     EXPECT_DOUBLE_EQ(written.at(s.plan.reach_id[i]), s.results.reaches[i].peak_q_m3s);
   }
-  // Mass conservation over the network (continuity; the method is held to 1 %, METHODS §3).
+  // Mass conservation over the network (continuity; `vpmc` is held to 1 %, docs/methods.md §4 "Volume balance").
   EXPECT_LT(std::abs(routing::networkVolumeBalance(s.plan, s.results).error_pct), 1.0);
 }
 

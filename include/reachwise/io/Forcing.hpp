@@ -57,7 +57,7 @@ struct Forcing {
 ///
 /// Contract: every series has exactly `axis().steps` values, finite and
 /// >= 0, in m^3/s. A reach without a series of a kind gets zero from the
-/// caller (INTERFACE.md: "a reach not named gets zero"). Implementations
+/// caller (docs/formats.md, "Forcing input": a reach not named gets zero). Implementations
 /// are safe to call from several threads at once.
 class ForcingSource {
 public:
