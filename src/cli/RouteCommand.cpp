@@ -5,10 +5,8 @@
 
 #include <fmt/core.h>
 #include <fmt/ostream.h>
-#include <fmt/ranges.h>
 
 #include <algorithm>
-#include <chrono>
 #include <filesystem>
 #include <iostream>
 #include <memory>
