@@ -9,7 +9,7 @@
 
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
-#include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/routing/Results.hpp"
 #include "reachwise/version.hpp"
 
 namespace reachwise::io {
@@ -185,7 +185,7 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
                                          offset, 0));
   rows.emplace_back("utc_offset_min", fmt::format("{}", axis.utc_offset_min));
   rows.emplace_back("reaches", fmt::format("{}", results.reaches.size()));
-  rows.emplace_back("cell_updates", fmt::format("{:.0f}", routing::cellUpdates(results)));
+  rows.emplace_back("cell_updates", fmt::format("{:.0f}", results.cell_updates));
   rows.emplace_back("peak_live_series", fmt::format("{}", results.peak_live_series));
   if (!info.series_file.empty()) rows.emplace_back("series", info.series_file);
   rows.emplace_back("version", kVersion);

@@ -12,7 +12,7 @@
 
 #include "ReportModel.hpp"
 #include "reachwise/Error.hpp"
-#include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/routing/Results.hpp"
 #include "reachwise/version.hpp"
 
 namespace reachwise::report::detail {
@@ -144,7 +144,7 @@ private:
       if (n.kind == routing::NodeKind::Confluence && n.branch_spread_s <= kCoincidenceS) ++close;
     card("confluences with branch peaks within 1 h", std::to_string(close),
          fmt::format("of {} confluences", m_.confluence_count));
-    const routing::VolumeBalance v = routing::networkVolumeBalance(in_.plan, in_.results);
+    const routing::VolumeBalance& v = in_.results.volume;
     card("volume balance error", num(v.error_pct, 3) + " %",
          volume(u_.vol(v.inflow_m3 + v.lateral_m3)) + " " + u_.vol_unit() + " in, " +
              volume(u_.vol(v.outflow_m3)) + " out");
@@ -248,7 +248,7 @@ private:
     row("time steps", fmt::format("{} steps of {} s", axis.steps, num(axis.dt_s, 0)));
     row("start", esc(time(static_cast<double>(axis.start_unix_s)) + " (" + offset() + ")"));
     row("end", esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0))) + " (" + offset() + ")"));
-    const routing::VolumeBalance v = routing::networkVolumeBalance(in_.plan, in_.results);
+    const routing::VolumeBalance& v = in_.results.volume;
     const std::string vu = std::string(" ") + u_.vol_unit();
     row("volume in", esc(volume(u_.vol(v.inflow_m3 + v.lateral_m3)) + vu + " (" + volume(u_.vol(v.inflow_m3)) +
                          " point inflow, " + volume(u_.vol(v.lateral_m3)) + " lateral)"));

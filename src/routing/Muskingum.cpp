@@ -9,15 +9,11 @@
 namespace reachwise::routing {
 
 namespace {
-void requirePositive(const char* quantity, double v) {
-  if (!(v > 0) || !std::isfinite(v)) throw InvalidParameter(quantity, "must be a finite number > 0");
-}
+bool positive(double v) { return v > 0 && std::isfinite(v); }
 }  // namespace
 
 Coefficients muskingumCoefficients(double k_s, double x, double dt_s) {
-  requirePositive("muskingum_k", k_s);
-  requirePositive("dt", dt_s);
-  if (!(x >= 0 && x <= 0.5)) throw InvalidParameter("muskingum_x", "must lie in [0, 0.5]");
+  REACHWISE_ASSERT(positive(k_s) && positive(dt_s) && x >= 0 && x <= 0.5);
   // Chow, Maidment & Mays (1988), Applied Hydrology, eq. 8.4.7.
   const double den = k_s * (1.0 - x) + 0.5 * dt_s;
   return Coefficients{(0.5 * dt_s - k_s * x) / den, (0.5 * dt_s + k_s * x) / den,
@@ -25,16 +21,12 @@ Coefficients muskingumCoefficients(double k_s, double x, double dt_s) {
 }
 
 CungeParameters cungeParameters(double c, double t, double slope, double q, double dx, double dt) {
-  requirePositive("celerity", c);
-  requirePositive("top_width", t);
-  requirePositive("slope", slope);
-  requirePositive("dx", dx);
-  requirePositive("dt", dt);
-  if (!(q >= 0) || !std::isfinite(q)) throw InvalidParameter("discharge", "must be finite and >= 0");
+  REACHWISE_ASSERT(positive(c) && positive(t) && positive(slope) && positive(dx) && positive(dt));
+  REACHWISE_ASSERT(q >= 0 && std::isfinite(q));
   CungeParameters p;
   p.k_s = dx / c;
   p.courant = c * dt / dx;
-  p.cell_reynolds = q / (t * slope * c * dx);
+  p.cell_reynolds = cellDiffusionRatio(q, t, slope, c, dx);
   if (p.cell_reynolds > 1.0) {
     p.cell_reynolds = 1.0;
     p.x_clamped = true;
@@ -46,12 +38,9 @@ CungeParameters cungeParameters(double c, double t, double slope, double q, doub
 
 Grid chooseCungeGrid(double length, double c, double t, double slope, double q, double dt,
                      const GridLimits& limits) {
-  requirePositive("length", length);
-  requirePositive("celerity", c);
-  requirePositive("top_width", t);
-  requirePositive("slope", slope);
-  requirePositive("dt", dt);
-  const double ell = std::max(q, 0.0) / (t * slope * c);  // Δx at which D = 1
+  REACHWISE_ASSERT(positive(length) && positive(c) && positive(t) && positive(slope) && positive(dt));
+  REACHWISE_ASSERT(q >= 0 && std::isfinite(q));
+  const double ell = diffusionLength(q, t, slope, c);  // Δx at which D = 1
   Grid g;
   if (length <= ell) {
     // Even one sub-reach is shorter than the diffusion length: X = 0 (D = 1),
@@ -88,9 +77,7 @@ Grid chooseCungeGrid(double length, double c, double t, double slope, double q, 
 }
 
 Grid chooseMuskingumGrid(double k_s, double x, double dt, const GridLimits& limits) {
-  requirePositive("muskingum_k", k_s);
-  requirePositive("dt", dt);
-  if (!(x >= 0 && x <= 0.5)) throw InvalidParameter("muskingum_x", "must lie in [0, 0.5]");
+  REACHWISE_ASSERT(positive(k_s) && positive(dt) && x >= 0 && x <= 0.5);
   // r = Δt_sub / (2 K_sub) = Δt m / (2 K k) must lie in [X, 1 − X].
   Grid best;
   double best_score = std::numeric_limits<double>::infinity();

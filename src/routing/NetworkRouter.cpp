@@ -74,6 +74,8 @@ public:
     collectNodes();
     results_.peak_live_series = peak_live_;
     summariseWarnings();
+    results_.volume = networkVolumeBalance(plan_, results_);
+    results_.cell_updates = cellUpdates(results_);
     return std::move(results_);
   }
 

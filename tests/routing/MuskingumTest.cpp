@@ -43,6 +43,27 @@ TEST(MuskingumCunge, CungeKAndX) {
   EXPECT_NEAR(p.coefficients.lateral * dx, m.lateral * dx, 1e-9);
 }
 
+// Cunge's (1969) matching condition: with X = (1 − D)/2 the scheme's
+// numerical diffusivity c Δx (1/2 − X) equals the hydraulic diffusivity of
+// the diffusion wave, ν = Q / (2 T S0) (Hayami 1951; Ponce 1989, ch. 9), and
+// D = 1 where Δx is the diffusion length. The factored form agrees with the
+// quotient to round-off, 1/(T c) and 1/(S0 Δx) formed here.
+TEST(MuskingumCunge, CellDiffusionRatioMatchesHydraulicDiffusivity) {
+  std::mt19937 rng(1969);
+  std::uniform_real_distribution<double> u(0, 1);
+  for (int i = 0; i < 1000; ++i) {
+    const double q = 0.01 + 5000 * u(rng), t = 1 + 300 * u(rng), s = 1e-5 + 0.03 * u(rng);
+    const double c = 0.1 + 5 * u(rng), dx = 10 + 20000 * u(rng);
+    const double d = cellDiffusionRatio(q, t, s, c, dx);
+    const double x = 0.5 * (1 - d);
+    const double nu = q / (2 * t * s);
+    EXPECT_NEAR(c * dx * (0.5 - x) / nu, 1.0, 1e-12) << i;
+    EXPECT_NEAR(cellDiffusionRatio(q, t, s, c, diffusionLength(q, t, s, c)), 1.0, 1e-15) << i;
+    const double factored = cellDiffusionRatioFactored(q, 1.0 / (t * c), 1.0 / (s * dx));
+    EXPECT_NEAR(factored / d, 1.0, 1e-15) << i;
+  }
+}
+
 TEST(MuskingumCunge, NegativeXIsClampedAndFlagged) {
   const CungeParameters p = cungeParameters(1.0, 10, 0.0001, 100, 500, 600);
   EXPECT_TRUE(p.x_clamped);
@@ -97,14 +118,13 @@ TEST(MuskingumCunge, ConvergenceRatiosExactCase) {
   EXPECT_LT(std::abs(fine.phase - 1), std::abs(coarse.phase - 1));
 }
 
-TEST(Muskingum, BadParametersNameTheQuantity) {
-  try {
-    muskingumCoefficients(3600, 0.7, 600);
-    FAIL();
-  } catch (const InvalidParameter& e) {
-    EXPECT_EQ(e.quantity(), "muskingum_x");
-  }
-  EXPECT_THROW(muskingumCoefficients(-1, 0.2, 600), InvalidParameter);
-  EXPECT_THROW(cungeParameters(1, 10, 0.0, 5, 100, 60), InvalidParameter);
-  EXPECT_THROW(cungeParameters(1, 10, 0.001, std::nan(""), 100, 60), InvalidParameter);
+// The coefficient and grid functions are kernels: bad arguments are a bug in
+// the caller (the router names bad user input, ReachRouterTest).
+TEST(Muskingum, ViolatedPreconditionsAreInternalErrors) {
+  EXPECT_THROW(muskingumCoefficients(3600, 0.7, 600), InternalError);
+  EXPECT_THROW(muskingumCoefficients(-1, 0.2, 600), InternalError);
+  EXPECT_THROW(chooseMuskingumGrid(3600, 0.2, 0), InternalError);
+  EXPECT_THROW(cungeParameters(1, 10, 0.0, 5, 100, 60), InternalError);
+  EXPECT_THROW(cungeParameters(1, 10, 0.001, std::nan(""), 100, 60), InternalError);
+  EXPECT_THROW(chooseCungeGrid(1000, 1, 10, 0.001, -5, 60), InternalError);
 }

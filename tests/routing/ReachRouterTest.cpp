@@ -283,9 +283,9 @@ TEST(ReachRouter, BadInputNamesTheQuantity) {
   ReachRouter router;
   std::vector<double> out;
   const ReachSpec reach{Section::rectangle(8, 0.04, 0.002), 5000};
-  auto quantity = [&](std::vector<double> in, double dt, ReachSpec r) {
+  auto quantity = [&](std::vector<double> in, double dt, ReachSpec r, RouteOptions o = {}) {
     try {
-      router.route(r, in, {}, dt, RouteOptions{}, out);
+      router.route(r, in, {}, dt, o, out);
     } catch (const InvalidParameter& e) {
       return e.quantity();
     }
@@ -297,7 +297,14 @@ TEST(ReachRouter, BadInputNamesTheQuantity) {
   EXPECT_EQ(quantity({1, 2, 3}, 60, ReachSpec{reach.section, -5}), "length");
   RouteOptions musk;
   musk.method = Method::Muskingum;
-  EXPECT_THROW(router.route(reach, std::vector<double>{1, 2}, {}, 60, musk, out), InvalidParameter);
+  EXPECT_EQ(quantity({1, 2}, 60, reach, musk), "muskingum_k_h");  // K not given
+  EXPECT_EQ(quantity({1, 2}, 60, ReachSpec{reach.section, 5000, 3600, 0.7}, musk), "muskingum_x");
+  for (Method m : {Method::ConstantParameter, Method::VariableParameter}) {
+    RouteOptions o;
+    o.method = m;
+    o.reference_q_m3s = -1;
+    EXPECT_EQ(quantity({1, 2, 3}, 60, reach, o), "discharge");
+  }
 }
 
 TEST(Peak, ParabolicInterpolationRecoversVertex) {

@@ -7,6 +7,9 @@
 /// (1988) *Applied Hydrology*, §8.4. Muskingum–Cunge: Cunge (1969), *J.
 /// Hydraulic Research* 7(2), 205–230; Ponce (1989) *Engineering Hydrology*,
 /// ch. 9. See docs/methods.md.
+///
+/// These are kernels: their arguments are checked once by the router, and a
+/// violated precondition throws InternalError (REACHWISE_ASSERT).
 
 #include <cstdint>
 
@@ -24,11 +27,41 @@ struct Coefficients {
 /// Muskingum coefficients for storage constant K (s), weight X and step Δt (s):
 ///   den = K(1 − X) + Δt/2, C1 = (Δt/2 − K X)/den, C2 = (Δt/2 + K X)/den,
 ///   C3 = (K(1 − X) − Δt/2)/den, lateral = Δt/den.
-/// Throws InvalidParameter for K <= 0, X outside [0, 0.5], Δt <= 0.
+/// Preconditions: K and Δt finite and > 0, X in [0, 0.5].
 Coefficients muskingumCoefficients(double k_s, double x, double dt_s);
 
+/// Cell diffusion ratio (the cell Reynolds number) of Muskingum–Cunge,
+///   D = Q / (T S0 c Δx):
+/// the channel's hydraulic diffusivity ν = Q/(2 T S0) over c Δx / 2, so that
+/// X = (1 − D)/2 makes the scheme's numerical diffusion c Δx (1/2 − X) equal
+/// to ν (Cunge 1969; Ponce 1989, ch. 9). The one place the quotient is written.
+inline double cellDiffusionRatio(double q_m3s, double top_width_m, double bed_slope,
+                                 double celerity_ms, double dx_m) {
+  return q_m3s / (top_width_m * bed_slope * celerity_ms * dx_m);
+}
+
+/// The diffusion length ℓ = Q / (T S0 c) (m): the Δx at which D = 1, i.e.
+/// D Δx. Evaluated as D at Δx = 1 m (a factor 1 rounds nothing).
+inline double diffusionLength(double q_m3s, double top_width_m, double bed_slope,
+                              double celerity_ms) {
+  return cellDiffusionRatio(q_m3s, top_width_m, bed_slope, celerity_ms, 1.0);
+}
+
+/// D in the factored form the variable-parameter cell uses: 1/(T c) as the
+/// rating table keeps it, times Q/(S0 Δx) with 1/(S0 Δx) formed once per
+/// reach, so the cell has no division. The same quantity as
+/// cellDiffusionRatio, rounded differently (a few units in the last place
+/// apart, MuskingumTest), so the two forms are not interchangeable where
+/// results must stay bit for bit.
+inline double cellDiffusionRatioFactored(double q_m3s, double inv_width_celerity,
+                                         double inv_slope_dx) {
+  return inv_width_celerity * (q_m3s * inv_slope_dx);
+}
+
 /// Cunge's parameters for one sub-reach at reference flow Q (Cunge 1969):
-///   K = Δx / c,  X = (1 − D)/2,  C = c Δt / Δx,  D = Q / (T S0 c Δx).
+///   K = Δx / c,  X = (1 − D)/2,  C = c Δt / Δx,  D = cellDiffusionRatio.
+/// D > 1 is taken as 1 (X = 0). Preconditions: c, T, S0, Δx, Δt finite and
+/// > 0; Q finite and >= 0.
 struct CungeParameters {
   double k_s = 0, x = 0, courant = 0, cell_reynolds = 0;
   bool x_clamped = false;  ///< D > 1 gave X < 0; X was raised to 0 (D taken as 1)
@@ -64,13 +97,15 @@ struct GridLimits {
 /// Takes the fewest sub-steps for which such a Δx = L/m exists, and within
 /// that the m that puts the Courant number closest to 1 (where the scheme
 /// is exact for a pure translation). A reach shorter than ℓ gets m = 1 and
-/// X = 0, with enough sub-steps that C <= 2.
+/// X = 0, with enough sub-steps that C <= 2. Preconditions as for
+/// cungeParameters (with L in place of Δx).
 Grid chooseCungeGrid(double length_m, double celerity_ms, double top_width_m, double bed_slope,
                      double q_ref_m3s, double dt_s, const GridLimits& limits = {});
 
 /// Muskingum grid for given K and X: splits the reach into m sub-reaches of
 /// K/m and the step into k sub-steps so that 2 (K/m) X <= Δt/k <= 2 (K/m)(1 − X)
 /// (the no-negative-coefficient band; common practice, no source).
+/// Preconditions as for muskingumCoefficients.
 Grid chooseMuskingumGrid(double k_s, double x, double dt_s, const GridLimits& limits = {});
 
 /// Ponce's convergence ratios (Ponce 1989, §9; Ponce & Theurer 1982):

@@ -53,18 +53,21 @@ struct NetworkRouteOptions {
 /// Routes every reach of `plan` over `axis`. Each finished reach's outflow
 /// (with depth and velocity) goes to `sink` (may be null), one call at a
 /// time; its series is dropped once every downstream reach has used it.
+/// The results carry the network's volume balance and cell updates.
 /// Throws InputError naming the reach for a bad section or forcing.
 NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& axis,
                             const ForcingProvider& forcing, const NetworkRouteOptions& options,
                             SeriesSink* sink = nullptr);
 
-/// Volume balance of the whole network: `inflow_m3` is the point inflow
-/// (top inflow not coming from upstream reaches), `lateral_m3` the lateral
-/// inflow, `outflow_m3` what left through the outlets, `storage_change_m3`
-/// the sum over reaches.
+/// Volume balance of the whole network from its reaches' balances (what
+/// routeNetwork puts in NetworkResults::volume): `inflow_m3` is the point
+/// inflow (top inflow not coming from upstream reaches), `lateral_m3` the
+/// lateral inflow, `outflow_m3` what left through the outlets,
+/// `storage_change_m3` the sum over reaches.
 VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const NetworkResults& results);
 
-/// Cell updates of a whole run: sub-reaches × sub-steps × time steps,
+/// Cell updates of a whole run (what routeNetwork puts in
+/// NetworkResults::cell_updates): sub-reaches × sub-steps × time steps,
 /// summed over the reaches (the unit of the kernel speed figures).
 double cellUpdates(const NetworkResults& results);
 

@@ -97,6 +97,15 @@ struct NetworkResults {
   std::vector<NodeSummary> nodes;
   std::vector<std::string> warnings;   ///< summarised, one line each
   std::size_t peak_live_series = 0;    ///< most series held in memory at once
+  /// Volume balance of the whole network: `inflow_m3` the point inflow (top
+  /// inflow not coming from upstream reaches), `lateral_m3` the lateral
+  /// inflow, `outflow_m3` what left through the outlets, `storage_change_m3`
+  /// the sum over reaches (routing::networkVolumeBalance).
+  VolumeBalance volume;
+  /// Sub-reaches × sub-steps × time steps summed over the reaches: the cell
+  /// updates of the run, the unit of the kernel speed figures
+  /// (routing::cellUpdates).
+  double cell_updates = 0;
 };
 
 }  // namespace reachwise::routing
