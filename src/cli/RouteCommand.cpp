@@ -66,7 +66,7 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
     fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], s.attenuation_pct,
                hours(s.travel_time_s));
   }
-  const routing::VolumeBalance v = routing::networkVolumeBalance(plan, r);
+  const routing::VolumeBalance& v = r.volume;
   fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} %\n",
              v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
   fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
@@ -132,7 +132,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
                o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
-               s.routing_s, routing::cellUpdates(results) / std::max(s.routing_s, 1e-9) / 1e6, s.threads,
+               s.routing_s, results.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, s.threads,
                results.peak_live_series);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }

@@ -29,6 +29,31 @@ bool MemoryForcing::lateral(std::uint32_t reach, std::span<double> out) const {
 
 namespace {
 
+/// Volume balance of the whole network from its reaches' balances.
+VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const NetworkResults& results) {
+  VolumeBalance b;
+  for (std::uint32_t i = 0; i < plan.size(); ++i) {
+    const VolumeBalance& v = results.reaches[i].volume;
+    b.inflow_m3 += v.inflow_m3;  // less what arrived from upstream, below
+    b.lateral_m3 += v.lateral_m3;
+    b.storage_change_m3 += v.storage_change_m3;
+    if (plan.isOutlet(i)) b.outflow_m3 += v.outflow_m3;
+    else b.inflow_m3 -= v.outflow_m3;
+  }
+  const double entered = b.inflow_m3 + b.lateral_m3;
+  b.error_pct = entered > 0 ? 100.0 * (entered - b.outflow_m3 - b.storage_change_m3) / entered : 0.0;
+  return b;
+}
+
+/// Sub-reaches × sub-steps × time steps, summed over the reaches.
+double cellUpdates(const NetworkResults& results) {
+  const double steps = results.axis.steps > 1 ? static_cast<double>(results.axis.steps - 1) : 0.0;
+  double cells = 0;
+  for (const auto& s : results.reaches)
+    cells += static_cast<double>(s.numerics.subreaches) * s.numerics.substeps * steps;
+  return cells;
+}
+
 struct Workspace {
   ReachRouter router;
   std::vector<double> inflow, lateral, point, depth, velocity;
@@ -276,29 +301,6 @@ NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& ax
   REACHWISE_ASSERT(plan.down_offset.size() == plan.size() + 1);
   Scheduler scheduler(plan, axis, forcing, options, sink);
   return scheduler.run();
-}
-
-VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const NetworkResults& results) {
-  VolumeBalance b;
-  for (std::uint32_t i = 0; i < plan.size(); ++i) {
-    const VolumeBalance& v = results.reaches[i].volume;
-    b.inflow_m3 += v.inflow_m3;  // less what arrived from upstream, below
-    b.lateral_m3 += v.lateral_m3;
-    b.storage_change_m3 += v.storage_change_m3;
-    if (plan.isOutlet(i)) b.outflow_m3 += v.outflow_m3;
-    else b.inflow_m3 -= v.outflow_m3;
-  }
-  const double entered = b.inflow_m3 + b.lateral_m3;
-  b.error_pct = entered > 0 ? 100.0 * (entered - b.outflow_m3 - b.storage_change_m3) / entered : 0.0;
-  return b;
-}
-
-double cellUpdates(const NetworkResults& results) {
-  const double steps = results.axis.steps > 1 ? static_cast<double>(results.axis.steps - 1) : 0.0;
-  double cells = 0;
-  for (const auto& s : results.reaches)
-    cells += static_cast<double>(s.numerics.subreaches) * s.numerics.substeps * steps;
-  return cells;
 }
 
 }  // namespace reachwise::routing

@@ -59,16 +59,4 @@ NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& ax
                             const ForcingProvider& forcing, const NetworkRouteOptions& options,
                             SeriesSink* sink = nullptr);
 
-/// Volume balance of the whole network from its reaches' balances (what
-/// routeNetwork puts in NetworkResults::volume): `inflow_m3` is the point
-/// inflow (top inflow not coming from upstream reaches), `lateral_m3` the
-/// lateral inflow, `outflow_m3` what left through the outlets,
-/// `storage_change_m3` the sum over reaches.
-VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const NetworkResults& results);
-
-/// Cell updates of a whole run (what routeNetwork puts in
-/// NetworkResults::cell_updates): sub-reaches × sub-steps × time steps,
-/// summed over the reaches (the unit of the kernel speed figures).
-double cellUpdates(const NetworkResults& results);
-
 }  // namespace reachwise::routing

@@ -100,11 +100,10 @@ struct NetworkResults {
   /// Volume balance of the whole network: `inflow_m3` the point inflow (top
   /// inflow not coming from upstream reaches), `lateral_m3` the lateral
   /// inflow, `outflow_m3` what left through the outlets, `storage_change_m3`
-  /// the sum over reaches (routing::networkVolumeBalance).
+  /// the sum over reaches.
   VolumeBalance volume;
   /// Sub-reaches × sub-steps × time steps summed over the reaches: the cell
-  /// updates of the run, the unit of the kernel speed figures
-  /// (routing::cellUpdates).
+  /// updates of the run, the unit of the kernel speed figures.
   double cell_updates = 0;
 };
 
