@@ -163,6 +163,11 @@ void noteHolds(const RawForcing& file, ForcingKind kind, const routing::TimeAxis
 routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* lateral,
                                     const AxisRequest& request) {
   if (!inflow && !lateral) throw InvalidParameter("forcing", "neither an inflow nor a lateral file");
+  if (request.on_axis) {
+    if (request.dt_s || request.start_unix_s || request.end_unix_s)
+      throw InvalidParameter("time axis", "an axis given whole excludes a time step, start or end");
+    return *request.on_axis;
+  }
   const RawForcing& main = inflow ? *inflow : *lateral;
   InputLocation where;
   where.file = main.file;
@@ -195,7 +200,7 @@ Forcing buildForcing(const RawForcing* inflow, const RawForcing* lateral,
                      const AxisRequest& request) {
   Forcing out;
   out.axis = chooseForcingAxis(inflow, lateral, request);
-  const bool resampling = request.dt_s.has_value();
+  const bool resampling = request.dt_s || request.on_axis;
   for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
     const RawForcing* file = kind == ForcingKind::Inflow ? inflow : lateral;
     if (!file) continue;

@@ -1,5 +1,6 @@
 #include "support/Scratch.hpp"
 #include "reachwise/io/ForcingNetcdf.hpp"
+#include "reachwise/io/ForcingFiles.hpp"
 
 #include <netcdf.h>
 #include <unistd.h>
@@ -330,4 +331,33 @@ TEST_F(ForcingNetcdfTest, SinglePrecisionStoresFloatsAndReadsThemBack) {
       EXPECT_EQ(got[k], static_cast<double>(static_cast<float>(want[k]))) << id << " " << k;
   }
   EXPECT_FALSE(source.inflow("R9", got));
+}
+
+TEST_F(ForcingNetcdfTest, ACsvFileBesideIsResampledOntoTheNetcdfAxis) {
+  const Forcing f = sampleForcing(5);  // 48 half-hourly steps from 2026-05-01T00:00+02:00
+  const fs::path nc = dir_ / "lateral.nc";
+  writeForcingNetcdf(nc, f);
+  // Hourly inflow in UTC, the first sample at the NetCDF start (22:00Z).
+  const fs::path csv = dir_ / "inflow.csv";
+  std::ofstream(csv) << "time,R9\n2026-04-30T22:00Z,0\n2026-04-30T23:00Z,10\n2026-05-01T00:00Z,4\n";
+  const OpenedForcing opened = openForcing(csv, nc);
+  const routing::TimeAxis& axis = opened.source->axis();
+  EXPECT_EQ(axis.start_unix_s, f.axis.start_unix_s);
+  EXPECT_EQ(axis.dt_s, 1800.0);
+  EXPECT_EQ(axis.steps, 48u);
+  EXPECT_EQ(axis.utc_offset_min, 120);
+  std::vector<double> q;
+  ASSERT_TRUE(opened.source->inflow("R9", q));
+  // Hand-computed: halfway values 5 and 7 between the samples, then held at 4.
+  std::vector<double> expected(48, 4.0);
+  expected[0] = 0, expected[1] = 5, expected[2] = 10, expected[3] = 7;
+  EXPECT_EQ(q, expected);
+  ASSERT_EQ(opened.warnings.size(), 1u);
+  EXPECT_NE(opened.warnings[0].find("last value"), std::string::npos) << opened.warnings[0];
+  // Another axis asked for explicitly disagrees with the file's.
+  CsvForcingOptions other;
+  other.on_axis = f.axis;
+  other.on_axis->dt_s = 3600;
+  other.on_axis->steps = 24;
+  expectInputErrorNaming([&] { openForcing(csv, nc, other); }, nc, "another axis");
 }

@@ -12,6 +12,9 @@
 ///    samples (instantaneous values, as hydrographs are).
 ///  - start / end: given, else the earliest / latest time in either file.
 ///    end − start must be a whole number of steps.
+///  - or, instead of the three: an axis given whole (`on_axis`, the axis of
+///    other forcing of the run), onto which every series is resampled as
+///    with `dt_s`.
 ///  - a series is held at its first value before its first sample and at
 ///    its last value after its last one; each such hold is reported in
 ///    Forcing::warnings.
@@ -49,10 +52,17 @@ struct RawForcing {
 };
 
 /// What a caller asks of the run's axis; what is unset follows the data.
+/// Series are resampled only when `dt_s` or `on_axis` asks for it;
+/// otherwise their samples must lie on the axis.
 struct AxisRequest {
   std::optional<double> dt_s;                 ///< resample to this step, s
   std::optional<std::int64_t> start_unix_s;   ///< run start; default: earliest time in the data
   std::optional<std::int64_t> end_unix_s;     ///< run end (inclusive); default: latest time
+  /// Put the series on this axis: it is the run's axis as it is (start,
+  /// step, length and UTC offset, e.g. those of a NetCDF forcing file read
+  /// beside), and every series is resampled onto it as with `dt_s`.
+  /// Excludes `dt_s`, `start_unix_s` and `end_unix_s` (InvalidParameter).
+  std::optional<routing::TimeAxis> on_axis;
 };
 
 /// The run's axis for one or two files by the rule above. Either pointer
