@@ -44,8 +44,7 @@ double fileStep(const RawForcing& file, bool require) {
 double chooseStep(const RawForcing* inflow, const RawForcing* lateral,
                   const AxisRequest& request) {
   if (request.dt_s) {
-    if (!std::isfinite(*request.dt_s) || *request.dt_s <= 0)
-      throw InvalidParameter("dt", fmt::format("{} s is not a positive time step", *request.dt_s));
+    routing::TimeAxis::requireStep(*request.dt_s);
     return *request.dt_s;
   }
   const double none = std::numeric_limits<double>::quiet_NaN();
@@ -166,34 +165,37 @@ routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* 
   if (request.on_axis) {
     if (request.dt_s || request.start_unix_s || request.end_unix_s)
       throw InvalidParameter("time axis", "an axis given whole excludes a time step, start or end");
-    return *request.on_axis;
+    const routing::TimeAxis& a = *request.on_axis;
+    return routing::TimeAxis::make(a.start_unix_s, a.dt_s, a.steps, a.utc_offset_min);
   }
   const RawForcing& main = inflow ? *inflow : *lateral;
   InputLocation where;
   where.file = main.file;
-  routing::TimeAxis axis;
-  axis.dt_s = chooseStep(inflow, lateral, request);
-  axis.utc_offset_min = main.utc_offset_min;
+  const double dt = chooseStep(inflow, lateral, request);
+  const int offset = main.utc_offset_min;
   const Span data = dataSpan(inflow, lateral);
   const double start = request.start_unix_s ? static_cast<double>(*request.start_unix_s) : data.first;
   const double end = request.end_unix_s ? static_cast<double>(*request.end_unix_s) : data.last;
   if (start != std::floor(start))
     throw InputError(where, fmt::format("the run would start at {}, not on a whole second; give a start",
-                                        formatIsoTime(start, axis.utc_offset_min, 6)));
+                                        formatIsoTime(start, offset, 6)));
   if (end < start)
     throw InvalidParameter("end", fmt::format("the run end {} is before its start {}",
-                                              formatIsoTime(end, axis.utc_offset_min, 3),
-                                              formatIsoTime(start, axis.utc_offset_min, 3)));
-  const double intervals = std::round((end - start) / axis.dt_s);
-  if (std::abs(end - start - intervals * axis.dt_s) > kSameInstant_s)
+                                              formatIsoTime(end, offset, 3), formatIsoTime(start, offset, 3)));
+  const double intervals = std::round((end - start) / dt);
+  if (std::abs(end - start - intervals * dt) > kSameInstant_s)
     throw InputError(where, fmt::format("the run from {} to {} ({} s) is not a whole number of "
                                         "{} s steps; choose a time step that divides it",
-                                        formatIsoTime(start, axis.utc_offset_min, 3),
-                                        formatIsoTime(end, axis.utc_offset_min, 3), end - start,
-                                        axis.dt_s));
-  axis.start_unix_s = static_cast<std::int64_t>(start);
-  axis.steps = static_cast<std::size_t>(intervals) + 1;
-  return axis;
+                                        formatIsoTime(start, offset, 3), formatIsoTime(end, offset, 3),
+                                        end - start, dt));
+  try {
+    return routing::TimeAxis::make(static_cast<std::int64_t>(start), dt, static_cast<std::size_t>(intervals) + 1,
+                                   offset);
+  } catch (const InvalidParameter& e) {
+    // Times out of range come from the data unless the caller gave both ends.
+    if (request.start_unix_s && request.end_unix_s) throw;
+    throw InputError(where, e.what());
+  }
 }
 
 Forcing buildForcing(const RawForcing* inflow, const RawForcing* lateral,

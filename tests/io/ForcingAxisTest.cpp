@@ -85,3 +85,25 @@ TEST(ForcingAxis, AnAxisGivenWholeExcludesAStepStartOrEnd) {
   EXPECT_THROW(chooseForcingAxis(&inflow, nullptr, end), InvalidParameter);
   EXPECT_THROW(chooseForcingAxis(nullptr, nullptr, {}), InvalidParameter);
 }
+
+TEST(ForcingAxis, TimesOutsideWhatAnAxisMayCoverAreRefused) {
+  // Samples in 1600 (a typo for 2026, say): before the earliest axis time
+  // (TimeAxis::kEarliest_unix_s, 1678), an InputError naming the file.
+  RawForcing old;
+  old.file = "old samples";
+  const double t0 = static_cast<double>(testsupport::utcSeconds(1600, 5, 1, 0));
+  old.series["R1"] = RawSeries{{t0, t0 + 3600}, {1, 2}, {2, 3}};
+  try {
+    chooseForcingAxis(&old, nullptr, {});
+    ADD_FAILURE() << "an axis in 1600 was accepted";
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.where().file, "old samples") << e.what();
+  }
+  // A start and end both given by the caller are the caller's to fix.
+  const RawForcing inflow = hourlySamples();
+  AxisRequest window;
+  window.start_unix_s = testsupport::utcSeconds(1600, 5, 1, 0);
+  window.end_unix_s = testsupport::utcSeconds(2026, 5, 1, 2);
+  window.dt_s = 3600;
+  EXPECT_THROW(chooseForcingAxis(&inflow, nullptr, window), InvalidParameter);
+}

@@ -6,6 +6,7 @@
 #include <unistd.h>
 
 #include <fstream>
+#include <optional>
 #include <random>
 #include <thread>
 
@@ -68,6 +69,7 @@ struct HandFile {
   std::vector<std::string> ids{"A", "B"};
   std::vector<float> values{1, 2, 3, 4, 10, 20, 30, 40};   // (reach, time)
   bool with_units = true;
+  std::optional<double> utc_offset_minutes;   ///< on `time`, when set
 };
 
 void writeHand(const fs::path& p, const HandFile& h) {
@@ -79,6 +81,7 @@ void writeHand(const fs::path& p, const HandFile& h) {
   nc_def_var(nc, "time", NC_DOUBLE, 1, &dt, &vt);
   nc_put_att_text(nc, vt, "units", h.time_units.size(), h.time_units.c_str());
   nc_put_att_text(nc, vt, "calendar", h.calendar.size(), h.calendar.c_str());
+  if (h.utc_offset_minutes) nc_put_att_double(nc, vt, "utc_offset_minutes", NC_DOUBLE, 1, &*h.utc_offset_minutes);
   const int id_dims[2] = {dr, ds};
   nc_def_var(nc, "reach_id", NC_CHAR, 2, id_dims, &vid);
   const int q_dims[2] = {dr, dt};
@@ -252,6 +255,10 @@ TEST_F(ForcingNetcdfTest, BadFilesNameTheFile) {
   variant([](HandFile& h) { h.calendar = "noleap"; }, "calendar");
   variant([](HandFile& h) { h.time_units = "fortnights since 2026-05-01"; }, "time unit");
   variant([](HandFile& h) { h.time_units = "hours since 2026-13-01"; }, "month 13");
+  // Times outside what an axis may cover (1678-2261), an offset beyond ±18:00.
+  variant([](HandFile& h) { h.time_units = "hours since 1500-05-01"; }, "start: ");
+  variant([](HandFile& h) { h.time_units = "days since 2261-12-30"; }, "end: ");
+  variant([](HandFile& h) { h.utc_offset_minutes = 19 * 60; }, "±18:00");
   variant([](HandFile& h) { h.ids = {"A", "A"}; }, "twice");
   variant([](HandFile& h) { h.values[5] = -9999.0f; }, "missing value");
   variant([](HandFile& h) { h.values[2] = -1.0f; }, "not finite and >= 0");
