@@ -10,6 +10,7 @@
 #include <filesystem>
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "Common.hpp"
 #include "Progress.hpp"
@@ -27,7 +28,7 @@ namespace fs = std::filesystem;
 struct RouteOptions {
   std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report;
   std::string hydrographs = "auto";
-  double dt_s = 0;
+  std::optional<double> dt_s;   ///< unset: the forcing's own step
   unsigned threads = 0;
   bool write_back = false, overwrite = false, quiet = false, demo = false;
   std::string command_line;
@@ -94,7 +95,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.network = {o.network, o.layer, o.config};
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
-  if (o.dt_s > 0) r.forcing.dt_s = o.dt_s;
+  r.forcing.dt_s = o.dt_s;
   r.method = *run::methodFromName(o.method);  // CLI11 and the run file admit only the three names
   r.threads = o.threads;
   r.command_line = o.command_line;

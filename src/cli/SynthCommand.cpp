@@ -28,12 +28,7 @@ double secondsSince(Clock::time_point t0) {
 routing::TimeAxis axisOf(const SynthOptions& o) {
   const io::IsoTime start = io::parseIsoTime(o.start);
   if (start.fraction_s != 0) throw InvalidParameter("start", "must be on a whole second");
-  routing::TimeAxis axis;
-  axis.start_unix_s = start.unix_s;
-  axis.dt_s = o.dt_s;
-  axis.steps = o.steps;
-  axis.utc_offset_min = start.utc_offset_min;
-  return axis;
+  return routing::TimeAxis::make(start.unix_s, o.dt_s, o.steps, start.utc_offset_min);
 }
 
 int synth(const SynthOptions& o, std::ostream& out) {

@@ -80,6 +80,10 @@ void requireCompatible(const fs::path& file, const routing::TimeAxis& axis, cons
     throw fileError(file, fmt::format("NetCDF forcing sets the run's time axis ({}); a different "
                                       "start or end cannot be asked for",
                                       describe(axis)));
+  if (o.on_axis && !sameAxis(*o.on_axis, axis))
+    throw fileError(file, fmt::format("NetCDF forcing sets the run's time axis ({}); another axis ({}) "
+                                      "cannot be asked for",
+                                      describe(axis), describe(*o.on_axis)));
 }
 
 }  // namespace
@@ -117,15 +121,13 @@ OpenedForcing openForcing(const std::optional<fs::path>& inflow, const std::opti
     throw fileError(*lateral, fmt::format("its time axis ({}) differs from the inflow file's ({})",
                                           describe(lat_src->axis()), describe(axis)));
 
-  // A CSV file beside a NetCDF one is put on the NetCDF axis.
-  CsvForcingOptions on_axis = options;
-  on_axis.dt_s = axis.dt_s;
-  on_axis.start_unix_s = axis.start_unix_s;
-  on_axis.end_unix_s = axis.start_unix_s + static_cast<std::int64_t>(axis.duration_s());
+  // A CSV file beside a NetCDF one is resampled onto the NetCDF axis.
+  CsvForcingOptions beside;
+  beside.unit = options.unit;
+  beside.on_axis = axis;
   auto readCsv = [&](const fs::path& path, bool as_inflow) {
-    Forcing f = as_inflow ? readForcingCsv(path, std::nullopt, on_axis)
-                          : readForcingCsv(std::nullopt, path, on_axis);
-    f.axis.utc_offset_min = axis.utc_offset_min;
+    Forcing f = as_inflow ? readForcingCsv(path, std::nullopt, beside)
+                          : readForcingCsv(std::nullopt, path, beside);
     for (auto& w : f.warnings) opened.warnings.push_back(w);
     return std::make_unique<MemoryForcingSource>(std::move(f));
   };

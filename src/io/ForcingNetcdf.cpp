@@ -221,11 +221,17 @@ void NetcdfForcingSource::readAxis() {
   const double start = std::round(seconds(0));
   if (std::abs(start - seconds(0)) > kTolerance_s)
     throw InputError(where, "the first time is not on a whole second");
-  axis_.start_unix_s = static_cast<std::int64_t>(start);
-  axis_.dt_s = std::abs(dt - std::round(dt)) <= kTolerance_s ? std::round(dt) : dt;
-  axis_.steps = steps;
-  if (const auto offset = numberAttribute(ncid_, var, "utc_offset_minutes"))
-    axis_.utc_offset_min = static_cast<int>(*offset);
+  const double offset = numberAttribute(ncid_, var, "utc_offset_minutes").value_or(0.0);
+  try {
+    // Checked before they are made integers; the axis checks the rest.
+    routing::TimeAxis::requireInRange("start", start);
+    routing::TimeAxis::requireUtcOffset(offset);
+    axis_ = routing::TimeAxis::make(static_cast<std::int64_t>(start),
+                                    std::abs(dt - std::round(dt)) <= kTolerance_s ? std::round(dt) : dt, steps,
+                                    static_cast<int>(offset));
+  } catch (const InvalidParameter& e) {
+    throw InputError(where, e.what());
+  }
 }
 
 void NetcdfForcingSource::readIds() {

@@ -94,3 +94,24 @@ TEST(RouteOptions, ErrorsGiveExitCodesAndOneLinePerProblem) {
   EXPECT_NE(again.err.find("overwriting"), std::string::npos) << again.err;
 }
 
+
+TEST(RouteOptions, TheTimeStepComesFromTheFlagOrTheRunFileOrTheForcing) {
+  const testsupport::TempDir tmp;
+  // "routed N reaches over S steps": S for each way of giving the step.
+  const auto steps = [&](const std::string& args) {
+    const Outcome r = run("route " + kNetwork + " --out " + tmp.file("o.gpkg") + " --overwrite" + args);
+    EXPECT_EQ(r.code, 0) << r.err;
+    const auto at = r.out.find(" steps (");
+    const auto from = r.out.rfind(' ', at - 1);
+    return at == std::string::npos ? std::string() : r.out.substr(from + 1, at - from - 1);
+  };
+  const std::string own = steps(kStorm);  // the sample forcing is half-hourly
+  ASSERT_FALSE(own.empty());
+  // Halving the step over the same span: 2 (S - 1) + 1 samples.
+  const std::string halved = std::to_string(2 * (std::stoul(own) - 1) + 1);
+  EXPECT_EQ(steps(kStorm + " --dt 900"), halved);
+  writeText(tmp.path() / "run.toml", "[route]\ndt = 900\n");
+  EXPECT_EQ(steps(kStorm + " --config " + tmp.file("run.toml")), halved);
+  EXPECT_EQ(steps(kStorm + " --config " + tmp.file("run.toml") + " --dt 1800"), own);  // the flag wins
+  EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("z.gpkg") + " --dt 0").code, 2);
+}

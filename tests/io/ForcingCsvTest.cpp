@@ -1,5 +1,6 @@
 #include "support/Scratch.hpp"
 #include "reachwise/io/ForcingCsv.hpp"
+#include "reachwise/io/CsvRecords.hpp"
 
 #include <ctime>
 #include <fstream>

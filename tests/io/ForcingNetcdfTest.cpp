@@ -1,10 +1,12 @@
 #include "support/Scratch.hpp"
 #include "reachwise/io/ForcingNetcdf.hpp"
+#include "reachwise/io/ForcingFiles.hpp"
 
 #include <netcdf.h>
 #include <unistd.h>
 
 #include <fstream>
+#include <optional>
 #include <random>
 #include <thread>
 
@@ -67,6 +69,7 @@ struct HandFile {
   std::vector<std::string> ids{"A", "B"};
   std::vector<float> values{1, 2, 3, 4, 10, 20, 30, 40};   // (reach, time)
   bool with_units = true;
+  std::optional<double> utc_offset_minutes;   ///< on `time`, when set
 };
 
 void writeHand(const fs::path& p, const HandFile& h) {
@@ -78,6 +81,7 @@ void writeHand(const fs::path& p, const HandFile& h) {
   nc_def_var(nc, "time", NC_DOUBLE, 1, &dt, &vt);
   nc_put_att_text(nc, vt, "units", h.time_units.size(), h.time_units.c_str());
   nc_put_att_text(nc, vt, "calendar", h.calendar.size(), h.calendar.c_str());
+  if (h.utc_offset_minutes) nc_put_att_double(nc, vt, "utc_offset_minutes", NC_DOUBLE, 1, &*h.utc_offset_minutes);
   const int id_dims[2] = {dr, ds};
   nc_def_var(nc, "reach_id", NC_CHAR, 2, id_dims, &vid);
   const int q_dims[2] = {dr, dt};
@@ -251,6 +255,10 @@ TEST_F(ForcingNetcdfTest, BadFilesNameTheFile) {
   variant([](HandFile& h) { h.calendar = "noleap"; }, "calendar");
   variant([](HandFile& h) { h.time_units = "fortnights since 2026-05-01"; }, "time unit");
   variant([](HandFile& h) { h.time_units = "hours since 2026-13-01"; }, "month 13");
+  // Times outside what an axis may cover (1678-2261), an offset beyond ±18:00.
+  variant([](HandFile& h) { h.time_units = "hours since 1500-05-01"; }, "start: ");
+  variant([](HandFile& h) { h.time_units = "days since 2261-12-30"; }, "end: ");
+  variant([](HandFile& h) { h.utc_offset_minutes = 19 * 60; }, "±18:00");
   variant([](HandFile& h) { h.ids = {"A", "A"}; }, "twice");
   variant([](HandFile& h) { h.values[5] = -9999.0f; }, "missing value");
   variant([](HandFile& h) { h.values[2] = -1.0f; }, "not finite and >= 0");
@@ -330,4 +338,33 @@ TEST_F(ForcingNetcdfTest, SinglePrecisionStoresFloatsAndReadsThemBack) {
       EXPECT_EQ(got[k], static_cast<double>(static_cast<float>(want[k]))) << id << " " << k;
   }
   EXPECT_FALSE(source.inflow("R9", got));
+}
+
+TEST_F(ForcingNetcdfTest, ACsvFileBesideIsResampledOntoTheNetcdfAxis) {
+  const Forcing f = sampleForcing(5);  // 48 half-hourly steps from 2026-05-01T00:00+02:00
+  const fs::path nc = dir_ / "lateral.nc";
+  writeForcingNetcdf(nc, f);
+  // Hourly inflow in UTC, the first sample at the NetCDF start (22:00Z).
+  const fs::path csv = dir_ / "inflow.csv";
+  std::ofstream(csv) << "time,R9\n2026-04-30T22:00Z,0\n2026-04-30T23:00Z,10\n2026-05-01T00:00Z,4\n";
+  const OpenedForcing opened = openForcing(csv, nc);
+  const routing::TimeAxis& axis = opened.source->axis();
+  EXPECT_EQ(axis.start_unix_s, f.axis.start_unix_s);
+  EXPECT_EQ(axis.dt_s, 1800.0);
+  EXPECT_EQ(axis.steps, 48u);
+  EXPECT_EQ(axis.utc_offset_min, 120);
+  std::vector<double> q;
+  ASSERT_TRUE(opened.source->inflow("R9", q));
+  // Hand-computed: halfway values 5 and 7 between the samples, then held at 4.
+  std::vector<double> expected(48, 4.0);
+  expected[0] = 0, expected[1] = 5, expected[2] = 10, expected[3] = 7;
+  EXPECT_EQ(q, expected);
+  ASSERT_EQ(opened.warnings.size(), 1u);
+  EXPECT_NE(opened.warnings[0].find("last value"), std::string::npos) << opened.warnings[0];
+  // Another axis asked for explicitly disagrees with the file's.
+  CsvForcingOptions other;
+  other.on_axis = f.axis;
+  other.on_axis->dt_s = 3600;
+  other.on_axis->steps = 24;
+  expectInputErrorNaming([&] { openForcing(csv, nc, other); }, nc, "another axis");
 }

@@ -209,6 +209,7 @@ TEST(SyntheticStorm, TheStormCrossesFromWestToEast) {
   const auto net = make(4000, 12);
   reachwise::routing::TimeAxis axis;
   axis.steps = 721;
+  axis.dt_s = 3600;
   SyntheticStorm storm;
   std::vector<double> q(axis.steps);
   const double west = net.min_x_m + 0.1 * (net.max_x_m - net.min_x_m);
@@ -230,6 +231,7 @@ TEST(SyntheticStorm, InflowAtTheFarthestHeadwaterOfEachBasin) {
   const auto net = make(2000, 3, 2);
   reachwise::routing::TimeAxis axis;
   axis.steps = 48;
+  axis.dt_s = 3600;
   const auto inflows = syntheticInflow(net, SyntheticStorm{}, axis);
   ASSERT_EQ(inflows.size(), 2u);
   // Independent search: the headwater with the longest path to each outlet.

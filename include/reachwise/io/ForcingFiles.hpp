@@ -26,9 +26,10 @@ struct OpenedForcing {
 
 /// Opens the forcing. At least one path must be given. A NetCDF file named
 /// for a kind must hold that kind's variable. When NetCDF is involved its
-/// time axis is the run's: CSV files are put on it, and a `dt_s`, start or
-/// end that disagrees with it is an InputError naming the file (NetCDF
-/// forcing is not resampled). Two NetCDF files must share one axis.
+/// time axis is the run's: CSV files are resampled onto it (as with
+/// `on_axis`), and a `dt_s`, start, end or `on_axis` that disagrees with it
+/// is an InputError naming the file (NetCDF forcing is not resampled). Two
+/// NetCDF files must share one axis.
 OpenedForcing openForcing(const std::optional<std::filesystem::path>& inflow,
                           const std::optional<std::filesystem::path>& lateral,
                           const CsvForcingOptions& options = {});

@@ -1,0 +1,77 @@
+#pragma once
+/// \file
+/// Forcing samples as read, put on the run's time axis: what every forcing
+/// format shares once its samples are read (docs/formats.md, "The run's
+/// time axis").
+///
+/// The rule:
+///  - step: `dt_s` if given, else the inflow file's own step (else the
+///    lateral file's). Without `dt_s`, every reach of a file must be on one
+///    uniform step and both files on the same step and grid; with `dt_s`,
+///    every series is resampled to it by linear interpolation between its
+///    samples (instantaneous values, as hydrographs are).
+///  - start / end: given, else the earliest / latest time in either file.
+///    end − start must be a whole number of steps.
+///  - or, instead of the three: an axis given whole (`on_axis`, the axis of
+///    other forcing of the run), onto which every series is resampled as
+///    with `dt_s`.
+///  - a series is held at its first value before its first sample and at
+///    its last value after its last one; each such hold is reported in
+///    Forcing::warnings.
+/// Any violation is an InputError naming the file and, where one exists,
+/// the line.
+
+#include <cstdint>
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "reachwise/io/Forcing.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::io {
+
+/// Times of forcing samples closer than this are the same instant, s
+/// (fractional seconds are carried as doubles).
+inline constexpr double kSameInstant_s = 1e-6;
+
+/// The samples of one reach as read, before they are put on the axis.
+struct RawSeries {
+  std::vector<double> t_s;            ///< seconds since the epoch, strictly increasing
+  std::vector<double> q_m3s;          ///< already converted to m^3/s
+  std::vector<std::int64_t> line;     ///< line of each sample, for messages
+};
+
+/// The samples of one forcing file, per reach, as read and checked (times
+/// ordered per reach, discharges finite and >= 0), whatever its format.
+struct RawForcing {
+  std::string file;                   ///< names the source in messages
+  std::map<std::string, RawSeries, std::less<>> series;   ///< every series has a sample
+  int utc_offset_min = 0;             ///< offset of the first time stamp in the file
+};
+
+/// What a caller asks of the run's axis; what is unset follows the data.
+/// Series are resampled only when `dt_s` or `on_axis` asks for it;
+/// otherwise their samples must lie on the axis.
+struct AxisRequest {
+  std::optional<double> dt_s;                 ///< resample to this step, s
+  std::optional<std::int64_t> start_unix_s;   ///< run start; default: earliest time in the data
+  std::optional<std::int64_t> end_unix_s;     ///< run end (inclusive); default: latest time
+  /// Put the series on this axis: it is the run's axis as it is (start,
+  /// step, length and UTC offset, e.g. those of a NetCDF forcing file read
+  /// beside), and every series is resampled onto it as with `dt_s`.
+  /// Excludes `dt_s`, `start_unix_s` and `end_unix_s` (InvalidParameter).
+  std::optional<routing::TimeAxis> on_axis;
+};
+
+/// The run's axis for one or two files by the rule above. Either pointer
+/// may be null, not both.
+routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* lateral,
+                                    const AxisRequest& request);
+
+/// Puts one or two files on the run's axis (chooseForcingAxis) and notes
+/// every hold in Forcing::warnings. Either pointer may be null, not both.
+Forcing buildForcing(const RawForcing* inflow, const RawForcing* lateral, const AxisRequest& request);
+
+}  // namespace reachwise::io
