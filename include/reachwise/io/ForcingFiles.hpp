@@ -1,7 +1,8 @@
 #pragma once
 /// \file
-/// Opening the forcing of a run from the files a user names: `--inflow`
-/// and `--lateral` may each be CSV (read whole, resampled to `--dt`) or
+/// Opening the forcing of a run from the files a user names: the inflow
+/// and lateral files may each be CSV (read whole, resampled when a step is
+/// asked for) or
 /// CF-NetCDF (read reach by reach as routing asks). The file kind is known
 /// from its first bytes, not its name.
 
