@@ -7,13 +7,12 @@
 #include <cmath>
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "Common.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
-#include "reachwise/io/SyntheticWriter.hpp"
-#include "reachwise/io/OutputFiles.hpp"
-#include "reachwise/version.hpp"
+#include "reachwise/run/Synthetic.hpp"
 
 namespace reachwise::cli {
 
@@ -32,44 +31,42 @@ routing::TimeAxis axisOf(const SynthOptions& o) {
 }
 
 int synth(const SynthOptions& o, std::ostream& out) {
-  routing::TimeAxis axis;
-  network::SyntheticNetwork net;
+  std::optional<run::SyntheticCase> made;
   try {
-    axis = axisOf(o);
-    // Every output is refused before any is written.
-    io::refuseExisting(o.out, o.overwrite);
-    if (!o.lateral.empty()) io::refuseExisting(o.lateral, o.overwrite);
-    if (!o.inflow.empty()) io::refuseExisting(o.inflow, o.overwrite);
-    auto t0 = Clock::now();
-    net = network::generateSyntheticNetwork({o.reaches, o.outlets, o.seed});
+    run::SyntheticRequest r;
+    r.gpkg = o.out;
+    r.reaches = o.reaches;
+    r.outlets = o.outlets;
+    r.seed = o.seed;
+    r.axis = axisOf(o);
+    r.lateral_nc = o.lateral;
+    r.inflow_csv = o.inflow;
+    r.overwrite = o.overwrite;
+    r.history = fmt::format("reachwise synth --reaches {} --seed {} --steps {} --dt {}", o.reaches, o.seed,
+                            o.steps, o.dt_s);
+    const auto t0 = Clock::now();
+    made.emplace(std::move(r));
     if (!o.quiet)
-      fmt::print(out, "generated      {} reaches, {} outlet{} in {:.2f} s\n", net.size(), o.outlets,
+      fmt::print(out, "generated      {} reaches, {} outlet{} in {:.2f} s\n", made->network().size(), o.outlets,
                  o.outlets == 1 ? "" : "s", secondsSince(t0));
   } catch (const InvalidParameter& e) {
     fmt::print(std::cerr, "usage error: {}\n", e.what());
     return kExitUsage;
   }
+  const run::SyntheticCase& c = *made;
   auto t0 = Clock::now();
-  io::writeSyntheticGpkg(o.out, net, {"reaches", 32633, o.overwrite});
+  c.writeNetwork();
   if (!o.quiet) fmt::print(out, "wrote          {} (layer reaches) in {:.2f} s\n", o.out, secondsSince(t0));
-  network::SyntheticStorm storm;
-  storm.seed = o.seed;
-  io::ForcingNetcdfOptions nc;
-  nc.title = "reachwise synthetic lateral inflow";
-  nc.source = std::string("reachwise ") + kVersion + " (" + kGitHash + ")";
-  nc.history = fmt::format("reachwise synth --reaches {} --seed {} --steps {} --dt {}", o.reaches,
-                           o.seed, o.steps, o.dt_s);
-  nc.single_precision = true;  // 7 digits are ample for a made-up storm; half the bytes to read
   if (!o.lateral.empty()) {
     t0 = Clock::now();
-    io::writeSyntheticLateralNetcdf(o.lateral, net, storm, axis, o.overwrite, nc);
+    c.writeLateral();
     if (!o.quiet)
-      fmt::print(out, "wrote          {} ({} reaches x {} steps) in {:.2f} s\n", o.lateral, net.size(),
-                 axis.steps, secondsSince(t0));
+      fmt::print(out, "wrote          {} ({} reaches x {} steps) in {:.2f} s\n", o.lateral, c.network().size(),
+                 o.steps, secondsSince(t0));
   }
   if (!o.inflow.empty()) {
     t0 = Clock::now();
-    io::writeSyntheticInflowCsv(o.inflow, net, storm, axis, o.overwrite);
+    c.writeInflow();
     if (!o.quiet) fmt::print(out, "wrote          {} in {:.2f} s\n", o.inflow, secondsSince(t0));
   }
   return kExitOk;

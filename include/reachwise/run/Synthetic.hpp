@@ -1,0 +1,53 @@
+#pragma once
+/// \file
+/// A synthetic case for tests and benchmarks at any size: a random river
+/// network (GeoPackage), a storm train as lateral inflow (CF-NetCDF) and
+/// inflow at each basin's farthest headwater (CSV). docs/formats.md,
+/// "Synthetic networks".
+
+#include <cstddef>
+#include <cstdint>
+#include <string>
+
+#include "reachwise/network/SyntheticNetwork.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
+
+namespace reachwise::run {
+
+struct SyntheticRequest {
+  std::string gpkg;                ///< the network GeoPackage (layer `reaches`, EPSG:32633)
+  std::size_t reaches = 0;
+  std::size_t outlets = 1;
+  std::uint64_t seed = 1;
+  routing::TimeAxis axis;          ///< the forcing's time axis
+  std::string lateral_nc;          ///< lateral inflow of every reach, CF-NetCDF; empty: none
+  std::string inflow_csv;          ///< inflow at each basin's farthest headwater, CSV; empty: none
+  bool overwrite = false;          ///< replace existing outputs
+  std::string history;             ///< how the case was asked for (the NetCDF `history`)
+};
+
+/// A synthetic case, generated and ready to write. Every output is
+/// checked before any is written.
+class SyntheticCase {
+public:
+  /// Refuses an existing output (InputError naming it, unless
+  /// `overwrite`), then generates the network; InvalidParameter for a
+  /// size the generator cannot make.
+  explicit SyntheticCase(SyntheticRequest request);
+
+  const network::SyntheticNetwork& network() const noexcept { return net_; }
+  const SyntheticRequest& request() const noexcept { return request_; }
+
+  /// Each writes its file (under a temporary name, renamed when complete);
+  /// the forcing writers do nothing when their file was not asked for.
+  void writeNetwork() const;
+  void writeLateral() const;
+  void writeInflow() const;
+
+private:
+  SyntheticRequest request_;
+  network::SyntheticNetwork net_;
+  network::SyntheticStorm storm_;
+};
+
+}  // namespace reachwise::run
