@@ -366,7 +366,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   bar.stage("writing the results");
   for (const auto& w : opened.warnings) results.warnings.push_back(w);
   for (const auto& p : problems)
-    if (p.severity == network::Severity::Warning) results.warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
+    if (p.severity == network::Severity::Warning) results.warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
 
   const io::RunInfo info = runInfo(o, results);
   outputs.commit(results, info, net->config.units == units::System::USCustomary);

@@ -59,7 +59,7 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
   addField(path, *layer, "message", OFTString);
   for (const auto& p : problems) {
     OGRFeature f(layer->GetLayerDefn());
-    f.SetField("code", p.code.c_str());
+    f.SetField("code", std::string(p.codeName()).c_str());
     f.SetField("severity", severityName(p.severity));
     if (!p.reach_id.empty()) f.SetField("reach_id", p.reach_id.c_str());
     if (p.fid >= 0) f.SetField("fid", static_cast<GIntBig>(p.fid));
@@ -72,7 +72,7 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
 std::unordered_set<std::int64_t> reversedByReader(const network::ProblemList& problems) {
   std::unordered_set<std::int64_t> out;
   for (const auto& p : problems)
-    if (p.code == "flipped_line") out.insert(p.fid);
+    if (p.code == network::ProblemCode::FlippedLine) out.insert(p.fid);
   return out;
 }
 

@@ -13,7 +13,7 @@ using network::Problem;
 using network::reachProblem;
 using network::ProblemList;
 using network::ReachRecord;
-using network::Severity;
+using network::ProblemCode;
 using hydraulics::Shape;
 
 namespace {
@@ -128,7 +128,7 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
   }
   if (!ok || !std::isfinite(d)) {
     problems.push_back(reachProblem(
-        "invalid_attribute", Severity::Error, r,
+        ProblemCode::InvalidAttribute, r,
         fmt::format("field {} ({}): \"{}\" is not a finite number", spec.name, canonical,
                     f.GetFieldAsString(idx))));
     v.state = Value::State::Invalid;
@@ -142,14 +142,14 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
 bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& problems) const {
   const Value id = text(f, "reach_id");
   if (id.state != Value::State::Ok) {
-    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                      fmt::format("field {} (reach_id) is empty; feature skipped",
                                                  config_.field("reach_id").name)));
     return false;
   }
   r.id = id.text;
   if (r.id.find_first_of(";,") != std::string::npos)
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                      "reach ids must not contain ';' or ',' (they separate the "
                                      "branches of a bifurcation in to_reach)"));
   if (hasField("to_reach")) {
@@ -174,7 +174,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
     return;
   }
   if (!(len.number > 0)) {
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                      fmt::format("field {} (length) must be > 0, got {}",
                                                  config_.field("length").name, len.number)));
     return;
@@ -183,7 +183,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
   const double g = r.geometry_length_m;
   if (g > 0 && std::abs(len.number - g) > 0.1 * g)
     problems.push_back(reachProblem(
-        "length_mismatch", Severity::Warning, r,
+        ProblemCode::LengthMismatch, r,
         fmt::format("length field says {:.1f} m but the line measures {:.1f} m", len.number, g)));
 }
 
@@ -199,13 +199,13 @@ void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
   }
   r.section.bed_slope = slope;
   if (std::isnan(slope)) {
-    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                      "no bed slope (slope field empty and no elevations)"));
   } else if (!(slope > 0)) {
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                      fmt::format("bed slope must be > 0, got {}", slope)));
   } else if (slope > 0.3) {
-    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
+    problems.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
                                      fmt::format("bed slope {} is steeper than 0.3", slope)));
   }
 }
@@ -216,14 +216,14 @@ namespace {
 bool checkRange(double v, bool ok, const char* what, const std::string& rule,
                 const ReachRecord& r, ProblemList& problems) {
   if (std::isnan(v) || ok) return true;
-  problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
+  problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                    fmt::format("{} must be {}, got {}", what, rule, v)));
   return false;
 }
 
 void requireValue(double v, const char* what, const ReachRecord& r, ProblemList& problems) {
   if (!std::isnan(v)) return;
-  problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+  problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                    fmt::format("{} is required and not given", what)));
 }
 
@@ -240,7 +240,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
     sec.shape = Shape::Circle;
   } else {
     problems.push_back(reachProblem(
-        "invalid_attribute", Severity::Error, r,
+        ProblemCode::InvalidAttribute, r,
         fmt::format("field {} (shape): \"{}\" is not trapezoid or circle",
                     config_.field("shape").name, shape.text)));
   }
@@ -248,7 +248,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
   requireValue(sec.manning_n, "manning_n", r, problems);
   if (checkRange(sec.manning_n, sec.manning_n > 0, "manning_n", "> 0", r, problems) &&
       sec.manning_n > 0.3)
-    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
+    problems.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
                                      fmt::format("manning_n {} is above 0.3", sec.manning_n)));
   if (sec.shape == Shape::Circle) {
     sec.diameter_m = number(f, "diameter", length_scale_, r, problems).number;
@@ -263,7 +263,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
   checkRange(sec.bottom_width_m, sec.bottom_width_m >= 0, "bottom_width", ">= 0", r, problems);
   checkRange(z, z >= 0, "side_slope", ">= 0", r, problems);
   if (sec.bottom_width_m == 0 && sec.side_slope == 0)
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                      "bottom_width and side_slope are both 0 (no channel)"));
   readTwoStage(f, r, problems);
 }
@@ -275,7 +275,7 @@ void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
   const double wf = number(f, "floodplain_width", length_scale_, r, problems).number;
   if (std::isnan(yb) && std::isnan(wf)) return;
   if (std::isnan(yb) != std::isnan(wf)) {
-    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                      "a two-stage section needs both bank_depth and "
                                      "floodplain_width"));
     return;
@@ -289,7 +289,7 @@ void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
   requireValue(sec.floodplain_n, "floodplain_n (two-stage section)", r, problems);
   if (checkRange(sec.floodplain_n, sec.floodplain_n > 0, "floodplain_n", "> 0", r, problems) &&
       sec.floodplain_n > 0.3)
-    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
+    problems.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
                                      fmt::format("floodplain_n {} is above 0.3", sec.floodplain_n)));
 }
 

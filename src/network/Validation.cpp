@@ -4,7 +4,10 @@
 
 #include <cmath>
 #include <set>
+#include <string_view>
 #include <tuple>
+
+#include "reachwise/network/ReachProblem.hpp"
 
 namespace reachwise::network {
 
@@ -23,26 +26,18 @@ std::string listIds(const ReachGraph& graph, const std::vector<Vertex>& reaches)
   return out;
 }
 
-Problem at(const ReachGraph& graph, Vertex v, Point2 where, std::string code, Severity severity,
+Problem at(const ReachGraph& graph, Vertex v, Point2 where, ProblemCode code,
            std::string message) {
-  Problem p;
-  p.code = std::move(code);
-  p.severity = severity;
-  p.fid = graph.record(v).fid;
-  p.reach_id = graph.id(v);
-  p.x = where.x;
-  p.y = where.y;
-  p.message = std::move(message);
-  return p;
+  return reachProblem(code, graph.record(v), where.x, where.y, std::move(message));
 }
 
 void checkIds(const ReachGraph& graph, ProblemList& out) {
   for (const auto& d : graph.duplicateIds())
-    out.push_back(at(graph, d.reach, graph.bottom(d.reach), "duplicate_id", Severity::Error,
+    out.push_back(at(graph, d.reach, graph.bottom(d.reach), ProblemCode::DuplicateId,
                      fmt::format("Reach id {} is used again; feature {} has it first.",
                                  graph.id(d.reach), graph.record(d.first).fid)));
   for (const auto& u : graph.unresolvedLinks())
-    out.push_back(at(graph, u.reach, graph.bottom(u.reach), "unknown_to_reach", Severity::Error,
+    out.push_back(at(graph, u.reach, graph.bottom(u.reach), ProblemCode::UnknownToReach,
                      fmt::format("Reach {} drains to \"{}\", which is not a reach in this layer.",
                                  graph.id(u.reach), u.to_reach)));
 }
@@ -51,7 +46,7 @@ void checkLengths(const ReachGraph& graph, ProblemList& out) {
   for (Vertex v = 0; v < graph.size(); ++v) {
     const double length_m = graph.lengthM(v);
     if (length_m > 0 && std::isfinite(length_m)) continue;
-    out.push_back(at(graph, v, graph.top(v), "zero_length", Severity::Error,
+    out.push_back(at(graph, v, graph.top(v), ProblemCode::ZeroLength,
                      fmt::format("Reach {} has length {} m; a reach needs a positive length.",
                                  graph.id(v), length_m)));
   }
@@ -61,11 +56,11 @@ void checkCycles(const ReachGraph& graph, ProblemList& out) {
   for (const auto& cycle : graph.cycles()) {
     const auto first = cycle.front();
     if (cycle.size() == 1) {
-      out.push_back(at(graph, first, graph.bottom(first), "self_loop", Severity::Error,
+      out.push_back(at(graph, first, graph.bottom(first), ProblemCode::SelfLoop,
                        fmt::format("Reach {} names itself as its downstream reach.",
                                    graph.id(first))));
     } else {
-      out.push_back(at(graph, first, graph.bottom(first), "cycle", Severity::Error,
+      out.push_back(at(graph, first, graph.bottom(first), ProblemCode::Cycle,
                        fmt::format("Reaches {} form a cycle, so water would never leave them.",
                                    listIds(graph, cycle))));
     }
@@ -81,7 +76,7 @@ void checkBifurcation(const ReachGraph& graph, Vertex v, ProblemList& out) {
     const double split = graph.record(b).split;
     if (std::isnan(split)) {
       complete = false;
-      out.push_back(at(graph, b, graph.top(b), "bifurcation_split_missing", Severity::Error,
+      out.push_back(at(graph, b, graph.top(b), ProblemCode::BifurcationSplitMissing,
                        fmt::format("Reach {} is a branch of the bifurcation below reach {} "
                                    "but has no split value.",
                                    graph.id(b), graph.id(v))));
@@ -89,14 +84,14 @@ void checkBifurcation(const ReachGraph& graph, Vertex v, ProblemList& out) {
     }
     if (!(split >= 0 && split <= 1)) {
       complete = false;
-      out.push_back(at(graph, b, graph.top(b), "bifurcation_split_range", Severity::Error,
+      out.push_back(at(graph, b, graph.top(b), ProblemCode::BifurcationSplitRange,
                        fmt::format("Reach {} has split {}, outside 0 to 1.", graph.id(b), split)));
     }
     sum += split;
     shares += fmt::format("{}{} {}", shares.empty() ? "" : ", ", graph.id(b), split);
   }
   if (complete && std::abs(sum - 1.0) > kSplitSumTolerance)
-    out.push_back(at(graph, v, graph.bottom(v), "bifurcation_split_sum", Severity::Error,
+    out.push_back(at(graph, v, graph.bottom(v), ProblemCode::BifurcationSplitSum,
                      fmt::format("The splits of the branches below reach {} ({}) sum to {}, "
                                  "not 1.",
                                  graph.id(v), shares, sum)));
@@ -112,7 +107,7 @@ void checkSplits(const ReachGraph& graph, ProblemList& out) {
   for (const auto v : graph.bifurcations()) checkBifurcation(graph, v, out);
   for (Vertex v = 0; v < graph.size(); ++v) {
     if (std::isnan(graph.record(v).split) || isBranch(graph, v)) continue;
-    out.push_back(at(graph, v, graph.top(v), "split_unused", Severity::Warning,
+    out.push_back(at(graph, v, graph.top(v), ProblemCode::SplitUnused,
                      fmt::format("Reach {} has a split value but is not a branch of a "
                                  "bifurcation; it is ignored.",
                                  graph.id(v))));
@@ -136,7 +131,7 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
     const auto drains =
         o.empty() ? std::string("no outlet (it contains a cycle)")
                   : fmt::format("outlet{} {}", o.size() > 1 ? "s" : "", listIds(graph, o));
-    out.push_back(at(graph, where, graph.bottom(where), "basin", Severity::Info,
+    out.push_back(at(graph, where, graph.bottom(where), ProblemCode::Basin,
                      fmt::format("Basin {} of {}: {} reach{}, {}.", b + 1, comps.count, reaches[b],
                                  reaches[b] == 1 ? "" : "es", drains)));
   }
@@ -155,11 +150,17 @@ ProblemList validate(const ReachGraph& graph) {
 }
 
 void mergeProblems(ProblemList& into, const ProblemList& more) {
-  using Key = std::tuple<std::string, std::int64_t, std::string>;
+  using Key = std::tuple<ProblemCode, std::int64_t, std::string_view, std::string_view>;
+  const auto key = [](const Problem& p) {
+    return Key{p.code, p.fid, p.reach_id,
+               kindOf(p.code).per_attribute ? std::string_view(p.message) : std::string_view()};
+  };
+  // Keys view the problems' strings: no reallocation of `into` after this.
+  into.reserve(into.size() + more.size());
   std::set<Key> seen;
-  for (const auto& p : into) seen.emplace(p.code, p.fid, p.reach_id);
+  for (const auto& p : into) seen.insert(key(p));
   for (const auto& p : more)
-    if (seen.emplace(p.code, p.fid, p.reach_id).second) into.push_back(p);
+    if (seen.insert(key(p)).second) into.push_back(p);
 }
 
 }  // namespace reachwise::network

@@ -45,13 +45,13 @@ network::ReachTable read(const std::string& source, io::ReadOptions options,
 const network::Problem* findProblem(const network::ProblemList& ps, const std::string& code,
                                     const std::string& reach = "") {
   for (const auto& p : ps)
-    if (p.code == code && (reach.empty() || p.reach_id == reach)) return &p;
+    if (p.codeName() == code && (reach.empty() || p.reach_id == reach)) return &p;
   return nullptr;
 }
 
 std::string codes(const network::ProblemList& ps) {
   std::string s;
-  for (const auto& p : ps) s += p.code + "(" + p.reach_id + ": " + p.message + ") ";
+  for (const auto& p : ps) s += std::string(p.codeName()) + "(" + p.reach_id + ": " + p.message + ") ";
   return s;
 }
 
