@@ -31,6 +31,70 @@ Problem at(const ReachGraph& graph, Vertex v, Point2 where, ProblemCode code,
   return reachProblem(code, graph.record(v), where.x, where.y, std::move(message));
 }
 
+// ---- attributes: the range of each value a record holds (the reader
+//      reports values it cannot read; NaN means not given and passes) ----
+
+/// Manning's n and bed slope above this are reported as implausible
+/// (common practice: natural channels and floodplains stay well below).
+constexpr double kImplausibleN = 0.3;
+constexpr double kImplausibleSlope = 0.3;
+
+/// Reports `value` outside its range; true when it is in range or not given.
+bool inRange(const ReachRecord& r, double value, bool ok, std::string_view what,
+             std::string_view rule, ProblemList& out) {
+  if (std::isnan(value) || ok) return true;
+  out.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
+                             fmt::format("{} must be {}, got {}", what, rule, value)));
+  return false;
+}
+
+void checkRoughness(const ReachRecord& r, double n, std::string_view what, ProblemList& out) {
+  if (inRange(r, n, n > 0, what, "> 0", out) && n > kImplausibleN)
+    out.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
+                               fmt::format("{} {} is above {}", what, n, kImplausibleN)));
+}
+
+void checkSection(const ReachRecord& r, ProblemList& out) {
+  const auto& sec = r.section;
+  checkRoughness(r, sec.manning_n, "manning_n", out);
+  if (sec.shape == hydraulics::Shape::Circle) {
+    inRange(r, sec.diameter_m, sec.diameter_m > 0, "diameter", "> 0", out);
+    return;
+  }
+  inRange(r, sec.bottom_width_m, sec.bottom_width_m >= 0, "bottom_width", ">= 0", out);
+  inRange(r, sec.side_slope, sec.side_slope >= 0, "side_slope", ">= 0", out);
+  if (sec.bottom_width_m == 0 && sec.side_slope == 0)
+    out.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
+                               "bottom_width and side_slope are both 0 (no channel)"));
+  if (sec.shape != hydraulics::Shape::TwoStage) return;
+  inRange(r, sec.bank_depth_m, sec.bank_depth_m > 0, "bank_depth", "> 0", out);
+  inRange(r, sec.floodplain_width_m, sec.floodplain_width_m > 0, "floodplain_width", "> 0", out);
+  checkRoughness(r, sec.floodplain_n, "floodplain_n", out);
+}
+
+void checkAttributes(const ReachGraph& graph, ProblemList& out) {
+  for (Vertex v = 0; v < graph.size(); ++v) {
+    const ReachRecord& r = graph.record(v);
+    if (r.id.find_first_of(";,") != std::string::npos)
+      out.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
+                                 "reach ids must not contain ';' or ',' (they separate the "
+                                 "branches of a bifurcation in to_reach)"));
+    checkSection(r, out);
+    const double slope = r.section.bed_slope;
+    if (inRange(r, slope, slope > 0, "bed slope", "> 0", out) && slope > kImplausibleSlope)
+      out.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
+                                 fmt::format("bed slope {} is steeper than {}", slope,
+                                             kImplausibleSlope)));
+    inRange(r, r.muskingum_k_h, r.muskingum_k_h > 0, "muskingum_k_h", "> 0", out);
+    inRange(r, r.muskingum_x, r.muskingum_x >= 0 && r.muskingum_x <= 0.5, "muskingum_x",
+            "within [0, 0.5]", out);
+    inRange(r, r.split, r.split >= 0 && r.split <= 1, "split", "within [0, 1]", out);
+    inRange(r, r.base_flow_m3s, r.base_flow_m3s >= 0, "base_flow", ">= 0", out);
+  }
+}
+
+// ---- the graph ----
+
 void checkIds(const ReachGraph& graph, ProblemList& out) {
   for (const auto& d : graph.duplicateIds())
     out.push_back(at(graph, d.reach, graph.bottom(d.reach), ProblemCode::DuplicateId,
@@ -141,6 +205,7 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
 
 ProblemList validate(const ReachGraph& graph) {
   ProblemList out;
+  checkAttributes(graph, out);
   checkIds(graph, out);
   checkLengths(graph, out);
   checkCycles(graph, out);

@@ -159,6 +159,63 @@ TEST(Validation, ZeroLengthIsAnError) {
   EXPECT_EQ(found[0].reach_id, "A");
 }
 
+TEST(Validation, OutOfRangeSlopeBuiltInMemoryIsAnError) {
+  // A bed slope must be > 0 for Manning's equation to give a flow (common practice).
+  auto table = TableBuilder()
+                   .reach("A", "B", {0, 0}, {1000, 0})
+                   .reach("B", std::nullopt, {1000, 0}, {2000, 0})
+                   .build();
+  table.reaches[1].section.bed_slope = -0.002;
+  const auto problems = validate(ReachGraph(table));
+  const auto found = withCode(problems, ProblemCode::InvalidAttribute);
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].severity, Severity::Error);
+  EXPECT_EQ(found[0].reach_id, "B");
+  EXPECT_EQ(found[0].fid, 101);
+  EXPECT_DOUBLE_EQ(found[0].x, 1000.0);  // the first vertex of B
+  EXPECT_EQ(found[0].message, "bed slope must be > 0, got -0.002");
+}
+
+TEST(Validation, EachBadAttributeOfOneReachIsReported) {
+  // Ranges (common practice): n > 0, widths >= 0, Muskingum X in [0, 0.5],
+  // K > 0, a share in [0, 1], a base flow >= 0.
+  auto table = TableBuilder().link("A", std::nullopt).link("B", std::nullopt).build();
+  auto& r = table.reaches[0];
+  r.section.manning_n = 0;
+  r.section.bottom_width_m = -2;
+  r.muskingum_k_h = -1;
+  r.muskingum_x = 0.7;
+  r.base_flow_m3s = -0.1;
+  ProblemList problems;
+  mergeProblems(problems, validate(ReachGraph(table)));  // kept apart by their messages
+  const auto found = withCode(problems, ProblemCode::InvalidAttribute);
+  ASSERT_EQ(found.size(), 5u);
+  for (const auto& p : found) EXPECT_EQ(p.reach_id, "A");
+  EXPECT_TRUE(mentions(found[0], "manning_n"));
+  EXPECT_TRUE(mentions(found[1], "bottom_width"));
+  EXPECT_TRUE(mentions(found[2], "muskingum_k_h"));
+  EXPECT_TRUE(mentions(found[3], "muskingum_x"));
+  EXPECT_TRUE(mentions(found[4], "base_flow"));
+}
+
+TEST(Validation, ImplausibleRoughnessIsAWarningAndUnsetValuesPass) {
+  auto table = TableBuilder().link("A", std::nullopt).build();
+  table.reaches[0].section.manning_n = 0.45;  // above 0.3: unlikely for a channel (common practice)
+  table.reaches[0].muskingum_x = ReachRecord::kUnset;  // not given: nothing to check
+  const auto problems = validate(ReachGraph(table));
+  ASSERT_EQ(problems.size(), 1u);
+  EXPECT_EQ(problems[0].code, ProblemCode::ImplausibleAttribute);
+  EXPECT_EQ(problems[0].severity, Severity::Warning);
+  EXPECT_FALSE(hasErrors(problems));
+}
+
+TEST(Validation, IdWithABranchSeparatorIsRefused) {
+  const auto table = TableBuilder().link("A;1", std::nullopt).build();
+  const auto found = withCode(validate(ReachGraph(table)), ProblemCode::InvalidAttribute);
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_TRUE(mentions(found[0], "';' or ','"));
+}
+
 TEST(Validation, SeveralBasinsAreEachReportedWithTheirOutlet) {
   const auto table = TableBuilder()
                          .link("A", "B")

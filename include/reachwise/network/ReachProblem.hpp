@@ -21,12 +21,14 @@ inline Problem reachProblem(ProblemCode code, const ReachRecord& r, double x, do
   return p;
 }
 
-/// The same, located at the record's first vertex (unlocated without geometry).
+/// The same, located at the first vertex of the line as digitised
+/// (unlocated without geometry).
 inline Problem reachProblem(ProblemCode code, const ReachRecord& r, std::string message) {
   Problem p = reachProblem(code, r, ReachRecord::kUnset, ReachRecord::kUnset, std::move(message));
   if (!r.line.empty()) {
-    p.x = r.line.front().x;
-    p.y = r.line.front().y;
+    const Point3& first = r.reoriented ? r.line.back() : r.line.front();
+    p.x = first.x;
+    p.y = first.y;
   }
   return p;
 }

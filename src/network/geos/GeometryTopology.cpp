@@ -200,6 +200,7 @@ Graph snapEnds(const GeosContext& ctx, ReachTable& table, double tol) {
 
 void flip(ReachRecord& r, Graph& g, std::size_t i, ProblemList& problems, const char* why) {
   std::reverse(r.line.begin(), r.line.end());
+  r.reoriented = !r.reoriented;
   std::swap(g.from[i], g.to[i]);
   std::swap(r.up_elevation_m, r.down_elevation_m);
   problems.push_back(reachProblem(ProblemCode::FlippedLine, r, r.line.front().x,
