@@ -107,6 +107,9 @@ TEST(GeometryTopology, ReorientsEachTreeTowardsItsOutlet) {
   EXPECT_EQ(down(m, "right"), "stem");
   EXPECT_EQ(down(m, "stem"), "(outlet)");
   EXPECT_DOUBLE_EQ(m["left"].line.front().x, -700.0);  // now upstream first
+  EXPECT_TRUE(m["left"].reoriented);
+  EXPECT_FALSE(m["right"].reoriented);
+  EXPECT_FALSE(m["stem"].reoriented);
 }
 
 TEST(GeometryTopology, NamedOutletTurnsAChainAround) {
