@@ -20,7 +20,7 @@ using network::reachProblem;
 using network::ProblemList;
 using network::ReachRecord;
 using network::ReachTable;
-using network::Severity;
+using network::ProblemCode;
 
 namespace {
 
@@ -145,16 +145,16 @@ bool finiteLine(const std::vector<Point3>& line) {
 
 /// Fills r.line from the feature's geometry; false (with a problem) when unusable.
 bool readGeometry(const OGRGeometry* geom, ReachRecord& r, ProblemList& problems) {
-  auto fail = [&](const char* code, const std::string& msg) {
-    problems.push_back(reachProblem(code, Severity::Error, r, msg + "; feature skipped"));
+  auto fail = [&](ProblemCode code, const std::string& msg) {
+    problems.push_back(reachProblem(code, r, msg + "; feature skipped"));
     return false;
   };
-  if (!geom || geom->IsEmpty()) return fail("empty_geometry", "the feature has no geometry");
+  if (!geom || geom->IsEmpty()) return fail(ProblemCode::EmptyGeometry, "the feature has no geometry");
   std::unique_ptr<OGRGeometry> linear;
   if (geom->hasCurveGeometry()) {
     linear.reset(geom->getLinearGeometry());
     geom = linear.get();
-    if (!geom) return fail("non_line_geometry", "the curve geometry cannot be linearised");
+    if (!geom) return fail(ProblemCode::NonLineGeometry, "the curve geometry cannot be linearised");
   }
   std::vector<std::vector<Point3>> parts;
   const auto type = wkbFlatten(geom->getGeometryType());
@@ -164,14 +164,14 @@ bool readGeometry(const OGRGeometry* geom, ReachRecord& r, ProblemList& problems
     for (const OGRLineString* part : *geom->toMultiLineString())
       if (part && part->getNumPoints() > 0) parts.push_back(points(*part));
   } else {
-    return fail("non_line_geometry",
+    return fail(ProblemCode::NonLineGeometry,
                 fmt::format("the geometry is a {}, not a line", geom->getGeometryName()));
   }
   for (const auto& p : parts) {
-    if (!finiteLine(p)) return fail("invalid_geometry", "the line has non-finite coordinates");
-    if (p.size() < 2) return fail("empty_geometry", "a line part has fewer than two vertices");
+    if (!finiteLine(p)) return fail(ProblemCode::InvalidGeometry, "the line has non-finite coordinates");
+    if (p.size() < 2) return fail(ProblemCode::EmptyGeometry, "a line part has fewer than two vertices");
   }
-  if (parts.empty()) return fail("empty_geometry", "the line has no vertices");
+  if (parts.empty()) return fail(ProblemCode::EmptyGeometry, "the line has no vertices");
   if (auto merged = network::geos::mergeLineParts(parts)) {
     r.line = std::move(*merged);
     return true;
@@ -179,7 +179,7 @@ bool readGeometry(const OGRGeometry* geom, ReachRecord& r, ProblemList& problems
   // Keep the reach (its parts in stored order) so later checks still see it.
   for (const auto& p : parts) r.line.insert(r.line.end(), p.begin(), p.end());
   problems.push_back(reachProblem(
-      "multipart_gap", Severity::Error, r,
+      ProblemCode::MultipartGap, r,
       fmt::format("the {} parts of the line do not join end to end", parts.size())));
   return true;
 }
@@ -198,11 +198,11 @@ void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const L
       r.geometry_length_m = measure(r.line);
       if (std::isnan(r.geometry_length_m)) {
         problems.push_back(reachProblem(
-            "invalid_geometry", Severity::Error, r,
+            ProblemCode::InvalidGeometry, r,
             "coordinates are not valid latitude/longitude for the geographic CRS; feature skipped"));
         keep = false;
       } else if (!(r.geometry_length_m > 0))
-        problems.push_back(reachProblem("zero_length", Severity::Error, r,
+        problems.push_back(reachProblem(ProblemCode::ZeroLength, r,
                                                  "the line has zero length"));
     }
     const bool has_id = attrs.read(*f, r, problems);
@@ -211,7 +211,7 @@ void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const L
       if (problems[k].reach_id.empty()) problems[k].reach_id = r.id;
     if (keep && has_id && !seen.insert(r.id).second) {
       problems.push_back(reachProblem(
-          "duplicate_id", Severity::Error, r,
+          ProblemCode::DuplicateId, r,
           fmt::format("reach id {} is used by an earlier feature; feature skipped", r.id)));
       keep = false;
     }
@@ -263,10 +263,8 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
   ReadSummary summary;
   readFeatures(*layer, attrs, measure, table, problems, summary);
   if (summary.features == 0) {
-    network::Problem p;
-    p.code = "empty_layer";
-    p.message = fmt::format("layer {} of {} has no features", table.layer, source);
-    problems.push_back(std::move(p));
+    problems.emplace_back(ProblemCode::EmptyLayer,
+                          fmt::format("layer {} of {} has no features", table.layer, source));
   }
   table.has_to_reach = attrs.hasField("to_reach");
   if (useGeometryTopology(config, table.has_to_reach, where)) {

@@ -7,7 +7,6 @@
 #include <cmath>
 #include <filesystem>
 #include <memory>
-#include <unordered_set>
 
 
 #include "GdalSupport.hpp"
@@ -59,7 +58,7 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
   addField(path, *layer, "message", OFTString);
   for (const auto& p : problems) {
     OGRFeature f(layer->GetLayerDefn());
-    f.SetField("code", p.code.c_str());
+    f.SetField("code", std::string(p.codeName()).c_str());
     f.SetField("severity", severityName(p.severity));
     if (!p.reach_id.empty()) f.SetField("reach_id", p.reach_id.c_str());
     if (p.fid >= 0) f.SetField("fid", static_cast<GIntBig>(p.fid));
@@ -67,13 +66,6 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
     if (std::isfinite(p.x) && std::isfinite(p.y)) f.SetGeometry(std::make_unique<OGRPoint>(p.x, p.y).get());
     if (layer->CreateFeature(&f) != OGRERR_NONE) fail(path, "cannot write a problem");
   }
-}
-
-std::unordered_set<std::int64_t> reversedByReader(const network::ProblemList& problems) {
-  std::unordered_set<std::int64_t> out;
-  for (const auto& p : problems)
-    if (p.code == "flipped_line") out.insert(p.fid);
-  return out;
 }
 
 OGRLineString flowLine(const ReachGraph& graph, ReachGraph::Vertex v) {
@@ -89,7 +81,7 @@ OGRLineString flowLine(const ReachGraph& graph, ReachGraph::Vertex v) {
 }
 
 void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
-                       const ReachGraph& graph, const network::ProblemList& problems) {
+                       const ReachGraph& graph) {
   CPLStringList layer_options;
   layer_options.SetNameValue("FID", "row_id");
   OGRLayer* layer = ds.CreateLayer("network", srs, wkbLineString, layer_options.List());
@@ -105,14 +97,13 @@ void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
   const auto order = graph.topologicalOrder();
   const auto strahler = order ? network::strahlerOrder(graph, *order) : std::vector<std::uint16_t>{};
   const auto basins = graph.components();
-  const auto reversed = reversedByReader(problems);
   for (ReachGraph::Vertex v = 0; v < graph.size(); ++v) {
     const auto& r = graph.record(v);
     OGRFeature f(layer->GetLayerDefn());
     f.SetField("reach_id", r.id.c_str());
     if (r.fid >= 0) f.SetField("fid", static_cast<GIntBig>(r.fid));
     if (r.to_reach && !r.to_reach->empty()) f.SetField("to_reach", r.to_reach->c_str());
-    f.SetField("flipped", (graph.flipped(v) || reversed.count(r.fid)) ? 1 : 0);
+    f.SetField("flipped", (graph.flipped(v) || r.reoriented) ? 1 : 0);
     if (!std::isnan(r.split)) f.SetField("split", r.split);
     if (!strahler.empty()) f.SetField("strahler", static_cast<int>(strahler[v]));
     f.SetField("basin", static_cast<int>(basins.basin[v]));
@@ -134,7 +125,7 @@ void writeAll(const std::string& path, const std::filesystem::path& tmp, const R
   // One transaction: a GeoPackage commits row by row otherwise.
   if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
   writeProblemLayer(path, *ds, srs.get(), problems);
-  writeNetworkLayer(path, *ds, srs.get(), graph, problems);
+  writeNetworkLayer(path, *ds, srs.get(), graph);
   if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
   ds.reset();  // closes and flushes the file before it is renamed
 }

@@ -13,7 +13,7 @@ using network::Problem;
 using network::reachProblem;
 using network::ProblemList;
 using network::ReachRecord;
-using network::Severity;
+using network::ProblemCode;
 using hydraulics::Shape;
 
 namespace {
@@ -128,7 +128,7 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
   }
   if (!ok || !std::isfinite(d)) {
     problems.push_back(reachProblem(
-        "invalid_attribute", Severity::Error, r,
+        ProblemCode::InvalidAttribute, r,
         fmt::format("field {} ({}): \"{}\" is not a finite number", spec.name, canonical,
                     f.GetFieldAsString(idx))));
     v.state = Value::State::Invalid;
@@ -142,16 +142,12 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
 bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& problems) const {
   const Value id = text(f, "reach_id");
   if (id.state != Value::State::Ok) {
-    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                      fmt::format("field {} (reach_id) is empty; feature skipped",
                                                  config_.field("reach_id").name)));
     return false;
   }
   r.id = id.text;
-  if (r.id.find_first_of(";,") != std::string::npos)
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
-                                     "reach ids must not contain ';' or ',' (they separate the "
-                                     "branches of a bifurcation in to_reach)"));
   if (hasField("to_reach")) {
     const Value to = text(f, "to_reach");
     if (to.state == Value::State::Ok) r.to_reach = to.text;
@@ -174,7 +170,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
     return;
   }
   if (!(len.number > 0)) {
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                      fmt::format("field {} (length) must be > 0, got {}",
                                                  config_.field("length").name, len.number)));
     return;
@@ -183,7 +179,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
   const double g = r.geometry_length_m;
   if (g > 0 && std::abs(len.number - g) > 0.1 * g)
     problems.push_back(reachProblem(
-        "length_mismatch", Severity::Warning, r,
+        ProblemCode::LengthMismatch, r,
         fmt::format("length field says {:.1f} m but the line measures {:.1f} m", len.number, g)));
 }
 
@@ -198,32 +194,16 @@ void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
     if (std::isfinite(drop) && r.length_m > 0) slope = drop / r.length_m;
   }
   r.section.bed_slope = slope;
-  if (std::isnan(slope)) {
-    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
-                                     "no bed slope (slope field empty and no elevations)"));
-  } else if (!(slope > 0)) {
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
-                                     fmt::format("bed slope must be > 0, got {}", slope)));
-  } else if (slope > 0.3) {
-    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
-                                     fmt::format("bed slope {} is steeper than 0.3", slope)));
-  }
+  if (std::isnan(slope))
+    problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
+                                    "no bed slope (slope field empty and no elevations)"));
 }
 
 namespace {
 
-/// Reports a value outside its range; true when it is fine (or absent).
-bool checkRange(double v, bool ok, const char* what, const std::string& rule,
-                const ReachRecord& r, ProblemList& problems) {
-  if (std::isnan(v) || ok) return true;
-  problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
-                                   fmt::format("{} must be {}, got {}", what, rule, v)));
-  return false;
-}
-
 void requireValue(double v, const char* what, const ReachRecord& r, ProblemList& problems) {
   if (!std::isnan(v)) return;
-  problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+  problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                    fmt::format("{} is required and not given", what)));
 }
 
@@ -240,31 +220,21 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
     sec.shape = Shape::Circle;
   } else {
     problems.push_back(reachProblem(
-        "invalid_attribute", Severity::Error, r,
+        ProblemCode::InvalidAttribute, r,
         fmt::format("field {} (shape): \"{}\" is not trapezoid or circle",
                     config_.field("shape").name, shape.text)));
   }
   sec.manning_n = number(f, "manning_n", 1.0, r, problems).number;
   requireValue(sec.manning_n, "manning_n", r, problems);
-  if (checkRange(sec.manning_n, sec.manning_n > 0, "manning_n", "> 0", r, problems) &&
-      sec.manning_n > 0.3)
-    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
-                                     fmt::format("manning_n {} is above 0.3", sec.manning_n)));
   if (sec.shape == Shape::Circle) {
     sec.diameter_m = number(f, "diameter", length_scale_, r, problems).number;
     requireValue(sec.diameter_m, "diameter (shape circle)", r, problems);
-    checkRange(sec.diameter_m, sec.diameter_m > 0, "diameter", "> 0", r, problems);
     return;
   }
   sec.bottom_width_m = number(f, "bottom_width", length_scale_, r, problems).number;
   const double z = number(f, "side_slope", 1.0, r, problems).number;
-  sec.side_slope = std::isnan(z) ? 0.0 : z;
+  sec.side_slope = std::isnan(z) ? 0.0 : z;  // none given: vertical banks
   requireValue(sec.bottom_width_m, "bottom_width", r, problems);
-  checkRange(sec.bottom_width_m, sec.bottom_width_m >= 0, "bottom_width", ">= 0", r, problems);
-  checkRange(z, z >= 0, "side_slope", ">= 0", r, problems);
-  if (sec.bottom_width_m == 0 && sec.side_slope == 0)
-    problems.push_back(reachProblem("invalid_attribute", Severity::Error, r,
-                                     "bottom_width and side_slope are both 0 (no channel)"));
   readTwoStage(f, r, problems);
 }
 
@@ -275,7 +245,7 @@ void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
   const double wf = number(f, "floodplain_width", length_scale_, r, problems).number;
   if (std::isnan(yb) && std::isnan(wf)) return;
   if (std::isnan(yb) != std::isnan(wf)) {
-    problems.push_back(reachProblem("missing_attribute", Severity::Error, r,
+    problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                      "a two-stage section needs both bank_depth and "
                                      "floodplain_width"));
     return;
@@ -284,13 +254,7 @@ void ReachAttributes::readTwoStage(const OGRFeature& f, ReachRecord& r,
   sec.bank_depth_m = yb;
   sec.floodplain_width_m = wf;
   sec.floodplain_n = number(f, "floodplain_n", 1.0, r, problems).number;
-  checkRange(yb, yb > 0, "bank_depth", "> 0", r, problems);
-  checkRange(wf, wf > 0, "floodplain_width", "> 0", r, problems);
   requireValue(sec.floodplain_n, "floodplain_n (two-stage section)", r, problems);
-  if (checkRange(sec.floodplain_n, sec.floodplain_n > 0, "floodplain_n", "> 0", r, problems) &&
-      sec.floodplain_n > 0.3)
-    problems.push_back(reachProblem("implausible_attribute", Severity::Warning, r,
-                                     fmt::format("floodplain_n {} is above 0.3", sec.floodplain_n)));
 }
 
 void ReachAttributes::readRouting(const OGRFeature& f, ReachRecord& r,
@@ -299,11 +263,6 @@ void ReachAttributes::readRouting(const OGRFeature& f, ReachRecord& r,
   r.muskingum_x = number(f, "muskingum_x", 1.0, r, problems).number;
   r.split = number(f, "split", 1.0, r, problems).number;
   r.base_flow_m3s = number(f, "base_flow", discharge_scale_, r, problems).number;
-  checkRange(r.muskingum_k_h, r.muskingum_k_h > 0, "muskingum_k_h", "> 0", r, problems);
-  checkRange(r.muskingum_x, r.muskingum_x >= 0 && r.muskingum_x <= 0.5, "muskingum_x",
-             "within [0, 0.5]", r, problems);
-  checkRange(r.split, r.split >= 0 && r.split <= 1, "split", "within [0, 1]", r, problems);
-  checkRange(r.base_flow_m3s, r.base_flow_m3s >= 0, "base_flow", ">= 0", r, problems);
 }
 
 }  // namespace reachwise::io::detail

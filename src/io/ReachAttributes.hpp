@@ -1,6 +1,8 @@
 #pragma once
 // Private to the network reader: mapping a feature's attributes onto a
-// ReachRecord (field lookup, defaults, unit conversion, value checks).
+// ReachRecord (field lookup, defaults, unit conversion). A value that is
+// missing or cannot be read is a problem here; the ranges of the values read
+// are checked by network::validate, as for a table built in memory.
 
 #include <ogrsf_frmts.h>
 

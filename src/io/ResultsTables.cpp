@@ -161,13 +161,9 @@ Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node
 std::vector<network::Point3> flowLine(const network::ReachTable& table,
                                       const network::NetworkPlan& plan, std::size_t i) {
   REACHWISE_ASSERT(i < plan.record.size() && plan.record[i] < table.reaches.size());
+  REACHWISE_ASSERT(i < plan.reversed.size());
   auto line = table.reaches[plan.record[i]].line;
-  if (line.size() < 2 || i >= plan.top.size()) return line;
-  const auto& top = plan.top[i];
-  const auto dist2 = [&](const network::Point3& p) {
-    return (p.x - top.x) * (p.x - top.x) + (p.y - top.y) * (p.y - top.y);
-  };
-  if (dist2(line.back()) < dist2(line.front())) std::reverse(line.begin(), line.end());
+  if (plan.reversed[i]) std::reverse(line.begin(), line.end());
   return line;
 }
 

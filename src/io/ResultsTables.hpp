@@ -45,8 +45,8 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
 
 const char* nodeKindName(routing::NodeKind kind);
 
-/// The vertices of plan reach `i`'s line in flow direction (from the end
-/// nearer `plan.top[i]`), so that a GIS draws arrows downstream.
+/// The vertices of plan reach `i`'s line in flow direction (reversed when
+/// `plan.reversed[i]`), so that a GIS draws arrows downstream.
 std::vector<network::Point3> flowLine(const network::ReachTable& table,
                                       const network::NetworkPlan& plan, std::size_t i);
 

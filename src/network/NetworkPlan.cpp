@@ -9,6 +9,8 @@ namespace reachwise::network {
 
 namespace {
 
+constexpr double kSecondsPerHour = 3600.0;
+
 [[noreturn]] void refuseCycle(const ReachGraph& graph) {
   const auto cycles = graph.cycles();
   REACHWISE_ASSERT(!cycles.empty());
@@ -29,12 +31,14 @@ void fillReach(NetworkPlan& plan, const ReachGraph& graph, ReachGraph::Vertex v,
   plan.record.push_back(v);
   plan.length_m.push_back(graph.lengthM(v));
   plan.section.push_back(r.section);
-  plan.muskingum_k_h.push_back(r.muskingum_k_h);
+  plan.muskingum_k_s.push_back(r.muskingum_k_h * kSecondsPerHour);
   plan.muskingum_x.push_back(r.muskingum_x);
+  plan.base_flow_m3s.push_back(r.base_flow_m3s);
   plan.basin.push_back(basin);
   plan.strahler.push_back(strahler);
   plan.top.push_back(graph.top(v));
   plan.bottom.push_back(graph.bottom(v));
+  plan.reversed.push_back(graph.flipped(v));
 }
 
 }  // namespace

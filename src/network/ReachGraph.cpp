@@ -1,5 +1,6 @@
 #include "reachwise/network/ReachGraph.hpp"
 
+#include <boost/graph/adjacency_list.hpp>
 #include <boost/property_map/property_map.hpp>
 #include <boost/graph/strong_components.hpp>
 #include <boost/graph/topological_sort.hpp>
@@ -53,11 +54,30 @@ std::vector<std::string_view> parseDownstreamIds(std::string_view to_reach) {
   return ids;
 }
 
-ReachGraph::ReachGraph(const ReachTable& table) : table_(&table), g_(table.reaches.size()) {
+struct ReachGraph::Links {
+  struct Link {
+    double fraction = 1.0;  ///< share of the source's outflow entering the target
+  };
+  using Graph = boost::adjacency_list<boost::vecS, boost::vecS, boost::bidirectionalS,
+                                      boost::no_property, Link>;
+  Graph g;
+};
+
+ReachGraph::ReachGraph(const ReachTable& table)
+    : table_(&table), links_(new Links{Links::Graph(table.reaches.size())}) {
   REACHWISE_ASSERT(table.reaches.size() < std::numeric_limits<Vertex>::max());
   indexIds();
   addLinks();
 }
+
+ReachGraph::ReachGraph(ReachGraph&&) noexcept = default;
+ReachGraph& ReachGraph::operator=(ReachGraph&&) noexcept = default;
+ReachGraph::~ReachGraph() = default;
+
+std::size_t ReachGraph::size() const noexcept { return boost::num_vertices(links_->g); }
+std::size_t ReachGraph::linkCount() const noexcept { return boost::num_edges(links_->g); }
+std::size_t ReachGraph::upstreamCount(Vertex v) const { return boost::in_degree(v, links_->g); }
+std::size_t ReachGraph::downstreamCount(Vertex v) const { return boost::out_degree(v, links_->g); }
 
 void ReachGraph::indexIds() {
   index_.reserve(table_->reaches.size());
@@ -76,14 +96,14 @@ void ReachGraph::addLinks() {
       if (it == index_.end())
         unresolved_.push_back(UnresolvedLink{v, std::string(piece)});
       else
-        boost::add_edge(v, it->second, g_);
+        boost::add_edge(v, it->second, links_->g);
     }
   }
   // A bifurcating reach passes on each branch's split; all others pass on everything.
   for (Vertex v = 0; v < size(); ++v) {
-    if (boost::out_degree(v, g_) < 2) continue;
-    for (auto [e, end] = boost::out_edges(v, g_); e != end; ++e)
-      g_[*e].fraction = record(static_cast<Vertex>(boost::target(*e, g_))).split;
+    if (boost::out_degree(v, links_->g) < 2) continue;
+    for (auto [e, end] = boost::out_edges(v, links_->g); e != end; ++e)
+      links_->g[*e].fraction = record(static_cast<Vertex>(boost::target(*e, links_->g))).split;
   }
 }
 
@@ -95,22 +115,22 @@ std::optional<ReachGraph::Vertex> ReachGraph::find(std::string_view reach_id) co
 
 std::vector<ReachGraph::Vertex> ReachGraph::upstream(Vertex v) const {
   std::vector<Vertex> out;
-  for (auto [e, end] = boost::in_edges(v, g_); e != end; ++e)
-    out.push_back(static_cast<Vertex>(boost::source(*e, g_)));
+  for (auto [e, end] = boost::in_edges(v, links_->g); e != end; ++e)
+    out.push_back(static_cast<Vertex>(boost::source(*e, links_->g)));
   return out;
 }
 
 std::vector<ReachGraph::Vertex> ReachGraph::downstream(Vertex v) const {
   std::vector<Vertex> out;
-  for (auto [e, end] = boost::out_edges(v, g_); e != end; ++e)
-    out.push_back(static_cast<Vertex>(boost::target(*e, g_)));
+  for (auto [e, end] = boost::out_edges(v, links_->g); e != end; ++e)
+    out.push_back(static_cast<Vertex>(boost::target(*e, links_->g)));
   return out;
 }
 
 double ReachGraph::fraction(Vertex from, Vertex to) const {
-  const auto [e, found] = boost::edge(from, to, g_);
+  const auto [e, found] = boost::edge(from, to, links_->g);
   REACHWISE_ASSERT(found);
-  return g_[e].fraction;
+  return links_->g[e].fraction;
 }
 
 std::vector<ReachGraph::Vertex> ReachGraph::headwaters() const {
@@ -147,7 +167,7 @@ std::optional<std::vector<ReachGraph::Vertex>> ReachGraph::topologicalOrder() co
   std::vector<Vertex> reversed;
   reversed.reserve(size());
   try {
-    boost::topological_sort(g_, std::back_inserter(reversed));
+    boost::topological_sort(links_->g, std::back_inserter(reversed));
   } catch (const boost::not_a_dag&) {
     return std::nullopt;
   }
@@ -155,11 +175,11 @@ std::optional<std::vector<ReachGraph::Vertex>> ReachGraph::topologicalOrder() co
   return reversed;
 }
 
-bool ReachGraph::hasSelfLoop(Vertex v) const { return boost::edge(v, v, g_).second; }
+bool ReachGraph::hasSelfLoop(Vertex v) const { return boost::edge(v, v, links_->g).second; }
 
 std::vector<std::vector<ReachGraph::Vertex>> ReachGraph::cycles() const {
   std::vector<std::uint32_t> component(size());
-  const auto count = boost::strong_components(g_, component.data());
+  const auto count = boost::strong_components(links_->g, component.data());
   std::vector<std::vector<Vertex>> members(count);
   for (Vertex v = 0; v < size(); ++v) members[component[v]].push_back(v);
   std::vector<std::vector<Vertex>> out;
@@ -177,9 +197,9 @@ Components ReachGraph::components() const {
       boost::make_iterator_property_map(parent.begin(), boost::identity_property_map());
   boost::disjoint_sets<decltype(rank_map), decltype(parent_map)> sets(rank_map, parent_map);
   for (Vertex v = 0; v < size(); ++v) sets.make_set(v);
-  for (auto [e, end] = boost::edges(g_); e != end; ++e)
-    sets.union_set(static_cast<Vertex>(boost::source(*e, g_)),
-                   static_cast<Vertex>(boost::target(*e, g_)));
+  for (auto [e, end] = boost::edges(links_->g); e != end; ++e)
+    sets.union_set(static_cast<Vertex>(boost::source(*e, links_->g)),
+                   static_cast<Vertex>(boost::target(*e, links_->g)));
   // Number basins in order of their lowest record so the numbering is stable.
   constexpr auto kNone = std::numeric_limits<std::uint32_t>::max();
   std::vector<std::uint32_t> number(size(), kNone);

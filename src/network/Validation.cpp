@@ -4,7 +4,10 @@
 
 #include <cmath>
 #include <set>
+#include <string_view>
 #include <tuple>
+
+#include "reachwise/network/ReachProblem.hpp"
 
 namespace reachwise::network {
 
@@ -23,26 +26,82 @@ std::string listIds(const ReachGraph& graph, const std::vector<Vertex>& reaches)
   return out;
 }
 
-Problem at(const ReachGraph& graph, Vertex v, Point2 where, std::string code, Severity severity,
+Problem at(const ReachGraph& graph, Vertex v, Point2 where, ProblemCode code,
            std::string message) {
-  Problem p;
-  p.code = std::move(code);
-  p.severity = severity;
-  p.fid = graph.record(v).fid;
-  p.reach_id = graph.id(v);
-  p.x = where.x;
-  p.y = where.y;
-  p.message = std::move(message);
-  return p;
+  return reachProblem(code, graph.record(v), where.x, where.y, std::move(message));
 }
+
+// ---- attributes: the range of each value a record holds (the reader
+//      reports values it cannot read; NaN means not given and passes) ----
+
+/// Manning's n and bed slope above this are reported as implausible
+/// (common practice: natural channels and floodplains stay well below).
+constexpr double kImplausibleN = 0.3;
+constexpr double kImplausibleSlope = 0.3;
+
+/// Reports `value` outside its range; true when it is in range or not given.
+bool inRange(const ReachRecord& r, double value, bool ok, std::string_view what,
+             std::string_view rule, ProblemList& out) {
+  if (std::isnan(value) || ok) return true;
+  out.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
+                             fmt::format("{} must be {}, got {}", what, rule, value)));
+  return false;
+}
+
+void checkRoughness(const ReachRecord& r, double n, std::string_view what, ProblemList& out) {
+  if (inRange(r, n, n > 0, what, "> 0", out) && n > kImplausibleN)
+    out.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
+                               fmt::format("{} {} is above {}", what, n, kImplausibleN)));
+}
+
+void checkSection(const ReachRecord& r, ProblemList& out) {
+  const auto& sec = r.section;
+  checkRoughness(r, sec.manning_n, "manning_n", out);
+  if (sec.shape == hydraulics::Shape::Circle) {
+    inRange(r, sec.diameter_m, sec.diameter_m > 0, "diameter", "> 0", out);
+    return;
+  }
+  inRange(r, sec.bottom_width_m, sec.bottom_width_m >= 0, "bottom_width", ">= 0", out);
+  inRange(r, sec.side_slope, sec.side_slope >= 0, "side_slope", ">= 0", out);
+  if (sec.bottom_width_m == 0 && sec.side_slope == 0)
+    out.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
+                               "bottom_width and side_slope are both 0 (no channel)"));
+  if (sec.shape != hydraulics::Shape::TwoStage) return;
+  inRange(r, sec.bank_depth_m, sec.bank_depth_m > 0, "bank_depth", "> 0", out);
+  inRange(r, sec.floodplain_width_m, sec.floodplain_width_m > 0, "floodplain_width", "> 0", out);
+  checkRoughness(r, sec.floodplain_n, "floodplain_n", out);
+}
+
+void checkAttributes(const ReachGraph& graph, ProblemList& out) {
+  for (Vertex v = 0; v < graph.size(); ++v) {
+    const ReachRecord& r = graph.record(v);
+    if (r.id.find_first_of(";,") != std::string::npos)
+      out.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
+                                 "reach ids must not contain ';' or ',' (they separate the "
+                                 "branches of a bifurcation in to_reach)"));
+    checkSection(r, out);
+    const double slope = r.section.bed_slope;
+    if (inRange(r, slope, slope > 0, "bed slope", "> 0", out) && slope > kImplausibleSlope)
+      out.push_back(reachProblem(ProblemCode::ImplausibleAttribute, r,
+                                 fmt::format("bed slope {} is steeper than {}", slope,
+                                             kImplausibleSlope)));
+    inRange(r, r.muskingum_k_h, r.muskingum_k_h > 0, "muskingum_k_h", "> 0", out);
+    inRange(r, r.muskingum_x, r.muskingum_x >= 0 && r.muskingum_x <= 0.5, "muskingum_x",
+            "within [0, 0.5]", out);
+    inRange(r, r.split, r.split >= 0 && r.split <= 1, "split", "within [0, 1]", out);
+    inRange(r, r.base_flow_m3s, r.base_flow_m3s >= 0, "base_flow", ">= 0", out);
+  }
+}
+
+// ---- the graph ----
 
 void checkIds(const ReachGraph& graph, ProblemList& out) {
   for (const auto& d : graph.duplicateIds())
-    out.push_back(at(graph, d.reach, graph.bottom(d.reach), "duplicate_id", Severity::Error,
+    out.push_back(at(graph, d.reach, graph.bottom(d.reach), ProblemCode::DuplicateId,
                      fmt::format("Reach id {} is used again; feature {} has it first.",
                                  graph.id(d.reach), graph.record(d.first).fid)));
   for (const auto& u : graph.unresolvedLinks())
-    out.push_back(at(graph, u.reach, graph.bottom(u.reach), "unknown_to_reach", Severity::Error,
+    out.push_back(at(graph, u.reach, graph.bottom(u.reach), ProblemCode::UnknownToReach,
                      fmt::format("Reach {} drains to \"{}\", which is not a reach in this layer.",
                                  graph.id(u.reach), u.to_reach)));
 }
@@ -51,7 +110,7 @@ void checkLengths(const ReachGraph& graph, ProblemList& out) {
   for (Vertex v = 0; v < graph.size(); ++v) {
     const double length_m = graph.lengthM(v);
     if (length_m > 0 && std::isfinite(length_m)) continue;
-    out.push_back(at(graph, v, graph.top(v), "zero_length", Severity::Error,
+    out.push_back(at(graph, v, graph.top(v), ProblemCode::ZeroLength,
                      fmt::format("Reach {} has length {} m; a reach needs a positive length.",
                                  graph.id(v), length_m)));
   }
@@ -61,11 +120,11 @@ void checkCycles(const ReachGraph& graph, ProblemList& out) {
   for (const auto& cycle : graph.cycles()) {
     const auto first = cycle.front();
     if (cycle.size() == 1) {
-      out.push_back(at(graph, first, graph.bottom(first), "self_loop", Severity::Error,
+      out.push_back(at(graph, first, graph.bottom(first), ProblemCode::SelfLoop,
                        fmt::format("Reach {} names itself as its downstream reach.",
                                    graph.id(first))));
     } else {
-      out.push_back(at(graph, first, graph.bottom(first), "cycle", Severity::Error,
+      out.push_back(at(graph, first, graph.bottom(first), ProblemCode::Cycle,
                        fmt::format("Reaches {} form a cycle, so water would never leave them.",
                                    listIds(graph, cycle))));
     }
@@ -81,7 +140,7 @@ void checkBifurcation(const ReachGraph& graph, Vertex v, ProblemList& out) {
     const double split = graph.record(b).split;
     if (std::isnan(split)) {
       complete = false;
-      out.push_back(at(graph, b, graph.top(b), "bifurcation_split_missing", Severity::Error,
+      out.push_back(at(graph, b, graph.top(b), ProblemCode::BifurcationSplitMissing,
                        fmt::format("Reach {} is a branch of the bifurcation below reach {} "
                                    "but has no split value.",
                                    graph.id(b), graph.id(v))));
@@ -89,14 +148,14 @@ void checkBifurcation(const ReachGraph& graph, Vertex v, ProblemList& out) {
     }
     if (!(split >= 0 && split <= 1)) {
       complete = false;
-      out.push_back(at(graph, b, graph.top(b), "bifurcation_split_range", Severity::Error,
+      out.push_back(at(graph, b, graph.top(b), ProblemCode::BifurcationSplitRange,
                        fmt::format("Reach {} has split {}, outside 0 to 1.", graph.id(b), split)));
     }
     sum += split;
     shares += fmt::format("{}{} {}", shares.empty() ? "" : ", ", graph.id(b), split);
   }
   if (complete && std::abs(sum - 1.0) > kSplitSumTolerance)
-    out.push_back(at(graph, v, graph.bottom(v), "bifurcation_split_sum", Severity::Error,
+    out.push_back(at(graph, v, graph.bottom(v), ProblemCode::BifurcationSplitSum,
                      fmt::format("The splits of the branches below reach {} ({}) sum to {}, "
                                  "not 1.",
                                  graph.id(v), shares, sum)));
@@ -112,7 +171,7 @@ void checkSplits(const ReachGraph& graph, ProblemList& out) {
   for (const auto v : graph.bifurcations()) checkBifurcation(graph, v, out);
   for (Vertex v = 0; v < graph.size(); ++v) {
     if (std::isnan(graph.record(v).split) || isBranch(graph, v)) continue;
-    out.push_back(at(graph, v, graph.top(v), "split_unused", Severity::Warning,
+    out.push_back(at(graph, v, graph.top(v), ProblemCode::SplitUnused,
                      fmt::format("Reach {} has a split value but is not a branch of a "
                                  "bifurcation; it is ignored.",
                                  graph.id(v))));
@@ -136,7 +195,7 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
     const auto drains =
         o.empty() ? std::string("no outlet (it contains a cycle)")
                   : fmt::format("outlet{} {}", o.size() > 1 ? "s" : "", listIds(graph, o));
-    out.push_back(at(graph, where, graph.bottom(where), "basin", Severity::Info,
+    out.push_back(at(graph, where, graph.bottom(where), ProblemCode::Basin,
                      fmt::format("Basin {} of {}: {} reach{}, {}.", b + 1, comps.count, reaches[b],
                                  reaches[b] == 1 ? "" : "es", drains)));
   }
@@ -146,6 +205,7 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
 
 ProblemList validate(const ReachGraph& graph) {
   ProblemList out;
+  checkAttributes(graph, out);
   checkIds(graph, out);
   checkLengths(graph, out);
   checkCycles(graph, out);
@@ -155,11 +215,17 @@ ProblemList validate(const ReachGraph& graph) {
 }
 
 void mergeProblems(ProblemList& into, const ProblemList& more) {
-  using Key = std::tuple<std::string, std::int64_t, std::string>;
+  using Key = std::tuple<ProblemCode, std::int64_t, std::string_view, std::string_view>;
+  const auto key = [](const Problem& p) {
+    return Key{p.code, p.fid, p.reach_id,
+               kindOf(p.code).per_attribute ? std::string_view(p.message) : std::string_view()};
+  };
+  // Keys view the problems' strings: no reallocation of `into` after this.
+  into.reserve(into.size() + more.size());
   std::set<Key> seen;
-  for (const auto& p : into) seen.emplace(p.code, p.fid, p.reach_id);
+  for (const auto& p : into) seen.insert(key(p));
   for (const auto& p : more)
-    if (seen.emplace(p.code, p.fid, p.reach_id).second) into.push_back(p);
+    if (seen.insert(key(p)).second) into.push_back(p);
 }
 
 }  // namespace reachwise::network

@@ -146,7 +146,7 @@ private:
     const bool send = sink_ && sink_->wants(i);
     try {
       const ReachSpec spec{hydraulics::Section::fromSpec(plan_.section[i]), plan_.length_m[i],
-                           plan_.muskingum_k_h[i] * 3600.0, plan_.muskingum_x[i]};
+                           plan_.muskingum_k_s[i], plan_.muskingum_x[i]};
       run = ws.router.route(spec, ws.inflow,
                             (has_lateral || base != 0) ? std::span<const double>(ws.lateral)
                                                        : std::span<const double>(),

@@ -33,12 +33,12 @@ io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkP
 RunForcing::RunForcing(const ForcingFiles& files, const network::NetworkPlan& plan, units::System unit)
     : opened_(openChecked(files, plan, unit)), bound_(*opened_.source, plan) {}
 
-std::vector<double> baseFlows(const network::ReachTable& table, const network::NetworkPlan& plan) {
+std::vector<double> baseFlows(const network::NetworkPlan& plan) {
   std::vector<double> q(plan.size(), 0.0);
   bool any = false;
   for (std::size_t i = 0; i < plan.size(); ++i) {
-    const double b = table.reaches[plan.record[i]].base_flow_m3s;
-    if (b > 0) q[i] = b, any = true;
+    const double b = plan.base_flow_m3s[i];
+    if (b > 0) q[i] = b, any = true;  // NaN (none) and 0 stay 0
   }
   return any ? q : std::vector<double>{};
 }

@@ -52,7 +52,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
 }
 
 std::string problemLine(const network::Problem& p) {
-  return fmt::format("{} {} {} {} ({}, {}): {}", io::severityName(p.severity), p.code,
+  return fmt::format("{} {} {} {} ({}, {}): {}", io::severityName(p.severity), p.codeName(),
                      p.reach_id.empty() ? "-" : p.reach_id,
                      p.fid < 0 ? std::string("-") : std::to_string(p.fid), coordinate(p.x),
                      coordinate(p.y), p.message);

@@ -61,7 +61,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   routing::NetworkRouteOptions ro;
   ro.reach.method = request.method;
   ro.threads = request.threads;
-  ro.base_flow_m3s = baseFlows(net.table, plan);
+  ro.base_flow_m3s = baseFlows(plan);
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
   const auto t0 = std::chrono::steady_clock::now();
   summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
@@ -72,7 +72,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   auto& warnings = summary.results.warnings;
   warnings.insert(warnings.end(), forcing.warnings().begin(), forcing.warnings().end());
   for (const auto& p : net.problems)
-    if (p.severity == network::Severity::Warning) warnings.push_back(p.code + " " + p.reach_id + ": " + p.message);
+    if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
   outputs.commit(summary.results, summary.info);
   summary.gpkg = outputs.geopackage();

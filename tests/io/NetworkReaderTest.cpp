@@ -9,6 +9,7 @@
 
 #include "io/NetworkFixtures.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/network/Validation.hpp"
 
 using namespace reachwise;
 using fixtures::Feature;
@@ -45,13 +46,13 @@ network::ReachTable read(const std::string& source, io::ReadOptions options,
 const network::Problem* findProblem(const network::ProblemList& ps, const std::string& code,
                                     const std::string& reach = "") {
   for (const auto& p : ps)
-    if (p.code == code && (reach.empty() || p.reach_id == reach)) return &p;
+    if (p.codeName() == code && (reach.empty() || p.reach_id == reach)) return &p;
   return nullptr;
 }
 
 std::string codes(const network::ProblemList& ps) {
   std::string s;
-  for (const auto& p : ps) s += p.code + "(" + p.reach_id + ": " + p.message + ") ";
+  for (const auto& p : ps) s += std::string(p.codeName()) + "(" + p.reach_id + ": " + p.message + ") ";
   return s;
 }
 
@@ -318,7 +319,10 @@ TEST(NetworkReader, EndElevationsGiveTheSlopeWhenNoSlopeFieldExists) {
   network::ProblemList problems;
   io::ReadOptions opt;
   opt.config.topology = io::TopologySource::Geometry;
-  auto t = byId(read(dir.file("elev.gpkg"), opt, problems));
+  const auto table = read(dir.file("elev.gpkg"), opt, problems);
+  auto t = byId(table);
   EXPECT_NEAR(t["E1"].section.bed_slope, 2.5 / 1000.0, 1e-15);  // drop over length
-  EXPECT_NE(findProblem(problems, "invalid_attribute", "E2"), nullptr) << codes(problems);
+  EXPECT_NEAR(t["E2"].section.bed_slope, -12.5 / 1000.0, 1e-15);  // uphill: kept for validation
+  const auto checked = network::validate(network::ReachGraph(table));
+  EXPECT_NE(findProblem(checked, "invalid_attribute", "E2"), nullptr) << codes(checked);
 }

@@ -63,7 +63,7 @@ TEST(NetworkReaderTopology, GapVariantReportsAProbableGap) {
   EXPECT_EQ(summary.topology.probable_gaps, 1u);
   bool found = false;
   for (const auto& p : ps)
-    if (p.code == "probable_gap" && p.reach_id == "R13" && p.severity == network::Severity::Error)
+    if (p.codeName() == "probable_gap" && p.reach_id == "R13" && p.severity == network::Severity::Error)
       found = true;
   EXPECT_TRUE(found);
   EXPECT_EQ(downstream(t).at("R13"), "");  // not joined: an outlet of its own
@@ -76,7 +76,7 @@ TEST(NetworkReaderTopology, CycleVariantIsFoundByTheGraphValidation) {
   const network::ReachGraph graph(t);
   const auto graph_problems = network::validate(graph);
   bool cycle = false;
-  for (const auto& p : graph_problems) cycle |= p.code == "cycle";
+  for (const auto& p : graph_problems) cycle |= p.codeName() == "cycle";
   EXPECT_TRUE(cycle);
 }
 

@@ -75,12 +75,14 @@ struct Network {
     plan.record = {1, 2, 0};
     plan.length_m = {707.1, 707.1, 500};
     plan.section.resize(3);
-    plan.muskingum_k_h = {kNaN, kNaN, kNaN};
+    plan.muskingum_k_s = {kNaN, kNaN, kNaN};
     plan.muskingum_x = {kNaN, kNaN, kNaN};
+    plan.base_flow_m3s = {kNaN, kNaN, kNaN};
     plan.basin = {0, 0, 0};
     plan.strahler = {1, 1, 2};
     plan.top = {{0, 1000}, {1000, 1000}, {500, 500}};
     plan.bottom = {{500, 500}, {500, 500}, {500, 0}};
+    plan.reversed = {true, false, false};  // A's line starts at its bottom
     plan.up_offset = {0, 0, 0, 2};
     plan.up_reach = {0, 1};
     plan.up_fraction = {1, 1};

@@ -30,7 +30,7 @@ std::map<std::string, ReachRecord> byId(const ReachTable& t) {
   return out;
 }
 
-std::size_t count(const ProblemList& ps, const std::string& code) {
+std::size_t count(const ProblemList& ps, ProblemCode code) {
   std::size_t n = 0;
   for (const auto& p : ps) n += p.code == code;
   return n;
@@ -61,7 +61,7 @@ TEST(GeometryTopology, TributaryJoiningMidLineSplitsTheMainLine) {
   EXPECT_NEAR(m["A.1"].length_m, 1000.0, 1e-9);
   EXPECT_NEAR(m["A.2"].geometry_length_m, 1000.0, 1e-9);
   EXPECT_DOUBLE_EQ(m["A.1"].line.back().x, 1000.0);
-  EXPECT_EQ(count(ps, "split_line"), 1u);
+  EXPECT_EQ(count(ps, ProblemCode::SplitLine), 1u);
   EXPECT_EQ(ps.front().reach_id, "A");
   EXPECT_EQ(ps.front().severity, Severity::Warning);
   EXPECT_TRUE(t.has_to_reach);
@@ -79,9 +79,9 @@ TEST(GeometryTopology, EndsWithinTheToleranceSnapAndGapsBeyondAreReported) {
   EXPECT_EQ(down(m, "far"), "(outlet)");
   EXPECT_DOUBLE_EQ(m["near"].line.back().x, 0.0);  // moved onto the node
   EXPECT_EQ(s.probable_gaps, 1u);
-  ASSERT_EQ(count(ps, "probable_gap"), 1u);
+  ASSERT_EQ(count(ps, ProblemCode::ProbableGap), 1u);
   for (const auto& p : ps) {
-    if (p.code != "probable_gap") continue;
+    if (p.code != ProblemCode::ProbableGap) continue;
     EXPECT_EQ(p.reach_id, "far");
     EXPECT_DOUBLE_EQ(p.x, 2.0);
     EXPECT_DOUBLE_EQ(p.y, 0.0);
@@ -102,11 +102,14 @@ TEST(GeometryTopology, ReorientsEachTreeTowardsItsOutlet) {
   const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
   auto m = byId(t);
   EXPECT_EQ(s.flipped, 1u);
-  EXPECT_EQ(count(ps, "flipped_line"), 1u);
+  EXPECT_EQ(count(ps, ProblemCode::FlippedLine), 1u);
   EXPECT_EQ(down(m, "left"), "stem");
   EXPECT_EQ(down(m, "right"), "stem");
   EXPECT_EQ(down(m, "stem"), "(outlet)");
   EXPECT_DOUBLE_EQ(m["left"].line.front().x, -700.0);  // now upstream first
+  EXPECT_TRUE(m["left"].reoriented);
+  EXPECT_FALSE(m["right"].reoriented);
+  EXPECT_FALSE(m["stem"].reoriented);
 }
 
 TEST(GeometryTopology, NamedOutletTurnsAChainAround) {
@@ -123,8 +126,8 @@ TEST(GeometryTopology, NamedOutletTurnsAChainAround) {
   EXPECT_EQ(down(m, "a"), "b");
   EXPECT_EQ(down(m, "b"), "c");
   EXPECT_EQ(down(m, "c"), "(outlet)");
-  EXPECT_EQ(count(ps, "flipped_line"), 3u);
-  EXPECT_EQ(count(ps, "unknown_outlet"), 1u);
+  EXPECT_EQ(count(ps, ProblemCode::FlippedLine), 3u);
+  EXPECT_EQ(count(ps, ProblemCode::UnknownOutlet), 1u);
 }
 
 TEST(GeometryTopology, ElevationGivesDirection) {
@@ -135,7 +138,7 @@ TEST(GeometryTopology, ElevationGivesDirection) {
   ProblemList ps;
   geos::buildTopologyFromGeometry(t, {}, ps);  // Auto: every line has Z
   auto m = byId(t);
-  EXPECT_EQ(count(ps, "flipped_line"), 1u);
+  EXPECT_EQ(count(ps, ProblemCode::FlippedLine), 1u);
   EXPECT_EQ(down(m, "rev"), "low");
   EXPECT_EQ(down(m, "up"), "(outlet)");  // its lower end meets "low"'s lower end
   EXPECT_DOUBLE_EQ(m["rev"].line.front().z, 9.0);
@@ -155,7 +158,7 @@ TEST(GeometryTopology, LineShorterThanTheToleranceIsClosed) {
   t.reaches = {line("tiny", {{0, 0}, {0.1, 0}}), line("ok", {{10, 0}, {20, 0}})};
   ProblemList ps;
   geos::buildTopologyFromGeometry(t, {}, ps);
-  EXPECT_EQ(count(ps, "closed_line"), 1u);
+  EXPECT_EQ(count(ps, ProblemCode::ClosedLine), 1u);
 }
 
 TEST(GeometryTopology, DegenerateRecordsAreLeftOut) {

@@ -118,6 +118,27 @@ TEST(ReachGraph, LineDigitisedAgainstTheFlowIsFlipped) {
   EXPECT_FALSE(g.flipped(at(g, "D")));  // no links: digitising order kept
   EXPECT_DOUBLE_EQ(g.top(at(g, "B")).x, 1000.0);
   EXPECT_DOUBLE_EQ(g.bottom(at(g, "B")).x, 2000.0);
+
+  // The plan carries the same finding: B's stored line starts at its bottom.
+  const auto plan = g.freeze();
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    const auto& line = table.reaches[plan.record[i]].line;
+    EXPECT_EQ(plan.reversed[i], plan.reach_id[i] == "B") << plan.reach_id[i];
+    const auto& first = plan.reversed[i] ? line.back() : line.front();
+    EXPECT_DOUBLE_EQ(first.x, plan.top[i].x) << plan.reach_id[i];  // drawn from its top
+  }
+}
+
+TEST(ReachGraph, FreezeStoresKInSecondsAndBaseFlows) {
+  auto table = TableBuilder().link("A", "B").link("B", std::nullopt).build();
+  table.reaches[0].muskingum_k_h = 1.5;
+  table.reaches[0].base_flow_m3s = 0.25;
+  const auto plan = ReachGraph(table).freeze();
+  const auto a = indexOf(plan, "A"), b = indexOf(plan, "B");
+  EXPECT_DOUBLE_EQ(plan.muskingum_k_s[a], 5400.0);  // 1.5 h = 5400 s
+  EXPECT_TRUE(std::isnan(plan.muskingum_k_s[b]));   // not given
+  EXPECT_DOUBLE_EQ(plan.base_flow_m3s[a], 0.25);
+  EXPECT_TRUE(std::isnan(plan.base_flow_m3s[b]));   // none
 }
 
 TEST(ReachGraph, ConfluenceOfY) {

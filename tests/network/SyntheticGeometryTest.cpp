@@ -132,7 +132,7 @@ TEST(SyntheticGeometry, TopologyFromLineEndsGivesTheSameLinks) {
     const ReachGraph graph(table);
     mergeProblems(problems, validate(graph));
     for (const auto& p : problems)
-      EXPECT_EQ(p.severity, Severity::Info) << p.code << " " << p.reach_id << ": " << p.message;
+      EXPECT_EQ(p.severity, Severity::Info) << p.codeName() << " " << p.reach_id << ": " << p.message;
     ASSERT_EQ(table.reaches.size(), net.size());
     std::map<std::string, std::string> down;
     for (const auto& r : table.reaches) down[r.id] = r.to_reach ? *r.to_reach : "";

@@ -12,7 +12,7 @@ using reachwise::network::testing::TableBuilder;
 
 namespace {
 
-std::vector<Problem> withCode(const ProblemList& problems, const std::string& code) {
+std::vector<Problem> withCode(const ProblemList& problems, ProblemCode code) {
   std::vector<Problem> out;
   std::copy_if(problems.begin(), problems.end(), std::back_inserter(out),
                [&](const Problem& p) { return p.code == code; });
@@ -21,6 +21,13 @@ std::vector<Problem> withCode(const ProblemList& problems, const std::string& co
 
 bool mentions(const Problem& p, const std::string& text) {
   return p.message.find(text) != std::string::npos;
+}
+
+Problem problemOf(ProblemCode code, std::string reach_id, std::string message) {
+  Problem p(code, std::move(message));
+  p.fid = 7;
+  p.reach_id = std::move(reach_id);
+  return p;
 }
 
 }  // namespace
@@ -38,7 +45,7 @@ TEST(Validation, UnknownToReachNamesReachFeatureAndPlace) {
                          .build();
   const ReachGraph g(table);
   const auto problems = validate(g);
-  const auto found = withCode(problems, "unknown_to_reach");
+  const auto found = withCode(problems, ProblemCode::UnknownToReach);
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].severity, Severity::Error);
   EXPECT_EQ(found[0].reach_id, "A");
@@ -58,10 +65,10 @@ TEST(Validation, SelfLoopAndCycleAreSeparateCodes) {
                          .build();
   const ReachGraph g(table);
   const auto problems = validate(g);
-  const auto loops = withCode(problems, "self_loop");
+  const auto loops = withCode(problems, ProblemCode::SelfLoop);
   ASSERT_EQ(loops.size(), 1u);
   EXPECT_EQ(loops[0].reach_id, "S");
-  const auto cycles = withCode(problems, "cycle");
+  const auto cycles = withCode(problems, ProblemCode::Cycle);
   ASSERT_EQ(cycles.size(), 1u);
   EXPECT_EQ(cycles[0].reach_id, "C1");
   EXPECT_EQ(cycles[0].fid, 101);
@@ -71,7 +78,7 @@ TEST(Validation, SelfLoopAndCycleAreSeparateCodes) {
 TEST(Validation, DuplicateIdIsAnError) {
   const auto table = TableBuilder().link("A", std::nullopt).link("A", std::nullopt).build();
   const auto problems = validate(ReachGraph(table));
-  const auto found = withCode(problems, "duplicate_id");
+  const auto found = withCode(problems, ProblemCode::DuplicateId);
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].fid, 101);
   EXPECT_TRUE(mentions(found[0], "feature 100"));
@@ -84,8 +91,8 @@ TEST(Validation, BifurcationWithGoodSplitsPasses) {
                          .link("C", std::nullopt, 0.75)
                          .build();
   const auto problems = validate(ReachGraph(table));
-  EXPECT_TRUE(withCode(problems, "bifurcation_split_missing").empty());
-  EXPECT_TRUE(withCode(problems, "bifurcation_split_sum").empty());
+  EXPECT_TRUE(withCode(problems, ProblemCode::BifurcationSplitMissing).empty());
+  EXPECT_TRUE(withCode(problems, ProblemCode::BifurcationSplitSum).empty());
   EXPECT_FALSE(hasErrors(problems));
 }
 
@@ -96,11 +103,11 @@ TEST(Validation, BifurcationWithoutSplitNamesTheBranch) {
                          .reach("C", std::nullopt, {1000, 0}, {2000, -500})
                          .build();
   const auto problems = validate(ReachGraph(table));
-  const auto found = withCode(problems, "bifurcation_split_missing");
+  const auto found = withCode(problems, ProblemCode::BifurcationSplitMissing);
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].reach_id, "C");
   EXPECT_DOUBLE_EQ(found[0].x, 1000.0);  // where the branch leaves
-  EXPECT_TRUE(withCode(problems, "bifurcation_split_sum").empty());
+  EXPECT_TRUE(withCode(problems, ProblemCode::BifurcationSplitSum).empty());
 }
 
 TEST(Validation, SplitsMustSumToOneWithinTolerance) {
@@ -110,7 +117,7 @@ TEST(Validation, SplitsMustSumToOneWithinTolerance) {
                        .link("B", std::nullopt, 0.6)
                        .link("C", std::nullopt, 0.5)
                        .build();
-  const auto found = withCode(validate(ReachGraph(bad)), "bifurcation_split_sum");
+  const auto found = withCode(validate(ReachGraph(bad)), ProblemCode::BifurcationSplitSum);
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].reach_id, "A");
   EXPECT_TRUE(mentions(found[0], "1.1"));
@@ -120,7 +127,7 @@ TEST(Validation, SplitsMustSumToOneWithinTolerance) {
                          .link("B", std::nullopt, 0.3)
                          .link("C", std::nullopt, 0.7 - 5e-7)
                          .build();
-  EXPECT_TRUE(withCode(validate(ReachGraph(close)), "bifurcation_split_sum").empty());
+  EXPECT_TRUE(withCode(validate(ReachGraph(close)), ProblemCode::BifurcationSplitSum).empty());
 }
 
 TEST(Validation, SplitOutsideZeroToOneIsRefused) {
@@ -130,13 +137,13 @@ TEST(Validation, SplitOutsideZeroToOneIsRefused) {
                          .link("C", std::nullopt, 1.5)
                          .build();
   const auto problems = validate(ReachGraph(table));
-  EXPECT_EQ(withCode(problems, "bifurcation_split_range").size(), 2u);
+  EXPECT_EQ(withCode(problems, ProblemCode::BifurcationSplitRange).size(), 2u);
 }
 
 TEST(Validation, SplitOnAnOrdinaryReachIsAWarning) {
   const auto table = TableBuilder().link("A", "B").link("B", std::nullopt, 0.5).build();
   const auto problems = validate(ReachGraph(table));
-  const auto found = withCode(problems, "split_unused");
+  const auto found = withCode(problems, ProblemCode::SplitUnused);
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].severity, Severity::Warning);
   EXPECT_FALSE(hasErrors(problems));
@@ -147,9 +154,66 @@ TEST(Validation, ZeroLengthIsAnError) {
                          .reach("A", "B", {5, 5}, {5, 5})
                          .reach("B", std::nullopt, {5, 5}, {100, 5})
                          .build();
-  const auto found = withCode(validate(ReachGraph(table)), "zero_length");
+  const auto found = withCode(validate(ReachGraph(table)), ProblemCode::ZeroLength);
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].reach_id, "A");
+}
+
+TEST(Validation, OutOfRangeSlopeBuiltInMemoryIsAnError) {
+  // A bed slope must be > 0 for Manning's equation to give a flow (common practice).
+  auto table = TableBuilder()
+                   .reach("A", "B", {0, 0}, {1000, 0})
+                   .reach("B", std::nullopt, {1000, 0}, {2000, 0})
+                   .build();
+  table.reaches[1].section.bed_slope = -0.002;
+  const auto problems = validate(ReachGraph(table));
+  const auto found = withCode(problems, ProblemCode::InvalidAttribute);
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].severity, Severity::Error);
+  EXPECT_EQ(found[0].reach_id, "B");
+  EXPECT_EQ(found[0].fid, 101);
+  EXPECT_DOUBLE_EQ(found[0].x, 1000.0);  // the first vertex of B
+  EXPECT_EQ(found[0].message, "bed slope must be > 0, got -0.002");
+}
+
+TEST(Validation, EachBadAttributeOfOneReachIsReported) {
+  // Ranges (common practice): n > 0, widths >= 0, Muskingum X in [0, 0.5],
+  // K > 0, a share in [0, 1], a base flow >= 0.
+  auto table = TableBuilder().link("A", std::nullopt).link("B", std::nullopt).build();
+  auto& r = table.reaches[0];
+  r.section.manning_n = 0;
+  r.section.bottom_width_m = -2;
+  r.muskingum_k_h = -1;
+  r.muskingum_x = 0.7;
+  r.base_flow_m3s = -0.1;
+  ProblemList problems;
+  mergeProblems(problems, validate(ReachGraph(table)));  // kept apart by their messages
+  const auto found = withCode(problems, ProblemCode::InvalidAttribute);
+  ASSERT_EQ(found.size(), 5u);
+  for (const auto& p : found) EXPECT_EQ(p.reach_id, "A");
+  EXPECT_TRUE(mentions(found[0], "manning_n"));
+  EXPECT_TRUE(mentions(found[1], "bottom_width"));
+  EXPECT_TRUE(mentions(found[2], "muskingum_k_h"));
+  EXPECT_TRUE(mentions(found[3], "muskingum_x"));
+  EXPECT_TRUE(mentions(found[4], "base_flow"));
+}
+
+TEST(Validation, ImplausibleRoughnessIsAWarningAndUnsetValuesPass) {
+  auto table = TableBuilder().link("A", std::nullopt).build();
+  table.reaches[0].section.manning_n = 0.45;  // above 0.3: unlikely for a channel (common practice)
+  table.reaches[0].muskingum_x = ReachRecord::kUnset;  // not given: nothing to check
+  const auto problems = validate(ReachGraph(table));
+  ASSERT_EQ(problems.size(), 1u);
+  EXPECT_EQ(problems[0].code, ProblemCode::ImplausibleAttribute);
+  EXPECT_EQ(problems[0].severity, Severity::Warning);
+  EXPECT_FALSE(hasErrors(problems));
+}
+
+TEST(Validation, IdWithABranchSeparatorIsRefused) {
+  const auto table = TableBuilder().link("A;1", std::nullopt).build();
+  const auto found = withCode(validate(ReachGraph(table)), ProblemCode::InvalidAttribute);
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_TRUE(mentions(found[0], "';' or ','"));
 }
 
 TEST(Validation, SeveralBasinsAreEachReportedWithTheirOutlet) {
@@ -160,7 +224,7 @@ TEST(Validation, SeveralBasinsAreEachReportedWithTheirOutlet) {
                          .link("Y", std::nullopt)
                          .build();
   const auto problems = validate(ReachGraph(table));
-  const auto basins = withCode(problems, "basin");
+  const auto basins = withCode(problems, ProblemCode::Basin);
   ASSERT_EQ(basins.size(), 2u);
   EXPECT_EQ(basins[0].severity, Severity::Info);
   EXPECT_EQ(basins[0].reach_id, "B");
@@ -171,13 +235,23 @@ TEST(Validation, SeveralBasinsAreEachReportedWithTheirOutlet) {
 }
 
 TEST(Validation, MergeDropsProblemsAlreadyReported) {
-  ProblemList from_reader{Problem{"duplicate_id", Severity::Error, 7, "R1", 0, 0, "reader"}};
-  const ProblemList from_graph{Problem{"duplicate_id", Severity::Error, 7, "R1", 0, 0, "graph"},
-                               Problem{"cycle", Severity::Error, 7, "R1", 0, 0, "graph"}};
+  ProblemList from_reader{problemOf(ProblemCode::DuplicateId, "R1", "reader")};
+  const ProblemList from_graph{problemOf(ProblemCode::DuplicateId, "R1", "graph"),
+                               problemOf(ProblemCode::Cycle, "R1", "graph")};
   mergeProblems(from_reader, from_graph);
   ASSERT_EQ(from_reader.size(), 2u);
   EXPECT_EQ(from_reader[0].message, "reader");
-  EXPECT_EQ(from_reader[1].code, "cycle");
+  EXPECT_EQ(from_reader[1].code, ProblemCode::Cycle);
+}
+
+TEST(Validation, MergeKeepsDifferentAttributeProblemsOfOneReach) {
+  // One reach may have several bad attributes: their messages tell them apart.
+  ProblemList into{problemOf(ProblemCode::InvalidAttribute, "R1", "slope: \"steep\" is not a number")};
+  const ProblemList more{problemOf(ProblemCode::InvalidAttribute, "R1", "manning_n must be > 0, got 0"),
+                         problemOf(ProblemCode::InvalidAttribute, "R1", "manning_n must be > 0, got 0")};
+  mergeProblems(into, more);
+  ASSERT_EQ(into.size(), 2u);
+  EXPECT_EQ(into[1].message, "manning_n must be > 0, got 0");
 }
 
 TEST(NetworkSummary, CountsAKnownNetwork) {

@@ -43,7 +43,7 @@ NetworkPlan randomTree(std::size_t n, std::mt19937& rng) {
     p.section.push_back(s);
     // K in [0.7, 2.5] h and X in [0, 0.2] keep Muskingum's coefficients
     // non-negative at Δt = 1 h (2KX <= Δt <= 2K(1 − X)).
-    p.muskingum_k_h.push_back(0.7 + 1.8 * u(rng));
+    p.muskingum_k_s.push_back(3600 * (0.7 + 1.8 * u(rng)));
     p.muskingum_x.push_back(0.2 * u(rng));
     p.basin.push_back(0);
     p.strahler.push_back(1);
@@ -117,7 +117,7 @@ TEST(NetworkRouter, MatchesSparseMatrixOracleOnRandomTrees) {
     const double dt = 3600;
     Eigen::VectorXd c1(n), c2(n), c3(n), cl(n);
     for (std::size_t i = 0; i < n; ++i) {
-      const double k = p.muskingum_k_h[i] * 3600, x = p.muskingum_x[i], den = k * (1 - x) + dt / 2;
+      const double k = p.muskingum_k_s[i], x = p.muskingum_x[i], den = k * (1 - x) + dt / 2;
       c1[i] = (dt / 2 - k * x) / den;
       c2[i] = (dt / 2 + k * x) / den;
       c3[i] = (k * (1 - x) - dt / 2) / den;

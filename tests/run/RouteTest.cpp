@@ -127,7 +127,7 @@ TEST(Route, TheSameNetworkRoutesTwiceFromItsPiecesWithTheSameResult) {
   const network::NetworkPlan plan = run::routablePlan(*net);
   const run::RunForcing forcing({kSample + "inflow.csv", kSample + "lateral.csv", std::nullopt}, plan);
   routing::NetworkRouteOptions options;
-  options.base_flow_m3s = run::baseFlows(net->table, plan);
+  options.base_flow_m3s = run::baseFlows(plan);
   const auto a = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options);
   options.threads = 1;
   const auto b = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options);

@@ -16,8 +16,9 @@ namespace reachwise::io {
 ///    (`row_id` in `network`) so that `fid` holds the source feature id;
 ///  - `network`: lines in flow direction (reach_id, fid, to_reach, flipped, split,
 ///    strahler, basin), one per record of the graph's table. `flipped` is 1
-///    when the line as stored runs against the flow: reversed by the reader
-///    (a `flipped_line` problem for that feature) or judged so from the links.
+///    when the line as stored in the source runs against the flow: reversed
+///    by the reader (ReachRecord::reoriented, a `flipped_line` problem) or
+///    judged so from the links (ReachGraph::flipped).
 ///    `strahler` is null when the network has a cycle.
 /// Both layers are in the table's CRS. The file is written under a temporary
 /// name beside `path` and renamed onto it on success (replacing an existing

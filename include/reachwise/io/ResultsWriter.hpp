@@ -84,7 +84,7 @@ struct GpkgWriterOptions {
 /// stream series into it (SeriesSink), call writeSummaries(), then commit().
 /// Table rows of plan reach i come from `table.reaches[plan.record[i]]`;
 /// geometry is written in `table.crs_wkt` (no CRS when it is empty), each
-/// line drawn in flow direction (from the end nearer `plan.top[i]`).
+/// line drawn in flow direction (`plan.reversed`).
 /// Both `table` and `plan` must outlive the writer.
 class GpkgResultsWriter final : public routing::SeriesSink {
 public:

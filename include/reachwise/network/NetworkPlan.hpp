@@ -23,11 +23,18 @@ struct NetworkPlan {
   std::vector<std::uint32_t> record;           ///< row in the ReachTable it was built from
   std::vector<double> length_m;
   std::vector<hydraulics::SectionSpec> section;
-  std::vector<double> muskingum_k_h;           ///< NaN when absent
-  std::vector<double> muskingum_x;             ///< NaN when absent
+  std::vector<double> muskingum_k_s;           ///< Muskingum K in seconds, NaN when not given
+  std::vector<double> muskingum_x;             ///< NaN when not given
+  std::vector<double> base_flow_m3s;           ///< constant flow entering along the reach, NaN when none
   std::vector<std::uint32_t> basin;            ///< connected component (0..n_basins-1)
   std::vector<std::uint16_t> strahler;         ///< Strahler order
   std::vector<Point2> top, bottom;             ///< upstream / downstream end points
+  /// True when the reach's line as the table holds it
+  /// (`ReachTable::reaches[record[i]].line`) runs against the flow: its first
+  /// vertex is `bottom`, and drawing it in flow direction means reversing it.
+  /// A line that topology from geometry already turned is not reversed here
+  /// (its record is `reoriented`).
+  std::vector<bool> reversed;
 
   // ---- upstream lists, CSR: reaches feeding reach i are
   //      up_reach[up_offset[i] .. up_offset[i+1]), each index < i;

@@ -1,10 +1,15 @@
 #pragma once
 /// \file
-/// A problem found while reading or validating a network.
+/// A problem found while reading or validating a network, and the closed
+/// set of problem codes: one table (Problem.cpp) gives each code its stable
+/// text name, its severity and what it means (docs/formats.md lists them).
 
+#include <cstddef>
 #include <cstdint>
 #include <limits>
+#include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace reachwise::network {
@@ -15,14 +20,71 @@ enum class Severity {
   Error,    ///< routing is refused
 };
 
+/// Every problem reachwise reports. The text names (codeName()) are written
+/// to outputs and never change; new codes go at the end of a group.
+enum class ProblemCode : std::uint8_t {
+  // reading the layer (io::readNetwork)
+  EmptyLayer,
+  NonLineGeometry,
+  EmptyGeometry,
+  InvalidGeometry,
+  MultipartGap,
+  DuplicateId,
+  MissingAttribute,
+  InvalidAttribute,
+  ImplausibleAttribute,
+  ZeroLength,
+  LengthMismatch,
+  // topology from geometry (geos::buildTopologyFromGeometry)
+  SplitLine,
+  FlippedLine,
+  ProbableGap,
+  ClosedLine,
+  UnknownOutlet,
+  // the graph (validate)
+  UnknownToReach,
+  SelfLoop,
+  Cycle,
+  BifurcationSplitMissing,
+  BifurcationSplitRange,
+  BifurcationSplitSum,
+  SplitUnused,
+  Basin,  ///< the last code
+};
+
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::Basin) + 1;
+
+/// One row of the code table.
+struct ProblemKind {
+  ProblemCode code;
+  std::string_view name;     ///< stable text name, e.g. "flipped_line"
+  Severity severity;
+  /// True for codes about one attribute of a reach: a reach may carry
+  /// several problems of such a code, told apart by their messages.
+  bool per_attribute;
+  std::string_view summary;  ///< what the code means, one line
+};
+
+/// The code table: one row per code, in the order of ProblemCode.
+std::span<const ProblemKind> problemKinds() noexcept;
+const ProblemKind& kindOf(ProblemCode code) noexcept;
+std::string_view codeName(ProblemCode code) noexcept;
+
 struct Problem {
-  std::string code;         ///< stable, e.g. "cycle", "unknown_to_reach" (docs/formats.md)
-  Severity severity = Severity::Error;
+  /// A problem of `code`, with the code's severity, tied to no feature and
+  /// no place until the caller sets them.
+  Problem(ProblemCode code, std::string message);
+
+  ProblemCode code;
+  Severity severity;        ///< the code's (kindOf(code).severity)
   std::int64_t fid = -1;    ///< source feature id, -1 when not tied to one feature
   std::string reach_id;
   double x = std::numeric_limits<double>::quiet_NaN();  ///< location in CRS units
   double y = std::numeric_limits<double>::quiet_NaN();
   std::string message;      ///< one plain sentence
+
+  /// The code's stable text name, as written to outputs ("cycle", "flipped_line").
+  std::string_view codeName() const noexcept { return network::codeName(code); }
 };
 
 using ProblemList = std::vector<Problem>;

@@ -1,8 +1,9 @@
 #pragma once
 /// \file
 /// The directed reach graph: one vertex per reach record, one edge per
-/// downstream link. The single place that touches Boost.Graph; everything
-/// else asks it domain-level questions (upstream of, outlets, cycles, ...).
+/// downstream link. The single place that touches Boost.Graph (only in
+/// ReachGraph.cpp: this header includes no Boost); everything else asks it
+/// domain-level questions (upstream of, outlets, cycles, ...).
 ///
 /// Downstream links come from each record's `to_reach`. A reach that splits
 /// (a bifurcation) names all its downstream reaches in `to_reach`, separated
@@ -11,9 +12,8 @@
 /// reach's outflow that enters it. The splits of one bifurcation must sum
 /// to 1 within 1e-6 (checked by validate()).
 
-#include <boost/graph/adjacency_list.hpp>
-
 #include <cstdint>
+#include <memory>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -60,10 +60,13 @@ public:
   /// unknown ids and duplicates are kept for validate() to report; a
   /// duplicate id resolves to its first record.
   explicit ReachGraph(const ReachTable& table);
+  ReachGraph(ReachGraph&&) noexcept;
+  ReachGraph& operator=(ReachGraph&&) noexcept;
+  ~ReachGraph();
 
   const ReachTable& table() const noexcept { return *table_; }
-  std::size_t size() const noexcept { return boost::num_vertices(g_); }
-  std::size_t linkCount() const noexcept { return boost::num_edges(g_); }
+  std::size_t size() const noexcept;
+  std::size_t linkCount() const noexcept;
 
   // ---- ids ----
   std::optional<Vertex> find(std::string_view reach_id) const;
@@ -75,8 +78,8 @@ public:
   // ---- neighbours (in record order of the links) ----
   std::vector<Vertex> upstream(Vertex v) const;
   std::vector<Vertex> downstream(Vertex v) const;
-  std::size_t upstreamCount(Vertex v) const { return boost::in_degree(v, g_); }
-  std::size_t downstreamCount(Vertex v) const { return boost::out_degree(v, g_); }
+  std::size_t upstreamCount(Vertex v) const;
+  std::size_t downstreamCount(Vertex v) const;
   /// Share of `from`'s outflow entering `to`: 1 unless `from` bifurcates,
   /// then `to`'s split (NaN when not given). Precondition: a link from→to.
   double fraction(Vertex from, Vertex to) const;
@@ -118,17 +121,13 @@ public:
   NetworkPlan freeze() const;
 
 private:
-  struct Link {
-    double fraction = 1.0;
-  };
-  using Graph = boost::adjacency_list<boost::vecS, boost::vecS, boost::bidirectionalS,
-                                      boost::no_property, Link>;
+  struct Links;  ///< the Boost.Graph adjacency list (ReachGraph.cpp)
 
   void indexIds();
   void addLinks();
 
   const ReachTable* table_;
-  Graph g_;
+  std::unique_ptr<Links> links_;
   std::unordered_map<std::string_view, Vertex> index_;  ///< views into table_ ids
   std::vector<UnresolvedLink> unresolved_;
   std::vector<DuplicateId> duplicates_;

@@ -11,25 +11,26 @@
 namespace reachwise::network {
 
 /// A problem of record `r` located at (x, y), in CRS units.
-inline Problem reachProblem(std::string code, Severity severity, const ReachRecord& r, double x,
-                            double y, std::string message) {
-  Problem p;
-  p.code = std::move(code);
-  p.severity = severity;
+inline Problem reachProblem(ProblemCode code, const ReachRecord& r, double x, double y,
+                            std::string message) {
+  Problem p(code, std::move(message));
   p.fid = r.fid;
   p.reach_id = r.id;
   p.x = x;
   p.y = y;
-  p.message = std::move(message);
   return p;
 }
 
-/// The same, located at the record's first vertex (unlocated without geometry).
-inline Problem reachProblem(std::string code, Severity severity, const ReachRecord& r,
-                            std::string message) {
-  const bool at_start = !r.line.empty();
-  return reachProblem(std::move(code), severity, r, at_start ? r.line.front().x : Problem{}.x,
-                      at_start ? r.line.front().y : Problem{}.y, std::move(message));
+/// The same, located at the first vertex of the line as digitised
+/// (unlocated without geometry).
+inline Problem reachProblem(ProblemCode code, const ReachRecord& r, std::string message) {
+  Problem p = reachProblem(code, r, ReachRecord::kUnset, ReachRecord::kUnset, std::move(message));
+  if (!r.line.empty()) {
+    const Point3& first = r.reoriented ? r.line.back() : r.line.front();
+    p.x = first.x;
+    p.y = first.y;
+  }
+  return p;
 }
 
 }  // namespace reachwise::network

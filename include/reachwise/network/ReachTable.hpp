@@ -25,7 +25,8 @@ struct ReachRecord {
   std::string id;                        ///< external reach id, text form
   std::int64_t fid = -1;                 ///< source feature id (for messages)
   std::optional<std::string> to_reach;   ///< downstream id; nullopt/empty = outlet (or unknown)
-  std::vector<Point3> line;              ///< vertices in CRS units, digitising order
+  std::vector<Point3> line;              ///< vertices in CRS units, digitising order unless `reoriented`
+  bool reoriented = false;               ///< `line` was reversed to run with the flow (topology from geometry)
   double length_m = kUnset;              ///< from the `length` field or the geometry
   double geometry_length_m = kUnset;     ///< always from the geometry (planar or geodesic)
   hydraulics::SectionSpec section;       ///< shape, widths, n, slope (NaN = missing)

@@ -1,9 +1,14 @@
 #pragma once
 /// \file
-/// Graph-level checks of a reach network. Per-feature checks (geometry,
-/// attributes, lengths) belong to the reader; these need the whole graph.
+/// Checks of a reach network as a table and a graph: the same for a layer
+/// read by io::readNetwork and for a table built in memory. The reader
+/// reports only what is about reading (geometry, a value missing or not a
+/// number, lengths); ranges of the values read are checked here.
 ///
 /// Codes (docs/formats.md, "Problem codes"):
+///   invalid_attribute          error    a value out of its range (slope <= 0, n <= 0,
+///                                       width < 0, X outside [0, 0.5], ...), an id with ';' or ','
+///   implausible_attribute      warning  n or slope above 0.3
 ///   duplicate_id               error    an id used by more than one record
 ///   unknown_to_reach           error    `to_reach` names no reach
 ///   zero_length                error    reach length (field or geometry) not > 0
@@ -20,12 +25,16 @@
 
 namespace reachwise::network {
 
-/// Every graph-level problem, in a stable order (by code group, then record).
+/// Every problem, in a stable order: the attributes of each record (in
+/// record order), then the graph by code group, then record. Attribute
+/// problems are located at the first vertex of the line as digitised, the
+/// others at the reach end they concern.
 ProblemList validate(const ReachGraph& graph);
 
 /// Appends the problems of `more` that `into` does not already hold (same
-/// code, feature and reach id), so that a check made by both the reader and
-/// the graph is reported once.
+/// code, feature and reach id; for a per-attribute code also the same
+/// message), so that a check made by both the reader and the graph is
+/// reported once.
 void mergeProblems(ProblemList& into, const ProblemList& more);
 
 }  // namespace reachwise::network

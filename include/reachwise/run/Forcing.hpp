@@ -10,7 +10,6 @@
 #include "reachwise/hydraulics/Units.hpp"
 #include "reachwise/io/ForcingFiles.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
-#include "reachwise/network/ReachTable.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
 
 namespace reachwise::run {
@@ -46,9 +45,8 @@ private:
   io::PlanForcing bound_;
 };
 
-/// Base flow of each plan reach, m^3/s (the `base_flow` attribute; none =
-/// 0), for routing::NetworkRouteOptions::base_flow_m3s; empty when no reach
-/// has one.
-std::vector<double> baseFlows(const network::ReachTable& table, const network::NetworkPlan& plan);
+/// Base flow of each plan reach, m^3/s (the plan's, none = 0), for
+/// routing::NetworkRouteOptions::base_flow_m3s; empty when no reach has one.
+std::vector<double> baseFlows(const network::NetworkPlan& plan);
 
 }  // namespace reachwise::run

@@ -88,7 +88,7 @@ std::vector<std::vector<double>> findCuts(const GeosContext& ctx, const ReachTab
         if (!(m > tol && m < len - tol)) continue;  // near an end: snapping handles it
         cuts[j].push_back(m);
         problems.push_back(reachProblem(
-            "split_line", Severity::Warning, rs[j], end->x, end->y,
+            ProblemCode::SplitLine, rs[j], end->x, end->y,
             fmt::format("line {} is cut where the end of {} meets it", rs[j].id, rs[i].id)));
       }
     }
@@ -200,9 +200,10 @@ Graph snapEnds(const GeosContext& ctx, ReachTable& table, double tol) {
 
 void flip(ReachRecord& r, Graph& g, std::size_t i, ProblemList& problems, const char* why) {
   std::reverse(r.line.begin(), r.line.end());
+  r.reoriented = !r.reoriented;
   std::swap(g.from[i], g.to[i]);
   std::swap(r.up_elevation_m, r.down_elevation_m);
-  problems.push_back(reachProblem("flipped_line", Severity::Warning, r, r.line.front().x,
+  problems.push_back(reachProblem(ProblemCode::FlippedLine, r, r.line.front().x,
                                  r.line.front().y,
                                  fmt::format("line {} reversed: {}", r.id, why)));
 }
@@ -372,11 +373,9 @@ void reportUnknownOutlets(const ReachTable& table, const TopologyOptions& opt,
     const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
                                    [&](const ReachRecord& r) { return matchesOutlet(r.id, {o}); });
     if (found) continue;
-    Problem p;
-    p.code = "unknown_outlet";
-    p.severity = Severity::Warning;
+    Problem p(ProblemCode::UnknownOutlet,
+              fmt::format("outlet {} named in the config is not a reach of the layer", o));
     p.reach_id = o;
-    p.message = fmt::format("outlet {} named in the config is not a reach of the layer", o);
     problems.push_back(std::move(p));
   }
 }
@@ -392,7 +391,7 @@ void linkDownstream(ReachTable& table, const Graph& g, ProblemList& problems) {
     r.to_reach.reset();
     if (g.from[i] == npos) continue;
     if (g.from[i] == g.to[i]) {
-      problems.push_back(reachProblem("closed_line", Severity::Error, r, r.line.front().x,
+      problems.push_back(reachProblem(ProblemCode::ClosedLine, r, r.line.front().x,
                                      r.line.front().y,
                                      fmt::format("both ends of line {} meet at one node", r.id)));
       continue;
@@ -442,7 +441,7 @@ std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g
     ++gaps;
     const auto& r = table.reaches[i];
     problems.push_back(reachProblem(
-        "probable_gap", Severity::Error, r, p.x, p.y,
+        ProblemCode::ProbableGap, r, p.x, p.y,
         fmt::format("an end of {} is {:.3g} CRS units from {} but not connected (snap tolerance "
                     "{:.3g})",
                     r.id, best, table.reaches[best_j].id, tol)));

@@ -52,7 +52,8 @@ struct TopologySummary {
 ///     planar length (`split_line`, warning);
 ///  2. line ends within the tolerance are snapped to one node (the end
 ///     vertices are moved onto it);
-///  3. lines are oriented (`flipped_line`, warning, for each reversed line);
+///  3. lines are oriented (`flipped_line`, warning, for each reversed line,
+///     whose record is marked `reoriented`);
 ///  4. `to_reach` of every record is set to the reach leaving its
 ///     downstream node (nullopt at an outlet; at a bifurcation all leaving
 ///     reaches, sorted, joined by ';' as ReachGraph expects) and
