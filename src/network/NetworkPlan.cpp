@@ -30,7 +30,19 @@ void fillReach(NetworkPlan& plan, const ReachGraph& graph, ReachGraph::Vertex v,
   plan.fid.push_back(r.fid);
   plan.record.push_back(v);
   plan.length_m.push_back(graph.lengthM(v));
-  plan.section.push_back(r.section);
+  try {
+    plan.section.push_back(hydraulics::Section::fromSpec(r.section));
+  } catch (const InvalidParameter& e) {
+    // validate() reports a bad section first; freezing a table that was
+    // not validated still names the reach.
+    InputLocation at;
+    at.file = graph.table().source;
+    at.layer = graph.table().layer;
+    at.fid = r.fid;
+    at.reach_id = r.id;
+    at.field = e.quantity();
+    throw InputError(at, e.what());
+  }
   plan.muskingum_k_s.push_back(r.muskingum_k_h * kSecondsPerHour);
   plan.muskingum_x.push_back(r.muskingum_x);
   plan.base_flow_m3s.push_back(r.base_flow_m3s);

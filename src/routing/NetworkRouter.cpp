@@ -145,7 +145,7 @@ private:
     auto out = std::make_unique<std::vector<double>>();
     const bool send = sink_ && sink_->wants(i);
     try {
-      const ReachSpec spec{hydraulics::Section::fromSpec(plan_.section[i]), plan_.length_m[i],
+      const ReachSpec spec{plan_.section[i], plan_.length_m[i],
                            plan_.muskingum_k_s[i], plan_.muskingum_x[i]};
       run = ws.router.route(spec, ws.inflow,
                             (has_lateral || base != 0) ? std::span<const double>(ws.lateral)

@@ -74,7 +74,7 @@ struct Network {
     plan.fid = {2, 3, 1};
     plan.record = {1, 2, 0};
     plan.length_m = {707.1, 707.1, 500};
-    plan.section.resize(3);
+    plan.section.assign(3, hydraulics::Section::trapezoid(10, 0, 0.035, 0.001));
     plan.muskingum_k_s = {kNaN, kNaN, kNaN};
     plan.muskingum_x = {kNaN, kNaN, kNaN};
     plan.base_flow_m3s = {kNaN, kNaN, kNaN};

@@ -371,3 +371,24 @@ TEST(ReachGraph, RecordWithoutGeometryHasNoEndPoints) {
   EXPECT_TRUE(std::isnan(g.bottom(0).y));
   EXPECT_FALSE(g.flipped(1));  // judged against a reach with no line: kept as digitised
 }
+
+TEST(ReachGraph, FreezeBuildsSectionsAndNamesAnInvalidOne) {
+  auto table = TableBuilder().link("A", "B").link("B", std::nullopt).build();
+  {
+    const auto plan = ReachGraph(table).freeze();
+    ASSERT_EQ(plan.section.size(), 2u);
+    // The built section is the record's: Manning's n and the bed slope as given.
+    EXPECT_EQ(plan.section[0].manningN(), 0.035);
+  }
+  // A table that was not validated: a negative slope is refused by name
+  // when the plan is frozen, not later inside the router.
+  table.reaches[1].section.bed_slope = -0.001;
+  try {
+    (void)ReachGraph(table).freeze();
+    FAIL() << "freeze accepted a negative bed slope";
+  } catch (const reachwise::InputError& e) {
+    EXPECT_EQ(e.where().reach_id, "B");
+    EXPECT_EQ(e.where().fid, 101);
+    EXPECT_FALSE(e.where().field.empty());
+  }
+}

@@ -40,7 +40,7 @@ NetworkPlan randomTree(std::size_t n, std::mt19937& rng) {
     s.side_slope = 2 * u(rng);
     s.manning_n = 0.03 + 0.02 * u(rng);
     s.bed_slope = 0.0005 + 0.005 * u(rng);
-    p.section.push_back(s);
+    p.section.push_back(hydraulics::Section::fromSpec(s));
     // K in [0.7, 2.5] h and X in [0, 0.2] keep Muskingum's coefficients
     // non-negative at Δt = 1 h (2KX <= Δt <= 2K(1 − X)).
     p.muskingum_k_s.push_back(3600 * (0.7 + 1.8 * u(rng)));

@@ -22,7 +22,7 @@ struct NetworkPlan {
   std::vector<std::int64_t> fid;               ///< source feature id, -1 when synthetic
   std::vector<std::uint32_t> record;           ///< row in the ReachTable it was built from
   std::vector<double> length_m;
-  std::vector<hydraulics::SectionSpec> section;
+  std::vector<hydraulics::Section> section;     ///< built and checked by freeze()
   std::vector<double> muskingum_k_s;           ///< Muskingum K in seconds, NaN when not given
   std::vector<double> muskingum_x;             ///< NaN when not given
   std::vector<double> base_flow_m3s;           ///< constant flow entering along the reach, NaN when none

@@ -117,7 +117,8 @@ public:
   /// Freezes into plain arrays in topological order. Throws InputError (naming
   /// the source and a reach of the first cycle) when the graph has a cycle.
   /// Call after validate() found no errors: unknown links are simply absent
-  /// and missing splits become NaN fractions.
+  /// and missing splits become NaN fractions. Builds each reach's section
+  /// (an InputError naming the reach and quantity when one is invalid).
   NetworkPlan freeze() const;
 
 private:
