@@ -181,7 +181,7 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--config", o->config,
                   "TOML run file: field mappings and defaults ([network]), any of these options ([route])");
   sub->add_option("--method", o->method, "vpmc (default), mc or muskingum")
-      ->check(CLI::IsMember({"vpmc", "mc", "muskingum"}));
+      ->check(CLI::IsMember(run::methodNames()));
   sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(CLI::PositiveNumber);
   sub->add_option("--out", o->out, "Output GeoPackage (default reachwise-results.gpkg)");
   sub->add_option("--csv", o->csv, "Also write the tables as CSV files into this folder");

@@ -24,6 +24,12 @@ std::string_view methodName(routing::Method method) {
   return {};
 }
 
+std::vector<std::string> methodNames() {
+  std::vector<std::string> names;
+  for (const auto& entry : kMethodNames) names.emplace_back(entry.second);
+  return names;
+}
+
 std::optional<routing::Method> methodFromName(std::string_view name) {
   for (const auto& [m, n] : kMethodNames)
     if (n == name) return m;

@@ -416,4 +416,6 @@ TEST(Route, MethodNamesRoundTrip) {
   for (const auto m : {routing::Method::VariableParameter, routing::Method::ConstantParameter, routing::Method::Muskingum})
     EXPECT_EQ(run::methodFromName(run::methodName(m)), m);
   EXPECT_FALSE(run::methodFromName("kinematic").has_value());
+  // The names are fixed by the command-line contract (README, "Commands").
+  EXPECT_EQ(run::methodNames(), (std::vector<std::string>{"vpmc", "mc", "muskingum"}));
 }

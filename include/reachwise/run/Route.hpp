@@ -34,6 +34,8 @@ using io::kResultsCaution;
 
 /// The method names of the command line and run files: `vpmc`, `mc`, `muskingum`.
 std::string_view methodName(routing::Method method);
+/// Every method name, the default (`vpmc`) first.
+std::vector<std::string> methodNames();
 /// The method of a name above; nothing for any other name.
 std::optional<routing::Method> methodFromName(std::string_view name);
 
