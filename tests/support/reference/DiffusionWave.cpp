@@ -54,9 +54,10 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
   const std::size_t n_reach = grid.cells;
   const double dx0 = length_m / static_cast<double>(n_reach);
   std::vector<double> dx(n_reach, dx0);
-  for (double covered = 0, d = dx0 * grid.growth; covered < grid.buffer_m; d *= grid.growth) {
-    dx.push_back(d);
-    covered += d;
+  const double largest_cell = std::max(dx0, grid.max_buffer_cell_m > 0 ? grid.max_buffer_cell_m : 1e300);
+  for (double covered = 0, d = dx0 * grid.growth; covered < grid.buffer_m; d = std::min(d * grid.growth, largest_cell)) {
+    dx.push_back(std::min(d, largest_cell));
+    covered += dx.back();
   }
   const std::size_t m = dx.size();
   // Distance between the centres on either side of face f (1 <= f < m).
@@ -111,22 +112,34 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
   run.outflow_m3s[0] = flux[n_reach];
 
   const double dt = dt_out / static_cast<double>(grid.substeps);
-  std::vector<double> res(m), a(m), b(m), c(m), cp(m), dp(m);
+  // Residual of every cell's volume balance over a step (m^3), its
+  // tridiagonal Jacobian (a below, b on, c above the diagonal), and the
+  // largest residual as a depth, max |res_i| / (dx_i T_i).
+  std::vector<double> res(m), a(m), b(m), c(m), cp(m), dp(m), start(m);
+  auto assemble = [&](double q_in) {
+    evaluate();
+    fluxes(q_in);
+    double largest = 0;
+    for (std::size_t i = 0; i < m; ++i) {
+      res[i] = dx[i] * (area[i] - old_area[i]) +
+               dt * (theta * (flux[i + 1] - flux[i]) + (1 - theta) * (old_flux[i + 1] - old_flux[i]));
+      b[i] = dx[i] * width[i] + dt * theta * (dl[i + 1] - (i > 0 ? dr[i] : 0.0));
+      c[i] = i + 1 < m ? dt * theta * dr[i + 1] : 0.0;
+      a[i] = i > 0 ? -dt * theta * dl[i] : 0.0;
+      largest = std::max(largest, std::abs(res[i]) / (dx[i] * width[i]));
+    }
+    return largest;
+  };
   const std::size_t steps = (inflow.size() - 1) * grid.substeps;
   for (std::size_t step = 1; step <= steps; ++step) {
     const double t = static_cast<double>(step) * dt;
     const double q_in = sampleAt(inflow, dt_out, t);
+    // Newton's method with a backtracking line search on the largest
+    // residual (in metres of depth): near the bank of a two-stage section
+    // A(y) and K(y) have kinks, where plain Newton can cycle.
+    double norm = assemble(q_in);
     bool done = false;
-    for (int it = 0; it < 60 && !done; ++it) {
-      evaluate();
-      fluxes(q_in);
-      for (std::size_t i = 0; i < m; ++i) {
-        res[i] = dx[i] * (area[i] - old_area[i]) +
-                 dt * (theta * (flux[i + 1] - flux[i]) + (1 - theta) * (old_flux[i + 1] - old_flux[i]));
-        b[i] = dx[i] * width[i] + dt * theta * (dl[i + 1] - (i > 0 ? dr[i] : 0.0));
-        c[i] = i + 1 < m ? dt * theta * dr[i + 1] : 0.0;
-        a[i] = i > 0 ? -dt * theta * dl[i] : 0.0;
-      }
+    for (int it = 0; it < 200 && !done; ++it) {
       // Thomas algorithm for J delta = res.
       cp[0] = c[0] / b[0];
       dp[0] = res[0] / b[0];
@@ -137,19 +150,24 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
       }
       double largest = 0;
       for (std::size_t i = m; i-- > 0;) {
-        const double delta = i + 1 < m ? dp[i] - cp[i] * dp[i + 1] : dp[i];
-        dp[i] = delta;
-        largest = std::max(largest, std::abs(delta));
-        // Depths stay positive: a step may at most halve a depth.
-        y[i] = std::max(y[i] - delta, 0.5 * y[i]);
+        if (i + 1 < m) dp[i] -= cp[i] * dp[i + 1];
+        largest = std::max(largest, std::abs(dp[i]));
       }
       ++run.newton_iterations;
       done = largest < 1e-12 * (1.0 + y0);
+      start = y;
+      for (double lambda = 1.0;; lambda *= 0.5) {
+        // Depths stay positive: a step may at most halve a depth.
+        for (std::size_t i = 0; i < m; ++i) y[i] = std::max(start[i] - lambda * dp[i], 0.5 * start[i]);
+        const double trial = assemble(q_in);
+        if (done || trial <= (1 - 1e-4 * lambda) * norm || lambda < 1e-3) {
+          norm = trial;
+          break;
+        }
+      }
     }
     if (!done)
       throw std::runtime_error("routeDiffusionWave: Newton did not converge at step " + std::to_string(step));
-    evaluate();
-    fluxes(q_in);
     run.inflow_m3 += dt * (theta * flux[0] + (1 - theta) * old_flux[0]);
     run.outflow_m3 += dt * (theta * flux[n_reach] + (1 - theta) * old_flux[n_reach]);
     run.end_outflow_m3 += dt * (theta * flux[m] + (1 - theta) * old_flux[m]);
@@ -167,42 +185,61 @@ ConvergedRun convergeDiffusionWave(const Section& section, double length_m,
                                    std::span<const double> inflow, double dt_s, double rise_s,
                                    const Refinement& refinement) {
   const auto [lo, hi] = std::minmax_element(inflow.begin(), inflow.end());
-  double c_max = 0, diffusion_length = 0;
+  double c_max = 0, ell_min = 1e300, ell_max = 0;
   for (int i = 0; i <= 40; ++i) {
     const double q = *lo + (*hi - *lo) * i / 40.0;
     const double y = section.normalDepth(q);
     const double c = section.celerity(y);
+    const double ell = q / (2 * section.topWidth(y) * section.bedSlope() * c);  // diffusion length nu / c
     c_max = std::max(c_max, c);
-    diffusion_length = std::max(diffusion_length, q / (2 * section.topWidth(y) * section.bedSlope() * c));
+    ell_min = std::min(ell_min, ell);
+    ell_max = std::max(ell_max, ell);
   }
+  const auto ceil_size = [](double v) { return static_cast<std::size_t>(std::ceil(v)); };
   DiffusionWaveGrid grid;
   grid.cells = refinement.first_cells
                    ? refinement.first_cells
-                   : std::max<std::size_t>(10, static_cast<std::size_t>(std::ceil(16 * length_m / (c_max * rise_s))));
+                   : std::max({std::size_t{10}, ceil_size(16 * length_m / (c_max * rise_s)),
+                               ceil_size(length_m / (4 * ell_min))});
   grid.substeps = refinement.first_substeps
                       ? refinement.first_substeps
-                      : std::max<std::size_t>(1, static_cast<std::size_t>(std::ceil(c_max * dt_s * grid.cells / length_m)));
-  grid.buffer_m = std::max(0.5 * length_m, 20 * diffusion_length);
+                      : std::max<std::size_t>(1, ceil_size(c_max * dt_s * grid.cells / length_m));
+  grid.buffer_m = std::max(0.5 * length_m, 20 * ell_max);
+  grid.max_buffer_cell_m = 2 * ell_min;
+  grid.theta = refinement.theta;
 
   const double base = inflow.front();
   ConvergedRun out;
   double last_peak = 0, last_index = 0;
+  bool have_last = false;
   for (std::size_t level = 0; level < refinement.max_levels; ++level) {
-    DiffusionWaveRun run = routeDiffusionWave(section, length_m, inflow, dt_s, grid);
-    const SeriesPeak p = peakOf(run.outflow_m3s);
     out.levels = level + 1;
+    DiffusionWaveRun run;
+    try {
+      run = routeDiffusionWave(section, length_m, inflow, dt_s, grid);
+    } catch (const std::runtime_error&) {
+      // Too coarse for a steep front (the central face flux oscillates when
+      // a cell is many diffusion lengths long): refine and go on.
+      ++out.failed_levels;
+      have_last = false;
+      grid.cells *= 2;
+      grid.substeps *= 2;
+      continue;
+    }
+    const SeriesPeak p = peakOf(run.outflow_m3s);
     out.run = std::move(run);
     out.grid = grid;
-    if (level > 0) {
+    if (have_last) {
       out.last_peak_change = std::abs(p.value - last_peak) / (p.value - base);
       out.last_time_change_s = std::abs(p.index - last_index) * dt_s;
-      if (out.last_peak_change < refinement.tolerance) {
+      if (out.last_peak_change < refinement.tolerance && out.levels >= refinement.min_levels) {
         out.converged = true;
         break;
       }
     }
     last_peak = p.value;
     last_index = p.index;
+    have_last = true;
     grid.cells *= 2;
     grid.substeps *= 2;
   }

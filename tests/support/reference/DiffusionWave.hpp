@@ -41,6 +41,7 @@ struct DiffusionWaveGrid {
   std::size_t substeps = 1;   ///< solver steps per inflow sample
   double buffer_m = 0;        ///< channel modelled past x = L
   double growth = 1.05;       ///< size ratio of consecutive buffer cells
+  double max_buffer_cell_m = 0;  ///< buffer cells grow up to this (0: no limit), at least the reach's dx
   double theta = 0.5;         ///< time weighting of the fluxes
 };
 
@@ -70,6 +71,7 @@ struct ConvergedRun {
   DiffusionWaveRun run;
   DiffusionWaveGrid grid;             ///< the finest grid, whose result is `run`
   std::size_t levels = 0;             ///< grids computed
+  std::size_t failed_levels = 0;      ///< grids on which Newton failed (too coarse), skipped
   double last_peak_change = 0;        ///< |peak_l − peak_{l−1}| / (peak_l − base) of the last refinement
   double last_time_change_s = 0;      ///< shift of the peak time in the last refinement
   bool converged = false;             ///< last_peak_change < tolerance
@@ -77,18 +79,25 @@ struct ConvergedRun {
 
 struct Refinement {
   double tolerance = 5e-4;            ///< on the peak change relative to the peak's rise
+  std::size_t min_levels = 3;         ///< at least two refinements, so one coincidence cannot pass
   std::size_t max_levels = 7;
   std::size_t first_cells = 0;        ///< 0: from the wave length (see convergeDiffusionWave)
   std::size_t first_substeps = 0;     ///< 0: Courant number about 1 at the largest celerity
+  double theta = 0.5;                 ///< time weighting (DiffusionWaveGrid::theta)
 };
 
 /// Solves on a grid, then halves dx and dt together until the outflow peak
 /// changes by less than `tolerance` of its rise above the first inflow
-/// sample (the scheme is second order in both, so the last grid's error is
-/// about a third of its last change). The first grid has at least 10 cells
-/// and 16 per distance the wave travels in its rise time `rise_s` at the
-/// largest celerity over the inflow's range; the buffer is the larger of
-/// L/2 and 20 diffusion lengths Q/(2 T S0 c) (the largest over that range).
+/// sample (and at least `min_levels` grids were computed); the scheme is
+/// second order in both, so the last grid's error is about a third of its
+/// last change. With the diffusion length ell = nu / c = Q / (2 T S0 c)
+/// over the inflow's range of flows, the first grid has at least 10 cells,
+/// 16 per distance the wave travels in its rise time `rise_s` at the
+/// largest celerity, and cells no longer than 4 ell_min (the central face
+/// flux oscillates on cells many diffusion lengths long); the Courant number
+/// is about 1 at the largest celerity. The buffer is the larger of L/2 and
+/// 20 ell_max, its cells no longer than 2 ell_min. A grid on which Newton
+/// fails is skipped (counted) and refined.
 ConvergedRun convergeDiffusionWave(const reachwise::hydraulics::Section& section, double length_m,
                                    std::span<const double> inflow_m3s, double dt_s, double rise_s,
                                    const Refinement& refinement = {});
