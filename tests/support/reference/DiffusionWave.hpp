@@ -15,10 +15,10 @@
 ///                  for a two-stage section the sum of its parts, Chow 1959 §6-8)
 ///
 /// Scheme: finite volumes on the cross-section area (depth the unknown),
-/// the theta method in time (theta = 1/2: Crank–Nicolson), face flux with
-/// the arithmetic mean of the two cells' conveyances and the water-surface
-/// slope between their centres, Newton's method on the tridiagonal system
-/// at every step. Fluxes are shared by neighbouring cells, so the storage
+/// the theta method in time (theta = 1/2: Crank & Nicolson 1947), face flux
+/// with the arithmetic mean of the two cells' conveyances and the
+/// water-surface slope between their centres, Newton's method with a
+/// backtracking line search on the tridiagonal system at every step. Fluxes are shared by neighbouring cells, so the storage
 /// changes by exactly what enters minus what leaves (to the Newton
 /// tolerance and round-off).
 ///
