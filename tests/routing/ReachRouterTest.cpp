@@ -9,10 +9,12 @@
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/Peak.hpp"
+#include "support/reference/Hayami.hpp"
 
 using namespace reachwise;
 using namespace reachwise::routing;
 using hydraulics::Section;
+using testsupport::reference::hayami;
 
 namespace {
 
@@ -24,35 +26,6 @@ std::vector<double> pulse(double base, double amplitude, double duration_s, doub
     if (t < duration_s) q[i] += amplitude * std::pow(std::sin(std::numbers::pi * t / duration_s), 2);
   }
   return q;
-}
-
-/// Hayami (1951) linear diffusion-wave solution at distance x (METHODS §4),
-/// by direct numerical quadrature of the convolution with the kernel
-///   h(x,t) = x / (2 sqrt(pi nu t^3)) exp(-(x - c t)^2 / (4 nu t)),
-/// midpoint rule on a 10 s grid, inflow interpolated linearly. Independent of
-/// the router: only the closed-form kernel and the inflow are used.
-std::vector<double> hayami(const std::vector<double>& inflow, double base, double dt, double x,
-                           double c, double nu) {
-  const double h = 10.0;
-  auto kernel = [&](double t) {
-    if (t <= 0) return 0.0;
-    return x / (2.0 * std::sqrt(std::numbers::pi * nu * t * t * t)) *
-           std::exp(-(x - c * t) * (x - c * t) / (4.0 * nu * t));
-  };
-  auto in = [&](double t) {
-    const double u = t / dt;
-    const auto i = static_cast<std::size_t>(u);
-    if (i + 1 >= inflow.size()) return inflow.back();
-    return inflow[i] + (inflow[i + 1] - inflow[i]) * (u - i);
-  };
-  std::vector<double> out(inflow.size(), base);
-  for (std::size_t n = 1; n < inflow.size(); ++n) {
-    const double t = n * dt;
-    double sum = 0;
-    for (double tau = 0.5 * h; tau < t; tau += h) sum += (in(tau) - base) * kernel(t - tau) * h;
-    out[n] = base + sum;
-  }
-  return out;
 }
 
 }  // namespace
