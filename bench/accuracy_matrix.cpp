@@ -1,4 +1,4 @@
-// The accuracy matrix of issue 11: `vpmc` and `mc` (routing::ReachRouter)
+// The accuracy matrix: `vpmc` and `mc` (routing::ReachRouter)
 // against the converged conservative zero-inertia reference of the test
 // suite (tests/support/reference/DiffusionWave.hpp), on single reaches of
 // 5, 20 and 80 km, slopes 0.005, 0.001, 0.0002 and 1e-5, a sharp (6 h rise)

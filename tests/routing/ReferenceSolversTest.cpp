@@ -1,5 +1,5 @@
 // Self-checks of the reference solvers in tests/support/reference, the
-// yardstick the routing methods are measured against (issue 11). Each check
+// yardstick the routing methods are measured against. Each check
 // is against something outside the solvers: an exact identity (mass
 // conservation, the steady uniform state) or the exact linear solution
 // (Hayami 1951).
@@ -103,7 +103,7 @@ TEST(DiffusionWaveReference, MatchesHayamiForSmallWaves) {
   }
 }
 
-// The hard case of the accuracy matrix (issue 11): a sharp wave to 1.5 x
+// The hard case of the accuracy matrix (bench/accuracy_matrix.cpp): a sharp wave to 1.5 x
 // bank-full on a two-stage section, where the celerity drops by a factor of
 // about four at the bank. The refinement must settle (peak change < 0.05 %
 // of the rise), and the converged outflow must obey what the continuous
