@@ -15,6 +15,11 @@ constexpr std::pair<routing::Method, std::string_view> kMethodNames[] = {
     {routing::Method::Muskingum, "muskingum"},
 };
 
+/// How the run was asked for, as run_info and the NetCDF history record it.
+std::string provenance(const RouteRequest& request) {
+  return request.command_line.empty() ? "reachwise library" : request.command_line;
+}
+
 }  // namespace
 
 std::string_view methodName(routing::Method method) {
@@ -42,7 +47,7 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
   for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config})
     if (!f->empty()) info.inputs.push_back(*f);
   info.method = methodName(request.method);
-  info.command_line = request.command_line.empty() ? "reachwise library" : request.command_line;
+  info.command_line = provenance(request);
   info.warnings = results.warnings;
   info.series_file = request.outputs.series_nc;
   return info;
@@ -60,8 +65,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
 
   tell.stage("reading the forcing");
   const RunForcing forcing(request.forcing, plan, net.config.units);
-  Outputs outputs(request.outputs, net, plan, forcing.axis(),
-                  request.command_line.empty() ? "reachwise library" : request.command_line, request.sinks);
+  Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), request.sinks);
 
   tell.stage("routing");
   routing::NetworkRouteOptions ro;
