@@ -39,9 +39,15 @@ VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const Netwo
     b.storage_change_m3 += v.storage_change_m3;
     if (plan.isOutlet(i)) b.outflow_m3 += v.outflow_m3;
     else b.inflow_m3 -= v.outflow_m3;
+    // The initial flow entering the network: each reach's initial top +
+    // lateral inflow, less what arrived from upstream reaches, whose
+    // initial outflow (a steady start) is their own initial inflow. What
+    // remains is the outlets' share.
+    if (plan.isOutlet(i)) b.base_m3 += v.base_m3;
   }
   const double entered = b.inflow_m3 + b.lateral_m3;
   b.error_pct = entered > 0 ? 100.0 * (entered - b.outflow_m3 - b.storage_change_m3) / entered : 0.0;
+  b.event_error_pct = eventErrorPct(b);
   return b;
 }
 

@@ -22,16 +22,25 @@ void checkSeries(const char* quantity, std::span<const double> s) {
                                            std::to_string(s[i]) + ")");
 }
 
-void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1) {
+void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1, double base_m3) {
   v.inflow_m3 = t.in;
   v.lateral_m3 = t.lat;
   v.outflow_m3 = t.out;
   v.storage_change_m3 = s1 - s0;
+  v.base_m3 = base_m3;
   const double entered = t.in + t.lat;
   v.error_pct = entered > 0 ? 100.0 * (entered - t.out - (s1 - s0)) / entered : 0.0;
+  v.event_error_pct = eventErrorPct(v);
 }
 
 }  // namespace
+
+double eventErrorPct(const VolumeBalance& v) {
+  const double entered = v.inflow_m3 + v.lateral_m3;
+  const double event = entered - v.base_m3;
+  if (!(entered > 0) || !(event > 1e-6 * entered)) return kNaN;
+  return 100.0 * (entered - v.outflow_m3 - v.storage_change_m3) / event;
+}
 
 ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> inflow,
                             std::span<const double> lateral, double dt, const RouteOptions& opt,
@@ -92,7 +101,9 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     num.amplitude_ratio = r.amplitude;
     num.phase_ratio = r.phase;
   }
-  finishVolume(run.volume, ctx.totals, ctx.storage_start_m3, ctx.storage_end_m3);
+  // The initial flow over the run's duration, on the same steps as the totals.
+  const double base_m3 = total_[0] * dt * static_cast<double>(n_steps - 1);
+  finishVolume(run.volume, ctx.totals, ctx.storage_start_m3, ctx.storage_end_m3, base_m3);
   return run;
 }
 

@@ -102,6 +102,7 @@ struct Network {
       s.peak_depth_m = 1.5;
       s.peak_velocity_ms = 0.8;
       s.volume.error_pct = 0.01 * static_cast<double>(i);
+      s.volume.event_error_pct = 0.04 * static_cast<double>(i);
       s.numerics.subreaches = 3 + static_cast<std::uint32_t>(i);
       s.numerics.substeps = 2;
       s.numerics.courant = 0.9;
@@ -131,6 +132,7 @@ struct Network {
     y.branch_spread_s = 3600;
     y.coincidence_ratio = 19.5 / 21.0;
     results.warnings = {"reach C,lower: grid compromise"};
+    results.volume.event_error_pct = -2.5;
 
     info.inputs = {"brannoch.gpkg", "inflow.csv"};
     info.method = "vpmc";
@@ -179,7 +181,8 @@ const std::vector<std::string> kReachFields = {
     "inflow_peak_time", "attenuation_pct", "travel_time_h", "volume_in_m3", "volume_lateral_m3",
     "volume_out_m3", "storage_change_m3", "volume_error_pct", "subreaches", "substeps", "dx_m",
     "dt_sub_s", "courant", "x", "cell_reynolds", "reference_q", "amplitude_ratio", "phase_ratio",
-    "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin"};
+    "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin",
+    "event_volume_error_pct"};
 const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
                                               "branch_count", "branch_spread_h", "coincidence_ratio"};
 
@@ -258,6 +261,7 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   auto c = featureWhere(reaches, "reach_id = 'C,lower'");
   ASSERT_TRUE(c);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("travel_time_h"), 1.5);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("event_volume_error_pct"), 0.08);
   EXPECT_EQ(c->GetFieldAsInteger("grid_compromise"), 1);
   EXPECT_EQ(c->GetFieldAsInteger("strahler"), 2);
   EXPECT_DOUBLE_EQ(c->GetGeometryRef()->toLineString()->getY(1), 0.0);
@@ -296,6 +300,9 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   for (const char* key : {"method", "dt_s", "steps", "start", "end", "version", "git_hash",
                           "command_line", "caution"})
     EXPECT_EQ(keys.count(key), 1u) << key;
+  auto event = featureWhere(run_info, "key = 'event_volume_error_pct'");
+  ASSERT_TRUE(event);
+  EXPECT_STREQ(event->GetFieldAsString("value"), "-2.5");
   auto start = featureWhere(run_info, "key = 'start'");
   EXPECT_STREQ(start->GetFieldAsString("value"), "2026-05-01T01:00:00+01:00");  // ISO 8601 at +01:00
 }
@@ -527,6 +534,7 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   auto c = featureWhere(rl, "reach_id = 'C,lower'");
   ASSERT_TRUE(c);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("peak_q"), 12.0);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("event_volume_error_pct"), 0.08);
   // ISO 8601 at the run's offset: 03:00:00.25Z is 04:00:00.250+01:00.
   EXPECT_STREQ(c->GetFieldAsString("peak_time"), "2026-05-01T04:00:00.250+01:00");
   OGRGeometry* geometry = nullptr;

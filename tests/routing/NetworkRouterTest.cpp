@@ -266,6 +266,20 @@ TEST(NetworkRouter, VolumeBalanceAtTheOutlet) {
     EXPECT_NEAR(r.volume.outflow_m3 / out, 1.0, 1e-12);
     EXPECT_NEAR(r.volume.storage_change_m3, stored, 1e-9 * entered);
     EXPECT_NEAR(r.volume.error_pct, 100 * (entered - out - stored) / entered, 1e-9);
+    // The event basis: the initial flow entering the network is the point
+    // and lateral forcing at the first sample, summed here from the
+    // forcing; over the 199 hourly steps it brings the base volume.
+    double initial = 0;
+    for (std::uint32_t i = 0; i < p.size(); ++i) {
+      if (!f.inflow_m3s[i].empty()) initial += f.inflow_m3s[i][0];
+      if (!f.lateral_m3s[i].empty()) initial += f.lateral_m3s[i][0];
+    }
+    const double base = initial * 199 * 3600;
+    EXPECT_NEAR(r.volume.base_m3, base, 1e-9 * base);
+    const double entered_net = r.volume.inflow_m3 + r.volume.lateral_m3;
+    EXPECT_NEAR(r.volume.event_error_pct,
+                100 * (entered_net - r.volume.outflow_m3 - r.volume.storage_change_m3) / (entered_net - base),
+                1e-9);
     // Cell updates: sub-reaches × sub-steps per reach, times the 199 steps.
     double cells = 0;
     for (const ReachSummary& s : r.reaches) cells += double(s.numerics.subreaches) * s.numerics.substeps * 199;

@@ -151,6 +151,48 @@ TEST(ReachRouter, VariableParameterVolumeErrorReportedAndSmall) {
   }
 }
 
+// The event basis of the volume balance, by hand from the test's own series:
+// a steady base flow (top 20, lateral 3 m^3/s) plus a sharp pulse on each.
+// Entered volume by the trapezoidal rule on the output steps (as the router
+// sums it), the base volume = the first sample's total × the duration, and
+// the error volume in + lateral − out − ΔS from the router's own terms (the
+// identity of docs/methods.md, "Volume balance").
+TEST(ReachRouter, EventVolumeErrorIsRelativeToTheVolumeAboveTheInitialFlow) {
+  const Section s = Section::trapezoid(12, 2, 0.035, 0.004);
+  const double dt = 900;
+  const std::size_t n = 240;
+  const std::vector<double> in = pulse(20, 120, 6 * 3600, dt, n), lat = pulse(3, 10, 4 * 3600, dt, n);
+  double entered = 0;
+  for (std::size_t i = 0; i + 1 < n; ++i) entered += 0.5 * dt * (in[i] + in[i + 1] + lat[i] + lat[i + 1]);
+  const double base = (in[0] + lat[0]) * dt * double(n - 1);
+  for (Method m : {Method::VariableParameter, Method::ConstantParameter}) {
+    RouteOptions opt;
+    opt.method = m;
+    std::vector<double> out;
+    ReachRouter router;
+    const VolumeBalance v = router.route({s, 40000}, in, lat, dt, opt, out).volume;
+    EXPECT_NEAR(v.inflow_m3 + v.lateral_m3, entered, 1e-12 * entered);
+    EXPECT_NEAR(v.base_m3, base, 1e-12 * base);
+    const double error_m3 = entered - v.outflow_m3 - v.storage_change_m3;
+    EXPECT_NEAR(v.event_error_pct, 100 * error_m3 / (entered - base), 1e-9) << int(m);
+    // The two bases differ by the ratio of the volumes (here about 3×).
+    EXPECT_NEAR(v.event_error_pct * (entered - base), v.error_pct * entered, 1e-9 * entered) << int(m);
+    EXPECT_GT(entered / (entered - base), 2.0);
+  }
+}
+
+// A steady run has no event: the event basis is undefined (NaN), the
+// all-water basis is the round-off of a steady state.
+TEST(ReachRouter, EventVolumeErrorIsNaNWithoutAnEvent) {
+  const Section s = Section::trapezoid(12, 2, 0.035, 0.004);
+  const std::vector<double> in(50, 20.0);
+  std::vector<double> out;
+  ReachRouter router;
+  const VolumeBalance v = router.route({s, 20000}, in, {}, 900, RouteOptions{}, out).volume;
+  EXPECT_TRUE(std::isnan(v.event_error_pct));
+  EXPECT_LT(std::abs(v.error_pct), 1e-9);
+}
+
 // The scheme marches forward in time, so the outflow up to a step cannot
 // depend on inflow after it (common practice: causality of an explicit
 // scheme). Cutting the series short, to an odd and to an even number of

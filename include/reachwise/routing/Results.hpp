@@ -44,6 +44,14 @@ struct VolumeBalance {
   double storage_change_m3 = 0;    ///< storage at the end minus at the start
   /// 100 (in + lateral − out − Δstorage) / (in + lateral); 0 when nothing entered.
   double error_pct = 0;
+  /// What the initial flow alone would have brought: the top + lateral
+  /// inflow at the first sample times the run's duration.
+  double base_m3 = 0;
+  /// The same error volume relative to the event, the volume that entered
+  /// above the initial flow: 100 (in + lateral − out − Δstorage) /
+  /// (in + lateral − base). NaN when that event volume is not above 1e-6 of
+  /// what entered (a steady run, or inflow that only falls).
+  double event_error_pct = kNaN;
 };
 
 struct ReachSummary {
