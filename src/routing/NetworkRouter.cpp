@@ -7,8 +7,10 @@
 #include <algorithm>
 #include <atomic>
 #include <cmath>
+#include <cstdio>
 #include <memory>
 #include <mutex>
+#include <string>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/Peak.hpp"
@@ -66,6 +68,13 @@ struct Workspace {
 };
 
 double peakTime(const TimeAxis& axis, const Peak& p) { return axis.at(p.index); }
+
+/// "+1.23 %": a signed percentage for a warning.
+std::string percent(double v) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%+.2f %%", v);
+  return buf;
+}
 
 class Scheduler {
 public:
@@ -280,21 +289,31 @@ void Scheduler::collectNodes() {
 void Scheduler::summariseWarnings() {
   // One line per kind of event, with counts, not one per cell.
   std::uint64_t neg = 0, xc = 0, sur = 0;
-  std::size_t neg_r = 0, xc_r = 0, sur_r = 0, comp_r = 0, vol_r = 0;
-  for (const ReachSummary& r : results_.reaches) {
+  std::size_t neg_r = 0, xc_r = 0, sur_r = 0, comp_r = 0, vol_r = 0, vol_at = 0;
+  double vol_worst = 0;
+  for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
+    const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
     if (m.negative_clamps) neg += m.negative_clamps, ++neg_r;
     if (m.x_clamps) xc += m.x_clamps, ++xc_r;
     if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
     if (m.grid_compromise) ++comp_r;
-    if (std::abs(r.volume.error_pct) > 1.0) ++vol_r;
+    if (std::abs(r.volume.event_error_pct) > 1.0) {
+      ++vol_r;
+      if (std::abs(r.volume.event_error_pct) > std::abs(vol_worst)) {
+        vol_worst = r.volume.event_error_pct;
+        vol_at = i;
+      }
+    }
   }
   auto& w = results_.warnings;
   if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + std::to_string(neg_r) + " reaches");
   if (xc_r) w.push_back(std::to_string(xc) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r) + " reaches (short or flat reaches: less diffusion than physical)");
   if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + std::to_string(sur_r) + " reaches");
   if (comp_r) w.push_back(std::to_string(comp_r) + " reaches where no grid kept every coefficient non-negative; the closest was used");
-  if (vol_r) w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 %");
+  if (vol_r)
+    w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
+                percent(vol_worst) + " at reach " + plan_.reach_id[vol_at]);
 }
 
 }  // namespace
