@@ -60,7 +60,7 @@ const std::vector<Column>& reachColumns() {
       {"negative_clamps", CT::Integer64}, {"x_clamps", CT::Integer64},
       {"surcharge_cells", CT::Integer64}, {"grid_compromise", CT::Boolean},
       {"strahler", CT::Integer},       {"basin", CT::Integer},
-      {"event_volume_error_pct", CT::Real},
+      {"event_volume_error_pct", CT::Real}, {"x_clamp_cause", CT::Text},
   };
   return columns;
 }
@@ -101,6 +101,8 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   row.push_back(i < plan.strahler.size() ? integer(plan.strahler[i]) : Value{});
   row.push_back(i < plan.basin.size() ? integer(plan.basin[i]) : Value{});
   row.push_back(real(v.event_error_pct));
+  if (n.x_clamp_cause == routing::XClampCause::None) row.emplace_back();
+  else row.emplace_back(std::string(routing::xClampCauseName(n.x_clamp_cause)));
   REACHWISE_ASSERT(row.size() == reachColumns().size());
   return row;
 }

@@ -288,14 +288,21 @@ void Scheduler::collectNodes() {
 
 void Scheduler::summariseWarnings() {
   // One line per kind of event, with counts, not one per cell.
-  std::uint64_t neg = 0, xc = 0, sur = 0;
-  std::size_t neg_r = 0, xc_r = 0, sur_r = 0, comp_r = 0, vol_r = 0, vol_at = 0;
+  std::uint64_t neg = 0, sur = 0;
+  // X clamps by cause (XClampCause): cells and reaches.
+  constexpr std::size_t kCauses = static_cast<std::size_t>(XClampCause::FlowRange) + 1;
+  std::uint64_t xc[kCauses] = {};
+  std::size_t xc_r[kCauses] = {};
+  std::size_t neg_r = 0, sur_r = 0, comp_r = 0, vol_r = 0, vol_at = 0;
   double vol_worst = 0;
   for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
     const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
     if (m.negative_clamps) neg += m.negative_clamps, ++neg_r;
-    if (m.x_clamps) xc += m.x_clamps, ++xc_r;
+    if (m.x_clamps) {
+      const auto c = static_cast<std::size_t>(m.x_clamp_cause);
+      xc[c] += m.x_clamps, ++xc_r[c];
+    }
     if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
     if (m.grid_compromise) ++comp_r;
     if (std::abs(r.volume.event_error_pct) > 1.0) {
@@ -308,7 +315,18 @@ void Scheduler::summariseWarnings() {
   }
   auto& w = results_.warnings;
   if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + std::to_string(neg_r) + " reaches");
-  if (xc_r) w.push_back(std::to_string(xc) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r) + " reaches (short or flat reaches: less diffusion than physical)");
+  // X raised to 0 routes with less diffusion than physical; each cause in its own words.
+  const char* const why[kCauses] = {
+      "",
+      "reaches with a pipe in surcharge (above its capacity)",
+      "two-stage reaches whose flows cross bank-full (the celerity changes abruptly there)",
+      "short reaches (the wave crosses the reach within one time step)",
+      "flat reaches (D > 1 at the reference flow: a sub-reach is shorter than the diffusion length Q/(T S0 c))",
+      "reaches at flows away from the reference flow (D > 1 there)"};
+  for (std::size_t c = 1; c < kCauses; ++c)
+    if (xc_r[c])
+      w.push_back(std::to_string(xc[c]) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r[c]) + " " +
+                  why[c]);
   if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + std::to_string(sur_r) + " reaches");
   if (comp_r) w.push_back(std::to_string(comp_r) + " reaches where no grid kept every coefficient non-negative; the closest was used");
   if (vol_r)

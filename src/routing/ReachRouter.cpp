@@ -33,7 +33,35 @@ void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1, doubl
   v.event_error_pct = eventErrorPct(v);
 }
 
+/// The first cause that applies to a reach's X clamps (XClampCause);
+/// `q_lo`, `q_hi` the range of its top + lateral inflow, `dt` the step.
+XClampCause xClampCause(const ReachNumerics& num, const hydraulics::Section& section, double length,
+                        double q_lo, double q_hi, double dt) {
+  if (num.x_clamps == 0) return XClampCause::None;
+  if (num.surcharge_cells > 0) return XClampCause::Surcharge;
+  if (section.shape() == hydraulics::Shape::TwoStage) {
+    const double q_bank = section.discharge(section.bankDepth());
+    if (q_lo < q_bank && q_bank < q_hi) return XClampCause::BankFull;
+  }
+  if (num.celerity_ms * dt >= length) return XClampCause::Short;
+  // The methods report D at the reference flow as clamped, so D > 1 shows as 1.
+  if (num.cell_reynolds >= 1.0) return XClampCause::Flat;
+  return XClampCause::FlowRange;
+}
+
 }  // namespace
+
+const char* xClampCauseName(XClampCause cause) {
+  switch (cause) {
+    case XClampCause::None: return "";
+    case XClampCause::Surcharge: return "surcharge";
+    case XClampCause::BankFull: return "bank_full";
+    case XClampCause::Short: return "short";
+    case XClampCause::Flat: return "flat";
+    case XClampCause::FlowRange: return "flow_range";
+  }
+  return "";
+}
 
 double eventErrorPct(const VolumeBalance& v) {
   const double entered = v.inflow_m3 + v.lateral_m3;
@@ -101,6 +129,7 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     num.amplitude_ratio = r.amplitude;
     num.phase_ratio = r.phase;
   }
+  num.x_clamp_cause = xClampCause(num, reach.section, reach.length_m, q_base, q_peak, dt);
   // The initial flow over the run's duration, on the same steps as the totals.
   const double base_m3 = total_[0] * dt * static_cast<double>(n_steps - 1);
   finishVolume(run.volume, ctx.totals, ctx.storage_start_m3, ctx.storage_end_m3, base_m3);

@@ -342,6 +342,27 @@ TEST(NetworkRouter, VolumeWarningUsesTheEventBasis) {
   EXPECT_EQ(warningWith(ok, "volume error"), "");
 }
 
+// A pipe in surcharge: the X-clamp warning names surcharge, not the length
+// or slope of the reach (the pipe is 500 m at S0 = 0.002, taken to 1.5 ×
+// its capacity, the cause Section::capacity() defines).
+TEST(NetworkRouter, XClampWarningNamesSurcharge) {
+  std::mt19937 rng(4);
+  NetworkPlan p = randomTree(1, rng);
+  p.section[0] = hydraulics::Section::circle(1.0, 0.014, 0.002);
+  p.length_m[0] = 500;
+  MemoryForcing f;
+  f.inflow_m3s = {storm(100, 0.2, 1.5 * p.section[0].capacity() - 0.2, 5, 24)};
+  const NetworkResults r = routeNetwork(p, hourly(100), f, NetworkRouteOptions{});
+  ASSERT_GT(r.reaches[0].numerics.x_clamps, 0u);
+  const std::string w = warningWith(r, "X < 0 raised to 0");
+  EXPECT_NE(w.find("surcharge"), std::string::npos) << w;
+  EXPECT_NE(w.find(" in 1 reaches"), std::string::npos) << w;
+  for (const std::string& line : r.warnings) {
+    EXPECT_EQ(line.find("flat"), std::string::npos) << line;
+    EXPECT_EQ(line.find("short"), std::string::npos) << line;
+  }
+}
+
 TEST(NetworkRouter, ConfluenceNodesCarryBranchTiming) {
   std::mt19937 rng(21);
   const NetworkPlan p = randomTree(80, rng);

@@ -193,6 +193,47 @@ TEST(ReachRouter, EventVolumeErrorIsNaNWithoutAnEvent) {
   EXPECT_LT(std::abs(v.error_pct), 1e-9);
 }
 
+// The cause given for X clamps (docs/methods.md, "Diagnostics"), each case
+// built so that one cause applies and is checked from the test's own
+// numbers: a pipe taken to 1.5 × its capacity; a two-stage section whose
+// inflow rises from below to above its bank-full flow (Manning at bank
+// depth); a 150 m steep reach, which a wave of at least 1 m/s crosses in
+// under one 900 s step; a 20 km reach at S0 = 1e-5, whose diffusion length
+// Q/(T S0 c) at the reference flow is far longer than the reach.
+TEST(ReachRouter, XClampsNameTheirCause) {
+  const double dt = 900;
+  const Section pipe = Section::circle(1.0, 0.014, 0.002);
+  const Section two_stage = Section::twoStage(20, 2, 3, 200, 0.035, 0.07, 0.0002);
+  const double bank_q = two_stage.discharge(3.0);
+  const Section flat = Section::rectangle(50, 0.035, 1e-5);
+  struct Case {
+    Section section;
+    double length_m, base, amplitude;
+    XClampCause cause;
+  };
+  const Case cases[] = {
+      {pipe, 500, 0.2, 1.5 * pipe.capacity() - 0.2, XClampCause::Surcharge},
+      {two_stage, 80000, 0.5 * bank_q, 3 * bank_q, XClampCause::BankFull},
+      {Section::rectangle(10, 0.035, 0.005), 150, 5, 20, XClampCause::Short},
+      {flat, 20000, 100, 400, XClampCause::Flat},
+  };
+  for (const Case& c : cases) {
+    std::vector<double> out;
+    ReachRouter router;
+    const ReachRun r = router.route({c.section, c.length_m}, pulse(c.base, c.amplitude, 12 * 3600, dt, 200), {},
+                                    dt, RouteOptions{}, out);
+    ASSERT_GT(r.numerics.x_clamps, 0u) << xClampCauseName(c.cause);
+    EXPECT_EQ(r.numerics.x_clamp_cause, c.cause) << xClampCauseName(r.numerics.x_clamp_cause);
+    if (c.cause == XClampCause::Short) {
+      EXPECT_LT(c.length_m, r.numerics.celerity_ms * dt);
+    }
+    if (c.cause == XClampCause::Flat) {
+      const hydraulics::FlowState f = c.section.normalFlow(r.numerics.reference_q_m3s);
+      EXPECT_GT(r.numerics.reference_q_m3s / (f.top_width_m * c.section.bedSlope() * f.celerity_ms), c.length_m);
+    }
+  }
+}
+
 // The scheme marches forward in time, so the outflow up to a step cannot
 // depend on inflow after it (common practice: causality of an explicit
 // scheme). Cutting the series short, to an odd and to an even number of
