@@ -61,6 +61,7 @@ const std::vector<Column>& reachColumns() {
       {"surcharge_cells", CT::Integer64}, {"grid_compromise", CT::Boolean},
       {"strahler", CT::Integer},       {"basin", CT::Integer},
       {"event_volume_error_pct", CT::Real}, {"x_clamp_cause", CT::Text},
+      {"envelope_exceedances", CT::Integer64}, {"envelope_excursion_pct", CT::Real},
   };
   return columns;
 }
@@ -103,6 +104,8 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   row.push_back(real(v.event_error_pct));
   if (n.x_clamp_cause == routing::XClampCause::None) row.emplace_back();
   else row.emplace_back(std::string(routing::xClampCauseName(n.x_clamp_cause)));
+  row.push_back(integer(n.envelope_exceedances));
+  row.push_back(real(n.envelope_excursion_pct));
   REACHWISE_ASSERT(row.size() == reachColumns().size());
   return row;
 }

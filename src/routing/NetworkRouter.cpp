@@ -295,6 +295,9 @@ void Scheduler::summariseWarnings() {
   std::size_t xc_r[kCauses] = {};
   std::size_t neg_r = 0, sur_r = 0, comp_r = 0, vol_r = 0, vol_at = 0;
   double vol_worst = 0;
+  std::uint64_t env = 0;
+  std::size_t env_r = 0, env_at = 0;
+  double env_worst = 0;
   for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
     const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
@@ -305,6 +308,10 @@ void Scheduler::summariseWarnings() {
     }
     if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
     if (m.grid_compromise) ++comp_r;
+    if (m.envelope_exceedances) {
+      env += m.envelope_exceedances, ++env_r;
+      if (m.envelope_excursion_pct > env_worst) env_worst = m.envelope_excursion_pct, env_at = i;
+    }
     if (std::abs(r.volume.event_error_pct) > 1.0) {
       ++vol_r;
       if (std::abs(r.volume.event_error_pct) > std::abs(vol_worst)) {
@@ -329,6 +336,12 @@ void Scheduler::summariseWarnings() {
                   why[c]);
   if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + std::to_string(sur_r) + " reaches");
   if (comp_r) w.push_back(std::to_string(comp_r) + " reaches where no grid kept every coefficient non-negative; the closest was used");
+  if (env_r) {
+    const std::string worst = percent(env_worst);
+    w.push_back(std::to_string(env_r) + " reaches leave the [base flow, inflow peak] envelope by more than 1 % of the rise (" +
+                std::to_string(env) + " output samples), worst " + worst.substr(1) + " of the rise at reach " +
+                plan_.reach_id[env_at]);
+  }
   if (vol_r)
     w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
                 percent(vol_worst) + " at reach " + plan_.reach_id[vol_at]);

@@ -49,6 +49,21 @@ XClampCause xClampCause(const ReachNumerics& num, const hydraulics::Section& sec
   return XClampCause::FlowRange;
 }
 
+/// How far the outflow leaves [lo, hi]: samples beyond it by more than
+/// 1 % of hi − lo, and the farthest excursion in % of hi − lo.
+void envelopeCheck(std::span<const double> out, double lo, double hi, ReachNumerics& num) {
+  const double rise = hi - lo;
+  if (!(rise > 0)) return;
+  const double margin = 0.01 * rise;
+  double worst = 0;
+  for (const double q : out) {
+    const double beyond = std::max(lo - q, q - hi);
+    if (beyond > margin) ++num.envelope_exceedances;
+    worst = std::max(worst, beyond);
+  }
+  num.envelope_excursion_pct = 100.0 * worst / rise;
+}
+
 }  // namespace
 
 const char* xClampCauseName(XClampCause cause) {
@@ -86,9 +101,13 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   total_.resize(n_samples);
   bool good = true;
   double q_base = inflow[0] + (lateral.empty() ? 0.0 : lateral[0]), q_peak = q_base;
-  double q_in_min = inflow[0];
+  double q_in_min = inflow[0], q_in_max = inflow[0];
+  double q_lat_min = lateral.empty() ? 0.0 : lateral[0], q_lat_max = q_lat_min;
   for (std::size_t i = 0; i < n_samples; ++i) {
     const double in = inflow[i], lat = lateral.empty() ? 0.0 : lateral[i];
+    q_in_max = std::max(q_in_max, in);
+    q_lat_min = std::min(q_lat_min, lat);
+    q_lat_max = std::max(q_lat_max, lat);
     good &= (in >= 0) & (in <= std::numeric_limits<double>::max()) & (lat >= 0) &
             (lat <= std::numeric_limits<double>::max());
     const double t = in + lat;
@@ -129,6 +148,9 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     num.amplitude_ratio = r.amplitude;
     num.phase_ratio = r.phase;
   }
+  // The outflow is the top and lateral inflow, each delayed and spread:
+  // it stays between their lowest and their highest added.
+  envelopeCheck(out, q_in_min + q_lat_min, q_in_max + q_lat_max, num);
   num.x_clamp_cause = xClampCause(num, reach.section, reach.length_m, q_base, q_peak, dt);
   // The initial flow over the run's duration, on the same steps as the totals.
   const double base_m3 = total_[0] * dt * static_cast<double>(n_steps - 1);

@@ -110,6 +110,8 @@ struct Network {
       s.numerics.negative_clamps = 5'000'000'000ull;  // beyond 32 bits
       s.numerics.grid_compromise = i == 2;
       s.numerics.x_clamp_cause = i == 2 ? routing::XClampCause::Surcharge : routing::XClampCause::None;
+      s.numerics.envelope_exceedances = 3 * i;
+      s.numerics.envelope_excursion_pct = 1.5 * static_cast<double>(i);
     }
     results.reaches[0].peak_depth_m = kNaN;  // must come back as NULL
     results.reaches[2].travel_time_s = 5400;
@@ -183,7 +185,7 @@ const std::vector<std::string> kReachFields = {
     "volume_out_m3", "storage_change_m3", "volume_error_pct", "subreaches", "substeps", "dx_m",
     "dt_sub_s", "courant", "x", "cell_reynolds", "reference_q", "amplitude_ratio", "phase_ratio",
     "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin",
-    "event_volume_error_pct", "x_clamp_cause"};
+    "event_volume_error_pct", "x_clamp_cause", "envelope_exceedances", "envelope_excursion_pct"};
 const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
                                               "branch_count", "branch_spread_h", "coincidence_ratio"};
 
@@ -264,6 +266,8 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("travel_time_h"), 1.5);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("event_volume_error_pct"), 0.08);
   EXPECT_STREQ(c->GetFieldAsString("x_clamp_cause"), "surcharge");
+  EXPECT_EQ(c->GetFieldAsInteger64("envelope_exceedances"), 6);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("envelope_excursion_pct"), 3.0);
   EXPECT_TRUE(a->IsFieldNull(a->GetFieldIndex("x_clamp_cause")));  // no clamps: NULL
   EXPECT_EQ(c->GetFieldAsInteger("grid_compromise"), 1);
   EXPECT_EQ(c->GetFieldAsInteger("strahler"), 2);
@@ -539,6 +543,7 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("peak_q"), 12.0);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("event_volume_error_pct"), 0.08);
   EXPECT_STREQ(c->GetFieldAsString("x_clamp_cause"), "surcharge");
+  EXPECT_EQ(c->GetFieldAsInteger64("envelope_exceedances"), 6);
   // ISO 8601 at the run's offset: 03:00:00.25Z is 04:00:00.250+01:00.
   EXPECT_STREQ(c->GetFieldAsString("peak_time"), "2026-05-01T04:00:00.250+01:00");
   OGRGeometry* geometry = nullptr;

@@ -363,6 +363,23 @@ TEST(NetworkRouter, XClampWarningNamesSurcharge) {
   }
 }
 
+// The envelope warning: the case of ReachRouterTest's envelope check
+// (Muskingum, C0 = −0.7/2.3, a jump from 50 to 100 and back) dips 30.4 %
+// of the rise below base flow and overshoots as much, and never goes
+// negative; the warning counts the reach and its two samples.
+TEST(NetworkRouter, EnvelopeWarningCountsReachesAndSamples) {
+  std::vector<double> in(120, 50.0);
+  for (std::size_t n = 10; n < 60; ++n) in[n] = 100.0;
+  const NetworkResults r = routeMuskingumReach(3, 0.4, in);
+  EXPECT_EQ(r.reaches[0].numerics.negative_clamps, 0u);
+  const std::string w = warningWith(r, "envelope");
+  EXPECT_NE(w.find("1 reaches leave the [base flow, inflow peak] envelope by more than 1 % of the rise (2 output "
+                   "samples), worst 30.43 % of the rise at reach R0"),
+            std::string::npos)
+      << w;
+  EXPECT_EQ(warningWith(routeMuskingumReach(3, 0.1, in), "envelope"), "");  // C0 > 0: no excursion
+}
+
 TEST(NetworkRouter, ConfluenceNodesCarryBranchTiming) {
   std::mt19937 rng(21);
   const NetworkPlan p = randomTree(80, rng);

@@ -49,6 +49,13 @@ struct ReachNumerics {
   std::uint64_t x_clamps = 0;          ///< cells where X < 0 was raised to 0 (D > 1)
   std::uint64_t surcharge_cells = 0;   ///< cells above a pipe's capacity
   XClampCause x_clamp_cause = XClampCause::None;   ///< when x_clamps > 0
+  /// Output samples outside the inflow envelope [lowest top inflow + lowest
+  /// lateral inflow, highest top + highest lateral] by more than 1 % of its
+  /// width (the rise): dips ahead of a wave, overshoots of the peak.
+  std::uint64_t envelope_exceedances = 0;
+  /// The farthest any output sample lies outside that envelope, % of the
+  /// rise; 0 inside it, NaN when the inflow does not vary.
+  double envelope_excursion_pct = kNaN;
   bool grid_compromise = false;     ///< no (subreaches, substeps) met every bound; the closest was used
 };
 
