@@ -7,6 +7,7 @@
 #include <fmt/ostream.h>
 
 #include <algorithm>
+#include <cmath>
 #include <filesystem>
 #include <iostream>
 #include <memory>
@@ -68,8 +69,10 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
                hours(s.travel_time_s));
   }
   const routing::VolumeBalance& v = r.volume;
-  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} %\n",
+  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} % of all inflow",
              v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
+  if (std::isnan(v.event_error_pct)) fmt::print(out, " (no volume above the initial flow)\n");
+  else fmt::print(out, ", {:.3f} % of the event volume above the initial flow\n", v.event_error_pct);
   fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
   for (const auto& w : r.warnings) fmt::print(out, "  {}\n", w);
   fmt::print(out, "open in a GIS: {}\n", gpkg);

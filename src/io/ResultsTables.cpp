@@ -60,6 +60,8 @@ const std::vector<Column>& reachColumns() {
       {"negative_clamps", CT::Integer64}, {"x_clamps", CT::Integer64},
       {"surcharge_cells", CT::Integer64}, {"grid_compromise", CT::Boolean},
       {"strahler", CT::Integer},       {"basin", CT::Integer},
+      {"event_volume_error_pct", CT::Real}, {"x_clamp_cause", CT::Text},
+      {"envelope_exceedances", CT::Integer64}, {"envelope_excursion_pct", CT::Real},
   };
   return columns;
 }
@@ -99,6 +101,11 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   row.push_back(integer(n.grid_compromise ? 1 : 0));
   row.push_back(i < plan.strahler.size() ? integer(plan.strahler[i]) : Value{});
   row.push_back(i < plan.basin.size() ? integer(plan.basin[i]) : Value{});
+  row.push_back(real(v.event_error_pct));
+  if (n.x_clamp_cause == routing::XClampCause::None) row.emplace_back();
+  else row.emplace_back(std::string(routing::xClampCauseName(n.x_clamp_cause)));
+  row.push_back(integer(n.envelope_exceedances));
+  row.push_back(real(n.envelope_excursion_pct));
   REACHWISE_ASSERT(row.size() == reachColumns().size());
   return row;
 }
@@ -183,6 +190,10 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
   rows.emplace_back("reaches", fmt::format("{}", results.reaches.size()));
   rows.emplace_back("cell_updates", fmt::format("{:.0f}", results.cell_updates));
   rows.emplace_back("peak_live_series", fmt::format("{}", results.peak_live_series));
+  const double event_pct = results.volume.event_error_pct;
+  rows.emplace_back("event_volume_error_pct",
+                    std::isnan(event_pct) ? std::string("none: no volume entered above the initial flow")
+                                          : fmt::format("{:.4g}", event_pct));
   if (!info.series_file.empty()) rows.emplace_back("series", info.series_file);
   rows.emplace_back("version", kVersion);
   rows.emplace_back("git_hash", kGitHash);

@@ -52,6 +52,7 @@ inline constexpr std::size_t kShownConfluences = 6;
 inline constexpr std::size_t kTimingConfluences = 12;
 inline constexpr std::size_t kShownOutlets = 12;
 inline constexpr std::size_t kTableRows = 10;
+inline constexpr std::size_t kWorstVolumeRows = 5;
 
 /// `YYYY-MM-DD HH:MM` in the run's offset, rounded to the minute; "-" for NaN.
 std::string displayTime(double unix_s, int utc_offset_min);

@@ -254,7 +254,8 @@ private:
                          " point inflow, " + volume(u_.vol(v.lateral_m3)) + " lateral)"));
     row("volume out", esc(volume(u_.vol(v.outflow_m3)) + vu + " through the outlets"));
     row("volume still stored", esc(volume(u_.vol(v.storage_change_m3)) + vu + " (storage change over the run)"));
-    row("volume balance error", esc(num(v.error_pct, 3) + " %"));
+    row("volume balance error", esc(num(v.error_pct, 3) + " % of all inflow, " + num(v.event_error_pct, 3) +
+                                    " % of the event volume (what entered above the initial flow)"));
     const auto w = warnings();
     std::string wl;
     for (const auto& x : w) wl += (wl.empty() ? "" : "<br>") + ("<span class=\"warn\">" + esc(x) + "</span>");
@@ -262,16 +263,37 @@ private:
     row("results GeoPackage", in_.gpkg_path.empty() ? "-" : "<code>" + esc(in_.gpkg_path) + "</code>");
     if (!in_.info.command_line.empty()) row("command", "<code>" + esc(in_.info.command_line) + "</code>");
     out_ << "</table>\n";
+    worstEventVolume();
   }
 
-  std::vector<std::size_t> ranked(const auto& key) const {
+  /// The reaches with the largest event volume error (either sign).
+  void worstEventVolume() {
+    out_ << "<h3>Reaches with the largest event volume error</h3>\n<p>Volume error (in + lateral − out − "
+            "storage change) as % of the volume that entered above the initial flow; envelope: how far the "
+            "outflow went outside [base flow, inflow peak], % of the rise.</p>\n<table id=\"worst-event-volume\">\n"
+            "<thead><tr><th>#</th><th>reach</th><th class=\"num\">event volume error (%)</th><th class=\"num\">"
+            "volume error, all inflow (%)</th><th class=\"num\">envelope excursion (% of rise)</th></tr></thead>\n"
+            "<tbody>\n";
+    std::size_t rank = 0;
+    const auto size = [](const routing::ReachSummary& s) { return std::abs(s.volume.event_error_pct); };
+    for (const std::size_t i : ranked(size, kWorstVolumeRows)) {
+      const auto& s = in_.results.reaches[i];
+      if (std::isnan(s.volume.event_error_pct)) break;
+      out_ << "<tr><td>" << ++rank << "</td><td>" << esc(id(i)) << "</td><td class=\"num\">"
+           << num(s.volume.event_error_pct, 3) << "</td><td class=\"num\">" << num(s.volume.error_pct, 3)
+           << "</td><td class=\"num\">" << num(s.numerics.envelope_excursion_pct, 2) << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
+  }
+
+  std::vector<std::size_t> ranked(const auto& key, std::size_t rows = kTableRows) const {
     std::vector<std::size_t> order(in_.plan.size());
     std::iota(order.begin(), order.end(), std::size_t{0});
     const auto value = [&](std::size_t i) {
       const double v = key(in_.results.reaches[i]);
       return std::isnan(v) ? -INFINITY : v;
     };
-    const std::size_t n = std::min(kTableRows, order.size());
+    const std::size_t n = std::min(rows, order.size());
     std::partial_sort(order.begin(), order.begin() + static_cast<std::ptrdiff_t>(n), order.end(),
                       [&](std::size_t a, std::size_t b) { return value(a) != value(b) ? value(a) > value(b) : a < b; });
     order.resize(n);

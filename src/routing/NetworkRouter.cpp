@@ -7,8 +7,10 @@
 #include <algorithm>
 #include <atomic>
 #include <cmath>
+#include <cstdio>
 #include <memory>
 #include <mutex>
+#include <string>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/Peak.hpp"
@@ -39,9 +41,15 @@ VolumeBalance networkVolumeBalance(const network::NetworkPlan& plan, const Netwo
     b.storage_change_m3 += v.storage_change_m3;
     if (plan.isOutlet(i)) b.outflow_m3 += v.outflow_m3;
     else b.inflow_m3 -= v.outflow_m3;
+    // The initial flow entering the network: each reach's initial top +
+    // lateral inflow, less what arrived from upstream reaches, whose
+    // initial outflow (a steady start) is their own initial inflow. What
+    // remains is the outlets' share.
+    if (plan.isOutlet(i)) b.base_m3 += v.base_m3;
   }
   const double entered = b.inflow_m3 + b.lateral_m3;
   b.error_pct = entered > 0 ? 100.0 * (entered - b.outflow_m3 - b.storage_change_m3) / entered : 0.0;
+  b.event_error_pct = eventErrorPct(b);
   return b;
 }
 
@@ -60,6 +68,13 @@ struct Workspace {
 };
 
 double peakTime(const TimeAxis& axis, const Peak& p) { return axis.at(p.index); }
+
+/// "+1.23 %": a signed percentage for a warning.
+std::string percent(double v) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%+.2f %%", v);
+  return buf;
+}
 
 class Scheduler {
 public:
@@ -273,22 +288,63 @@ void Scheduler::collectNodes() {
 
 void Scheduler::summariseWarnings() {
   // One line per kind of event, with counts, not one per cell.
-  std::uint64_t neg = 0, xc = 0, sur = 0;
-  std::size_t neg_r = 0, xc_r = 0, sur_r = 0, comp_r = 0, vol_r = 0;
-  for (const ReachSummary& r : results_.reaches) {
+  std::uint64_t neg = 0, sur = 0;
+  // X clamps by cause (XClampCause): cells and reaches.
+  constexpr std::size_t kCauses = static_cast<std::size_t>(XClampCause::FlowRange) + 1;
+  std::uint64_t xc[kCauses] = {};
+  std::size_t xc_r[kCauses] = {};
+  std::size_t neg_r = 0, sur_r = 0, comp_r = 0, vol_r = 0, vol_at = 0;
+  double vol_worst = 0;
+  std::uint64_t env = 0;
+  std::size_t env_r = 0, env_at = 0;
+  double env_worst = 0;
+  for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
+    const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
     if (m.negative_clamps) neg += m.negative_clamps, ++neg_r;
-    if (m.x_clamps) xc += m.x_clamps, ++xc_r;
+    if (m.x_clamps) {
+      const auto c = static_cast<std::size_t>(m.x_clamp_cause);
+      xc[c] += m.x_clamps, ++xc_r[c];
+    }
     if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
     if (m.grid_compromise) ++comp_r;
-    if (std::abs(r.volume.error_pct) > 1.0) ++vol_r;
+    if (m.envelope_exceedances) {
+      env += m.envelope_exceedances, ++env_r;
+      if (m.envelope_excursion_pct > env_worst) env_worst = m.envelope_excursion_pct, env_at = i;
+    }
+    if (std::abs(r.volume.event_error_pct) > 1.0) {
+      ++vol_r;
+      if (std::abs(r.volume.event_error_pct) > std::abs(vol_worst)) {
+        vol_worst = r.volume.event_error_pct;
+        vol_at = i;
+      }
+    }
   }
   auto& w = results_.warnings;
   if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + std::to_string(neg_r) + " reaches");
-  if (xc_r) w.push_back(std::to_string(xc) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r) + " reaches (short or flat reaches: less diffusion than physical)");
+  // X raised to 0 routes with less diffusion than physical; each cause in its own words.
+  const char* const why[kCauses] = {
+      "",
+      "reaches with a pipe in surcharge (above its capacity)",
+      "two-stage reaches whose flows cross bank-full (the celerity changes abruptly there)",
+      "short reaches (the wave crosses the reach within one time step)",
+      "flat reaches (D > 1 at the reference flow: a sub-reach is shorter than the diffusion length Q/(T S0 c))",
+      "reaches at flows away from the reference flow (D > 1 there)"};
+  for (std::size_t c = 1; c < kCauses; ++c)
+    if (xc_r[c])
+      w.push_back(std::to_string(xc[c]) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r[c]) + " " +
+                  why[c]);
   if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + std::to_string(sur_r) + " reaches");
   if (comp_r) w.push_back(std::to_string(comp_r) + " reaches where no grid kept every coefficient non-negative; the closest was used");
-  if (vol_r) w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 %");
+  if (env_r) {
+    const std::string worst = percent(env_worst);
+    w.push_back(std::to_string(env_r) + " reaches leave the [base flow, inflow peak] envelope by more than 1 % of the rise (" +
+                std::to_string(env) + " output samples), worst " + worst.substr(1) + " of the rise at reach " +
+                plan_.reach_id[env_at]);
+  }
+  if (vol_r)
+    w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
+                percent(vol_worst) + " at reach " + plan_.reach_id[vol_at]);
 }
 
 }  // namespace

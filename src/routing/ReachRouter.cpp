@@ -22,16 +22,68 @@ void checkSeries(const char* quantity, std::span<const double> s) {
                                            std::to_string(s[i]) + ")");
 }
 
-void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1) {
+void finishVolume(VolumeBalance& v, const Totals& t, double s0, double s1, double base_m3) {
   v.inflow_m3 = t.in;
   v.lateral_m3 = t.lat;
   v.outflow_m3 = t.out;
   v.storage_change_m3 = s1 - s0;
+  v.base_m3 = base_m3;
   const double entered = t.in + t.lat;
   v.error_pct = entered > 0 ? 100.0 * (entered - t.out - (s1 - s0)) / entered : 0.0;
+  v.event_error_pct = eventErrorPct(v);
+}
+
+/// The first cause that applies to a reach's X clamps (XClampCause);
+/// `q_lo`, `q_hi` the range of its top + lateral inflow, `dt` the step.
+XClampCause xClampCause(const ReachNumerics& num, const hydraulics::Section& section, double length,
+                        double q_lo, double q_hi, double dt) {
+  if (num.x_clamps == 0) return XClampCause::None;
+  if (num.surcharge_cells > 0) return XClampCause::Surcharge;
+  if (section.shape() == hydraulics::Shape::TwoStage) {
+    const double q_bank = section.discharge(section.bankDepth());
+    if (q_lo < q_bank && q_bank < q_hi) return XClampCause::BankFull;
+  }
+  if (num.celerity_ms * dt >= length) return XClampCause::Short;
+  // The methods report D at the reference flow as clamped, so D > 1 shows as 1.
+  if (num.cell_reynolds >= 1.0) return XClampCause::Flat;
+  return XClampCause::FlowRange;
+}
+
+/// How far the outflow leaves [lo, hi]: samples beyond it by more than
+/// 1 % of hi − lo, and the farthest excursion in % of hi − lo.
+void envelopeCheck(std::span<const double> out, double lo, double hi, ReachNumerics& num) {
+  const double rise = hi - lo;
+  if (!(rise > 0)) return;
+  const double margin = 0.01 * rise;
+  double worst = 0;
+  for (const double q : out) {
+    const double beyond = std::max(lo - q, q - hi);
+    if (beyond > margin) ++num.envelope_exceedances;
+    worst = std::max(worst, beyond);
+  }
+  num.envelope_excursion_pct = 100.0 * worst / rise;
 }
 
 }  // namespace
+
+const char* xClampCauseName(XClampCause cause) {
+  switch (cause) {
+    case XClampCause::None: return "";
+    case XClampCause::Surcharge: return "surcharge";
+    case XClampCause::BankFull: return "bank_full";
+    case XClampCause::Short: return "short";
+    case XClampCause::Flat: return "flat";
+    case XClampCause::FlowRange: return "flow_range";
+  }
+  return "";
+}
+
+double eventErrorPct(const VolumeBalance& v) {
+  const double entered = v.inflow_m3 + v.lateral_m3;
+  const double event = entered - v.base_m3;
+  if (!(entered > 0) || !(event > 1e-6 * entered)) return kNaN;
+  return 100.0 * (entered - v.outflow_m3 - v.storage_change_m3) / event;
+}
 
 ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> inflow,
                             std::span<const double> lateral, double dt, const RouteOptions& opt,
@@ -49,9 +101,13 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   total_.resize(n_samples);
   bool good = true;
   double q_base = inflow[0] + (lateral.empty() ? 0.0 : lateral[0]), q_peak = q_base;
-  double q_in_min = inflow[0];
+  double q_in_min = inflow[0], q_in_max = inflow[0];
+  double q_lat_min = lateral.empty() ? 0.0 : lateral[0], q_lat_max = q_lat_min;
   for (std::size_t i = 0; i < n_samples; ++i) {
     const double in = inflow[i], lat = lateral.empty() ? 0.0 : lateral[i];
+    q_in_max = std::max(q_in_max, in);
+    q_lat_min = std::min(q_lat_min, lat);
+    q_lat_max = std::max(q_lat_max, lat);
     good &= (in >= 0) & (in <= std::numeric_limits<double>::max()) & (lat >= 0) &
             (lat <= std::numeric_limits<double>::max());
     const double t = in + lat;
@@ -92,7 +148,13 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     num.amplitude_ratio = r.amplitude;
     num.phase_ratio = r.phase;
   }
-  finishVolume(run.volume, ctx.totals, ctx.storage_start_m3, ctx.storage_end_m3);
+  // The outflow is the top and lateral inflow, each delayed and spread:
+  // it stays between their lowest and their highest added.
+  envelopeCheck(out, q_in_min + q_lat_min, q_in_max + q_lat_max, num);
+  num.x_clamp_cause = xClampCause(num, reach.section, reach.length_m, q_base, q_peak, dt);
+  // The initial flow over the run's duration, on the same steps as the totals.
+  const double base_m3 = total_[0] * dt * static_cast<double>(n_steps - 1);
+  finishVolume(run.volume, ctx.totals, ctx.storage_start_m3, ctx.storage_end_m3, base_m3);
   return run;
 }
 

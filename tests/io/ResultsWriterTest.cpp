@@ -102,12 +102,16 @@ struct Network {
       s.peak_depth_m = 1.5;
       s.peak_velocity_ms = 0.8;
       s.volume.error_pct = 0.01 * static_cast<double>(i);
+      s.volume.event_error_pct = 0.04 * static_cast<double>(i);
       s.numerics.subreaches = 3 + static_cast<std::uint32_t>(i);
       s.numerics.substeps = 2;
       s.numerics.courant = 0.9;
       s.numerics.x = 0.31;
       s.numerics.negative_clamps = 5'000'000'000ull;  // beyond 32 bits
       s.numerics.grid_compromise = i == 2;
+      s.numerics.x_clamp_cause = i == 2 ? routing::XClampCause::Surcharge : routing::XClampCause::None;
+      s.numerics.envelope_exceedances = 3 * i;
+      s.numerics.envelope_excursion_pct = 1.5 * static_cast<double>(i);
     }
     results.reaches[0].peak_depth_m = kNaN;  // must come back as NULL
     results.reaches[2].travel_time_s = 5400;
@@ -131,6 +135,7 @@ struct Network {
     y.branch_spread_s = 3600;
     y.coincidence_ratio = 19.5 / 21.0;
     results.warnings = {"reach C,lower: grid compromise"};
+    results.volume.event_error_pct = -2.5;
 
     info.inputs = {"brannoch.gpkg", "inflow.csv"};
     info.method = "vpmc";
@@ -179,7 +184,8 @@ const std::vector<std::string> kReachFields = {
     "inflow_peak_time", "attenuation_pct", "travel_time_h", "volume_in_m3", "volume_lateral_m3",
     "volume_out_m3", "storage_change_m3", "volume_error_pct", "subreaches", "substeps", "dx_m",
     "dt_sub_s", "courant", "x", "cell_reynolds", "reference_q", "amplitude_ratio", "phase_ratio",
-    "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin"};
+    "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin",
+    "event_volume_error_pct", "x_clamp_cause", "envelope_exceedances", "envelope_excursion_pct"};
 const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
                                               "branch_count", "branch_spread_h", "coincidence_ratio"};
 
@@ -258,6 +264,11 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   auto c = featureWhere(reaches, "reach_id = 'C,lower'");
   ASSERT_TRUE(c);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("travel_time_h"), 1.5);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("event_volume_error_pct"), 0.08);
+  EXPECT_STREQ(c->GetFieldAsString("x_clamp_cause"), "surcharge");
+  EXPECT_EQ(c->GetFieldAsInteger64("envelope_exceedances"), 6);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("envelope_excursion_pct"), 3.0);
+  EXPECT_TRUE(a->IsFieldNull(a->GetFieldIndex("x_clamp_cause")));  // no clamps: NULL
   EXPECT_EQ(c->GetFieldAsInteger("grid_compromise"), 1);
   EXPECT_EQ(c->GetFieldAsInteger("strahler"), 2);
   EXPECT_DOUBLE_EQ(c->GetGeometryRef()->toLineString()->getY(1), 0.0);
@@ -296,6 +307,9 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   for (const char* key : {"method", "dt_s", "steps", "start", "end", "version", "git_hash",
                           "command_line", "caution"})
     EXPECT_EQ(keys.count(key), 1u) << key;
+  auto event = featureWhere(run_info, "key = 'event_volume_error_pct'");
+  ASSERT_TRUE(event);
+  EXPECT_STREQ(event->GetFieldAsString("value"), "-2.5");
   auto start = featureWhere(run_info, "key = 'start'");
   EXPECT_STREQ(start->GetFieldAsString("value"), "2026-05-01T01:00:00+01:00");  // ISO 8601 at +01:00
 }
@@ -527,6 +541,9 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   auto c = featureWhere(rl, "reach_id = 'C,lower'");
   ASSERT_TRUE(c);
   EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("peak_q"), 12.0);
+  EXPECT_DOUBLE_EQ(c->GetFieldAsDouble("event_volume_error_pct"), 0.08);
+  EXPECT_STREQ(c->GetFieldAsString("x_clamp_cause"), "surcharge");
+  EXPECT_EQ(c->GetFieldAsInteger64("envelope_exceedances"), 6);
   // ISO 8601 at the run's offset: 03:00:00.25Z is 04:00:00.250+01:00.
   EXPECT_STREQ(c->GetFieldAsString("peak_time"), "2026-05-01T04:00:00.250+01:00");
   OGRGeometry* geometry = nullptr;

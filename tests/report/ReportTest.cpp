@@ -294,6 +294,31 @@ TEST_F(ReportTest, TopPeakAndAttenuationMatchTheGeoPackage) {
   EXPECT_EQ(trim(att_rows[0][4]), fmt::format("{:.2f}", top_att.attenuation_pct));
 }
 
+// The run summary's worst reaches by event volume error are the five
+// largest |event_volume_error_pct| of the GeoPackage's reaches layer, with
+// the same values.
+TEST_F(ReportTest, WorstEventVolumeErrorsMatchTheGeoPackage) {
+  const std::string html = writeAndRead();
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(sampleRun().gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* layer = ds->GetLayerByName("reaches");
+  ASSERT_NE(layer, nullptr);
+  std::vector<std::pair<double, std::string>> errors;  // (event error, reach id)
+  for (auto& f : *layer)
+    if (f->IsFieldSetAndNotNull(f->GetFieldIndex("event_volume_error_pct")))
+      errors.emplace_back(f->GetFieldAsDouble("event_volume_error_pct"), f->GetFieldAsString("reach_id"));
+  std::stable_sort(errors.begin(), errors.end(),
+                   [](const auto& a, const auto& b) { return std::abs(a.first) > std::abs(b.first); });
+  const auto rows = tableRows(html, "worst-event-volume");
+  ASSERT_EQ(rows.size(), std::min<std::size_t>(5, errors.size()));
+  ASSERT_FALSE(rows.empty());
+  for (std::size_t k = 0; k < rows.size(); ++k) {
+    ASSERT_GE(rows[k].size(), 5u);
+    EXPECT_EQ(trim(rows[k][2]), fmt::format("{:.3f}", errors[k].first)) << "row " << k + 1;
+  }
+  EXPECT_EQ(trim(rows[0][1]), errors[0].second);
+}
+
 TEST_F(ReportTest, CoincidentConfluencesMatchTheNodesLayer) {
   const std::string html = writeAndRead();
   const std::set<std::string> expected = gpkgCoincidentConfluences(sampleRun().gpkg);

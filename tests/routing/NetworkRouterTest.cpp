@@ -8,6 +8,7 @@
 #include <mutex>
 #include <numbers>
 #include <random>
+#include <string>
 
 using namespace reachwise;
 using namespace reachwise::routing;
@@ -266,12 +267,117 @@ TEST(NetworkRouter, VolumeBalanceAtTheOutlet) {
     EXPECT_NEAR(r.volume.outflow_m3 / out, 1.0, 1e-12);
     EXPECT_NEAR(r.volume.storage_change_m3, stored, 1e-9 * entered);
     EXPECT_NEAR(r.volume.error_pct, 100 * (entered - out - stored) / entered, 1e-9);
+    // The event basis: the initial flow entering the network is the point
+    // and lateral forcing at the first sample, summed here from the
+    // forcing; over the 199 hourly steps it brings the base volume.
+    double initial = 0;
+    for (std::uint32_t i = 0; i < p.size(); ++i) {
+      if (!f.inflow_m3s[i].empty()) initial += f.inflow_m3s[i][0];
+      if (!f.lateral_m3s[i].empty()) initial += f.lateral_m3s[i][0];
+    }
+    const double base = initial * 199 * 3600;
+    EXPECT_NEAR(r.volume.base_m3, base, 1e-9 * base);
+    const double entered_net = r.volume.inflow_m3 + r.volume.lateral_m3;
+    EXPECT_NEAR(r.volume.event_error_pct,
+                100 * (entered_net - r.volume.outflow_m3 - r.volume.storage_change_m3) / (entered_net - base),
+                1e-9);
     // Cell updates: sub-reaches × sub-steps per reach, times the 199 steps.
     double cells = 0;
     for (const ReachSummary& s : r.reaches) cells += double(s.numerics.subreaches) * s.numerics.substeps * 199;
     EXPECT_EQ(r.cell_updates, cells);
     EXPECT_GT(r.cell_updates, double(p.size()) * 199);
   }
+}
+
+namespace {
+
+/// The warning of `results` that contains `text`, or "" when none does.
+std::string warningWith(const NetworkResults& results, const std::string& text) {
+  for (const std::string& w : results.warnings)
+    if (w.find(text) != std::string::npos) return w;
+  return "";
+}
+
+/// One reach (plan index 0, id R0) of textbook Muskingum with K and X,
+/// routed on one sub-reach and one sub-step of an hour.
+NetworkResults routeMuskingumReach(double k_h, double x, const std::vector<double>& inflow) {
+  std::mt19937 rng(3);
+  NetworkPlan p = randomTree(1, rng);
+  p.muskingum_k_s[0] = k_h * 3600;
+  p.muskingum_x[0] = x;
+  MemoryForcing f;
+  f.inflow_m3s = {inflow};
+  NetworkRouteOptions opt;
+  opt.reach.method = Method::Muskingum;
+  opt.reach.subreaches = 1;
+  opt.reach.substeps = 1;
+  return routeNetwork(p, hourly(inflow.size()), f, opt);
+}
+
+}  // namespace
+
+// The volume warning is on the event basis (docs/methods.md, "Volume
+// balance"). Textbook Muskingum with 2KX > Δt has a negative coefficient
+// C0 = (Δt/2 − KX)/(K(1 − X) + Δt/2) (Chow, Maidment & Mays 1988, eq.
+// 8.4.7): K = 3 h, X = 0.4, Δt = 1 h give C0 = −0.7/2.3. A jump from 10 to
+// 100 m^3/s drives the next outflow to 10 + C0 × 90 = −17.4 m^3/s; the
+// router clamps it to 0 and the reach gains that water. Over 600 h of base
+// flow the gain is well under 1 % of all the water but, against the 6 h
+// event of 90 m^3/s above base, above 1 %: the warning must say so.
+TEST(NetworkRouter, VolumeWarningUsesTheEventBasis) {
+  std::vector<double> in(600, 10.0);
+  for (std::size_t n = 20; n < 26; ++n) in[n] = 100.0;
+  const NetworkResults r = routeMuskingumReach(3, 0.4, in);
+  const VolumeBalance& v = r.reaches[0].volume;
+  ASSERT_GT(r.reaches[0].numerics.negative_clamps, 0u);
+  EXPECT_LT(std::abs(v.error_pct), 1.0);
+  EXPECT_GT(std::abs(v.event_error_pct), 1.0) << v.error_pct;
+  const std::string w = warningWith(r, "1 reaches with a volume error above 1 % of the event volume");
+  EXPECT_NE(w.find("at reach R0"), std::string::npos) << w;
+
+  // Without the negative coefficient (X = 0.1: C0 > 0) nothing is clamped,
+  // the balance is exact and no volume warning is given.
+  const NetworkResults ok = routeMuskingumReach(3, 0.1, in);
+  EXPECT_LT(std::abs(ok.reaches[0].volume.event_error_pct), 1e-9);
+  EXPECT_EQ(warningWith(ok, "volume error"), "");
+}
+
+// A pipe in surcharge: the X-clamp warning names surcharge, not the length
+// or slope of the reach (the pipe is 500 m at S0 = 0.002, taken to 1.5 ×
+// its capacity, the cause Section::capacity() defines).
+TEST(NetworkRouter, XClampWarningNamesSurcharge) {
+  std::mt19937 rng(4);
+  NetworkPlan p = randomTree(1, rng);
+  p.section[0] = hydraulics::Section::circle(1.0, 0.014, 0.002);
+  p.length_m[0] = 500;
+  MemoryForcing f;
+  f.inflow_m3s = {storm(100, 0.2, 1.5 * p.section[0].capacity() - 0.2, 5, 24)};
+  const NetworkResults r = routeNetwork(p, hourly(100), f, NetworkRouteOptions{});
+  ASSERT_GT(r.reaches[0].numerics.x_clamps, 0u);
+  const std::string w = warningWith(r, "X < 0 raised to 0");
+  EXPECT_NE(w.find("surcharge"), std::string::npos) << w;
+  EXPECT_NE(w.find(" in 1 reaches"), std::string::npos) << w;
+  for (const std::string& line : r.warnings) {
+    EXPECT_EQ(line.find("flat"), std::string::npos) << line;
+    EXPECT_EQ(line.find("short"), std::string::npos) << line;
+  }
+}
+
+// The envelope warning: the case of ReachRouterTest's envelope check
+// (Muskingum, C0 = −0.7/2.3, a jump from 50 to 100 and back) dips 30.4 %
+// of the rise below base flow and overshoots as much, and never goes
+// negative; the warning counts the reach and its two samples.
+TEST(NetworkRouter, EnvelopeWarningCountsReachesAndSamples) {
+  std::vector<double> in(120, 50.0);
+  for (std::size_t n = 10; n < 60; ++n) in[n] = 100.0;
+  const NetworkResults r = routeMuskingumReach(3, 0.4, in);
+  EXPECT_EQ(r.reaches[0].numerics.negative_clamps, 0u);
+  const std::string w = warningWith(r, "envelope");
+  EXPECT_NE(w.find("1 reaches leave the [base flow, inflow peak] envelope by more than 1 % of the rise (2 output "
+                   "samples), worst 30.43 % of the rise at reach R0"),
+            std::string::npos)
+      << w;
+  EXPECT_EQ(warningWith(routeMuskingumReach(3, 0.1, in), "envelope"), "");  // C0 > 0: no excursion
 }
 
 TEST(NetworkRouter, ConfluenceNodesCarryBranchTiming) {

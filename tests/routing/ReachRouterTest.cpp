@@ -151,6 +151,130 @@ TEST(ReachRouter, VariableParameterVolumeErrorReportedAndSmall) {
   }
 }
 
+// The event basis of the volume balance, by hand from the test's own series:
+// a steady base flow (top 20, lateral 3 m^3/s) plus a sharp pulse on each.
+// Entered volume by the trapezoidal rule on the output steps (as the router
+// sums it), the base volume = the first sample's total × the duration, and
+// the error volume in + lateral − out − ΔS from the router's own terms (the
+// identity of docs/methods.md, "Volume balance").
+TEST(ReachRouter, EventVolumeErrorIsRelativeToTheVolumeAboveTheInitialFlow) {
+  const Section s = Section::trapezoid(12, 2, 0.035, 0.004);
+  const double dt = 900;
+  const std::size_t n = 240;
+  const std::vector<double> in = pulse(20, 120, 6 * 3600, dt, n), lat = pulse(3, 10, 4 * 3600, dt, n);
+  double entered = 0;
+  for (std::size_t i = 0; i + 1 < n; ++i) entered += 0.5 * dt * (in[i] + in[i + 1] + lat[i] + lat[i + 1]);
+  const double base = (in[0] + lat[0]) * dt * double(n - 1);
+  for (Method m : {Method::VariableParameter, Method::ConstantParameter}) {
+    RouteOptions opt;
+    opt.method = m;
+    std::vector<double> out;
+    ReachRouter router;
+    const VolumeBalance v = router.route({s, 40000}, in, lat, dt, opt, out).volume;
+    EXPECT_NEAR(v.inflow_m3 + v.lateral_m3, entered, 1e-12 * entered);
+    EXPECT_NEAR(v.base_m3, base, 1e-12 * base);
+    const double error_m3 = entered - v.outflow_m3 - v.storage_change_m3;
+    EXPECT_NEAR(v.event_error_pct, 100 * error_m3 / (entered - base), 1e-9) << int(m);
+    // The two bases differ by the ratio of the volumes (here about 3×).
+    EXPECT_NEAR(v.event_error_pct * (entered - base), v.error_pct * entered, 1e-9 * entered) << int(m);
+    EXPECT_GT(entered / (entered - base), 2.0);
+  }
+}
+
+// A steady run has no event: the event basis is undefined (NaN), the
+// all-water basis is the round-off of a steady state.
+TEST(ReachRouter, EventVolumeErrorIsNaNWithoutAnEvent) {
+  const Section s = Section::trapezoid(12, 2, 0.035, 0.004);
+  const std::vector<double> in(50, 20.0);
+  std::vector<double> out;
+  ReachRouter router;
+  const VolumeBalance v = router.route({s, 20000}, in, {}, 900, RouteOptions{}, out).volume;
+  EXPECT_TRUE(std::isnan(v.event_error_pct));
+  EXPECT_LT(std::abs(v.error_pct), 1e-9);
+}
+
+// The cause given for X clamps (docs/methods.md, "Diagnostics"), each case
+// built so that one cause applies and is checked from the test's own
+// numbers: a pipe taken to 1.5 × its capacity; a two-stage section whose
+// inflow rises from below to above its bank-full flow (Manning at bank
+// depth); a 150 m steep reach, which a wave of at least 1 m/s crosses in
+// under one 900 s step; a 20 km reach at S0 = 1e-5, whose diffusion length
+// Q/(T S0 c) at the reference flow is far longer than the reach.
+TEST(ReachRouter, XClampsNameTheirCause) {
+  const double dt = 900;
+  const Section pipe = Section::circle(1.0, 0.014, 0.002);
+  const Section two_stage = Section::twoStage(20, 2, 3, 200, 0.035, 0.07, 0.0002);
+  const double bank_q = two_stage.discharge(3.0);
+  const Section flat = Section::rectangle(50, 0.035, 1e-5);
+  struct Case {
+    Section section;
+    double length_m, base, amplitude;
+    XClampCause cause;
+  };
+  const Case cases[] = {
+      {pipe, 500, 0.2, 1.5 * pipe.capacity() - 0.2, XClampCause::Surcharge},
+      {two_stage, 80000, 0.5 * bank_q, 3 * bank_q, XClampCause::BankFull},
+      {Section::rectangle(10, 0.035, 0.005), 150, 5, 20, XClampCause::Short},
+      {flat, 20000, 100, 400, XClampCause::Flat},
+  };
+  for (const Case& c : cases) {
+    std::vector<double> out;
+    ReachRouter router;
+    const ReachRun r = router.route({c.section, c.length_m}, pulse(c.base, c.amplitude, 12 * 3600, dt, 200), {},
+                                    dt, RouteOptions{}, out);
+    ASSERT_GT(r.numerics.x_clamps, 0u) << xClampCauseName(c.cause);
+    EXPECT_EQ(r.numerics.x_clamp_cause, c.cause) << xClampCauseName(r.numerics.x_clamp_cause);
+    if (c.cause == XClampCause::Short) {
+      EXPECT_LT(c.length_m, r.numerics.celerity_ms * dt);
+    }
+    if (c.cause == XClampCause::Flat) {
+      const hydraulics::FlowState f = c.section.normalFlow(r.numerics.reference_q_m3s);
+      EXPECT_GT(r.numerics.reference_q_m3s / (f.top_width_m * c.section.bedSlope() * f.celerity_ms), c.length_m);
+    }
+  }
+}
+
+// The envelope check. Textbook Muskingum on one sub-reach and one step,
+// K = 3 h, X = 0.4, Δt = 1 h: C0 = (Δt/2 − KX)/(K(1 − X) + Δt/2) = −0.7/2.3
+// (Chow, Maidment & Mays 1988, eq. 8.4.7). Inflow steady at 50, a jump to
+// 100 held until the outflow is steady again, then back to 50. The step
+// after the jump gives 50 + C0 × 50 (C0 + C1 + C2 = 1): a dip 30.4 % of
+// the rise below base flow that stays positive; the step after the fall
+// mirrors it above the peak (the scheme is linear); every other sample
+// lies inside. The 1 % of the rise that counts as leaving the envelope is
+// the project's accuracy target for the default method (docs/methods.md,
+// "Diagnostics").
+TEST(ReachRouter, EnvelopeExcursionsAreCountedWithoutNegativeFlows) {
+  ReachSpec reach{Section::rectangle(10, 0.03, 0.001), 3600.0, 3 * 3600.0, 0.4};
+  RouteOptions opt;
+  opt.method = Method::Muskingum;
+  opt.subreaches = 1;
+  opt.substeps = 1;
+  std::vector<double> in(120, 50.0);
+  for (std::size_t n = 10; n < 60; ++n) in[n] = 100.0;
+  std::vector<double> out;
+  ReachRouter router;
+  const ReachRun r = router.route(reach, in, {}, 3600, opt, out);
+  const double c0 = -0.7 / 2.3;
+  EXPECT_EQ(r.numerics.negative_clamps, 0u);
+  EXPECT_NEAR(*std::min_element(out.begin(), out.end()), 50 + c0 * 50, 1e-9);
+  EXPECT_EQ(r.numerics.envelope_exceedances, 2u);
+  EXPECT_NEAR(r.numerics.envelope_excursion_pct, -100 * c0, 1e-6);
+
+  // With a lateral inflow out of phase the outflow may exceed the highest
+  // total inflow, but not the highest top plus the highest lateral inflow,
+  // the envelope's top: a smooth wave routed with X = 0.1 (all
+  // coefficients positive) stays inside.
+  ReachSpec smooth = reach;
+  smooth.muskingum_x = 0.1;
+  const std::vector<double> top = pulse(50, 50, 12 * 3600, 3600, 120);
+  std::vector<double> lat(120, 5.0);
+  for (std::size_t n = 6; n < 30; ++n) lat[n] = 25.0;
+  const ReachRun s = router.route(smooth, top, lat, 3600, opt, out);
+  EXPECT_EQ(s.numerics.envelope_exceedances, 0u);
+  EXPECT_EQ(s.numerics.envelope_excursion_pct, 0.0);
+}
+
 // The scheme marches forward in time, so the outflow up to a step cannot
 // depend on inflow after it (common practice: causality of an explicit
 // scheme). Cutting the series short, to an odd and to an even number of

@@ -90,6 +90,9 @@ private:
   std::optional<hydraulics::RatingTable> spare_;  // the last table's storage, rebuilt in place
 };
 
+/// VolumeBalance::event_error_pct from the balance's volumes and base_m3.
+double eventErrorPct(const VolumeBalance& v);
+
 /// Depth and velocity of uniform flow at discharge `q_m3s`, through the
 /// table when given, else by direct solve.
 void depthAndVelocityAt(const hydraulics::Section& section, const hydraulics::RatingTable* table,

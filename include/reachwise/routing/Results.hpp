@@ -16,6 +16,21 @@ namespace reachwise::routing {
 
 inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
+/// Why a reach had cells with X < 0 raised to 0 (D > 1 taken as 1): the
+/// first of these that applies (docs/methods.md, "Diagnostics").
+enum class XClampCause : std::uint8_t {
+  None,       ///< no cell was clamped
+  Surcharge,  ///< a pipe carried more than its capacity in some cell
+  BankFull,   ///< a two-stage section whose inflow range crosses the bank-full flow
+  Short,      ///< the wave crosses the whole reach within one time step (c Δt >= L)
+  Flat,       ///< D > 1 at the reference flow: a sub-reach is shorter than Q / (T S0 c)
+  FlowRange,  ///< D > 1 only at flows away from the reference flow
+};
+
+/// Its name in outputs: "surcharge", "bank_full", "short", "flat",
+/// "flow_range"; "" for None.
+const char* xClampCauseName(XClampCause cause);
+
 /// Numerics chosen for one reach (and what happened while routing it).
 struct ReachNumerics {
   std::uint32_t subreaches = 1;     ///< sub-reach count (Δx = L / subreaches)
@@ -33,6 +48,14 @@ struct ReachNumerics {
   std::uint64_t negative_clamps = 0;   ///< cells where a negative flow was clamped to 0
   std::uint64_t x_clamps = 0;          ///< cells where X < 0 was raised to 0 (D > 1)
   std::uint64_t surcharge_cells = 0;   ///< cells above a pipe's capacity
+  XClampCause x_clamp_cause = XClampCause::None;   ///< when x_clamps > 0
+  /// Output samples outside the inflow envelope [lowest top inflow + lowest
+  /// lateral inflow, highest top + highest lateral] by more than 1 % of its
+  /// width (the rise): dips ahead of a wave, overshoots of the peak.
+  std::uint64_t envelope_exceedances = 0;
+  /// The farthest any output sample lies outside that envelope, % of the
+  /// rise; 0 inside it, NaN when the inflow does not vary.
+  double envelope_excursion_pct = kNaN;
   bool grid_compromise = false;     ///< no (subreaches, substeps) met every bound; the closest was used
 };
 
@@ -44,6 +67,14 @@ struct VolumeBalance {
   double storage_change_m3 = 0;    ///< storage at the end minus at the start
   /// 100 (in + lateral − out − Δstorage) / (in + lateral); 0 when nothing entered.
   double error_pct = 0;
+  /// What the initial flow alone would have brought: the top + lateral
+  /// inflow at the first sample times the run's duration.
+  double base_m3 = 0;
+  /// The same error volume relative to the event, the volume that entered
+  /// above the initial flow: 100 (in + lateral − out − Δstorage) /
+  /// (in + lateral − base). NaN when that event volume is not above 1e-6 of
+  /// what entered (a steady run, or inflow that only falls).
+  double event_error_pct = kNaN;
 };
 
 struct ReachSummary {
