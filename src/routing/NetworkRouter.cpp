@@ -70,6 +70,9 @@ struct Workspace {
 double peakTime(const TimeAxis& axis, const Peak& p) { return axis.at(p.index); }
 
 /// "+1.23 %": a signed percentage for a warning.
+/// "1 reach", "3 reaches".
+std::string reaches(std::size_t n) { return std::to_string(n) + (n == 1 ? " reach" : " reaches"); }
+
 std::string percent(double v) {
   char buf[32];
   std::snprintf(buf, sizeof buf, "%+.2f %%", v);
@@ -321,29 +324,28 @@ void Scheduler::summariseWarnings() {
     }
   }
   auto& w = results_.warnings;
-  if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + std::to_string(neg_r) + " reaches");
+  if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + reaches(neg_r));
   // X raised to 0 routes with less diffusion than physical; each cause in its own words.
   const char* const why[kCauses] = {
       "",
-      "reaches with a pipe in surcharge (above its capacity)",
-      "two-stage reaches whose flows cross bank-full (the celerity changes abruptly there)",
-      "short reaches (the wave crosses the reach within one time step)",
-      "flat reaches (D > 1 at the reference flow: a sub-reach is shorter than the diffusion length Q/(T S0 c))",
-      "reaches at flows away from the reference flow (D > 1 there)"};
+      "with a pipe in surcharge (above its capacity)",
+      "of two-stage section whose flows cross bank-full (the celerity changes abruptly there)",
+      "too short for the step (the wave crosses the reach within one time step)",
+      "too flat for the grid (D > 1 at the reference flow: a sub-reach is shorter than the diffusion "
+      "length Q/(T S0 c))",
+      "at flows away from the reference flow (D > 1 there)"};
   for (std::size_t c = 1; c < kCauses; ++c)
-    if (xc_r[c])
-      w.push_back(std::to_string(xc[c]) + " cells with X < 0 raised to 0 in " + std::to_string(xc_r[c]) + " " +
-                  why[c]);
-  if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + std::to_string(sur_r) + " reaches");
-  if (comp_r) w.push_back(std::to_string(comp_r) + " reaches where no grid kept every coefficient non-negative; the closest was used");
+    if (xc_r[c]) w.push_back(std::to_string(xc[c]) + " cells with X < 0 raised to 0 in " + reaches(xc_r[c]) + " " + why[c]);
+  if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + reaches(sur_r));
+  if (comp_r) w.push_back(reaches(comp_r) + " where no grid kept every coefficient non-negative; the closest was used");
   if (env_r) {
     const std::string worst = percent(env_worst);
-    w.push_back(std::to_string(env_r) + " reaches leave the [base flow, inflow peak] envelope by more than 1 % of the rise (" +
+    w.push_back(reaches(env_r) + " leaving the [base flow, inflow peak] envelope by more than 1 % of the rise (" +
                 std::to_string(env) + " output samples), worst " + worst.substr(1) + " of the rise at reach " +
                 plan_.reach_id[env_at]);
   }
   if (vol_r)
-    w.push_back(std::to_string(vol_r) + " reaches with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
+    w.push_back(reaches(vol_r) + " with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
                 percent(vol_worst) + " at reach " + plan_.reach_id[vol_at]);
 }
 

@@ -332,7 +332,7 @@ TEST(NetworkRouter, VolumeWarningUsesTheEventBasis) {
   ASSERT_GT(r.reaches[0].numerics.negative_clamps, 0u);
   EXPECT_LT(std::abs(v.error_pct), 1.0);
   EXPECT_GT(std::abs(v.event_error_pct), 1.0) << v.error_pct;
-  const std::string w = warningWith(r, "1 reaches with a volume error above 1 % of the event volume");
+  const std::string w = warningWith(r, "1 reach with a volume error above 1 % of the event volume");
   EXPECT_NE(w.find("at reach R0"), std::string::npos) << w;
 
   // Without the negative coefficient (X = 0.1: C0 > 0) nothing is clamped,
@@ -356,7 +356,7 @@ TEST(NetworkRouter, XClampWarningNamesSurcharge) {
   ASSERT_GT(r.reaches[0].numerics.x_clamps, 0u);
   const std::string w = warningWith(r, "X < 0 raised to 0");
   EXPECT_NE(w.find("surcharge"), std::string::npos) << w;
-  EXPECT_NE(w.find(" in 1 reaches"), std::string::npos) << w;
+  EXPECT_NE(w.find(" in 1 reach with a pipe"), std::string::npos) << w;
   for (const std::string& line : r.warnings) {
     EXPECT_EQ(line.find("flat"), std::string::npos) << line;
     EXPECT_EQ(line.find("short"), std::string::npos) << line;
@@ -373,7 +373,7 @@ TEST(NetworkRouter, EnvelopeWarningCountsReachesAndSamples) {
   const NetworkResults r = routeMuskingumReach(3, 0.4, in);
   EXPECT_EQ(r.reaches[0].numerics.negative_clamps, 0u);
   const std::string w = warningWith(r, "envelope");
-  EXPECT_NE(w.find("1 reaches leave the [base flow, inflow peak] envelope by more than 1 % of the rise (2 output "
+  EXPECT_NE(w.find("1 reach leaving the [base flow, inflow peak] envelope by more than 1 % of the rise (2 output "
                    "samples), worst 30.43 % of the rise at reach R0"),
             std::string::npos)
       << w;
