@@ -1,9 +1,17 @@
 // `vpmc`: variable-parameter Muskingum–Cunge, C and D recomputed in every
 // cell from a rating table (Ponce & Yevjevich 1978, J. Hydraulics Div. ASCE
-// 104; four-point scheme: Ponce & Chaganti 1994, J. Hydrology 162), on the
-// grid chosen at the reference flow.
+// 104), on the grid chosen at the reference flow. The default (three-point)
+// cell is written on the storage of the sub-reach, Δx [X A(I) + (1 − X) A(O)]
+// with A the area of uniform flow, so it conserves volume to round-off
+// (mass-conservative variable-parameter Muskingum–Cunge: Todini 2007, HESS
+// 11, 1645–1659, "A mass conservative and water storage consistent variable
+// parameter Muskingum-Cunge approach"; our form on the area rather than his
+// on K = Δx/c, see ConservativeCell and docs/methods.md §4). The iterated
+// four-point option keeps the discharge form (Ponce & Chaganti 1994,
+// J. Hydrology 162).
 
 #include <algorithm>
+#include <bit>
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
@@ -103,6 +111,132 @@ struct VariableCell {
   }
 };
 
+/// Cross-section area against discharge for the conservative cell: A(Q) of
+/// uniform flow, linear between the edges of cells that are read straight
+/// off the bits of Q (the exponent and the top kBits mantissa bits, 2^kBits
+/// cells per octave, as the rating table's dense grid), A = a0 + a1 Q in a
+/// cell. Built from the rating table's depth (A = A(y(Q)), the section's own
+/// area), so it costs no normal-depth solve inside the table's range.
+class AreaTable {
+public:
+  static constexpr int kBits = 5;
+  void build(const hydraulics::RatingTable& table, const hydraulics::Section& sec) {
+    const double lo = table.bottomDischarge(), hi = table.topDischarge();
+    key0_ = key(lo);
+    const std::int64_t key1 = key(hi) + 1;
+    q_lo_ = lo, q_hi_ = hi;
+    cells_.resize(static_cast<std::size_t>(key1 - key0_ + 1));
+    double e0 = lo, a_e0 = areaAt(table, sec, lo);
+    for (std::int64_t k = key0_; k <= key1; ++k) {
+      const double e1 = std::max(start(k + 1), e0 * (1 + 1e-12));
+      const double a_e1 = areaAt(table, sec, e1);
+      const double slope = (a_e1 - a_e0) / (e1 - e0);
+      cells_[static_cast<std::size_t>(k - key0_)] = {a_e0 - slope * e0, slope};
+      e0 = e1, a_e0 = a_e1;
+    }
+  }
+  struct Cell {
+    double a0, a1;
+  };
+  /// The cell holding q (held at the table's ends).
+  const Cell& at(double q) const { return cells_[index(q)]; }
+  std::size_t index(double q) const {
+    if (!(q > q_lo_)) q = q_lo_;
+    if (q > q_hi_) q = q_hi_;
+    return static_cast<std::size_t>(key(q) - key0_);
+  }
+  const Cell& cell(std::size_t i) const { return cells_[i]; }
+  double area(double q) const {
+    const Cell& c = at(q);
+    return c.a0 + c.a1 * q;
+  }
+
+private:
+  static std::int64_t key(double q) {
+    return static_cast<std::int64_t>(std::bit_cast<std::uint64_t>(q) >> (52 - kBits));
+  }
+  static double start(std::int64_t k) {
+    return std::bit_cast<double>(static_cast<std::uint64_t>(k) << (52 - kBits));
+  }
+  static double areaAt(const hydraulics::RatingTable& table, const hydraulics::Section& sec, double q) {
+    double y, v;
+    table.depthAndVelocity(q, y, v);
+    return sec.area(y);
+  }
+  std::vector<Cell> cells_;
+  std::int64_t key0_ = 0;
+  double q_lo_ = 1, q_hi_ = 1;
+};
+
+/// The conservative variable-parameter cell (see docs/methods.md §4): the
+/// storage of a sub-reach is Δx [X A(I) + (1 − X) A(O)], with A the area of
+/// uniform flow and X = (1 − D)/2 at the inflow end's flow at that time
+/// level, and it changes over a sub-step by exactly the trapezoidal inflow
+/// minus outflow (plus the lateral inflow):
+///   Δx [X* A(I*) + (1 − X*) A(O*)] − Δx [X' A(I') + (1 − X') A(O')]
+///     = Δt/2 (I* + I' − O' − O*) + Δt q_L Δx.
+/// Linearised about one flow (A = Q/c) it is Cunge's scheme (Cunge 1969);
+/// written on the area it conserves volume whatever C and D do, the idea of
+/// Todini (2007), whose coefficients are written on K = Δx/c instead (from
+/// memory). D is raised to |1 − C| where it is smaller, so that every
+/// linearised coefficient is non-negative (positivity; see docs/methods.md).
+struct ConservativeCell {
+  const hydraulics::RatingTable& table;
+  const AreaTable& area;
+  double slope, dx, dts, capacity;
+  std::uint64_t& x_clamps;
+  std::uint64_t& surcharge;
+  double dt_over_dx = dts / dx, inv_slope_dx = 1.0 / (slope * dx), half_dt = 0.5 * dts;
+
+  /// X at flow q (Cunge 1969), with D raised to |1 − C| where it is smaller.
+  double weight(double q) const {
+    double c, inv_tc;
+    table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
+    const double C = c * dt_over_dx;
+    double D = cellDiffusionRatioFactored(q, inv_tc, inv_slope_dx);
+    if (D < std::abs(1.0 - C)) D = std::abs(1.0 - C);
+    if (D > 1.0) {
+      D = 1.0;
+      ++x_clamps;
+    }
+    if (q > capacity) ++surcharge;
+    return 0.5 * (1.0 - D);
+  }
+  double operator()(double left_new, double left_old, double old, double lat) const {
+    const double x_old = weight(left_old), x_new = weight(left_new);
+    const double r = dx * (x_old * area.area(left_old) + (1.0 - x_old) * area.area(old) - x_new * area.area(left_new)) +
+                     half_dt * (left_new + left_old - old) + dts * lat;
+    const double alpha = (1.0 - x_new) * dx;
+    // α A(O) + Δt/2 O = r is increasing in O: solve it cell by cell of the
+    // area table, starting from the cell of the old outflow.
+    std::size_t i = area.index(old);
+    double o = old;
+    for (int it = 0; it < 64; ++it) {
+      const AreaTable::Cell& c = area.cell(i);
+      o = (r - alpha * c.a0) / (alpha * c.a1 + half_dt);
+      const std::size_t j = area.index(o);
+      if (j == i) break;
+      i = j;
+    }
+    return o;
+  }
+  double storage(const std::vector<double>& q) const {
+    double s = 0;
+    for (std::size_t j = 0; j + 1 < q.size(); ++j) {
+      const double x = weightNoCount(q[j]);
+      s += dx * (x * area.area(q[j]) + (1.0 - x) * area.area(q[j + 1]));
+    }
+    return s;
+  }
+  double weightNoCount(double q) const {
+    double c, inv_tc;
+    table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
+    const double C = c * dt_over_dx;
+    const double D = std::min(1.0, std::max(std::abs(1.0 - C), cellDiffusionRatioFactored(q, inv_tc, inv_slope_dx)));
+    return 0.5 * (1.0 - D);
+  }
+};
+
 /// The rating table of a route, rebuilt in `spare`'s storage. Its top is
 /// max(1.5 Q_peak, 2 Q_ref) as always; its bottom is a tenth of the
 /// smallest top inflow (where flows in the reach can reach: lateral inflow
@@ -133,6 +267,16 @@ void variableCunge(RouteContext& ctx) {
   const hydraulics::Section& sec = ctx.reach.section;
   const RouteOptions& o = ctx.options;
   ctx.table = ratingTableFor(sec, ctx.q_in_min_m3s, ctx.q_peak_m3s, ctx.q_ref_m3s, o.table_nodes, ctx.spare);
+  // The conservative cell reads the tables; the direct-solve option (a
+  // check of the table) and the four-point option keep the discharge form.
+  if (o.scheme == Scheme::ThreePoint && o.use_rating_table) {
+    thread_local AreaTable area;
+    area.build(*ctx.table, sec);
+    ConservativeCell cell{*ctx.table, area, sec.bedSlope(), ref.dx_m, ref.dt_sub_s, sec.capacity(),
+                          ctx.numerics.x_clamps, ctx.numerics.surcharge_cells};
+    sweepReach(ctx, cell, Negatives::ClampAndCount);
+    return;
+  }
   VariableCell cell{*ctx.table, o.use_rating_table ? nullptr : &sec, sec.bedSlope(), ref.dx_m, ref.dt_sub_s,
                     sec.capacity(), o.scheme, o.four_point_iterations, ctx.numerics.x_clamps,
                     ctx.numerics.surcharge_cells};
