@@ -189,6 +189,9 @@ struct ConservativeCell {
   double dt_over_dx = dts / dx, inv_slope_dx = 1.0 / (slope * dx), half_dt = 0.5 * dts;
 
   /// X at flow q (Cunge 1969), with D raised to |1 − C| where it is smaller.
+  /// `Count`: count a clamped D and a surcharged flow (once per cell
+  /// update, at its new time level).
+  template <bool Count>
   double weight(double q) const {
     double c, inv_tc;
     table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
@@ -197,13 +200,14 @@ struct ConservativeCell {
     if (D < std::abs(1.0 - C)) D = std::abs(1.0 - C);
     if (D > 1.0) {
       D = 1.0;
-      ++x_clamps;
+      if constexpr (Count) ++x_clamps;
     }
-    if (q > capacity) ++surcharge;
+    if constexpr (Count)
+      if (q > capacity) ++surcharge;
     return 0.5 * (1.0 - D);
   }
   double operator()(double left_new, double left_old, double old, double lat) const {
-    const double x_old = weight(left_old), x_new = weight(left_new);
+    const double x_old = weight<false>(left_old), x_new = weight<true>(left_new);
     const double r = dx * (x_old * area.area(left_old) + (1.0 - x_old) * area.area(old) - x_new * area.area(left_new)) +
                      half_dt * (left_new + left_old - old) + dts * lat;
     const double alpha = (1.0 - x_new) * dx;
@@ -223,17 +227,10 @@ struct ConservativeCell {
   double storage(const std::vector<double>& q) const {
     double s = 0;
     for (std::size_t j = 0; j + 1 < q.size(); ++j) {
-      const double x = weightNoCount(q[j]);
+      const double x = weight<false>(q[j]);
       s += dx * (x * area.area(q[j]) + (1.0 - x) * area.area(q[j + 1]));
     }
     return s;
-  }
-  double weightNoCount(double q) const {
-    double c, inv_tc;
-    table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
-    const double C = c * dt_over_dx;
-    const double D = std::min(1.0, std::max(std::abs(1.0 - C), cellDiffusionRatioFactored(q, inv_tc, inv_slope_dx)));
-    return 0.5 * (1.0 - D);
   }
 };
 
@@ -339,10 +336,22 @@ void variableCunge(RouteContext& ctx) {
       g0.subreaches = ctx.numerics.subreaches;
       g0.substeps = ctx.numerics.substeps;
       const Grid g = rangeGrid(ctx, *ctx.table, sec.bedSlope(), g0, kDiffusionTolerance);
-      ctx.numerics.subreaches = g.subreaches;
-      ctx.numerics.substeps = g.substeps;
-      dx = ctx.reach.length_m / g.subreaches;
-      dts = ctx.dt_s / g.substeps;
+      if (g.subreaches != g0.subreaches || g.substeps != g0.substeps) {
+        // Report the grid used, with the parameters at the reference flow on it.
+        ReachNumerics& num = ctx.numerics;
+        num.subreaches = g.subreaches;
+        num.substeps = g.substeps;
+        dx = ctx.reach.length_m / g.subreaches;
+        dts = ctx.dt_s / g.substeps;
+        const hydraulics::FlowState f = sec.normalFlow(std::max(ref.q_m3s, 1e-9));
+        const CungeParameters p = cungeParameters(f.celerity_ms, f.top_width_m, sec.bedSlope(), ref.q_m3s, dx, dts);
+        num.dx_m = dx;
+        num.dt_sub_s = dts;
+        num.courant = p.courant;
+        num.cell_reynolds = p.cell_reynolds;
+        num.x = p.x;
+        num.k_s = p.k_s;
+      }
     }
     ConservativeCell cell{*ctx.table, area, sec.bedSlope(), dx, dts, sec.capacity(),
                           ctx.numerics.x_clamps, ctx.numerics.surcharge_cells};
