@@ -8,11 +8,21 @@
 //
 //   build/bench/accuracy_matrix            # the whole matrix
 //   build/bench/accuracy_matrix 80 0.001   # only 80 km reaches at S0 = 0.001
+//
+// With REACHWISE_REFERENCE_CACHE=<file> the converged reference runs are
+// read from that file when it holds the case (same section, slope, length,
+// wave) and written to it when not, so the router side can be re-measured
+// in seconds (e.g. REACHWISE_REFERENCE_CACHE=build/accuracy_reference.cache).
+// The cache is only valid for the reference code that wrote it: delete it
+// when tests/support/reference changes.
 #include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <fstream>
+#include <map>
+#include <sstream>
 #include <string>
 #include <vector>
 
@@ -84,6 +94,51 @@ MethodFigures measure(const std::vector<double>& out, const std::vector<double>&
   return f;
 }
 
+// The reference cache (see the file comment): one line per case, its key,
+// the window and the fields of ConvergedRun the matrix reads.
+struct CachedReference {
+  double window = 0;
+  ref::ConvergedRun run;
+};
+std::map<std::string, CachedReference>& referenceCache() {
+  static std::map<std::string, CachedReference> cache;
+  return cache;
+}
+const char* cachePath() { return std::getenv("REACHWISE_REFERENCE_CACHE"); }
+std::string cacheKey(const Case& c) {
+  char buf[128];
+  std::snprintf(buf, sizeof buf, "%s/%.17g/%.17g/%s", c.section_name, c.slope, c.length_m, c.wave_name);
+  return buf;
+}
+void loadCache() {
+  if (!cachePath()) return;
+  std::ifstream f(cachePath());
+  std::string line;
+  while (std::getline(f, line)) {
+    std::istringstream in(line);
+    std::string key;
+    CachedReference r;
+    std::size_t n = 0;
+    int converged = 0;
+    in >> key >> r.window >> r.run.levels >> converged >> r.run.grid.cells >> r.run.grid.substeps >>
+        r.run.last_peak_change >> r.run.run.outflow_m3 >> n;
+    r.run.converged = converged != 0;
+    r.run.run.outflow_m3s.resize(n);
+    for (double& v : r.run.run.outflow_m3s) in >> v;
+    if (in) referenceCache()[key] = std::move(r);
+  }
+}
+void storeCache(const std::string& key, const CachedReference& r) {
+  if (!cachePath()) return;
+  std::ofstream f(cachePath(), std::ios::app);
+  f.precision(17);
+  f << key << ' ' << r.window << ' ' << r.run.levels << ' ' << int(r.run.converged) << ' ' << r.run.grid.cells << ' '
+    << r.run.grid.substeps << ' ' << r.run.last_peak_change << ' ' << r.run.run.outflow_m3 << ' '
+    << r.run.run.outflow_m3s.size();
+  for (double v : r.run.run.outflow_m3s) f << ' ' << v;
+  f << '\n';
+}
+
 Row run(const Case& c) {
   const auto t0 = std::chrono::steady_clock::now();
   Row row(c);
@@ -103,13 +158,25 @@ Row run(const Case& c) {
   double window = 5 * c.rise_s + 2 * c.length_m / c_min;
   std::vector<double> in;
   double in_event = 0, ref_event = 0;
-  for (int attempt = 0;; ++attempt, window *= 2) {
+  const auto cached = referenceCache().find(cacheKey(c));
+  if (cached != referenceCache().end()) {
+    window = cached->second.window;
+    const auto samples = static_cast<std::size_t>(std::ceil((start + window) / kDt)) + 1;
+    in = ref::gammaWave(row.base, row.peak_in - row.base, c.rise_s, start, kDt, samples);
+    row.reference = cached->second.run;
+    in_event = ref::eventVolume(in, row.base, kDt);
+    ref_event = row.reference.run.outflow_m3 - row.base * kDt * static_cast<double>(samples - 1);
+  }
+  for (int attempt = 0; cached == referenceCache().end(); ++attempt, window *= 2) {
     const auto samples = static_cast<std::size_t>(std::ceil((start + window) / kDt)) + 1;
     in = ref::gammaWave(row.base, row.peak_in - row.base, c.rise_s, start, kDt, samples);
     row.reference = ref::convergeDiffusionWave(s, c.length_m, in, kDt, c.rise_s);
     in_event = ref::eventVolume(in, row.base, kDt);
     ref_event = row.reference.run.outflow_m3 - row.base * kDt * static_cast<double>(samples - 1);
-    if (ref_event >= 0.99 * in_event || attempt == 3) break;
+    if (ref_event >= 0.99 * in_event || attempt == 3) {
+      storeCache(cacheKey(c), {window, row.reference});
+      break;
+    }
   }
   row.window_h = window / kHour;
   const std::vector<double>& q_ref = row.reference.run.outflow_m3s;
@@ -163,6 +230,7 @@ int main(int argc, char** argv) {
         cases.push_back({names[k], sections[k], slope, km * 1000, "broad", 48 * kHour});
       }
   }
+  loadCache();
   const auto t0 = std::chrono::steady_clock::now();
   std::vector<Row> rows;
   for (const Case& c : cases) {

@@ -24,8 +24,10 @@ enum class Method {
 };
 
 enum class Scheme {
-  ThreePoint,  ///< reference flow from Q[j,n], Q[j,n+1], Q[j+1,n]
-  FourPoint,   ///< ... and Q[j+1,n+1], iterated (Ponce & Chaganti 1994)
+  ThreePoint,  ///< the conservative cell: storage Δx [X A(I) + (1 − X) A(O)] balanced
+               ///< exactly, X at each time level's inflow (docs/methods.md §4; Todini 2007)
+  FourPoint,   ///< discharge form, reference flow from Q[j,n], Q[j,n+1], Q[j+1,n]
+               ///< and Q[j+1,n+1], iterated (Ponce & Chaganti 1994); not conservative
 };
 
 /// What the router needs to know about a reach.
@@ -51,7 +53,8 @@ struct RouteOptions {
   /// least 16).
   std::size_t table_nodes = 64;
   /// `vpmc` reads c and T from a rating table; false solves normal depth in
-  /// every cell instead (slow; for checks and benchmarks).
+  /// every cell instead with the discharge-form three-point cell (slow; for
+  /// checks of the table and benchmarks; not the conservative cell).
   bool use_rating_table = true;
   GridLimits limits;
 };

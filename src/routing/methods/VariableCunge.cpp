@@ -1,9 +1,17 @@
 // `vpmc`: variable-parameter Muskingum–Cunge, C and D recomputed in every
 // cell from a rating table (Ponce & Yevjevich 1978, J. Hydraulics Div. ASCE
-// 104; four-point scheme: Ponce & Chaganti 1994, J. Hydrology 162), on the
-// grid chosen at the reference flow.
+// 104), on the grid chosen at the reference flow. The default (three-point)
+// cell is written on the storage of the sub-reach, Δx [X A(I) + (1 − X) A(O)]
+// with A the area of uniform flow, so it conserves volume to round-off
+// (mass-conservative variable-parameter Muskingum–Cunge: Todini 2007, HESS
+// 11, 1645–1659, "A mass conservative and water storage consistent variable
+// parameter Muskingum-Cunge approach"; our form on the area rather than his
+// on K = Δx/c, see ConservativeCell and docs/methods.md §4). The iterated
+// four-point option keeps the discharge form (Ponce & Chaganti 1994,
+// J. Hydrology 162).
 
 #include <algorithm>
+#include <bit>
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
@@ -103,6 +111,129 @@ struct VariableCell {
   }
 };
 
+/// Cross-section area against discharge for the conservative cell: A(Q) of
+/// uniform flow, linear between the edges of cells that are read straight
+/// off the bits of Q (the exponent and the top kBits mantissa bits, 2^kBits
+/// cells per octave, as the rating table's dense grid), A = a0 + a1 Q in a
+/// cell. Built from the rating table's depth (A = A(y(Q)), the section's own
+/// area), so it costs no normal-depth solve inside the table's range.
+class AreaTable {
+public:
+  static constexpr int kBits = 5;
+  void build(const hydraulics::RatingTable& table, const hydraulics::Section& sec) {
+    const double lo = table.bottomDischarge(), hi = table.topDischarge();
+    key0_ = key(lo);
+    const std::int64_t key1 = key(hi) + 1;
+    q_lo_ = lo, q_hi_ = hi;
+    cells_.resize(static_cast<std::size_t>(key1 - key0_ + 1));
+    double e0 = lo, a_e0 = areaAt(table, sec, lo);
+    for (std::int64_t k = key0_; k <= key1; ++k) {
+      const double e1 = std::max(start(k + 1), e0 * (1 + 1e-12));
+      const double a_e1 = areaAt(table, sec, e1);
+      const double slope = (a_e1 - a_e0) / (e1 - e0);
+      cells_[static_cast<std::size_t>(k - key0_)] = {a_e0 - slope * e0, slope};
+      e0 = e1, a_e0 = a_e1;
+    }
+  }
+  struct Cell {
+    double a0, a1;
+  };
+  /// The cell holding q (held at the table's ends).
+  const Cell& at(double q) const { return cells_[index(q)]; }
+  std::size_t index(double q) const {
+    if (!(q > q_lo_)) q = q_lo_;
+    if (q > q_hi_) q = q_hi_;
+    return static_cast<std::size_t>(key(q) - key0_);
+  }
+  const Cell& cell(std::size_t i) const { return cells_[i]; }
+  double area(double q) const {
+    const Cell& c = at(q);
+    return c.a0 + c.a1 * q;
+  }
+
+private:
+  static std::int64_t key(double q) {
+    return static_cast<std::int64_t>(std::bit_cast<std::uint64_t>(q) >> (52 - kBits));
+  }
+  static double start(std::int64_t k) {
+    return std::bit_cast<double>(static_cast<std::uint64_t>(k) << (52 - kBits));
+  }
+  static double areaAt(const hydraulics::RatingTable& table, const hydraulics::Section& sec, double q) {
+    double y, v;
+    table.depthAndVelocity(q, y, v);
+    return sec.area(y);
+  }
+  std::vector<Cell> cells_;
+  std::int64_t key0_ = 0;
+  double q_lo_ = 1, q_hi_ = 1;
+};
+
+/// The conservative variable-parameter cell (see docs/methods.md §4): the
+/// storage of a sub-reach is Δx [X A(I) + (1 − X) A(O)], with A the area of
+/// uniform flow and X = (1 − D)/2 at the inflow end's flow at that time
+/// level, and it changes over a sub-step by exactly the trapezoidal inflow
+/// minus outflow (plus the lateral inflow):
+///   Δx [X* A(I*) + (1 − X*) A(O*)] − Δx [X' A(I') + (1 − X') A(O')]
+///     = Δt/2 (I* + I' − O' − O*) + Δt q_L Δx.
+/// Linearised about one flow (A = Q/c) it is Cunge's scheme (Cunge 1969);
+/// written on the area it conserves volume whatever C and D do, the idea of
+/// Todini (2007), whose coefficients are written on K = Δx/c instead (from
+/// memory). D is raised to |1 − C| where it is smaller, so that every
+/// linearised coefficient is non-negative (positivity; see docs/methods.md).
+struct ConservativeCell {
+  const hydraulics::RatingTable& table;
+  const AreaTable& area;
+  double slope, dx, dts, capacity;
+  std::uint64_t& x_clamps;
+  std::uint64_t& surcharge;
+  double dt_over_dx = dts / dx, inv_slope_dx = 1.0 / (slope * dx), half_dt = 0.5 * dts;
+
+  /// X at flow q (Cunge 1969), with D raised to |1 − C| where it is smaller.
+  /// `Count`: count a clamped D and a surcharged flow (once per cell
+  /// update, at its new time level).
+  template <bool Count>
+  double weight(double q) const {
+    double c, inv_tc;
+    table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
+    const double C = c * dt_over_dx;
+    double D = cellDiffusionRatioFactored(q, inv_tc, inv_slope_dx);
+    if (D < std::abs(1.0 - C)) D = std::abs(1.0 - C);
+    if (D > 1.0) {
+      D = 1.0;
+      if constexpr (Count) ++x_clamps;
+    }
+    if constexpr (Count)
+      if (q > capacity) ++surcharge;
+    return 0.5 * (1.0 - D);
+  }
+  double operator()(double left_new, double left_old, double old, double lat) const {
+    const double x_old = weight<false>(left_old), x_new = weight<true>(left_new);
+    const double r = dx * (x_old * area.area(left_old) + (1.0 - x_old) * area.area(old) - x_new * area.area(left_new)) +
+                     half_dt * (left_new + left_old - old) + dts * lat;
+    const double alpha = (1.0 - x_new) * dx;
+    // α A(O) + Δt/2 O = r is increasing in O: solve it cell by cell of the
+    // area table, starting from the cell of the old outflow.
+    std::size_t i = area.index(old);
+    double o = old;
+    for (int it = 0; it < 64; ++it) {
+      const AreaTable::Cell& c = area.cell(i);
+      o = (r - alpha * c.a0) / (alpha * c.a1 + half_dt);
+      const std::size_t j = area.index(o);
+      if (j == i) break;
+      i = j;
+    }
+    return o;
+  }
+  double storage(const std::vector<double>& q) const {
+    double s = 0;
+    for (std::size_t j = 0; j + 1 < q.size(); ++j) {
+      const double x = weight<false>(q[j]);
+      s += dx * (x * area.area(q[j]) + (1.0 - x) * area.area(q[j + 1]));
+    }
+    return s;
+  }
+};
+
 /// The rating table of a route, rebuilt in `spare`'s storage. Its top is
 /// max(1.5 Q_peak, 2 Q_ref) as always; its bottom is a tenth of the
 /// smallest top inflow (where flows in the reach can reach: lateral inflow
@@ -126,6 +257,67 @@ hydraulics::RatingTable ratingTableFor(const hydraulics::Section& sec, double q_
   return t;
 }
 
+/// The grid of the conservative cell over the range of flows that matter
+/// for the peak, [Q_ref, Q_peak] (docs/methods.md §4). At flow q the cell's
+/// numerical diffusion is c Δx max(D, |1 − C|)/2 (D < 1) or c Δx/2 (D
+/// clamped at 1) against the channel's ν = c ℓ/2, ℓ = q/(T S0 c). The grid
+/// of the reference flow is kept when the celerity varies by less than a
+/// factor kCelerityRange over the range, or when it matches ν within a
+/// factor 1 ± ε at every flow of the range; otherwise the cheapest grid (fewest
+/// sub-reaches × sub-steps) that does is taken; if none does within the
+/// limits, the grid of the reference flow is kept.
+/// ε of rangeGrid: 0.5 measured best on the accuracy matrix (0.25 cost more
+/// and passed one row fewer; docs/methods.md).
+constexpr double kDiffusionTolerance = 0.5, kCelerityRange = 2.0;
+
+Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, double slope, Grid g0, double eps) {
+  constexpr int kSamples = 33;
+  double c[kSamples], ell[kSamples];
+  const double q0 = std::max(ctx.q_ref_m3s, table.bottomDischarge()), q1 = std::max(ctx.q_peak_m3s, q0);
+  for (int i = 0; i < kSamples; ++i) {
+    const double q = q0 + (q1 - q0) * i / (kSamples - 1);
+    double t;
+    table.celerityAndWidth(q, c[i], t);
+    ell[i] = diffusionLength(q, t, slope, c[i]);
+  }
+  // Only where the celerity spans a factor kCelerityRange or more over the
+  // range (the drop at a bank, a pipe near its crown): elsewhere the
+  // reference grid already meets the targets on the matrix, and refining it
+  // cost 2.5 x on the short-reach benchmark.
+  const auto [c_lo, c_hi] = std::minmax_element(c, c + kSamples);
+  if (*c_hi < kCelerityRange * *c_lo) return g0;
+  const double length = ctx.reach.length_m;
+  const auto fits = [&](double dx, double dt, double e) {
+    for (int i = 0; i < kSamples; ++i) {
+      if (dx < (1 - e) * ell[i]) return false;
+      if (std::abs(dx - c[i] * dt) > (1 + e) * ell[i]) return false;
+    }
+    return true;
+  };
+  if (fits(length / g0.subreaches, ctx.dt_s / g0.substeps, eps)) return g0;
+  const GridLimits& lim = ctx.options.limits;
+  Grid best = g0;
+  double best_cost = 0;
+  for (std::uint32_t k = 1; k <= lim.max_substeps; ++k) {
+    const double dt = ctx.dt_s / k;
+    double lo = 0, hi = length;
+    for (int i = 0; i < kSamples; ++i) {
+      lo = std::max({lo, (1 - eps) * ell[i], c[i] * dt - (1 + eps) * ell[i]});
+      hi = std::min(hi, c[i] * dt + (1 + eps) * ell[i]);
+    }
+    if (lo > hi) continue;
+    const double m = std::max(1.0, std::ceil(length / hi * (1 - 1e-12)));
+    if (m > lim.max_subreaches || length / m < lo * (1 - 1e-12)) continue;
+    const double cost = m * k;
+    if (best_cost == 0 || cost < best_cost) {
+      best_cost = cost;
+      best.subreaches = static_cast<std::uint32_t>(m);
+      best.substeps = k;
+    }
+  }
+  return best;
+}
+
 }  // namespace
 
 void variableCunge(RouteContext& ctx) {
@@ -133,6 +325,39 @@ void variableCunge(RouteContext& ctx) {
   const hydraulics::Section& sec = ctx.reach.section;
   const RouteOptions& o = ctx.options;
   ctx.table = ratingTableFor(sec, ctx.q_in_min_m3s, ctx.q_peak_m3s, ctx.q_ref_m3s, o.table_nodes, ctx.spare);
+  // The conservative cell reads the tables; the direct-solve option (a
+  // check of the table) and the four-point option keep the discharge form.
+  if (o.scheme == Scheme::ThreePoint && o.use_rating_table) {
+    thread_local AreaTable area;
+    area.build(*ctx.table, sec);
+    double dx = ref.dx_m, dts = ref.dt_sub_s;
+    if (o.subreaches == 0 && o.substeps == 0) {
+      Grid g0;
+      g0.subreaches = ctx.numerics.subreaches;
+      g0.substeps = ctx.numerics.substeps;
+      const Grid g = rangeGrid(ctx, *ctx.table, sec.bedSlope(), g0, kDiffusionTolerance);
+      if (g.subreaches != g0.subreaches || g.substeps != g0.substeps) {
+        // Report the grid used, with the parameters at the reference flow on it.
+        ReachNumerics& num = ctx.numerics;
+        num.subreaches = g.subreaches;
+        num.substeps = g.substeps;
+        dx = ctx.reach.length_m / g.subreaches;
+        dts = ctx.dt_s / g.substeps;
+        const hydraulics::FlowState f = sec.normalFlow(std::max(ref.q_m3s, 1e-9));
+        const CungeParameters p = cungeParameters(f.celerity_ms, f.top_width_m, sec.bedSlope(), ref.q_m3s, dx, dts);
+        num.dx_m = dx;
+        num.dt_sub_s = dts;
+        num.courant = p.courant;
+        num.cell_reynolds = p.cell_reynolds;
+        num.x = p.x;
+        num.k_s = p.k_s;
+      }
+    }
+    ConservativeCell cell{*ctx.table, area, sec.bedSlope(), dx, dts, sec.capacity(),
+                          ctx.numerics.x_clamps, ctx.numerics.surcharge_cells};
+    sweepReach(ctx, cell, Negatives::ClampAndCount);
+    return;
+  }
   VariableCell cell{*ctx.table, o.use_rating_table ? nullptr : &sec, sec.bedSlope(), ref.dx_m, ref.dt_sub_s,
                     sec.capacity(), o.scheme, o.four_point_iterations, ctx.numerics.x_clamps,
                     ctx.numerics.surcharge_cells};
