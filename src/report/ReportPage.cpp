@@ -270,7 +270,7 @@ private:
   void worstEventVolume() {
     out_ << "<h3>Reaches with the largest event volume error</h3>\n<p>Volume error (in + lateral − out − "
             "storage change) as % of the volume that entered above the initial flow; envelope: how far the "
-            "outflow went outside [base flow, inflow peak], % of the rise.</p>\n<table id=\"worst-event-volume\">\n"
+            "outflow went outside its inflow envelope (lowest to highest inflow), % of the rise.</p>\n<table id=\"worst-event-volume\">\n"
             "<thead><tr><th>#</th><th>reach</th><th class=\"num\">event volume error (%)</th><th class=\"num\">"
             "volume error, all inflow (%)</th><th class=\"num\">envelope excursion (% of rise)</th></tr></thead>\n"
             "<tbody>\n";

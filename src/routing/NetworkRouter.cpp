@@ -69,10 +69,10 @@ struct Workspace {
 
 double peakTime(const TimeAxis& axis, const Peak& p) { return axis.at(p.index); }
 
-/// "+1.23 %": a signed percentage for a warning.
 /// "1 reach", "3 reaches".
 std::string reaches(std::size_t n) { return std::to_string(n) + (n == 1 ? " reach" : " reaches"); }
 
+/// "+1.23 %": a signed percentage for a warning.
 std::string percent(double v) {
   char buf[32];
   std::snprintf(buf, sizeof buf, "%+.2f %%", v);
@@ -340,7 +340,7 @@ void Scheduler::summariseWarnings() {
   if (comp_r) w.push_back(reaches(comp_r) + " where no grid kept every coefficient non-negative; the closest was used");
   if (env_r) {
     const std::string worst = percent(env_worst);
-    w.push_back(reaches(env_r) + " leaving the [base flow, inflow peak] envelope by more than 1 % of the rise (" +
+    w.push_back(reaches(env_r) + " leaving the inflow envelope (lowest to highest inflow) by more than 1 % of the rise (" +
                 std::to_string(env) + " output samples), worst " + worst.substr(1) + " of the rise at reach " +
                 plan_.reach_id[env_at]);
   }

@@ -32,7 +32,6 @@ namespace reachwise::routing {
 /// Forcing of one output step, interpolated linearly to sub-steps.
 struct StepForcing {
   double in0, in1, lat0, lat1;
-  double inflowAt(double f) const { return in0 + (in1 - in0) * f; }
   double lateralAt(double f) const { return lat0 + (lat1 - lat0) * f; }
 };
 
@@ -58,11 +57,11 @@ struct Rows {
   std::size_t n = 0;      // step of the next row
   std::uint32_t s = 1;    // its sub-step, 1..k
 
+  const double* fraction;  // fraction[s] = s / k, s = 0..k
+
   std::size_t count() const { return (inflow.size() - 1) * k; }
   /// The next row; `ends_step` set when it is a step's last sub-step (its
   /// outflow is the sample at step n + 1).
-  const double* fraction;  // fraction[s] = s / k, s = 0..k
-
   Row next(bool& ends_step, std::size_t& step) {
     const double fr = fraction[s], fr0 = fraction[s - 1];
     const double in = inflow[n] + (inflow[n + 1] - inflow[n]) * fr;

@@ -11,6 +11,8 @@ SyntheticCase::SyntheticCase(SyntheticRequest request) : request_(std::move(requ
   io::refuseExisting(r.gpkg, r.overwrite);
   if (!r.lateral_nc.empty()) io::refuseExisting(r.lateral_nc, r.overwrite);
   if (!r.inflow_csv.empty()) io::refuseExisting(r.inflow_csv, r.overwrite);
+  if (!r.lateral_nc.empty() || !r.inflow_csv.empty())  // throws InvalidParameter naming what is wrong
+    (void)routing::TimeAxis::make(r.axis.start_unix_s, r.axis.dt_s, r.axis.steps, r.axis.utc_offset_min);
   net_ = network::generateSyntheticNetwork({r.reaches, r.outlets, r.seed});
   storm_.seed = r.seed;
 }

@@ -34,6 +34,7 @@
 #include "reachwise/network/Validation.hpp"
 #include "reachwise/report/Report.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/run/Forcing.hpp"
 
 namespace {
 
@@ -72,7 +73,7 @@ struct SampleRun {
     io::GpkgResultsWriter writer(gpkg, table, plan, axis);
     series = std::make_unique<report::ReportSeries>(plan, axis);
     io::SeriesFanOut fan({&writer, series.get()});
-    const io::PlanForcing adapter(*forcing, plan);
+    const run::PlanForcing adapter(*forcing, plan);
     results = routing::routeNetwork(plan, axis, adapter, routing::NetworkRouteOptions{}, &fan);
     info.inputs = {(kSample / "network.gpkg").string(), (kSample / "inflow.csv").string(),
                    (kSample / "lateral.csv").string()};

@@ -373,7 +373,7 @@ TEST(NetworkRouter, EnvelopeWarningCountsReachesAndSamples) {
   const NetworkResults r = routeMuskingumReach(3, 0.4, in);
   EXPECT_EQ(r.reaches[0].numerics.negative_clamps, 0u);
   const std::string w = warningWith(r, "envelope");
-  EXPECT_NE(w.find("1 reach leaving the [base flow, inflow peak] envelope by more than 1 % of the rise (2 output "
+  EXPECT_NE(w.find("1 reach leaving the inflow envelope (lowest to highest inflow) by more than 1 % of the rise (2 output "
                    "samples), worst 30.43 % of the rise at reach R0"),
             std::string::npos)
       << w;

@@ -16,8 +16,6 @@
 #include <string_view>
 #include <vector>
 
-#include "reachwise/network/NetworkPlan.hpp"
-#include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::io {
@@ -109,24 +107,6 @@ public:
 
 private:
   Forcing forcing_;
-};
-
-/// A forcing source bound to a plan: what the router pulls from, by plan
-/// index (routing::ForcingProvider), read straight into the router's
-/// buffers. `source` and `plan` must outlive it.
-class PlanForcing final : public routing::ForcingProvider {
-public:
-  PlanForcing(const ForcingSource& source, const network::NetworkPlan& plan) : source_(source), plan_(plan) {}
-  bool inflow(std::uint32_t reach, std::span<double> out) const override {
-    return source_.fill(ForcingKind::Inflow, plan_.reach_id[reach], out);
-  }
-  bool lateral(std::uint32_t reach, std::span<double> out) const override {
-    return source_.fill(ForcingKind::Lateral, plan_.reach_id[reach], out);
-  }
-
-private:
-  const ForcingSource& source_;
-  const network::NetworkPlan& plan_;
 };
 
 /// Throws one InputError listing every reach id of `source` (both kinds)

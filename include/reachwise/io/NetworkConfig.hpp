@@ -49,7 +49,7 @@ struct NetworkConfig {
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 
-  /// Default field names (INTERFACE.md), SI, automatic topology.
+  /// Default field names (docs/formats.md, "Fields"), SI, automatic topology.
   NetworkConfig();
 
   /// Parses a TOML file; throws InputError naming the file (and key) on a

@@ -23,6 +23,24 @@ struct ForcingFiles {
   std::optional<double> dt_s;    ///< resample CSV forcing to this step, s; unset: the file's own
 };
 
+/// A forcing source bound to a plan: what the router pulls from, by plan
+/// index (routing::ForcingProvider), read straight into the router's
+/// buffers. `source` and `plan` must outlive it.
+class PlanForcing final : public routing::ForcingProvider {
+public:
+  PlanForcing(const io::ForcingSource& source, const network::NetworkPlan& plan) : source_(source), plan_(plan) {}
+  bool inflow(std::uint32_t reach, std::span<double> out) const override {
+    return source_.fill(io::ForcingKind::Inflow, plan_.reach_id[reach], out);
+  }
+  bool lateral(std::uint32_t reach, std::span<double> out) const override {
+    return source_.fill(io::ForcingKind::Lateral, plan_.reach_id[reach], out);
+  }
+
+private:
+  const io::ForcingSource& source_;
+  const network::NetworkPlan& plan_;
+};
+
 /// Forcing opened and bound to a plan. The plan must outlive it.
 class RunForcing {
 public:
@@ -42,7 +60,7 @@ public:
 
 private:
   io::OpenedForcing opened_;
-  io::PlanForcing bound_;
+  PlanForcing bound_;
 };
 
 /// Base flow of each plan reach, m^3/s (the plan's, none = 0), for

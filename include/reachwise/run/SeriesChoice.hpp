@@ -1,6 +1,6 @@
 #pragma once
 /// \file
-/// Which reaches' hydrographs a run writes (`--hydrographs`).
+/// Which reaches' hydrographs a run writes (`OutputRequest::hydrographs`).
 
 #include <cstddef>
 #include <string_view>

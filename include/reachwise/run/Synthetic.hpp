@@ -32,7 +32,8 @@ class SyntheticCase {
 public:
   /// Refuses an existing output (InputError naming it, unless
   /// `overwrite`), then generates the network; InvalidParameter for a
-  /// size the generator cannot make.
+  /// size the generator cannot make or, when forcing is asked for, an
+  /// axis TimeAxis::make refuses.
   explicit SyntheticCase(SyntheticRequest request);
 
   const network::SyntheticNetwork& network() const noexcept { return net_; }

@@ -197,11 +197,12 @@ struct ConservativeCell {
     table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
     const double C = c * dt_over_dx;
     double D = cellDiffusionRatioFactored(q, inv_tc, inv_slope_dx);
-    if (D < std::abs(1.0 - C)) D = std::abs(1.0 - C);
-    if (D > 1.0) {
+    if (D > 1.0) {  // X < 0: the channel diffuses more than the cell can
       D = 1.0;
       if constexpr (Count) ++x_clamps;
     }
+    // Raising D to |1 − C| (at most 1) adds diffusion; it is not a clamp.
+    if (D < std::abs(1.0 - C)) D = std::min(1.0, std::abs(1.0 - C));
     if constexpr (Count)
       if (q > capacity) ++surcharge;
     return 0.5 * (1.0 - D);
