@@ -136,7 +136,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
                o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
-               s.routing_s, results.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, s.threads,
+               s.routing_s, results.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, results.threads,
                results.peak_live_series);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }

@@ -109,8 +109,10 @@ public:
     };
     if (options_.threads > 0) {
       tbb::task_arena arena(static_cast<int>(options_.threads));
+      results_.threads = static_cast<unsigned>(arena.max_concurrency());
       arena.execute([&] { tbb::parallel_for_each(roots.begin(), roots.end(), body); });
     } else {
+      results_.threads = static_cast<unsigned>(tbb::this_task_arena::max_concurrency());
       tbb::parallel_for_each(roots.begin(), roots.end(), body);
     }
     if (error_) std::rethrow_exception(error_);

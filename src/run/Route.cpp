@@ -1,7 +1,6 @@
 #include "reachwise/run/Route.hpp"
 
 #include <chrono>
-#include <thread>
 
 #include "reachwise/network/Problem.hpp"
 
@@ -76,7 +75,6 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   const auto t0 = std::chrono::steady_clock::now();
   summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
   summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  summary.threads = request.threads ? request.threads : std::thread::hardware_concurrency();
 
   tell.stage("writing the results");
   auto& warnings = summary.results.warnings;

@@ -131,6 +131,8 @@ TEST(Route, TheSameNetworkRoutesTwiceFromItsPiecesWithTheSameResult) {
   const auto a = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options);
   options.threads = 1;
   const auto b = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options);
+  EXPECT_EQ(b.threads, 1u);   // the arena asked for
+  EXPECT_GE(a.threads, 1u);   // the default arena: what the machine offers
   ASSERT_EQ(a.reaches.size(), b.reaches.size());
   for (std::size_t i = 0; i < a.reaches.size(); ++i)
     EXPECT_EQ(a.reaches[i].peak_q_m3s, b.reaches[i].peak_q_m3s) << plan.reach_id[i];

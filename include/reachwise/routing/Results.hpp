@@ -128,6 +128,7 @@ struct NetworkResults {
   std::vector<NodeSummary> nodes;
   std::vector<std::string> warnings;   ///< summarised, one line each
   std::size_t peak_live_series = 0;    ///< most series held in memory at once
+  unsigned threads = 0;                ///< worker threads the run could use
   /// Volume balance of the whole network: `inflow_m3` the point inflow (top
   /// inflow not coming from upstream reaches), `lateral_m3` the lateral
   /// inflow, `outflow_m3` what left through the outlets, `storage_change_m3`

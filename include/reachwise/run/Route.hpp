@@ -73,8 +73,7 @@ struct RouteSummary {
   routing::NetworkResults results;
   io::RunInfo info;                         ///< what run_info records
   std::string gpkg;                         ///< the GeoPackage written, or empty
-  double routing_s = 0;                     ///< wall time of the routing alone
-  unsigned threads = 0;                     ///< worker threads used
+  double routing_s = 0;                     ///< wall time of the routing alone (threads: results.threads)
 };
 
 /// Routes `request`. Throws NetworkHasErrors when the network cannot be
