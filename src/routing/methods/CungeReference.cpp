@@ -35,24 +35,31 @@ CungeReference cungeAtReference(RouteContext& ctx) {
   const hydraulics::FlowState ref = sec.normalFlow(std::max(r.q_m3s, 1e-9));
   if (!(r.q_m3s >= 0) || !std::isfinite(r.q_m3s))
     throw InvalidParameter("discharge", "must be finite and >= 0");
-  const double c = ref.celerity_ms, t = ref.top_width_m, slope = sec.bedSlope();
-  const Grid g = cungeGrid(ctx.options, ctx.reach.length_m, c, t, slope, r.q_m3s, ctx.dt_s);
+  r.celerity_ms = ref.celerity_ms;
+  r.top_width_m = ref.top_width_m;
+  const Grid g = cungeGrid(ctx.options, ctx.reach.length_m, r.celerity_ms, r.top_width_m, sec.bedSlope(),
+                           r.q_m3s, ctx.dt_s);
+  useGrid(ctx, r, g);
+  ctx.numerics.grid_compromise = g.compromise || !r.parameters.coefficients.nonNegative();
+  return r;
+}
+
+void useGrid(RouteContext& ctx, CungeReference& r, const Grid& g) {
   r.dx_m = ctx.reach.length_m / g.subreaches;
   r.dt_sub_s = ctx.dt_s / g.substeps;
-  r.parameters = cungeParameters(c, t, slope, r.q_m3s, r.dx_m, r.dt_sub_s);
+  r.parameters = cungeParameters(r.celerity_ms, r.top_width_m, ctx.reach.section.bedSlope(), r.q_m3s, r.dx_m,
+                                 r.dt_sub_s);
   const CungeParameters& p = r.parameters;
   ReachNumerics& num = ctx.numerics;
   num.subreaches = g.subreaches;
   num.substeps = g.substeps;
-  num.grid_compromise = g.compromise || !p.coefficients.nonNegative();
   num.dx_m = r.dx_m;
   num.dt_sub_s = r.dt_sub_s;
-  num.celerity_ms = c;
+  num.celerity_ms = r.celerity_ms;
   num.courant = p.courant;
   num.cell_reynolds = p.cell_reynolds;
   num.x = p.x;
   num.k_s = p.k_s;
-  return r;
 }
 
 }  // namespace reachwise::routing::methods

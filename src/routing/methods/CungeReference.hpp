@@ -11,6 +11,7 @@ namespace reachwise::routing::methods {
 
 struct CungeReference {
   double q_m3s = 0;     ///< the flow evaluated: Q_ref, for a pipe at most 0.99 Q_cap
+  double celerity_ms = 0, top_width_m = 0;   ///< of uniform flow at q_m3s
   double dx_m = 0, dt_sub_s = 0;
   CungeParameters parameters;  ///< at q_m3s on the grid chosen
 };
@@ -19,5 +20,9 @@ struct CungeReference {
 /// the forced one) and reports both in `ctx.numerics`. Throws
 /// InvalidParameter("discharge") for a forced reference flow below zero.
 CungeReference cungeAtReference(RouteContext& ctx);
+
+/// Puts `r` on grid `g` (Δx, Δt_sub and the parameters at the reference
+/// flow) and reports it in `ctx.numerics` (all but `grid_compromise`).
+void useGrid(RouteContext& ctx, CungeReference& r, const Grid& g);
 
 }  // namespace reachwise::routing::methods

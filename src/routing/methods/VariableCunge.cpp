@@ -322,7 +322,7 @@ Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, do
 }  // namespace
 
 void variableCunge(RouteContext& ctx) {
-  const CungeReference ref = cungeAtReference(ctx);
+  CungeReference ref = cungeAtReference(ctx);
   const hydraulics::Section& sec = ctx.reach.section;
   const RouteOptions& o = ctx.options;
   ctx.table = ratingTableFor(sec, ctx.q_in_min_m3s, ctx.q_peak_m3s, ctx.q_ref_m3s, o.table_nodes, ctx.spare);
@@ -331,30 +331,15 @@ void variableCunge(RouteContext& ctx) {
   if (o.scheme == Scheme::ThreePoint && o.use_rating_table) {
     thread_local AreaTable area;
     area.build(*ctx.table, sec);
-    double dx = ref.dx_m, dts = ref.dt_sub_s;
     if (o.subreaches == 0 && o.substeps == 0) {
       Grid g0;
       g0.subreaches = ctx.numerics.subreaches;
       g0.substeps = ctx.numerics.substeps;
       const Grid g = rangeGrid(ctx, *ctx.table, sec.bedSlope(), g0, kDiffusionTolerance);
-      if (g.subreaches != g0.subreaches || g.substeps != g0.substeps) {
-        // Report the grid used, with the parameters at the reference flow on it.
-        ReachNumerics& num = ctx.numerics;
-        num.subreaches = g.subreaches;
-        num.substeps = g.substeps;
-        dx = ctx.reach.length_m / g.subreaches;
-        dts = ctx.dt_s / g.substeps;
-        const hydraulics::FlowState f = sec.normalFlow(std::max(ref.q_m3s, 1e-9));
-        const CungeParameters p = cungeParameters(f.celerity_ms, f.top_width_m, sec.bedSlope(), ref.q_m3s, dx, dts);
-        num.dx_m = dx;
-        num.dt_sub_s = dts;
-        num.courant = p.courant;
-        num.cell_reynolds = p.cell_reynolds;
-        num.x = p.x;
-        num.k_s = p.k_s;
-      }
+      // Report the grid used, with the parameters at the reference flow on it.
+      if (g.subreaches != g0.subreaches || g.substeps != g0.substeps) useGrid(ctx, ref, g);
     }
-    ConservativeCell cell{*ctx.table, area, sec.bedSlope(), dx, dts, sec.capacity(),
+    ConservativeCell cell{*ctx.table, area, sec.bedSlope(), ref.dx_m, ref.dt_sub_s, sec.capacity(),
                           ctx.numerics.x_clamps, ctx.numerics.surcharge_cells};
     sweepReach(ctx, cell, Negatives::ClampAndCount);
     return;
