@@ -27,8 +27,10 @@ CungeParameters cungeParameters(double c, double t, double slope, double q, doub
   p.k_s = dx / c;
   p.courant = c * dt / dx;
   p.cell_reynolds = cellDiffusionRatio(q, t, slope, c, dx);
-  if (p.cell_reynolds > 1.0) {
-    p.cell_reynolds = 1.0;
+  // X may go below 0 (D > 1): the coefficients stay non-negative while
+  // D <= 1 + C, so only beyond that is D lowered (X raised to −C/2).
+  if (p.cell_reynolds > 1.0 + p.courant) {
+    p.cell_reynolds = 1.0 + p.courant;
     p.x_clamped = true;
   }
   p.x = 0.5 * (1.0 - p.cell_reynolds);
@@ -37,23 +39,30 @@ CungeParameters cungeParameters(double c, double t, double slope, double q, doub
 }
 
 Grid chooseCungeGrid(double length, double c, double t, double slope, double q, double dt,
-                     const GridLimits& limits) {
+                     const GridLimits& limits, double in_new_floor) {
   REACHWISE_ASSERT(positive(length) && positive(c) && positive(t) && positive(slope) && positive(dt));
-  REACHWISE_ASSERT(q >= 0 && std::isfinite(q));
+  REACHWISE_ASSERT(q >= 0 && std::isfinite(q) && in_new_floor <= 0 && in_new_floor > -1);
   const double ell = diffusionLength(q, t, slope, c);  // Δx at which D = 1
   Grid g;
-  if (length <= ell) {
-    // Even one sub-reach is shorter than the diffusion length: X = 0 (D = 1),
-    // and C <= 1 + D = 2 bounds the sub-step.
-    g.x_clamped = true;
-    g.substeps = static_cast<std::uint32_t>(
-        std::clamp(std::ceil(c * dt / (2.0 * length)), 1.0, double(limits.max_substeps)));
-    g.compromise = c * dt / g.substeps > 2.0 * length * (1 + 1e-12);
+  if (c * dt < ell) {
+    // Diffusion dominates: the wave moves less than ℓ in a step (and
+    // sub-steps would only slow it further), so k = 1 and the sub-reach is
+    // chosen for accuracy. The scheme's phase error is
+    // C (C² + 3D² − 1) (kΔx)³ / 12 per step (docs/methods.md §4), zero at
+    // Δx* = (3ℓ² + (cΔt)²)^(1/2); Δx is kept at most Δx_max, where in_new =
+    // (cΔt + ℓ − Δx)/(Δx + cΔt + ℓ) reaches `in_new_floor`, and D is
+    // lowered to 1 + C only where even one sub-reach is shorter than ℓ − cΔt.
+    const double ct = c * dt, tau = -in_new_floor;
+    const double dx_best = std::sqrt(3.0 * ell * ell + ct * ct), dx_max = (ell + ct) * (1 + tau) / (1 - tau);
+    const double m = std::max({1.0, std::round(length / dx_best), std::ceil(length / dx_max * (1 - 1e-12))});
+    g.subreaches = static_cast<std::uint32_t>(std::min(m, double(limits.max_subreaches)));
+    g.x_clamped = length / g.subreaches < (ell - ct) * (1 - 1e-12);
+    g.compromise = length / g.subreaches > dx_max * (1 + 1e-12);
     return g;
   }
   for (std::uint32_t k = 1; k <= limits.max_substeps; ++k) {
     const double ct = c * dt / k;  // distance the wave travels in one sub-step
-    const double lo = std::max(ell, ct - ell), hi = ell + ct;
+    const double lo = std::abs(ell - ct), hi = ell + ct;
     const double m_lo = std::max(1.0, std::ceil(length / hi * (1 - 1e-12)));
     const double m_hi = std::min(double(limits.max_subreaches), std::floor(length / lo * (1 + 1e-12)));
     if (m_lo <= m_hi) {
@@ -61,18 +70,19 @@ Grid chooseCungeGrid(double length, double c, double t, double slope, double q, 
       g.subreaches = static_cast<std::uint32_t>(std::clamp(std::round(length / ct), m_lo, m_hi));  // C ≈ 1
       return g;
     }
-    if (ct < ell) break;  // diffusion dominates; smaller sub-steps only narrow the band
+    if (ct < ell) break;  // from here on the band only narrows
   }
-  // No Δx = L/m lies in the band (the wave moves less than ℓ per step):
-  // take the coarsest sub-reach not longer than ℓ, so D is just above 1 and
-  // X = 0 is used, with C <= 2 keeping the coefficients non-negative.
+  // No Δx = L/m lies in the band at any sub-step (a reach much shorter than
+  // the wave moves in a step, or the limits): sub-reaches of about ℓ and
+  // the longest sub-step with out_old >= 0 (C <= 1 + D); D is lowered to
+  // 1 + C where it exceeds it.
   const double m = std::min(double(limits.max_subreaches), std::ceil(length / ell));
-  const double dx = length / m;
-  const double k = std::clamp(std::ceil(c * dt / (2.0 * dx)), 1.0, double(limits.max_substeps));
+  const double dx = length / m, d = ell / dx;
+  const double k = std::clamp(std::ceil(c * dt / (dx * (1 + d)) * (1 - 1e-12)), 1.0, double(limits.max_substeps));
   g.subreaches = static_cast<std::uint32_t>(m);
   g.substeps = static_cast<std::uint32_t>(k);
-  g.x_clamped = dx < ell;
-  g.compromise = dx > ell * (1 + 1e-12) || c * dt / k > 2.0 * dx * (1 + 1e-12);
+  g.x_clamped = d > 1 + c * dt / k / dx;
+  g.compromise = c * dt / k > dx * (1 + d) * (1 + 1e-12);
   return g;
 }
 

@@ -327,17 +327,18 @@ void Scheduler::summariseWarnings() {
   }
   auto& w = results_.warnings;
   if (neg_r) w.push_back(std::to_string(neg) + " negative flows clamped to zero in " + reaches(neg_r));
-  // X raised to 0 routes with less diffusion than physical; each cause in its own words.
+  // D lowered to 1 + C (X raised to −C/2) routes with less diffusion than
+  // physical; each cause in its own words.
   const char* const why[kCauses] = {
       "",
       "with a pipe in surcharge (above its capacity)",
       "of two-stage section whose flows cross bank-full (the celerity changes abruptly there)",
       "too short for the step (the wave crosses the reach within one time step)",
-      "too flat for the grid (D > 1 at the reference flow: a sub-reach is shorter than the diffusion "
-      "length Q/(T S0 c))",
-      "at flows away from the reference flow (D > 1 there)"};
+      "too flat for the grid (D > 1 + C at the reference flow: the reach is shorter than the diffusion "
+      "length Q/(T S0 c) less the distance the wave moves in a step)",
+      "at flows away from the reference flow (D > 1 + C there)"};
   for (std::size_t c = 1; c < kCauses; ++c)
-    if (xc_r[c]) w.push_back(std::to_string(xc[c]) + " cells with X < 0 raised to 0 in " + reaches(xc_r[c]) + " " + why[c]);
+    if (xc_r[c]) w.push_back(std::to_string(xc[c]) + " cells with less diffusion than the channel's (D lowered to 1 + C, X to -C/2) in " + reaches(xc_r[c]) + " " + why[c]);
   if (sur_r) w.push_back(std::to_string(sur) + " cells above pipe capacity (surcharge) in " + reaches(sur_r));
   if (comp_r) w.push_back(reaches(comp_r) + " where no grid kept every coefficient non-negative; the closest was used");
   if (env_r) {

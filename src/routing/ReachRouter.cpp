@@ -44,8 +44,8 @@ XClampCause xClampCause(const ReachNumerics& num, const hydraulics::Section& sec
     if (q_lo < q_bank && q_bank < q_hi) return XClampCause::BankFull;
   }
   if (num.celerity_ms * dt >= length) return XClampCause::Short;
-  // The methods report D at the reference flow as clamped, so D > 1 shows as 1.
-  if (num.cell_reynolds >= 1.0) return XClampCause::Flat;
+  // The methods report D at the reference flow as clamped, so D > 1 + C shows as 1 + C.
+  if (num.cell_reynolds >= 1.0 + num.courant) return XClampCause::Flat;
   return XClampCause::FlowRange;
 }
 

@@ -21,6 +21,8 @@
 #include "reachwise/hydraulics/Section.hpp"
 #include "reachwise/routing/ReachRouter.hpp"
 #include "support/reference/DiffusionWave.hpp"
+#include "support/reference/Hayami.hpp"
+#include <cstdio>
 #include "support/reference/Hydrograph.hpp"
 
 using reachwise::hydraulics::Section;
@@ -125,4 +127,52 @@ TEST(VariableCungeAccuracy, TwoStageBroadWaveKeepsEventVolume) {
 // In bank, mild slope, broad wave, 20 km (X clamped on part of the flows).
 TEST(VariableCungeAccuracy, MildTrapezoidBroadWave) {
   expectTargets(measure(trapezoid(0.0002), 20000, 48 * kHour), true);
+}
+
+// ---------------------------------------------------------------------------
+// `mc` on mild short reaches against the exact linear diffusion wave at its
+// own reference flow (Hayami 1951; c = dQ/dA and nu = Q / (2 T S0) of
+// uniform flow at that flow, Ponce 1989 ch. 9). A constant-parameter method
+// solves exactly that linear equation, so the only error is the scheme's.
+// Target: peak within 2 %, peak time within 10 % of the travel time.
+namespace {
+
+struct LinearFigures {
+  double peak_pct, time_pct;
+};
+
+LinearFigures constantCungeAgainstHayami(const Section& s, double length_m, double rise_s) {
+  const double slope = s.bedSlope();
+  const double q_bank = trapezoid(slope).discharge(kBankDepth);
+  const double base = 0.3 * q_bank, peak_in = 5 * base;
+  const std::size_t samples = static_cast<std::size_t>((kHour + 6 * rise_s + 48 * kHour) / kDt);
+  const std::vector<double> in = ref::gammaWave(base, peak_in - base, rise_s, kHour, kDt, samples);
+  RouteOptions opt;
+  opt.method = Method::ConstantParameter;
+  std::vector<double> out;
+  ReachRouter router;
+  const ReachRun run = router.route({s, length_m}, in, {}, kDt, opt, out);
+  const double q_ref = run.numerics.reference_q_m3s;
+  const auto f = s.normalFlow(q_ref);
+  const double nu = q_ref / (2 * f.top_width_m * slope);
+  const std::vector<double> exact = testsupport::reference::hayami(in, base, kDt, length_m, f.celerity_ms, nu);
+  const ref::SeriesPeak p = ref::peakOf(out), p_ref = ref::peakOf(exact), p_in = ref::peakOf(in);
+  std::printf("mc %s L=%.0f rise=%.0fh: m=%u k=%u D=%.3f C=%.3f xclamp=%d | peak %+.2f%% time %+.1f%% (travel %.2f h)\n",
+              "", length_m, rise_s / kHour, run.numerics.subreaches, run.numerics.substeps,
+              run.numerics.cell_reynolds, run.numerics.courant, int(run.numerics.x_clamps),
+              100 * (p.value - p_ref.value) / (p_ref.value - base),
+              100 * (p.index - p_ref.index) / (p_ref.index - p_in.index), (p_ref.index - p_in.index) * kDt / kHour);
+  return {100 * (p.value - p_ref.value) / p_ref.value, 100 * (p.index - p_ref.index) / (p_ref.index - p_in.index)};
+}
+
+}  // namespace
+
+TEST(ConstantCungeAccuracy, MildShortReachesAgainstHayami) {
+  for (const Section& s : {rectangle(0.0002), trapezoid(0.0002)})
+    for (double length : {5000.0, 20000.0})
+      for (double rise : {6 * kHour, 48 * kHour}) {
+        const LinearFigures f = constantCungeAgainstHayami(s, length, rise);
+        EXPECT_LE(std::abs(f.peak_pct), 2.0) << length << " " << rise;
+        EXPECT_LE(std::abs(f.time_pct), 10.0) << length << " " << rise;
+      }
 }

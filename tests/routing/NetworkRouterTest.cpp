@@ -354,7 +354,7 @@ TEST(NetworkRouter, XClampWarningNamesSurcharge) {
   f.inflow_m3s = {storm(100, 0.2, 1.5 * p.section[0].capacity() - 0.2, 5, 24)};
   const NetworkResults r = routeNetwork(p, hourly(100), f, NetworkRouteOptions{});
   ASSERT_GT(r.reaches[0].numerics.x_clamps, 0u);
-  const std::string w = warningWith(r, "X < 0 raised to 0");
+  const std::string w = warningWith(r, "D lowered to 1 + C");
   EXPECT_NE(w.find("surcharge"), std::string::npos) << w;
   EXPECT_NE(w.find(" in 1 reach with a pipe"), std::string::npos) << w;
   for (const std::string& line : r.warnings) {

@@ -197,7 +197,7 @@ TEST(ReachRouter, EventVolumeErrorIsNaNWithoutAnEvent) {
 // built so that one cause applies and is checked from the test's own
 // numbers: a pipe taken to 1.5 × its capacity; a two-stage section whose
 // inflow rises from below to above its bank-full flow (Manning at bank
-// depth); a 150 m steep reach, which a wave of at least 1 m/s crosses in
+// depth); a 50 m steep narrow reach, which a wave of at least 1 m/s crosses in
 // under one 900 s step; a 20 km reach at S0 = 1e-5, whose diffusion length
 // Q/(T S0 c) at the reference flow is far longer than the reach.
 TEST(ReachRouter, XClampsNameTheirCause) {
@@ -214,7 +214,7 @@ TEST(ReachRouter, XClampsNameTheirCause) {
   const Case cases[] = {
       {pipe, 500, 0.2, 1.5 * pipe.capacity() - 0.2, XClampCause::Surcharge},
       {two_stage, 80000, 0.5 * bank_q, 3 * bank_q, XClampCause::BankFull},
-      {Section::rectangle(10, 0.035, 0.005), 150, 5, 20, XClampCause::Short},
+      {Section::rectangle(5, 0.035, 0.005), 50, 5, 200, XClampCause::Short},
       {flat, 20000, 100, 400, XClampCause::Flat},
   };
   for (const Case& c : cases) {

@@ -60,11 +60,12 @@ inline double cellDiffusionRatioFactored(double q_m3s, double inv_width_celerity
 
 /// Cunge's parameters for one sub-reach at reference flow Q (Cunge 1969):
 ///   K = Δx / c,  X = (1 − D)/2,  C = c Δt / Δx,  D = cellDiffusionRatio.
-/// D > 1 is taken as 1 (X = 0). Preconditions: c, T, S0, Δx, Δt finite and
-/// > 0; Q finite and >= 0.
+/// X may be negative; D > 1 + C (where the in_old coefficient would go
+/// negative) is taken as 1 + C (X = −C/2). Preconditions: c, T, S0, Δx, Δt
+/// finite and > 0; Q finite and >= 0.
 struct CungeParameters {
   double k_s = 0, x = 0, courant = 0, cell_reynolds = 0;
-  bool x_clamped = false;  ///< D > 1 gave X < 0; X was raised to 0 (D taken as 1)
+  bool x_clamped = false;  ///< D > 1 + C was taken as 1 + C (less diffusion than the channel's)
   Coefficients coefficients;
 };
 CungeParameters cungeParameters(double celerity_ms, double top_width_m, double bed_slope,
@@ -83,7 +84,7 @@ inline Coefficients cungeCoefficients(double courant, double cell_reynolds) {
 struct Grid {
   std::uint32_t subreaches = 1;
   std::uint32_t substeps = 1;
-  bool x_clamped = false;    ///< reach shorter than Q/(T S0 c): X = 0 used
+  bool x_clamped = false;    ///< reach shorter than ℓ − cΔt: D lowered to 1 + C
   bool compromise = false;   ///< no (m, k) met every bound; the closest was used
 };
 
@@ -92,15 +93,22 @@ struct GridLimits {
   std::uint32_t max_substeps = 240;
 };
 
-/// Muskingum–Cunge grid: with ℓ = Q/(T S0 c) the coefficients are
-/// non-negative and X >= 0 exactly when max(ℓ, cΔt_sub − ℓ) <= Δx <= ℓ + cΔt_sub.
-/// Takes the fewest sub-steps for which such a Δx = L/m exists, and within
-/// that the m that puts the Courant number closest to 1 (where the scheme
-/// is exact for a pure translation). A reach shorter than ℓ gets m = 1 and
-/// X = 0, with enough sub-steps that C <= 2. Preconditions as for
-/// cungeParameters (with L in place of Δx).
+/// Muskingum–Cunge grid, with ℓ = Q/(T S0 c) the diffusion length:
+/// - where the wave moves at least ℓ in a step (cΔt >= ℓ), the coefficients
+///   are non-negative exactly when |ℓ − cΔt_sub| <= Δx <= ℓ + cΔt_sub; the
+///   fewest sub-steps for which such a Δx = L/m exists, and within that the
+///   m that puts the Courant number closest to 1 (where the scheme is exact
+///   for a pure translation);
+/// - where it moves less (flat reaches), one sub-step and the Δx closest to
+///   (3ℓ² + (cΔt)²)^(1/2), where the scheme's phase error vanishes (C² + 3D²
+///   = 1, docs/methods.md §4), but no longer than the Δx at which the in_new
+///   coefficient falls to `in_new_floor` (0: all coefficients non-negative;
+///   `mc` accepts a little below, see docs/methods.md).
+/// Preconditions as for cungeParameters (with L in place of Δx), and
+/// −1 < in_new_floor <= 0.
 Grid chooseCungeGrid(double length_m, double celerity_ms, double top_width_m, double bed_slope,
-                     double q_ref_m3s, double dt_s, const GridLimits& limits = {});
+                     double q_ref_m3s, double dt_s, const GridLimits& limits = {},
+                     double in_new_floor = 0);
 
 /// Muskingum grid for given K and X: splits the reach into m sub-reaches of
 /// K/m and the step into k sub-steps so that 2 (K/m) X <= Δt/k <= 2 (K/m)(1 − X)

@@ -48,7 +48,7 @@ struct VariableCell {
   double slope, dx, dts, capacity;
   Scheme scheme;
   int iterations;
-  std::uint64_t& x_clamps;   // cells where D > 1 was taken as 1
+  std::uint64_t& x_clamps;   // cells where D > 1 + C was taken as 1 + C
   std::uint64_t& surcharge;  // cells above the pipe's capacity
   double dt_over_dx = dts / dx, inv_slope_dx = 1.0 / (slope * dx);
 
@@ -63,8 +63,8 @@ struct VariableCell {
     }
     C = c * dt_over_dx;
     D = cellDiffusionRatioFactored(qr, inv_tc, inv_slope_dx);  // qr/(S0 Δx) is formed while the table is read
-    if (D > 1.0) {
-      D = 1.0;  // X < 0 raised to 0
+    if (D > 1.0 + C) {
+      D = 1.0 + C;  // X < −C/2 raised to −C/2, where a coefficient would go negative
       ++x_clamps;
     }
     if (qr > capacity) ++surcharge;
@@ -104,7 +104,7 @@ struct VariableCell {
       const double qm = std::max(0.5 * (q[j] + q[j + 1]), table.bottomDischarge());
       double c, t;
       table.celerityAndWidth(qm, c, t);
-      const double x = 0.5 * (1.0 - std::min(1.0, cellDiffusionRatio(qm, t, slope, c, dx)));
+      const double x = 0.5 * (1.0 - std::min(1.0 + c * dts / dx, cellDiffusionRatio(qm, t, slope, c, dx)));
       s += dx / c * (x * q[j] + (1.0 - x) * q[j + 1]);
     }
     return s;
@@ -197,12 +197,12 @@ struct ConservativeCell {
     table.celerityAndInverseWidthCelerity(std::max(q, table.bottomDischarge()), c, inv_tc);
     const double C = c * dt_over_dx;
     double D = cellDiffusionRatioFactored(q, inv_tc, inv_slope_dx);
-    if (D > 1.0) {  // X < 0: the channel diffuses more than the cell can
-      D = 1.0;
+    if (D > 1.0 + C) {  // X < −C/2: the channel diffuses more than the cell can
+      D = 1.0 + C;
       if constexpr (Count) ++x_clamps;
     }
-    // Raising D to |1 − C| (at most 1) adds diffusion; it is not a clamp.
-    if (D < std::abs(1.0 - C)) D = std::min(1.0, std::abs(1.0 - C));
+    // Raising D to |1 − C| adds diffusion; it is not a clamp.
+    if (D < std::abs(1.0 - C)) D = std::abs(1.0 - C);
     if constexpr (Count)
       if (q > capacity) ++surcharge;
     return 0.5 * (1.0 - D);
@@ -290,7 +290,7 @@ Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, do
   const double length = ctx.reach.length_m;
   const auto fits = [&](double dx, double dt, double e) {
     for (int i = 0; i < kSamples; ++i) {
-      if (dx < (1 - e) * ell[i]) return false;
+      if (dx + c[i] * dt < (1 - e) * ell[i]) return false;
       if (std::abs(dx - c[i] * dt) > (1 + e) * ell[i]) return false;
     }
     return true;
@@ -303,7 +303,7 @@ Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, do
     const double dt = ctx.dt_s / k;
     double lo = 0, hi = length;
     for (int i = 0; i < kSamples; ++i) {
-      lo = std::max({lo, (1 - eps) * ell[i], c[i] * dt - (1 + eps) * ell[i]});
+      lo = std::max({lo, (1 - eps) * ell[i] - c[i] * dt, c[i] * dt - (1 + eps) * ell[i]});
       hi = std::min(hi, c[i] * dt + (1 + eps) * ell[i]);
     }
     if (lo > hi) continue;
