@@ -79,13 +79,31 @@ TEST(MuskingumCunge, NegativeXIsKeptWhileCoefficientsStayNonNegative) {
   EXPECT_TRUE(kept.coefficients.nonNegative());
 }
 
+// The lowest D of positivity: at D_min the coefficients of cungeCoefficients
+// sit on their bounds (in_new = f or out_old = 0) and none is below them;
+// a little lower D breaks one (algebra of Ponce 1989 eq. 9-62's form).
+TEST(MuskingumCunge, LowestCellDiffusionIsTheBoundOfPositivity) {
+  std::mt19937 rng(7);
+  std::uniform_real_distribution<double> u(0, 1);
+  for (int i = 0; i < 1000; ++i) {
+    const double courant = 3 * u(rng), f = -0.5 * u(rng);
+    const double d = lowestCellDiffusion(courant, inNewBound(f));
+    const Coefficients k = cungeCoefficients(courant, d);
+    EXPECT_GE(k.in_new, f - 1e-12) << i;
+    EXPECT_GE(k.out_old, -1e-12) << i;
+    EXPECT_TRUE(std::abs(k.in_new - f) < 1e-12 || std::abs(k.out_old) < 1e-12) << i;
+    const Coefficients below = cungeCoefficients(courant, d - 1e-6);
+    EXPECT_TRUE(below.in_new < f || below.out_old < 0) << i;
+  }
+}
+
 // Property: the chosen grid keeps all coefficients >= 0 (in_new >= the
 // floor asked for) over a wide range of reaches (the bounds of
 // docs/methods.md §4), and says when D was lowered.
 TEST(MuskingumCunge, ChosenGridKeepsCoefficientsNonNegative) {
   std::mt19937 rng(99);
   std::uniform_real_distribution<double> u(0, 1);
-  for (const double floor : {0.0, -0.15}) {
+  for (const double floor : {0.0, kFlatInNewFloor}) {
     int compromises = 0;
     for (int i = 0; i < 2000; ++i) {
       const double length = 50 + 50000 * u(rng) * u(rng), c = 0.2 + 4 * u(rng), t = 2 + 200 * u(rng);

@@ -195,7 +195,7 @@ TEST(ReachRouter, EventVolumeErrorIsNaNWithoutAnEvent) {
 
 // The cause given for X clamps (docs/methods.md, "Diagnostics"), each case
 // built so that one cause applies and is checked from the test's own
-// numbers: a pipe taken to 1.5 × its capacity; a two-stage section whose
+// numbers: a pipe taken to 1.5 × its capacity; a two-stage section (1 km floodplain) whose
 // inflow rises from below to above its bank-full flow (Manning at bank
 // depth); a 50 m steep narrow reach, which a wave of at least 1 m/s crosses in
 // under one 900 s step; a 20 km reach at S0 = 1e-5, whose diffusion length
@@ -203,7 +203,7 @@ TEST(ReachRouter, EventVolumeErrorIsNaNWithoutAnEvent) {
 TEST(ReachRouter, XClampsNameTheirCause) {
   const double dt = 900;
   const Section pipe = Section::circle(1.0, 0.014, 0.002);
-  const Section two_stage = Section::twoStage(20, 2, 3, 200, 0.035, 0.07, 0.0002);
+  const Section two_stage = Section::twoStage(20, 2, 3, 1000, 0.035, 0.07, 0.0002);
   const double bank_q = two_stage.discharge(3.0);
   const Section flat = Section::rectangle(50, 0.035, 1e-5);
   struct Case {

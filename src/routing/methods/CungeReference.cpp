@@ -9,23 +9,14 @@ namespace reachwise::routing::methods {
 
 namespace {
 
-/// The lowest in_new coefficient `mc`'s grid accepts on flat reaches: it
-/// lets the sub-reach come closer to the length of least phase error, at a
-/// dip ahead of a sharp wave of at most 0.3 % of its rise on the accuracy
-/// matrix (measured; docs/methods.md §4). `vpmc` keeps every coefficient
-/// non-negative.
-constexpr double kConstantInNewFloor = -0.15;
-double inNewFloor(const RouteOptions& o) { return o.method == Method::ConstantParameter ? kConstantInNewFloor : 0.0; }
-
 /// The grid chosen, or as forced by the options. With only the sub-reach
 /// count forced, the sub-steps follow from C <= 1 + D.
 Grid cungeGrid(const RouteOptions& o, double length, double c, double t, double slope, double q,
                double dt) {
-  const double floor = inNewFloor(o);
   if (o.subreaches == 0 && o.substeps == 0)
-    return chooseCungeGrid(length, c, t, slope, q, dt, o.limits, floor);
+    return chooseCungeGrid(length, c, t, slope, q, dt, o.limits, kFlatInNewFloor);
   Grid g;
-  g.subreaches = o.subreaches > 0 ? o.subreaches : chooseCungeGrid(length, c, t, slope, q, dt, o.limits, floor).subreaches;
+  g.subreaches = o.subreaches > 0 ? o.subreaches : chooseCungeGrid(length, c, t, slope, q, dt, o.limits, kFlatInNewFloor).subreaches;
   const double dx = length / g.subreaches;
   const double d = std::min(1.0, cellDiffusionRatio(q, t, slope, c, dx));
   g.substeps = o.substeps > 0 ? o.substeps
@@ -46,12 +37,13 @@ CungeReference cungeAtReference(RouteContext& ctx) {
     throw InvalidParameter("discharge", "must be finite and >= 0");
   r.celerity_ms = ref.celerity_ms;
   r.top_width_m = ref.top_width_m;
+  r.flat = r.celerity_ms * ctx.dt_s < diffusionLength(r.q_m3s, r.top_width_m, sec.bedSlope(), r.celerity_ms);
   const Grid g = cungeGrid(ctx.options, ctx.reach.length_m, r.celerity_ms, r.top_width_m, sec.bedSlope(),
                            r.q_m3s, ctx.dt_s);
   useGrid(ctx, r, g);
   const Coefficients& k = r.parameters.coefficients;
   ctx.numerics.grid_compromise =
-      g.compromise || k.in_new < inNewFloor(ctx.options) - 1e-12 || k.in_old < 0 || k.out_old < 0;
+      g.compromise || k.in_new < (r.flat ? kFlatInNewFloor : 0.0) - 1e-12 || k.in_old < 0 || k.out_old < 0;
   return r;
 }
 

@@ -13,6 +13,7 @@ struct CungeReference {
   double q_m3s = 0;     ///< the flow evaluated: Q_ref, for a pipe at most 0.99 Q_cap
   double celerity_ms = 0, top_width_m = 0;   ///< of uniform flow at q_m3s
   double dx_m = 0, dt_sub_s = 0;
+  bool flat = false;    ///< cΔt < ℓ at q_m3s: in_new may go down to kFlatInNewFloor
   CungeParameters parameters;  ///< at q_m3s on the grid chosen
 };
 

@@ -116,7 +116,11 @@ struct VariableCell {
 /// off the bits of Q (the exponent and the top kBits mantissa bits, 2^kBits
 /// cells per octave, as the rating table's dense grid), A = a0 + a1 Q in a
 /// cell. Built from the rating table's depth (A = A(y(Q)), the section's own
-/// area), so it costs no normal-depth solve inside the table's range.
+/// area), so it costs no normal-depth solve inside the table's range. A
+/// two-stage section's A(Q) has a kink at bank-full (dA/dQ = 1/c jumps
+/// several-fold): the cell holding it is split there into two, the upper
+/// one appended after the others, so the kink is kept and not spread over
+/// a cell (which made the flows just below bank-full travel late).
 class AreaTable {
 public:
   static constexpr int kBits = 5;
@@ -130,10 +134,20 @@ public:
     for (std::int64_t k = key0_; k <= key1; ++k) {
       const double e1 = std::max(start(k + 1), e0 * (1 + 1e-12));
       const double a_e1 = areaAt(table, sec, e1);
-      const double slope = (a_e1 - a_e0) / (e1 - e0);
-      cells_[static_cast<std::size_t>(k - key0_)] = {a_e0 - slope * e0, slope};
+      cells_[static_cast<std::size_t>(k - key0_)] = chord(e0, a_e0, e1, a_e1);
       e0 = e1, a_e0 = a_e1;
     }
+    split_key_ = -1;
+    if (sec.shape() != hydraulics::Shape::TwoStage) return;
+    const double q_bank = sec.discharge(sec.bankDepth());
+    const std::int64_t kb = key(q_bank);
+    if (!(q_bank > lo && q_bank < hi) || start(kb) == q_bank) return;  // outside, or already an edge
+    const double c0 = std::max(start(kb), lo), c1 = start(kb + 1), a_bank = sec.area(sec.bankDepth());
+    Cell& below = cells_[static_cast<std::size_t>(kb - key0_)];
+    const double a_c0 = below.a0 + below.a1 * c0, a_c1 = below.a0 + below.a1 * c1;
+    below = chord(c0, a_c0, q_bank, a_bank);
+    cells_.push_back(chord(q_bank, a_bank, c1, a_c1));
+    split_key_ = kb, split_q_ = q_bank, split_index_ = cells_.size() - 1;
   }
   struct Cell {
     double a0, a1;
@@ -143,7 +157,10 @@ public:
   std::size_t index(double q) const {
     if (!(q > q_lo_)) q = q_lo_;
     if (q > q_hi_) q = q_hi_;
-    return static_cast<std::size_t>(key(q) - key0_);
+    const std::int64_t k = key(q);
+    if (k == split_key_ && q >= split_q_) [[unlikely]]
+      return split_index_;
+    return static_cast<std::size_t>(k - key0_);
   }
   const Cell& cell(std::size_t i) const { return cells_[i]; }
   double area(double q) const {
@@ -152,6 +169,10 @@ public:
   }
 
 private:
+  static Cell chord(double q0, double a_q0, double q1, double a_q1) {
+    const double slope = (a_q1 - a_q0) / (q1 - q0);
+    return {a_q0 - slope * q0, slope};
+  }
   static std::int64_t key(double q) {
     return static_cast<std::int64_t>(std::bit_cast<std::uint64_t>(q) >> (52 - kBits));
   }
@@ -164,8 +185,9 @@ private:
     return sec.area(y);
   }
   std::vector<Cell> cells_;
-  std::int64_t key0_ = 0;
-  double q_lo_ = 1, q_hi_ = 1;
+  std::int64_t key0_ = 0, split_key_ = -1;
+  double q_lo_ = 1, q_hi_ = 1, split_q_ = 0;
+  std::size_t split_index_ = 0;
 };
 
 /// The conservative variable-parameter cell (see docs/methods.md §4): the
@@ -178,17 +200,19 @@ private:
 /// Linearised about one flow (A = Q/c) it is Cunge's scheme (Cunge 1969);
 /// written on the area it conserves volume whatever C and D do, the idea of
 /// Todini (2007), whose coefficients are written on K = Δx/c instead (from
-/// memory). D is raised to |1 − C| where it is smaller, so that every
-/// linearised coefficient is non-negative (positivity; see docs/methods.md).
+/// memory). D is kept in [D_min, 1 + C] (lowestCellDiffusion), so that
+/// every linearised coefficient is non-negative, in_new down to
+/// kFlatInNewFloor on a flat reach (positivity; see docs/methods.md).
 struct ConservativeCell {
   const hydraulics::RatingTable& table;
   const AreaTable& area;
   double slope, dx, dts, capacity;
+  double in_new_bound;  // inNewBound(0 or, on a flat reach, kFlatInNewFloor)
   std::uint64_t& x_clamps;
   std::uint64_t& surcharge;
   double dt_over_dx = dts / dx, inv_slope_dx = 1.0 / (slope * dx), half_dt = 0.5 * dts;
 
-  /// X at flow q (Cunge 1969), with D raised to |1 − C| where it is smaller.
+  /// X at flow q (Cunge 1969), with D held in [D_min, 1 + C].
   /// `Count`: count a clamped D and a surcharged flow (once per cell
   /// update, at its new time level).
   template <bool Count>
@@ -201,8 +225,9 @@ struct ConservativeCell {
       D = 1.0 + C;
       if constexpr (Count) ++x_clamps;
     }
-    // Raising D to |1 − C| adds diffusion; it is not a clamp.
-    if (D < std::abs(1.0 - C)) D = std::abs(1.0 - C);
+    // Raising D to its lowest for positivity adds diffusion; it is not a clamp.
+    const double d_min = lowestCellDiffusion(C, in_new_bound);
+    if (D < d_min) D = d_min;
     if constexpr (Count)
       if (q > capacity) ++surcharge;
     return 0.5 * (1.0 - D);
@@ -260,18 +285,23 @@ hydraulics::RatingTable ratingTableFor(const hydraulics::Section& sec, double q_
 
 /// The grid of the conservative cell over the range of flows that matter
 /// for the peak, [Q_ref, Q_peak] (docs/methods.md §4). At flow q the cell's
-/// numerical diffusion is c Δx max(D, |1 − C|)/2 (D < 1) or c Δx/2 (D
-/// clamped at 1) against the channel's ν = c ℓ/2, ℓ = q/(T S0 c). The grid
-/// of the reference flow is kept when the celerity varies by less than a
-/// factor kCelerityRange over the range, or when it matches ν within a
-/// factor 1 ± ε at every flow of the range; otherwise the cheapest grid (fewest
-/// sub-reaches × sub-steps) that does is taken; if none does within the
-/// limits, the grid of the reference flow is kept.
-/// ε of rangeGrid: 0.5 measured best on the accuracy matrix (0.25 cost more
-/// and passed one row fewer; docs/methods.md).
-constexpr double kDiffusionTolerance = 0.5, kCelerityRange = 2.0;
+/// numerical diffusion is c Δx D'/2, with D' the cell diffusion ratio
+/// D = ℓ/Δx held in [D_min, 1 + C] (positivity), against the channel's
+/// ν = c ℓ/2, ℓ = q/(T S0 c). Its relative mismatch at q is
+///   (ℓ − Δx − cΔt)/ℓ where D > 1 + C (too little diffusion),
+///   (D_min Δx − ℓ)/ℓ where D < D_min (too much), 0 in between,
+/// with D_min = lowestCellDiffusion(C, in_new_bound).
+/// Where the celerity varies by less than a factor kCelerityRange over the
+/// range, the grid of the reference flow is kept (it meets the targets on
+/// the accuracy matrix, and refining it cost 2.5 x on the short-reach
+/// benchmark). Otherwise (the drop at a bank, a pipe near its crown) the
+/// grid with the smallest worst mismatch over the range is taken, among
+/// those costing at most kRangeGridCost times the reference grid (m × k);
+/// of grids within 0.01 of the smallest, the cheapest.
+constexpr double kCelerityRange = 2.0, kRangeGridCost = 16.0;
 
-Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, double slope, Grid g0, double eps) {
+Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, double slope, Grid g0,
+               double in_new_bound) {
   constexpr int kSamples = 33;
   double c[kSamples], ell[kSamples];
   const double q0 = std::max(ctx.q_ref_m3s, table.bottomDischarge()), q1 = std::max(ctx.q_peak_m3s, q0);
@@ -281,39 +311,47 @@ Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, do
     table.celerityAndWidth(q, c[i], t);
     ell[i] = diffusionLength(q, t, slope, c[i]);
   }
-  // Only where the celerity spans a factor kCelerityRange or more over the
-  // range (the drop at a bank, a pipe near its crown): elsewhere the
-  // reference grid already meets the targets on the matrix, and refining it
-  // cost 2.5 x on the short-reach benchmark.
   const auto [c_lo, c_hi] = std::minmax_element(c, c + kSamples);
   if (*c_hi < kCelerityRange * *c_lo) return g0;
   const double length = ctx.reach.length_m;
-  const auto fits = [&](double dx, double dt, double e) {
+  const auto worst = [&](double dx, double dt) {
+    double e = 0;
     for (int i = 0; i < kSamples; ++i) {
-      if (dx + c[i] * dt < (1 - e) * ell[i]) return false;
-      if (std::abs(dx - c[i] * dt) > (1 + e) * ell[i]) return false;
+      const double ct = c[i] * dt;
+      const double d_min = lowestCellDiffusion(ct / dx, in_new_bound);
+      e = std::max({e, (ell[i] - dx - ct) / ell[i], (d_min * dx - ell[i]) / ell[i]});
     }
-    return true;
+    return e;
   };
-  if (fits(length / g0.subreaches, ctx.dt_s / g0.substeps, eps)) return g0;
+  // Each mismatch is a convex function of Δx (linear, or the maximum of two
+  // linear pieces), so their maximum is too, and along m = L/Δx it falls,
+  // then rises: per sub-step count a bisection on its slope finds the best m,
+  // and a second one the fewest sub-reaches within 0.01 of it.
   const GridLimits& lim = ctx.options.limits;
+  const double budget = kRangeGridCost * g0.subreaches * g0.substeps;
   Grid best = g0;
-  double best_cost = 0;
-  for (std::uint32_t k = 1; k <= lim.max_substeps; ++k) {
+  double best_e = worst(length / g0.subreaches, ctx.dt_s / g0.substeps), best_cost = g0.subreaches * g0.substeps;
+  for (std::uint32_t k = 1; k <= lim.max_substeps && k <= budget; ++k) {
     const double dt = ctx.dt_s / k;
-    double lo = 0, hi = length;
-    for (int i = 0; i < kSamples; ++i) {
-      lo = std::max({lo, (1 - eps) * ell[i] - c[i] * dt, c[i] * dt - (1 + eps) * ell[i]});
-      hi = std::min(hi, c[i] * dt + (1 + eps) * ell[i]);
+    const auto e = [&](std::uint32_t m) { return worst(length / m, dt); };
+    std::uint32_t lo = 1, hi = static_cast<std::uint32_t>(std::min<double>(lim.max_subreaches, budget / k));
+    if (hi < 1) break;
+    while (lo < hi) {  // the first m with e(m) <= e(m + 1)
+      const std::uint32_t mid = lo + (hi - lo) / 2;
+      if (e(mid) <= e(mid + 1)) hi = mid; else lo = mid + 1;
     }
-    if (lo > hi) continue;
-    const double m = std::max(1.0, std::ceil(length / hi * (1 - 1e-12)));
-    if (m > lim.max_subreaches || length / m < lo * (1 - 1e-12)) continue;
-    const double cost = m * k;
-    if (best_cost == 0 || cost < best_cost) {
-      best_cost = cost;
-      best.subreaches = static_cast<std::uint32_t>(m);
-      best.substeps = k;
+    const double e_min = e(lo);
+    std::uint32_t first = 1, last = lo;
+    while (first < last) {  // the fewest sub-reaches within 0.01 of e_min
+      const std::uint32_t mid = first + (last - first) / 2;
+      if (e(mid) < e_min + 0.01) last = mid; else first = mid + 1;
+    }
+    for (const std::uint32_t m : {first, lo}) {
+      const double em = e(m), cost = double(m) * k;
+      if (em < best_e - 0.01 || (em < best_e + 0.01 && cost < best_cost)) {
+        if (em < best_e) best_e = em;
+        best_cost = cost, best.subreaches = m, best.substeps = k;
+      }
     }
   }
   return best;
@@ -329,17 +367,18 @@ void variableCunge(RouteContext& ctx) {
   // The conservative cell reads the tables; the direct-solve option (a
   // check of the table) and the four-point option keep the discharge form.
   if (o.scheme == Scheme::ThreePoint && o.use_rating_table) {
+    const double in_new_bound = inNewBound(ref.flat ? kFlatInNewFloor : 0.0);
     thread_local AreaTable area;
     area.build(*ctx.table, sec);
     if (o.subreaches == 0 && o.substeps == 0) {
       Grid g0;
       g0.subreaches = ctx.numerics.subreaches;
       g0.substeps = ctx.numerics.substeps;
-      const Grid g = rangeGrid(ctx, *ctx.table, sec.bedSlope(), g0, kDiffusionTolerance);
+      const Grid g = rangeGrid(ctx, *ctx.table, sec.bedSlope(), g0, in_new_bound);
       // Report the grid used, with the parameters at the reference flow on it.
       if (g.subreaches != g0.subreaches || g.substeps != g0.substeps) useGrid(ctx, ref, g);
     }
-    ConservativeCell cell{*ctx.table, area, sec.bedSlope(), ref.dx_m, ref.dt_sub_s, sec.capacity(),
+    ConservativeCell cell{*ctx.table, area, sec.bedSlope(), ref.dx_m, ref.dt_sub_s, sec.capacity(), in_new_bound,
                           ctx.numerics.x_clamps, ctx.numerics.surcharge_cells};
     sweepReach(ctx, cell, Negatives::ClampAndCount);
     return;
