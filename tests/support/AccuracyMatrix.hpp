@@ -1,0 +1,189 @@
+#pragma once
+/// \file
+/// Test support: the accuracy matrix, shared by tests/routing/AccuracyTest.cpp
+/// (which asserts the targets) and bench/accuracy_matrix.cpp (which prints
+/// the tables of docs/methods.md, "Accuracy against reference solutions").
+/// Single uniform reaches of 5, 20 and 80 km at slopes 0.005, 0.001, 0.0002
+/// and 1e-5, three sections, a sharp (6 h rise) and a broad (48 h rise)
+/// flood wave to 5 x base flow; a routing method's outflow against the
+/// converged conservative zero-inertia reference
+/// (tests/support/reference/DiffusionWave.hpp).
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <cstdio>
+#include <string>
+#include <vector>
+
+#include "reachwise/hydraulics/Section.hpp"
+#include "reachwise/routing/ReachRouter.hpp"
+#include "support/reference/DiffusionWave.hpp"
+#include "support/reference/Hydrograph.hpp"
+
+namespace testsupport::accuracy {
+
+using reachwise::hydraulics::Section;
+namespace ref = testsupport::reference;
+
+inline constexpr double kHour = 3600.0;
+inline constexpr double kDt = 900.0;  ///< forcing step, s
+
+// The channel (the same main channel for all three shapes; choices stated
+// in docs/methods.md): n = 0.035 in the channel, 0.06 on the floodplain.
+inline constexpr double kMainWidth = 20, kSideSlope = 2, kBankDepth = 2.5, kFloodplainWidth = 200;
+inline constexpr double kRectangleWidth = 40;
+inline constexpr double kChannelN = 0.035, kFloodplainN = 0.06;
+
+struct Case {
+  const char* section_name;
+  Section section;
+  double slope;
+  double length_m;
+  const char* wave_name;
+  double rise_s;
+
+  /// e.g. "two_stage_S0_0p001_20km_sharp" (a test name: letters, digits, _).
+  std::string name() const {
+    char buf[96];
+    std::snprintf(buf, sizeof buf, "%s_S0_%g_%gkm_%s", section_name, slope, length_m / 1000, wave_name);
+    std::string s = buf;
+    std::replace(s.begin(), s.end(), '-', '_');
+    std::replace(s.begin(), s.end(), '.', 'p');
+    return s;
+  }
+  /// Base flow 0.3 and peak 1.5 times the bank-full discharge of the main
+  /// channel at this slope, so the peak is 5 x base and goes over the banks
+  /// of the two-stage section.
+  double baseFlow() const {
+    return 0.3 * Section::trapezoid(kMainWidth, kSideSlope, kChannelN, slope).discharge(kBankDepth);
+  }
+  double inflowPeak() const { return 5 * baseFlow(); }
+  /// Ponce, Li & Simons (1978) applicability number T S0 (g / d)^(1/2) for a
+  /// wave of period T = 2 t_rise, at the normal depth of the mean of base
+  /// and peak flow: the diffusion wave needs >= 30 (from memory).
+  double ponceNumber() const {
+    return 2 * rise_s * slope * std::sqrt(9.81 / section.normalDepth(0.5 * (baseFlow() + inflowPeak())));
+  }
+  bool diffusionWaveValid() const { return ponceNumber() >= 30; }
+  bool broad() const { return rise_s > 24 * kHour; }
+  /// The inflow over a window of `window_s` after an hour of base flow.
+  std::vector<double> inflow(double window_s) const {
+    const auto samples = static_cast<std::size_t>(std::ceil((kHour + window_s) / kDt)) + 1;
+    return ref::gammaWave(baseFlow(), inflowPeak() - baseFlow(), rise_s, kHour, kDt, samples);
+  }
+  /// The first window tried: the rise, a falling limb of four rise times,
+  /// and twice the travel time at the slowest celerity over the flows.
+  double firstWindow() const {
+    double c_min = 1e9;
+    for (int i = 0; i <= 20; ++i)
+      c_min = std::min(c_min, section.celerity(section.normalDepth(baseFlow() + (inflowPeak() - baseFlow()) * i / 20)));
+    return 5 * rise_s + 2 * length_m / c_min;
+  }
+};
+
+/// The matrix: slopes × sections × lengths × waves (72 cases).
+inline std::vector<Case> matrixCases() {
+  std::vector<Case> cases;
+  for (double slope : {0.005, 0.001, 0.0002, 0.00001}) {
+    const Section sections[] = {
+        Section::rectangle(kRectangleWidth, kChannelN, slope),
+        Section::trapezoid(kMainWidth, kSideSlope, kChannelN, slope),
+        Section::twoStage(kMainWidth, kSideSlope, kBankDepth, kFloodplainWidth, kChannelN, kFloodplainN, slope)};
+    const char* names[] = {"rectangle", "trapezoid", "two-stage"};
+    for (int k = 0; k < 3; ++k)
+      for (double km : {5.0, 20.0, 80.0}) {
+        cases.push_back({names[k], sections[k], slope, km * 1000, "sharp", 6 * kHour});
+        cases.push_back({names[k], sections[k], slope, km * 1000, "broad", 48 * kHour});
+      }
+  }
+  return cases;
+}
+
+/// A converged reference run of a case and what the figures need of it.
+struct Reference {
+  double window_s = 0;
+  std::vector<double> inflow;
+  ref::ConvergedRun run;
+  double in_event_m3 = 0;   ///< inflow volume above base flow
+  double ref_event_m3 = 0;  ///< reference outflow volume above base flow, from its own step totals
+
+  void setEvents(const Case& c) {
+    in_event_m3 = ref::eventVolume(inflow, c.baseFlow(), kDt);
+    ref_event_m3 = run.run.outflow_m3 - c.baseFlow() * kDt * static_cast<double>(inflow.size() - 1);
+  }
+};
+
+/// Solves the reference for a case, doubling the window (up to three times)
+/// while less than 99 % of the event volume has left the reach (flat
+/// reaches spread the wave).
+inline Reference solveReference(const Case& c, const ref::Refinement& refinement = {}) {
+  Reference r;
+  r.window_s = c.firstWindow();
+  for (int attempt = 0;; ++attempt, r.window_s *= 2) {
+    r.inflow = c.inflow(r.window_s);
+    r.run = ref::convergeDiffusionWave(c.section, c.length_m, r.inflow, kDt, c.rise_s, refinement);
+    r.setEvents(c);
+    if (r.ref_event_m3 >= 0.99 * r.in_event_m3 || attempt == 3) return r;
+  }
+}
+
+/// A method's errors against the reference (docs/methods.md defines them).
+struct Figures {
+  double peak_pct = 0, time_pct = 0, volume_pct = 0, dip_pct = 0, overshoot_pct = 0;
+  std::uint64_t negative_clamps = 0, x_clamps = 0;
+  std::uint32_t subreaches = 0, substeps = 0;
+};
+
+/// Routes the case's inflow with `options` and measures it. Peak times are
+/// the middle of each hydrograph's top (ref::peakTime); event volumes come
+/// from each solver's own volume totals over its internal steps, not from
+/// the 15-minute samples (on steep reaches the outflow front steepens to
+/// minutes and the samples would miss part of it).
+inline Figures measure(const Case& c, const Reference& r, const reachwise::routing::RouteOptions& options,
+                       std::vector<double>* outflow = nullptr) {
+  std::vector<double> out;
+  reachwise::routing::ReachRouter router;
+  const reachwise::routing::ReachRun run = router.route({c.section, c.length_m}, r.inflow, {}, kDt, options, out);
+  const double base = c.baseFlow(), rise = c.inflowPeak() - base;
+  const std::vector<double>& q_ref = r.run.run.outflow_m3s;
+  const double t = ref::peakTime(out, rise), t_ref = ref::peakTime(q_ref, rise), t_in = ref::peakTime(r.inflow, rise);
+  const double p = ref::peakOf(out).value, p_ref = ref::peakOf(q_ref).value;
+  Figures f;
+  f.peak_pct = 100 * (p - p_ref) / p_ref;
+  f.time_pct = 100 * (t - t_ref) / (t_ref - t_in);
+  const double base_volume = base * kDt * static_cast<double>(r.inflow.size() - 1);
+  f.volume_pct = 100 * (run.volume.outflow_m3 - base_volume - r.ref_event_m3) / r.in_event_m3;
+  f.dip_pct = 100 * std::max(0.0, base - *std::min_element(out.begin(), out.end())) / rise;
+  f.overshoot_pct = 100 * std::max(0.0, *std::max_element(out.begin(), out.end()) - (base + rise)) / rise;
+  f.negative_clamps = run.numerics.negative_clamps;
+  f.x_clamps = run.numerics.x_clamps;
+  f.subreaches = run.numerics.subreaches;
+  f.substeps = run.numerics.substeps;
+  if (outflow) *outflow = std::move(out);
+  return f;
+}
+
+/// The accuracy targets of the default method on the rows where the
+/// diffusion wave is valid: peak within 2 % (1 % for the broad wave), peak
+/// time within 5 % of the travel time, event volume within 2 % (0.5 %
+/// broad), outflow within [base flow, inflow peak] to 1 % of the rise, no
+/// negative flow clamped. Returns what misses, empty when all are met.
+inline std::vector<std::string> missedTargets(const Case& c, const Figures& f) {
+  std::vector<std::string> missed;
+  char buf[64];
+  const auto check = [&](bool ok, const char* what, double value) {
+    if (ok) return;
+    std::snprintf(buf, sizeof buf, "%s %+.2f", what, value);
+    missed.emplace_back(buf);
+  };
+  check(std::abs(f.peak_pct) <= (c.broad() ? 1.0 : 2.0), "peak %", f.peak_pct);
+  check(std::abs(f.time_pct) <= 5.0, "time % of travel", f.time_pct);
+  check(std::abs(f.volume_pct) <= (c.broad() ? 0.5 : 2.0), "event volume %", f.volume_pct);
+  check(f.dip_pct <= 1.0, "dip % of rise", f.dip_pct);
+  check(f.overshoot_pct <= 1.0, "overshoot % of rise", f.overshoot_pct);
+  check(f.negative_clamps == 0, "negative clamps", static_cast<double>(f.negative_clamps));
+  return missed;
+}
+
+}  // namespace testsupport::accuracy
