@@ -303,6 +303,7 @@ void Scheduler::summariseWarnings() {
   std::uint64_t env = 0;
   std::size_t env_r = 0, env_at = 0;
   double env_worst = 0;
+  std::size_t ponce_r = 0, ponce_at = 0;
   for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
     const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
@@ -313,6 +314,10 @@ void Scheduler::summariseWarnings() {
     }
     if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
     if (m.grid_compromise) ++comp_r;
+    if (m.ponce_number < kDiffusionWaveMinPonce) {  // NaN (no rise) compares false
+      if (ponce_r == 0 || m.ponce_number < results_.reaches[ponce_at].numerics.ponce_number) ponce_at = i;
+      ++ponce_r;
+    }
     if (m.envelope_exceedances) {
       env += m.envelope_exceedances, ++env_r;
       if (m.envelope_excursion_pct > env_worst) env_worst = m.envelope_excursion_pct, env_at = i;
@@ -346,6 +351,14 @@ void Scheduler::summariseWarnings() {
     w.push_back(reaches(env_r) + " leaving the inflow envelope (lowest to highest inflow) by more than 1 % of the rise (" +
                 std::to_string(env) + " output samples), worst " + worst.substr(1) + " of the rise at reach " +
                 plan_.reach_id[env_at]);
+  }
+  if (ponce_r) {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%.1f", results_.reaches[ponce_at].numerics.ponce_number);
+    w.push_back(reaches(ponce_r) + " too flat for the flood's rise time for the diffusion wave every Cunge method solves "
+                "(Ponce number T S0 (g/d)^(1/2) below 30; lowest " + std::string(buf) + " at reach " +
+                plan_.reach_id[ponce_at] + "): inertia matters there and the routed peak and its timing can be far off "
+                "(docs/methods.md, \"Where the diffusion wave fails\")");
   }
   if (vol_r)
     w.push_back(reaches(vol_r) + " with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +

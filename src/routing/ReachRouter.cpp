@@ -147,6 +147,14 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     const ConvergenceRatios r = ponceConvergenceRatios(num.courant, num.x, sigma_dx);
     num.amplitude_ratio = r.amplitude;
     num.phase_ratio = r.phase;
+    // The mean depth at the reference flow: from the rating table where the
+    // method built one, else one normal-depth solve.
+    const hydraulics::Section& sec = reach.section;
+    const double q = std::min(q_ref, 0.99 * sec.capacity());
+    double depth = 0, velocity = 0;
+    depthAndVelocityAt(sec, table_ ? &*table_ : nullptr, q, depth, velocity);
+    const double mean_depth = sec.area(depth) / sec.topWidth(depth);
+    if (mean_depth > 0) num.ponce_number = 2.0 * run.rise_s * sec.bedSlope() * std::sqrt(9.81 / mean_depth);
   }
   // The outflow is the top and lateral inflow, each delayed and spread:
   // it stays between their lowest and their highest added.

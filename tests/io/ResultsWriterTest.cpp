@@ -185,7 +185,8 @@ const std::vector<std::string> kReachFields = {
     "volume_out_m3", "storage_change_m3", "volume_error_pct", "subreaches", "substeps", "dx_m",
     "dt_sub_s", "courant", "x", "cell_reynolds", "reference_q", "amplitude_ratio", "phase_ratio",
     "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin",
-    "event_volume_error_pct", "x_clamp_cause", "envelope_exceedances", "envelope_excursion_pct"};
+    "event_volume_error_pct", "x_clamp_cause", "envelope_exceedances", "envelope_excursion_pct",
+    "ponce_number"};
 const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
                                               "branch_count", "branch_spread_h", "coincidence_ratio"};
 

@@ -23,13 +23,18 @@ enum class XClampCause : std::uint8_t {
   Surcharge,  ///< a pipe carried more than its capacity in some cell
   BankFull,   ///< a two-stage section whose inflow range crosses the bank-full flow
   Short,      ///< the wave crosses the whole reach within one time step (c Δt >= L)
-  Flat,       ///< D > 1 at the reference flow: a sub-reach is shorter than Q / (T S0 c)
-  FlowRange,  ///< D > 1 only at flows away from the reference flow
+  Flat,       ///< D > 1 + C at the reference flow: the reach is shorter than Q / (T S0 c) − c Δt
+  FlowRange,  ///< D > 1 + C only at flows away from the reference flow
 };
 
 /// Its name in outputs: "surcharge", "bank_full", "short", "flat",
 /// "flow_range"; "" for None.
 const char* xClampCauseName(XClampCause cause);
+
+/// The Ponce number below which the diffusion-wave approximation fails
+/// (Ponce, Li & Simons 1978, *J. Hydraulics Div. ASCE* 104: 30 for the
+/// diffusion wave, 171 for the kinematic; from memory).
+inline constexpr double kDiffusionWaveMinPonce = 30.0;
 
 /// Numerics chosen for one reach (and what happened while routing it).
 struct ReachNumerics {
@@ -45,8 +50,13 @@ struct ReachNumerics {
   double k_s = kNaN;                ///< Muskingum K of one sub-reach, s
   double amplitude_ratio = kNaN;    ///< Ponce's convergence ratio R1
   double phase_ratio = kNaN;        ///< Ponce's convergence ratio R2
+  /// Ponce, Li & Simons (1978) T_w S0 (g / d)^(1/2) for the event's wave
+  /// (period T_w = 2 t_rise) at the mean depth d = A/T of uniform flow at
+  /// the reference flow: below kDiffusionWaveMinPonce the diffusion wave
+  /// every Cunge method solves is itself a poor model of the flood.
+  double ponce_number = kNaN;
   std::uint64_t negative_clamps = 0;   ///< cells where a negative flow was clamped to 0
-  std::uint64_t x_clamps = 0;          ///< cells where X < 0 was raised to 0 (D > 1)
+  std::uint64_t x_clamps = 0;          ///< cells where D > 1 + C was lowered to 1 + C (X raised to −C/2)
   std::uint64_t surcharge_cells = 0;   ///< cells above a pipe's capacity
   XClampCause x_clamp_cause = XClampCause::None;   ///< when x_clamps > 0
   /// Output samples outside the inflow envelope [lowest top inflow + lowest
