@@ -43,7 +43,7 @@
 /// the outflow at x = L is that of a semi-infinite uniform channel (the
 /// buffer's end reaches back only by diffusion, as in the diffusion-wave
 /// reference, and the dynamic part of a disturbance is damped by friction
-/// within a few kilometres, see SaintVenant.cpp). The flow must stay
+/// within a few kilometres, see convergeSaintVenant in SaintVenant.cpp). The flow must stay
 /// subcritical (one condition at each end); SaintVenantRun::max_froude says
 /// how far it was from critical.
 
