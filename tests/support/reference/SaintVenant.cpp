@@ -17,7 +17,8 @@ constexpr double kGravity = 9.81;  // m/s^2
 /// box scheme gives when the unknowns are ordered Q_0, y_0, Q_1, y_1, ...
 /// and the equations upstream boundary, then continuity and momentum box by
 /// box, then downstream boundary), solved by Gaussian elimination with
-/// partial pivoting (Golub & Van Loan 1996, *Matrix Computations* §4.3).
+/// partial pivoting (Golub & Van Loan 1996, *Matrix Computations* §4.3,
+/// from memory).
 /// Row i keeps the columns i − kl ... i + ku + kl, room for the fill-in that
 /// row exchanges bring.
 class BandSystem {
