@@ -59,13 +59,15 @@ struct Case {
     return 0.3 * Section::trapezoid(kMainWidth, kSideSlope, kChannelN, slope).discharge(kBankDepth);
   }
   double inflowPeak() const { return 5 * baseFlow(); }
-  /// Ponce, Li & Simons (1978) applicability number T S0 (g / d)^(1/2) for a
-  /// wave of period T = 2 t_rise, at the normal depth of the mean of base
-  /// and peak flow: the diffusion wave needs >= 30 (from memory).
+  /// Ponce, Li & Simons (1978) applicability number T S0 (g / d)^(1/2) for
+  /// a wave of period T = 2 t_rise, at the mean depth d = A/T of uniform
+  /// flow at the mean of base and peak flow, as the router reports it
+  /// (ReachNumerics::ponce_number): the diffusion wave needs >= 30.
   double ponceNumber() const {
-    return 2 * rise_s * slope * std::sqrt(9.81 / section.normalDepth(0.5 * (baseFlow() + inflowPeak())));
+    const double y = section.normalDepth(0.5 * (baseFlow() + inflowPeak()));
+    return 2 * rise_s * slope * std::sqrt(9.81 / (section.area(y) / section.topWidth(y)));
   }
-  bool diffusionWaveValid() const { return ponceNumber() >= 30; }
+  bool diffusionWaveValid() const { return ponceNumber() >= reachwise::routing::kDiffusionWaveMinPonce; }
   bool broad() const { return rise_s > 24 * kHour; }
   /// The inflow over a window of `window_s` after an hour of base flow.
   std::vector<double> inflow(double window_s) const {
@@ -135,32 +137,43 @@ struct Figures {
   std::uint32_t subreaches = 0, substeps = 0;
 };
 
-/// Routes the case's inflow with `options` and measures it. Peak times are
-/// the middle of each hydrograph's top (ref::peakTime); event volumes come
-/// from each solver's own volume totals over its internal steps, not from
-/// the 15-minute samples (on steep reaches the outflow front steepens to
+/// The errors of outflow `out` (whose volume above base flow, from its
+/// solver's own step totals, is `out_event_m3`) against a reference outflow
+/// `q_ref` (`ref_event_m3`), both routed from `inflow`. Peak times are the
+/// middle of each hydrograph's top (ref::peakTime); event volumes come from
+/// each solver's own volume totals over its internal steps, not from the
+/// 15-minute samples (on steep reaches the outflow front steepens to
 /// minutes and the samples would miss part of it).
-inline Figures measure(const Case& c, const Reference& r, const reachwise::routing::RouteOptions& options,
-                       std::vector<double>* outflow = nullptr) {
-  std::vector<double> out;
-  reachwise::routing::ReachRouter router;
-  const reachwise::routing::ReachRun run = router.route({c.section, c.length_m}, r.inflow, {}, kDt, options, out);
+inline Figures compare(const Case& c, const std::vector<double>& inflow, double in_event_m3,
+                       const std::vector<double>& out, double out_event_m3, const std::vector<double>& q_ref,
+                       double ref_event_m3) {
   const double base = c.baseFlow(), rise = c.inflowPeak() - base;
-  const std::vector<double>& q_ref = r.run.run.outflow_m3s;
-  const double t = ref::peakTime(out, rise), t_ref = ref::peakTime(q_ref, rise), t_in = ref::peakTime(r.inflow, rise);
+  const double t = ref::peakTime(out, rise), t_ref = ref::peakTime(q_ref, rise), t_in = ref::peakTime(inflow, rise);
   const double p = ref::peakOf(out).value, p_ref = ref::peakOf(q_ref).value;
   Figures f;
   f.peak_pct = 100 * (p - p_ref) / p_ref;
   f.time_pct = 100 * (t - t_ref) / (t_ref - t_in);
-  const double base_volume = base * kDt * static_cast<double>(r.inflow.size() - 1);
-  f.volume_pct = 100 * (run.volume.outflow_m3 - base_volume - r.ref_event_m3) / r.in_event_m3;
+  f.volume_pct = 100 * (out_event_m3 - ref_event_m3) / in_event_m3;
   f.dip_pct = 100 * std::max(0.0, base - *std::min_element(out.begin(), out.end())) / rise;
   f.overshoot_pct = 100 * std::max(0.0, *std::max_element(out.begin(), out.end()) - (base + rise)) / rise;
+  return f;
+}
+
+/// Routes the case's inflow with `options` and measures it against the
+/// reference `q_ref` (default: the diffusion-wave reference's outflow).
+inline Figures measure(const Case& c, const Reference& r, const reachwise::routing::RouteOptions& options,
+                       const std::vector<double>* q_ref = nullptr, double ref_event_m3 = 0) {
+  std::vector<double> out;
+  reachwise::routing::ReachRouter router;
+  const reachwise::routing::ReachRun run = router.route({c.section, c.length_m}, r.inflow, {}, kDt, options, out);
+  const double base_volume = c.baseFlow() * kDt * static_cast<double>(r.inflow.size() - 1);
+  Figures f = q_ref ? compare(c, r.inflow, r.in_event_m3, out, run.volume.outflow_m3 - base_volume, *q_ref, ref_event_m3)
+                    : compare(c, r.inflow, r.in_event_m3, out, run.volume.outflow_m3 - base_volume,
+                              r.run.run.outflow_m3s, r.ref_event_m3);
   f.negative_clamps = run.numerics.negative_clamps;
   f.x_clamps = run.numerics.x_clamps;
   f.subreaches = run.numerics.subreaches;
   f.substeps = run.numerics.substeps;
-  if (outflow) *outflow = std::move(out);
   return f;
 }
 

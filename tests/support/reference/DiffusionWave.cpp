@@ -30,14 +30,6 @@ struct SlopeRoot {
   }
 };
 
-/// Flow at time t of a series sampled every dt, linear in between.
-double sampleAt(std::span<const double> q, double dt, double t) {
-  const double u = t / dt;
-  const auto i = static_cast<std::size_t>(std::floor(u));
-  if (i + 1 >= q.size()) return q.back();
-  return q[i] + (q[i + 1] - q[i]) * (u - static_cast<double>(i));
-}
-
 }  // namespace
 
 DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
@@ -52,13 +44,7 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
 
   // Cells: N uniform over [0, L], then the buffer.
   const std::size_t n_reach = grid.cells;
-  const double dx0 = length_m / static_cast<double>(n_reach);
-  std::vector<double> dx(n_reach, dx0);
-  const double largest_cell = std::max(dx0, grid.max_buffer_cell_m > 0 ? grid.max_buffer_cell_m : 1e300);
-  for (double covered = 0, d = dx0 * grid.growth; covered < grid.buffer_m; d = std::min(d * grid.growth, largest_cell)) {
-    dx.push_back(std::min(d, largest_cell));
-    covered += dx.back();
-  }
+  const std::vector<double> dx = cellLengths(length_m, n_reach, grid.buffer_m, grid.growth, grid.max_buffer_cell_m);
   const std::size_t m = dx.size();
   // Distance between the centres on either side of face f (1 <= f < m).
   std::vector<double> gap(m, 0.0);
@@ -184,66 +170,17 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
 ConvergedRun convergeDiffusionWave(const Section& section, double length_m,
                                    std::span<const double> inflow, double dt_s, double rise_s,
                                    const Refinement& refinement) {
-  const auto [lo, hi] = std::minmax_element(inflow.begin(), inflow.end());
-  double c_max = 0, ell_min = 1e300, ell_max = 0;
-  for (int i = 0; i <= 40; ++i) {
-    const double q = *lo + (*hi - *lo) * i / 40.0;
-    const double y = section.normalDepth(q);
-    const double c = section.celerity(y);
-    const double ell = q / (2 * section.topWidth(y) * section.bedSlope() * c);  // diffusion length nu / c
-    c_max = std::max(c_max, c);
-    ell_min = std::min(ell_min, ell);
-    ell_max = std::max(ell_max, ell);
-  }
-  const auto ceil_size = [](double v) { return static_cast<std::size_t>(std::ceil(v)); };
+  const FirstGrid first = firstGrid(section, length_m, inflow, dt_s, rise_s, refinement);
   DiffusionWaveGrid grid;
-  grid.cells = refinement.first_cells
-                   ? refinement.first_cells
-                   : std::max({std::size_t{10}, ceil_size(16 * length_m / (c_max * rise_s)),
-                               ceil_size(length_m / (4 * ell_min))});
-  grid.substeps = refinement.first_substeps
-                      ? refinement.first_substeps
-                      : std::max<std::size_t>(1, ceil_size(c_max * dt_s * grid.cells / length_m));
-  grid.buffer_m = std::max(0.5 * length_m, 20 * ell_max);
-  grid.max_buffer_cell_m = 2 * ell_min;
+  grid.cells = first.cells;
+  grid.substeps = first.substeps;
+  grid.buffer_m = first.buffer_m;
+  grid.max_buffer_cell_m = first.max_buffer_cell_m;
   grid.theta = refinement.theta;
-
-  const double base = inflow.front();
-  ConvergedRun out;
-  double last_peak = 0, last_index = 0;
-  bool have_last = false;
-  for (std::size_t level = 0; level < refinement.max_levels; ++level) {
-    out.levels = level + 1;
-    DiffusionWaveRun run;
-    try {
-      run = routeDiffusionWave(section, length_m, inflow, dt_s, grid);
-    } catch (const std::runtime_error&) {
-      // Too coarse for a steep front (the central face flux oscillates when
-      // a cell is many diffusion lengths long): refine and go on.
-      ++out.failed_levels;
-      have_last = false;
-      grid.cells *= 2;
-      grid.substeps *= 2;
-      continue;
-    }
-    const SeriesPeak p = peakOf(run.outflow_m3s);
-    out.run = std::move(run);
-    out.grid = grid;
-    if (have_last) {
-      out.last_peak_change = std::abs(p.value - last_peak) / (p.value - base);
-      out.last_time_change_s = std::abs(p.index - last_index) * dt_s;
-      if (out.last_peak_change < refinement.tolerance && out.levels >= refinement.min_levels) {
-        out.converged = true;
-        break;
-      }
-    }
-    last_peak = p.value;
-    last_index = p.index;
-    have_last = true;
-    grid.cells *= 2;
-    grid.substeps *= 2;
-  }
-  return out;
+  return refineUntilSettled<DiffusionWaveRun>(grid, inflow.front(), dt_s, refinement,
+                                              [&](const DiffusionWaveGrid& g) {
+                                                return routeDiffusionWave(section, length_m, inflow, dt_s, g);
+                                              });
 }
 
 }  // namespace testsupport::reference

@@ -33,6 +33,7 @@
 #include <vector>
 
 #include "reachwise/hydraulics/Section.hpp"
+#include "support/reference/Refinement.hpp"
 
 namespace testsupport::reference {
 
@@ -67,24 +68,9 @@ DiffusionWaveRun routeDiffusionWave(const reachwise::hydraulics::Section& sectio
                                     std::span<const double> inflow_m3s, double dt_s,
                                     const DiffusionWaveGrid& grid);
 
-struct ConvergedRun {
-  DiffusionWaveRun run;
-  DiffusionWaveGrid grid;             ///< the finest grid, whose result is `run`
-  std::size_t levels = 0;             ///< grids computed
-  std::size_t failed_levels = 0;      ///< grids on which Newton failed (too coarse), skipped
-  double last_peak_change = 0;        ///< |peak_l − peak_{l−1}| / (peak_l − base) of the last refinement
-  double last_time_change_s = 0;      ///< shift of the peak time in the last refinement
-  bool converged = false;             ///< last_peak_change < tolerance
-};
-
-struct Refinement {
-  double tolerance = 5e-4;            ///< on the peak change relative to the peak's rise
-  std::size_t min_levels = 3;         ///< at least two refinements, so one coincidence cannot pass
-  std::size_t max_levels = 7;
-  std::size_t first_cells = 0;        ///< 0: from the wave length (see convergeDiffusionWave)
-  std::size_t first_substeps = 0;     ///< 0: Courant number about 1 at the largest celerity
-  double theta = 0.5;                 ///< time weighting (DiffusionWaveGrid::theta)
-};
+/// The diffusion-wave reference refined until its outflow peak settles
+/// (Refinement.hpp).
+using ConvergedRun = Converged<DiffusionWaveRun, DiffusionWaveGrid>;
 
 /// Solves on a grid, then halves dx and dt together until the outflow peak
 /// changes by less than `tolerance` of its rise above the first inflow
