@@ -355,10 +355,10 @@ void Scheduler::summariseWarnings() {
   if (ponce_r) {
     char buf[32];
     std::snprintf(buf, sizeof buf, "%.1f", results_.reaches[ponce_at].numerics.ponce_number);
-    w.push_back(reaches(ponce_r) + " too flat for the flood's rise time for the diffusion wave every Cunge method solves "
-                "(Ponce number T S0 (g/d)^(1/2) below 30; lowest " + std::string(buf) + " at reach " +
-                plan_.reach_id[ponce_at] + "): inertia matters there and the routed peak and its timing can be far off "
-                "(docs/methods.md, \"Where the diffusion wave fails\")");
+    w.push_back(reaches(ponce_r) + " too flat for the flood's rise time (Ponce number T S0 (g/d)^(1/2) below 30; lowest " +
+                std::string(buf) + " at reach " + plan_.reach_id[ponce_at] +
+                "): outside the range the routing methods are checked for; on such reaches the peak can be tens of "
+                "percent off and hours late (docs/methods.md, \"Where the diffusion wave fails\")");
   }
   if (vol_r)
     w.push_back(reaches(vol_r) + " with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +

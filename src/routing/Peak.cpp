@@ -23,7 +23,10 @@ double riseSamples(std::span<const double> q) {
   if (q.empty()) return 0;
   const auto peak = static_cast<std::size_t>(std::max_element(q.begin(), q.end()) - q.begin());
   std::size_t j = peak;
-  while (j > 0 && q[j - 1] <= q[j]) --j;
+  // Back over the strictly rising samples only: a flat base flow before the
+  // rise is not part of it (it had counted, so a storm after a long steady
+  // spell had a long "rise").
+  while (j > 0 && q[j - 1] < q[j]) --j;
   return static_cast<double>(peak - j);
 }
 

@@ -401,3 +401,43 @@ TEST(NetworkRouter, ConfluenceNodesCarryBranchTiming) {
   EXPECT_EQ(outlets, 1u);
   EXPECT_LT(r.peak_live_series, p.size());
 }
+
+// The Ponce number of each reach (Ponce, Li & Simons 1978): T S0 (g/d)^(1/2)
+// for the period T = 2 t_rise of the inflow's rise (here a storm rising
+// over 12 hourly steps) at the mean depth A/T of uniform flow at the
+// reference flow, on a wide rectangle, where A/T is the normal depth
+// (computed here from Manning's equation for the rectangle, not from the
+// router's section code). Below 30 the run warns and names the flattest
+// reach; a steep reach alone gives no such warning.
+TEST(NetworkRouter, PonceNumberAndItsWarning) {
+  std::mt19937 rng(5);
+  for (const double slope : {1e-5, 0.005}) {
+    NetworkPlan p = randomTree(1, rng);
+    const double width = 40, n = 0.035;
+    p.section[0] = hydraulics::Section::rectangle(width, n, slope);
+    p.length_m[0] = 20000;
+    MemoryForcing f;
+    f.inflow_m3s = {storm(200, 10, 50, 5, 24)};
+    const NetworkResults r = routeNetwork(p, hourly(200), f, NetworkRouteOptions{});
+    const ReachNumerics& num = r.reaches[0].numerics;
+    // Normal depth of the rectangle at the reference flow by bisection on
+    // Q = (1/n) b y (b y / (b + 2y))^(2/3) S0^(1/2).
+    double lo = 0, hi = 50;
+    for (int i = 0; i < 200; ++i) {
+      const double y = 0.5 * (lo + hi);
+      const double q = width * y * std::pow(width * y / (width + 2 * y), 2.0 / 3.0) * std::sqrt(slope) / n;
+      (q < num.reference_q_m3s ? lo : hi) = y;
+    }
+    const double rise_s = 12 * 3600.0;
+    const double expected = 2 * rise_s * slope * std::sqrt(9.81 / lo);
+    // 1e-4: the router reads the depth off its rating table (6e-6 apart here).
+    EXPECT_NEAR(num.ponce_number / expected, 1.0, 1e-4) << slope;
+    const std::string w = warningWith(r, "Ponce number");
+    if (expected < 30) {
+      EXPECT_NE(w.find("1 reach too flat"), std::string::npos) << w;
+      EXPECT_NE(w.find("at reach " + p.reach_id[0]), std::string::npos) << w;
+    } else {
+      EXPECT_EQ(w, "") << w;
+    }
+  }
+}

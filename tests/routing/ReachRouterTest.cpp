@@ -413,3 +413,10 @@ TEST(Peak, ParabolicInterpolationRecoversVertex) {
   EXPECT_NEAR(p.value, 50, 1e-12);
   EXPECT_EQ(riseSamples(q), 4.0);
 }
+
+// The rise starts at the last minimum before the peak: a steady base flow
+// before it is not part of it.
+TEST(Peak, RiseStartsAfterTheSteadyBaseFlow) {
+  const std::vector<double> q = {5, 5, 5, 5, 6, 8, 11, 9, 7};
+  EXPECT_EQ(riseSamples(q), 3.0);
+}

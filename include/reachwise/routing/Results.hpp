@@ -52,8 +52,9 @@ struct ReachNumerics {
   double phase_ratio = kNaN;        ///< Ponce's convergence ratio R2
   /// Ponce, Li & Simons (1978) T_w S0 (g / d)^(1/2) for the event's wave
   /// (period T_w = 2 t_rise) at the mean depth d = A/T of uniform flow at
-  /// the reference flow: below kDiffusionWaveMinPonce the diffusion wave
-  /// every Cunge method solves is itself a poor model of the flood.
+  /// the reference flow. Below kDiffusionWaveMinPonce the diffusion wave may
+  /// not hold, and the Cunge methods measured far off the references
+  /// (docs/methods.md, "Where the diffusion wave fails").
   double ponce_number = kNaN;
   std::uint64_t negative_clamps = 0;   ///< cells where a negative flow was clamped to 0
   std::uint64_t x_clamps = 0;          ///< cells where D > 1 + C was lowered to 1 + C (X raised to −C/2)
