@@ -30,6 +30,7 @@ struct RouteOptions {
   std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report;
   std::string hydrographs = "auto";
   std::optional<double> dt_s;   ///< unset: the forcing's own step
+  double diffusion_below = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;
   bool write_back = false, overwrite = false, quiet = false, demo = false;
   std::string command_line;
@@ -99,7 +100,8 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
   r.forcing.dt_s = o.dt_s;
-  r.method = *run::methodFromName(o.method);  // CLI11 and the run file admit only the three names
+  r.method = *run::methodFromName(o.method);  // CLI11 and the run file admit only the method names
+  r.diffusion_below_ponce = o.diffusion_below;
   r.threads = o.threads;
   r.command_line = o.command_line;
   run::OutputRequest& out = r.outputs;
@@ -183,8 +185,11 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
   sub->add_option("--config", o->config,
                   "TOML run file: field mappings and defaults ([network]), any of these options ([route])");
-  sub->add_option("--method", o->method, "vpmc (default), mc or muskingum")
+  sub->add_option("--method", o->method, "vpmc (default), mc, muskingum or diffusion")
       ->check(CLI::IsMember(run::methodNames()));
+  sub->add_option("--diffusion-below", o->diffusion_below,
+                  "vpmc routes reaches whose Ponce number is below this with the diffusion wave (default 30; 0: never)")
+      ->check(CLI::NonNegativeNumber);
   sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(CLI::PositiveNumber);
   sub->add_option("--out", o->out, "Output GeoPackage (default reachwise-results.gpkg)");
   sub->add_option("--csv", o->csv, "Also write the tables as CSV files into this folder");

@@ -62,7 +62,7 @@ const std::vector<Column>& reachColumns() {
       {"strahler", CT::Integer},       {"basin", CT::Integer},
       {"event_volume_error_pct", CT::Real}, {"x_clamp_cause", CT::Text},
       {"envelope_exceedances", CT::Integer64}, {"envelope_excursion_pct", CT::Real},
-      {"ponce_number", CT::Real},
+      {"ponce_number", CT::Real},      {"method", CT::Text},
   };
   return columns;
 }
@@ -108,6 +108,7 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   row.push_back(integer(n.envelope_exceedances));
   row.push_back(real(n.envelope_excursion_pct));
   row.push_back(real(n.ponce_number));
+  row.emplace_back(std::string(routing::methodName(n.method)));
   REACHWISE_ASSERT(row.size() == reachColumns().size());
   return row;
 }

@@ -314,7 +314,9 @@ void Scheduler::summariseWarnings() {
     }
     if (m.surcharge_cells) sur += m.surcharge_cells, ++sur_r;
     if (m.grid_compromise) ++comp_r;
-    if (m.ponce_number < kDiffusionWaveMinPonce) {  // NaN (no rise) compares false
+    // Reaches a Cunge method routed although below the limit (NaN, no rise,
+    // compares false); those `vpmc` handed to the diffusion wave are fine.
+    if (m.ponce_number < kDiffusionWaveMinPonce && m.method != Method::DiffusionWave) {
       if (ponce_r == 0 || m.ponce_number < results_.reaches[ponce_at].numerics.ponce_number) ponce_at = i;
       ++ponce_r;
     }
@@ -357,8 +359,9 @@ void Scheduler::summariseWarnings() {
     std::snprintf(buf, sizeof buf, "%.1f", results_.reaches[ponce_at].numerics.ponce_number);
     w.push_back(reaches(ponce_r) + " too flat for the flood's rise time (Ponce number T S0 (g/d)^(1/2) below 30; lowest " +
                 std::string(buf) + " at reach " + plan_.reach_id[ponce_at] +
-                "): outside the range the routing methods are checked for; on such reaches the peak can be tens of "
-                "percent off and hours late (docs/methods.md, \"Where the diffusion wave fails\")");
+                "): outside the range the Muskingum-Cunge methods are checked for; on such reaches their peak can be "
+                "tens of percent off and hours late (docs/methods.md, \"Where the diffusion wave fails\"); vpmc "
+                "routes them with the diffusion wave unless told not to");
   }
   if (vol_r)
     w.push_back(reaches(vol_r) + " with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +

@@ -66,6 +66,16 @@ void envelopeCheck(std::span<const double> out, double lo, double hi, ReachNumer
 
 }  // namespace
 
+const char* methodName(Method method) {
+  switch (method) {
+    case Method::VariableParameter: return "vpmc";
+    case Method::ConstantParameter: return "mc";
+    case Method::Muskingum: return "muskingum";
+    case Method::DiffusionWave: return "diffusion";
+  }
+  throw InternalError("a routing method without a name");
+}
+
 const char* xClampCauseName(XClampCause cause) {
   switch (cause) {
     case XClampCause::None: return "";
@@ -136,9 +146,29 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   num.reference_q_m3s = q_ref;
   if (!(q_peak > 0)) return run;  // a dry reach stays dry
 
+  // The Ponce number of the event's wave (period 2 t_rise) at the mean
+  // depth A/T of uniform flow at the reference flow; below the option's
+  // limit `vpmc` hands the reach to the diffusion wave.
+  const hydraulics::Section& sec = reach.section;
+  // A real event only: round-off in a steady inflow is no flood.
+  if (run.rise_s > 0 && q_peak - q_base > 1e-6 * q_peak) {
+    const hydraulics::FlowState f = sec.normalFlow(std::min(q_ref, 0.99 * sec.capacity()));
+    if (f.area_m2 > 0 && f.top_width_m > 0)
+      num.ponce_number = 2.0 * run.rise_s * sec.bedSlope() * std::sqrt(9.81 * f.top_width_m / f.area_m2);
+  }
+  num.method = opt.method;
+  if (opt.method == Method::VariableParameter && num.ponce_number < opt.diffusion_below_ponce)
+    num.method = Method::DiffusionWave;
+  // The diffusion wave has no surcharge model: a pipe above its capacity
+  // is routed with vpmc (the reach's `method` says so).
+  if (num.method == Method::DiffusionWave && sec.shape() == hydraulics::Shape::Circle &&
+      q_peak > 0.99 * sec.capacity())
+    num.method = Method::VariableParameter;
+
   // The method's set-up: its grid, parameters and cell, then the shared sweep.
   RouteContext ctx{reach, opt, inflow, lateral, dt, q_ref, q_peak, q_in_min, q_, out, table_, spare_, num};
-  methods::setUpFor(opt.method)(ctx);
+  ctx.rise_s = run.rise_s;
+  methods::setUpFor(num.method)(ctx);
 
   // Ponce's ratios for a wave of period 2 t_rise and wavelength c T_w.
   if (run.rise_s > 0 && num.celerity_ms > 0) {
@@ -147,14 +177,6 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
     const ConvergenceRatios r = ponceConvergenceRatios(num.courant, num.x, sigma_dx);
     num.amplitude_ratio = r.amplitude;
     num.phase_ratio = r.phase;
-    // The mean depth at the reference flow: from the rating table where the
-    // method built one, else one normal-depth solve.
-    const hydraulics::Section& sec = reach.section;
-    const double q = std::min(q_ref, 0.99 * sec.capacity());
-    double depth = 0, velocity = 0;
-    depthAndVelocityAt(sec, table_ ? &*table_ : nullptr, q, depth, velocity);
-    const double mean_depth = sec.area(depth) / sec.topWidth(depth);
-    if (mean_depth > 0) num.ponce_number = 2.0 * run.rise_s * sec.bedSlope() * std::sqrt(9.81 / mean_depth);
   }
   // The outflow is the top and lateral inflow, each delayed and spread:
   // it stays between their lowest and their highest added.

@@ -210,6 +210,7 @@ struct RouteContext {
   ReachNumerics& numerics;
   Totals totals{};
   double storage_start_m3 = 0, storage_end_m3 = 0;
+  double rise_s = 0;  ///< rise time of the total inflow's peak (ReachRun::rise_s)
 };
 
 /// Routes the reach with `cell` on the grid the set-up put in

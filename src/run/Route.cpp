@@ -8,11 +8,9 @@ namespace reachwise::run {
 
 namespace {
 
-constexpr std::pair<routing::Method, std::string_view> kMethodNames[] = {
-    {routing::Method::VariableParameter, "vpmc"},
-    {routing::Method::ConstantParameter, "mc"},
-    {routing::Method::Muskingum, "muskingum"},
-};
+/// Every method, the default first (names: routing::methodName).
+constexpr routing::Method kMethods[] = {routing::Method::VariableParameter, routing::Method::ConstantParameter,
+                                        routing::Method::Muskingum, routing::Method::DiffusionWave};
 
 /// How the run was asked for, as run_info and the NetCDF history record it.
 std::string provenance(const RouteRequest& request) {
@@ -21,22 +19,17 @@ std::string provenance(const RouteRequest& request) {
 
 }  // namespace
 
-std::string_view methodName(routing::Method method) {
-  for (const auto& [m, name] : kMethodNames)
-    if (m == method) return name;
-  REACHWISE_ASSERT(!"every method has a name");
-  return {};
-}
+std::string_view methodName(routing::Method method) { return routing::methodName(method); }
 
 std::vector<std::string> methodNames() {
   std::vector<std::string> names;
-  for (const auto& entry : kMethodNames) names.emplace_back(entry.second);
+  for (const routing::Method m : kMethods) names.emplace_back(routing::methodName(m));
   return names;
 }
 
 std::optional<routing::Method> methodFromName(std::string_view name) {
-  for (const auto& [m, n] : kMethodNames)
-    if (n == name) return m;
+  for (const routing::Method m : kMethods)
+    if (routing::methodName(m) == name) return m;
   return std::nullopt;
 }
 
@@ -45,7 +38,7 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
   info.inputs = {request.network.path};
   for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config})
     if (!f->empty()) info.inputs.push_back(*f);
-  info.method = methodName(request.method);
+  info.method = routing::methodName(request.method);
   info.command_line = provenance(request);
   info.warnings = results.warnings;
   info.series_file = request.outputs.series_nc;
@@ -69,6 +62,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   tell.stage("routing");
   routing::NetworkRouteOptions ro;
   ro.reach.method = request.method;
+  ro.reach.diffusion_below_ponce = request.diffusion_below_ponce;
   ro.threads = request.threads;
   ro.base_flow_m3s = baseFlows(plan);
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };

@@ -186,7 +186,7 @@ const std::vector<std::string> kReachFields = {
     "dt_sub_s", "courant", "x", "cell_reynolds", "reference_q", "amplitude_ratio", "phase_ratio",
     "negative_clamps", "x_clamps", "surcharge_cells", "grid_compromise", "strahler", "basin",
     "event_volume_error_pct", "x_clamp_cause", "envelope_exceedances", "envelope_excursion_pct",
-    "ponce_number"};
+    "ponce_number", "method"};
 const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
                                               "branch_count", "branch_spread_h", "coincidence_ratio"};
 

@@ -407,37 +407,44 @@ TEST(NetworkRouter, ConfluenceNodesCarryBranchTiming) {
 // over 12 hourly steps) at the mean depth A/T of uniform flow at the
 // reference flow, on a wide rectangle, where A/T is the normal depth
 // (computed here from Manning's equation for the rectangle, not from the
-// router's section code). Below 30 the run warns and names the flattest
-// reach; a steep reach alone gives no such warning.
-TEST(NetworkRouter, PonceNumberAndItsWarning) {
+// router's section code). Below 30 `vpmc` hands the reach to the diffusion
+// wave; told not to, it routes it itself and the run warns, naming the
+// flattest reach. A steep reach stays with `vpmc`, without a warning.
+TEST(NetworkRouter, PonceNumberHandsFlatReachesToTheDiffusionWave) {
   std::mt19937 rng(5);
   for (const double slope : {1e-5, 0.005}) {
-    NetworkPlan p = randomTree(1, rng);
-    const double width = 40, n = 0.035;
-    p.section[0] = hydraulics::Section::rectangle(width, n, slope);
-    p.length_m[0] = 20000;
-    MemoryForcing f;
-    f.inflow_m3s = {storm(200, 10, 50, 5, 24)};
-    const NetworkResults r = routeNetwork(p, hourly(200), f, NetworkRouteOptions{});
-    const ReachNumerics& num = r.reaches[0].numerics;
-    // Normal depth of the rectangle at the reference flow by bisection on
-    // Q = (1/n) b y (b y / (b + 2y))^(2/3) S0^(1/2).
-    double lo = 0, hi = 50;
-    for (int i = 0; i < 200; ++i) {
-      const double y = 0.5 * (lo + hi);
-      const double q = width * y * std::pow(width * y / (width + 2 * y), 2.0 / 3.0) * std::sqrt(slope) / n;
-      (q < num.reference_q_m3s ? lo : hi) = y;
-    }
-    const double rise_s = 12 * 3600.0;
-    const double expected = 2 * rise_s * slope * std::sqrt(9.81 / lo);
-    // 1e-4: the router reads the depth off its rating table (6e-6 apart here).
-    EXPECT_NEAR(num.ponce_number / expected, 1.0, 1e-4) << slope;
-    const std::string w = warningWith(r, "Ponce number");
-    if (expected < 30) {
-      EXPECT_NE(w.find("1 reach too flat"), std::string::npos) << w;
-      EXPECT_NE(w.find("at reach " + p.reach_id[0]), std::string::npos) << w;
-    } else {
-      EXPECT_EQ(w, "") << w;
+    for (const double below : {kDiffusionWaveMinPonce, 0.0}) {
+      NetworkPlan p = randomTree(1, rng);
+      const double width = 40, n = 0.035;
+      p.section[0] = hydraulics::Section::rectangle(width, n, slope);
+      p.length_m[0] = 20000;
+      MemoryForcing f;
+      f.inflow_m3s = {storm(200, 10, 50, 5, 24)};
+      NetworkRouteOptions options;
+      options.reach.diffusion_below_ponce = below;
+      const NetworkResults r = routeNetwork(p, hourly(200), f, options);
+      const ReachNumerics& num = r.reaches[0].numerics;
+      // Normal depth of the rectangle at the reference flow by bisection on
+      // Q = (1/n) b y (b y / (b + 2y))^(2/3) S0^(1/2).
+      double lo = 0, hi = 50;
+      for (int i = 0; i < 200; ++i) {
+        const double y = 0.5 * (lo + hi);
+        const double q = width * y * std::pow(width * y / (width + 2 * y), 2.0 / 3.0) * std::sqrt(slope) / n;
+        (q < num.reference_q_m3s ? lo : hi) = y;
+      }
+      const double rise_s = 12 * 3600.0;
+      const double expected = 2 * rise_s * slope * std::sqrt(9.81 / lo);
+      // 1e-9: the router solves the normal depth by Newton's method.
+      EXPECT_NEAR(num.ponce_number / expected, 1.0, 1e-9) << slope;
+      const bool flat = expected < 30;
+      EXPECT_EQ(num.method, flat && below > 0 ? Method::DiffusionWave : Method::VariableParameter) << slope;
+      const std::string w = warningWith(r, "Ponce number");
+      if (flat && below == 0) {
+        EXPECT_NE(w.find("1 reach too flat"), std::string::npos) << w;
+        EXPECT_NE(w.find("at reach " + p.reach_id[0]), std::string::npos) << w;
+      } else {
+        EXPECT_EQ(w, "") << w;
+      }
     }
   }
 }

@@ -220,8 +220,10 @@ TEST(ReachRouter, XClampsNameTheirCause) {
   for (const Case& c : cases) {
     std::vector<double> out;
     ReachRouter router;
+    RouteOptions vpmc_only;  // the causes of vpmc's clamps: no hand-over to the diffusion wave
+    vpmc_only.diffusion_below_ponce = 0;
     const ReachRun r = router.route({c.section, c.length_m}, pulse(c.base, c.amplitude, 12 * 3600, dt, 200), {},
-                                    dt, RouteOptions{}, out);
+                                    dt, vpmc_only, out);
     ASSERT_GT(r.numerics.x_clamps, 0u) << xClampCauseName(c.cause);
     EXPECT_EQ(r.numerics.x_clamp_cause, c.cause) << xClampCauseName(r.numerics.x_clamp_cause);
     if (c.cause == XClampCause::Short) {

@@ -415,9 +415,10 @@ INSTANTIATE_TEST_SUITE_P(
     [](const ::testing::TestParamInfo<BadForcing>& info) { return std::string(info.param.name); });
 
 TEST(Route, MethodNamesRoundTrip) {
-  for (const auto m : {routing::Method::VariableParameter, routing::Method::ConstantParameter, routing::Method::Muskingum})
+  for (const auto m : {routing::Method::VariableParameter, routing::Method::ConstantParameter, routing::Method::Muskingum,
+                       routing::Method::DiffusionWave})
     EXPECT_EQ(run::methodFromName(run::methodName(m)), m);
   EXPECT_FALSE(run::methodFromName("kinematic").has_value());
   // The names are fixed by the command-line contract (README, "Commands").
-  EXPECT_EQ(run::methodNames(), (std::vector<std::string>{"vpmc", "mc", "muskingum"}));
+  EXPECT_EQ(run::methodNames(), (std::vector<std::string>{"vpmc", "mc", "muskingum", "diffusion"}));
 }

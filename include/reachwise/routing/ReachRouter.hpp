@@ -17,11 +17,6 @@
 
 namespace reachwise::routing {
 
-enum class Method {
-  VariableParameter,  ///< `vpmc`: c, T, C, D recomputed in every cell (Ponce & Yevjevich 1978)
-  ConstantParameter,  ///< `mc`: one reference flow per reach for the whole event (Cunge 1969)
-  Muskingum,          ///< `muskingum`: the reach's own K and X (McCarthy 1938)
-};
 
 enum class Scheme {
   ThreePoint,  ///< the conservative cell: storage Δx [X A(I) + (1 − X) A(O)] balanced
@@ -56,6 +51,13 @@ struct RouteOptions {
   /// every cell instead with the discharge-form three-point cell (slow; for
   /// checks of the table and benchmarks; not the conservative cell).
   bool use_rating_table = true;
+  /// `vpmc` routes a reach whose Ponce number (ReachNumerics::ponce_number)
+  /// is below this with the diffusion wave instead (`diffusion`), where the
+  /// Muskingum–Cunge methods cannot follow the flood (docs/methods.md,
+  /// "Where the diffusion wave fails"); 0 never does. A pipe above its
+  /// capacity is routed with `vpmc` whatever the method (the diffusion
+  /// wave has no surcharge model).
+  double diffusion_below_ponce = kDiffusionWaveMinPonce;
   GridLimits limits;
 };
 

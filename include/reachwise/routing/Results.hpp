@@ -31,6 +31,19 @@ enum class XClampCause : std::uint8_t {
 /// "flow_range"; "" for None.
 const char* xClampCauseName(XClampCause cause);
 
+
+/// The routing methods (names in outputs: run::methodName).
+enum class Method {
+  VariableParameter,  ///< `vpmc`: c, T, C, D recomputed in every cell (Ponce & Yevjevich 1978)
+  ConstantParameter,  ///< `mc`: one reference flow per reach for the whole event (Cunge 1969)
+  Muskingum,          ///< `muskingum`: the reach's own K and X (McCarthy 1938)
+  DiffusionWave,      ///< `diffusion`: the zero-inertia equations solved implicitly (docs/methods.md §6)
+};
+
+/// A method's name in outputs, on the command line and in run files:
+/// "vpmc", "mc", "muskingum", "diffusion".
+const char* methodName(Method method);
+
 /// The Ponce number below which the diffusion-wave approximation fails
 /// (Ponce, Li & Simons 1978, *J. Hydraulics Div. ASCE* 104: 30 for the
 /// diffusion wave, 171 for the kinematic; from memory).
@@ -56,6 +69,9 @@ struct ReachNumerics {
   /// not hold, and the Cunge methods measured far off the references
   /// (docs/methods.md, "Where the diffusion wave fails").
   double ponce_number = kNaN;
+  /// The method that routed the reach: the one asked for, or `diffusion`
+  /// where `vpmc` handed a flat reach over (RouteOptions::diffusion_below_ponce).
+  Method method = Method::VariableParameter;
   std::uint64_t negative_clamps = 0;   ///< cells where a negative flow was clamped to 0
   std::uint64_t x_clamps = 0;          ///< cells where D > 1 + C was lowered to 1 + C (X raised to −C/2)
   std::uint64_t surcharge_cells = 0;   ///< cells above a pipe's capacity

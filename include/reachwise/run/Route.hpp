@@ -32,7 +32,8 @@ namespace reachwise::run {
 /// The caution every output and summary carries.
 using io::kResultsCaution;
 
-/// The method names of the command line and run files: `vpmc`, `mc`, `muskingum`.
+/// The method names of the command line and run files: `vpmc`, `mc`,
+/// `muskingum`, `diffusion` (routing::methodName).
 std::string_view methodName(routing::Method method);
 /// Every method name, the default (`vpmc`) first.
 std::vector<std::string> methodNames();
@@ -43,6 +44,9 @@ struct RouteRequest {
   NetworkSource network;
   ForcingFiles forcing;
   routing::Method method = routing::Method::VariableParameter;
+  /// `vpmc` hands reaches with a Ponce number below this to the diffusion
+  /// wave (routing::RouteOptions::diffusion_below_ponce); 0: never.
+  double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;              ///< worker threads; 0 = all cores
   OutputRequest outputs;
   /// How the run was asked for, recorded in run_info and the NetCDF

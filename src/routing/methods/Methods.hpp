@@ -20,6 +20,7 @@ using SetUp = void (*)(RouteContext& ctx);
 void muskingum(RouteContext& ctx);      ///< Muskingum.cpp
 void constantCunge(RouteContext& ctx);  ///< ConstantCunge.cpp
 void variableCunge(RouteContext& ctx);  ///< VariableCunge.cpp
+void diffusionWave(RouteContext& ctx);  ///< DiffusionWave.cpp
 
 /// The set-up of `method` (a method without one does not compile: -Wswitch).
 inline SetUp setUpFor(Method method) {
@@ -27,6 +28,7 @@ inline SetUp setUpFor(Method method) {
     case Method::Muskingum: return muskingum;
     case Method::ConstantParameter: return constantCunge;
     case Method::VariableParameter: return variableCunge;
+    case Method::DiffusionWave: return diffusionWave;
   }
   throw InternalError("a routing method without a set-up");
 }
