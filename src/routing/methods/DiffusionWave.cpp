@@ -37,16 +37,21 @@ namespace reachwise::routing::methods {
 namespace {
 
 constexpr double kTheta = 0.55;  // see the file comment
+/// Newton stops once no depth moves by more than this (m): convergence is
+/// quadratic, so the residual left is of the order of its square.
+constexpr double kDepthTolerance = 1e-6;
 constexpr int kMaxNewton = 30;
 /// The buffer past x = L: kBufferLengths diffusion lengths at the largest
 /// flow (what happens downstream reaches back about one ℓ), cells growing by
 /// kBufferGrowth; sub-steps keep the Courant number at the fastest
 /// celerity at most kCourant (the θ scheme is unconditionally stable). Chosen
-/// on the accuracy matrix and the 100k-reach benchmark: 8, 1.2 and 2 gave
-/// the same matrix results (worst 0.56 % in peak, 1.9 % of the travel time
-/// against the diffusion-wave reference) at 2.4 times the run time of these
-/// (docs/methods.md §6).
-constexpr double kBufferLengths = 5, kBufferGrowth = 1.5, kCourant = 4;
+/// on the accuracy matrix and the 100k-reach synthetic run (docs/methods.md
+/// §6): every choice below met every target on the matrix; the run took
+/// 45.7 s with 8 ℓ, 1.2 and 2, 24.7 s with 5 ℓ, 1.5 and 4, 20.4 s with
+/// these (19.4 s with no reach handed over), whose worst matrix row is
+/// 0.65 % in peak and 3.4 % of the travel time from the diffusion-wave
+/// reference (0.56 % and 1.9 % with 5 ℓ, 1.5 and 4).
+constexpr double kBufferLengths = 4, kBufferGrowth = 2, kCourant = 8;
 
 /// The grid: cells over the reach and the buffer past it, sub-steps.
 struct DiffusionGrid {
@@ -158,7 +163,7 @@ void diffusionWave(RouteContext& ctx) {
   // Initial state: steady flow of the first sample, lateral inflow
   // accumulating along the reach (and carried on through the buffer).
   const double in0 = ctx.inflow[0], lat0 = ctx.lateral.empty() ? 0.0 : ctx.lateral[0];
-  std::vector<double> y(n), area_old(n), flux_old(n + 1), res(n), lo(n), di(n), up(n);
+  std::vector<double> y(n), y_prev(n), area_old(n), flux_old(n + 1), res(n), lo(n), di(n), up(n);
   {
     double x = 0;
     for (std::size_t i = 0; i < n; ++i) {
@@ -229,7 +234,7 @@ void diffusionWave(RouteContext& ctx) {
         y[i] = std::max(y[i] - d, 1e-6);
         largest = std::max(largest, std::abs(d));
       }
-      converged = largest < 1e-8;
+      converged = largest < kDepthTolerance;
     }
   };
   evaluate(in0);
@@ -243,6 +248,7 @@ void diffusionWave(RouteContext& ctx) {
       if (moved < 1e-9) break;
     }
   }
+  y_prev = y;
   ctx.storage_start_m3 = storage();
   ctx.q.assign(1, 0.0);
 
@@ -262,9 +268,15 @@ void diffusionWave(RouteContext& ctx) {
       }
       // Newton on R_i = dx_i (A(y_i) − A_old_i) − dts [θ (F_i − F_{i+1}) +
       // (1 − θ)(F_old_i − F_old_{i+1}) + q_L dx_i (reach cells)], stopping
-      // once a Newton step moves no depth by more than 1e-8 m (quadratic
-      // convergence: the residual is then at round-off); the fluxes of the
-      // last evaluation are those of the final depths.
+      // once a Newton step moves no depth by more than kDepthTolerance; the
+      // fluxes of the last evaluation are those of the final depths.
+      // Newton starts from the depths extrapolated from the last two
+      // sub-steps (held to half their change's size below zero).
+      for (std::size_t i = 0; i < n; ++i) {
+        const double now = y[i];
+        y[i] = std::max(now + (now - y_prev[i]), 0.5 * now);
+        y_prev[i] = now;
+      }
       solveStep(in1, lat, dts);
       tot.out += dts * (kTheta * flux[m] + (1 - kTheta) * flux_old[m]);
       tot.in += dts * (kTheta * flux[0] + (1 - kTheta) * flux_old[0]);
