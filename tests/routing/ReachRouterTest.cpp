@@ -422,3 +422,28 @@ TEST(Peak, RiseStartsAfterTheSteadyBaseFlow) {
   const std::vector<double> q = {5, 5, 5, 5, 6, 8, 11, 9, 7};
   EXPECT_EQ(riseSamples(q), 3.0);
 }
+
+// `diffusion` (docs/methods.md §6): steady inflow and lateral inflow stay
+// steady (the initial state is the scheme's own steady state), and with a
+// flood over it the reach's volume balances: each cell's storage changes
+// by exactly its face fluxes, so in + lateral − out − Δstorage is the
+// Newton tolerance's residue (continuity; common practice).
+TEST(ReachRouter, DiffusionWaveSteadyAndConservative) {
+  const Section s = Section::trapezoid(20, 2, 0.035, 0.0001);
+  const double dt = 1800;
+  RouteOptions opt;
+  opt.method = Method::DiffusionWave;
+  ReachRouter router;
+  std::vector<double> out;
+  const std::vector<double> steady(100, 20.0), lateral(100, 5.0);
+  const ReachRun still = router.route({s, 15000}, steady, lateral, dt, opt, out);
+  EXPECT_EQ(still.numerics.method, Method::DiffusionWave);
+  for (double q : out) EXPECT_NEAR(q, 25.0, 1e-6);
+
+  const std::vector<double> flood = pulse(20, 80, 12 * 3600, dt, 200);
+  const ReachRun run = router.route({s, 15000}, flood, std::vector<double>(200, 5.0), dt, opt, out);
+  const VolumeBalance& v = run.volume;
+  EXPECT_NEAR(v.inflow_m3 + v.lateral_m3 - v.outflow_m3 - v.storage_change_m3, 0.0, 1e-8 * (v.inflow_m3 + v.lateral_m3));
+  EXPECT_LT(findPeak(out).value, 105.0);  // attenuated below inflow peak + lateral
+  EXPECT_GT(findPeak(out).index, findPeak(flood).index);  // and later
+}
