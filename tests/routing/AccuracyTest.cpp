@@ -35,11 +35,21 @@ using namespace testsupport::accuracy;
 
 namespace {
 
-std::vector<Case> validCases() {
-  std::vector<Case> valid;
-  for (const Case& c : matrixCases())
-    if (c.diffusionWaveValid()) valid.push_back(c);
-  return valid;
+/// Parameterised tests over matrix cases are named by them.
+std::string caseName(const ::testing::TestParamInfo<Case>& info) { return info.param.name(); }
+
+/// Every target met, or the ones missed named.
+void expectTargets(const Case& c, const Figures& f) {
+  std::string missed;
+  for (const std::string& m : missedTargets(c, f)) missed += m + "; ";
+  EXPECT_TRUE(missed.empty()) << c.name() << ": " << missed;
+}
+
+/// The method the default options route the case's inflow with.
+Method defaultMethodFor(const Case& c, const std::vector<double>& inflow) {
+  std::vector<double> out;
+  ReachRouter router;
+  return router.route({c.section, c.length_m}, inflow, {}, kDt, RouteOptions{}, out).numerics.method;
 }
 
 class VariableCungeAccuracy : public ::testing::TestWithParam<Case> {};
@@ -53,20 +63,15 @@ TEST_P(VariableCungeAccuracy, MeetsTargetsAgainstDiffusionWave) {
   refinement.min_levels = 2;
   const Reference r = solveReference(c, refinement);
   ASSERT_TRUE(r.run.converged) << c.name();
-  const Figures f = measure(c, r, RouteOptions{});  // the default method: vpmc, three-point
-  // ... which routes these rows itself (Ponce number >= 30: no hand-over).
-  std::vector<double> out;
-  ReachRouter router;
-  EXPECT_EQ(router.route({c.section, c.length_m}, r.inflow, {}, kDt, RouteOptions{}, out).numerics.method,
-            Method::VariableParameter);
-  const std::vector<std::string> missed = missedTargets(c, f);
-  std::string what;
-  for (const std::string& m : missed) what += m + "; ";
-  EXPECT_TRUE(missed.empty()) << c.name() << ": " << what;
+  // The default method, vpmc, three-point, which routes these rows itself
+  // (Ponce number >= 30: no hand-over).
+  EXPECT_EQ(defaultMethodFor(c, r.inflow), Method::VariableParameter);
+  expectTargets(c, measure(c, r, RouteOptions{}));
 }
 
-INSTANTIATE_TEST_SUITE_P(Matrix, VariableCungeAccuracy, ::testing::ValuesIn(validCases()),
-                         [](const ::testing::TestParamInfo<Case>& info) { return info.param.name(); });
+INSTANTIATE_TEST_SUITE_P(Matrix, VariableCungeAccuracy,
+                         ::testing::ValuesIn(matrixCasesWhere([](const Case& c) { return c.diffusionWaveValid(); })),
+                         caseName);
 
 // ---------------------------------------------------------------------------
 // `mc` on mild short reaches (S0 = 0.0002, 5 and 20 km, rectangle and
@@ -78,13 +83,6 @@ INSTANTIATE_TEST_SUITE_P(Matrix, VariableCungeAccuracy, ::testing::ValuesIn(vali
 // 10 % of the travel time; X clamped to 0 had put it 11 % late on the
 // 5 km trapezoid and 3.3 % low on the 20 km one.
 namespace {
-
-std::vector<Case> mildShortCases() {
-  std::vector<Case> mild;
-  for (const Case& c : matrixCases())
-    if (c.slope == 0.0002 && c.length_m <= 20000 && std::string(c.section_name) != "two-stage") mild.push_back(c);
-  return mild;
-}
 
 class ConstantCungeAccuracy : public ::testing::TestWithParam<Case> {};
 
@@ -109,8 +107,10 @@ TEST_P(ConstantCungeAccuracy, MildShortReachAgainstHayami) {
   EXPECT_LE(std::abs(100 * (t - t_exact) / (t_exact - t_in)), 10.0);
 }
 
-INSTANTIATE_TEST_SUITE_P(Matrix, ConstantCungeAccuracy, ::testing::ValuesIn(mildShortCases()),
-                         [](const ::testing::TestParamInfo<Case>& info) { return info.param.name(); });
+INSTANTIATE_TEST_SUITE_P(Matrix, ConstantCungeAccuracy, ::testing::ValuesIn(matrixCasesWhere([](const Case& c) {
+                           return c.slope == 0.0002 && c.length_m <= 20000 && std::string(c.section_name) != "two-stage";
+                         })),
+                         caseName);
 
 // ---------------------------------------------------------------------------
 // `diffusion` (the zero-inertia equations solved implicitly; docs/methods.md
@@ -125,13 +125,6 @@ INSTANTIATE_TEST_SUITE_P(Matrix, ConstantCungeAccuracy, ::testing::ValuesIn(mild
 // targets.
 namespace {
 
-std::vector<Case> lowPonceCases() {
-  std::vector<Case> low;
-  for (const Case& c : matrixCases())
-    if (!c.diffusionWaveValid()) low.push_back(c);
-  return low;
-}
-
 class DiffusionWaveAccuracy : public ::testing::TestWithParam<Case> {};
 
 }  // namespace
@@ -139,34 +132,23 @@ class DiffusionWaveAccuracy : public ::testing::TestWithParam<Case> {};
 TEST_P(DiffusionWaveAccuracy, MeetsTargetsAgainstSaintVenant) {
   const Case& c = GetParam();
   ref::Refinement refinement{.tolerance = 2e-3, .min_levels = 2, .theta = 0.6, .halve_theta_excess = true};
-  // The window: long enough for 99 % of the event to leave the reach (as
-  // solveReference finds it, on the cheapest diffusion-wave grid).
-  Reference r;
-  r.window_s = c.firstWindow();
-  for (int attempt = 0;; ++attempt, r.window_s *= 2) {
-    r.inflow = c.inflow(r.window_s);
-    r.run = {};
-    const ref::ConvergedSaintVenant sv = ref::convergeSaintVenant(c.section, c.length_m, r.inflow, kDt, c.rise_s, refinement);
-    ASSERT_TRUE(sv.converged) << c.name();
-    r.run.run.outflow_m3s = sv.run.outflow_m3s;
-    r.run.run.outflow_m3 = sv.run.outflow_m3;
-    r.setEvents(c);
-    if (r.ref_event_m3 >= 0.99 * r.in_event_m3 || attempt == 3) break;
-  }
+  const Reference r = solveWith(c, [&](const std::vector<double>& inflow) {
+    const ref::ConvergedSaintVenant sv = ref::convergeSaintVenant(c.section, c.length_m, inflow, kDt, c.rise_s, refinement);
+    ref::ConvergedRun run;  // what the figures read of it
+    run.converged = sv.converged;
+    run.run.outflow_m3s = sv.run.outflow_m3s;
+    run.run.outflow_m3 = sv.run.outflow_m3;
+    return run;
+  });
+  ASSERT_TRUE(r.run.converged) << c.name();
   // The default (vpmc) hands these rows to the diffusion wave, so this is
   // what a default run gives on them.
-  std::vector<double> out;
-  ReachRouter router;
-  EXPECT_EQ(router.route({c.section, c.length_m}, r.inflow, {}, kDt, RouteOptions{}, out).numerics.method,
-            Method::DiffusionWave);
+  EXPECT_EQ(defaultMethodFor(c, r.inflow), Method::DiffusionWave);
   RouteOptions options;
   options.method = Method::DiffusionWave;
-  const Figures f = measure(c, r, options);
-  const std::vector<std::string> missed = missedTargets(c, f);
-  std::string what;
-  for (const std::string& m : missed) what += m + "; ";
-  EXPECT_TRUE(missed.empty()) << c.name() << ": " << what;
+  expectTargets(c, measure(c, r, options));
 }
 
-INSTANTIATE_TEST_SUITE_P(Matrix, DiffusionWaveAccuracy, ::testing::ValuesIn(lowPonceCases()),
-                         [](const ::testing::TestParamInfo<Case>& info) { return info.param.name(); });
+INSTANTIATE_TEST_SUITE_P(Matrix, DiffusionWaveAccuracy,
+                         ::testing::ValuesIn(matrixCasesWhere([](const Case& c) { return !c.diffusionWaveValid(); })),
+                         caseName);

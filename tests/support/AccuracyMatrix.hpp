@@ -116,18 +116,35 @@ struct Reference {
   }
 };
 
-/// Solves the reference for a case, doubling the window (up to three times)
-/// while less than 99 % of the event volume has left the reach (flat
-/// reaches spread the wave).
-inline Reference solveReference(const Case& c, const ref::Refinement& refinement = {}) {
+/// Solves a reference for a case with `solve(inflow)` (a ref::ConvergedRun),
+/// doubling the window (up to three times) while less than 99 % of the
+/// event volume has left the reach (flat reaches spread the wave).
+template <class Solve>
+Reference solveWith(const Case& c, Solve solve) {
   Reference r;
   r.window_s = c.firstWindow();
   for (int attempt = 0;; ++attempt, r.window_s *= 2) {
     r.inflow = c.inflow(r.window_s);
-    r.run = ref::convergeDiffusionWave(c.section, c.length_m, r.inflow, kDt, c.rise_s, refinement);
+    r.run = solve(r.inflow);
     r.setEvents(c);
     if (r.ref_event_m3 >= 0.99 * r.in_event_m3 || attempt == 3) return r;
   }
+}
+
+/// The diffusion-wave reference of a case.
+inline Reference solveReference(const Case& c, const ref::Refinement& refinement = {}) {
+  return solveWith(c, [&](const std::vector<double>& inflow) {
+    return ref::convergeDiffusionWave(c.section, c.length_m, inflow, kDt, c.rise_s, refinement);
+  });
+}
+
+/// The cases of the matrix for which `keep(case)` holds.
+template <class Keep>
+std::vector<Case> matrixCasesWhere(Keep keep) {
+  std::vector<Case> kept;
+  for (const Case& c : matrixCases())
+    if (keep(c)) kept.push_back(c);
+  return kept;
 }
 
 /// A method's errors against the reference (docs/methods.md defines them).
