@@ -163,6 +163,10 @@ BENCHMARK_CAPTURE(routeKernel, vpmc_four_point_table, Method::VariableParameter,
     ->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(routeKernel, vpmc_three_point_direct_solve, Method::VariableParameter, Scheme::ThreePoint, false)
     ->Unit(benchmark::kMillisecond);
+// The implicit diffusion-wave solver; its cell count is the reach's cells
+// (the buffer past the reach, solved too, is not counted).
+BENCHMARK_CAPTURE(routeKernel, diffusion, Method::DiffusionWave, Scheme::ThreePoint, true)
+    ->Unit(benchmark::kMillisecond);
 
 BENCHMARK(ratingTableBuild)->Unit(benchmark::kMicrosecond);
 BENCHMARK_CAPTURE(routeShortReaches, vpmc_2km_reaches, Method::VariableParameter)
@@ -170,6 +174,8 @@ BENCHMARK_CAPTURE(routeShortReaches, vpmc_2km_reaches, Method::VariableParameter
 BENCHMARK_CAPTURE(routeShortReaches, mc_2km_reaches, Method::ConstantParameter)
     ->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(routeShortReaches, muskingum_2km_reaches, Method::Muskingum)
+    ->Unit(benchmark::kMillisecond);
+BENCHMARK_CAPTURE(routeShortReaches, diffusion_2km_reaches, Method::DiffusionWave)
     ->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(shortReachTables, router_range, false)->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(shortReachTables, five_decades, true)->Unit(benchmark::kMillisecond);

@@ -185,7 +185,8 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
   sub->add_option("--config", o->config,
                   "TOML run file: field mappings and defaults ([network]), any of these options ([route])");
-  sub->add_option("--method", o->method, "vpmc (default), mc, muskingum or diffusion")
+  sub->add_option("--method", o->method,
+                  "vpmc (default), mc, muskingum or diffusion (slow on steep reaches; vpmc already uses it on flat ones)")
       ->check(CLI::IsMember(run::methodNames()));
   sub->add_option("--diffusion-below", o->diffusion_below,
                   "vpmc routes reaches whose Ponce number is below this with the diffusion wave (default 30; 0: never)")
