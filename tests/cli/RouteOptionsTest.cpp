@@ -80,6 +80,9 @@ TEST(RouteOptions, ErrorsGiveExitCodesAndOneLinePerProblem) {
   EXPECT_FALSE(fs::exists(tmp.file("b.gpkg")));
   // An unknown method is a usage error.
   EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("m.gpkg") + " --method kinematic").code, 2);
+  // So is a negative Ponce number for the diffusion hand-over.
+  EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("d.gpkg") + " --diffusion-below -1").code, 2);
+  EXPECT_FALSE(fs::exists(tmp.file("d.gpkg")));
   // A network with errors: each error on its own line, then the refusal.
   const Outcome cycle = run("route " + kSample + "cycle.gpkg" + kStorm + " --out " + tmp.file("c.gpkg"));
   EXPECT_EQ(cycle.code, 1);
