@@ -226,10 +226,11 @@ int main(int argc, char** argv) {
     cycle[0].to = "R3";
     write(out / "cycle.gpkg", cycle, {});
 
-    // gap.gpkg: no to_reach field, and the first tributary stops 2 m short of its confluence.
+    // gap.gpkg: no to_reach field, and the first tributary stops 20 m short of its confluence
+    // (beyond the 5 m default snap tolerance, within the 50 m gap search).
     auto gap = net;
     for (auto& r : gap)
-      if (r.id == "R13") r.line.back().x += 2.0;
+      if (r.id == "R13") r.line.back().x += 20.0;
     write(out / "gap.gpkg", gap, {false, true});
 
     write(out / "missing_field.gpkg", net, {true, false});

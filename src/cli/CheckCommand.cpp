@@ -30,7 +30,8 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
   fmt::print(out, "network        {} (layer {})\n", table.source, table.layer);
   fmt::print(out, "features       {} read, {} left out\n", read.features, read.skipped);
   fmt::print(out, "topology       {}\n",
-             read.topology_from_geometry ? fmt::format("from line ends (snap {})", read.snap_tolerance)
+             read.topology_from_geometry ? fmt::format("from line ends (snap {:g} m, gap search {:g} m)",
+                                                     read.snap_tolerance_m, read.gap_search_m)
                                          : std::string("from to_reach"));
   fmt::print(out, "reaches        {}\n", s.reaches);
   fmt::print(out, "headwaters     {}\n", s.headwaters);

@@ -2,6 +2,7 @@
 
 #include <toml++/toml.h>
 
+#include <cmath>
 
 #include "RunFile.hpp"
 #include "reachwise/Error.hpp"
@@ -109,8 +110,17 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
     } else if (name == "topology") {
       cfg.topology = parseTopology(requireString(v, o, key), o);
     } else if (name == "snap_tolerance") {
-      cfg.snap_tolerance = requireNumber(v, o, key);
-      if (!(*cfg.snap_tolerance >= 0)) throw configError(o, key, "must be zero or positive");
+      throw configError(o, key,
+                        "was replaced by network.snap_tolerance_m, a distance in metres on any "
+                        "CRS (the old key was in CRS units)");
+    } else if (name == "snap_tolerance_m") {
+      cfg.snap_tolerance_m = requireNumber(v, o, key);
+      if (!(cfg.snap_tolerance_m >= 0) || !std::isfinite(cfg.snap_tolerance_m))
+        throw configError(o, key, "must be zero or positive (metres)");
+    } else if (name == "gap_search_m") {
+      cfg.gap_search_m = requireNumber(v, o, key);
+      if (!(*cfg.gap_search_m >= 0) || !std::isfinite(*cfg.gap_search_m))
+        throw configError(o, key, "must be zero or positive (metres)");
     } else if (name == "orientation") {
       cfg.orientation = parseOrientation(requireString(v, o, key), o);
     } else if (name == "outlets") {

@@ -92,16 +92,21 @@ OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const std::str
   throw InputError(where, fmt::format("no line layer; layers: {}", joined(all)));
 }
 
-/// Length measure for the layer's CRS.
+/// Length measure for the layer's CRS; `metric` receives the same CRS
+/// description for the topology's distances.
 LineLength lengthMeasure(const OGRLayer& layer, const NetworkConfig& config,
-                         const InputLocation& where, ReachTable& table) {
+                         const InputLocation& where, ReachTable& table,
+                         network::geos::CrsMetric& metric) {
   const OGRSpatialReference* srs = const_cast<OGRLayer&>(layer).GetSpatialRef();
   // GeoPackage stands in "Undefined geographic SRS" / "Undefined Cartesian
   // SRS" (srs_id 0 / -1) for a missing CRS; they state no unit.
   const std::string name = srs && srs->GetName() ? srs->GetName() : "";
   if (name.rfind("Undefined ", 0) == 0) srs = nullptr;
   if (!srs) {
-    if (config.length_unit_m) return LineLength::planar(*config.length_unit_m);
+    if (config.length_unit_m) {
+      metric.metres_per_unit = *config.length_unit_m;
+      return LineLength::planar(*config.length_unit_m);
+    }
     throw InputError(where, "the layer has no coordinate reference system; set network.length_unit "
                             "in the config to state the coordinate unit");
   }
@@ -109,7 +114,11 @@ LineLength lengthMeasure(const OGRLayer& layer, const NetworkConfig& config,
   srs->exportToWkt(&wkt);
   table.crs_wkt = wkt ? wkt : "";
   CPLFree(wkt);
-  if (!srs->IsGeographic()) return LineLength::planar(srs->GetLinearUnits(nullptr));
+  if (!srs->IsGeographic()) {
+    // Metres per CRS unit (0.3048 for a foot CRS, 1200/3937 for a US survey foot one).
+    metric.metres_per_unit = srs->GetLinearUnits(nullptr);
+    return LineLength::planar(metric.metres_per_unit);
+  }
   table.geographic = true;
   OGRErr err = OGRERR_NONE;
   const double a = srs->GetSemiMajor(&err);
@@ -125,6 +134,11 @@ LineLength lengthMeasure(const OGRLayer& layer, const NetworkConfig& config,
   const bool lat_first = orient == OAO_North || orient == OAO_South;
   if (!(a > 0) || !(f >= 0 && f < 1) || !(deg > 0))
     throw InputError(where, "the geographic CRS has no usable ellipsoid or angular unit");
+  metric.geographic = true;
+  metric.a_m = a;
+  metric.f = f;
+  metric.degrees_per_unit = deg;
+  metric.lat_first = lat_first;
   return LineLength::geodesic(a, f, deg, lat_first);
 }
 
@@ -258,7 +272,8 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
   InputLocation where;
   where.file = source;
   where.layer = table.layer;
-  const LineLength measure = lengthMeasure(*layer, config, where, table);
+  network::geos::CrsMetric metric;
+  const LineLength measure = lengthMeasure(*layer, config, where, table, metric);
   const detail::ReachAttributes attrs(*layer->GetLayerDefn(), config, where);
   ReadSummary summary;
   readFeatures(*layer, attrs, measure, table, problems, summary);
@@ -269,11 +284,15 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
   table.has_to_reach = attrs.hasField("to_reach");
   if (useGeometryTopology(config, table.has_to_reach, where)) {
     network::geos::TopologyOptions topo;
-    topo.snap_tolerance = config.snap_tolerance.value_or(0.5 / measure.metresPerUnit());
+    topo.snap_tolerance_m = config.snap_tolerance_m;
+    topo.gap_search_m = config.gap_search_m.value_or(10.0 * config.snap_tolerance_m);
+    topo.crs = metric;
+    topo.line_length_m = [&measure](const std::vector<Point3>& line) { return measure(line); };
     topo.orientation = config.orientation;
     topo.outlets = config.outlets;
     summary.topology_from_geometry = true;
-    summary.snap_tolerance = topo.snap_tolerance;
+    summary.snap_tolerance_m = topo.snap_tolerance_m;
+    summary.gap_search_m = topo.gap_search_m;
     summary.topology = network::geos::buildTopologyFromGeometry(table, topo, problems);
   }
   if (summary_out) *summary_out = summary;

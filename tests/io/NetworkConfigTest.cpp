@@ -13,7 +13,8 @@ TEST(NetworkConfig, DefaultsUseTheDocumentedFieldNames) {
   for (auto name : io::kFieldNames) EXPECT_EQ(cfg.field(name).name, name);
   EXPECT_EQ(cfg.units, units::System::SI);
   EXPECT_EQ(cfg.topology, io::TopologySource::Auto);
-  EXPECT_FALSE(cfg.snap_tolerance.has_value());
+  EXPECT_DOUBLE_EQ(cfg.snap_tolerance_m, 5.0);  // metres, the documented default
+  EXPECT_FALSE(cfg.gap_search_m.has_value());    // 10 x the tolerance
   EXPECT_THROW(cfg.field("colour"), InternalError);
 }
 
@@ -24,7 +25,8 @@ layer = "streams"
 units = "us"
 length_unit = "us_ft"
 topology = "geometry"
-snap_tolerance = 1.5
+snap_tolerance_m = 1.5
+gap_search_m = 40
 orientation = "outlets"
 outlets = ["R1", 77]
 
@@ -43,7 +45,8 @@ method = "vpmc"   # other tables belong to other parts of the program
   // US survey foot = 1200/3937 m (its definition).
   EXPECT_DOUBLE_EQ(*cfg.length_unit_m, 1200.0 / 3937.0);
   EXPECT_EQ(cfg.topology, io::TopologySource::Geometry);
-  EXPECT_DOUBLE_EQ(*cfg.snap_tolerance, 1.5);
+  EXPECT_DOUBLE_EQ(cfg.snap_tolerance_m, 1.5);
+  EXPECT_DOUBLE_EQ(*cfg.gap_search_m, 40.0);
   EXPECT_EQ(cfg.orientation, io::Orientation::Outlets);
   ASSERT_EQ(cfg.outlets.size(), 2u);
   EXPECT_EQ(cfg.outlets[1], "77");
@@ -67,8 +70,10 @@ TEST(NetworkConfig, MistakesAreInputErrorsNamingTheKey) {
   };
   fails_at("[network]\nunits = \"imperial\"\n", "network.units");
   fails_at("[network]\nsnap_tolrance = 1\n", "network.snap_tolrance");
-  fails_at("[network]\nsnap_tolerance = -1\n", "network.snap_tolerance");
-  fails_at("[network]\nsnap_tolerance = \"big\"\n", "network.snap_tolerance");
+  fails_at("[network]\nsnap_tolerance = 0.5\n", "network.snap_tolerance");  // replaced key
+  fails_at("[network]\nsnap_tolerance_m = -1\n", "network.snap_tolerance_m");
+  fails_at("[network]\nsnap_tolerance_m = \"big\"\n", "network.snap_tolerance_m");
+  fails_at("[network]\ngap_search_m = -3\n", "network.gap_search_m");
   fails_at("[network]\nlength_unit = \"furlong\"\n", "network.length_unit");
   fails_at("[network]\ntopology = \"magic\"\n", "network.topology");
   fails_at("[network]\norientation = \"north\"\n", "network.orientation");

@@ -34,7 +34,8 @@ TEST(NetworkReaderTopology, GeometryGivesTheSameLinksAsTheIds) {
   const auto geom =
       io::readNetwork(kSample + "network.gpkg", opt, from_geometry_problems, &summary);
   EXPECT_TRUE(summary.topology_from_geometry);
-  EXPECT_DOUBLE_EQ(summary.snap_tolerance, 0.5);  // 0.5 m in a metre-based CRS
+  EXPECT_DOUBLE_EQ(summary.snap_tolerance_m, 5.0);  // the default, in metres
+  EXPECT_DOUBLE_EQ(summary.gap_search_m, 50.0);     // 10 x the tolerance
   EXPECT_EQ(summary.topology.splits, 0u);
   EXPECT_EQ(summary.topology.probable_gaps, 0u);
   EXPECT_TRUE(from_geometry_problems.empty());

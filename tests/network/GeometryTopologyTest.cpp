@@ -46,7 +46,7 @@ std::string down(const std::map<std::string, ReachRecord>& m, const std::string&
 TEST(GeometryTopology, TributaryJoiningMidLineSplitsTheMainLine) {
   ReachTable t;
   t.reaches = {line("A", {{0, 0}, {2000, 0}}, 2000),
-               // Ends 0.2 m short of A's interior, within the 0.5 m tolerance.
+               // Ends 0.2 m short of A's interior, within the 5 m default tolerance.
                line("B", {{1000, 800}, {1000, 0.2}}, 799.8)};
   ProblemList ps;
   const auto s = geos::buildTopologyFromGeometry(t, {}, ps);
@@ -70,8 +70,8 @@ TEST(GeometryTopology, TributaryJoiningMidLineSplitsTheMainLine) {
 TEST(GeometryTopology, EndsWithinTheToleranceSnapAndGapsBeyondAreReported) {
   ReachTable t;
   t.reaches = {line("down", {{0, 0}, {0, -1000}}),
-               line("near", {{-500, 500}, {-0.3, 0.1}}),   // 0.32 m off: snapped
-               line("far", {{500, 500}, {2.0, 0.0}})};     // 2 m off: a probable gap
+               line("near", {{-500, 500}, {-3.0, 1.0}}),   // 3.2 m off: snapped (5 m default)
+               line("far", {{500, 500}, {20.0, 0.0}})};    // 20 m off: a probable gap (search 50 m)
   ProblemList ps;
   const auto s = geos::buildTopologyFromGeometry(t, {}, ps);
   auto m = byId(t);
@@ -83,7 +83,7 @@ TEST(GeometryTopology, EndsWithinTheToleranceSnapAndGapsBeyondAreReported) {
   for (const auto& p : ps) {
     if (p.code != ProblemCode::ProbableGap) continue;
     EXPECT_EQ(p.reach_id, "far");
-    EXPECT_DOUBLE_EQ(p.x, 2.0);
+    EXPECT_DOUBLE_EQ(p.x, 20.0);
     EXPECT_DOUBLE_EQ(p.y, 0.0);
   }
 }
@@ -171,6 +171,9 @@ TEST(GeometryTopology, DegenerateRecordsAreLeftOut) {
   EXPECT_EQ(s.nodes, 2u);
   EXPECT_FALSE(t.reaches[0].to_reach.has_value());
   TopologyOptions bad;
-  bad.snap_tolerance = -1;
+  bad.snap_tolerance_m = -1;
   EXPECT_THROW(geos::buildTopologyFromGeometry(t, bad, ps), reachwise::InvalidParameter);
+  TopologyOptions bad_search;
+  bad_search.gap_search_m = -1;
+  EXPECT_THROW(geos::buildTopologyFromGeometry(t, bad_search, ps), reachwise::InvalidParameter);
 }

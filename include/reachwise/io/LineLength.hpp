@@ -26,7 +26,8 @@ public:
 
   bool isGeodesic() const noexcept { return geodesic_; }
   /// Metres per CRS unit (planar), or a nominal 111 320 m per degree
-  /// (geodesic; 1/360 of the equator, used only to express tolerances).
+  /// (geodesic; 1/360 of the equator). Tolerances do not use it: they are
+  /// measured at each line end's latitude (network::geos::CrsMetric).
   double metresPerUnit() const noexcept;
 
 private:

@@ -42,8 +42,12 @@ struct NetworkConfig {
   /// and without this, reading is refused.
   std::optional<double> length_unit_m;
   TopologySource topology = TopologySource::Auto;
-  /// Snapping distance for line ends, in CRS units. Unset = 0.5 m expressed in CRS units.
-  std::optional<double> snap_tolerance;
+  /// Snapping distance for line ends in metres, on any CRS (`snap_tolerance_m`;
+  /// default 5 m).
+  double snap_tolerance_m = 5.0;
+  /// Radius in metres within which an unconnected end near another line is a
+  /// probable gap (`gap_search_m`); unset = 10 × snap_tolerance_m.
+  std::optional<double> gap_search_m;
   Orientation orientation = Orientation::Auto;
   std::vector<std::string> outlets;        ///< reach ids of outlets (Orientation::Outlets)
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.

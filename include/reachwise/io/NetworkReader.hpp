@@ -22,7 +22,8 @@ struct ReadSummary {
   std::size_t features = 0;        ///< features in the layer
   std::size_t skipped = 0;         ///< features left out (no usable id or geometry; see problems)
   bool topology_from_geometry = false;
-  double snap_tolerance = 0;       ///< CRS units, when topology came from geometry
+  double snap_tolerance_m = 0;     ///< metres, when topology came from geometry
+  double gap_search_m = 0;         ///< metres, when topology came from geometry
   network::geos::TopologySummary topology;
 };
 

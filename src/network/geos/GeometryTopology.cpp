@@ -1,9 +1,12 @@
 #include "reachwise/network/geos/GeometryTopology.hpp"
 
+#include <GeographicLib/Ellipsoid.hpp>
+#include <GeographicLib/Geodesic.hpp>
 #include <fmt/core.h>
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <map>
 #include <numeric>
 #include <queue>
@@ -21,6 +24,97 @@ bool usable(const ReachRecord& r) {
     if (!std::isfinite(p.x) || !std::isfinite(p.y)) return false;
   return true;
 }
+
+// ---------------------------------------------------------------- distances in metres
+
+/// The nearest point of a line to a given point.
+struct Nearest {
+  double distance_m = std::numeric_limits<double>::infinity();
+  double measure = 0;     ///< planar distance along the line in CRS units (where to cut)
+  double from_start_m = 0;  ///< metres along the line from its first vertex
+  double to_end_m = 0;      ///< metres along the line to its last vertex
+};
+
+/// Distances in metres between points and lines given in CRS coordinates.
+/// Projected CRS: planar distance × metres per unit. Geographic CRS: the
+/// coordinates around the point are scaled to metres with the ellipsoid's
+/// radii of curvature at the point's latitude (GeographicLib::Ellipsoid:
+/// metres per degree of latitude from the meridional radius, of longitude
+/// from the radius of the parallel), so a tolerance is the same number of
+/// metres in every direction. Within a few kilometres of the point this
+/// differs from the geodesic distance by less than 0.01 %; end-to-end
+/// distances are geodesics (GeographicLib::Geodesic).
+class Metric {
+public:
+  explicit Metric(const CrsMetric& c)
+      : c_(c), ellipsoid_(c.geographic ? c.a_m : 1.0, c.geographic ? c.f : 0.0),
+        geodesic_(c.geographic ? c.a_m : 1.0, c.geographic ? c.f : 0.0) {}
+
+  /// Metres per CRS unit along x and along y at p.
+  std::pair<double, double> scale(const Point3& p) const {
+    if (!c_.geographic) return {c_.metres_per_unit, c_.metres_per_unit};
+    const double lat = std::clamp((c_.lat_first ? p.x : p.y) * c_.degrees_per_unit, -90.0, 90.0);
+    const double per_deg = M_PI / 180.0 * c_.degrees_per_unit;
+    const double k_lat = ellipsoid_.MeridionalCurvatureRadius(lat) * per_deg;
+    // Near a pole a degree of longitude shrinks to nothing; bound the search box.
+    const double k_lon = std::max(ellipsoid_.CircleRadius(lat) * per_deg, 1e-3 * k_lat);
+    return c_.lat_first ? std::pair{k_lat, k_lon} : std::pair{k_lon, k_lat};
+  }
+
+  /// Half-width in CRS units of a box holding every point within d_m of p.
+  double searchRadius(const Point3& p, double d_m) const {
+    const auto [kx, ky] = scale(p);
+    return d_m / std::min(kx, ky) * (c_.geographic ? 1.01 : 1.0);
+  }
+
+  double pointDistance(const Point3& p, const Point3& q) const {
+    if (!c_.geographic) return std::hypot(p.x - q.x, p.y - q.y) * c_.metres_per_unit;
+    auto lat = [this](const Point3& a) { return (c_.lat_first ? a.x : a.y) * c_.degrees_per_unit; };
+    auto lon = [this](const Point3& a) { return (c_.lat_first ? a.y : a.x) * c_.degrees_per_unit; };
+    double s12 = 0;
+    geodesic_.Inverse(lat(p), lon(p), lat(q), lon(q), s12);
+    return s12;
+  }
+
+  /// The point of `line` nearest to p (metres in the frame scaled at p).
+  Nearest nearest(const std::vector<Point3>& line, const Point3& p) const {
+    const auto [kx, ky] = scale(p);
+    Nearest best;
+    double measure = 0, along_m = 0;
+    for (std::size_t i = 1; i < line.size(); ++i) {
+      const double ax = (line[i - 1].x - p.x) * kx, ay = (line[i - 1].y - p.y) * ky;
+      const double bx = (line[i].x - p.x) * kx, by = (line[i].y - p.y) * ky;
+      const double dx = bx - ax, dy = by - ay;
+      const double seg2 = dx * dx + dy * dy;
+      const double t = seg2 > 0 ? std::clamp(-(ax * dx + ay * dy) / seg2, 0.0, 1.0) : 0.0;
+      const double d = std::hypot(ax + t * dx, ay + t * dy);
+      const double seg_m = std::sqrt(seg2);
+      const double seg_units = std::hypot(line[i].x - line[i - 1].x, line[i].y - line[i - 1].y);
+      if (d < best.distance_m) {
+        best.distance_m = d;
+        best.measure = measure + t * seg_units;
+        best.from_start_m = along_m + t * seg_m;
+      }
+      measure += seg_units;
+      along_m += seg_m;
+    }
+    // Far from p the scale is p's, but these are only compared with a
+    // tolerance, which matters only near p.
+    best.to_end_m = along_m - best.from_start_m;
+    return best;
+  }
+
+  double lineLength(const std::vector<Point3>& line) const {
+    double sum = 0;
+    for (std::size_t i = 1; i < line.size(); ++i) sum += pointDistance(line[i - 1], line[i]);
+    return sum;
+  }
+
+private:
+  CrsMetric c_;
+  GeographicLib::Ellipsoid ellipsoid_;
+  GeographicLib::Geodesic geodesic_;
+};
 
 // ---------------------------------------------------------------- splitting
 
@@ -63,49 +157,53 @@ std::vector<std::vector<Point3>> cutLine(const std::vector<Point3>& line,
   return pieces;
 }
 
+struct Cut {
+  double measure;  ///< CRS units along the line
+  double along_m;  ///< metres along the line
+};
+
 /// For every line, the measures at which other lines' ends touch its interior.
 std::vector<std::vector<double>> findCuts(const GeosContext& ctx, const ReachTable& table,
-                                          double tol, ProblemList& problems) {
+                                          const Metric& metric, double tol_m,
+                                          ProblemList& problems) {
   const auto& rs = table.reaches;
-  std::vector<GeomPtr> lines;
   IndexTree tree(ctx);
+  for (std::size_t i = 0; i < rs.size(); ++i)
+    if (usable(rs[i])) tree.insert(makeLine(ctx, rs[i].line), i);
+  std::vector<std::vector<Cut>> cuts(rs.size());
   for (std::size_t i = 0; i < rs.size(); ++i) {
-    lines.push_back(usable(rs[i]) ? makeLine(ctx, rs[i].line) : GeomPtr(nullptr, {ctx.get()}));
-    if (lines.back()) tree.insert(makeLine(ctx, rs[i].line), i);
-  }
-  std::vector<std::vector<double>> cuts(rs.size());
-  for (std::size_t i = 0; i < rs.size(); ++i) {
-    if (!lines[i]) continue;
+    if (!usable(rs[i])) continue;
     for (const Point3* end : {&rs[i].line.front(), &rs[i].line.back()}) {
-      GeomPtr pt = makePoint(ctx, end->x, end->y);
-      for (std::size_t j : tree.query(end->x, end->y, tol)) {
+      for (std::size_t j : tree.query(end->x, end->y, metric.searchRadius(*end, tol_m))) {
         if (j == i) continue;
-        double d = 0;
-        if (!GEOSDistance_r(ctx.get(), lines[j].get(), pt.get(), &d) || d > tol) continue;
-        const double m = GEOSProject_r(ctx.get(), lines[j].get(), pt.get());
-        double len = 0;
-        GEOSGeomGetLength_r(ctx.get(), lines[j].get(), &len);
-        if (!(m > tol && m < len - tol)) continue;  // near an end: snapping handles it
-        cuts[j].push_back(m);
+        const Nearest n = metric.nearest(rs[j].line, *end);
+        if (n.distance_m > tol_m) continue;
+        // Near an end of line j: snapping handles it.
+        if (!(n.from_start_m > tol_m && n.to_end_m > tol_m)) continue;
+        cuts[j].push_back({n.measure, n.from_start_m});
         problems.push_back(reachProblem(
             ProblemCode::SplitLine, rs[j], end->x, end->y,
             fmt::format("line {} is cut where the end of {} meets it", rs[j].id, rs[i].id)));
       }
     }
   }
-  for (auto& c : cuts) {
-    std::sort(c.begin(), c.end());
+  std::vector<std::vector<double>> out(rs.size());
+  for (std::size_t j = 0; j < rs.size(); ++j) {
+    auto& c = cuts[j];
+    std::sort(c.begin(), c.end(), [](const Cut& a, const Cut& b) { return a.measure < b.measure; });
     // Ends of several lines at one junction give one cut.
-    c.erase(std::unique(c.begin(), c.end(), [tol](double a, double b) { return b - a <= tol; }),
+    c.erase(std::unique(c.begin(), c.end(),
+                        [tol_m](const Cut& a, const Cut& b) { return b.along_m - a.along_m <= tol_m; }),
             c.end());
+    for (const Cut& k : c) out[j].push_back(k.measure);
   }
-  return cuts;
+  return out;
 }
 
 /// Replaces each cut line by its pieces `<id>.1`, `<id>.2`, ...
-std::size_t splitLines(const GeosContext& ctx, ReachTable& table, double tol,
-                       ProblemList& problems) {
-  const auto cuts = findCuts(ctx, table, tol, problems);
+std::size_t splitLines(const GeosContext& ctx, ReachTable& table, const Metric& metric,
+                       const TopologyOptions& opt, double tol_m, ProblemList& problems) {
+  const auto cuts = findCuts(ctx, table, metric, tol_m, problems);
   std::vector<ReachRecord> out;
   std::size_t n_split = 0;
   for (std::size_t i = 0; i < table.reaches.size(); ++i) {
@@ -115,15 +213,22 @@ std::size_t splitLines(const GeosContext& ctx, ReachTable& table, double tol,
       continue;
     }
     ++n_split;
-    const double total = measures(r.line).back();
     const auto pieces = cutLine(r.line, cuts[i]);
+    // Each piece is measured on itself (geodesic on a geographic CRS); a
+    // length given in the layer is shared in proportion.
+    std::vector<double> piece_m;
+    double total = 0;
+    for (const auto& p : pieces) {
+      piece_m.push_back(opt.line_length_m ? opt.line_length_m(p) : metric.lineLength(p));
+      total += piece_m.back();
+    }
     for (std::size_t k = 0; k < pieces.size(); ++k) {
       ReachRecord piece = r;
       piece.id = r.id + "." + std::to_string(k + 1);
       piece.line = pieces[k];
-      const double share = total > 0 ? measures(pieces[k]).back() / total : 0.0;
-      piece.length_m = r.length_m * share;
-      piece.geometry_length_m = r.geometry_length_m * share;
+      const double share = total > 0 ? piece_m[k] / total : 0.0;
+      piece.length_m = r.length_m == r.geometry_length_m ? piece_m[k] : r.length_m * share;
+      piece.geometry_length_m = piece_m[k];
       out.push_back(std::move(piece));
     }
   }
@@ -160,7 +265,7 @@ Point3& endPoint(ReachTable& t, std::size_t e) {
   return e % 2 == 0 ? line.front() : line.back();
 }
 
-Graph snapEnds(const GeosContext& ctx, ReachTable& table, double tol) {
+Graph snapEnds(const GeosContext& ctx, ReachTable& table, const Metric& metric, double tol_m) {
   const std::size_t n = table.reaches.size();
   IndexTree tree(ctx);
   for (std::size_t e = 0; e < 2 * n; ++e)
@@ -170,9 +275,9 @@ Graph snapEnds(const GeosContext& ctx, ReachTable& table, double tol) {
   for (std::size_t e = 0; e < 2 * n; ++e) {
     if (!usable(table.reaches[e / 2])) continue;
     const Point3 p = endPoint(table, e);
-    for (std::size_t f : tree.query(p.x, p.y, tol)) {
-      const Point3 q = endPoint(table, f);
-      if (std::hypot(p.x - q.x, p.y - q.y) <= tol) uf.unite(e, f);
+    for (std::size_t f : tree.query(p.x, p.y, metric.searchRadius(p, tol_m))) {
+      if (uf.find(e) == uf.find(f)) continue;
+      if (metric.pointDistance(p, endPoint(table, f)) <= tol_m) uf.unite(e, f);
     }
   }
   Graph g;
@@ -410,29 +515,24 @@ void linkDownstream(ReachTable& table, const Graph& g, ProblemList& problems) {
   }
 }
 
-std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g, double tol,
-                       double factor, ProblemList& problems) {
+std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g,
+                       const Metric& metric, double tol_m, double search_m,
+                       ProblemList& problems) {
   IndexTree tree(ctx);
-  std::vector<GeomPtr> lines;
-  for (std::size_t i = 0; i < table.reaches.size(); ++i) {
-    const bool in = g.from[i] != npos;
-    lines.push_back(in ? makeLine(ctx, table.reaches[i].line) : GeomPtr(nullptr, {ctx.get()}));
-    if (in) tree.insert(makeLine(ctx, table.reaches[i].line), i);
-  }
+  for (std::size_t i = 0; i < table.reaches.size(); ++i)
+    if (g.from[i] != npos) tree.insert(makeLine(ctx, table.reaches[i].line), i);
   std::size_t gaps = 0;
-  const double reach = factor * tol;
   for (std::size_t e = 0; e < 2 * table.reaches.size(); ++e) {
     const std::size_t i = e / 2;
     const std::size_t node = e % 2 == 0 ? g.from[i] : g.to[i];
     if (node == npos || g.degree[node] != 1) continue;
     const Point3 p = g.node[node];
-    GeomPtr pt = makePoint(ctx, p.x, p.y);
-    double best = reach;
+    double best = search_m;
     std::size_t best_j = npos;
-    for (std::size_t j : tree.query(p.x, p.y, reach)) {
-      double d = 0;
-      if (j == i || !GEOSDistance_r(ctx.get(), lines[j].get(), pt.get(), &d)) continue;
-      if (d > tol && d <= best) {
+    for (std::size_t j : tree.query(p.x, p.y, metric.searchRadius(p, search_m))) {
+      if (j == i) continue;
+      const double d = metric.nearest(table.reaches[j].line, p).distance_m;
+      if (d > tol_m && d <= best) {
         best = d;
         best_j = j;
       }
@@ -442,9 +542,9 @@ std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g
     const auto& r = table.reaches[i];
     problems.push_back(reachProblem(
         ProblemCode::ProbableGap, r, p.x, p.y,
-        fmt::format("an end of {} is {:.3g} CRS units from {} but not connected (snap tolerance "
-                    "{:.3g})",
-                    r.id, best, table.reaches[best_j].id, tol)));
+        fmt::format("an end of {} is {:.3g} m from {} but not connected (snap_tolerance_m {:g}, "
+                    "gap_search_m {:g})",
+                    r.id, best, table.reaches[best_j].id, tol_m, search_m)));
   }
   return gaps;
 }
@@ -453,13 +553,21 @@ std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g
 
 TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptions& options,
                                           ProblemList& problems) {
-  if (!(options.snap_tolerance >= 0) || !std::isfinite(options.snap_tolerance))
-    throw InvalidParameter("snap_tolerance", "must be finite and >= 0");
+  const double tol_m = options.snap_tolerance_m;
+  if (!(tol_m >= 0) || !std::isfinite(tol_m))
+    throw InvalidParameter("snap_tolerance_m", "must be finite and >= 0");
+  const double search_m = std::isnan(options.gap_search_m) ? 10.0 * tol_m : options.gap_search_m;
+  if (!(search_m >= 0) || !std::isfinite(search_m))
+    throw InvalidParameter("gap_search_m", "must be finite and >= 0");
+  const CrsMetric& crs = options.crs;
+  if (crs.geographic ? !(crs.a_m > 0 && crs.f >= 0 && crs.f < 1 && crs.degrees_per_unit > 0)
+                     : !(crs.metres_per_unit > 0 && std::isfinite(crs.metres_per_unit)))
+    throw InvalidParameter("crs", "needs a positive unit (and an ellipsoid when geographic)");
+  const Metric metric(crs);
   GeosContext ctx;
-  const double tol = options.snap_tolerance;
   TopologySummary summary;
-  summary.splits = splitLines(ctx, table, tol, problems);
-  Graph g = snapEnds(ctx, table, tol);
+  summary.splits = splitLines(ctx, table, metric, options, tol_m, problems);
+  Graph g = snapEnds(ctx, table, metric, tol_m);
   summary.nodes = g.node.size();
   Orientation how = options.orientation;
   if (how == Orientation::Auto) how = resolveAuto(table, g);
@@ -469,7 +577,7 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
     summary.flipped = orientToOutlets(table, g, options, problems);
   }
   linkDownstream(table, g, problems);
-  summary.probable_gaps = reportGaps(ctx, table, g, tol, options.gap_factor, problems);
+  summary.probable_gaps = reportGaps(ctx, table, g, metric, tol_m, search_m, problems);
   table.has_to_reach = true;
   return summary;
 }

@@ -4,6 +4,8 @@
 /// found from where line ends meet.
 
 #include <cstddef>
+#include <functional>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -20,13 +22,32 @@ enum class Orientation {
   Outlets,    ///< each connected part flows towards its outlet (see TopologyOptions::outlets)
 };
 
+/// How distances in metres relate to the coordinates of the lines.
+struct CrsMetric {
+  /// false: projected (or unit-stated) coordinates, `metres_per_unit` each;
+  /// true: longitude/latitude on the ellipsoid (a_m, f).
+  bool geographic = false;
+  double metres_per_unit = 1.0;
+  double a_m = 6378137.0;            ///< semi-major axis (geographic)
+  double f = 1 / 298.257223563;      ///< flattening, 0 = sphere (geographic)
+  double degrees_per_unit = 1.0;     ///< the CRS's angular unit in degrees (geographic)
+  bool lat_first = false;            ///< the first coordinate is the latitude (geographic)
+};
+
 struct TopologyOptions {
   /// Line ends closer than this meet at one node; an end this close to the
-  /// interior of another line splits it. CRS units; >= 0.
-  double snap_tolerance = 0.5;
-  /// An unconnected end within gap_factor × snap_tolerance of another line is
-  /// reported as a probable gap.
-  double gap_factor = 10.0;
+  /// interior of another line splits it. Metres on any CRS (see CrsMetric:
+  /// on a geographic CRS the distance is measured at the end's latitude on
+  /// the ellipsoid); >= 0.
+  double snap_tolerance_m = 5.0;
+  /// An unconnected end within this distance (metres) of another line is
+  /// reported as a probable gap. NaN = 10 × snap_tolerance_m.
+  double gap_search_m = std::numeric_limits<double>::quiet_NaN();
+  CrsMetric crs;
+  /// Length in metres of a line (used for the pieces of cut lines). Unset =
+  /// planar length × crs.metres_per_unit, or the geodesic length on a
+  /// geographic CRS.
+  std::function<double(const std::vector<Point3>&)> line_length_m;
   Orientation orientation = Orientation::Auto;
   /// Outlet reach ids for Orientation::Outlets (a split line's pieces
   /// `<id>.k` count as `<id>`). A connected part without a named outlet
@@ -47,9 +68,10 @@ struct TopologySummary {
 /// Rebuilds the topology of `table` from its geometry:
 ///  1. a line whose interior another line's end touches (within the
 ///     tolerance) is cut there; its pieces get ids `<id>.1`, `<id>.2`, ...
-///     from upstream to downstream in digitising order, keep the attributes
-///     and share `length_m` / `geometry_length_m` in proportion to their
-///     planar length (`split_line`, warning);
+///     from upstream to downstream in digitising order, keep the attributes;
+///     each piece's `geometry_length_m` is measured on the piece itself
+///     (options.line_length_m) and `length_m` is shared in proportion to
+///     those lengths (`split_line`, warning);
 ///  2. line ends within the tolerance are snapped to one node (the end
 ///     vertices are moved onto it);
 ///  3. lines are oriented (`flipped_line`, warning, for each reversed line,
