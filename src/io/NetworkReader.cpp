@@ -272,6 +272,7 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
     topo.snap_tolerance = config.snap_tolerance.value_or(0.5 / measure.metresPerUnit());
     topo.orientation = config.orientation;
     topo.outlets = config.outlets;
+    topo.metres_per_unit = measure.metresPerUnit();
     summary.topology_from_geometry = true;
     summary.snap_tolerance = topo.snap_tolerance;
     summary.topology = network::geos::buildTopologyFromGeometry(table, topo, problems);

@@ -410,8 +410,21 @@ void linkDownstream(ReachTable& table, const Graph& g, ProblemList& problems) {
   }
 }
 
-std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g, double tol,
-                       double factor, ProblemList& problems) {
+/// A line end no other line touches, and the nearest line it is not joined to.
+struct LooseEnd {
+  std::size_t rec;     ///< the record the end belongs to
+  Point3 at;           ///< the end (its node)
+  double distance;     ///< to the nearest line not joined to it, CRS units (> tolerance)
+  std::size_t other;   ///< that line's record
+};
+
+/// Every free end (a node of degree 1) with the nearest line within `radius`
+/// (CRS units) that it is not already joined to, farther than `tol`. A line
+/// is joined to the end when it is the end's own line or shares a node with
+/// it (at its other end): the end reaches that line through the network, so
+/// being close to it is no gap.
+std::vector<LooseEnd> looseEnds(const GeosContext& ctx, const ReachTable& table, const Graph& g,
+                                double tol, double radius) {
   IndexTree tree(ctx);
   std::vector<GeomPtr> lines;
   for (std::size_t i = 0; i < table.reaches.size(); ++i) {
@@ -419,34 +432,57 @@ std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g
     lines.push_back(in ? makeLine(ctx, table.reaches[i].line) : GeomPtr(nullptr, {ctx.get()}));
     if (in) tree.insert(makeLine(ctx, table.reaches[i].line), i);
   }
-  std::size_t gaps = 0;
-  const double reach = factor * tol;
+  auto joined = [&](std::size_t i, std::size_t j) {
+    return j == i || g.from[j] == g.from[i] || g.from[j] == g.to[i] || g.to[j] == g.from[i] ||
+           g.to[j] == g.to[i];
+  };
+  std::vector<LooseEnd> out;
   for (std::size_t e = 0; e < 2 * table.reaches.size(); ++e) {
     const std::size_t i = e / 2;
     const std::size_t node = e % 2 == 0 ? g.from[i] : g.to[i];
     if (node == npos || g.degree[node] != 1) continue;
     const Point3 p = g.node[node];
     GeomPtr pt = makePoint(ctx, p.x, p.y);
-    double best = reach;
-    std::size_t best_j = npos;
-    for (std::size_t j : tree.query(p.x, p.y, reach)) {
+    LooseEnd best{i, p, radius, npos};
+    for (std::size_t j : tree.query(p.x, p.y, radius)) {
       double d = 0;
-      if (j == i || !GEOSDistance_r(ctx.get(), lines[j].get(), pt.get(), &d)) continue;
-      if (d > tol && d <= best) {
-        best = d;
-        best_j = j;
+      if (joined(i, j) || !GEOSDistance_r(ctx.get(), lines[j].get(), pt.get(), &d)) continue;
+      if (d > tol && d <= best.distance) {
+        best.distance = d;
+        best.other = j;
       }
     }
-    if (best_j == npos) continue;
+    if (best.other != npos) out.push_back(best);
+  }
+  return out;
+}
+
+std::size_t reportGaps(const ReachTable& table, const std::vector<LooseEnd>& loose, double tol,
+                       double factor, ProblemList& problems) {
+  std::size_t gaps = 0;
+  for (const LooseEnd& l : loose) {
+    if (l.distance > factor * tol) continue;
     ++gaps;
-    const auto& r = table.reaches[i];
+    const auto& r = table.reaches[l.rec];
     problems.push_back(reachProblem(
-        ProblemCode::ProbableGap, r, p.x, p.y,
+        ProblemCode::ProbableGap, r, l.at.x, l.at.y,
         fmt::format("an end of {} is {:.3g} CRS units from {} but not connected (snap tolerance "
                     "{:.3g})",
-                    r.id, best, table.reaches[best_j].id, tol)));
+                    r.id, l.distance, table.reaches[l.other].id, tol)));
   }
   return gaps;
+}
+
+std::vector<NearMiss> nearMisses(const ReachTable& table, const std::vector<LooseEnd>& loose,
+                                 double metres_per_unit) {
+  std::vector<NearMiss> out;
+  for (const LooseEnd& l : loose) {
+    const double d_m = l.distance * metres_per_unit;
+    if (d_m > kNearMissBandsM.back()) continue;
+    const auto& r = table.reaches[l.rec];
+    out.push_back({r.id, r.fid, l.at.x, l.at.y, d_m, table.reaches[l.other].id});
+  }
+  return out;
 }
 
 }  // namespace
@@ -469,9 +505,42 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
     summary.flipped = orientToOutlets(table, g, options, problems);
   }
   linkDownstream(table, g, problems);
-  summary.probable_gaps = reportGaps(ctx, table, g, tol, options.gap_factor, problems);
+  if (!(options.metres_per_unit > 0) || !std::isfinite(options.metres_per_unit))
+    throw InvalidParameter("metres_per_unit", "must be finite and > 0");
+  const double radius =
+      std::max(options.gap_factor * tol, kNearMissBandsM.back() / options.metres_per_unit);
+  const auto loose = looseEnds(ctx, table, g, tol, radius);
+  summary.probable_gaps = reportGaps(table, loose, tol, options.gap_factor, problems);
+  summary.near_misses = nearMisses(table, loose, options.metres_per_unit);
   table.has_to_reach = true;
   return summary;
+}
+
+std::vector<NearMissBand> nearMissBands(const std::vector<NearMiss>& near_misses) {
+  std::vector<NearMissBand> bands;
+  for (const double within : kNearMissBandsM) {
+    NearMissBand b{within, 0, 0.0};
+    for (const auto& n : near_misses) {
+      if (n.distance_m > within) continue;
+      ++b.ends;
+      b.join_tolerance_m = std::max(b.join_tolerance_m, n.distance_m);
+    }
+    bands.push_back(b);
+  }
+  return bands;
+}
+
+Problem nearMissProblem(const NearMiss& n) {
+  Problem p(ProblemCode::NearMiss,
+            fmt::format("an unconnected end of {} is {:.3g} m from {}", n.reach_id, n.distance_m,
+                        n.other_reach_id));
+  p.reach_id = n.reach_id;
+  p.fid = n.fid;
+  p.x = n.x;
+  p.y = n.y;
+  p.other_reach_id = n.other_reach_id;
+  p.distance_m = n.distance_m;
+  return p;
 }
 
 }  // namespace reachwise::network::geos
