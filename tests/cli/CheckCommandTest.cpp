@@ -147,3 +147,25 @@ TEST(CheckCommand, NearMissesAreCountedAndWrittenAsPoints) {
   ASSERT_EQ(distance.size(), 4u);  // 2000 m is beyond the largest band
   for (std::size_t k = 0; k < 4; ++k) EXPECT_NEAR(distance["t" + std::to_string(k)], gaps[k], 1e-6);
 }
+
+TEST(CheckCommand, NearMissesOnAGeographicCrsAreMarkedApproximate) {
+  // Generated lines in EPSG:4326 near the equator: a tributary ends
+  // 0.0005 degrees (55.66 m at the nominal 111 320 m per degree) east of a
+  // main stem running north-south; its headwater and the stem's ends lie
+  // more than 0.02 degrees (over 2 km) from every other line.
+  const auto dir = testsupport::testScratchDir();
+  const std::string in = (dir / "near_miss_4326.gpkg").string();
+  std::filesystem::remove(in);
+  fixtures::Layer layer;
+  layer.epsg = 4326;
+  layer.fields = {{"reach_id", OFTString}, {"slope", OFTReal}, {"manning_n", OFTReal},
+                  {"bottom_width", OFTReal}, {"side_slope", OFTReal}};
+  layer.features = {{"LINESTRING (10 0, 10 -0.1)", {"main", "0.001", "0.035", "5", "2"}},
+                    {"LINESTRING (10.0205 -0.05, 10.0005 -0.05)", {"trib", "0.001", "0.035", "5", "2"}}};
+  fixtures::write(in, "GPKG", {layer});
+  const auto r = run("check " + in);
+  const std::string line = summaryValue(r.out, "near-misses");
+  EXPECT_NE(line.find("0 within 10 m, 1 within 100 m (a tolerance of 55.7 m joins them)"), std::string::npos)
+      << line;
+  EXPECT_NE(line.find("approximate"), std::string::npos) << line;
+}
