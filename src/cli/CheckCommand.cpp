@@ -19,6 +19,17 @@ namespace {
 using network::ProblemList;
 using network::Severity;
 
+/// One line: unconnected ends within 1, 10, 100, 1000 m of a line they are
+/// not joined to, and the snap tolerance that would join each group.
+void printNearMisses(std::ostream& out, const io::ReadSummary& read) {
+  std::string line;
+  for (const auto& b : network::geos::nearMissBands(read.topology.near_misses)) {
+    line += fmt::format("{}{} within {:g} m", line.empty() ? "" : ", ", b.ends, b.within_m);
+    if (b.ends > 0) line += fmt::format(" (a tolerance of {:.3g} m joins them)", b.join_tolerance_m);
+  }
+  fmt::print(out, "near-misses    unconnected ends: {}\n", line);
+}
+
 void printSummary(std::ostream& out, const network::ReachTable& table,
                   const network::NetworkSummary& s, const io::ReadSummary& read,
                   const ProblemList& problems) {
@@ -44,6 +55,7 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
     fmt::print(out, "strahler max   - (the network has {} cycle{})\n", s.cycles, s.cycles == 1 ? "" : "s");
   else
     fmt::print(out, "strahler max   {}\n", s.max_strahler);
+  if (read.topology_from_geometry) printNearMisses(out, read);
   fmt::print(out, "problems       {} error{}, {} warning{}, {} note{}\n", errors,
              errors == 1 ? "" : "s", warnings, warnings == 1 ? "" : "s",
              problems.size() - errors - warnings, problems.size() - errors - warnings == 1 ? "" : "s");

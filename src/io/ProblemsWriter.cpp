@@ -56,6 +56,8 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
   addField(path, *layer, "reach_id", OFTString);
   addField(path, *layer, "fid", OFTInteger64);
   addField(path, *layer, "message", OFTString);
+  addField(path, *layer, "other_reach", OFTString);
+  addField(path, *layer, "distance_m", OFTReal);
   for (const auto& p : problems) {
     OGRFeature f(layer->GetLayerDefn());
     f.SetField("code", std::string(p.codeName()).c_str());
@@ -63,6 +65,8 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
     if (!p.reach_id.empty()) f.SetField("reach_id", p.reach_id.c_str());
     if (p.fid >= 0) f.SetField("fid", static_cast<GIntBig>(p.fid));
     f.SetField("message", p.message.c_str());
+    if (!p.other_reach_id.empty()) f.SetField("other_reach", p.other_reach_id.c_str());
+    if (std::isfinite(p.distance_m)) f.SetField("distance_m", p.distance_m);
     if (std::isfinite(p.x) && std::isfinite(p.y)) f.SetGeometry(std::make_unique<OGRPoint>(p.x, p.y).get());
     if (layer->CreateFeature(&f) != OGRERR_NONE) fail(path, "cannot write a problem");
   }

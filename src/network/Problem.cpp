@@ -28,6 +28,7 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {ProbableGap,             "probable_gap",              E, false, "an unconnected end close to another line"},
   {ClosedLine,              "closed_line",               E, false, "both ends of a line fall on one node"},
   {UnknownOutlet,           "unknown_outlet",            W, false, "a configured outlet id is not in the layer"},
+  {NearMiss,                "near_miss",                 I, false, "an unconnected end within 1000 m of a line it is not joined to (problems layer only)"},
   {UnknownToReach,          "unknown_to_reach",          E, false, "to_reach names no reach of the layer"},
   {SelfLoop,                "self_loop",                 E, false, "a reach names itself as its downstream reach"},
   {Cycle,                   "cycle",                     E, false, "reaches that drain into each other"},

@@ -59,7 +59,11 @@ std::string problemLine(const network::Problem& p) {
 }
 
 void writeProblems(const std::string& out, const LoadedNetwork& net) {
-  io::writeProblemsGeoPackage(out, *net.graph, net.problems);
+  // Near-misses go to the layer only: as stderr lines they would bury the
+  // problems (most headwaters of a regional layer lie near another line).
+  network::ProblemList all = net.problems;
+  for (const auto& n : net.read.topology.near_misses) all.push_back(network::geos::nearMissProblem(n));
+  io::writeProblemsGeoPackage(out, *net.graph, all);
 }
 
 network::NetworkPlan routablePlan(const LoadedNetwork& net) {

@@ -7,9 +7,12 @@
 #include <ogrsf_frmts.h>
 
 #include <filesystem>
+#include <fstream>
+#include <map>
 #include <regex>
 #include <string>
 
+#include "io/NetworkFixtures.hpp"
 #include "support/Cli.hpp"
 #include "support/Scratch.hpp"
 
@@ -84,4 +87,93 @@ TEST(CheckCommand, UnknownLayerExitsOne) {
 TEST(CheckCommand, UsageErrorsExitTwo) {
   EXPECT_EQ(run("check").code, 2);
   EXPECT_EQ(run(fmt::format("check {}network.gpkg --no-such-flag", kSamples)).code, 2);
+}
+
+TEST(CheckCommand, NearMissesAreCountedAndWrittenAsPoints) {
+  // Generated lines in UTM 33N (metres): a main stem along x = 500000 and
+  // tributaries from the east ending 0.7, 8, 60, 600 and 2000 m short of
+  // it, 3000 m apart and 1500 m long. No to_reach field: topology comes
+  // from the geometry, with a 0.5 m tolerance from a run file.
+  const auto dir = testsupport::testScratchDir();
+  const std::string in = (dir / "near_misses.gpkg").string();
+  const auto out = dir / "near_misses_problems.gpkg";
+  std::filesystem::remove(in);
+  std::filesystem::remove(out);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}, {"slope", OFTReal}, {"manning_n", OFTReal},
+                  {"bottom_width", OFTReal}, {"side_slope", OFTReal}};
+  auto feature = [](const std::string& wkt, const std::string& id) {
+    return fixtures::Feature{wkt, {id, "0.001", "0.035", "5", "2"}};
+  };
+  const double x0 = 500000, y0 = 6000000;
+  const std::vector<double> gaps{0.7, 8, 60, 600, 2000};
+  layer.features.push_back(feature(fmt::format("LINESTRING ({} {}, {} {})", x0, y0, x0, y0 - 18000), "main"));
+  for (std::size_t k = 0; k < gaps.size(); ++k) {
+    const double y = y0 - 3000.0 * static_cast<double>(k + 1);
+    layer.features.push_back(feature(
+        fmt::format("LINESTRING ({} {}, {} {})", x0 + gaps[k] + 1500, y, x0 + gaps[k], y), "t" + std::to_string(k)));
+  }
+  fixtures::write(in, "GPKG", {layer});
+
+  const std::string config = (dir / "near_misses.toml").string();
+  {
+    std::ofstream toml(config);
+    toml << "[network]\nsnap_tolerance_m = 0.5\n";
+  }
+  const auto r = run(fmt::format("check {} --config {} --problems {}", in, config, out.string()));
+  EXPECT_EQ(r.code, 1) << r.err;  // t0 (0.7 m) is a probable gap at 0.5 m
+  EXPECT_NE(r.err.find("error probable_gap t0 "), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("near_miss"), std::string::npos) << r.err;  // the layer only
+  const std::string line = summaryValue(r.out, "near-misses");
+  EXPECT_NE(line.find("1 within 1 m (a tolerance of 0.7 m joins them)"), std::string::npos) << line;
+  EXPECT_NE(line.find("2 within 10 m (a tolerance of 8 m joins them)"), std::string::npos) << line;
+  EXPECT_NE(line.find("3 within 100 m (a tolerance of 60 m joins them)"), std::string::npos) << line;
+  EXPECT_NE(line.find("4 within 1000 m (a tolerance of 600 m joins them)"), std::string::npos) << line;
+  EXPECT_EQ(line.find("approximate"), std::string::npos) << line;
+
+  GDALAllRegister();
+  const GDALDatasetUniquePtr ds(GDALDataset::Open(out.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* problems = ds->GetLayerByName("problems");
+  ASSERT_NE(problems, nullptr);
+  std::map<std::string, double> distance;
+  for (const auto& f : *problems) {
+    if (std::string(f->GetFieldAsString("code")) != "near_miss") continue;
+    const std::string id = f->GetFieldAsString("reach_id");
+    EXPECT_STREQ(f->GetFieldAsString("severity"), "info");
+    EXPECT_STREQ(f->GetFieldAsString("other_reach"), "main");
+    distance[id] = f->GetFieldAsDouble("distance_m");
+    const auto* pt = f->GetGeometryRef();
+    ASSERT_NE(pt, nullptr);
+    const std::size_t k = static_cast<std::size_t>(id.back() - '0');
+    ASSERT_LT(k, gaps.size());
+    EXPECT_NEAR(pt->toPoint()->getX(), x0 + gaps[k], 1e-6);
+    EXPECT_NEAR(pt->toPoint()->getY(), y0 - 3000.0 * static_cast<double>(k + 1), 1e-6);
+  }
+  ASSERT_EQ(distance.size(), 4u);  // 2000 m is beyond the largest band
+  for (std::size_t k = 0; k < 4; ++k) EXPECT_NEAR(distance["t" + std::to_string(k)], gaps[k], 1e-6);
+}
+
+TEST(CheckCommand, NearMissesOnAGeographicCrsAreInMetres) {
+  // Generated lines in EPSG:4326 near the equator: a tributary ends
+  // 0.0005 degrees of longitude east of a main stem running north-south,
+  // 55.66 m on the WGS 84 ellipsoid there (a = 6 378 137 m: 2 pi a / 360
+  // per degree on the equator, 111 319.5 m; the end is at 0.05 degrees
+  // south, where it is the same to 1e-6); its headwater and the stem's ends
+  // lie more than 0.02 degrees (over 2 km) from every other line.
+  const auto dir = testsupport::testScratchDir();
+  const std::string in = (dir / "near_miss_4326.gpkg").string();
+  std::filesystem::remove(in);
+  fixtures::Layer layer;
+  layer.epsg = 4326;
+  layer.fields = {{"reach_id", OFTString}, {"slope", OFTReal}, {"manning_n", OFTReal},
+                  {"bottom_width", OFTReal}, {"side_slope", OFTReal}};
+  layer.features = {{"LINESTRING (10 0, 10 -0.1)", {"main", "0.001", "0.035", "5", "2"}},
+                    {"LINESTRING (10.0205 -0.05, 10.0005 -0.05)", {"trib", "0.001", "0.035", "5", "2"}}};
+  fixtures::write(in, "GPKG", {layer});
+  const auto r = run("check " + in);
+  const std::string line = summaryValue(r.out, "near-misses");
+  EXPECT_NE(line.find("0 within 10 m, 1 within 100 m (a tolerance of 55.7 m joins them)"), std::string::npos)
+      << line;
+  EXPECT_EQ(line.find("approximate"), std::string::npos) << line;
 }

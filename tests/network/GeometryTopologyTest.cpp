@@ -177,3 +177,172 @@ TEST(GeometryTopology, DegenerateRecordsAreLeftOut) {
   bad_search.gap_search_m = -1;
   EXPECT_THROW(geos::buildTopologyFromGeometry(t, bad_search, ps), reachwise::InvalidParameter);
 }
+
+// ---------------------------------------------------------------- gap search and near-misses
+// Lines in a projected CRS (x, y in metres). That a line end touching
+// another line only through the network is not a gap is common practice:
+// a confluence joins the lines that meet there, whatever their length.
+
+namespace {
+
+/// A main stem from (0, 200) to (0, -3000), cut at (0, 0) by `trib1` whose
+/// end lies on it: the top piece `main.1` is a 200 m end reach. `trib2`
+/// stops 30 m short of the main stem at y = -1500.
+ReachTable shortEndReachAndNearMiss() {
+  ReachTable t;
+  t.reaches = {line("main", {{0, 200}, {0, -3000}}, 3200),
+               line("trib1", {{-800, 400}, {0, 0}}),
+               line("trib2", {{1000, -1000}, {30, -1500}})};
+  return t;
+}
+
+const Problem* find(const ProblemList& ps, ProblemCode code, const std::string& reach) {
+  for (const auto& p : ps)
+    if (p.code == code && p.reach_id == reach) return &p;
+  return nullptr;
+}
+
+}  // namespace
+
+TEST(GeometryTopology, ShortEndReachIsNoGapAndATrueNearMissStillIs) {
+  ReachTable t = shortEndReachAndNearMiss();
+  TopologyOptions opt;
+  opt.snap_tolerance_m = 25;  // gap search 250 m: reaches past the 200 m end reach main.1
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  auto m = byId(t);
+  ASSERT_TRUE(m.count("main.1") && m.count("main.2"));
+  EXPECT_NEAR(m["main.1"].length_m, 200.0, 1e-9);
+  EXPECT_EQ(down(m, "main.1"), "main.2");
+  EXPECT_EQ(down(m, "trib1"), "main.2");
+  // The top end of main.1 lies 200 m from main.2 and 179 m from trib1,
+  // both joined to it at (0, 0): not a gap.
+  EXPECT_EQ(find(ps, ProblemCode::ProbableGap, "main.1"), nullptr);
+  // trib2 ends 30 m from main.2, which it is not joined to.
+  EXPECT_EQ(s.probable_gaps, 1u);
+  const Problem* gap = find(ps, ProblemCode::ProbableGap, "trib2");
+  ASSERT_NE(gap, nullptr);
+  EXPECT_EQ(gap->severity, Severity::Error);
+  EXPECT_DOUBLE_EQ(gap->x, 30.0);
+  EXPECT_DOUBLE_EQ(gap->y, -1500.0);
+  EXPECT_NE(gap->message.find("main.2"), std::string::npos) << gap->message;
+  EXPECT_EQ(down(m, "trib2"), "(outlet)");
+}
+
+TEST(GeometryTopology, AnEndNearOnlyItsOwnNeighboursAtANodeIsNoGap) {
+  // A Y whose branches are 150 m long, with a tolerance of 20 m (gap search
+  // 200 m): each branch's headwater is within 200 m of the other branch and
+  // of the stem, all joined to it at the junction.
+  ReachTable t;
+  t.reaches = {line("left", {{-100, 110}, {0, 0}}), line("right", {{100, 110}, {0, 0}}),
+               line("stem", {{0, 0}, {0, -150}})};
+  TopologyOptions opt;
+  opt.snap_tolerance_m = 20;
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(s.probable_gaps, 0u);
+  EXPECT_EQ(count(ps, ProblemCode::ProbableGap), 0u);
+  // Nor are they near-misses: the lines they lie near are joined to them.
+  EXPECT_TRUE(s.near_misses.empty());
+}
+
+TEST(GeometryTopology, OvershootAcrossTheMainStemIsAGapAsBefore) {
+  // The tributary crosses the main stem and ends 30 m past it: its end is
+  // 30 m from the stem, which is not cut (only line ends cut lines).
+  ReachTable t;
+  t.reaches = {line("main", {{0, 2000}, {0, -2000}}), line("trib", {{1500, 500}, {-30, 0}})};
+  TopologyOptions opt;
+  opt.snap_tolerance_m = 5;
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(s.splits, 0u);
+  EXPECT_EQ(s.probable_gaps, 1u);
+  const Problem* gap = find(ps, ProblemCode::ProbableGap, "trib");
+  ASSERT_NE(gap, nullptr);
+  EXPECT_DOUBLE_EQ(gap->x, -30.0);
+  EXPECT_EQ(down(byId(t), "trib"), "(outlet)");
+  ASSERT_EQ(s.near_misses.size(), 1u);
+  EXPECT_NEAR(s.near_misses[0].distance_m, 30.0, 1e-9);
+}
+
+namespace {
+
+/// A straight main stem along x = 0 and tributaries from the east ending
+/// `gaps[k]` CRS units short of it, `spacing` apart (the first `spacing`
+/// below the stem's top, the stem's bottom `spacing` below the last), each
+/// spacing / 2 long: headwaters and the stem's ends lie at least that far
+/// from every other line.
+ReachTable comb(const std::vector<double>& gaps, double spacing = 3000) {
+  ReachTable t;
+  const double n = static_cast<double>(gaps.size());
+  t.reaches.push_back(line("main", {{0, 0}, {0, -spacing * (n + 1)}}));
+  for (std::size_t k = 0; k < gaps.size(); ++k) {
+    const double y = -spacing * static_cast<double>(k + 1);
+    t.reaches.push_back(line("t" + std::to_string(k), {{gaps[k] + spacing / 2, y}, {gaps[k], y}}));
+  }
+  return t;
+}
+
+}  // namespace
+
+TEST(GeometryTopology, NearMissesAreCountedByDistanceBand) {
+  ReachTable t = comb({0.7, 8, 60, 600, 2000});
+  ProblemList ps;
+  TopologyOptions opt;
+  opt.snap_tolerance_m = 0.5;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  ASSERT_EQ(s.near_misses.size(), 4u);  // 2000 m is beyond the largest band
+  const std::vector<double> want{0.7, 8, 60, 600};
+  for (std::size_t k = 0; k < want.size(); ++k) {
+    const auto& n = s.near_misses[k];
+    EXPECT_EQ(n.reach_id, "t" + std::to_string(k));
+    EXPECT_EQ(n.other_reach_id, "main");
+    EXPECT_NEAR(n.distance_m, want[k], 1e-9);
+    EXPECT_DOUBLE_EQ(n.x, want[k]);
+    EXPECT_DOUBLE_EQ(n.y, -3000.0 * static_cast<double>(k + 1));
+  }
+  const auto bands = geos::nearMissBands(s.near_misses);
+  ASSERT_EQ(bands.size(), 4u);
+  const std::vector<std::size_t> ends{1, 2, 3, 4};
+  for (std::size_t b = 0; b < 4; ++b) {
+    EXPECT_DOUBLE_EQ(bands[b].within_m, geos::kNearMissBandsM[b]);
+    EXPECT_EQ(bands[b].ends, ends[b]);
+    // The tolerance that joins a band is its farthest end's distance.
+    EXPECT_NEAR(bands[b].join_tolerance_m, want[b], 1e-9);
+  }
+  // Only the 0.7 m end is within the gap search (10 × 0.5 m).
+  EXPECT_EQ(s.probable_gaps, 1u);
+  // Near-misses are not in the problem list; nearMissProblem makes one.
+  EXPECT_EQ(count(ps, ProblemCode::NearMiss), 0u);
+  const Problem p = geos::nearMissProblem(s.near_misses[2]);
+  EXPECT_EQ(p.code, ProblemCode::NearMiss);
+  EXPECT_EQ(p.severity, Severity::Info);
+  EXPECT_EQ(p.reach_id, "t2");
+  EXPECT_EQ(p.other_reach_id, "main");
+  EXPECT_NEAR(p.distance_m, 60.0, 1e-9);
+}
+
+TEST(GeometryTopology, NearMissDistancesUseTheMetresPerUnit) {
+  // The same comb in feet: 1 ft = 0.3048 m exactly (international foot,
+  // NIST SP 811, appendix B.8). 3 ft is 0.9144 m, 30 ft 9.144 m, 3000 ft
+  // 914.4 m, 4000 ft 1219.2 m (beyond the largest band).
+  ReachTable t = comb({3, 30, 3000, 4000}, 10000);  // headwaters 5000 ft = 1524 m out
+  TopologyOptions opt;
+  opt.snap_tolerance_m = 0.3048;  // 1 ft
+  opt.crs.metres_per_unit = 0.3048;
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  ASSERT_EQ(s.near_misses.size(), 3u);
+  EXPECT_NEAR(s.near_misses[0].distance_m, 0.9144, 1e-9);
+  EXPECT_NEAR(s.near_misses[1].distance_m, 9.144, 1e-9);
+  EXPECT_NEAR(s.near_misses[2].distance_m, 914.4, 1e-9);
+  const auto bands = geos::nearMissBands(s.near_misses);
+  EXPECT_EQ(bands[0].ends, 1u);
+  EXPECT_EQ(bands[1].ends, 2u);
+  EXPECT_EQ(bands[2].ends, 2u);
+  EXPECT_NEAR(bands[2].join_tolerance_m, 9.144, 1e-9);
+  EXPECT_EQ(bands[3].ends, 3u);
+  opt.crs.metres_per_unit = 0;
+  ReachTable again = comb({3});
+  EXPECT_THROW(geos::buildTopologyFromGeometry(again, opt, ps), reachwise::InvalidParameter);
+}

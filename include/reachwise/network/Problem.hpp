@@ -41,6 +41,7 @@ enum class ProblemCode : std::uint8_t {
   ProbableGap,
   ClosedLine,
   UnknownOutlet,
+  NearMiss,
   // the graph (validate)
   UnknownToReach,
   SelfLoop,
@@ -82,6 +83,10 @@ struct Problem {
   double x = std::numeric_limits<double>::quiet_NaN();  ///< location in CRS units
   double y = std::numeric_limits<double>::quiet_NaN();
   std::string message;      ///< one plain sentence
+  /// For a problem about two lines (`near_miss`): the other line, and the
+  /// distance between them in metres (NaN when not given).
+  std::string other_reach_id;
+  double distance_m = std::numeric_limits<double>::quiet_NaN();
 
   /// The code's stable text name, as written to outputs ("cycle", "flipped_line").
   std::string_view codeName() const noexcept { return network::codeName(code); }

@@ -515,38 +515,72 @@ void linkDownstream(ReachTable& table, const Graph& g, ProblemList& problems) {
   }
 }
 
-std::size_t reportGaps(const GeosContext& ctx, ReachTable& table, const Graph& g,
-                       const Metric& metric, double tol_m, double search_m,
-                       ProblemList& problems) {
+/// A line end no other line touches, and the nearest line it is not joined to.
+struct LooseEnd {
+  std::size_t rec;     ///< the record the end belongs to
+  Point3 at;           ///< the end (its node)
+  double distance_m;   ///< to the nearest line not joined to it (> the snap tolerance)
+  std::size_t other;   ///< that line's record
+};
+
+/// Every free end (a node of degree 1) with the nearest line within
+/// `radius_m` that it is not already joined to, farther than `tol_m`. A line
+/// is joined to the end when it is the end's own line or shares a node with
+/// it (at its other end): the end reaches that line through the network, so
+/// being close to it is no gap.
+std::vector<LooseEnd> looseEnds(const GeosContext& ctx, const ReachTable& table, const Graph& g,
+                                const Metric& metric, double tol_m, double radius_m) {
   IndexTree tree(ctx);
   for (std::size_t i = 0; i < table.reaches.size(); ++i)
     if (g.from[i] != npos) tree.insert(makeLine(ctx, table.reaches[i].line), i);
-  std::size_t gaps = 0;
+  auto joined = [&](std::size_t i, std::size_t j) {
+    return j == i || g.from[j] == g.from[i] || g.from[j] == g.to[i] || g.to[j] == g.from[i] ||
+           g.to[j] == g.to[i];
+  };
+  std::vector<LooseEnd> out;
   for (std::size_t e = 0; e < 2 * table.reaches.size(); ++e) {
     const std::size_t i = e / 2;
     const std::size_t node = e % 2 == 0 ? g.from[i] : g.to[i];
     if (node == npos || g.degree[node] != 1) continue;
     const Point3 p = g.node[node];
-    double best = search_m;
-    std::size_t best_j = npos;
-    for (std::size_t j : tree.query(p.x, p.y, metric.searchRadius(p, search_m))) {
-      if (j == i) continue;
+    LooseEnd best{i, p, radius_m, npos};
+    for (std::size_t j : tree.query(p.x, p.y, metric.searchRadius(p, radius_m))) {
+      if (joined(i, j)) continue;
       const double d = metric.nearest(table.reaches[j].line, p).distance_m;
-      if (d > tol_m && d <= best) {
-        best = d;
-        best_j = j;
+      if (d > tol_m && d <= best.distance_m) {
+        best.distance_m = d;
+        best.other = j;
       }
     }
-    if (best_j == npos) continue;
+    if (best.other != npos) out.push_back(best);
+  }
+  return out;
+}
+
+std::size_t reportGaps(const ReachTable& table, const std::vector<LooseEnd>& loose, double tol_m,
+                       double search_m, ProblemList& problems) {
+  std::size_t gaps = 0;
+  for (const LooseEnd& l : loose) {
+    if (l.distance_m > search_m) continue;
     ++gaps;
-    const auto& r = table.reaches[i];
+    const auto& r = table.reaches[l.rec];
     problems.push_back(reachProblem(
-        ProblemCode::ProbableGap, r, p.x, p.y,
+        ProblemCode::ProbableGap, r, l.at.x, l.at.y,
         fmt::format("an end of {} is {:.3g} m from {} but not connected (snap_tolerance_m {:g}, "
                     "gap_search_m {:g})",
-                    r.id, best, table.reaches[best_j].id, tol_m, search_m)));
+                    r.id, l.distance_m, table.reaches[l.other].id, tol_m, search_m)));
   }
   return gaps;
+}
+
+std::vector<NearMiss> nearMisses(const ReachTable& table, const std::vector<LooseEnd>& loose) {
+  std::vector<NearMiss> out;
+  for (const LooseEnd& l : loose) {
+    if (l.distance_m > kNearMissBandsM.back()) continue;
+    const auto& r = table.reaches[l.rec];
+    out.push_back({r.id, r.fid, l.at.x, l.at.y, l.distance_m, table.reaches[l.other].id});
+  }
+  return out;
 }
 
 }  // namespace
@@ -577,9 +611,38 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
     summary.flipped = orientToOutlets(table, g, options, problems);
   }
   linkDownstream(table, g, problems);
-  summary.probable_gaps = reportGaps(ctx, table, g, metric, tol_m, search_m, problems);
+  const auto loose = looseEnds(ctx, table, g, metric, tol_m, std::max(search_m, kNearMissBandsM.back()));
+  summary.probable_gaps = reportGaps(table, loose, tol_m, search_m, problems);
+  summary.near_misses = nearMisses(table, loose);
   table.has_to_reach = true;
   return summary;
+}
+
+std::vector<NearMissBand> nearMissBands(const std::vector<NearMiss>& near_misses) {
+  std::vector<NearMissBand> bands;
+  for (const double within : kNearMissBandsM) {
+    NearMissBand b{within, 0, 0.0};
+    for (const auto& n : near_misses) {
+      if (n.distance_m > within) continue;
+      ++b.ends;
+      b.join_tolerance_m = std::max(b.join_tolerance_m, n.distance_m);
+    }
+    bands.push_back(b);
+  }
+  return bands;
+}
+
+Problem nearMissProblem(const NearMiss& n) {
+  Problem p(ProblemCode::NearMiss,
+            fmt::format("an unconnected end of {} is {:.3g} m from {}", n.reach_id, n.distance_m,
+                        n.other_reach_id));
+  p.reach_id = n.reach_id;
+  p.fid = n.fid;
+  p.x = n.x;
+  p.y = n.y;
+  p.other_reach_id = n.other_reach_id;
+  p.distance_m = n.distance_m;
+  return p;
 }
 
 }  // namespace reachwise::network::geos

@@ -3,7 +3,9 @@
 /// Network topology from line geometry alone: which reach flows into which,
 /// found from where line ends meet.
 
+#include <array>
 #include <cstddef>
+#include <cstdint>
 #include <functional>
 #include <limits>
 #include <string>
@@ -58,11 +60,44 @@ struct TopologyOptions {
   std::vector<std::string> outlets;
 };
 
+/// Distances (metres) within which unconnected line ends are counted as near-misses.
+inline constexpr std::array<double, 4> kNearMissBandsM{1.0, 10.0, 100.0, 1000.0};
+
+/// A line end that no other line touches, lying farther than the snap
+/// tolerance but within the largest near-miss band of a line it is not
+/// joined to.
+struct NearMiss {
+  std::string reach_id;        ///< the line whose end it is
+  std::int64_t fid = -1;       ///< its source feature id
+  double x = 0, y = 0;         ///< the end, CRS units
+  double distance_m = 0;       ///< to the nearest line it is not joined to (end or interior)
+  std::string other_reach_id;  ///< that line
+};
+
+/// One near-miss band: how many ends lie within `within_m` of another line,
+/// and the snap tolerance (the largest of their distances) that would join
+/// them all.
+struct NearMissBand {
+  double within_m = 0;
+  std::size_t ends = 0;
+  double join_tolerance_m = 0;  ///< 0 when no end lies in the band
+};
+
+/// The bands of kNearMissBandsM (cumulative: an end within 10 m is also within 100 m).
+std::vector<NearMissBand> nearMissBands(const std::vector<NearMiss>& near_misses);
+
+/// The near-miss as a `near_miss` problem (info) at the end, for the problems layer.
+Problem nearMissProblem(const NearMiss& near_miss);
+
 struct TopologySummary {
   std::size_t nodes = 0;          ///< distinct junction / end nodes after snapping
   std::size_t splits = 0;         ///< lines cut where another line's end meets their interior
   std::size_t flipped = 0;        ///< lines reversed by the orientation step
   std::size_t probable_gaps = 0;  ///< unconnected ends near another line
+  /// Unconnected ends within kNearMissBandsM.back() metres of a line they
+  /// are not joined to, in record order (not in the problem list: a
+  /// regional layer has many such headwaters; see nearMissProblem).
+  std::vector<NearMiss> near_misses;
 };
 
 /// Rebuilds the topology of `table` from its geometry:
@@ -80,7 +115,9 @@ struct TopologySummary {
 ///     downstream node (nullopt at an outlet; at a bifurcation all leaving
 ///     reaches, sorted, joined by ';' as ReachGraph expects) and
 ///     `has_to_reach` is set.
-/// Also reported: `probable_gap` (error: a loose end would be a false outlet), `closed_line` (error: both ends
+/// Also reported: `probable_gap` (error: a loose end would be a false outlet;
+/// only against lines the end is not already joined to, i.e. not its own
+/// line nor a line sharing a node with it), `closed_line` (error: both ends
 /// on one node), `unknown_outlet` (warning: a configured outlet id is not in the table).
 /// Records with fewer than two vertices or non-finite coordinates are left
 /// out of the topology (their `to_reach` is cleared); the reader reports them.
