@@ -94,6 +94,22 @@ Orientation parseOrientation(const std::string& s, const std::string& origin) {
                         "\"");
 }
 
+std::vector<std::string> requireReachIds(const toml::node& v, const std::string& o,
+                                         const std::string& key) {
+  const auto* arr = v.as_array();
+  if (!arr) throw configError(o, key, "expected an array of reach ids");
+  std::vector<std::string> ids;
+  for (const auto& item : *arr) {
+    if (auto s = item.value<std::string>())
+      ids.push_back(*s);
+    else if (auto i = item.value<std::int64_t>())
+      ids.push_back(std::to_string(*i));
+    else
+      throw configError(o, key, "expected reach ids (text or integers)");
+  }
+  return ids;
+}
+
 void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
   const std::string& o = cfg.origin;
   for (const auto& [k, v] : net) {
@@ -124,16 +140,14 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
     } else if (name == "orientation") {
       cfg.orientation = parseOrientation(requireString(v, o, key), o);
     } else if (name == "outlets") {
-      const auto* arr = v.as_array();
-      if (!arr) throw configError(o, key, "expected an array of reach ids");
-      for (const auto& item : *arr) {
-        if (auto s = item.value<std::string>())
-          cfg.outlets.push_back(*s);
-        else if (auto i = item.value<std::int64_t>())
-          cfg.outlets.push_back(std::to_string(*i));
-        else
-          throw configError(o, key, "expected reach ids (text or integers)");
-      }
+      cfg.outlets = requireReachIds(v, o, key);
+    } else if (name == "unresolved_gaps") {
+      const std::string s = requireString(v, o, key);
+      if (s != "error" && s != "warn")
+        throw configError(o, key, "expected \"error\" or \"warn\", got \"" + s + "\"");
+      cfg.gaps_are_errors = s == "error";
+    } else if (name == "unconnected") {
+      cfg.unconnected = requireReachIds(v, o, key);
     } else if (name == "fields") {
       const auto* fields = v.as_table();
       if (!fields) throw configError(o, key, "expected a table");

@@ -4,6 +4,7 @@
 #include <gdal_priv.h>
 #include <ogrsf_frmts.h>
 
+#include <algorithm>
 #include <cmath>
 #include <set>
 #include <unordered_set>
@@ -290,6 +291,20 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
     topo.line_length_m = [&measure](const std::vector<Point3>& line) { return measure(line); };
     topo.orientation = config.orientation;
     topo.outlets = config.outlets;
+    topo.gaps_are_errors = config.gaps_are_errors;
+    topo.unconnected = config.unconnected;
+    for (const auto& id : config.unconnected) {
+      const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
+                                     [&](const auto& r) {
+                                       return r.id == id || r.id.starts_with(id + ".");
+                                     });
+      if (!found) {
+        InputLocation w;
+        w.file = config.origin.empty() ? source : config.origin;
+        w.field = "network.unconnected";
+        throw InputError(w, fmt::format("reach {} is not in layer {} of {}", id, table.layer, source));
+      }
+    }
     summary.topology_from_geometry = true;
     summary.snap_tolerance_m = topo.snap_tolerance_m;
     summary.gap_search_m = topo.gap_search_m;

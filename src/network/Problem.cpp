@@ -26,6 +26,7 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {SplitLine,               "split_line",                W, false, "a line was cut where a tributary joins mid-line"},
   {FlippedLine,             "flipped_line",              W, false, "a line was reversed by the orientation step"},
   {ProbableGap,             "probable_gap",              E, false, "an unconnected end close to another line"},
+  {UnresolvedGap,           "unresolved_gap",            W, false, "a probable gap reported as a warning (unresolved_gaps = \"warn\"); the end stays a headwater or outlet"},
   {ClosedLine,              "closed_line",               E, false, "both ends of a line fall on one node"},
   {UnknownOutlet,           "unknown_outlet",            W, false, "a configured outlet id is not in the layer"},
   {NearMiss,                "near_miss",                 I, false, "an unconnected end within 1000 m of a line it is not joined to (problems layer only)"},

@@ -177,3 +177,74 @@ TEST(CheckCommand, NearMissesOnAGeographicCrsAreInMetres) {
       << line;
   EXPECT_EQ(line.find("approximate"), std::string::npos) << line;
 }
+
+namespace {
+
+/// Generated lines in UTM 33N (metres), no to_reach field: a main stem 4 km
+/// long and a tributary from the east ending 30 m short of it, beyond the
+/// default 5 m snap tolerance but within the 50 m gap search. Runs `check`
+/// with a run file holding `network_toml` under [network].
+Run checkTributaryThirtyMetresShort(const std::string& name, const std::string& network_toml) {
+  const auto dir = testsupport::testScratchDir();
+  const std::string in = (dir / (name + ".gpkg")).string();
+  std::filesystem::remove(in);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}, {"slope", OFTReal}, {"manning_n", OFTReal},
+                  {"bottom_width", OFTReal}, {"side_slope", OFTReal}};
+  auto feature = [](const std::string& wkt, const std::string& id) {
+    return fixtures::Feature{wkt, {id, "0.001", "0.035", "5", "2"}};
+  };
+  const double x0 = 500000, y0 = 6000000;
+  layer.features.push_back(feature(fmt::format("LINESTRING ({} {}, {} {})", x0, y0, x0, y0 - 4000), "main"));
+  layer.features.push_back(feature(
+      fmt::format("LINESTRING ({} {}, {} {})", x0 + 1530, y0 - 2000, x0 + 30, y0 - 2000), "trib"));
+  fixtures::write(in, "GPKG", {layer});
+  const std::string config = (dir / (name + ".toml")).string();
+  {
+    std::ofstream toml(config);
+    toml << "[network]\n" << network_toml;
+  }
+  return run(fmt::format("check {} --config {}", in, config));
+}
+
+}  // namespace
+
+TEST(CheckCommand, AProbableGapIsAnErrorByDefault) {
+  const auto r = checkTributaryThirtyMetresShort("gap_default", "");
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_NE(r.err.find("error probable_gap trib "), std::string::npos) << r.err;
+}
+
+TEST(CheckCommand, UnresolvedGapsWarnLeavesARoutableNetwork) {
+  const auto r = checkTributaryThirtyMetresShort("gap_warn", "unresolved_gaps = \"warn\"\n");
+  EXPECT_EQ(r.code, 0) << r.err;  // warnings only: check exits 0 (docs/formats.md)
+  EXPECT_NE(r.err.find("warning unresolved_gap trib "), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("probable_gap"), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("error "), std::string::npos) << r.err;
+  // The loose end stays: two separate reaches, each its own outlet.
+  EXPECT_EQ(summaryValue(r.out, "reaches"), "2");
+  EXPECT_EQ(summaryValue(r.out, "outlets"), "2");
+}
+
+TEST(CheckCommand, EndsOfUnconnectedReachesAreNotReported) {
+  const auto r = checkTributaryThirtyMetresShort("gap_unconnected", "unconnected = [\"trib\"]\n");
+  EXPECT_EQ(r.code, 0) << r.err;
+  EXPECT_EQ(r.err.find("probable_gap"), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("unresolved_gap"), std::string::npos) << r.err;
+}
+
+TEST(CheckCommand, AnUnconnectedIdNotInTheLayerIsAnErrorNamingKeyAndId) {
+  const auto r = checkTributaryThirtyMetresShort("gap_unknown_id", "unconnected = [\"tributary\"]\n");
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_NE(r.err.find("network.unconnected"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("tributary"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("gap_unknown_id.toml"), std::string::npos) << r.err;
+}
+
+TEST(CheckCommand, AnUnresolvedGapsValueOtherThanErrorOrWarnIsAnErrorNamingTheKey) {
+  const auto r = checkTributaryThirtyMetresShort("gap_bad_value", "unresolved_gaps = \"ignore\"\n");
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_NE(r.err.find("network.unresolved_gaps"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("\"warn\""), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("gap_bad_value.toml"), std::string::npos) << r.err;
+}

@@ -346,3 +346,93 @@ TEST(GeometryTopology, NearMissDistancesUseTheMetresPerUnit) {
   ReachTable again = comb({3});
   EXPECT_THROW(geos::buildTopologyFromGeometry(again, opt, ps), reachwise::InvalidParameter);
 }
+
+namespace {
+
+/// A main stem along x = 0 and a tributary from the east ending 30 m short
+/// of it: with the default 5 m tolerance (gap search 50 m) a probable gap.
+ReachTable tributaryThirtyMetresShort() {
+  ReachTable t;
+  t.reaches = {line("main", {{0, 2000}, {0, -2000}}), line("trib", {{1530, 0}, {30, 0}})};
+  return t;
+}
+
+}  // namespace
+
+TEST(GeometryTopology, UnresolvedGapsAreErrorsByDefaultAndWarningsOnRequest) {
+  ReachTable t = tributaryThirtyMetresShort();
+  ProblemList ps;
+  auto s = geos::buildTopologyFromGeometry(t, {}, ps);
+  EXPECT_EQ(s.probable_gaps, 1u);
+  const Problem* gap = find(ps, ProblemCode::ProbableGap, "trib");
+  ASSERT_NE(gap, nullptr);
+  EXPECT_EQ(gap->severity, Severity::Error);
+  EXPECT_TRUE(hasErrors(ps));
+
+  t = tributaryThirtyMetresShort();
+  ps.clear();
+  TopologyOptions opt;
+  opt.gaps_are_errors = false;
+  s = geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(s.probable_gaps, 1u);
+  EXPECT_EQ(count(ps, ProblemCode::ProbableGap), 0u);
+  const Problem* warning = find(ps, ProblemCode::UnresolvedGap, "trib");
+  ASSERT_NE(warning, nullptr);
+  EXPECT_EQ(warning->severity, Severity::Warning);
+  EXPECT_DOUBLE_EQ(warning->x, 30.0);
+  EXPECT_FALSE(hasErrors(ps));
+  // The end stays as it is: trib is its own outlet, main is not joined to it.
+  auto m = byId(t);
+  EXPECT_EQ(down(m, "trib"), "(outlet)");
+  EXPECT_EQ(down(m, "main"), "(outlet)");
+}
+
+TEST(GeometryTopology, EndsOfUnconnectedReachesAreNoGaps) {
+  ReachTable t = tributaryThirtyMetresShort();
+  TopologyOptions opt;
+  opt.unconnected = {"trib"};
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(s.probable_gaps, 0u);
+  EXPECT_EQ(count(ps, ProblemCode::ProbableGap), 0u);
+  EXPECT_EQ(count(ps, ProblemCode::UnresolvedGap), 0u);
+  EXPECT_FALSE(hasErrors(ps));
+}
+
+TEST(GeometryTopology, UnconnectedCoversTheCutPiecesOfALine) {
+  // "in" joins main mid-line at (0, 0), cutting it into main.1 and main.2;
+  // main's top end (0, 2000) lies 30 m below the line "shore".
+  auto lines = [] {
+    ReachTable t;
+    t.reaches = {line("main", {{0, 2000}, {0, -2000}}), line("in", {{1000, 0}, {0, 0}}),
+                 line("shore", {{-500, 2030}, {500, 2030}})};
+    return t;
+  };
+  ReachTable t = lines();
+  ProblemList ps;
+  geos::buildTopologyFromGeometry(t, {}, ps);
+  ASSERT_NE(find(ps, ProblemCode::ProbableGap, "main.1"), nullptr);  // without it, a gap
+
+  t = lines();
+  ps.clear();
+  TopologyOptions opt;
+  opt.unconnected = {"main"};
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(s.splits, 1u);
+  EXPECT_EQ(s.probable_gaps, 0u);
+  EXPECT_EQ(count(ps, ProblemCode::ProbableGap), 0u);
+}
+
+TEST(GeometryTopology, AnUnconnectedIdNotInTheTableIsRefused) {
+  ReachTable t = tributaryThirtyMetresShort();
+  TopologyOptions opt;
+  opt.unconnected = {"tributary"};
+  ProblemList ps;
+  try {
+    geos::buildTopologyFromGeometry(t, opt, ps);
+    ADD_FAILURE() << "no error for an unknown unconnected id";
+  } catch (const reachwise::InvalidParameter& e) {
+    EXPECT_EQ(e.quantity(), "unconnected");
+    EXPECT_NE(std::string(e.what()).find("tributary"), std::string::npos) << e.what();
+  }
+}

@@ -50,6 +50,11 @@ struct NetworkConfig {
   std::optional<double> gap_search_m;
   Orientation orientation = Orientation::Auto;
   std::vector<std::string> outlets;        ///< reach ids of outlets (Orientation::Outlets)
+  /// `unresolved_gaps`: "error" (true, default) reports a probable gap as a
+  /// `probable_gap` error; "warn" (false) as an `unresolved_gap` warning.
+  bool gaps_are_errors = true;
+  /// `unconnected`: reach ids whose ends are never reported as probable gaps.
+  std::vector<std::string> unconnected;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 

@@ -39,6 +39,7 @@ enum class ProblemCode : std::uint8_t {
   SplitLine,
   FlippedLine,
   ProbableGap,
+  UnresolvedGap,
   ClosedLine,
   UnknownOutlet,
   NearMiss,

@@ -402,6 +402,8 @@ struct Bfs {
   }
 };
 
+/// `id` is one of `outlets` or a piece `<o>.k` of one (also used for the
+/// unconnected reaches).
 bool matchesOutlet(const std::string& id, const std::vector<std::string>& outlets) {
   for (const auto& o : outlets)
     if (id == o || (id.size() > o.size() && id.compare(0, o.size() + 1, o + ".") == 0))
@@ -557,18 +559,23 @@ std::vector<LooseEnd> looseEnds(const GeosContext& ctx, const ReachTable& table,
   return out;
 }
 
+/// Probable gaps: loose ends within `search_m`, except the ends of reaches
+/// named in options.unconnected; errors or warnings by options.gaps_are_errors.
 std::size_t reportGaps(const ReachTable& table, const std::vector<LooseEnd>& loose, double tol_m,
-                       double search_m, ProblemList& problems) {
+                       double search_m, const TopologyOptions& options, ProblemList& problems) {
   std::size_t gaps = 0;
+  const ProblemCode code = options.gaps_are_errors ? ProblemCode::ProbableGap : ProblemCode::UnresolvedGap;
   for (const LooseEnd& l : loose) {
     if (l.distance_m > search_m) continue;
-    ++gaps;
     const auto& r = table.reaches[l.rec];
+    if (matchesOutlet(r.id, options.unconnected)) continue;
+    ++gaps;
     problems.push_back(reachProblem(
-        ProblemCode::ProbableGap, r, l.at.x, l.at.y,
+        code, r, l.at.x, l.at.y,
         fmt::format("an end of {} is {:.3g} m from {} but not connected (snap_tolerance_m {:g}, "
-                    "gap_search_m {:g})",
-                    r.id, l.distance_m, table.reaches[l.other].id, tol_m, search_m)));
+                    "gap_search_m {:g}){}",
+                    r.id, l.distance_m, table.reaches[l.other].id, tol_m, search_m,
+                    options.gaps_are_errors ? "" : "; left as a headwater or outlet")));
   }
   return gaps;
 }
@@ -597,6 +604,11 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
   if (crs.geographic ? !(crs.a_m > 0 && crs.f >= 0 && crs.f < 1 && crs.degrees_per_unit > 0)
                      : !(crs.metres_per_unit > 0 && std::isfinite(crs.metres_per_unit)))
     throw InvalidParameter("crs", "needs a positive unit (and an ellipsoid when geographic)");
+  for (const auto& id : options.unconnected) {
+    const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
+                                   [&](const ReachRecord& r) { return matchesOutlet(r.id, {id}); });
+    if (!found) throw InvalidParameter("unconnected", "reach " + id + " is not in the layer");
+  }
   const Metric metric(crs);
   GeosContext ctx;
   TopologySummary summary;
@@ -612,7 +624,7 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
   }
   linkDownstream(table, g, problems);
   const auto loose = looseEnds(ctx, table, g, metric, tol_m, std::max(search_m, kNearMissBandsM.back()));
-  summary.probable_gaps = reportGaps(table, loose, tol_m, search_m, problems);
+  summary.probable_gaps = reportGaps(table, loose, tol_m, search_m, options, problems);
   summary.near_misses = nearMisses(table, loose);
   table.has_to_reach = true;
   return summary;

@@ -58,6 +58,14 @@ struct TopologyOptions {
   /// width, else diameter), then an end that is its line's digitised
   /// downstream end, wins.
   std::vector<std::string> outlets;
+  /// How a probable gap is reported: a `probable_gap` error (the default;
+  /// the network is refused) or, when false, an `unresolved_gap` warning
+  /// (the end stays a headwater or outlet).
+  bool gaps_are_errors = true;
+  /// Reach ids whose ends are known to be unconnected (a lake, the edge of
+  /// the region): never reported as gaps. A split line's pieces `<id>.k`
+  /// count as `<id>`. An id matching no reach throws InvalidParameter.
+  std::vector<std::string> unconnected;
 };
 
 /// Distances (metres) within which unconnected line ends are counted as near-misses.
@@ -93,7 +101,7 @@ struct TopologySummary {
   std::size_t nodes = 0;          ///< distinct junction / end nodes after snapping
   std::size_t splits = 0;         ///< lines cut where another line's end meets their interior
   std::size_t flipped = 0;        ///< lines reversed by the orientation step
-  std::size_t probable_gaps = 0;  ///< unconnected ends near another line
+  std::size_t probable_gaps = 0;  ///< unconnected ends near another line (error or warning)
   /// Unconnected ends within kNearMissBandsM.back() metres of a line they
   /// are not joined to, in record order (not in the problem list: a
   /// regional layer has many such headwaters; see nearMissProblem).
@@ -118,7 +126,8 @@ struct TopologySummary {
 /// Also reported: `probable_gap` (error: a loose end would be a false outlet;
 /// only against lines the end is not already joined to, i.e. not its own
 /// line nor a line sharing a node with it), `closed_line` (error: both ends
-/// on one node), `unknown_outlet` (warning: a configured outlet id is not in the table).
+/// on one node), `unresolved_gap` (warning: a probable gap when
+/// options.gaps_are_errors is false), `unknown_outlet` (warning: a configured outlet id is not in the table).
 /// Records with fewer than two vertices or non-finite coordinates are left
 /// out of the topology (their `to_reach` is cleared); the reader reports them.
 TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptions& options,
