@@ -19,6 +19,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <ostream>
 #include <cstdio>
 #include <string>
 #include <vector>
@@ -32,6 +33,11 @@
 using reachwise::hydraulics::Section;
 using namespace reachwise::routing;
 using namespace testsupport::accuracy;
+
+namespace testsupport::accuracy {
+/// How GoogleTest prints a case in test names and messages (found by ADL).
+void PrintTo(const Case& c, std::ostream* os) { *os << c.name(); }
+}  // namespace testsupport::accuracy
 
 namespace {
 
