@@ -36,6 +36,13 @@ std::size_t problemLineCount(const std::string& err) {
   return static_cast<std::size_t>(std::distance(std::sregex_iterator(err.begin(), err.end(), line), std::sregex_iterator()));
 }
 
+/// Writes a run file whose `[network]` table holds `network_toml`; returns its path.
+std::string writeRunFile(const std::filesystem::path& path, const std::string& network_toml) {
+  std::ofstream toml(path);
+  toml << "[network]\n" << network_toml;
+  return path.string();
+}
+
 }  // namespace
 
 TEST(CheckCommand, CleanSampleExitsZeroWithSummary) {
@@ -115,11 +122,7 @@ TEST(CheckCommand, NearMissesAreCountedAndWrittenAsPoints) {
   }
   fixtures::write(in, "GPKG", {layer});
 
-  const std::string config = (dir / "near_misses.toml").string();
-  {
-    std::ofstream toml(config);
-    toml << "[network]\nsnap_tolerance_m = 0.5\n";
-  }
+  const std::string config = writeRunFile(dir / "near_misses.toml", "snap_tolerance_m = 0.5\n");
   const auto r = run(fmt::format("check {} --config {} --problems {}", in, config, out.string()));
   EXPECT_EQ(r.code, 1) << r.err;  // t0 (0.7 m) is a probable gap at 0.5 m
   EXPECT_NE(r.err.find("error probable_gap t0 "), std::string::npos) << r.err;
@@ -199,11 +202,7 @@ Run checkTributaryThirtyMetresShort(const std::string& name, const std::string& 
   layer.features.push_back(feature(
       fmt::format("LINESTRING ({} {}, {} {})", x0 + 1530, y0 - 2000, x0 + 30, y0 - 2000), "trib"));
   fixtures::write(in, "GPKG", {layer});
-  const std::string config = (dir / (name + ".toml")).string();
-  {
-    std::ofstream toml(config);
-    toml << "[network]\n" << network_toml;
-  }
+  const std::string config = writeRunFile(dir / (name + ".toml"), network_toml);
   return run(fmt::format("check {} --config {}", in, config));
 }
 
