@@ -94,20 +94,61 @@ Orientation parseOrientation(const std::string& s, const std::string& origin) {
                         "\"");
 }
 
+std::string requireReachId(const toml::node& v, const std::string& o, const std::string& key) {
+  if (auto s = v.value<std::string>()) return *s;
+  if (auto i = v.value<std::int64_t>()) return std::to_string(*i);
+  throw configError(o, key, "expected a reach id (text or integer)");
+}
+
 std::vector<std::string> requireReachIds(const toml::node& v, const std::string& o,
                                          const std::string& key) {
   const auto* arr = v.as_array();
   if (!arr) throw configError(o, key, "expected an array of reach ids");
   std::vector<std::string> ids;
-  for (const auto& item : *arr) {
-    if (auto s = item.value<std::string>())
-      ids.push_back(*s);
-    else if (auto i = item.value<std::int64_t>())
-      ids.push_back(std::to_string(*i));
-    else
-      throw configError(o, key, "expected reach ids (text or integers)");
-  }
+  for (const auto& item : *arr) ids.push_back(requireReachId(item, o, key));
   return ids;
+}
+
+/// `[[network.connect]]`: { from = "<reach>", to = "<reach>" | [x, y] }.
+std::vector<network::geos::Connection> parseConnections(const toml::node& v, const std::string& o,
+                                                        const std::string& key) {
+  const auto* arr = v.as_array();
+  if (!arr) throw configError(o, key, "expected [[network.connect]] tables");
+  std::vector<network::geos::Connection> out;
+  for (std::size_t k = 0; k < arr->size(); ++k) {
+    const std::string at = key + "[" + std::to_string(k + 1) + "]";
+    const auto* t = (*arr)[k].as_table();
+    if (!t) throw configError(o, at, "expected a table { from = ..., to = ... }");
+    network::geos::Connection c;
+    bool has_to = false;
+    for (const auto& [tk, tv] : *t) {
+      const std::string sub = at + "." + std::string(tk.str());
+      if (tk.str() == "from") {
+        c.from = requireReachId(tv, o, sub);
+      } else if (tk.str() == "to") {
+        has_to = true;
+        if (const auto* xy = tv.as_array()) {
+          if (xy->size() != 2) throw configError(o, sub, "expected a reach id or a point [x, y]");
+          network::Point3 p;
+          p.x = requireNumber((*xy)[0], o, sub);
+          p.y = requireNumber((*xy)[1], o, sub);
+          if (!std::isfinite(p.x) || !std::isfinite(p.y))
+            throw configError(o, sub, "the point's coordinates must be finite");
+          c.to_point = p;
+        } else {
+          c.to_reach = requireReachId(tv, o, sub);
+        }
+      } else {
+        throw configError(o, sub, "unknown key (expected from or to)");
+      }
+    }
+    if (c.from.empty()) throw configError(o, at + ".from", "is required");
+    if (!has_to) throw configError(o, at + ".to", "is required (a reach id or a point [x, y])");
+    if (c.to_reach == c.from)
+      throw configError(o, at + ".to", "reach " + c.from + " cannot be joined to itself");
+    out.push_back(std::move(c));
+  }
+  return out;
 }
 
 void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
@@ -148,6 +189,8 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
       cfg.gaps_are_errors = s == "error";
     } else if (name == "unconnected") {
       cfg.unconnected = requireReachIds(v, o, key);
+    } else if (name == "connect") {
+      cfg.connections = parseConnections(v, o, key);
     } else if (name == "fields") {
       const auto* fields = v.as_table();
       if (!fields) throw configError(o, key, "expected a table");
@@ -156,6 +199,11 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
       throw configError(o, key, "unknown key (see docs/formats.md)");
     }
   }
+  if (!cfg.outlets.empty() && (cfg.orientation == Orientation::Digitised ||
+                               cfg.orientation == Orientation::Elevation))
+    throw configError(o, "network.outlets",
+                      "named outlets orient the lines; they need orientation \"outlets\" or "
+                      "\"auto\"");
 }
 
 }  // namespace

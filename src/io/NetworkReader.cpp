@@ -261,6 +261,29 @@ std::vector<std::string> lineLayers(const std::string& source) {
   return lineLayerNames(*ds);
 }
 
+/// `[[network.connect]]` with topology from ids: the `from` reach, which
+/// must have no downstream reach, flows into the `to` reach.
+void connectByIds(ReachTable& table, const NetworkConfig& config, ProblemList& problems) {
+  for (std::size_t k = 0; k < config.connections.size(); ++k) {
+    const auto& c = config.connections[k];
+    InputLocation w;
+    w.file = config.origin.empty() ? table.source : config.origin;
+    w.field = fmt::format("network.connect[{}].to", k + 1);
+    if (c.to_point)
+      throw InputError(w, "a point target needs topology from geometry; with to_reach ids "
+                          "name the downstream reach");
+    auto it = std::find_if(table.reaches.begin(), table.reaches.end(),
+                           [&](const auto& r) { return r.id == c.from; });
+    if (it->to_reach && !it->to_reach->empty())
+      throw InputError(w, fmt::format("reach {} already flows into {} (to_reach)", c.from,
+                                      *it->to_reach));
+    it->to_reach = c.to_reach;
+    problems.push_back(network::reachProblem(
+        ProblemCode::AddedConnection, *it,
+        fmt::format("reach {} flows into {} (network.connect)", c.from, c.to_reach)));
+  }
+}
+
 ReachTable readNetwork(const std::string& source, const ReadOptions& options,
                        ProblemList& problems, ReadSummary* summary_out) {
   const NetworkConfig& config = options.config;
@@ -283,6 +306,24 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
                           fmt::format("layer {} of {} has no features", table.layer, source));
   }
   table.has_to_reach = attrs.hasField("to_reach");
+  // Ids named in the run file must be reaches of the layer (the pieces a
+  // line is cut into come later and keep the line's id as a prefix).
+  auto requireReach = [&](const std::string& id, const std::string& key) {
+    const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
+                                   [&](const auto& r) { return r.id == id; });
+    if (found) return;
+    InputLocation w;
+    w.file = config.origin.empty() ? source : config.origin;
+    w.field = key;
+    throw InputError(w, fmt::format("reach {} is not in layer {} of {}", id, table.layer, source));
+  };
+  for (const auto& id : config.unconnected) requireReach(id, "network.unconnected");
+  for (std::size_t k = 0; k < config.connections.size(); ++k) {
+    const auto& c = config.connections[k];
+    const std::string key = fmt::format("network.connect[{}]", k + 1);
+    requireReach(c.from, key + ".from");
+    if (!c.to_point) requireReach(c.to_reach, key + ".to");
+  }
   if (useGeometryTopology(config, table.has_to_reach, where)) {
     network::geos::TopologyOptions topo;
     topo.snap_tolerance_m = config.snap_tolerance_m;
@@ -293,22 +334,13 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
     topo.outlets = config.outlets;
     topo.gaps_are_errors = config.gaps_are_errors;
     topo.unconnected = config.unconnected;
-    for (const auto& id : config.unconnected) {
-      const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
-                                     [&](const auto& r) {
-                                       return r.id == id || r.id.starts_with(id + ".");
-                                     });
-      if (!found) {
-        InputLocation w;
-        w.file = config.origin.empty() ? source : config.origin;
-        w.field = "network.unconnected";
-        throw InputError(w, fmt::format("reach {} is not in layer {} of {}", id, table.layer, source));
-      }
-    }
+    topo.connections = config.connections;
     summary.topology_from_geometry = true;
     summary.snap_tolerance_m = topo.snap_tolerance_m;
     summary.gap_search_m = topo.gap_search_m;
     summary.topology = network::geos::buildTopologyFromGeometry(table, topo, problems);
+  } else {
+    connectByIds(table, config, problems);
   }
   if (summary_out) *summary_out = summary;
   return table;

@@ -232,6 +232,51 @@ TEST(CheckCommand, EndsOfUnconnectedReachesAreNotReported) {
   EXPECT_EQ(r.err.find("unresolved_gap"), std::string::npos) << r.err;
 }
 
+TEST(CheckCommand, AConnectionInTheRunFileJoinsTheTributary) {
+  const auto r = checkTributaryThirtyMetresShort(
+      "gap_connect", "[[network.connect]]\nfrom = \"trib\"\nto = \"main\"\n");
+  EXPECT_EQ(r.code, 0) << r.err;
+  EXPECT_EQ(r.err.find("probable_gap"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("info added_connection trib "), std::string::npos) << r.err;
+  // main is cut where trib now joins it: main.1, main.2 and trib, one outlet.
+  EXPECT_EQ(summaryValue(r.out, "reaches"), "3");
+  EXPECT_EQ(summaryValue(r.out, "outlets"), "1");
+  EXPECT_EQ(summaryValue(r.out, "confluences"), "1");
+}
+
+TEST(CheckCommand, AConnectionWithIdTopologySetsAMissingDownstreamId) {
+  const auto dir = testsupport::testScratchDir();
+  const std::string in = (dir / "connect_ids.gpkg").string();
+  std::filesystem::remove(in);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}, {"to_reach", OFTString}, {"slope", OFTReal},
+                  {"manning_n", OFTReal},  {"bottom_width", OFTReal}, {"side_slope", OFTReal}};
+  layer.features = {{"LINESTRING (0 0, 0 -1000)", {"a", "", "0.001", "0.035", "5", "2"}},
+                    {"LINESTRING (0 -1000, 0 -2000)", {"b", "", "0.001", "0.035", "5", "2"}}};
+  fixtures::write(in, "GPKG", {layer});
+  const auto ok = run(fmt::format(
+      "check {} --config {}", in,
+      writeRunFile(dir / "connect_ids.toml",
+                   "topology = \"ids\"\n[[network.connect]]\nfrom = \"a\"\nto = \"b\"\n")));
+  EXPECT_EQ(ok.code, 0) << ok.err;
+  EXPECT_EQ(summaryValue(ok.out, "outlets"), "1");  // a now flows into b
+  EXPECT_NE(ok.err.find("info added_connection a "), std::string::npos) << ok.err;
+  const auto point = run(fmt::format(
+      "check {} --config {}", in,
+      writeRunFile(dir / "connect_ids_point.toml",
+                   "topology = \"ids\"\n[[network.connect]]\nfrom = \"a\"\nto = [0, -1000]\n")));
+  EXPECT_EQ(point.code, 1) << point.err;
+  EXPECT_NE(point.err.find("network.connect[1].to"), std::string::npos) << point.err;
+}
+
+TEST(CheckCommand, AConnectionFromAnUnknownReachNamesTheKey) {
+  const auto r = checkTributaryThirtyMetresShort(
+      "gap_connect_unknown", "[[network.connect]]\nfrom = \"tributary\"\nto = \"main\"\n");
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_NE(r.err.find("network.connect[1].from"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("tributary"), std::string::npos) << r.err;
+}
+
 TEST(CheckCommand, AnUnconnectedIdNotInTheLayerIsAnErrorNamingKeyAndId) {
   const auto r = checkTributaryThirtyMetresShort("gap_unknown_id", "unconnected = [\"tributary\"]\n");
   EXPECT_EQ(r.code, 1) << r.err;

@@ -81,6 +81,37 @@ TEST(NetworkConfig, MistakesAreInputErrorsNamingTheKey) {
   fails_at("[network.fields]\ncolour = \"C\"\n", "network.fields.colour");
   fails_at("[network.fields]\nslope = { nme = \"S\" }\n", "network.fields.slope.nme");
   fails_at("[network.fields]\nslope = 3\n", "network.fields.slope");
+  // Named outlets orient the lines: refused with a fixed orientation.
+  fails_at("[network]\norientation = \"digitised\"\noutlets = [\"R1\"]\n", "network.outlets");
+  fails_at("[network]\nconnect = \"R1\"\n", "network.connect");
+  fails_at("[[network.connect]]\nto = \"R2\"\n", "network.connect[1].from");
+  fails_at("[[network.connect]]\nfrom = \"R1\"\n", "network.connect[1].to");
+  fails_at("[[network.connect]]\nfrom = \"R1\"\nto = [1, 2, 3]\n", "network.connect[1].to");
+  fails_at("[[network.connect]]\nfrom = \"R1\"\nto = \"R1\"\n", "network.connect[1].to");
+  fails_at("[[network.connect]]\nfrom = \"R1\"\nto = \"R2\"\n[[network.connect]]\nfrom = "
+           "\"R3\"\nto = \"R2\"\nvia = 1\n",
+           "network.connect[2].via");
+}
+
+TEST(NetworkConfig, ConnectionsNameAReachOrAPoint) {
+  const auto cfg = NetworkConfig::fromString(R"(
+[[network.connect]]
+from = "trib"
+to = "main"
+
+[[network.connect]]
+from = 12
+to = [5000.5, -20]
+)",
+                                             "run.toml");
+  ASSERT_EQ(cfg.connections.size(), 2u);
+  EXPECT_EQ(cfg.connections[0].from, "trib");
+  EXPECT_EQ(cfg.connections[0].to_reach, "main");
+  EXPECT_FALSE(cfg.connections[0].to_point.has_value());
+  EXPECT_EQ(cfg.connections[1].from, "12");
+  ASSERT_TRUE(cfg.connections[1].to_point.has_value());
+  EXPECT_DOUBLE_EQ(cfg.connections[1].to_point->x, 5000.5);
+  EXPECT_DOUBLE_EQ(cfg.connections[1].to_point->y, -20.0);
 }
 
 TEST(NetworkConfig, SyntaxErrorGivesTheLine) {

@@ -436,3 +436,199 @@ TEST(GeometryTopology, AnUnconnectedIdNotInTheTableIsRefused) {
     EXPECT_NE(std::string(e.what()).find("tributary"), std::string::npos) << e.what();
   }
 }
+
+// ---------------------------------------------------------------- several outlets
+
+namespace {
+
+TopologyOptions toOutlets(std::vector<std::string> outlets) {
+  TopologyOptions opt;
+  opt.orientation = Orientation::Outlets;
+  opt.outlets = std::move(outlets);
+  return opt;
+}
+
+}  // namespace
+
+TEST(GeometryTopology, BothNamedMouthsOfADeltaAreOutlets) {
+  // A river splits at (0, 0) into two distributaries reaching the sea at
+  // two mouths. With one outlet the second mouth's channel would have to
+  // flow uphill into the first; with both named, every line keeps its
+  // digitised direction and the junction is a bifurcation.
+  ReachTable t;
+  t.reaches = {line("river", {{0, 3000}, {0, 0}}), line("west", {{0, 0}, {-800, -1500}}),
+               line("east", {{0, 0}, {900, -2500}})};
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, toOutlets({"west", "east"}), ps);
+  auto m = byId(t);
+  EXPECT_EQ(s.flipped, 0u);
+  EXPECT_EQ(down(m, "river"), "east;west");
+  EXPECT_EQ(down(m, "west"), "(outlet)");
+  EXPECT_EQ(down(m, "east"), "(outlet)");
+  // Only one named: the other mouth's channel turns into a tributary (the
+  // single-outlet rule), which is what naming both prevents.
+  ReachTable one;
+  one.reaches = {line("river", {{0, 3000}, {0, 0}}), line("west", {{0, 0}, {-800, -1500}}),
+                 line("east", {{0, 0}, {900, -2500}})};
+  ProblemList ps1;
+  geos::buildTopologyFromGeometry(one, toOutlets({"west"}), ps1);
+  EXPECT_EQ(down(byId(one), "east"), "west");
+}
+
+TEST(GeometryTopology, ADistributaryDigitisedUpstreamIsTurnedTowardsItsMouth) {
+  ReachTable t;
+  t.reaches = {line("river", {{0, 3000}, {0, 0}}), line("west", {{0, 0}, {-800, -1500}}),
+               line("east", {{900, -2500}, {0, 0}})};  // digitised from the mouth
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, toOutlets({"west", "east"}), ps);
+  auto m = byId(t);
+  EXPECT_EQ(s.flipped, 1u);
+  EXPECT_TRUE(m["east"].reoriented);
+  EXPECT_EQ(down(m, "river"), "east;west");
+  EXPECT_EQ(down(m, "east"), "(outlet)");
+  const Problem* p = find(ps, ProblemCode::FlippedLine, "east");
+  ASSERT_NE(p, nullptr);
+  // The reason names the outlet and the distance along the network (the
+  // line's own length, hypot(900, 2500) = 2657 m).
+  EXPECT_NE(p->message.find("towards outlet east (2657 m"), std::string::npos) << p->message;
+}
+
+TEST(GeometryTopology, AChannelBetweenTwoDistributariesKeepsItsDigitisedDirection) {
+  // Two distributaries, each in two lines, joined by a cross channel "x"
+  // from P (-250, -500) on the west arm, 304 m above its mouth, to Q
+  // (250, -500) on the east arm, 2030 m above its mouth. Both of x's ends
+  // drain to a mouth without it, so it keeps its digitised direction P -> Q
+  // even though Q is farther from an outlet.
+  ReachTable t;
+  t.reaches = {line("river", {{0, 3000}, {0, 0}}),
+               line("w1", {{0, 0}, {-250, -500}}), line("w2", {{-250, -500}, {-300, -800}}),
+               line("e1", {{0, 0}, {250, -500}}), line("e2", {{250, -500}, {600, -2500}}),
+               line("x", {{-250, -500}, {250, -500}})};
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, toOutlets({"w2", "e2"}), ps);
+  auto m = byId(t);
+  EXPECT_EQ(s.flipped, 0u);
+  EXPECT_EQ(down(m, "x"), "e2");
+  EXPECT_EQ(down(m, "w1"), "w2;x");
+  EXPECT_EQ(down(m, "e1"), "e2");
+}
+
+TEST(GeometryTopology, TheLongerArmOfABraidDigitisedBackwardsIsTurned) {
+  // up -> A, then two arms A -> B, then down. The long arm was digitised
+  // from B to A: keeping that would make a loop A -> B -> A, so it turns.
+  ReachTable t;
+  t.reaches = {line("up", {{0, 1000}, {0, 0}}), line("short", {{0, 0}, {0, -1000}}),
+               line("long", {{0, -1000}, {400, -500}, {0, 0}}),
+               line("down", {{0, -1000}, {0, -2000}})};
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, toOutlets({}), ps);
+  auto m = byId(t);
+  EXPECT_EQ(s.flipped, 1u);
+  EXPECT_TRUE(m["long"].reoriented);
+  EXPECT_EQ(down(m, "up"), "long;short");
+  EXPECT_EQ(down(m, "long"), "down");
+  EXPECT_EQ(down(m, "short"), "down");
+}
+
+TEST(GeometryTopology, ZWinsOverTheDistanceToAnOutlet) {
+  // "k" runs from the outlet's junction up to a free end, and its Z says
+  // that is downhill: it keeps its direction (its top end becomes a second
+  // outlet), where without Z it would be turned towards the named outlet.
+  auto build = [](double z0, double z1) {
+    ReachTable t;
+    t.reaches = {line("o", {{0, 0}, {0, -100}}), line("h", {{100, 0}, {0, 0}}),
+                 line("k", {{0, 0, z0}, {0, 100, z1}})};
+    ProblemList ps;
+    geos::buildTopologyFromGeometry(t, toOutlets({"o"}), ps);
+    return byId(t);
+  };
+  auto with_z = build(5, 3);
+  EXPECT_FALSE(with_z["k"].reoriented);
+  EXPECT_EQ(down(with_z, "k"), "(outlet)");
+  auto without_z = build(NAN, NAN);
+  EXPECT_TRUE(without_z["k"].reoriented);
+  EXPECT_EQ(down(without_z, "k"), "o");
+}
+
+TEST(GeometryTopology, NamedOutletsOrientEvenWithAutomaticOrientation) {
+  ReachTable t;
+  t.reaches = {line("c", {{0, 0}, {0, 100}}), line("b", {{0, 100}, {0, 200}})};
+  TopologyOptions opt;  // orientation auto, no Z: digitised unless outlets are named
+  opt.outlets = {"c"};
+  ProblemList ps;
+  geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(down(byId(t), "b"), "c");
+}
+
+TEST(GeometryTopology, UnknownOutletsAndOutletsWithoutAFreeEndAreErrors) {
+  ReachTable t;
+  t.reaches = {line("a", {{0, 0}, {0, 100}}), line("mid", {{0, 100}, {0, 200}}),
+               line("z", {{0, 200}, {0, 300}})};
+  ProblemList ps;
+  geos::buildTopologyFromGeometry(t, toOutlets({"mid", "nonesuch"}), ps);
+  const Problem* not_at_end = find(ps, ProblemCode::OutletNotAtEnd, "mid");
+  ASSERT_NE(not_at_end, nullptr);
+  EXPECT_EQ(not_at_end->severity, Severity::Error);
+  const Problem* unknown = find(ps, ProblemCode::UnknownOutlet, "nonesuch");
+  ASSERT_NE(unknown, nullptr);
+  EXPECT_EQ(unknown->severity, Severity::Error);
+}
+
+// ---------------------------------------------------------------- connections
+
+TEST(GeometryTopology, AConnectionJoinsAnEndAcrossAKnownGap) {
+  // The tributary stops 150 m short of the main line (a gap the search
+  // reports); the connection extends it to the main line, which is cut there.
+  auto table = [] {
+    ReachTable t;
+    t.reaches = {line("main", {{0, 0}, {0, -4000}}, 4000),
+                 line("trib", {{1500, -1000}, {150, -1000}}, 1350)};
+    return t;
+  };
+  ReachTable plain = table();
+  ProblemList ps0;
+  TopologyOptions opt;
+  opt.gap_search_m = 200;
+  geos::buildTopologyFromGeometry(plain, opt, ps0);
+  EXPECT_EQ(count(ps0, ProblemCode::ProbableGap), 1u);
+
+  ReachTable t = table();
+  opt.connections = {{"trib", "main", std::nullopt}};
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  auto m = byId(t);
+  EXPECT_EQ(s.splits, 1u);
+  EXPECT_EQ(count(ps, ProblemCode::ProbableGap), 0u);
+  EXPECT_EQ(down(m, "trib"), "main.2");
+  EXPECT_NEAR(m["trib"].length_m, 1500.0, 1e-9);  // the 150 m segment added
+  EXPECT_DOUBLE_EQ(m["trib"].line.back().x, 0.0);
+  const Problem* p = find(ps, ProblemCode::AddedConnection, "trib");
+  ASSERT_NE(p, nullptr);
+  EXPECT_EQ(p->severity, Severity::Info);
+  EXPECT_NE(p->message.find("150 m"), std::string::npos) << p->message;
+}
+
+TEST(GeometryTopology, AConnectionToAPointJoinsTheLinesEndingThere) {
+  // Two lines end on either side of a 60 m gap (a culvert not in the
+  // layer); the connection takes "upper" to the first vertex of "lower".
+  ReachTable t;
+  t.reaches = {line("upper", {{0, 1000}, {0, 60}}), line("lower", {{0, 0}, {0, -1000}})};
+  TopologyOptions opt;
+  Point3 target;
+  target.x = 0;
+  target.y = 0;
+  opt.connections = {{"upper", "", target}};
+  ProblemList ps;
+  geos::buildTopologyFromGeometry(t, opt, ps);
+  EXPECT_EQ(down(byId(t), "upper"), "lower");
+  EXPECT_EQ(count(ps, ProblemCode::ProbableGap), 0u);
+}
+
+TEST(GeometryTopology, AConnectionFromAnUnknownReachIsRefused) {
+  ReachTable t;
+  t.reaches = {line("a", {{0, 0}, {0, 100}})};
+  TopologyOptions opt;
+  opt.connections = {{"nonesuch", "a", std::nullopt}};
+  ProblemList ps;
+  EXPECT_THROW(geos::buildTopologyFromGeometry(t, opt, ps), reachwise::InvalidParameter);
+}

@@ -55,6 +55,10 @@ struct NetworkConfig {
   bool gaps_are_errors = true;
   /// `unconnected`: reach ids whose ends are never reported as probable gaps.
   std::vector<std::string> unconnected;
+  /// `[[network.connect]]`: ends to join (`from`, and `to` a reach id or an
+  /// [x, y] point in the layer's CRS units). With topology from ids, a reach
+  /// target sets `to_reach` of a reach that has none.
+  std::vector<network::geos::Connection> connections;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 

@@ -42,7 +42,9 @@ enum class ProblemCode : std::uint8_t {
   UnresolvedGap,
   ClosedLine,
   UnknownOutlet,
+  OutletNotAtEnd,
   NearMiss,
+  AddedConnection,
   // the graph (validate)
   UnknownToReach,
   SelfLoop,

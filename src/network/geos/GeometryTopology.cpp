@@ -236,6 +236,75 @@ std::size_t splitLines(const GeosContext& ctx, ReachTable& table, const Metric& 
   return n_split;
 }
 
+// ---------------------------------------------------------------- connections
+
+/// The point at planar distance `measure` (CRS units) along `line`.
+Point3 pointAt(const std::vector<Point3>& line, double measure) {
+  const std::vector<double> m = measures(line);
+  for (std::size_t i = 1; i < line.size(); ++i) {
+    if (measure > m[i] && i + 1 < line.size()) continue;
+    const double seg = m[i] - m[i - 1];
+    return interpolate(line[i - 1], line[i], seg > 0 ? std::clamp((measure - m[i - 1]) / seg, 0.0, 1.0) : 0.0);
+  }
+  return line.back();
+}
+
+std::size_t recordOf(const ReachTable& table, const std::string& id, const char* key) {
+  for (std::size_t i = 0; i < table.reaches.size(); ++i)
+    if (table.reaches[i].id == id) {
+      if (!usable(table.reaches[i]))
+        throw InvalidParameter(key, "reach " + id + " has no usable line");
+      return i;
+    }
+  throw InvalidParameter(key, "reach " + id + " is not in the layer");
+}
+
+/// Extends the end of each connection's `from` line nearest to its target
+/// by a straight segment to the target (the nearest point of the target
+/// line, or the given point), so that cutting and snapping join it there.
+void addConnections(ReachTable& table, const Metric& metric, const TopologyOptions& opt,
+                    ProblemList& problems) {
+  for (const Connection& c : opt.connections) {
+    const std::size_t i = recordOf(table, c.from, "connect.from");
+    ReachRecord& r = table.reaches[i];
+    Point3 targets[2];
+    double dist[2];
+    std::string target_name;
+    for (int end = 0; end < 2; ++end) {
+      const Point3& p = end == 0 ? r.line.front() : r.line.back();
+      if (c.to_point) {
+        targets[end] = *c.to_point;
+        dist[end] = metric.pointDistance(p, *c.to_point);
+      } else {
+        const std::size_t j = recordOf(table, c.to_reach, "connect.to");
+        if (j == i) throw InvalidParameter("connect.to", "reach " + c.from + " cannot be joined to itself");
+        const Nearest n = metric.nearest(table.reaches[j].line, p);
+        targets[end] = pointAt(table.reaches[j].line, n.measure);
+        dist[end] = n.distance_m;
+      }
+    }
+    target_name = c.to_point ? fmt::format("point ({:g}, {:g})", c.to_point->x, c.to_point->y)
+                             : c.to_reach;
+    const int end = dist[1] <= dist[0] ? 1 : 0;
+    Point3 at = targets[end];
+    at.z = (end == 0 ? r.line.front() : r.line.back()).z;  // the end keeps its own Z
+    if (dist[end] > 0) {
+      if (end == 0)
+        r.line.insert(r.line.begin(), at);
+      else
+        r.line.push_back(at);
+    }
+    const double added = dist[end];
+    const bool length_from_geometry = r.length_m == r.geometry_length_m;
+    r.geometry_length_m = (opt.line_length_m ? opt.line_length_m(r.line) : metric.lineLength(r.line));
+    if (length_from_geometry) r.length_m = r.geometry_length_m;
+    problems.push_back(reachProblem(
+        ProblemCode::AddedConnection, r, at.x, at.y,
+        fmt::format("the {} end of {} is joined to {} by a {:.3g} m segment (network.connect)",
+                    end == 0 ? "first" : "last", r.id, target_name, added)));
+  }
+}
+
 // ---------------------------------------------------------------- snapping
 
 struct UnionFind {
@@ -303,7 +372,7 @@ Graph snapEnds(const GeosContext& ctx, ReachTable& table, const Metric& metric, 
 
 // ---------------------------------------------------------------- orientation
 
-void flip(ReachRecord& r, Graph& g, std::size_t i, ProblemList& problems, const char* why) {
+void flip(ReachRecord& r, Graph& g, std::size_t i, ProblemList& problems, const std::string& why) {
   std::reverse(r.line.begin(), r.line.end());
   r.reoriented = !r.reoriented;
   std::swap(g.from[i], g.to[i]);
@@ -411,22 +480,49 @@ bool matchesOutlet(const std::string& id, const std::vector<std::string>& outlet
   return false;
 }
 
-/// The outlet node of the component reached by `b`.
-std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
-                         const std::vector<std::vector<std::size_t>>& inc, Bfs& b,
-                         const TopologyOptions& opt) {
-  std::vector<std::size_t> named, leaves;
-  for (std::size_t u : b.order) {
-    if (inc[u].size() != 1) continue;
-    const std::size_t rec = inc[u].front();
-    leaves.push_back(u);
-    if (matchesOutlet(table.reaches[rec].id, opt.outlets)) named.push_back(u);
+/// The outlet node of each named outlet: the first free end (a node no
+/// other line touches) that is a digitised downstream end of a reach
+/// carrying the name, else the first free digitised upstream end. Names
+/// that are no reach (`unknown_outlet`) or have no free end
+/// (`outlet_not_at_end`) are errors.
+std::vector<bool> namedOutletNodes(const ReachTable& table, const Graph& g,
+                                   const std::vector<std::vector<std::size_t>>& inc,
+                                   const TopologyOptions& opt, ProblemList& problems) {
+  std::vector<bool> outlet(g.node.size(), false);
+  for (const auto& o : opt.outlets) {
+    std::size_t at_down = npos, at_up = npos;
+    const ReachRecord* named = nullptr;
+    for (std::size_t i = 0; i < table.reaches.size(); ++i) {
+      if (!matchesOutlet(table.reaches[i].id, {o})) continue;
+      if (!named) named = &table.reaches[i];
+      if (g.from[i] == npos || g.from[i] == g.to[i]) continue;
+      if (at_down == npos && inc[g.to[i]].size() == 1) at_down = g.to[i];
+      if (at_up == npos && inc[g.from[i]].size() == 1) at_up = g.from[i];
+    }
+    if (at_down != npos || at_up != npos) {
+      outlet[at_down != npos ? at_down : at_up] = true;
+    } else if (named) {
+      problems.push_back(reachProblem(
+          ProblemCode::OutletNotAtEnd, *named,
+          fmt::format("outlet {} named in the config has no free end: other lines meet both its "
+                      "ends, so no flow can leave the network there",
+                      o)));
+    } else {
+      Problem p(ProblemCode::UnknownOutlet,
+                fmt::format("outlet {} named in the config is not a reach of the layer", o));
+      p.reach_id = o;
+      problems.push_back(std::move(p));
+    }
   }
-  // A named single-line part has two free ends: prefer its digitised downstream end.
-  std::sort(named.begin(), named.end(), [&](std::size_t a, std::size_t c) {
-    return (g.to[inc[a].front()] == a) > (g.to[inc[c].front()] == c);
-  });
-  if (!named.empty()) return named.front();
+  return outlet;
+}
+
+/// The outlet node of a connected part without a named outlet (reached by `b`).
+std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
+                         const std::vector<std::vector<std::size_t>>& inc, Bfs& b) {
+  std::vector<std::size_t> leaves;
+  for (std::size_t u : b.order)
+    if (inc[u].size() == 1) leaves.push_back(u);
   if (leaves.empty()) return b.order.front();  // a ring: keep digitising order
   b.flipCounts(g);
   const auto& cost = b.cost;
@@ -445,46 +541,136 @@ std::size_t chooseOutlet(const ReachTable& table, const Graph& g,
   });
 }
 
-std::size_t orientToOutlets(ReachTable& table, Graph& g, const TopologyOptions& opt,
-                            ProblemList& problems) {
-  const auto inc = incidence(g);
-  std::vector<bool> seen(g.node.size(), false);
-  std::vector<bool> done(table.reaches.size(), false);
-  Bfs b(g.node.size());
-  std::size_t flips = 0;
-  for (std::size_t start = 0; start < g.node.size(); ++start) {
-    if (seen[start] || inc[start].empty()) continue;
-    b.run(g, inc, start);
-    for (std::size_t u : b.order) seen[u] = true;
-    const std::size_t outlet = chooseOutlet(table, g, inc, b, opt);
-    b.run(g, inc, outlet);
-    for (std::size_t u : b.order) {
-      for (std::size_t rec : inc[u]) {
-        if (done[rec]) continue;
-        done[rec] = true;
-        const std::size_t v = other(g, rec, u);
-        // Flow goes from the end farther from the outlet; level ends keep digitising order.
-        const std::size_t up = b.depth[u] > b.depth[v] ? u : v;
-        if (b.depth[u] == b.depth[v] || g.from[rec] == up) continue;
-        flip(table.reaches[rec], g, rec, problems, "oriented to flow towards its outlet");
-        ++flips;
+/// +1 when the line's digitised direction runs downhill, -1 uphill, 0 when
+/// neither Z at both ends nor both elevation fields tell.
+int elevationSign(const ReachRecord& r, std::string& why) {
+  const double z0 = r.line.front().z, z1 = r.line.back().z;
+  if (std::isfinite(z0) && std::isfinite(z1) && z0 != z1) {
+    why = fmt::format("its first vertex is lower than its last (Z {:g} < {:g})", z0, z1);
+    return z0 > z1 ? 1 : -1;
+  }
+  const double up = r.up_elevation_m, down = r.down_elevation_m;
+  if (std::isfinite(up) && std::isfinite(down) && up != down) {
+    why = fmt::format("its up_elevation is lower than its down_elevation ({:g} < {:g} m)", up, down);
+    return up > down ? 1 : -1;
+  }
+  return 0;
+}
+
+/// Distance along the network (metres) from every node to its nearest
+/// outlet node, and that outlet (multi-source Dijkstra).
+struct Potential {
+  std::vector<double> dist;
+  std::vector<std::size_t> outlet;
+};
+
+Potential distancesToOutlets(const Graph& g, const std::vector<std::vector<std::size_t>>& inc,
+                             const std::vector<bool>& is_outlet, const std::vector<double>& len) {
+  Potential p{std::vector<double>(g.node.size(), std::numeric_limits<double>::infinity()),
+              std::vector<std::size_t>(g.node.size(), npos)};
+  using Item = std::pair<double, std::size_t>;
+  std::priority_queue<Item, std::vector<Item>, std::greater<>> q;
+  for (std::size_t u = 0; u < g.node.size(); ++u)
+    if (is_outlet[u]) {
+      p.dist[u] = 0;
+      p.outlet[u] = u;
+      q.push({0.0, u});
+    }
+  while (!q.empty()) {
+    const auto [d, u] = q.top();
+    q.pop();
+    if (d > p.dist[u]) continue;
+    for (std::size_t rec : inc[u]) {
+      const std::size_t v = other(g, rec, u);
+      const double dv = d + len[rec];
+      if (dv < p.dist[v]) {
+        p.dist[v] = dv;
+        p.outlet[v] = p.outlet[u];
+        q.push({dv, v});
       }
     }
   }
-  return flips;
+  return p;
 }
 
-void reportUnknownOutlets(const ReachTable& table, const TopologyOptions& opt,
-                          ProblemList& problems) {
-  for (const auto& o : opt.outlets) {
-    const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
-                                   [&](const ReachRecord& r) { return matchesOutlet(r.id, {o}); });
-    if (found) continue;
-    Problem p(ProblemCode::UnknownOutlet,
-              fmt::format("outlet {} named in the config is not a reach of the layer", o));
-    p.reach_id = o;
-    problems.push_back(std::move(p));
+/// Orientation::Outlets (see TopologyOptions::outlets).
+std::size_t orientToOutlets(ReachTable& table, Graph& g, const Metric& metric,
+                            const TopologyOptions& opt, ProblemList& problems) {
+  const auto inc = incidence(g);
+  std::vector<bool> is_outlet = namedOutletNodes(table, g, inc, opt, problems);
+  // A part without a named outlet gets one.
+  std::vector<bool> seen(g.node.size(), false);
+  Bfs b(g.node.size());
+  for (std::size_t start = 0; start < g.node.size(); ++start) {
+    if (seen[start] || inc[start].empty()) continue;
+    b.run(g, inc, start);
+    bool named = false;
+    for (std::size_t u : b.order) {
+      seen[u] = true;
+      named = named || is_outlet[u];
+    }
+    if (!named) is_outlet[chooseOutlet(table, g, inc, b)] = true;
   }
+  const std::size_t n = table.reaches.size();
+  std::vector<double> len(n, 0.0);
+  for (std::size_t i = 0; i < n; ++i)
+    if (g.from[i] != npos) len[i] = metric.lineLength(table.reaches[i].line);
+  const Potential pot = distancesToOutlets(g, inc, is_outlet, len);
+
+  // Each line flows from its end farther from an outlet (ties: digitised),
+  // unless elevations say otherwise.
+  std::vector<std::size_t> up(n, npos);
+  std::vector<std::string> elevation_why(n);
+  std::vector<std::vector<std::size_t>> out(g.node.size());
+  for (std::size_t i = 0; i < n; ++i) {
+    if (g.from[i] == npos || g.from[i] == g.to[i]) continue;
+    const std::size_t a = g.from[i], c = g.to[i];
+    const int sign = elevationSign(table.reaches[i], elevation_why[i]);
+    up[i] = sign > 0 ? a : sign < 0 ? c : pot.dist[c] > pot.dist[a] ? c : a;
+    out[up[i]].push_back(i);
+  }
+  // A line that would be reversed keeps its digitised direction a -> c when
+  // both its ends still drain without it: c has another way out, a is no
+  // outlet, and c does not lead back to a (no loop).
+  std::vector<std::size_t> stamp(g.node.size(), npos);
+  auto reaches = [&](std::size_t from, std::size_t target, std::size_t skip) {
+    std::vector<std::size_t> stack{from};
+    stamp[from] = skip;
+    while (!stack.empty()) {
+      const std::size_t u = stack.back();
+      stack.pop_back();
+      if (u == target) return true;
+      for (std::size_t rec : out[u]) {
+        const std::size_t v = other(g, rec, u);
+        if (rec == skip || stamp[v] == skip) continue;
+        stamp[v] = skip;
+        stack.push_back(v);
+      }
+    }
+    return false;
+  };
+  for (std::size_t i = 0; i < n; ++i) {
+    if (up[i] == npos || up[i] == g.from[i] || !elevation_why[i].empty()) continue;
+    const std::size_t a = g.from[i], c = g.to[i];
+    if (is_outlet[a] || out[c].size() < 2 || reaches(c, a, i)) continue;
+    out[c].erase(std::find(out[c].begin(), out[c].end(), i));
+    out[a].push_back(i);
+    up[i] = a;
+  }
+  std::size_t flips = 0;
+  for (std::size_t i = 0; i < n; ++i) {
+    if (up[i] == npos || up[i] == g.from[i]) continue;
+    const std::size_t down = g.from[i];
+    const std::string why =
+        !elevation_why[i].empty()
+            ? elevation_why[i]
+            : fmt::format("it flows towards outlet {} ({:.0f} m along the network)",
+                          table.reaches[inc[pot.outlet[down]].front()].id,
+                          pot.dist[down] + len[i]);
+    flip(table.reaches[i], g, i, problems, why);
+    ++flips;
+  }
+  return flips;
 }
 
 // ---------------------------------------------------------------- links and gaps
@@ -612,16 +798,15 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
   const Metric metric(crs);
   GeosContext ctx;
   TopologySummary summary;
+  addConnections(table, metric, options, problems);
   summary.splits = splitLines(ctx, table, metric, options, tol_m, problems);
   Graph g = snapEnds(ctx, table, metric, tol_m);
   summary.nodes = g.node.size();
   Orientation how = options.orientation;
-  if (how == Orientation::Auto) how = resolveAuto(table, g);
+  if (how == Orientation::Auto)
+    how = options.outlets.empty() ? resolveAuto(table, g) : Orientation::Outlets;
   if (how == Orientation::Elevation) summary.flipped = orientByElevation(table, g, problems);
-  if (how == Orientation::Outlets) {
-    reportUnknownOutlets(table, options, problems);
-    summary.flipped = orientToOutlets(table, g, options, problems);
-  }
+  if (how == Orientation::Outlets) summary.flipped = orientToOutlets(table, g, metric, options, problems);
   linkDownstream(table, g, problems);
   const auto loose = looseEnds(ctx, table, g, metric, tol_m, std::max(search_m, kNearMissBandsM.back()));
   summary.probable_gaps = reportGaps(table, loose, tol_m, search_m, options, problems);

@@ -8,6 +8,7 @@
 #include <cstdint>
 #include <functional>
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -21,7 +22,17 @@ enum class Orientation {
   Auto,       ///< Elevation when every line has Z at both ends (not all level), else Digitised
   Digitised,  ///< first vertex upstream, last vertex downstream
   Elevation,  ///< the higher end (Z) is upstream; level lines keep digitising order
-  Outlets,    ///< each connected part flows towards its outlet (see TopologyOptions::outlets)
+  Outlets,    ///< each connected part flows towards its outlet(s) (see TopologyOptions::outlets)
+};
+
+/// A connection the user asks for (`[[network.connect]]`): the end of
+/// `from` nearest to the target is extended by a straight segment to the
+/// nearest point of the line `to_reach`, or to the point `to_point` (CRS
+/// units); the normal cutting and snapping then join it there.
+struct Connection {
+  std::string from;                     ///< reach id (a cut line's pieces `<id>.k` are not yet cut)
+  std::string to_reach;                 ///< target reach id; empty when to_point is used
+  std::optional<Point3> to_point;       ///< target point in CRS units
 };
 
 /// How distances in metres relate to the coordinates of the lines.
@@ -50,14 +61,27 @@ struct TopologyOptions {
   /// planar length × crs.metres_per_unit, or the geodesic length on a
   /// geographic CRS.
   std::function<double(const std::vector<Point3>&)> line_length_m;
+  /// Orientation::Auto with named `outlets` orients to the outlets.
   Orientation orientation = Orientation::Auto;
-  /// Outlet reach ids for Orientation::Outlets (a split line's pieces
-  /// `<id>.k` count as `<id>`). A connected part without a named outlet
-  /// flows towards the free line end (no continuation) that needs the
-  /// fewest lines reversed; on a tie, the end of the widest line (bottom
-  /// width, else diameter), then an end that is its line's digitised
-  /// downstream end, wins.
+  /// Outlet reach ids (a split line's pieces `<id>.k` count as `<id>`); each
+  /// outlet is the free end (no other line there) of its reach, the
+  /// digitised downstream end when both are free. With
+  /// Orientation::Outlets every line flows towards the nearest outlet of
+  /// its connected part along the network (by length), except that:
+  ///  - a line with Z at both ends (not level), else with both elevation
+  ///    fields (not equal), flows downhill;
+  ///  - a line that would be reversed keeps its digitised direction when
+  ///    both its ends still lead to an outlet without it (a channel
+  ///    between two distributaries of a delta, the second arm of a braid)
+  ///    and keeping it makes no loop.
+  /// A connected part without a named outlet flows towards the one free
+  /// end that needs the fewest lines reversed; on a tie, the end of the
+  /// widest line (bottom width, else diameter), then an end that is its
+  /// line's digitised downstream end, wins.
   std::vector<std::string> outlets;
+  /// Connections to add before cutting and snapping (see Connection); ids
+  /// must be in the table (InvalidParameter otherwise).
+  std::vector<Connection> connections;
   /// How a probable gap is reported: a `probable_gap` error (the default;
   /// the network is refused) or, when false, an `unresolved_gap` warning
   /// (the end stays a headwater or outlet).
@@ -127,9 +151,13 @@ struct TopologySummary {
 /// only against lines the end is not already joined to, i.e. not its own
 /// line nor a line sharing a node with it), `closed_line` (error: both ends
 /// on one node), `unresolved_gap` (warning: a probable gap when
-/// options.gaps_are_errors is false), `unknown_outlet` (warning: a configured outlet id is not in the table).
+/// options.gaps_are_errors is false), `unknown_outlet` (error: a configured
+/// outlet id is not in the table), `outlet_not_at_end` (error: no end of the
+/// named reach is free), `added_connection` (info, one per Connection).
 /// Records with fewer than two vertices or non-finite coordinates are left
 /// out of the topology (their `to_reach` is cleared); the reader reports them.
+/// Before step 1, each of options.connections extends its reach's nearest
+/// end to the target (`added_connection`).
 TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptions& options,
                                           ProblemList& problems);
 
