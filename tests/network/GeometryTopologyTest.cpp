@@ -605,7 +605,33 @@ TEST(GeometryTopology, AConnectionJoinsAnEndAcrossAKnownGap) {
   const Problem* p = find(ps, ProblemCode::AddedConnection, "trib");
   ASSERT_NE(p, nullptr);
   EXPECT_EQ(p->severity, Severity::Info);
-  EXPECT_NE(p->message.find("150 m"), std::string::npos) << p->message;
+  EXPECT_NE(p->message.find("extended to main (the line is 150 m longer"), std::string::npos)
+      << p->message;
+}
+
+TEST(GeometryTopology, AConnectionCutsAnOvershootBackToTheCrossing) {
+  // As in OvershootAcrossTheMainStemIsAGapAsBefore: trib crosses main and
+  // ends 30 m past it. Connected to main, it is cut back to the crossing at
+  // (0, 9.87) (on the line from (1500, 500) to (-30, 0): y = 500 * 30 / 1530
+  // at x = 0) and joins main there.
+  ReachTable t;
+  t.reaches = {line("main", {{0, 2000}, {0, -2000}}, 4000),
+               line("trib", {{1500, 500}, {-30, 0}}, std::hypot(1530.0, 500.0))};
+  TopologyOptions opt;
+  opt.connections = {{"trib", "main", std::nullopt}};
+  ProblemList ps;
+  const auto s = geos::buildTopologyFromGeometry(t, opt, ps);
+  auto m = byId(t);
+  EXPECT_EQ(s.probable_gaps, 0u);
+  EXPECT_EQ(s.splits, 1u);
+  EXPECT_EQ(down(m, "trib"), "main.2");
+  EXPECT_DOUBLE_EQ(m["trib"].line.back().x, 0.0);
+  EXPECT_NEAR(m["trib"].line.back().y, 500.0 * 30.0 / 1530.0, 1e-9);
+  // The 30 m overshoot along x is hypot(30, 9.8) = 31.6 m of line.
+  EXPECT_NEAR(m["trib"].length_m, std::hypot(1500.0, 500.0 - 500.0 * 30.0 / 1530.0), 1e-9);
+  const Problem* p = find(ps, ProblemCode::AddedConnection, "trib");
+  ASSERT_NE(p, nullptr);
+  EXPECT_NE(p->message.find("cut back"), std::string::npos) << p->message;
 }
 
 TEST(GeometryTopology, AConnectionToAPointJoinsTheLinesEndingThere) {

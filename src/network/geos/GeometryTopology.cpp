@@ -259,9 +259,39 @@ std::size_t recordOf(const ReachTable& table, const std::string& id, const char*
   throw InvalidParameter(key, "reach " + id + " is not in the layer");
 }
 
-/// Extends the end of each connection's `from` line nearest to its target
-/// by a straight segment to the target (the nearest point of the target
-/// line, or the given point), so that cutting and snapping join it there.
+/// An overshoot: `line`, walked from its first vertex, crosses `target`
+/// within the first half of its length. Returns the line cut at that
+/// crossing (the crossing first) and the planar length cut off, or nullopt.
+std::optional<std::pair<std::vector<Point3>, double>> trimAtCrossing(
+    const std::vector<Point3>& line, const std::vector<Point3>& target) {
+  const std::vector<double> m = measures(line);
+  for (std::size_t k = 1; k < line.size() && m[k - 1] <= 0.5 * m.back(); ++k) {
+    const Point3 &a = line[k - 1], &b = line[k];
+    double best_t = 2;
+    for (std::size_t q = 1; q < target.size(); ++q) {
+      const Point3 &c = target[q - 1], &d = target[q];
+      const double den = (b.x - a.x) * (d.y - c.y) - (b.y - a.y) * (d.x - c.x);
+      if (den == 0) continue;  // parallel
+      const double t = ((c.x - a.x) * (d.y - c.y) - (c.y - a.y) * (d.x - c.x)) / den;
+      const double u = ((c.x - a.x) * (b.y - a.y) - (c.y - a.y) * (b.x - a.x)) / den;
+      if (t >= 0 && t <= 1 && u >= 0 && u <= 1) best_t = std::min(best_t, t);
+    }
+    if (best_t > 1) continue;
+    const double cut = m[k - 1] + best_t * (m[k] - m[k - 1]);
+    if (cut > 0.5 * m.back()) return std::nullopt;
+    std::vector<Point3> kept{interpolate(a, b, best_t)};
+    kept.front().z = line.front().z;  // the end keeps its own Z
+    kept.insert(kept.end(), line.begin() + static_cast<std::ptrdiff_t>(k), line.end());
+    return std::pair{std::move(kept), cut};
+  }
+  return std::nullopt;
+}
+
+/// Joins the end of each connection's `from` line nearest to its target:
+/// a line that crosses the target line near that end (an overshoot) is
+/// cut back to the crossing; otherwise the end is extended by a straight
+/// segment to the target (the nearest point of the target line, or the
+/// given point). Cutting and snapping then join it there.
 void addConnections(ReachTable& table, const Metric& metric, const TopologyOptions& opt,
                     ProblemList& problems) {
   for (const Connection& c : opt.connections) {
@@ -269,7 +299,6 @@ void addConnections(ReachTable& table, const Metric& metric, const TopologyOptio
     ReachRecord& r = table.reaches[i];
     Point3 targets[2];
     double dist[2];
-    std::string target_name;
     for (int end = 0; end < 2; ++end) {
       const Point3& p = end == 0 ? r.line.front() : r.line.back();
       if (c.to_point) {
@@ -283,25 +312,35 @@ void addConnections(ReachTable& table, const Metric& metric, const TopologyOptio
         dist[end] = n.distance_m;
       }
     }
-    target_name = c.to_point ? fmt::format("point ({:g}, {:g})", c.to_point->x, c.to_point->y)
+    const std::string target_name = c.to_point ? fmt::format("point ({:g}, {:g})", c.to_point->x, c.to_point->y)
                              : c.to_reach;
     const int end = dist[1] <= dist[0] ? 1 : 0;
-    Point3 at = targets[end];
-    at.z = (end == 0 ? r.line.front() : r.line.back()).z;  // the end keeps its own Z
-    if (dist[end] > 0) {
-      if (end == 0)
-        r.line.insert(r.line.begin(), at);
-      else
-        r.line.push_back(at);
+    const double before_m = r.geometry_length_m;
+    // Walk the line from the chosen end.
+    if (end == 1) std::reverse(r.line.begin(), r.line.end());
+    std::optional<std::pair<std::vector<Point3>, double>> trimmed;
+    if (!c.to_point) trimmed = trimAtCrossing(r.line, table.reaches[recordOf(table, c.to_reach, "connect.to")].line);
+    std::string how;
+    if (trimmed) {
+      r.line = std::move(trimmed->first);
+      how = "cut back to where it crosses";
+    } else {
+      Point3 at = targets[end];
+      at.z = r.line.front().z;  // the end keeps its own Z
+      if (dist[end] > 0) r.line.insert(r.line.begin(), at);
+      how = "extended to";
     }
-    const double added = dist[end];
+    if (end == 1) std::reverse(r.line.begin(), r.line.end());
     const bool length_from_geometry = r.length_m == r.geometry_length_m;
-    r.geometry_length_m = (opt.line_length_m ? opt.line_length_m(r.line) : metric.lineLength(r.line));
+    r.geometry_length_m = opt.line_length_m ? opt.line_length_m(r.line) : metric.lineLength(r.line);
     if (length_from_geometry) r.length_m = r.geometry_length_m;
+    const Point3& at = end == 0 ? r.line.front() : r.line.back();
     problems.push_back(reachProblem(
         ProblemCode::AddedConnection, r, at.x, at.y,
-        fmt::format("the {} end of {} is joined to {} by a {:.3g} m segment (network.connect)",
-                    end == 0 ? "first" : "last", r.id, target_name, added)));
+        fmt::format("the {} end of {} is {} {} (the line is {:.3g} m {}; network.connect)",
+                    end == 0 ? "first" : "last", r.id, how, target_name,
+                    std::abs(r.geometry_length_m - before_m),
+                    r.geometry_length_m < before_m ? "shorter" : "longer")));
   }
 }
 
