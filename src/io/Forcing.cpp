@@ -64,14 +64,19 @@ std::vector<std::string> MemoryForcingSource::ids(ForcingKind kind) const {
 }
 
 void requireKnownReaches(const ForcingSource& source,
-                         const std::function<bool(std::string_view)>& known) {
-  std::vector<std::string> parts;
+                         const std::function<bool(std::string_view)>& known,
+                         const std::function<std::string(std::string_view)>& hint) {
+  std::vector<std::string> parts, hints;
   std::string first_file;
   std::size_t count = 0;
   for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
     std::vector<std::string> unknown;
-    for (const std::string& id : source.ids(kind))
-      if (!known(id)) unknown.push_back(id);
+    for (const std::string& id : source.ids(kind)) {
+      if (known(id)) continue;
+      unknown.push_back(id);
+      std::string h = hint ? hint(id) : std::string();
+      if (!h.empty() && std::find(hints.begin(), hints.end(), h) == hints.end()) hints.push_back(std::move(h));
+    }
     if (unknown.empty()) continue;
     const std::string file = source.origin(kind);
     if (first_file.empty()) first_file = file;
@@ -82,8 +87,9 @@ void requireKnownReaches(const ForcingSource& source,
   if (count == 0) return;
   InputLocation where;
   where.file = first_file;
-  throw InputError(where, fmt::format("{} reach id{} not in the network ({})", count,
-                                      count == 1 ? " is" : "s are", fmt::join(parts, "; ")));
+  throw InputError(where, fmt::format("{} reach id{} not in the network ({}){}{}", count,
+                                      count == 1 ? " is" : "s are", fmt::join(parts, "; "),
+                                      hints.empty() ? "" : "; ", fmt::join(hints, "; ")));
 }
 
 void requireKnownReaches(const ForcingSource& source, const std::set<std::string, std::less<>>& known) {

@@ -29,6 +29,8 @@ void fillReach(NetworkPlan& plan, const ReachGraph& graph, ReachGraph::Vertex v,
   plan.reach_id.push_back(r.id);
   plan.fid.push_back(r.fid);
   plan.record.push_back(v);
+  plan.line_id.push_back(r.line_id);
+  plan.piece.push_back(r.piece);
   plan.length_m.push_back(graph.lengthM(v));
   try {
     plan.section.push_back(hydraulics::Section::fromSpec(r.section));

@@ -3,6 +3,7 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <map>
 
@@ -448,6 +449,43 @@ TopologyOptions toOutlets(std::vector<std::string> outlets) {
   return opt;
 }
 
+/// A main line M flowing from (0, 0) to (3000, 0), falling from Z 100 to
+/// 70; tributaries T and U end on it at x = 1000 and x = 1800, cutting it
+/// into pieces of 1000, 800 and 1200 m. `reversed`: M is digitised from
+/// its bottom end; elevation orientation turns it back.
+ReachTable mainWithTwoTributaries(bool reversed) {
+  std::vector<Point3> main{{0, 0, 100}, {3000, 0, 70}};
+  if (reversed) std::reverse(main.begin(), main.end());
+  ReachTable t;
+  t.reaches = {line("M", main, 3000), line("T", {{1000, 800, 120}, {1000, 0, 90}}, 800),
+               line("U", {{1800, -600, 110}, {1800, 0, 82}}, 600)};
+  t.reaches[0].base_flow_m3s = 3.0;
+  return t;
+}
+
+struct Built {
+  ReachTable table;
+  ProblemList problems;
+  std::map<std::string, ReachRecord> by_id;
+};
+
+Built buildByElevation(bool reversed) {
+  Built b{mainWithTwoTributaries(reversed), {}, {}};
+  TopologyOptions opt;
+  opt.orientation = Orientation::Elevation;
+  geos::buildTopologyFromGeometry(b.table, opt, b.problems);
+  b.by_id = byId(b.table);
+  return b;
+}
+
+std::vector<std::string> messagesOf(const ProblemList& ps, ProblemCode code) {
+  std::vector<std::string> out;
+  for (const auto& p : ps)
+    if (p.code == code) out.push_back(p.message);
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
 }  // namespace
 
 TEST(GeometryTopology, BothNamedMouthsOfADeltaAreOutlets) {
@@ -657,4 +695,101 @@ TEST(GeometryTopology, AConnectionFromAnUnknownReachIsRefused) {
   opt.connections = {{"nonesuch", "a", std::nullopt}};
   ProblemList ps;
   EXPECT_THROW(geos::buildTopologyFromGeometry(t, opt, ps), reachwise::InvalidParameter);
+}
+
+TEST(GeometryTopology, PiecesAreNumberedWithTheFlowWhateverTheDigitisingDirection) {
+  const Built along = buildByElevation(false);
+  const Built against = buildByElevation(true);
+  EXPECT_EQ(count(along.problems, ProblemCode::FlippedLine), 0u);
+  EXPECT_EQ(count(against.problems, ProblemCode::FlippedLine), 3u);  // every piece of M turned back
+  for (const Built* b : {&along, &against}) {
+    const auto& m = b->by_id;
+    ASSERT_EQ(m.size(), 5u);
+    ASSERT_TRUE(m.count("M.1") && m.count("M.2") && m.count("M.3"));
+    // M.1 is where the flow enters M (the high end, x = 0), M.3 its outlet.
+    EXPECT_DOUBLE_EQ(m.at("M.1").line.front().x, 0.0);
+    EXPECT_DOUBLE_EQ(m.at("M.3").line.back().x, 3000.0);
+    EXPECT_EQ(down(m, "M.1"), "M.2");
+    EXPECT_EQ(down(m, "T"), "M.2");
+    EXPECT_EQ(down(m, "M.2"), "M.3");
+    EXPECT_EQ(down(m, "U"), "M.3");
+    EXPECT_EQ(down(m, "M.3"), "(outlet)");
+    for (unsigned k = 1; k <= 3; ++k) {
+      const auto& r = m.at("M." + std::to_string(k));
+      EXPECT_EQ(r.line_id, "M");
+      EXPECT_EQ(r.piece, k);
+    }
+    EXPECT_TRUE(m.at("T").line_id.empty());
+    EXPECT_EQ(m.at("T").piece, 0u);
+    EXPECT_NEAR(m.at("M.1").length_m, 1000.0, 1e-9);  // from the tributaries' positions
+    EXPECT_NEAR(m.at("M.2").length_m, 800.0, 1e-9);
+    EXPECT_NEAR(m.at("M.3").length_m, 1200.0, 1e-9);
+    // The base flow along M is shared by length, as the length is.
+    double base = 0;
+    for (const char* id : {"M.1", "M.2", "M.3"}) {
+      const auto& r = m.at(id);
+      EXPECT_NEAR(r.base_flow_m3s, 3.0 * r.length_m / 3000.0, 1e-12) << id;
+      base += r.base_flow_m3s;
+    }
+    EXPECT_NEAR(base, 3.0, 1e-12);
+    EXPECT_EQ(messagesOf(b->problems, ProblemCode::SplitLine),
+              (std::vector<std::string>{"line M is cut between M.1 and M.2 where the end of T meets it",
+                                        "line M is cut between M.2 and M.3 where the end of U meets it"}));
+  }
+  // The same id is the same piece of river, vertex for vertex.
+  for (const char* id : {"M.1", "M.2", "M.3"}) {
+    const auto& a = along.by_id.at(id).line;
+    const auto& b = against.by_id.at(id).line;
+    ASSERT_EQ(a.size(), b.size()) << id;
+    for (std::size_t i = 0; i < a.size(); ++i) {
+      EXPECT_DOUBLE_EQ(a[i].x, b[i].x) << id << " vertex " << i;
+      EXPECT_DOUBLE_EQ(a[i].y, b[i].y) << id << " vertex " << i;
+    }
+    EXPECT_DOUBLE_EQ(along.by_id.at(id).length_m, against.by_id.at(id).length_m) << id;
+    EXPECT_FALSE(along.by_id.at(id).reoriented);
+    EXPECT_TRUE(against.by_id.at(id).reoriented);
+  }
+  // The orientation's problems name the pieces by their final ids: each
+  // turned piece is reported at its top, which is where that id lies.
+  for (const auto& p : against.problems) {
+    if (p.code != ProblemCode::FlippedLine) continue;
+    const auto& r = against.by_id.at(p.reach_id);
+    EXPECT_DOUBLE_EQ(p.x, r.line.front().x) << p.reach_id;
+    EXPECT_EQ(p.message.rfind("line " + p.reach_id + " reversed", 0), 0u) << p.message;
+  }
+}
+
+TEST(GeometryTopology, PiecesFlowingDifferentWaysKeepDigitisingOrderWithANote) {
+  // M rises to a crest at x = 1000, where T ends on it: elevation turns the
+  // first piece (it climbs as digitised) but not the second.
+  ReachTable t;
+  t.reaches = {line("M", {{0, 0, 50}, {1000, 0, 100}, {2000, 0, 50}}, 2000),
+               line("T", {{1000, 800, 120}, {1000, 0, 100}}, 800)};
+  TopologyOptions opt;
+  opt.orientation = Orientation::Elevation;
+  ProblemList ps;
+  geos::buildTopologyFromGeometry(t, opt, ps);
+  const auto m = byId(t);
+  ASSERT_TRUE(m.count("M.1") && m.count("M.2"));
+  EXPECT_TRUE(m.at("M.1").reoriented);
+  EXPECT_FALSE(m.at("M.2").reoriented);
+  EXPECT_DOUBLE_EQ(m.at("M.1").line.back().x, 0.0);  // digitised first: the piece at x 0..1000
+  EXPECT_DOUBLE_EQ(m.at("M.2").line.back().x, 2000.0);
+  const auto split = messagesOf(ps, ProblemCode::SplitLine);
+  ASSERT_EQ(split.size(), 1u);
+  EXPECT_NE(split[0].find("between M.1 and M.2"), std::string::npos) << split[0];
+  EXPECT_NE(split[0].find("numbered in digitising order"), std::string::npos) << split[0];
+}
+
+TEST(GeometryTopology, AnUnknownOutletLikeAPieceSaysHowTheLineWasCut) {
+  ReachTable t = mainWithTwoTributaries(false);
+  TopologyOptions opt;
+  opt.orientation = Orientation::Outlets;
+  opt.outlets = {"M.4"};
+  ProblemList ps;
+  geos::buildTopologyFromGeometry(t, opt, ps);
+  const auto unknown = messagesOf(ps, ProblemCode::UnknownOutlet);
+  ASSERT_EQ(unknown.size(), 1u);
+  EXPECT_NE(unknown[0].find("outlet M.4"), std::string::npos) << unknown[0];
+  EXPECT_NE(unknown[0].find("reach M was cut into M.1, M.2, M.3"), std::string::npos) << unknown[0];
 }

@@ -111,9 +111,12 @@ private:
 
 /// Throws one InputError listing every reach id of `source` (both kinds)
 /// for which `known` is false, grouped by file, so that a user fixes them
-/// all in one go. Does nothing when all are known.
+/// all in one go; `hint`, when given, may explain an unknown id (its
+/// sentences, without repeats, follow the list). Does nothing when all
+/// are known.
 void requireKnownReaches(const ForcingSource& source,
-                         const std::function<bool(std::string_view)>& known);
+                         const std::function<bool(std::string_view)>& known,
+                         const std::function<std::string(std::string_view)>& hint = {});
 
 /// Convenience overload for a set of network reach ids.
 void requireKnownReaches(const ForcingSource& source, const std::set<std::string, std::less<>>& known);

@@ -21,6 +21,12 @@ struct NetworkPlan {
   std::vector<std::string> reach_id;           ///< external id (text form)
   std::vector<std::int64_t> fid;               ///< source feature id, -1 when synthetic
   std::vector<std::uint32_t> record;           ///< row in the ReachTable it was built from
+  /// The record's `line_id` and `piece`: for a piece of a line cut by
+  /// topology from geometry, the line's id and the piece's number (1 = top);
+  /// empty / 0 otherwise. A plan put together by hand may leave both
+  /// columns empty (no cut lines).
+  std::vector<std::string> line_id;
+  std::vector<std::uint32_t> piece;
   std::vector<double> length_m;
   std::vector<hydraulics::Section> section;     ///< built and checked by freeze()
   std::vector<double> muskingum_k_s;           ///< Muskingum K in seconds, NaN when not given

@@ -23,6 +23,10 @@ struct ReachRecord {
   static constexpr double kUnset = std::numeric_limits<double>::quiet_NaN();
 
   std::string id;                        ///< external reach id, text form
+  /// For a piece of a line cut by topology from geometry: the line's own
+  /// id (the piece's id is `<line_id>.<piece>`); empty when not cut.
+  std::string line_id;
+  std::uint32_t piece = 0;               ///< 1 = where the flow enters the line, 2, ...; 0 when not cut
   std::int64_t fid = -1;                 ///< source feature id (for messages)
   std::optional<std::string> to_reach;   ///< downstream id; nullopt/empty = outlet (or unknown)
   std::vector<Point3> line;              ///< vertices in CRS units, digitising order unless `reoriented`

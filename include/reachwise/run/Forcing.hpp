@@ -3,7 +3,9 @@
 /// The forcing of a run: the files a user names, opened, checked against
 /// the network and bound to its plan, ready for the router.
 
+#include <cstdint>
 #include <optional>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -26,28 +28,48 @@ struct ForcingFiles {
 /// A forcing source bound to a plan: what the router pulls from, by plan
 /// index (routing::ForcingProvider), read straight into the router's
 /// buffers. `source` and `plan` must outlive it.
+///
+/// Forcing named by the id of a line that topology from geometry cut
+/// into pieces (plan `line_id`) goes to its pieces: an inflow to the top
+/// piece (`<id>.1`), a lateral inflow shared over the pieces in proportion
+/// to their lengths. Forcing for a line and for one of its pieces of the
+/// same kind is refused by RunForcing (checkCutLineForcing), not here.
 class PlanForcing final : public routing::ForcingProvider {
 public:
-  PlanForcing(const io::ForcingSource& source, const network::NetworkPlan& plan) : source_(source), plan_(plan) {}
-  bool inflow(std::uint32_t reach, std::span<double> out) const override {
-    return source_.fill(io::ForcingKind::Inflow, plan_.reach_id[reach], out);
-  }
-  bool lateral(std::uint32_t reach, std::span<double> out) const override {
-    return source_.fill(io::ForcingKind::Lateral, plan_.reach_id[reach], out);
-  }
+  PlanForcing(const io::ForcingSource& source, const network::NetworkPlan& plan);
+  bool inflow(std::uint32_t reach, std::span<double> out) const override;
+  bool lateral(std::uint32_t reach, std::span<double> out) const override;
+  /// One line per cut line whose id the forcing names, saying where its
+  /// series go (`cut_line_forcing <id>: ...`, docs/formats.md).
+  const std::vector<std::string>& notes() const noexcept { return notes_; }
 
 private:
+  /// Per plan reach: what it takes from its line's series (empty when the
+  /// forcing names no cut line).
+  struct FromLine {
+    bool inflow = false;       ///< the top piece: the line's inflow
+    double lateral_share = 0;  ///< > 0: this share of the line's lateral inflow
+  };
   const io::ForcingSource& source_;
   const network::NetworkPlan& plan_;
+  std::vector<FromLine> from_line_;
+  std::vector<std::string> notes_;
 };
+
+/// Throws one InputError when `source` gives forcing of one kind both for
+/// a cut line's id and for one of its pieces (plan `line_id`), naming both
+/// and the file.
+void checkCutLineForcing(const io::ForcingSource& source, const network::NetworkPlan& plan);
 
 /// Forcing opened and bound to a plan. The plan must outlive it.
 class RunForcing {
 public:
   /// Opens the files (`unit`: the network's unit system, which CSV
   /// discharges are in) and checks that they name only reaches of `plan`
-  /// (one InputError lists every unknown id). Throws InputError naming the
-  /// file for a missing or unreadable file.
+  /// or lines cut into its pieces (one InputError lists every unknown id,
+  /// saying how a line was cut when an id looks like one of its pieces;
+  /// see also checkCutLineForcing). Throws InputError naming the file for
+  /// a missing or unreadable file.
   RunForcing(const ForcingFiles& files, const network::NetworkPlan& plan,
              units::System unit = units::System::SI);
 
@@ -55,7 +77,8 @@ public:
   /// What the router reads, by plan index.
   const routing::ForcingProvider& provider() const noexcept { return bound_; }
   const io::ForcingSource& source() const noexcept { return *opened_.source; }
-  /// What the readers did that a user should hear about, one line each.
+  /// What the readers did that a user should hear about, one line each,
+  /// then where forcing for cut lines goes (PlanForcing::notes).
   const std::vector<std::string>& warnings() const noexcept { return opened_.warnings; }
 
 private:

@@ -5,6 +5,7 @@
 #include <fmt/core.h>
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <limits>
 #include <map>
@@ -12,6 +13,7 @@
 #include <queue>
 
 #include "GeosHandle.hpp"
+#include "reachwise/network/CutLines.hpp"
 #include "reachwise/network/ReachProblem.hpp"
 
 namespace reachwise::network::geos {
@@ -162,15 +164,29 @@ struct Cut {
   double along_m;  ///< metres along the line
 };
 
-/// For every line, the measures at which other lines' ends touch its interior.
-std::vector<std::vector<double>> findCuts(const GeosContext& ctx, const ReachTable& table,
-                                          const Metric& metric, double tol_m,
-                                          ProblemList& problems) {
+/// Another line's end touching a line's interior.
+struct Touch {
+  std::string by;  ///< the line whose end it is
+  Point3 at;       ///< the end
+  double measure;  ///< CRS units along the touched line
+};
+
+/// Where one line is cut: the cuts (sorted, one per junction) and the ends
+/// that made them.
+struct LineCuts {
+  std::vector<double> measures;
+  std::vector<Touch> touches;
+};
+
+/// For every line, where other lines' ends touch its interior.
+std::vector<LineCuts> findCuts(const GeosContext& ctx, const ReachTable& table,
+                               const Metric& metric, double tol_m) {
   const auto& rs = table.reaches;
   IndexTree tree(ctx);
   for (std::size_t i = 0; i < rs.size(); ++i)
     if (usable(rs[i])) tree.insert(makeLine(ctx, rs[i].line), i);
   std::vector<std::vector<Cut>> cuts(rs.size());
+  std::vector<LineCuts> out(rs.size());
   for (std::size_t i = 0; i < rs.size(); ++i) {
     if (!usable(rs[i])) continue;
     for (const Point3* end : {&rs[i].line.front(), &rs[i].line.back()}) {
@@ -181,13 +197,10 @@ std::vector<std::vector<double>> findCuts(const GeosContext& ctx, const ReachTab
         // Near an end of line j: snapping handles it.
         if (!(n.from_start_m > tol_m && n.to_end_m > tol_m)) continue;
         cuts[j].push_back({n.measure, n.from_start_m});
-        problems.push_back(reachProblem(
-            ProblemCode::SplitLine, rs[j], end->x, end->y,
-            fmt::format("line {} is cut where the end of {} meets it", rs[j].id, rs[i].id)));
+        out[j].touches.push_back({rs[i].id, *end, n.measure});
       }
     }
   }
-  std::vector<std::vector<double>> out(rs.size());
   for (std::size_t j = 0; j < rs.size(); ++j) {
     auto& c = cuts[j];
     std::sort(c.begin(), c.end(), [](const Cut& a, const Cut& b) { return a.measure < b.measure; });
@@ -195,45 +208,69 @@ std::vector<std::vector<double>> findCuts(const GeosContext& ctx, const ReachTab
     c.erase(std::unique(c.begin(), c.end(),
                         [tol_m](const Cut& a, const Cut& b) { return b.along_m - a.along_m <= tol_m; }),
             c.end());
-    for (const Cut& k : c) out[j].push_back(k.measure);
+    for (const Cut& k : c) out[j].measures.push_back(k.measure);
   }
   return out;
 }
 
-/// Replaces each cut line by its pieces `<id>.1`, `<id>.2`, ...
-std::size_t splitLines(const GeosContext& ctx, ReachTable& table, const Metric& metric,
-                       const TopologyOptions& opt, double tol_m, ProblemList& problems) {
-  const auto cuts = findCuts(ctx, table, metric, tol_m, problems);
+/// A line replaced by its pieces, until they are numbered (numberPieces).
+struct CutLine {
+  std::size_t first = 0;    ///< record of the first piece in digitising order; the others follow
+  std::size_t count = 0;
+  bool reoriented = false;  ///< the line's own `reoriented` (before orientation)
+  std::vector<Touch> touches;
+  std::vector<std::size_t> before;  ///< per touch: digitised index of the piece before its cut
+};
+
+/// Replaces each cut line by its pieces, numbered `<id>.1`, `<id>.2`, ...
+/// in digitising order for now (numberPieces renumbers them with the flow).
+std::vector<CutLine> splitLines(const GeosContext& ctx, ReachTable& table, const Metric& metric,
+                                const TopologyOptions& opt, double tol_m) {
+  auto cuts = findCuts(ctx, table, metric, tol_m);
   std::vector<ReachRecord> out;
-  std::size_t n_split = 0;
+  std::vector<CutLine> cut_lines;
   for (std::size_t i = 0; i < table.reaches.size(); ++i) {
     ReachRecord& r = table.reaches[i];
-    if (cuts[i].empty()) {
+    if (cuts[i].measures.empty()) {
       out.push_back(std::move(r));
       continue;
     }
-    ++n_split;
-    const auto pieces = cutLine(r.line, cuts[i]);
+    const auto pieces = cutLine(r.line, cuts[i].measures);
+    if (pieces.size() < 2) {  // cuts lie inside the line, so this is only a guard
+      out.push_back(std::move(r));
+      continue;
+    }
     // Each piece is measured on itself (geodesic on a geographic CRS); a
-    // length given in the layer is shared in proportion.
+    // length given in the layer, and the base flow entering along the
+    // line, are shared in proportion.
     std::vector<double> piece_m;
     double total = 0;
     for (const auto& p : pieces) {
       piece_m.push_back(opt.line_length_m ? opt.line_length_m(p) : metric.lineLength(p));
       total += piece_m.back();
     }
+    CutLine cut{out.size(), pieces.size(), r.reoriented, std::move(cuts[i].touches), {}};
+    for (const Touch& t : cut.touches) {
+      const auto& m = cuts[i].measures;
+      const auto after = static_cast<std::size_t>(std::upper_bound(m.begin(), m.end(), t.measure) - m.begin());
+      cut.before.push_back(std::clamp<std::size_t>(after, 1, pieces.size() - 1) - 1);
+    }
     for (std::size_t k = 0; k < pieces.size(); ++k) {
       ReachRecord piece = r;
       piece.id = r.id + "." + std::to_string(k + 1);
+      piece.line_id = r.id;
+      piece.piece = static_cast<std::uint32_t>(k + 1);
       piece.line = pieces[k];
       const double share = total > 0 ? piece_m[k] / total : 0.0;
       piece.length_m = r.length_m == r.geometry_length_m ? piece_m[k] : r.length_m * share;
       piece.geometry_length_m = piece_m[k];
+      piece.base_flow_m3s = r.base_flow_m3s * share;
       out.push_back(std::move(piece));
     }
+    cut_lines.push_back(std::move(cut));
   }
   table.reaches = std::move(out);
-  return n_split;
+  return cut_lines;
 }
 
 // ---------------------------------------------------------------- connections
@@ -528,6 +565,7 @@ std::vector<bool> namedOutletNodes(const ReachTable& table, const Graph& g,
                                    const std::vector<std::vector<std::size_t>>& inc,
                                    const TopologyOptions& opt, ProblemList& problems) {
   std::vector<bool> outlet(g.node.size(), false);
+  const CutLines cut = CutLines::of(table);
   for (const auto& o : opt.outlets) {
     std::size_t at_down = npos, at_up = npos;
     const ReachRecord* named = nullptr;
@@ -547,8 +585,10 @@ std::vector<bool> namedOutletNodes(const ReachTable& table, const Graph& g,
                       "ends, so no flow can leave the network there",
                       o)));
     } else {
+      const std::string line = cut.lineOf(o);
       Problem p(ProblemCode::UnknownOutlet,
-                fmt::format("outlet {} named in the config is not a reach of the layer", o));
+                fmt::format("outlet {} named in the config is not a reach of the layer{}", o,
+                            line.empty() ? "" : fmt::format(" ({}; name {})", cut.hint(o), line)));
       p.reach_id = o;
       problems.push_back(std::move(p));
     }
@@ -712,6 +752,98 @@ std::size_t orientToOutlets(ReachTable& table, Graph& g, const Metric& metric,
   return flips;
 }
 
+// ---------------------------------------------------------------- numbering the pieces
+
+bool idChar(char c) {
+  return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.';
+}
+
+/// Replaces, in one pass, each whole occurrence of an old id by its new id
+/// (not inside a longer id: "7.1" is not replaced in "17.1" or "7.10").
+std::string replaceIds(const std::string& text,
+                       const std::vector<std::pair<std::string, std::string>>& ids) {
+  std::string out;
+  for (std::size_t i = 0; i < text.size();) {
+    const std::pair<std::string, std::string>* hit = nullptr;
+    if (i == 0 || !idChar(text[i - 1])) {
+      for (const auto& entry : ids) {
+        const std::size_t j = i + entry.first.size();
+        if (text.compare(i, entry.first.size(), entry.first) != 0) continue;
+        // The id ends here unless an id character (a '.' only before more of the id) follows.
+        const bool more = j < text.size() && idChar(text[j]) &&
+                          (text[j] != '.' || (j + 1 < text.size() && idChar(text[j + 1])));
+        if (!more) {
+          hit = &entry;
+          break;
+        }
+      }
+    }
+    if (hit) {
+      out += hit->second;
+      i += hit->first.size();
+    } else {
+      out += text[i++];
+    }
+  }
+  return out;
+}
+
+/// Numbers the pieces of each cut line from where the flow enters it:
+/// `<id>.1` is the top piece whatever the digitising direction. Pieces
+/// that orientation left pointing different ways keep digitising order
+/// (noted in the line's `split_line` problems). Records are renamed, and so
+/// are the problems reported about them since `renamed_from` (orientation
+/// reports pieces by their ids in digitising order); then every cut is
+/// reported (`split_line`) with the final ids of the pieces on either side.
+void numberPieces(ReachTable& table, const std::vector<CutLine>& cut_lines,
+                  std::size_t renamed_from, ProblemList& problems) {
+  std::map<std::string, std::string> renamed;
+  std::vector<Problem> cuts;
+  for (const CutLine& c : cut_lines) {
+    std::size_t flipped = 0;
+    for (std::size_t k = 0; k < c.count; ++k) flipped += table.reaches[c.first + k].reoriented != c.reoriented;
+    const bool against = flipped == c.count;  // the flow runs against the digitising
+    const bool mixed = flipped != 0 && !against;
+    auto number = [&](std::size_t k) { return against ? c.count - k : k + 1; };
+    const ReachRecord& first = table.reaches[c.first];
+    const std::string line = first.line_id;
+    auto pieceId = [&](std::size_t k) { return line + "." + std::to_string(number(k)); };
+    for (std::size_t k = 0; k < c.count; ++k) {
+      ReachRecord& r = table.reaches[c.first + k];
+      if (against) renamed.emplace(r.id, pieceId(k));
+      r.id = pieceId(k);
+      r.piece = static_cast<std::uint32_t>(number(k));
+    }
+    for (std::size_t t = 0; t < c.touches.size(); ++t) {
+      const std::size_t k = c.before[t];
+      const std::size_t up = std::min(number(k), number(k + 1)), down = std::max(number(k), number(k + 1));
+      Problem p(ProblemCode::SplitLine,
+                fmt::format("line {} is cut between {}.{} and {}.{} where the end of {} meets it{}",
+                            line, line, up, line, down, c.touches[t].by,
+                            mixed ? "; its pieces do not all flow one way (as where a line crosses a "
+                                    "divide), so they are numbered in digitising order"
+                                  : ""));
+      p.fid = first.fid;
+      p.reach_id = line;
+      p.x = c.touches[t].at.x;
+      p.y = c.touches[t].at.y;
+      cuts.push_back(std::move(p));
+    }
+  }
+  for (std::size_t i = renamed_from; i < problems.size() && !renamed.empty(); ++i) {
+    Problem& p = problems[i];
+    std::vector<std::pair<std::string, std::string>> ids;
+    for (std::string* id : {&p.reach_id, &p.other_reach_id}) {
+      const auto it = renamed.find(*id);
+      if (it == renamed.end()) continue;
+      ids.emplace_back(it->first, it->second);
+      *id = it->second;
+    }
+    if (!ids.empty()) p.message = replaceIds(p.message, ids);
+  }
+  for (auto& p : cuts) problems.push_back(std::move(p));
+}
+
 // ---------------------------------------------------------------- links and gaps
 
 void linkDownstream(ReachTable& table, const Graph& g, ProblemList& problems) {
@@ -838,14 +970,17 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
   GeosContext ctx;
   TopologySummary summary;
   addConnections(table, metric, options, problems);
-  summary.splits = splitLines(ctx, table, metric, options, tol_m, problems);
+  const std::vector<CutLine> cut_lines = splitLines(ctx, table, metric, options, tol_m);
+  summary.splits = cut_lines.size();
   Graph g = snapEnds(ctx, table, metric, tol_m);
   summary.nodes = g.node.size();
+  const std::size_t oriented_from = problems.size();
   Orientation how = options.orientation;
   if (how == Orientation::Auto)
     how = options.outlets.empty() ? resolveAuto(table, g) : Orientation::Outlets;
   if (how == Orientation::Elevation) summary.flipped = orientByElevation(table, g, problems);
   if (how == Orientation::Outlets) summary.flipped = orientToOutlets(table, g, metric, options, problems);
+  numberPieces(table, cut_lines, oriented_from, problems);
   linkDownstream(table, g, problems);
   const auto loose = looseEnds(ctx, table, g, metric, tol_m, std::max(search_m, kNearMissBandsM.back()));
   summary.probable_gaps = reportGaps(table, loose, tol_m, search_m, options, problems);

@@ -63,7 +63,8 @@ struct TopologyOptions {
   std::function<double(const std::vector<Point3>&)> line_length_m;
   /// Orientation::Auto with named `outlets` orients to the outlets.
   Orientation orientation = Orientation::Auto;
-  /// Outlet reach ids (a split line's pieces `<id>.k` count as `<id>`); each
+  /// Outlet reach ids (a split line's pieces `<id>.k` count as `<id>`; name
+  /// the line, as its pieces are numbered only after orientation); each
   /// outlet is the free end (no other line there) of its reach, the
   /// digitised downstream end when both are free. With
   /// Orientation::Outlets every line flows towards the nearest outlet of
@@ -134,16 +135,23 @@ struct TopologySummary {
 
 /// Rebuilds the topology of `table` from its geometry:
 ///  1. a line whose interior another line's end touches (within the
-///     tolerance) is cut there; its pieces get ids `<id>.1`, `<id>.2`, ...
-///     from upstream to downstream in digitising order, keep the attributes;
-///     each piece's `geometry_length_m` is measured on the piece itself
-///     (options.line_length_m) and `length_m` is shared in proportion to
-///     those lengths (`split_line`, warning);
+///     tolerance) is cut there; its pieces keep the attributes and record
+///     the line they came from (`line_id`, `piece`); each piece's
+///     `geometry_length_m` is measured on the piece itself
+///     (options.line_length_m), and `length_m` and `base_flow_m3s` are
+///     shared in proportion to those lengths;
 ///  2. line ends within the tolerance are snapped to one node (the end
 ///     vertices are moved onto it);
 ///  3. lines are oriented (`flipped_line`, warning, for each reversed line,
 ///     whose record is marked `reoriented`);
-///  4. `to_reach` of every record is set to the reach leaving its
+///  4. the pieces of each cut line get ids `<id>.1`, `<id>.2`, ... along
+///     the flow: `<id>.1` is the top piece (where the flow enters the
+///     line), whatever the digitising direction, so ids stay tied to a
+///     place. Pieces left pointing different ways (a line across a divide)
+///     are numbered in digitising order, which their `split_line` problems
+///     say. Each cut is a `split_line` warning naming the pieces on either
+///     side; problems of step 3 name the pieces by their final ids;
+///  5. `to_reach` of every record is set to the reach leaving its
 ///     downstream node (nullopt at an outlet; at a bifurcation all leaving
 ///     reaches, sorted, joined by ';' as ReachGraph expects) and
 ///     `has_to_reach` is set.
@@ -152,8 +160,9 @@ struct TopologySummary {
 /// line nor a line sharing a node with it), `closed_line` (error: both ends
 /// on one node), `unresolved_gap` (warning: a probable gap when
 /// options.gaps_are_errors is false), `unknown_outlet` (error: a configured
-/// outlet id is not in the table), `outlet_not_at_end` (error: no end of the
-/// named reach is free), `added_connection` (info, one per Connection).
+/// outlet id is not in the table; an id like a piece of a cut line says how
+/// that line was cut), `outlet_not_at_end` (error: no end of the named reach
+/// is free), `added_connection` (info, one per Connection).
 /// Records with fewer than two vertices or non-finite coordinates are left
 /// out of the topology (their `to_reach` is cleared); the reader reports them.
 /// Before step 1, each of options.connections extends its reach's nearest
