@@ -44,6 +44,14 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
              read.topology_from_geometry ? fmt::format("from line ends (snap {:g} m, gap search {:g} m)",
                                                      read.snap_tolerance_m, read.gap_search_m)
                                          : std::string("from to_reach"));
+  if (read.topology_from_geometry) {
+    const auto& t = read.topology;
+    fmt::print(out, "built          {} line{} cut, {} end{} snapped (largest move {:.3g} m), {} line{} "
+                    "reversed, {} connection{} added\n",
+               t.splits, t.splits == 1 ? "" : "s", t.snapped_ends, t.snapped_ends == 1 ? "" : "s",
+               t.largest_snap_m, t.flipped, t.flipped == 1 ? "" : "s", t.connections,
+               t.connections == 1 ? "" : "s");
+  }
   fmt::print(out, "reaches        {}\n", s.reaches);
   fmt::print(out, "headwaters     {}\n", s.headwaters);
   fmt::print(out, "confluences    {}\n", s.confluences);

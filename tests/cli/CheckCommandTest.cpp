@@ -242,6 +242,8 @@ TEST(CheckCommand, AConnectionInTheRunFileJoinsTheTributary) {
   EXPECT_EQ(summaryValue(r.out, "reaches"), "3");
   EXPECT_EQ(summaryValue(r.out, "outlets"), "1");
   EXPECT_EQ(summaryValue(r.out, "confluences"), "1");
+  EXPECT_EQ(summaryValue(r.out, "built"),
+            "1 line cut, 0 ends snapped (largest move 0 m), 0 lines reversed, 1 connection added");
 }
 
 TEST(CheckCommand, AConnectionWithIdTopologySetsAMissingDownstreamId) {

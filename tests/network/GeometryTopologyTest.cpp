@@ -79,6 +79,8 @@ TEST(GeometryTopology, EndsWithinTheToleranceSnapAndGapsBeyondAreReported) {
   EXPECT_EQ(down(m, "near"), "down");
   EXPECT_EQ(down(m, "far"), "(outlet)");
   EXPECT_DOUBLE_EQ(m["near"].line.back().x, 0.0);  // moved onto the node
+  EXPECT_EQ(s.snapped_ends, 1u);                     // only near's end moved
+  EXPECT_NEAR(s.largest_snap_m, std::hypot(3.0, 1.0), 1e-12);
   EXPECT_EQ(s.probable_gaps, 1u);
   ASSERT_EQ(count(ps, ProblemCode::ProbableGap), 1u);
   for (const auto& p : ps) {

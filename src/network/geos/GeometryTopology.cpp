@@ -401,6 +401,8 @@ struct Graph {
   std::vector<std::size_t> from, to;  ///< node per record (npos when not in the topology)
   std::vector<Point3> node;           ///< node positions
   std::vector<std::size_t> degree;    ///< line ends per node
+  std::size_t moved_ends = 0;         ///< ends moved onto a node another end shares
+  double largest_move_m = 0;          ///< the farthest of those moves
 };
 constexpr std::size_t npos = static_cast<std::size_t>(-1);
 
@@ -440,8 +442,13 @@ Graph snapEnds(const GeosContext& ctx, ReachTable& table, const Metric& metric, 
     ++g.degree[it->second];
     (e % 2 == 0 ? g.from : g.to)[e / 2] = it->second;
     Point3& p = endPoint(table, e);  // move the end onto its node, keeping its own Z
-    p.x = g.node[it->second].x;
-    p.y = g.node[it->second].y;
+    const Point3& node = g.node[it->second];
+    if (p.x != node.x || p.y != node.y) {
+      ++g.moved_ends;
+      g.largest_move_m = std::max(g.largest_move_m, metric.pointDistance(p, node));
+    }
+    p.x = node.x;
+    p.y = node.y;
   }
   return g;
 }
@@ -974,6 +981,9 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
   summary.splits = cut_lines.size();
   Graph g = snapEnds(ctx, table, metric, tol_m);
   summary.nodes = g.node.size();
+  summary.snapped_ends = g.moved_ends;
+  summary.largest_snap_m = g.largest_move_m;
+  summary.connections = options.connections.size();
   const std::size_t oriented_from = problems.size();
   Orientation how = options.orientation;
   if (how == Orientation::Auto)

@@ -126,6 +126,9 @@ struct TopologySummary {
   std::size_t nodes = 0;          ///< distinct junction / end nodes after snapping
   std::size_t splits = 0;         ///< lines cut where another line's end meets their interior
   std::size_t flipped = 0;        ///< lines reversed by the orientation step
+  std::size_t snapped_ends = 0;   ///< line ends moved onto a node (within the snap tolerance)
+  double largest_snap_m = 0;      ///< the largest such move, metres
+  std::size_t connections = 0;    ///< connections added from TopologyOptions::connections
   std::size_t probable_gaps = 0;  ///< unconnected ends near another line (error or warning)
   /// Unconnected ends within kNearMissBandsM.back() metres of a line they
   /// are not joined to, in record order (not in the problem list: a
