@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "reachwise/hydraulics/Units.hpp"
+#include "reachwise/network/Splits.hpp"
 #include "reachwise/network/geos/GeometryTopology.hpp"
 
 namespace reachwise::io {
@@ -55,6 +56,10 @@ struct NetworkConfig {
   bool gaps_are_errors = true;
   /// `unconnected`: reach ids whose ends are never reported as probable gaps.
   std::vector<std::string> unconnected;
+  /// `default_split` ("width", "equal", "none"; default "width") and the
+  /// `[[network.split]]` tables; `origin` names this file. Checked against
+  /// the network when the graph is built (network::resolveSplits).
+  network::SplitRules splits;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 
