@@ -12,16 +12,17 @@ namespace {
 using Vertex = ReachGraph::Vertex;
 constexpr Vertex kNone = std::numeric_limits<Vertex>::max();
 
-/// Upstream searches bounded below by a topological position: is a reach
-/// upstream of (or the same as) another?
-class UpstreamSearch {
+/// Downstream searches bounded by a topological position: is a reach
+/// downstream of (or the same as) another? Downstream of a reach a network
+/// is mostly one path to the outlet, so the search stays short.
+class DownstreamSearch {
 public:
-  UpstreamSearch(const ReachGraph& graph, const std::vector<Vertex>& order)
+  DownstreamSearch(const ReachGraph& graph, const std::vector<Vertex>& order)
       : graph_(graph), position_(graph.size()), seen_(graph.size(), 0) {
     for (std::uint32_t i = 0; i < order.size(); ++i) position_[order[i]] = i;
   }
 
-  /// True when `target` is `from` or lies upstream of it.
+  /// True when `target` is `from` or lies downstream of it.
   bool reaches(Vertex from, Vertex target) {
     ++stamp_;
     std::vector<Vertex> todo{from};
@@ -30,11 +31,11 @@ public:
       const Vertex v = todo.back();
       todo.pop_back();
       if (v == target) return true;
-      for (const auto u : graph_.upstream(v)) {
-        // Nothing above `target` in topological order can lead back to it.
-        if (seen_[u] == stamp_ || position_[u] < position_[target]) continue;
-        seen_[u] = stamp_;
-        todo.push_back(u);
+      for (const auto d : graph_.downstream(v)) {
+        // Nothing below `target` in topological order can lead to it.
+        if (seen_[d] == stamp_ || position_[d] > position_[target]) continue;
+        seen_[d] = stamp_;
+        todo.push_back(d);
       }
     }
     return false;
@@ -63,7 +64,7 @@ SideArms sideArms(const ReachGraph& graph, const std::vector<Vertex>& order) {
   const auto origin = [&](Vertex from, Vertex to) {
     return graph.leavesAsSideArm(from, to) ? from : left[from];
   };
-  UpstreamSearch search(graph, order);
+  DownstreamSearch search(graph, order);
   for (const auto v : order) {
     const auto up = graph.upstream(v);
     bool all_side = !up.empty();
@@ -77,7 +78,7 @@ SideArms sideArms(const ReachGraph& graph, const std::vector<Vertex>& order) {
       if (!arrivesAsSideArm(graph, arms, u, v)) continue;
       const Vertex from = origin(u, v);
       for (const auto w : up)
-        if (w != u && search.reaches(w, from)) arms.side_arm_return[v] = true;
+        if (w != u && search.reaches(from, w)) arms.side_arm_return[v] = true;
       if (arms.side_arm_return[v]) break;
     }
   }

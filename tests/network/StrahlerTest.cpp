@@ -126,3 +126,31 @@ TEST(Strahler, ASideArmJoiningAnotherRiverIsNoReturn) {
   EXPECT_EQ(o.strahler[at(g, "R")], 2);
   EXPECT_EQ(o.strahler[at(g, "J")], 2);
 }
+
+TEST(Strahler, ASideArmThatBraidsAgainReturnsTwice) {
+  // U splits into M (0.6, main) and S (0.4, side arm); S splits again into
+  // S1 (0.7) and S2 (0.3), which rejoin in SJ (a return into S1, both
+  // tracing up to the bifurcation below S); SJ, still a side arm of U,
+  // rejoins M in D (a return: both trace up to the bifurcation below U).
+  // D is on the main channel again; SJ is not.
+  const auto table = TableBuilder()
+                         .link("U1", "U")
+                         .link("U2", "U")
+                         .link("U", "M;S")
+                         .link("M", "D", 0.6)
+                         .link("S", "S1;S2", 0.4)
+                         .link("S1", "SJ", 0.7)
+                         .link("S2", "SJ", 0.3)
+                         .link("SJ", "D")
+                         .link("D", std::nullopt)
+                         .build();
+  const ReachGraph g(table);
+  const auto o = orderOf(g);
+  for (const char* id : {"S", "S1", "S2", "SJ"}) EXPECT_TRUE(o.arms.side_arm[at(g, id)]) << id;
+  for (const char* id : {"U", "M", "D"}) EXPECT_FALSE(o.arms.side_arm[at(g, id)]) << id;
+  EXPECT_TRUE(o.arms.side_arm_return[at(g, "SJ")]);
+  EXPECT_TRUE(o.arms.side_arm_return[at(g, "D")]);
+  EXPECT_FALSE(o.arms.side_arm_return[at(g, "U")]);  // an ordinary confluence of two heads
+  // Hand count: U1 1, U2 1, U 2, and every reach below U keeps order 2.
+  for (const char* id : {"U", "M", "S", "S1", "S2", "SJ", "D"}) EXPECT_EQ(o.strahler[at(g, id)], 2) << id;
+}
