@@ -94,19 +94,19 @@ Orientation parseOrientation(const std::string& s, const std::string& origin) {
                         "\"");
 }
 
+/// A reach id written as text or as an integer.
+std::string requireReachId(const toml::node& v, const std::string& o, const std::string& key) {
+  if (auto s = v.value<std::string>()) return *s;
+  if (auto i = v.value<std::int64_t>()) return std::to_string(*i);
+  throw configError(o, key, "expected a reach id (text or integer)");
+}
+
 std::vector<std::string> requireReachIds(const toml::node& v, const std::string& o,
                                          const std::string& key) {
   const auto* arr = v.as_array();
   if (!arr) throw configError(o, key, "expected an array of reach ids");
   std::vector<std::string> ids;
-  for (const auto& item : *arr) {
-    if (auto s = item.value<std::string>())
-      ids.push_back(*s);
-    else if (auto i = item.value<std::int64_t>())
-      ids.push_back(std::to_string(*i));
-    else
-      throw configError(o, key, "expected reach ids (text or integers)");
-  }
+  for (const auto& item : *arr) ids.push_back(requireReachId(item, o, key));
   return ids;
 }
 
@@ -115,13 +115,6 @@ network::DefaultSplit parseDefaultSplit(const std::string& s, const std::string&
     if (s == network::defaultSplitName(rule)) return rule;
   throw configError(origin, "network.default_split",
                     "expected \"width\", \"equal\" or \"none\", got \"" + s + "\"");
-}
-
-/// A reach id written as text or as an integer.
-std::string requireReachId(const toml::node& v, const std::string& o, const std::string& key) {
-  if (auto s = v.value<std::string>()) return *s;
-  if (auto i = v.value<std::int64_t>()) return std::to_string(*i);
-  throw configError(o, key, "expected a reach id (text or integer)");
 }
 
 /// `[[network.split]]`: one table per bifurcation, `at` and `shares`. Only
