@@ -94,6 +94,7 @@ Orientation parseOrientation(const std::string& s, const std::string& origin) {
                         "\"");
 }
 
+/// A reach id written as text or as an integer.
 std::string requireReachId(const toml::node& v, const std::string& o, const std::string& key) {
   if (auto s = v.value<std::string>()) return *s;
   if (auto i = v.value<std::int64_t>()) return std::to_string(*i);
@@ -151,6 +152,51 @@ std::vector<network::geos::Connection> parseConnections(const toml::node& v, con
   return out;
 }
 
+network::DefaultSplit parseDefaultSplit(const std::string& s, const std::string& origin) {
+  for (const auto rule : {network::DefaultSplit::Width, network::DefaultSplit::Equal, network::DefaultSplit::None})
+    if (s == network::defaultSplitName(rule)) return rule;
+  throw configError(origin, "network.default_split",
+                    "expected \"width\", \"equal\" or \"none\", got \"" + s + "\"");
+}
+
+/// `[[network.split]]`: one table per bifurcation, `at` and `shares`. Only
+/// the shape is checked here; the values are checked against the network
+/// (network::resolveSplits).
+std::vector<network::SplitOverride> parseSplitOverrides(const toml::node& node, const std::string& o) {
+  const auto* arr = node.as_array();
+  if (!arr)
+    throw configError(o, "network.split",
+                      "expected [[network.split]] tables, each with at = \"<reach id>\" and shares = { ... }");
+  std::vector<network::SplitOverride> out;
+  for (std::size_t i = 0; i < arr->size(); ++i) {
+    network::SplitOverride split;
+    split.key = "network.split[" + std::to_string(i + 1) + "]";
+    const auto* table = (*arr)[i].as_table();
+    if (!table) throw configError(o, split.key, "expected a table with at and shares");
+    bool has_at = false, has_shares = false;
+    for (const auto& [k, v] : *table) {
+      const std::string key = split.key + "." + std::string(k.str());
+      if (k.str() == "at") {
+        split.at = requireReachId(v, o, key);
+        has_at = true;
+      } else if (k.str() == "shares") {
+        const auto* shares = v.as_table();
+        if (!shares) throw configError(o, key, "expected a table of reach id = share");
+        for (const auto& [id, share] : *shares)
+          split.shares.emplace_back(std::string(id.str()),
+                                    requireNumber(share, o, key + "." + std::string(id.str())));
+        has_shares = true;
+      } else {
+        throw configError(o, key, "unknown key (expected at or shares)");
+      }
+    }
+    if (!has_at) throw configError(o, split.key + ".at", "missing: the reach flowing into the bifurcation");
+    if (!has_shares) throw configError(o, split.key + ".shares", "missing: the share of each outgoing reach");
+    out.push_back(std::move(split));
+  }
+  return out;
+}
+
 void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
   const std::string& o = cfg.origin;
   for (const auto& [k, v] : net) {
@@ -191,6 +237,10 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
       cfg.unconnected = requireReachIds(v, o, key);
     } else if (name == "connect") {
       cfg.connections = parseConnections(v, o, key);
+    } else if (name == "default_split") {
+      cfg.splits.fallback = parseDefaultSplit(requireString(v, o, key), o);
+    } else if (name == "split") {
+      cfg.splits.overrides = parseSplitOverrides(v, o);
     } else if (name == "fields") {
       const auto* fields = v.as_table();
       if (!fields) throw configError(o, key, "expected a table");
@@ -230,6 +280,7 @@ double metresPerUnit(const std::string& name, const std::string& origin) {
 NetworkConfig NetworkConfig::fromString(const std::string& text, const std::string& origin) {
   NetworkConfig cfg;
   cfg.origin = origin;
+  cfg.splits.origin = origin;
   const toml::table root = detail::parseRunFile(text, origin);
   if (const auto* net = root["network"].as_table()) {
     parseNetworkTable(*net, cfg);

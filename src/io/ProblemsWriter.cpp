@@ -108,7 +108,9 @@ void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
     if (r.fid >= 0) f.SetField("fid", static_cast<GIntBig>(r.fid));
     if (r.to_reach && !r.to_reach->empty()) f.SetField("to_reach", r.to_reach->c_str());
     f.SetField("flipped", (graph.flipped(v) || r.reoriented) ? 1 : 0);
-    if (!std::isnan(r.split)) f.SetField("split", r.split);
+    // The share the graph uses (a run-file override or a default rule may
+    // differ from the field); null for a reach that is no branch.
+    if (const double share = graph.share(v); !std::isnan(share)) f.SetField("split", share);
     if (!strahler.empty()) f.SetField("strahler", static_cast<int>(strahler[v]));
     f.SetField("basin", static_cast<int>(basins.basin[v]));
     auto line = flowLine(graph, v);

@@ -134,7 +134,7 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
   header(branches.out, results::branchColumns());
   branches.out << '\n';
   for (const auto& node : results.nodes) {
-    writeRow(nodes.out, results::nodeRow(node), offset);
+    writeRow(nodes.out, results::nodeRow(plan, node), offset);
     nodes.out << ',' << real(node.x) << ',' << real(node.y) << '\n';
     for (const auto& branch : node.branches) {
       writeRow(branches.out, results::branchRow(plan, node, branch), offset);

@@ -63,6 +63,7 @@ const std::vector<Column>& reachColumns() {
       {"event_volume_error_pct", CT::Real}, {"x_clamp_cause", CT::Text},
       {"envelope_exceedances", CT::Integer64}, {"envelope_excursion_pct", CT::Real},
       {"ponce_number", CT::Real},      {"method", CT::Text},
+      {"split", CT::Real},
   };
   return columns;
 }
@@ -109,6 +110,7 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   row.push_back(real(n.envelope_excursion_pct));
   row.push_back(real(n.ponce_number));
   row.emplace_back(std::string(routing::methodName(n.method)));
+  row.push_back(i < plan.split.size() ? real(plan.split[i]) : Value{});
   REACHWISE_ASSERT(row.size() == reachColumns().size());
   return row;
 }
@@ -120,6 +122,7 @@ const char* nodeKindName(routing::NodeKind kind) {
     case routing::NodeKind::Outlet: return "outlet";
     case routing::NodeKind::Junction: return "junction";
     case routing::NodeKind::Bifurcation: return "bifurcation";
+    case routing::NodeKind::SideArmReturn: return "side_arm_return";
   }
   return "junction";
 }
@@ -129,20 +132,29 @@ const std::vector<Column>& nodeColumns() {
       {"node_id", CT::Text},          {"kind", CT::Text},
       {"peak_q", CT::Real},           {"peak_time", CT::DateTime},
       {"branch_count", CT::Integer},  {"branch_spread_h", CT::Real},
-      {"coincidence_ratio", CT::Real},
+      {"coincidence_ratio", CT::Real}, {"branches", CT::Text},
   };
   return columns;
 }
 
-Row nodeRow(const routing::NodeSummary& node) {
+Row nodeRow(const network::NetworkPlan& plan, const routing::NodeSummary& node) {
   Row row;
   row.emplace_back(node.node_id);
   row.emplace_back(std::string(nodeKindName(node.kind)));
   row.push_back(real(node.peak_q_m3s));
   row.push_back(instant(node.peak_time_s));
-  row.push_back(integer(node.branches.size()));
+  row.push_back(integer(node.kind == routing::NodeKind::Bifurcation ? node.outgoing.size()
+                                                                     : node.branches.size()));
   row.push_back(hours(node.branch_spread_s));
   row.push_back(real(node.coincidence_ratio));
+  // A bifurcation's branches and shares: "12:0.7;13:0.3".
+  std::string branches;
+  for (const auto& b : node.outgoing) {
+    REACHWISE_ASSERT(b.reach < plan.size());
+    branches += fmt::format("{}{}:{:.6g}", branches.empty() ? "" : ";", plan.reach_id[b.reach], b.share);
+  }
+  if (branches.empty()) row.emplace_back();
+  else row.emplace_back(std::move(branches));
   REACHWISE_ASSERT(row.size() == nodeColumns().size());
   return row;
 }

@@ -33,7 +33,7 @@ const std::vector<Column>& reachColumns();
 Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& summary, std::size_t i);
 
 const std::vector<Column>& nodeColumns();
-Row nodeRow(const routing::NodeSummary& node);
+Row nodeRow(const network::NetworkPlan& plan, const routing::NodeSummary& node);
 
 const std::vector<Column>& branchColumns();
 Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node,

@@ -302,7 +302,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
     OGRFeature f(nodes->GetLayerDefn());
     OGRFeature b(branches->GetLayerDefn());
     for (const auto& node : results.nodes) {
-      const auto row = results::nodeRow(node);
+      const auto row = results::nodeRow(plan_, node);
       for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
       if (std::isfinite(node.x) && std::isfinite(node.y)) {
         OGRPoint point(node.x, node.y);

@@ -24,7 +24,7 @@ constexpr double kSecondsPerHour = 3600.0;
 }
 
 void fillReach(NetworkPlan& plan, const ReachGraph& graph, ReachGraph::Vertex v,
-               std::uint32_t basin, std::uint16_t strahler) {
+               std::uint32_t basin, std::uint16_t strahler, bool side_arm_return) {
   const auto& r = graph.record(v);
   plan.reach_id.push_back(r.id);
   plan.fid.push_back(r.fid);
@@ -50,6 +50,8 @@ void fillReach(NetworkPlan& plan, const ReachGraph& graph, ReachGraph::Vertex v,
   plan.base_flow_m3s.push_back(r.base_flow_m3s);
   plan.basin.push_back(basin);
   plan.strahler.push_back(strahler);
+  plan.split.push_back(graph.share(v));
+  plan.side_arm_return.push_back(side_arm_return);
   plan.top.push_back(graph.top(v));
   plan.bottom.push_back(graph.bottom(v));
   plan.reversed.push_back(graph.flipped(v));
@@ -60,7 +62,8 @@ void fillReach(NetworkPlan& plan, const ReachGraph& graph, ReachGraph::Vertex v,
 NetworkPlan ReachGraph::freeze() const {
   const auto order = topologicalOrder();
   if (!order) refuseCycle(*this);
-  const auto strahler = strahlerOrder(*this, *order);
+  const auto arms = sideArms(*this, *order);
+  const auto strahler = strahlerOrder(*this, *order, arms);
   const auto basins = components();
 
   std::vector<std::uint32_t> position(size());
@@ -72,7 +75,7 @@ NetworkPlan ReachGraph::freeze() const {
   plan.up_offset.push_back(0);
   plan.down_offset.push_back(0);
   for (const auto v : *order) {
-    fillReach(plan, *this, v, basins.basin[v], strahler[v]);
+    fillReach(plan, *this, v, basins.basin[v], strahler[v], arms.side_arm_return[v]);
 
     auto up = upstream(v);
     std::sort(up.begin(), up.end(),

@@ -15,7 +15,7 @@ std::vector<double> upstreamSize(const NetworkPlan& plan) {
 std::vector<std::uint32_t> confluenceReaches(const NetworkPlan& plan) {
   std::vector<std::uint32_t> out;
   for (std::uint32_t i = 0; i < plan.size(); ++i)
-    if (plan.up_offset[i + 1] - plan.up_offset[i] >= 2) out.push_back(i);
+    if (plan.up_offset[i + 1] - plan.up_offset[i] >= 2 && !plan.isSideArmReturn(i)) out.push_back(i);
   return out;
 }
 

@@ -40,6 +40,7 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {BifurcationSplitSum,     "bifurcation_split_sum",     E, false, "the branches' splits do not sum to 1"},
   {SplitUnused,             "split_unused",              W, false, "split on a reach that is not a branch of a bifurcation"},
   {Basin,                   "basin",                     I, false, "one of several basins of a layer, with its outlet(s)"},
+  {SplitAssumed,            "split_assumed",             W, false, "a bifurcation without split values got shares by the default rule (default_split)"},
 }};
 // clang-format on
 

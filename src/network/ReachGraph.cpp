@@ -63,11 +63,13 @@ struct ReachGraph::Links {
   Graph g;
 };
 
-ReachGraph::ReachGraph(const ReachTable& table)
+ReachGraph::ReachGraph(const ReachTable& table, const SplitRules& rules)
     : table_(&table), links_(new Links{Links::Graph(table.reaches.size())}) {
   REACHWISE_ASSERT(table.reaches.size() < std::numeric_limits<Vertex>::max());
   indexIds();
   addLinks();
+  splits_ = resolveSplits(*this, rules);
+  useShares();
 }
 
 ReachGraph::ReachGraph(ReachGraph&&) noexcept = default;
@@ -99,12 +101,31 @@ void ReachGraph::addLinks() {
         boost::add_edge(v, it->second, links_->g);
     }
   }
-  // A bifurcating reach passes on each branch's split; all others pass on everything.
-  for (Vertex v = 0; v < size(); ++v) {
-    if (boost::out_degree(v, links_->g) < 2) continue;
-    for (auto [e, end] = boost::out_edges(v, links_->g); e != end; ++e)
-      links_->g[*e].fraction = record(static_cast<Vertex>(boost::target(*e, links_->g))).split;
-  }
+}
+
+void ReachGraph::useShares() {
+  // A bifurcating reach passes on each branch's share; all others pass on everything.
+  for (const auto& b : splits_.bifurcations)
+    for (std::size_t k = 0; k < b.branches.size(); ++k)
+      links_->g[boost::edge(b.at, b.branches[k], links_->g).first].fraction = b.share[k];
+}
+
+const BifurcationShares* ReachGraph::sharesAt(Vertex v) const {
+  const auto& all = splits_.bifurcations;
+  const auto it = std::lower_bound(all.begin(), all.end(), v,
+                                   [](const BifurcationShares& b, Vertex x) { return b.at < x; });
+  return it != all.end() && it->at == v ? &*it : nullptr;
+}
+
+double ReachGraph::share(Vertex v) const {
+  for (const auto u : upstream(v))
+    if (downstreamCount(u) >= 2) return fraction(u, v);
+  return kNaN;
+}
+
+bool ReachGraph::leavesAsSideArm(Vertex from, Vertex to) const {
+  const auto* b = sharesAt(from);
+  return b && b->branches[b->main] != to;
 }
 
 std::optional<ReachGraph::Vertex> ReachGraph::find(std::string_view reach_id) const {

@@ -131,34 +131,76 @@ void checkCycles(const ReachGraph& graph, ProblemList& out) {
   }
 }
 
-void checkBifurcation(const ReachGraph& graph, Vertex v, ProblemList& out) {
-  const auto branches = graph.downstream(v);
+std::string listShares(const ReachGraph& graph, const BifurcationShares& b) {
+  std::string out;
+  for (std::size_t k = 0; k < b.branches.size(); ++k)
+    out += fmt::format("{}{} {:.4g}", k ? ", " : "", graph.id(b.branches[k]), b.share[k]);
+  return out;
+}
+
+/// The branches of `b` that have a share (given), or have none.
+std::vector<Vertex> branchesWith(const BifurcationShares& b, bool given) {
+  std::vector<Vertex> out;
+  for (std::size_t k = 0; k < b.branches.size(); ++k)
+    if (std::isnan(b.share[k]) != given) out.push_back(b.branches[k]);
+  return out;
+}
+
+void reportMissing(const ReachGraph& graph, const BifurcationShares& b, ProblemList& out) {
+  const auto given = branchesWith(b, true);
+  const std::string why =
+      given.empty() ? std::string("no branch has one and default_split is \"none\"")
+                    : fmt::format("while {} ha{} one: give every branch a split, or none to use default_split",
+                                  listIds(graph, given), given.size() == 1 ? "s" : "ve");
+  for (const auto v : branchesWith(b, false))
+    out.push_back(at(graph, v, graph.top(v), ProblemCode::BifurcationSplitMissing,
+                     fmt::format("Reach {} is a branch of the bifurcation below reach {} but has no "
+                                 "split value ({}).",
+                                 graph.id(v), graph.id(b.at), why)));
+}
+
+void checkBifurcation(const ReachGraph& graph, const BifurcationShares& b, ProblemList& out) {
+  const Vertex v = b.at;
+  switch (b.source) {
+    case ShareSource::Missing:
+      reportMissing(graph, b, out);
+      return;
+    case ShareSource::Width:
+    case ShareSource::Equal:
+    {
+      const DefaultSplit rule = graph.splits().fallback;
+      const bool width = b.source == ShareSource::Width;
+      out.push_back(at(graph, v, graph.bottom(v), ProblemCode::SplitAssumed,
+                       fmt::format("No branch of the bifurcation below reach {} has a split value; "
+                                   "{} (default_split = \"{}\"{}): {}.",
+                                   graph.id(v), width ? "shares by bottom width" : "equal shares",
+                                   defaultSplitName(rule),
+                                   !width && rule == DefaultSplit::Width
+                                       ? ", but a branch has no bottom width"
+                                       : "",
+                                   listShares(graph, b))));
+      return;
+    }
+    case ShareSource::Override:
+    case ShareSource::Field:
+      break;
+  }
   double sum = 0;
   bool complete = true;
-  std::string shares;
-  for (const auto b : branches) {
-    const double split = graph.record(b).split;
-    if (std::isnan(split)) {
-      complete = false;
-      out.push_back(at(graph, b, graph.top(b), ProblemCode::BifurcationSplitMissing,
-                       fmt::format("Reach {} is a branch of the bifurcation below reach {} "
-                                   "but has no split value.",
-                                   graph.id(b), graph.id(v))));
-      continue;
-    }
+  for (std::size_t k = 0; k < b.branches.size(); ++k) {
+    const double split = b.share[k];
     if (!(split >= 0 && split <= 1)) {
       complete = false;
-      out.push_back(at(graph, b, graph.top(b), ProblemCode::BifurcationSplitRange,
-                       fmt::format("Reach {} has split {}, outside 0 to 1.", graph.id(b), split)));
+      out.push_back(at(graph, b.branches[k], graph.top(b.branches[k]), ProblemCode::BifurcationSplitRange,
+                       fmt::format("Reach {} has split {}, outside 0 to 1.", graph.id(b.branches[k]), split)));
     }
     sum += split;
-    shares += fmt::format("{}{} {}", shares.empty() ? "" : ", ", graph.id(b), split);
   }
   if (complete && std::abs(sum - 1.0) > kSplitSumTolerance)
     out.push_back(at(graph, v, graph.bottom(v), ProblemCode::BifurcationSplitSum,
                      fmt::format("The splits of the branches below reach {} ({}) sum to {}, "
                                  "not 1.",
-                                 graph.id(v), shares, sum)));
+                                 graph.id(v), listShares(graph, b), sum)));
 }
 
 bool isBranch(const ReachGraph& graph, Vertex v) {
@@ -168,9 +210,9 @@ bool isBranch(const ReachGraph& graph, Vertex v) {
 }
 
 void checkSplits(const ReachGraph& graph, ProblemList& out) {
-  for (const auto v : graph.bifurcations()) checkBifurcation(graph, v, out);
+  for (const auto& b : graph.splits().bifurcations) checkBifurcation(graph, b, out);
   for (Vertex v = 0; v < graph.size(); ++v) {
-    if (std::isnan(graph.record(v).split) || isBranch(graph, v)) continue;
+    if (std::isnan(graph.record(v).split) || isBranch(graph, v) || graph.splits().piece_split[v]) continue;
     out.push_back(at(graph, v, graph.top(v), ProblemCode::SplitUnused,
                      fmt::format("Reach {} has a split value but is not a branch of a "
                                  "bifurcation; it is ignored.",

@@ -224,6 +224,9 @@ private:
     }
   }
 
+  bool bifurcates(std::uint32_t i) const { return plan_.down_offset[i + 1] - plan_.down_offset[i] > 1; }
+  NodeSummary topNode(std::uint32_t i) const;
+  NodeSummary bifurcationNode(std::uint32_t i) const;
   void collectNodes();
   void summariseWarnings();
 
@@ -244,39 +247,67 @@ private:
   std::exception_ptr error_;
 };
 
-void Scheduler::collectNodes() {
-  // A node at the top of every reach (headwater, confluence, junction, or a
-  // branch of a bifurcation) and one below every outlet.
-  for (std::uint32_t i = 0; i < n_; ++i) {
-    NodeSummary node;
-    node.node_id = "N:" + plan_.reach_id[i];
-    node.x = plan_.top[i].x;
-    node.y = plan_.top[i].y;
-    node.peak_q_m3s = top_node_[i].value;
-    node.peak_time_s = peakTime(axis_, top_node_[i]);
-    const std::uint32_t ups = plan_.up_offset[i + 1] - plan_.up_offset[i];
-    if (ups == 0) {
-      node.kind = NodeKind::Headwater;
-    } else if (ups >= 2) {
-      node.kind = NodeKind::Confluence;
-      double earliest = INFINITY, latest = -INFINITY, sum = 0;
-      for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) {
-        const std::uint32_t u = plan_.up_reach[k];
-        const ReachSummary& r = results_.reaches[u];
-        ConfluenceBranch b{u, r.peak_q_m3s * plan_.up_fraction[k], r.peak_time_s};
-        earliest = std::min(earliest, b.peak_time_s);
-        latest = std::max(latest, b.peak_time_s);
-        sum += b.peak_q_m3s;
-        node.branches.push_back(b);
-      }
-      node.branch_spread_s = latest - earliest;
-      node.coincidence_ratio = sum > 0 ? node.peak_q_m3s / sum : NAN;
-    } else {
-      const std::uint32_t u = plan_.up_reach[plan_.up_offset[i]];
-      const bool split = plan_.down_offset[u + 1] - plan_.down_offset[u] > 1;
-      node.kind = split ? NodeKind::Bifurcation : NodeKind::Junction;
+NodeSummary Scheduler::topNode(std::uint32_t i) const {
+  NodeSummary node;
+  node.node_id = "N:" + plan_.reach_id[i];
+  node.x = plan_.top[i].x;
+  node.y = plan_.top[i].y;
+  node.peak_q_m3s = top_node_[i].value;
+  node.peak_time_s = peakTime(axis_, top_node_[i]);
+  const std::uint32_t ups = plan_.up_offset[i + 1] - plan_.up_offset[i];
+  if (ups == 0) {
+    node.kind = NodeKind::Headwater;
+  } else if (ups == 1) {
+    node.kind = NodeKind::Junction;
+  } else {
+    node.kind = plan_.isSideArmReturn(i) ? NodeKind::SideArmReturn : NodeKind::Confluence;
+    double earliest = INFINITY, latest = -INFINITY, sum = 0;
+    for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) {
+      const std::uint32_t u = plan_.up_reach[k];
+      const ReachSummary& r = results_.reaches[u];
+      ConfluenceBranch b{u, r.peak_q_m3s * plan_.up_fraction[k], r.peak_time_s};
+      earliest = std::min(earliest, b.peak_time_s);
+      latest = std::max(latest, b.peak_time_s);
+      sum += b.peak_q_m3s;
+      node.branches.push_back(b);
     }
-    results_.nodes.push_back(std::move(node));
+    node.branch_spread_s = latest - earliest;
+    node.coincidence_ratio = sum > 0 ? node.peak_q_m3s / sum : NAN;
+  }
+  return node;
+}
+
+NodeSummary Scheduler::bifurcationNode(std::uint32_t i) const {
+  // At the downstream end of the reach that splits; its flow is that reach's outflow.
+  NodeSummary node;
+  node.node_id = "B:" + plan_.reach_id[i];
+  node.kind = NodeKind::Bifurcation;
+  node.x = plan_.bottom[i].x;
+  node.y = plan_.bottom[i].y;
+  node.peak_q_m3s = results_.reaches[i].peak_q_m3s;
+  node.peak_time_s = results_.reaches[i].peak_time_s;
+  for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k) {
+    const std::uint32_t d = plan_.down_reach[k];
+    for (std::uint32_t j = plan_.up_offset[d]; j < plan_.up_offset[d + 1]; ++j)
+      if (plan_.up_reach[j] == i) node.outgoing.push_back({d, plan_.up_fraction[j]});
+  }
+  // Largest share first (ties: by id), so that the listing does not depend on the plan order.
+  std::sort(node.outgoing.begin(), node.outgoing.end(), [&](const BifurcationBranch& a, const BifurcationBranch& b) {
+    return a.share != b.share ? a.share > b.share : plan_.reach_id[a.reach] < plan_.reach_id[b.reach];
+  });
+  return node;
+}
+
+void Scheduler::collectNodes() {
+  // A node at the top of every reach (headwater, confluence, side-arm
+  // return, junction) except a branch of a bifurcation, one at the bottom of
+  // every reach that splits (the bifurcation, listing its branches), and one
+  // below every outlet.
+  for (std::uint32_t i = 0; i < n_; ++i) {
+    const std::uint32_t ups = plan_.up_offset[i + 1] - plan_.up_offset[i];
+    const bool branch = ups == 1 && bifurcates(plan_.up_reach[plan_.up_offset[i]]);
+    if (!branch) results_.nodes.push_back(topNode(i));
+    if (bifurcates(i)) results_.nodes.push_back(bifurcationNode(i));
   }
   for (std::uint32_t i = 0; i < n_; ++i) {
     if (!plan_.isOutlet(i)) continue;

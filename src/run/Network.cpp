@@ -46,7 +46,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
   net->source = source;
   net->config = read_options.config;
   net->table = io::readNetwork(source.path, read_options, net->problems, &net->read);
-  net->graph.emplace(net->table);
+  net->graph.emplace(net->table, net->config.splits);
   network::mergeProblems(net->problems, network::validate(*net->graph));
   return net;
 }

@@ -15,6 +15,8 @@ TEST(NetworkConfig, DefaultsUseTheDocumentedFieldNames) {
   EXPECT_EQ(cfg.topology, io::TopologySource::Auto);
   EXPECT_DOUBLE_EQ(cfg.snap_tolerance_m, 5.0);  // metres, the documented default
   EXPECT_FALSE(cfg.gap_search_m.has_value());    // 10 x the tolerance
+  EXPECT_EQ(cfg.splits.fallback, network::DefaultSplit::Width);  // the documented default
+  EXPECT_TRUE(cfg.splits.overrides.empty());
   EXPECT_THROW(cfg.field("colour"), InternalError);
 }
 
@@ -112,6 +114,65 @@ to = [5000.5, -20]
   ASSERT_TRUE(cfg.connections[1].to_point.has_value());
   EXPECT_DOUBLE_EQ(cfg.connections[1].to_point->x, 5000.5);
   EXPECT_DOUBLE_EQ(cfg.connections[1].to_point->y, -20.0);
+}
+
+TEST(NetworkConfig, ParsesDefaultSplitAndSplitTables) {
+  const auto cfg = NetworkConfig::fromString(R"(
+[network]
+default_split = "equal"
+
+[[network.split]]
+at = "R7"
+shares = { R8 = 0.7, "R9" = 0.3 }
+
+[[network.split]]
+at = 12
+shares = { "12.1" = 0.25, 13 = 0.75 }
+)",
+                                             "run.toml");
+  EXPECT_EQ(cfg.splits.fallback, network::DefaultSplit::Equal);
+  EXPECT_EQ(cfg.splits.origin, "run.toml");
+  ASSERT_EQ(cfg.splits.overrides.size(), 2u);
+  const auto& first = cfg.splits.overrides[0];
+  EXPECT_EQ(first.at, "R7");
+  EXPECT_EQ(first.key, "network.split[1]");
+  ASSERT_EQ(first.shares.size(), 2u);
+  EXPECT_EQ(first.shares[0].first, "R8");
+  EXPECT_DOUBLE_EQ(first.shares[0].second, 0.7);
+  EXPECT_EQ(first.shares[1].first, "R9");
+  const auto& second = cfg.splits.overrides[1];
+  EXPECT_EQ(second.at, "12");  // an integer id, as text
+  EXPECT_EQ(second.key, "network.split[2]");
+  ASSERT_EQ(second.shares.size(), 2u);
+  EXPECT_EQ(second.shares[0].first, "12.1");
+  EXPECT_EQ(second.shares[1].first, "13");
+  EXPECT_DOUBLE_EQ(second.shares[1].second, 0.75);
+  for (const char* rule : {"width", "none"})
+    EXPECT_EQ(network::defaultSplitName(
+                  NetworkConfig::fromString(std::string("[network]\ndefault_split = \"") + rule + "\"\n", "r.toml")
+                      .splits.fallback),
+              std::string(rule));
+}
+
+TEST(NetworkConfig, SplitTableMistakesNameTheKey) {
+  auto fails_at = [](const std::string& text, const std::string& key) {
+    try {
+      NetworkConfig::fromString(text, "bad.toml");
+      ADD_FAILURE() << "no error for: " << text;
+    } catch (const InputError& e) {
+      EXPECT_EQ(e.where().file, "bad.toml");
+      EXPECT_EQ(e.where().field, key) << e.what();
+    }
+  };
+  fails_at("[network]\ndefault_split = \"wide\"\n", "network.default_split");
+  fails_at("[network]\nsplit = 0.5\n", "network.split");
+  fails_at("[[network.split]]\nshares = { A = 1 }\n", "network.split[1].at");
+  fails_at("[[network.split]]\nat = \"A\"\n", "network.split[1].shares");
+  fails_at("[[network.split]]\nat = \"A\"\nshares = 1\n", "network.split[1].shares");
+  fails_at("[[network.split]]\nat = \"A\"\nshares = { B = \"most\" }\n", "network.split[1].shares.B");
+  fails_at("[[network.split]]\nat = \"A\"\nshares = { B = 1 }\n[[network.split]]\nat = \"C\"\nfrom = 2\n",
+           "network.split[2].from");
+  fails_at("[[network.split]]\nat = 1.5\nshares = { B = 1 }\n", "network.split[1].at");
 }
 
 TEST(NetworkConfig, SyntaxErrorGivesTheLine) {

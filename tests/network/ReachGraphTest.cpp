@@ -179,10 +179,11 @@ TEST(ReachGraph, BifurcationCarriesSplitsIntoFractions) {
   const auto d = indexOf(plan, "D");
   for (auto k = plan.up_offset[d]; k < plan.up_offset[d + 1]; ++k)
     EXPECT_DOUBLE_EQ(plan.up_fraction[k], 1.0);
-  // Both branches inherit the order of the reach that splits; where they
-  // meet again two first-order streams join (Strahler 1957).
+  // Both branches inherit the order of the reach that splits (Strahler
+  // 1957); where they meet again B, the side arm (the smaller share), does
+  // not count, so D keeps order 1 (docs/formats.md, "Bifurcations").
   EXPECT_EQ(plan.strahler[b], 1);
-  EXPECT_EQ(plan.strahler[d], 2);
+  EXPECT_EQ(plan.strahler[d], 1);
 }
 
 TEST(ReachGraph, CycleIsFoundWithItsIdsAndFreezeRefusesIt) {

@@ -610,3 +610,151 @@ TEST(ReportSeriesTest, ChoosesABoundedSetByUpstreamNetwork) {
 }
 
 }  // namespace
+
+namespace {
+
+/// A braid routed in memory and written to a GeoPackage: H → U, which
+/// splits into M (0.7, the main branch) and S (0.3, a side arm); both
+/// rejoin in D (a side-arm return); T joins D's water in E (a confluence).
+/// M and S are alike, so their peaks reach D close together.
+struct Braid {
+  fs::path dir;
+  network::ReachTable table;
+  std::optional<network::ReachGraph> graph;
+  network::NetworkPlan plan;
+  routing::TimeAxis axis;
+  std::unique_ptr<report::ReportSeries> series;
+  routing::NetworkResults results;
+  io::RunInfo info;
+  fs::path gpkg;
+
+  explicit Braid(const fs::path& where) : dir(where) {
+    fs::create_directories(dir);
+    OGRSpatialReference srs;
+    srs.importFromEPSG(32633);
+    char* wkt = nullptr;
+    srs.exportToWkt(&wkt);
+    table.crs_wkt = wkt;
+    CPLFree(wkt);
+    table.source = "braid.gpkg";
+    table.layer = "reaches";
+    const auto reach = [&](const char* id, const char* to, double x0, double y0, double x1, double y1, double split) {
+      network::ReachRecord r;
+      r.id = id;
+      r.fid = static_cast<std::int64_t>(table.reaches.size()) + 1;
+      if (to) r.to_reach = to;
+      r.line = {{x0, y0, NAN}, {x1, y1, NAN}};
+      r.length_m = 3000;
+      r.geometry_length_m = std::hypot(x1 - x0, y1 - y0);
+      r.split = split;
+      r.section.bottom_width_m = 10;
+      r.section.side_slope = 2;
+      r.section.manning_n = 0.035;
+      r.section.bed_slope = 0.001;
+      table.reaches.push_back(r);
+    };
+    reach("H", "U", 500000, 5094000, 500000, 5097000, NAN);
+    reach("U", "M;S", 500000, 5097000, 500000, 5100000, NAN);
+    reach("M", "D", 500000, 5100000, 499000, 5103000, 0.7);
+    reach("S", "D", 500000, 5100000, 501000, 5103000, 0.3);
+    reach("D", "E", 500000, 5103000, 500000, 5106000, NAN);
+    reach("T", "E", 503000, 5106000, 500000, 5106000, NAN);
+    reach("E", nullptr, 500000, 5106000, 500000, 5109000, NAN);
+    graph.emplace(table);
+    if (network::hasErrors(network::validate(*graph))) throw std::runtime_error("braid has errors");
+    plan = graph->freeze();
+    axis.start_unix_s = testsupport::utcSeconds(2026, 5, 1, 0);
+    axis.dt_s = 1800;
+    axis.steps = 96;
+    routing::MemoryForcing forcing;
+    forcing.inflow_m3s.assign(plan.size(), {});
+    for (std::uint32_t i = 0; i < plan.size(); ++i) {
+      if (plan.reach_id[i] == "T") forcing.inflow_m3s[i].assign(axis.steps, 2.0);
+      if (plan.reach_id[i] != "H") continue;
+      forcing.inflow_m3s[i].assign(axis.steps, 1.0);
+      for (std::size_t k = 10; k < 30; ++k)  // a triangular flood wave, peak 41 m3/s at step 20
+        forcing.inflow_m3s[i][k] = 1.0 + 40.0 * (1.0 - std::abs(static_cast<double>(k) - 20.0) / 10.0);
+    }
+    gpkg = dir / "braid.gpkg";
+    io::GpkgResultsWriter writer(gpkg, table, plan, axis);
+    series = std::make_unique<report::ReportSeries>(plan, axis);
+    io::SeriesFanOut fan({&writer, series.get()});
+    results = routing::routeNetwork(plan, axis, forcing, routing::NetworkRouteOptions{}, &fan);
+    info.method = "vpmc";
+    writer.writeSummaries(results, info);
+    writer.commit();
+  }
+  report::ReportInputs inputs() const { return report::ReportInputs{table, plan, results, info, gpkg.string(), false}; }
+};
+
+}  // namespace
+
+TEST_F(ReportTest, BraidHasOneBifurcationNodeListingBothSharesAndASideArmReturn) {
+  const Braid braid(tmp.path() / "braid");
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(braid.gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* nodes = ds->GetLayerByName("nodes");
+  ASSERT_NE(nodes, nullptr);
+  std::map<std::string, std::string> kind;
+  std::size_t bifurcations = 0;
+  for (auto& f : *nodes) {
+    const std::string id = f->GetFieldAsString("node_id");
+    kind[id] = f->GetFieldAsString("kind");
+    if (kind[id] != "bifurcation") {
+      EXPECT_FALSE(f->IsFieldSetAndNotNull(f->GetFieldIndex("branches"))) << id;
+      continue;
+    }
+    ++bifurcations;
+    EXPECT_EQ(id, "B:U");
+    EXPECT_EQ(std::string(f->GetFieldAsString("branches")), "M:0.7;S:0.3");
+    EXPECT_EQ(f->GetFieldAsInteger("branch_count"), 2);
+    // At the bottom of U, carrying U's outflow peak.
+    const auto* p = dynamic_cast<const OGRPoint*>(f->GetGeometryRef());
+    ASSERT_NE(p, nullptr);
+    EXPECT_DOUBLE_EQ(p->getY(), 5100000.0);
+    const auto u = std::find(braid.plan.reach_id.begin(), braid.plan.reach_id.end(), "U") - braid.plan.reach_id.begin();
+    EXPECT_DOUBLE_EQ(f->GetFieldAsDouble("peak_q"), braid.results.reaches[static_cast<std::size_t>(u)].peak_q_m3s);
+  }
+  EXPECT_EQ(bifurcations, 1u);
+  EXPECT_EQ(kind.count("N:M") + kind.count("N:S"), 0u) << "one node per bifurcation, not one per branch";
+  EXPECT_EQ(kind["N:D"], "side_arm_return");
+  EXPECT_EQ(kind["N:E"], "confluence");
+
+  // The reaches layer shows the share each branch took.
+  OGRLayer* reaches = ds->GetLayerByName("reaches");
+  ASSERT_NE(reaches, nullptr);
+  for (auto& f : *reaches) {
+    const std::string id = f->GetFieldAsString("reach_id");
+    const int k = f->GetFieldIndex("split");
+    if (id == "M" || id == "S") {
+      EXPECT_DOUBLE_EQ(f->GetFieldAsDouble(k), id == "M" ? 0.7 : 0.3);
+    } else {
+      EXPECT_FALSE(f->IsFieldSetAndNotNull(k)) << id;
+    }
+  }
+}
+
+TEST_F(ReportTest, SideArmReturnIsLeftOutOfTheConfluenceCountsAndRanking) {
+  const Braid braid(tmp.path() / "braid");
+  // The side arm and the main branch peak within an hour of each other at
+  // D: as a confluence it would be listed as coinciding.
+  const routing::NodeSummary* d = nullptr;
+  for (const auto& n : braid.results.nodes)
+    if (n.node_id == "N:D") d = &n;
+  ASSERT_NE(d, nullptr);
+  ASSERT_EQ(d->kind, routing::NodeKind::SideArmReturn);
+  ASSERT_LE(d->branch_spread_s, 3600.0);
+
+  report::writeReport(report(), braid.inputs(), *braid.series, false);
+  const std::string html = readText(report() / "index.html");
+  for (const char* table : {"coincident", "major-confluences"})
+    for (const auto& row : tableRows(html, table))
+      if (!row.empty()) {
+        EXPECT_NE(trim(row[0]), "N:D") << table;
+      }
+  // E is the network's only confluence, and the only one ranked.
+  const auto major = tableRows(html, "major-confluences");
+  ASSERT_EQ(major.size(), 1u);
+  EXPECT_EQ(trim(major[0][0]), "N:E");
+  EXPECT_NE(html.find(" 1 confluence,"), std::string::npos);
+}

@@ -448,3 +448,61 @@ TEST(NetworkRouter, PonceNumberHandsFlatReachesToTheDiffusionWave) {
     }
   }
 }
+
+// A braid by hand: U splits into A (0.4) and B (0.6), which rejoin in D,
+// the top of which the plan marks as a side-arm return. The bifurcation is
+// one node at U's bottom listing both branches and their shares; the
+// branches get no node of their own; D's node is a side-arm return, with
+// its incoming branches like a confluence.
+TEST(NetworkRouter, BifurcationIsOneNodeListingItsBranches) {
+  NetworkPlan p;
+  const std::vector<std::vector<std::pair<std::uint32_t, double>>> ups = {{}, {{0, 0.4}}, {{0, 0.6}}, {{1, 1.0}, {2, 1.0}}};
+  const std::vector<std::vector<std::uint32_t>> downs = {{1, 2}, {3}, {3}, {}};
+  p.up_offset.push_back(0);
+  p.down_offset.push_back(0);
+  for (std::uint32_t i = 0; i < 4; ++i) {
+    p.reach_id.push_back(std::string(1, "UABD"[i]));
+    p.fid.push_back(i);
+    p.record.push_back(i);
+    p.length_m.push_back(2000);
+    hydraulics::SectionSpec s;
+    s.bottom_width_m = 10;
+    s.side_slope = 2;
+    s.manning_n = 0.035;
+    s.bed_slope = 0.001;
+    p.section.push_back(hydraulics::Section::fromSpec(s));
+    p.muskingum_k_s.push_back(NAN);
+    p.muskingum_x.push_back(NAN);
+    p.basin.push_back(0);
+    p.strahler.push_back(1);
+    p.side_arm_return.push_back(i == 3);
+    p.top.push_back({0, 1000.0 * i});
+    p.bottom.push_back({0, 1000.0 * i + 900});
+    for (const auto& [u, f] : ups[i]) p.up_reach.push_back(u), p.up_fraction.push_back(f);
+    for (const auto d : downs[i]) p.down_reach.push_back(d);
+    p.up_offset.push_back(static_cast<std::uint32_t>(p.up_reach.size()));
+    p.down_offset.push_back(static_cast<std::uint32_t>(p.down_reach.size()));
+  }
+  MemoryForcing f;
+  f.inflow_m3s = {storm(72, 2, 30, 6, 12), {}, {}, {}};
+  const NetworkResults r = routeNetwork(p, hourly(72), f, NetworkRouteOptions{});
+  std::map<std::string, const NodeSummary*> by_id;
+  for (const NodeSummary& node : r.nodes) by_id[node.node_id] = &node;
+  EXPECT_EQ(by_id.size(), 4u);  // N:U, B:U, N:D, O:D
+  EXPECT_EQ(by_id.count("N:A") + by_id.count("N:B"), 0u);
+  ASSERT_EQ(by_id.count("B:U"), 1u);
+  const NodeSummary& b = *by_id.at("B:U");
+  EXPECT_EQ(b.kind, NodeKind::Bifurcation);
+  EXPECT_DOUBLE_EQ(b.y, 900.0);  // U's bottom
+  EXPECT_DOUBLE_EQ(b.peak_q_m3s, r.reaches[0].peak_q_m3s);
+  ASSERT_EQ(b.outgoing.size(), 2u);
+  EXPECT_EQ(b.outgoing[0].reach, 2u);  // largest share first
+  EXPECT_DOUBLE_EQ(b.outgoing[0].share, 0.6);
+  EXPECT_EQ(b.outgoing[1].reach, 1u);
+  EXPECT_DOUBLE_EQ(b.outgoing[1].share, 0.4);
+  ASSERT_EQ(by_id.count("N:D"), 1u);
+  EXPECT_EQ(by_id.at("N:D")->kind, NodeKind::SideArmReturn);
+  EXPECT_EQ(by_id.at("N:D")->branches.size(), 2u);
+  // The shares reach the branches: A carries 0.4 / 0.6 of B's flow at the peak.
+  EXPECT_NEAR(r.reaches[1].inflow_peak_m3s / r.reaches[2].inflow_peak_m3s, 0.4 / 0.6, 1e-12);
+}

@@ -9,8 +9,10 @@
 #include <gtest/gtest.h>
 #include <ogrsf_frmts.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <fstream>
 #include <map>
 #include <regex>
 #include <set>
@@ -309,4 +311,107 @@ TEST(LoadNetwork, StrahlerInProblemsFileMatchesAHandCount) {
   }
   const network::NetworkPlan plan = run::routablePlan(*c.net);
   EXPECT_EQ(*std::max_element(plan.strahler.begin(), plan.strahler.end()), c.summary.max_strahler);
+}
+
+namespace {
+
+/// `check` with a run file holding `toml` (written beside the layer).
+Checked checkWith(const std::string& path, const std::string& name, const std::string& toml) {
+  const auto config = (testsupport::testScratchDir() / name).string();
+  std::ofstream(config) << toml;
+  Checked c;
+  c.net = run::loadNetwork({path, "", config});
+  c.summary = network::summarize(*c.net->graph);
+  for (const auto& p : c.net->problems) c.err += run::problemLine(p) + "\n";
+  return c;
+}
+
+std::size_t countCode(const std::vector<ProblemLine>& lines, const std::string& code) {
+  return static_cast<std::size_t>(
+      std::count_if(lines.begin(), lines.end(), [&](const auto& p) { return p.code == code; }));
+}
+
+/// reach_id -> `split` of the `network` layer of a problems GeoPackage (NaN when null).
+std::map<std::string, double> writtenSplits(const Checked& c, const std::string& name) {
+  const auto out = testsupport::testScratchDir() / name;
+  run::writeProblems(out.string(), *c.net);
+  const auto ds = open(out.string());
+  std::map<std::string, double> split;
+  EXPECT_TRUE(ds);
+  if (!ds) return split;
+  for (const auto& f : *ds->GetLayerByName("network")) {
+    const int k = f->GetFieldIndex("split");
+    split[f->GetFieldAsString("reach_id")] = f->IsFieldSetAndNotNull(k) ? f->GetFieldAsDouble(k) : NAN;
+  }
+  return split;
+}
+
+}  // namespace
+
+TEST(LoadNetwork, BifurcationWithoutSplitsIsSharedByWidthAndTheLayerShowsTheShares) {
+  // Both branches are 12 m wide (writeLayer): shares 12/24 each.
+  const auto c = check(writeLayer("bifurcation_bare.gpkg", bifurcation(NAN, NAN)));
+  EXPECT_FALSE(c.errors()) << c.err;
+  const auto lines = problemLines(c.err);
+  ASSERT_EQ(countCode(lines, "split_assumed"), 1u) << c.err;
+  EXPECT_NE(c.err.find("A 0.5, B 0.5"), std::string::npos) << c.err;
+  const auto split = writtenSplits(c, "bifurcation_bare_problems.gpkg");
+  EXPECT_DOUBLE_EQ(split.at("A"), 0.5);
+  EXPECT_DOUBLE_EQ(split.at("B"), 0.5);
+  EXPECT_TRUE(std::isnan(split.at("U")));
+}
+
+TEST(LoadNetwork, RunFileOverrideSetsTheSharesAndItsMistakesNameTheFileAndKey) {
+  const auto path = writeLayer("bifurcation_override.gpkg", bifurcation(0.4, 0.6));
+  const auto c = checkWith(path, "override.toml", "[[network.split]]\nat = \"U\"\nshares = { A = 0.9, B = 0.1 }\n");
+  EXPECT_TRUE(c.net->problems.empty()) << c.err;
+  // The layer written by check shows the shares in use, not the fields.
+  const auto split = writtenSplits(c, "bifurcation_override_problems.gpkg");
+  EXPECT_DOUBLE_EQ(split.at("A"), 0.9);
+  EXPECT_DOUBLE_EQ(split.at("B"), 0.1);
+  // And the plan routes with them.
+  const auto plan = run::routablePlan(*c.net);
+  for (std::size_t i = 0; i < plan.size(); ++i)
+    if (plan.reach_id[i] == "A") {
+      EXPECT_DOUBLE_EQ(plan.up_fraction[plan.up_offset[i]], 0.9);
+    }
+
+  const auto config = (testsupport::testScratchDir() / "override_bad.toml").string();
+  std::ofstream(config) << "[[network.split]]\nat = \"U\"\nshares = { A = 0.9, L = 0.1 }\n";
+  try {
+    run::loadNetwork({path, "", config});
+    ADD_FAILURE() << "an override naming a reach that is no branch was accepted";
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.where().file, config);
+    EXPECT_EQ(e.where().field, "network.split[1].shares.L");
+  }
+}
+
+TEST(LoadNetwork, SplitOnACutBranchLineIsUsedOnceAndNotReportedUnused) {
+  // Topology from geometry. U flows north and splits at (0, 1000) into A
+  // (north-west, split 0.6) and B (north-east, split 0.4). The tributary T
+  // ends on A's interior at (-250, 1500), so A is cut in two pieces that
+  // both copy A's split; only the upper piece leaves the bifurcation.
+  const auto path = writeLayer("cut_branch.gpkg", {{"U", nullptr, NAN, 0, 0, 0, 1000},
+                                                   {"A", nullptr, 0.6, 0, 1000, -500, 2000},
+                                                   {"B", nullptr, 0.4, 0, 1000, 500, 2000},
+                                                   {"T", nullptr, NAN, -1000, 1500, -250, 1500}});
+  const auto c = checkWith(path, "geometry.toml", "[network]\ntopology = \"geometry\"\n");
+  const auto lines = problemLines(c.err);
+  ASSERT_EQ(countCode(lines, "split_line"), 1u) << c.err;  // A was cut
+  EXPECT_EQ(countCode(lines, "split_unused"), 0u) << c.err;
+  EXPECT_FALSE(c.errors()) << c.err;
+  const auto& g = *c.net->graph;
+  const auto u = g.find("U");
+  ASSERT_TRUE(u.has_value());
+  const auto* shares = g.sharesAt(*u);
+  ASSERT_NE(shares, nullptr) << c.err;
+  ASSERT_EQ(shares->branches.size(), 2u);
+  for (std::size_t k = 0; k < 2; ++k) {
+    const std::string& id = g.id(shares->branches[k]);
+    EXPECT_DOUBLE_EQ(shares->share[k], id == "B" ? 0.4 : 0.6) << id;
+    if (id != "B") {
+      EXPECT_EQ(id.rfind("A.", 0), 0u) << id;  // a piece of A
+    }
+  }
 }

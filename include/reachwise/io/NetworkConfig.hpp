@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "reachwise/hydraulics/Units.hpp"
+#include "reachwise/network/Splits.hpp"
 #include "reachwise/network/geos/GeometryTopology.hpp"
 
 namespace reachwise::io {
@@ -59,6 +60,10 @@ struct NetworkConfig {
   /// [x, y] point in the layer's CRS units). With topology from ids, a reach
   /// target sets `to_reach` of a reach that has none.
   std::vector<network::geos::Connection> connections;
+  /// `default_split` ("width", "equal", "none"; default "width") and the
+  /// `[[network.split]]` tables; `origin` names this file. Checked against
+  /// the network when the graph is built (network::resolveSplits).
+  network::SplitRules splits;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 

@@ -15,7 +15,9 @@ namespace reachwise::io {
 ///    without a location gets an empty geometry; the key column is `problem_id`
 ///    (`row_id` in `network`) so that `fid` holds the source feature id;
 ///  - `network`: lines in flow direction (reach_id, fid, to_reach, flipped, split,
-///    strahler, basin), one per record of the graph's table. `flipped` is 1
+///    strahler, basin), one per record of the graph's table. `split` is the
+///    share the graph uses for a branch of a bifurcation (ReachGraph::share),
+///    null for other reaches. `flipped` is 1
 ///    when the line as stored in the source runs against the flow: reversed
 ///    by the reader (ReachRecord::reoriented, a `flipped_line` problem) or
 ///    judged so from the links (ReachGraph::flipped).

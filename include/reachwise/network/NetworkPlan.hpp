@@ -33,7 +33,14 @@ struct NetworkPlan {
   std::vector<double> muskingum_x;             ///< NaN when not given
   std::vector<double> base_flow_m3s;           ///< constant flow entering along the reach, NaN when none
   std::vector<std::uint32_t> basin;            ///< connected component (0..n_basins-1)
-  std::vector<std::uint16_t> strahler;         ///< Strahler order
+  std::vector<std::uint16_t> strahler;         ///< Strahler order (side arms not counted, Strahler.hpp)
+  /// Share of the bifurcating reach's outflow the reach takes as a branch
+  /// of a bifurcation (as resolved, Splits.hpp); NaN when it is no branch.
+  std::vector<double> split;
+  /// True when the node at the top of the reach is a side-arm return: a
+  /// confluence where a side arm rejoins the channel it left (Strahler.hpp).
+  /// May be empty (a plan built by hand): no side-arm returns.
+  std::vector<bool> side_arm_return;
   std::vector<Point2> top, bottom;             ///< upstream / downstream end points
   /// True when the reach's line as the table holds it
   /// (`ReachTable::reaches[record[i]].line`) runs against the flow: its first
@@ -57,6 +64,7 @@ struct NetworkPlan {
   std::size_t size() const noexcept { return reach_id.size(); }
   bool isOutlet(std::size_t i) const { return down_offset[i] == down_offset[i + 1]; }
   bool isHeadwater(std::size_t i) const { return up_offset[i] == up_offset[i + 1]; }
+  bool isSideArmReturn(std::size_t i) const { return i < side_arm_return.size() && side_arm_return[i]; }
 };
 
 }  // namespace reachwise::network

@@ -19,7 +19,9 @@ namespace reachwise::network {
 std::vector<double> upstreamSize(const NetworkPlan& plan);
 
 /// Plan indices of the reaches leaving a confluence (two or more reaches
-/// above; the confluence is the node at their top), in plan order.
+/// above; the confluence is the node at their top), in plan order. A
+/// side-arm return (a side arm rejoining the channel it left,
+/// NetworkPlan::side_arm_return) is not a confluence here.
 std::vector<std::uint32_t> confluenceReaches(const NetworkPlan& plan);
 
 /// The `limit` of `candidates` with the largest `size`, largest first

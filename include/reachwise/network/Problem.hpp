@@ -53,10 +53,11 @@ enum class ProblemCode : std::uint8_t {
   BifurcationSplitRange,
   BifurcationSplitSum,
   SplitUnused,
-  Basin,  ///< the last code
+  Basin,
+  SplitAssumed,  ///< the last code
 };
 
-inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::Basin) + 1;
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SplitAssumed) + 1;
 
 /// One row of the code table.
 struct ProblemKind {

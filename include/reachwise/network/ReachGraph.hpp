@@ -10,7 +10,9 @@
 /// by ';' or ',' (so reach ids cannot contain those characters); each of
 /// those downstream reaches carries `split`, the share of the bifurcating
 /// reach's outflow that enters it. The splits of one bifurcation must sum
-/// to 1 within 1e-6 (checked by validate()).
+/// to 1 within 1e-6 (checked by validate()). The shares the graph uses are
+/// resolved once, when it is built (Splits.hpp: a run-file override, the
+/// fields, or the default rule).
 
 #include <cstdint>
 #include <memory>
@@ -22,6 +24,7 @@
 
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
+#include "reachwise/network/Splits.hpp"
 
 namespace reachwise::network {
 
@@ -55,11 +58,13 @@ public:
   /// Vertex = index of the record in the ReachTable.
   using Vertex = std::uint32_t;
 
-  /// Builds the graph. `table` must outlive the graph (lengths, sections and
-  /// lines are read from it, not copied). Never throws for bad topology:
-  /// unknown ids and duplicates are kept for validate() to report; a
-  /// duplicate id resolves to its first record.
-  explicit ReachGraph(const ReachTable& table);
+  /// Builds the graph and resolves the shares of its bifurcations with
+  /// `rules` (resolveSplits). `table` must outlive the graph (lengths,
+  /// sections and lines are read from it, not copied). Never throws for bad
+  /// topology: unknown ids and duplicates are kept for validate() to
+  /// report; a duplicate id resolves to its first record. Throws InputError
+  /// for an override in `rules` that does not fit the graph.
+  explicit ReachGraph(const ReachTable& table, const SplitRules& rules = {});
   ReachGraph(ReachGraph&&) noexcept;
   ReachGraph& operator=(ReachGraph&&) noexcept;
   ~ReachGraph();
@@ -81,8 +86,20 @@ public:
   std::size_t upstreamCount(Vertex v) const;
   std::size_t downstreamCount(Vertex v) const;
   /// Share of `from`'s outflow entering `to`: 1 unless `from` bifurcates,
-  /// then `to`'s split (NaN when not given). Precondition: a link from→to.
+  /// then `to`'s resolved share (NaN when unresolved). Precondition: a link from→to.
   double fraction(Vertex from, Vertex to) const;
+
+  // ---- bifurcations ----
+  /// The shares of every bifurcation, as resolved when the graph was built.
+  const SplitResolution& splits() const noexcept { return splits_; }
+  /// The shares of the bifurcation below `v`; nullptr when `v` does not bifurcate.
+  const BifurcationShares* sharesAt(Vertex v) const;
+  /// The share `v` takes as a branch of a bifurcation (of the first
+  /// bifurcating reach above it); NaN when it is no branch or its share is unresolved.
+  double share(Vertex v) const;
+  /// True when `to` is a side arm where it leaves `from`: `from` bifurcates
+  /// and `to` is not its main branch. Precondition: a link from→to.
+  bool leavesAsSideArm(Vertex from, Vertex to) const;
 
   // ---- classes of reaches, ascending ----
   std::vector<Vertex> headwaters() const;    ///< no upstream reach
@@ -126,12 +143,14 @@ private:
 
   void indexIds();
   void addLinks();
+  void useShares();
 
   const ReachTable* table_;
   std::unique_ptr<Links> links_;
   std::unordered_map<std::string_view, Vertex> index_;  ///< views into table_ ids
   std::vector<UnresolvedLink> unresolved_;
   std::vector<DuplicateId> duplicates_;
+  SplitResolution splits_;
 };
 
 }  // namespace reachwise::network

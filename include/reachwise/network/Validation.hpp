@@ -14,11 +14,15 @@
 ///   zero_length                error    reach length (field or geometry) not > 0
 ///   self_loop                  error    a reach drains into itself
 ///   cycle                      error    reaches that drain into each other (ids listed)
-///   bifurcation_split_missing  error    a branch of a bifurcation has no `split`
+///   bifurcation_split_missing  error    a branch of a bifurcation has no `split` (some
+///                                       branches have one, or default_split = "none")
 ///   bifurcation_split_range    error    a branch's `split` is outside [0, 1]
 ///   bifurcation_split_sum      error    a bifurcation's splits do not sum to 1 (1e-6)
-///   split_unused               warning  `split` on a reach that is not a branch
+///   split_unused               warning  `split` on a reach that is not a branch (not for a
+///                                       piece of a cut line whose sibling piece is the branch)
 ///   basin                      info     one per basin (with its outlet) when a layer holds several
+///   split_assumed              warning  a bifurcation without splits got shares by default_split
+/// The shares checked are those the graph resolved (ReachGraph::splits()).
 
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"

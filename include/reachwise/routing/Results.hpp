@@ -117,12 +117,25 @@ struct ReachSummary {
   ReachNumerics numerics;
 };
 
-enum class NodeKind { Headwater, Confluence, Outlet, Junction /* one in, one out */, Bifurcation };
+enum class NodeKind {
+  Headwater,
+  Confluence,
+  Outlet,
+  Junction,        ///< one in, one out
+  Bifurcation,     ///< one reach splits: one node, at its downstream end, listing every branch
+  SideArmReturn,   ///< a confluence where a side arm rejoins the channel it left (network/Strahler.hpp)
+};
 
 struct ConfluenceBranch {
   std::uint32_t reach = 0;          ///< plan index of the incoming reach
   double peak_q_m3s = kNaN;         ///< its outflow peak (its share, below a bifurcation)
   double peak_time_s = kNaN;
+};
+
+/// One outgoing branch of a bifurcation.
+struct BifurcationBranch {
+  std::uint32_t reach = 0;          ///< plan index of the branch
+  double share = kNaN;              ///< its share of the splitting reach's outflow
 };
 
 struct NodeSummary {
@@ -131,7 +144,8 @@ struct NodeSummary {
   double x = kNaN, y = kNaN;        ///< CRS units
   double peak_q_m3s = kNaN;         ///< combined flow at the node
   double peak_time_s = kNaN;
-  std::vector<ConfluenceBranch> branches;   ///< confluences only
+  std::vector<ConfluenceBranch> branches;   ///< incoming reaches: confluences and side-arm returns only
+  std::vector<BifurcationBranch> outgoing;  ///< bifurcations only: largest share first (ties: by id)
   double branch_spread_s = kNaN;            ///< latest − earliest branch peak time
   double coincidence_ratio = kNaN;          ///< combined peak / sum of branch peaks
 };
