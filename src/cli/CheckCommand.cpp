@@ -54,7 +54,11 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
   }
   fmt::print(out, "reaches        {}\n", s.reaches);
   fmt::print(out, "headwaters     {}\n", s.headwaters);
-  fmt::print(out, "confluences    {}\n", s.confluences);
+  fmt::print(out, "confluences    {}{}\n", s.confluences,
+             s.side_arm_returns == 0
+                 ? std::string()
+                 : fmt::format(" (and {} side-arm return{})", s.side_arm_returns,
+                               s.side_arm_returns == 1 ? "" : "s"));
   fmt::print(out, "bifurcations   {}\n", s.bifurcations);
   fmt::print(out, "outlets        {}\n", s.outlets);
   fmt::print(out, "basins         {}\n", s.basins);

@@ -23,8 +23,12 @@ NetworkSummary summarize(const ReachGraph& graph) {
   s.basins = graph.components().count;
   s.cycles = graph.cycles().size();
   if (const auto order = graph.topologicalOrder()) {
-    const auto strahler = strahlerOrder(graph, *order);
+    const auto arms = sideArms(graph, *order);
+    const auto strahler = strahlerOrder(graph, *order, arms);
     if (!strahler.empty()) s.max_strahler = *std::max_element(strahler.begin(), strahler.end());
+    s.side_arm_returns = static_cast<std::size_t>(
+        std::count(arms.side_arm_return.begin(), arms.side_arm_return.end(), true));
+    s.confluences -= s.side_arm_returns;
   }
   return s;
 }

@@ -275,4 +275,25 @@ TEST(NetworkSummary, CountsAKnownNetwork) {
   EXPECT_EQ(s.cycles, 0u);
   EXPECT_DOUBLE_EQ(s.total_length_km, 10.0);
   EXPECT_EQ(s.max_strahler, 2);
+  EXPECT_EQ(s.side_arm_returns, 0u);
+}
+
+TEST(NetworkSummary, ASideArmReturnIsNoConfluence) {
+  // H splits into M (main, 0.7) and S (side arm, 0.3), which rejoin at R;
+  // T joins R's outflow at U. One confluence (U), one side-arm return (R).
+  const auto table = TableBuilder()
+                         .reach("H", "M;S", {0, 0}, {0, 1000})
+                         .link("M", "R", 0.7)
+                         .link("S", "R", 0.3)
+                         .link("R", "U")
+                         .link("T", "U")
+                         .link("U", std::nullopt)
+                         .build();
+  const auto s = summarize(ReachGraph(table));
+  EXPECT_EQ(s.confluences, 1u);
+  EXPECT_EQ(s.side_arm_returns, 1u);
+  EXPECT_EQ(s.bifurcations, 1u);
+  // Strahler (1957) with the side arm not counted at its return: H, M, S,
+  // R order 1; T 1; U = two feeders of order 1 -> 2.
+  EXPECT_EQ(s.max_strahler, 2);
 }

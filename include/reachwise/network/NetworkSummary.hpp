@@ -13,7 +13,8 @@ struct NetworkSummary {
   std::size_t reaches = 0;
   std::size_t links = 0;
   std::size_t headwaters = 0;
-  std::size_t confluences = 0;    ///< reaches with >= 2 upstream reaches
+  std::size_t confluences = 0;    ///< reaches with >= 2 upstream reaches, side-arm returns not counted
+  std::size_t side_arm_returns = 0;  ///< where a side arm rejoins the channel it left (see Strahler.hpp)
   std::size_t bifurcations = 0;   ///< reaches with >= 2 downstream reaches
   std::size_t outlets = 0;
   std::size_t basins = 0;         ///< weakly connected components
