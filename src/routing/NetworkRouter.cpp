@@ -226,6 +226,8 @@ private:
 
   bool bifurcates(std::uint32_t i) const { return plan_.down_offset[i + 1] - plan_.down_offset[i] > 1; }
   NodeSummary topNode(std::uint32_t i) const;
+  /// A node at the bottom of reach i (`prefix` + its id), with its outflow peak.
+  NodeSummary bottomNode(std::uint32_t i, const char* prefix, NodeKind kind) const;
   NodeSummary bifurcationNode(std::uint32_t i) const;
   void collectNodes();
   void summariseWarnings();
@@ -277,15 +279,20 @@ NodeSummary Scheduler::topNode(std::uint32_t i) const {
   return node;
 }
 
-NodeSummary Scheduler::bifurcationNode(std::uint32_t i) const {
-  // At the downstream end of the reach that splits; its flow is that reach's outflow.
+NodeSummary Scheduler::bottomNode(std::uint32_t i, const char* prefix, NodeKind kind) const {
   NodeSummary node;
-  node.node_id = "B:" + plan_.reach_id[i];
-  node.kind = NodeKind::Bifurcation;
+  node.node_id = prefix + plan_.reach_id[i];
+  node.kind = kind;
   node.x = plan_.bottom[i].x;
   node.y = plan_.bottom[i].y;
   node.peak_q_m3s = results_.reaches[i].peak_q_m3s;
   node.peak_time_s = results_.reaches[i].peak_time_s;
+  return node;
+}
+
+NodeSummary Scheduler::bifurcationNode(std::uint32_t i) const {
+  // At the downstream end of the reach that splits; its flow is that reach's outflow.
+  NodeSummary node = bottomNode(i, "B:", NodeKind::Bifurcation);
   for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k) {
     const std::uint32_t d = plan_.down_reach[k];
     for (std::uint32_t j = plan_.up_offset[d]; j < plan_.up_offset[d + 1]; ++j)
@@ -310,15 +317,7 @@ void Scheduler::collectNodes() {
     if (bifurcates(i)) results_.nodes.push_back(bifurcationNode(i));
   }
   for (std::uint32_t i = 0; i < n_; ++i) {
-    if (!plan_.isOutlet(i)) continue;
-    NodeSummary node;
-    node.node_id = "O:" + plan_.reach_id[i];
-    node.kind = NodeKind::Outlet;
-    node.x = plan_.bottom[i].x;
-    node.y = plan_.bottom[i].y;
-    node.peak_q_m3s = results_.reaches[i].peak_q_m3s;
-    node.peak_time_s = results_.reaches[i].peak_time_s;
-    results_.nodes.push_back(std::move(node));
+    if (plan_.isOutlet(i)) results_.nodes.push_back(bottomNode(i, "O:", NodeKind::Outlet));
   }
 }
 

@@ -8,6 +8,21 @@
 using namespace reachwise;
 using io::NetworkConfig;
 
+namespace {
+
+/// Parsing `text` fails with an InputError naming bad.toml and `key`.
+void fails_at(const std::string& text, const std::string& key) {
+  try {
+    NetworkConfig::fromString(text, "bad.toml");
+    ADD_FAILURE() << "no error for: " << text;
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.where().file, "bad.toml");
+    EXPECT_EQ(e.where().field, key) << e.what();
+  }
+}
+
+}  // namespace
+
 TEST(NetworkConfig, DefaultsUseTheDocumentedFieldNames) {
   const NetworkConfig cfg;
   for (auto name : io::kFieldNames) EXPECT_EQ(cfg.field(name).name, name);
@@ -61,15 +76,6 @@ method = "vpmc"   # other tables belong to other parts of the program
 }
 
 TEST(NetworkConfig, MistakesAreInputErrorsNamingTheKey) {
-  auto fails_at = [](const std::string& text, const std::string& key) {
-    try {
-      NetworkConfig::fromString(text, "bad.toml");
-      ADD_FAILURE() << "no error for: " << text;
-    } catch (const InputError& e) {
-      EXPECT_EQ(e.where().file, "bad.toml");
-      EXPECT_EQ(e.where().field, key) << e.what();
-    }
-  };
   fails_at("[network]\nunits = \"imperial\"\n", "network.units");
   fails_at("[network]\nsnap_tolrance = 1\n", "network.snap_tolrance");
   fails_at("[network]\nsnap_tolerance = 0.5\n", "network.snap_tolerance");  // replaced key
@@ -155,15 +161,6 @@ shares = { "12.1" = 0.25, 13 = 0.75 }
 }
 
 TEST(NetworkConfig, SplitTableMistakesNameTheKey) {
-  auto fails_at = [](const std::string& text, const std::string& key) {
-    try {
-      NetworkConfig::fromString(text, "bad.toml");
-      ADD_FAILURE() << "no error for: " << text;
-    } catch (const InputError& e) {
-      EXPECT_EQ(e.where().file, "bad.toml");
-      EXPECT_EQ(e.where().field, key) << e.what();
-    }
-  };
   fails_at("[network]\ndefault_split = \"wide\"\n", "network.default_split");
   fails_at("[network]\nsplit = 0.5\n", "network.split");
   fails_at("[[network.split]]\nshares = { A = 1 }\n", "network.split[1].at");
