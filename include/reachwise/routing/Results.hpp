@@ -89,6 +89,15 @@ struct ReachNumerics {
 /// Volume accounting of one reach over the run (m^3).
 struct VolumeBalance {
   double inflow_m3 = 0;            ///< through the top of the reach
+  /// Of inflow_m3, what the forcing's point inflow brought (the rest came
+  /// from upstream reaches). For a network: all point inflow.
+  double point_inflow_m3 = 0;
+  /// Network only: volume gained (+) or lost (−) where reaches hand their
+  /// outflow on. A reach's outflow volume counts every sub-step; the reach
+  /// below sees that outflow at the output steps only (linear in between),
+  /// so a hydrograph curved within a step arrives with a slightly different
+  /// volume. Part of the network's error E.
+  double handover_m3 = 0;
   double lateral_m3 = 0;           ///< along the reach
   double outflow_m3 = 0;           ///< through the bottom
   double storage_change_m3 = 0;    ///< storage at the end minus at the start
