@@ -24,11 +24,7 @@ using Run = testsupport::CliRun;
 
 Run run(const std::string& args) { return testsupport::runReachwise(args); }
 
-std::string summaryValue(const std::string& out, const std::string& key) {
-  const std::regex row("(^|\n)" + key + " +([^\n]*)");
-  std::smatch m;
-  return std::regex_search(out, m, row) ? m[2].str() : std::string("<missing>");
-}
+using testsupport::summaryValue;
 
 /// Problem lines on stderr: `severity code reach_id fid (x, y): sentence`.
 std::size_t problemLineCount(const std::string& err) {

@@ -7,6 +7,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <regex>
 #include <sstream>
 #include <string>
 
@@ -42,6 +43,14 @@ inline CliRun runReachwise(const std::string& args) {
   std::filesystem::remove(out);
   std::filesystem::remove(err);
   return r;
+}
+
+/// The value of one row of a command's summary on stdout (`key   value`),
+/// or "<missing>".
+inline std::string summaryValue(const std::string& out, const std::string& key) {
+  const std::regex row("(^|\n)" + key + " +([^\n]*)");
+  std::smatch m;
+  return std::regex_search(out, m, row) ? m[2].str() : std::string("<missing>");
 }
 
 }  // namespace testsupport
