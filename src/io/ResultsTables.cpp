@@ -63,7 +63,7 @@ const std::vector<Column>& reachColumns() {
       {"event_volume_error_pct", CT::Real}, {"x_clamp_cause", CT::Text},
       {"envelope_exceedances", CT::Integer64}, {"envelope_excursion_pct", CT::Real},
       {"ponce_number", CT::Real},      {"method", CT::Text},
-      {"split", CT::Real},
+      {"split", CT::Real},             {"line_id", CT::Text},
   };
   return columns;
 }
@@ -111,6 +111,8 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   row.push_back(real(n.ponce_number));
   row.emplace_back(std::string(routing::methodName(n.method)));
   row.push_back(i < plan.split.size() ? real(plan.split[i]) : Value{});
+  if (i < plan.line_id.size() && !plan.line_id[i].empty()) row.emplace_back(plan.line_id[i]);
+  else row.emplace_back();
   REACHWISE_ASSERT(row.size() == reachColumns().size());
   return row;
 }

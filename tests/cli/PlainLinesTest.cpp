@@ -778,6 +778,7 @@ Inflow writeInflow(const fs::path& path, const std::string& id) {
 
 struct Routed {
   std::map<std::string, double> volume_in, volume_out, storage_change, length_m;
+  std::map<std::string, std::string> line_id;  ///< NULL read as ""
   std::vector<std::string> warnings;
   double event_volume_error_pct = NAN;  ///< the network's, from run_info
 };
@@ -791,6 +792,7 @@ Routed readRouted(const std::string& gpkg) {
       r.volume_in[id] = f->GetFieldAsDouble("volume_in_m3");
       r.volume_out[id] = f->GetFieldAsDouble("volume_out_m3");
       r.storage_change[id] = f->GetFieldAsDouble("storage_change_m3");
+      r.line_id[id] = f->IsFieldSetAndNotNull(f->GetFieldIndex("line_id")) ? f->GetFieldAsString("line_id") : "";
       // Routing's reach length: its sub-reaches of dx_m each (docs/methods.md, dx = L / m).
       r.length_m[id] = f->GetFieldAsDouble("dx_m") * f->GetFieldAsInteger("subreaches");
     }
@@ -820,6 +822,10 @@ TEST_F(PlainLines, RouteConservesTheInflowAndSharesItAtTheDelta) {
   ASSERT_TRUE(fs::exists(out));
   const Routed routed = readRouted(out);
   ASSERT_EQ(routed.volume_out.size(), truth_.size());
+
+  // Each piece names the line it was cut from; whole lines name none.
+  for (const auto& [id, t] : truth_)
+    EXPECT_EQ(routed.line_id.at(id), sc_.cutsOf(t.line).empty() ? "" : t.line) << id;
 
   const std::string top_piece = sc_.pieceId(sc_.top, 0);
   EXPECT_NE(top_piece, sc_.top);
