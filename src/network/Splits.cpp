@@ -118,16 +118,6 @@ std::size_t mainBranch(const ReachGraph& graph, const BifurcationShares& b) {
   return best;
 }
 
-/// "12.3" → "12" when the text after the last '.' is a positive integer; else "".
-std::string_view cutLineOf(std::string_view id) {
-  const auto dot = id.rfind('.');
-  if (dot == std::string_view::npos || dot == 0 || dot + 1 == id.size()) return {};
-  const auto k = id.substr(dot + 1);
-  if (!std::all_of(k.begin(), k.end(), [](char c) { return c >= '0' && c <= '9'; }) || k.front() == '0')
-    return {};
-  return id.substr(0, dot);
-}
-
 /// Marks the pieces of cut lines whose `split` belongs to a sibling piece
 /// that is a branch (same line, same value).
 std::vector<bool> pieceSplits(const ReachGraph& graph, const std::vector<BifurcationShares>& bifurcations) {
@@ -136,13 +126,13 @@ std::vector<bool> pieceSplits(const ReachGraph& graph, const std::vector<Bifurca
     for (const auto v : b.branches) branch[v] = true;
   std::set<std::pair<std::string_view, double>> branch_pieces;
   for (Vertex v = 0; v < graph.size(); ++v) {
-    const auto line = cutLineOf(graph.id(v));
+    const std::string_view line = graph.record(v).line_id;
     if (branch[v] && !line.empty() && !std::isnan(graph.record(v).split))
       branch_pieces.emplace(line, graph.record(v).split);
   }
   if (branch_pieces.empty()) return out;
   for (Vertex v = 0; v < graph.size(); ++v) {
-    const auto line = cutLineOf(graph.id(v));
+    const std::string_view line = graph.record(v).line_id;
     out[v] = !branch[v] && !line.empty() && branch_pieces.count({line, graph.record(v).split}) > 0;
   }
   return out;

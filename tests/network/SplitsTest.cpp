@@ -228,13 +228,15 @@ TEST(Splits, SplitOnAnotherPieceOfACutBranchIsNotReported) {
   // Line 7 leaves the bifurcation below U with split 0.6 and was cut where
   // T joins it: both pieces copy the line's split, only 7.1 is the branch.
   // The override may name the piece.
-  const auto table = TableBuilder()
-                         .link("U", "7.1;X")
-                         .link("7.1", "7.2", 0.6)
-                         .link("T", "7.2")
-                         .link("7.2", std::nullopt, 0.6)
-                         .link("X", std::nullopt, 0.4)
-                         .build();
+  auto table = TableBuilder()
+                   .link("U", "7.1;X")
+                   .link("7.1", "7.2", 0.6)
+                   .link("T", "7.2")
+                   .link("7.2", std::nullopt, 0.6)
+                   .link("X", std::nullopt, 0.4)
+                   .build();
+  // The pieces name their line, as topology from geometry records it.
+  table.reaches[1].line_id = table.reaches[3].line_id = "7";
   const ReachGraph g(table);
   EXPECT_DOUBLE_EQ(g.fraction(at(g, "U"), at(g, "7.1")), 0.6);
   EXPECT_TRUE(g.splits().piece_split[at(g, "7.2")]);
@@ -248,6 +250,12 @@ TEST(Splits, SplitOnAnotherPieceOfACutBranchIsNotReported) {
 
   // A split elsewhere off a branch is still reported: on an ordinary reach,
   // and on a piece whose value is not the branch piece's.
+  // Ids that merely look like pieces are whole reaches: "7.1"-like ids
+  // from a to_reach layer keep their split_unused warning.
+  auto plain = table;
+  plain.reaches[1].line_id = plain.reaches[3].line_id = "";
+  EXPECT_EQ(withCode(validate(ReachGraph(plain)), ProblemCode::SplitUnused).size(), 1u);
+
   auto misplaced = table;
   misplaced.reaches[2].split = 0.5;   // T
   misplaced.reaches[3].split = 0.3;   // 7.2
