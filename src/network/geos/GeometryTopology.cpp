@@ -554,13 +554,11 @@ struct Bfs {
   }
 };
 
-/// `id` is one of `outlets` or a piece `<o>.k` of one (also used for the
-/// unconnected reaches).
-bool matchesOutlet(const std::string& id, const std::vector<std::string>& outlets) {
-  for (const auto& o : outlets)
-    if (id == o || (id.size() > o.size() && id.compare(0, o.size() + 1, o + ".") == 0))
-      return true;
-  return false;
+/// The record is one of `ids` or a piece of a line cut from one (used for
+/// the outlets and the unconnected reaches).
+bool matchesOutlet(const ReachRecord& r, const std::vector<std::string>& ids) {
+  return std::any_of(ids.begin(), ids.end(),
+                     [&](const std::string& o) { return r.id == o || r.line_id == o; });
 }
 
 /// The outlet node of each named outlet: the first free end (a node no
@@ -577,7 +575,7 @@ std::vector<bool> namedOutletNodes(const ReachTable& table, const Graph& g,
     std::size_t at_down = npos, at_up = npos;
     const ReachRecord* named = nullptr;
     for (std::size_t i = 0; i < table.reaches.size(); ++i) {
-      if (!matchesOutlet(table.reaches[i].id, {o})) continue;
+      if (!matchesOutlet(table.reaches[i], {o})) continue;
       if (!named) named = &table.reaches[i];
       if (g.from[i] == npos || g.from[i] == g.to[i]) continue;
       if (at_down == npos && inc[g.to[i]].size() == 1) at_down = g.to[i];
@@ -932,7 +930,7 @@ std::size_t reportGaps(const ReachTable& table, const std::vector<LooseEnd>& loo
   for (const LooseEnd& l : loose) {
     if (l.distance_m > search_m) continue;
     const auto& r = table.reaches[l.rec];
-    if (matchesOutlet(r.id, options.unconnected)) continue;
+    if (matchesOutlet(r, options.unconnected)) continue;
     ++gaps;
     problems.push_back(reachProblem(
         code, r, l.at.x, l.at.y,
@@ -970,7 +968,7 @@ TopologySummary buildTopologyFromGeometry(ReachTable& table, const TopologyOptio
     throw InvalidParameter("crs", "needs a positive unit (and an ellipsoid when geographic)");
   for (const auto& id : options.unconnected) {
     const bool found = std::any_of(table.reaches.begin(), table.reaches.end(),
-                                   [&](const ReachRecord& r) { return matchesOutlet(r.id, {id}); });
+                                   [&](const ReachRecord& r) { return matchesOutlet(r, {id}); });
     if (!found) throw InvalidParameter("unconnected", "reach " + id + " is not in the layer");
   }
   const Metric metric(crs);
