@@ -187,6 +187,7 @@ void parsePrepareTable(const toml::table& prepare, PrepareConfig& cfg) {
   std::optional<terrain::RasterUnit> raster_unit;
   std::optional<double> search_m;
   bool has_class_value = false;
+  bool has_field_unit = false;
   for (const auto& [k, v] : prepare) {
     const std::string key = "prepare." + std::string(k.str());
     const std::string_view name = k.str();
@@ -195,6 +196,7 @@ void parsePrepareTable(const toml::table& prepare, PrepareConfig& cfg) {
       if (cfg.area_field.empty()) throw configError(o, key, "field name must not be empty");
     } else if (name == "area_field_unit") {
       cfg.area_field_km2_per_unit = areaFieldUnit(requireString(v, o, key), o, key);
+      has_field_unit = true;
     } else if (name == "area_raster") {
       const fs::path p = requireString(v, o, key);
       if (p.empty()) throw configError(o, key, "path must not be empty");
@@ -238,6 +240,8 @@ void parsePrepareTable(const toml::table& prepare, PrepareConfig& cfg) {
   } else if (search_m) {
     throw configError(o, "prepare.area_search_m", "is given without prepare.area_raster");
   }
+  if (has_field_unit && cfg.area_field.empty())
+    throw configError(o, "prepare.area_field_unit", "is given without prepare.area_field");
   if (has_class_value && cfg.class_field.empty())
     throw configError(o, "prepare.class_field",
                       "is required when a [[prepare.class]] table is keyed on a value");

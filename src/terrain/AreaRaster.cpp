@@ -1,5 +1,6 @@
 // Sampling a flow-accumulation or drainage-area raster at reach ends.
 
+#include <fmt/format.h>
 #include <gdal_priv.h>
 #include <ogr_spatialref.h>
 
@@ -20,6 +21,9 @@ namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kRadPerDeg = std::numbers::pi / 180.0;
+/// Most cells read around one line end (a radius of ~1800 cells): a
+/// larger search is a mistake in the radius, refused before it exhausts memory.
+constexpr double kMaxWindowCells = 1e7;
 
 /// Area in m² between the equator and latitude `phi` (radians) per radian
 /// of longitude on an ellipsoid of semi-major axis a and eccentricity e:
@@ -148,6 +152,10 @@ std::vector<double> sampleAreaRaster(const network::ReachGraph& graph, const Are
     const double r_lo = std::max(0.0, std::floor(row - radius / dy_m - 0.5));
     const double r_hi = std::min(double(height - 1), std::floor(row + radius / dy_m + 0.5));
     if (!(c_lo <= c_hi) || !(r_lo <= r_hi)) continue;  // outside the raster
+    if ((c_hi - c_lo + 1) * (r_hi - r_lo + 1) > kMaxWindowCells)
+      rasterError(raster, fmt::format("the search radius of {} m covers more than {} cells "
+                                      "around reach {}; give a smaller area_search_m",
+                                      radius, kMaxWindowCells, graph.id(v)));
     const int c0 = int(c_lo), r0 = int(r_lo), nc = int(c_hi) - c0 + 1, nr = int(r_hi) - r0 + 1;
     window.assign(std::size_t(nc) * std::size_t(nr), kNaN);
     if (band->RasterIO(GF_Read, c0, r0, nc, nr, window.data(), nc, nr, GDT_Float64, 0, 0) !=

@@ -131,7 +131,9 @@ TEST(PrepareConfig, ErrorsNameTheFileAndKey) {
   EXPECT_EQ(errorKey("[prepare]\ncolour = 1\n"), "prepare.colour");
   EXPECT_EQ(errorKey("prepare = 3\n"), "prepare");
   EXPECT_EQ(errorKey("[prepare]\narea_field = 3\n"), "prepare.area_field");
-  EXPECT_EQ(errorKey("[prepare]\narea_field_unit = \"acres\"\n"), "prepare.area_field_unit");
+  EXPECT_EQ(errorKey("[prepare]\narea_field = \"DA\"\narea_field_unit = \"acres\"\n"),
+            "prepare.area_field_unit");
+  EXPECT_EQ(errorKey("[prepare]\narea_field_unit = \"m2\"\n"), "prepare.area_field_unit");
   EXPECT_EQ(errorKey("[prepare]\narea_raster = \"a.tif\"\narea_raster_unit = \"pixels\"\n"),
             "prepare.area_raster_unit");
   EXPECT_EQ(errorKey("[prepare]\narea_raster_unit = \"cells\"\n"), "prepare.area_raster_unit");

@@ -169,6 +169,28 @@ TEST(AreaRaster, ErrorsNameTheRaster) {
   r.path = (dir / "notes.tif").string();
   { std::FILE* f = std::fopen(r.path.c_str(), "w"); std::fputs("not a raster\n", f); std::fclose(f); }
   EXPECT_THROW(sampleAreaRaster(g, r), InputError);
+  // A search radius that would read more than 1e7 cells is refused before
+  // reading: a sparse 4000 × 4000 grid (1.6e7 cells, nothing written) and
+  // a radius of 1000 km.
+  {
+    const std::string path = (dir / "big.tif").string();
+    char** options = CSLSetNameValue(nullptr, "SPARSE_OK", "TRUE");
+    GDALDataset* big = GetGDALDriverManager()->GetDriverByName("GTiff")->Create(
+        path.c_str(), 4000, 4000, 1, GDT_Float64, options);
+    CSLDestroy(options);
+    double gt[6] = {500000, 10, 0, 1000, 0, -10};
+    big->SetGeoTransform(gt);
+    GDALClose(big);
+    r.path = path;
+    r.search_m = 1e6;
+    try {
+      sampleAreaRaster(g, r);
+      ADD_FAILURE() << "a radius covering 1.6e7 cells must be refused";
+    } catch (const InputError& e) {
+      EXPECT_NE(std::string(e.what()).find("covers more than"), std::string::npos) << e.what();
+    }
+    r.search_m.reset();
+  }
   // A rotated grid.
   RasterSpec s = projectedGrid();
   s.gt = {500000, 10, 1, 1000, 1, -10};
