@@ -103,8 +103,8 @@ std::vector<double> sampleAreaRaster(const network::ReachGraph& graph, const Are
   const double nodata = band->GetNoDataValue(&has_nodata);
   const int width = ds->GetRasterXSize(), height = ds->GetRasterYSize();
 
-  // CRS of the grid and of the lines. A raster without CRS is taken to be
-  // in the lines' CRS.
+  // CRS of the grid and of the lines. When only one has a CRS, both are
+  // taken to be in it.
   const auto lines_srs = io::spatialReferenceFromWkt(graph.table().crs_wkt);
   std::unique_ptr<OGRSpatialReference> grid_srs;
   if (const OGRSpatialReference* srs = ds->GetSpatialRef()) {
