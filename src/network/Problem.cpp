@@ -41,6 +41,7 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {SplitUnused,             "split_unused",              W, false, "split on a reach that is not a branch of a bifurcation"},
   {Basin,                   "basin",                     I, false, "one of several basins of a layer, with its outlet(s)"},
   {SplitAssumed,            "split_assumed",             W, false, "a bifurcation without split values got shares by the default rule (default_split)"},
+  {AreaBelowUpstream,       "area_below_upstream",       W, false, "a reach's given drainage area is smaller than the sum of the areas flowing into it; the sum is used"},
 }};
 // clang-format on
 

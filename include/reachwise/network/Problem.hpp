@@ -54,10 +54,12 @@ enum class ProblemCode : std::uint8_t {
   BifurcationSplitSum,
   SplitUnused,
   Basin,
-  SplitAssumed,  ///< the last code
+  SplitAssumed,
+  // preparing attributes (terrain::drainageArea)
+  AreaBelowUpstream,  ///< the last code
 };
 
-inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SplitAssumed) + 1;
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::AreaBelowUpstream) + 1;
 
 /// One row of the code table.
 struct ProblemKind {
