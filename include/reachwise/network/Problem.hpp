@@ -54,10 +54,14 @@ enum class ProblemCode : std::uint8_t {
   BifurcationSplitSum,
   SplitUnused,
   Basin,
-  SplitAssumed,  ///< the last code
+  SplitAssumed,
+  // bed slopes from a DEM (terrain::bedSlopes, `reachwise prepare`)
+  DemNodata,
+  DemProfileRise,
+  SlopeFloored,  ///< the last code
 };
 
-inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SplitAssumed) + 1;
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SlopeFloored) + 1;
 
 /// One row of the code table.
 struct ProblemKind {
