@@ -164,7 +164,10 @@ TEST(LoadNetwork, BifurcationWithSplitsSummingToOnePasses) {
   const auto c = check(writeLayer("bifurcation_ok.gpkg", bifurcation(0.4, 0.6)));
   EXPECT_FALSE(c.errors()) << c.err;
   EXPECT_EQ(c.summary.bifurcations, 1u);
-  EXPECT_EQ(c.summary.confluences, 1u);
+  // L is where the side arm rejoins the channel it left: counted apart
+  // from confluences (NetworkSummary::side_arm_returns).
+  EXPECT_EQ(c.summary.confluences, 0u);
+  EXPECT_EQ(c.summary.side_arm_returns, 1u);
 }
 
 TEST(LoadNetwork, BifurcationSplitSumIsRefusedAtTheSplit) {
