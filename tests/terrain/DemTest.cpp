@@ -340,3 +340,56 @@ TEST(Dem, UnreadableRasterNamesTheFile) {
     EXPECT_EQ(e.where().file, bad);
   }
 }
+
+TEST(DemSlopes, LargeSparseDemIsReadByWindows) {
+  // A 10,000 × 10,000 DEM of 1 m cells (100 M cells, 800 MB as doubles if
+  // read whole), stored sparse: only the 256 × 256 tiles along the
+  // diagonal hold the plane, the others are absent and read as nodata. A
+  // reach along the diagonal is sampled by windows of at most 4 Mi cells;
+  // its slope is the plane's along the diagonal, 0.003/sqrt(2) (1 % as in
+  // TiltedPlane), and every sample lies in a written tile.
+  Fixture f;
+  const std::string dem = (f.dir.path() / "large.tif").string();
+  reachwise::io::ensureGdal();
+  GDALDriver* drv = GetGDALDriverManager()->GetDriverByName("GTiff");
+  CPLStringList opts;
+  opts.SetNameValue("TILED", "YES");
+  opts.SetNameValue("SPARSE_OK", "TRUE");
+  opts.SetNameValue("COMPRESS", "DEFLATE");
+  const int n = 10000, tile = 256;
+  {
+    GDALDatasetUniquePtr ds(drv->Create(dem.c_str(), n, n, 1, GDT_Float32, opts.List()));
+    ASSERT_TRUE(ds);
+    const double x0 = kX0, y0 = kY0;
+    double gt[6] = {x0, 1, 0, y0, 0, -1};
+    ds->SetGeoTransform(gt);
+    OGRSpatialReference srs;
+    srs.importFromEPSG(32633);
+    ds->SetSpatialRef(&srs);
+    ds->GetRasterBand(1)->SetNoDataValue(-9999);
+    std::vector<float> block(static_cast<std::size_t>(tile) * tile);
+    for (int t = 0; t * tile < n; ++t)
+      for (int dt = -1; dt <= 1; ++dt) {
+        const int bx = t + dt, by = t;
+        if (bx < 0 || bx * tile >= n) continue;
+        const int w = std::min(tile, n - bx * tile), h = std::min(tile, n - by * tile);
+        for (int j = 0; j < h; ++j)
+          for (int i = 0; i < w; ++i)
+            block[static_cast<std::size_t>(j) * w + i] = static_cast<float>(
+                50 + 0.002 * (bx * tile + i + 0.5) + 0.001 * (by * tile + j + 0.5));
+        ASSERT_EQ(ds->GetRasterBand(1)->RasterIO(GF_Write, bx * tile, by * tile, w, h, block.data(), w, h,
+                                                 GDT_Float32, 0, 0, nullptr),
+                  CE_None);
+      }
+  }
+  // z = 50 + 0.002 col + 0.001 row: falls towards the top-left corner, so
+  // the reach runs from the bottom-right to the top-left.
+  f.table.crs_wkt = demfixtures::wkt(32633);
+  f.table.reaches.push_back(reach("diagonal", {{kX0 + 9900, kY0 - 9900}, {kX0 + 100, kY0 - 100}}));
+  f.derive(dem);
+  EXPECT_EQ(f.slopes[0].valid_samples, f.slopes[0].samples);
+  EXPECT_GT(f.slopes[0].samples, 13000u);  // one per metre of 13,859 m
+  // Float32 storage rounds elevations near 70 m to about 4e-6 m: negligible.
+  const double expected = 0.003 / std::numbers::sqrt2;
+  EXPECT_NEAR(f.slopes[0].slope, expected, 0.01 * expected);
+}
