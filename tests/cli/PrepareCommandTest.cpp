@@ -190,6 +190,75 @@ TEST(PrepareCommand, LayerWithoutSlopeFieldIsAcceptedWhenTheDemSuppliesIt) {
   EXPECT_EQ(runReachwise("check " + c.out).code, 0);
 }
 
+TEST(PrepareCommand, TopologyFromGeometryIsWrittenAsBuilt) {
+  // No to_reach field: the main line M (flowing east, digitised so) is cut
+  // where the tributary T joins it mid-line (docs/formats.md, "Topology"):
+  // pieces M.1 and M.2. The prepared layer holds the pieces with the
+  // to_reach links built, and routes as it is. T runs north-south across
+  // a plane falling east only: its DEM slope is 0, raised to the minimum.
+  Case c;  // for the DEM and the paths
+  fs::remove(c.network);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}, {"manning_n", OFTReal}, {"bottom_width", OFTReal}};
+  const double y = kY0 - 5000;
+  layer.features.push_back({fmt::format("LINESTRING ({} {}, {} {})", kX0 + 1000, y, kX0 + 5000, y), {"M", "0.035", "6"}});
+  layer.features.push_back(
+      {fmt::format("LINESTRING ({} {}, {} {})", kX0 + 3000, y + 1500, kX0 + 3000, y), {"T", "0.04", "3"}});
+  fixtures::write(c.network, "GPKG", {layer});
+  const auto r = runReachwise(fmt::format("prepare {} --dem {} --out {}", c.network, c.dem, c.out));
+  ASSERT_EQ(r.code, 0) << r.out << r.err;
+  auto reaches = readReaches(c.out);
+  ASSERT_EQ(reaches.size(), 3u);
+  ASSERT_TRUE(reaches.count("M.1") && reaches.count("M.2") && reaches.count("T"));
+  EXPECT_STREQ(reaches.at("M.1")->GetFieldAsString("to_reach"), "M.2");
+  EXPECT_STREQ(reaches.at("T")->GetFieldAsString("to_reach"), "M.2");
+  EXPECT_NEAR(reaches.at("M.1")->GetFieldAsDouble("slope"), 0.002, 0.01 * 0.002);
+  EXPECT_DOUBLE_EQ(reaches.at("T")->GetFieldAsDouble("slope"), 1e-4);
+  EXPECT_NE(std::string(reaches.at("T")->GetFieldAsString("dem_flags")).find("floored"), std::string::npos);
+  // M.2 starts no higher than either reach flowing into it ends.
+  for (const char* up : {"M.1", "T"})
+    EXPECT_LE(reaches.at("M.2")->GetFieldAsDouble("up_elevation"),
+              reaches.at(up)->GetFieldAsDouble("down_elevation") + 1e-9)
+        << up;
+
+  const std::string inflow = (c.dir / "inflow.csv").string();
+  {
+    std::ofstream csv(inflow);
+    csv << "reach_id,time,discharge\n";
+    const double q[] = {1, 10, 4, 2, 1};
+    for (int k = 0; k < 5; ++k) csv << fmt::format("M.1,2026-05-01T{:02d}:00:00Z,{}\n", 3 * k, q[k]);
+  }
+  const std::string results = (c.dir / "results.gpkg").string();
+  fs::remove(results);
+  const auto routed = runReachwise(fmt::format("route {} --inflow {} --out {} --quiet", c.out, inflow, results));
+  EXPECT_EQ(routed.code, 0) << routed.out << routed.err;
+}
+
+TEST(PrepareCommand, NetworkWithErrorsIsWrittenWithThemAndExitsOne) {
+  // T has no manning_n and no default: an error. prepare still writes the
+  // layer (to be fixed in a GIS), with the error in its problems layer.
+  Case c;
+  fs::remove(c.network);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}, {"manning_n", OFTReal}, {"bottom_width", OFTReal}};
+  const double y = kY0 - 5000;
+  layer.features.push_back({fmt::format("LINESTRING ({} {}, {} {})", kX0 + 1000, y, kX0 + 3000, y), {"M", "0.035", "6"}});
+  layer.features.push_back(
+      {fmt::format("LINESTRING ({} {}, {} {})", kX0 + 3000, y, kX0 + 5000, y), {"T", std::nullopt, "3"}});
+  fixtures::write(c.network, "GPKG", {layer});
+  const auto r = runReachwise(fmt::format("prepare {} --dem {} --out {}", c.network, c.dem, c.out));
+  EXPECT_EQ(r.code, 1) << r.out << r.err;
+  EXPECT_NE(r.err.find("error missing_attribute T "), std::string::npos) << r.err;
+  ASSERT_TRUE(fs::exists(c.out));
+  GDALAllRegister();
+  const GDALDatasetUniquePtr ds(GDALDataset::Open(c.out.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* problems = ds->GetLayerByName("problems");
+  ASSERT_NE(problems, nullptr);
+  problems->SetAttributeFilter("code = 'missing_attribute' AND reach_id = 'T'");
+  EXPECT_EQ(problems->GetFeatureCount(), 1);
+}
+
 TEST(PrepareCommand, UsageErrorsExitTwo) {
   EXPECT_EQ(runReachwise("prepare").code, 2);
   EXPECT_EQ(runReachwise("prepare net.gpkg --out x.gpkg").code, 2);  // no --dem
