@@ -5,6 +5,7 @@
 #include <exception>
 
 #include "CheckCommand.hpp"
+#include "PrepareCommand.hpp"
 #include "RouteCommand.hpp"
 #include "Subcommand.hpp"
 #include "SynthCommand.hpp"
@@ -23,6 +24,7 @@ int main(int argc, char** argv) {
   reachwise::cli::addRouteCommand(app, chosen, command_line);
   reachwise::cli::addDemoCommand(app, chosen, command_line);
   reachwise::cli::addSynthCommand(app, chosen);
+  reachwise::cli::addPrepareCommand(app, chosen);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {

@@ -298,7 +298,7 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
   where.layer = table.layer;
   network::geos::CrsMetric metric;
   const LineLength measure = lengthMeasure(*layer, config, where, table, metric);
-  const detail::ReachAttributes attrs(*layer->GetLayerDefn(), config, where);
+  const detail::ReachAttributes attrs(*layer->GetLayerDefn(), config, where, options.slope_optional);
   ReadSummary summary;
   readFeatures(*layer, attrs, measure, table, problems, summary);
   if (summary.features == 0) {

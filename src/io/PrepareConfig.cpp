@@ -2,6 +2,7 @@
 
 #include <toml++/toml.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <limits>
@@ -163,21 +164,25 @@ std::vector<terrain::ChannelClass> parseClasses(const toml::node& node, const st
   return out;
 }
 
-std::vector<terrain::Attribute> parseReplace(const toml::node& node, const std::string& origin,
-                                             const std::string& key) {
+/// `replace`: the DEM attributes go to cfg.replace, the channel ones to
+/// cfg.geometry.replace.
+void parseReplace(const toml::node& node, PrepareConfig& cfg, const std::string& key) {
+  const std::string& origin = cfg.origin;
   const auto* arr = node.as_array();
   if (!arr) throw configError(origin, key, "expected a list of attribute names");
-  std::vector<terrain::Attribute> out;
   for (const auto& item : *arr) {
     const std::string name = requireString(item, origin, key);
-    const auto a = terrain::attributeNamed(name);
-    if (!a)
+    if (name == "slope" || name == "elevations") {
+      cfg.replace.push_back(name);
+    } else if (const auto a = terrain::attributeNamed(name)) {
+      cfg.geometry.replace.push_back(*a);
+    } else {
       throw configError(origin, key,
                         "unknown attribute \"" + name +
-                            "\" (expected bottom_width, bank_depth, side_slope or manning_n)");
-    out.push_back(*a);
+                            "\" (expected slope, elevations, bottom_width, bank_depth, side_slope or "
+                            "manning_n)");
+    }
   }
-  return out;
 }
 
 /// One key after another of `[prepare]`: an `else if` per key.
@@ -227,7 +232,14 @@ void parsePrepareTable(const toml::table& prepare, PrepareConfig& cfg) {
       cfg.geometry.classes = parseClasses(v, o);
       for (const auto& c : cfg.geometry.classes) has_class_value = has_class_value || c.value;
     } else if (name == "replace") {
-      cfg.geometry.replace = parseReplace(v, o, key);
+      parseReplace(v, cfg, key);
+    } else if (name == "min_slope") {
+      cfg.min_slope = requirePositive(v, o, key);
+      if (!(cfg.min_slope < 1)) throw configError(o, key, "must be > 0 and < 1");
+    } else if (name == "rise_threshold_m") {
+      cfg.rise_threshold_m = requireNonNegative(v, o, key);
+    } else if (name == "sample_spacing_m") {
+      cfg.sample_spacing_m = requireNonNegative(v, o, key);
     } else {
       throw configError(o, key, "unknown key (see docs/formats.md)");
     }
@@ -248,6 +260,10 @@ void parsePrepareTable(const toml::table& prepare, PrepareConfig& cfg) {
 }
 
 }  // namespace
+
+bool PrepareConfig::replaces(const std::string& attribute) const {
+  return std::find(replace.begin(), replace.end(), attribute) != replace.end();
+}
 
 PrepareConfig PrepareConfig::fromString(const std::string& text, const std::string& origin) {
   PrepareConfig cfg;

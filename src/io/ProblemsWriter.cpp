@@ -41,10 +41,8 @@ const char* severityName(network::Severity s) {
   return "error";
 }
 
-namespace {
-
-void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
-                       const network::ProblemList& problems) {
+void addProblemsLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
+                      const network::ProblemList& problems) {
   // The GeoPackage driver calls its key column "fid" by default, which would
   // swallow the field holding the source feature id.
   CPLStringList layer_options;
@@ -71,6 +69,8 @@ void writeProblemLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
     if (layer->CreateFeature(&f) != OGRERR_NONE) fail(path, "cannot write a problem");
   }
 }
+
+namespace {
 
 OGRLineString flowLine(const ReachGraph& graph, ReachGraph::Vertex v) {
   const auto& line = graph.record(v).line;
@@ -130,7 +130,7 @@ void writeAll(const std::string& path, const std::filesystem::path& tmp, const R
   const auto srs = spatialReferenceFromWkt(graph.table().crs_wkt);
   // One transaction: a GeoPackage commits row by row otherwise.
   if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
-  writeProblemLayer(path, *ds, srs.get(), problems);
+  addProblemsLayer(path, *ds, srs.get(), problems);
   writeNetworkLayer(path, *ds, srs.get(), graph);
   if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
   ds.reset();  // closes and flushes the file before it is renamed

@@ -49,11 +49,12 @@ std::string fieldList(const OGRFeatureDefn& defn) {
 }  // namespace
 
 ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config,
-                                 InputLocation where)
+                                 InputLocation where, bool slope_optional)
     : config_(config),
       length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0),
       discharge_scale_(config.units == units::System::USCustomary ? units::kCubicMetresPerCubicFoot
-                                                                  : 1.0) {
+                                                                  : 1.0),
+      slope_optional_(slope_optional) {
   for (auto name : kFieldNames)
     index_[std::string(name)] = defn.GetFieldIndex(config.field(name).name.c_str());
   auto usable = [&](std::string_view n) { return hasField(n) || config.field(n).hasDefault(); };
@@ -64,7 +65,7 @@ ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig
                                         n, fieldList(defn)));
   };
   require("reach_id", hasField("reach_id"));
-  require("slope", usable("slope") || (hasField("up_elevation") && hasField("down_elevation")));
+  require("slope", slope_optional_ || usable("slope") || (hasField("up_elevation") && hasField("down_elevation")));
   require("manning_n", usable("manning_n"));
   require("bottom_width", usable("bottom_width") || usable("shape"));
 }
@@ -185,7 +186,12 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
 
 void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
                                 ProblemList& problems) const {
-  const Value s = number(f, "slope", 1.0, r, problems);
+  Value s = number(f, "slope", 1.0, r, problems);
+  if (slope_optional_ && s.state == Value::State::Ok) {
+    // The config's default is left to the caller, who has better slopes.
+    const int idx = index_.find("slope")->second;
+    if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) s = Value{};
+  }
   double slope = s.number;
   if (s.state == Value::State::Invalid) return;
   if (s.state == Value::State::Missing) {
@@ -194,7 +200,7 @@ void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
     if (std::isfinite(drop) && r.length_m > 0) slope = drop / r.length_m;
   }
   r.section.bed_slope = slope;
-  if (std::isnan(slope))
+  if (std::isnan(slope) && !slope_optional_)
     problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                     "no bed slope (slope field empty and no elevations)"));
 }

@@ -21,7 +21,9 @@ class ReachAttributes {
 public:
   /// Looks the configured fields up in the layer. Throws InputError (with
   /// `where`'s file and layer) when a required field is absent and has no default.
-  ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config, InputLocation where);
+  /// `slope_optional`: see ReadOptions::slope_optional.
+  ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config, InputLocation where,
+                  bool slope_optional = false);
 
   /// True when the layer has the field configured for `canonical`.
   bool hasField(std::string_view canonical) const;
@@ -55,6 +57,7 @@ private:
   std::map<std::string, int, std::less<>> index_;  ///< canonical name -> field index, -1 absent
   double length_scale_ = 1.0;                      ///< metres per unit of widths/depths/lengths
   double discharge_scale_ = 1.0;                   ///< m^3/s per unit of discharge (base flow)
+  bool slope_optional_ = false;
 };
 
 }  // namespace reachwise::io::detail

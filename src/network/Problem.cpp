@@ -42,6 +42,9 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {Basin,                   "basin",                     I, false, "one of several basins of a layer, with its outlet(s)"},
   {SplitAssumed,            "split_assumed",             W, false, "a bifurcation without split values got shares by the default rule (default_split)"},
   {AreaBelowUpstream,       "area_below_upstream",       W, false, "a reach's given drainage area is smaller than the sum of the areas flowing into it; the sum is used"},
+  {DemNodata,               "dem_nodata",                W, false, "part or all of a reach has no DEM data (nodata or outside the raster), with the valid fraction"},
+  {DemProfileRise,          "dem_profile_rise",          W, false, "the fitted DEM profile of a reach rises downstream by more than prepare.rise_threshold_m"},
+  {SlopeFloored,            "slope_floored",             I, false, "a bed slope from the DEM was raised to prepare.min_slope"},
 }};
 // clang-format on
 

@@ -170,3 +170,41 @@ TEST(PrepareConfig, SyntaxErrorsNameTheFile) {
   }
   EXPECT_THROW(PrepareConfig::fromFile("/nonexistent/run.toml"), InputError);
 }
+
+// Bed slopes from a DEM.
+TEST(PrepareConfig, SlopeDefaultsWithoutTheTable) {
+  const auto c = PrepareConfig::fromString("[network]\nlayer = \"x\"\n", "run.toml");
+  EXPECT_DOUBLE_EQ(c.min_slope, 1e-4);
+  EXPECT_DOUBLE_EQ(c.rise_threshold_m, 2.0);
+  EXPECT_DOUBLE_EQ(c.sample_spacing_m, 0.0);
+  EXPECT_FALSE(c.replaces("slope"));
+}
+
+TEST(PrepareConfig, ReadsTheSlopeKeys) {
+  const auto c = PrepareConfig::fromString(
+      "[prepare]\nmin_slope = 5e-4\nrise_threshold_m = 1\nsample_spacing_m = 12.5\nreplace = [\"slope\", \"elevations\"]\n",
+      "run.toml");
+  EXPECT_DOUBLE_EQ(c.min_slope, 5e-4);
+  EXPECT_DOUBLE_EQ(c.rise_threshold_m, 1.0);  // an integer reads as a number
+  EXPECT_DOUBLE_EQ(c.sample_spacing_m, 12.5);
+  EXPECT_TRUE(c.replaces("slope"));
+  EXPECT_TRUE(c.replaces("elevations"));
+}
+
+TEST(PrepareConfig, BadSlopeValuesNameFileAndKey) {
+  auto fails = [](const std::string& text, const std::string& key) {
+    try {
+      PrepareConfig::fromString(text, "run.toml");
+      ADD_FAILURE() << "accepted: " << text;
+    } catch (const InputError& e) {
+      EXPECT_EQ(e.where().file, "run.toml");
+      EXPECT_EQ(e.where().field, key) << text;
+    }
+  };
+  fails("[prepare]\nmin_slope = 0\n", "prepare.min_slope");
+  fails("[prepare]\nmin_slope = \"low\"\n", "prepare.min_slope");
+  fails("[prepare]\nrise_threshold_m = -1\n", "prepare.rise_threshold_m");
+  fails("[prepare]\nreplace = [\"width\"]\n", "prepare.replace");
+  fails("[prepare]\nreplace = \"slope\"\n", "prepare.replace");
+  fails("[prepare]\nslope_min = 1e-4\n", "prepare.slope_min");
+}

@@ -15,6 +15,12 @@ namespace reachwise::io {
 struct ReadOptions {
   std::string layer;      ///< overrides config.layer when set (the --layer flag)
   NetworkConfig config;   ///< field mapping, units, topology settings
+  /// The caller supplies bed slopes itself (from a DEM, `reachwise
+  /// prepare`): the layer needs no slope field, a reach without a slope is
+  /// no problem (its bed_slope stays NaN), and the slope default of the
+  /// config is not applied. Slopes in the layer (the slope field or the
+  /// elevation fields) are still read.
+  bool slope_optional = false;
 };
 
 /// What the reader did, for the CLI's report.

@@ -1,11 +1,12 @@
 #pragma once
 /// \file
-/// How channel attributes are prepared from drainage area and stream
-/// order: the `[prepare]` table of a TOML run file (docs/formats.md,
-/// "Preparing attributes (`[prepare]`)").
+/// How `reachwise prepare` derives channel attributes: bed slopes from a
+/// DEM, widths from drainage area and stream order. The `[prepare]` table
+/// of a TOML run file (docs/formats.md, "Preparing attributes (`[prepare]`)").
 
 #include <optional>
 #include <string>
+#include <vector>
 
 #include "reachwise/terrain/DrainageArea.hpp"
 #include "reachwise/terrain/HydraulicGeometry.hpp"
@@ -29,6 +30,16 @@ struct PrepareConfig {
   /// `manning_n`, `[[prepare.class]]`, `replace`. The per-reach vectors
   /// (class_values) stay empty: they come from the layer.
   terrain::HydraulicGeometryOptions geometry;
+  double min_slope = 1e-4;        ///< `min_slope`: DEM slopes below are raised to it
+  double rise_threshold_m = 2.0;  ///< `rise_threshold_m`: larger profile rises are reported
+  double sample_spacing_m = 0;    ///< `sample_spacing_m`: 0 = one DEM cell
+  /// From `replace`: the DEM attributes ("slope", "elevations") the DEM
+  /// replaces even where the layer has them (the channel attributes of the
+  /// same list are in geometry.replace).
+  std::vector<std::string> replace;
+
+  /// `attribute` ("slope" or "elevations") is in `replace`.
+  bool replaces(const std::string& attribute) const;
 
   /// The `[prepare]` table of a TOML file; the defaults when it has none.
   /// Throws InputError naming the file and key on a syntax error, an

@@ -8,6 +8,9 @@
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"
 
+class GDALDataset;
+class OGRSpatialReference;
+
 namespace reachwise::io {
 
 /// Writes a GeoPackage at `path` with
@@ -30,5 +33,10 @@ const char* severityName(network::Severity severity);
 
 void writeProblemsGeoPackage(const std::string& path, const network::ReachGraph& graph,
                              const network::ProblemList& problems);
+
+/// Adds the `problems` point layer described above to `ds` (a GeoPackage
+/// being written to `path`, named in errors), in `srs` (may be null).
+void addProblemsLayer(const std::string& path, GDALDataset& ds, OGRSpatialReference* srs,
+                      const network::ProblemList& problems);
 
 }  // namespace reachwise::io

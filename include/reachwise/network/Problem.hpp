@@ -56,10 +56,14 @@ enum class ProblemCode : std::uint8_t {
   Basin,
   SplitAssumed,
   // preparing attributes (terrain::drainageArea)
-  AreaBelowUpstream,  ///< the last code
+  AreaBelowUpstream,
+  // bed slopes from a DEM (terrain::bedSlopes, `reachwise prepare`)
+  DemNodata,
+  DemProfileRise,
+  SlopeFloored,  ///< the last code
 };
 
-inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::AreaBelowUpstream) + 1;
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SlopeFloored) + 1;
 
 /// One row of the code table.
 struct ProblemKind {

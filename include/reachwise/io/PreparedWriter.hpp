@@ -1,0 +1,46 @@
+#pragma once
+/// \file
+/// The GeoPackage `reachwise prepare` writes: the network as built, with
+/// the derived attributes and where each came from, ready to edit in a GIS
+/// and to route (docs/formats.md, "Preparing a network").
+
+#include <cstddef>
+#include <string>
+#include <vector>
+
+#include "reachwise/io/NetworkConfig.hpp"
+#include "reachwise/network/Problem.hpp"
+#include "reachwise/network/ReachGraph.hpp"
+
+namespace reachwise::io {
+
+/// The derived values of one reach (a vertex of the graph).
+struct PreparedReach {
+  double slope = network::ReachRecord::kUnset;
+  std::string slope_source;        ///< "field", "dem", "default", "" = none
+  double up_elevation_m = network::ReachRecord::kUnset;
+  double down_elevation_m = network::ReachRecord::kUnset;
+  std::string elevation_source;    ///< "field", "dem", "" = none
+  double dem_raw_slope = network::ReachRecord::kUnset;  ///< NaN: no profile fit
+  std::size_t dem_samples = 0;
+  std::size_t dem_valid_samples = 0;
+  std::string dem_flags;           ///< terrain::flagNames
+};
+
+/// Writes `path`, a GeoPackage with
+///  - `reaches`: one line per record of the graph's table, in flow order
+///    (cut pieces and reversed lines as built), with the fields of the
+///    source layer that hold no reach attribute, then every attribute the
+///    reader read under its canonical name in SI units (reach_id, to_reach,
+///    slope, manning_n, ...), then the provenance fields;
+///  - `problems`: points, as in writeProblemsGeoPackage.
+/// `source` and `layer` name the layer read (its fields are copied per
+/// source feature id); `config` its field mapping. Built under a temporary
+/// name and renamed onto `path`: on failure nothing is left behind and
+/// InputError names `path`. An existing `path` is replaced only when
+/// `overwrite`.
+void writePreparedGeoPackage(const std::string& path, bool overwrite, const network::ReachGraph& graph,
+                             const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
+                             const network::ProblemList& problems);
+
+}  // namespace reachwise::io

@@ -1,0 +1,47 @@
+#pragma once
+/// \file
+/// `reachwise prepare`: a network's bed slopes and end elevations from a
+/// DEM, written with the network as built to a new GeoPackage that can be
+/// edited in a GIS and routed as it is (docs/formats.md, "Preparing a
+/// network").
+
+#include <cstddef>
+#include <string>
+
+#include "reachwise/network/Problem.hpp"
+#include "reachwise/run/Network.hpp"
+
+namespace reachwise::run {
+
+struct PrepareRequest {
+  NetworkSource network;  ///< `config` also supplies the `[prepare]` table
+  std::string dem;        ///< any raster GDAL opens
+  std::string out;        ///< the GeoPackage to write
+  bool overwrite = false; ///< replace an existing `out`
+};
+
+struct PrepareSummary {
+  std::size_t reaches = 0;
+  std::size_t slope_from_dem = 0;
+  std::size_t slope_from_field = 0;
+  std::size_t slope_from_default = 0;
+  std::size_t slope_missing = 0;     ///< no field, no DEM value, no default (an error each)
+  std::size_t floored = 0;           ///< DEM slopes raised to the minimum (among slope_from_dem)
+  std::size_t interpolated = 0;      ///< reaches without DEM profile, elevations from neighbours
+  std::size_t with_nodata = 0;       ///< reaches with at least one invalid DEM sample
+  double min_slope = 0, max_slope = 0;  ///< of the slopes written (NaN when none)
+  network::ProblemList problems;     ///< the reader's, the graph's and the DEM's
+  bool hasErrors() const { return network::hasErrors(problems); }
+};
+
+/// Reads the network (the layer may lack slopes), samples the DEM along
+/// every reach, conditions the elevations and writes `out` (layers
+/// `reaches` and `problems`). Slopes and elevations in the layer win unless
+/// `[prepare] replace` names them. The output is written even when the
+/// network has errors (they are in its `problems` layer), except that a
+/// network with a cycle throws NetworkHasErrors and writes nothing.
+/// Throws InputError naming the file for an unreadable network, DEM or
+/// run file, or an output that exists without `overwrite`.
+PrepareSummary prepare(const PrepareRequest& request);
+
+}  // namespace reachwise::run

@@ -1,0 +1,94 @@
+#include "reachwise/run/Prepare.hpp"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "reachwise/io/OutputFiles.hpp"
+#include "reachwise/io/PrepareConfig.hpp"
+#include "reachwise/io/PreparedWriter.hpp"
+#include "reachwise/network/ReachProblem.hpp"
+#include "reachwise/terrain/Dem.hpp"
+
+namespace reachwise::run {
+
+PrepareSummary prepare(const PrepareRequest& request) {
+  requireExisting(request.dem);
+  io::refuseExisting(request.out, request.overwrite);
+  io::PrepareConfig config;
+  if (!request.network.config.empty()) {
+    requireExisting(request.network.config);
+    config = io::PrepareConfig::fromFile(request.network.config);
+  }
+  const terrain::Dem dem(request.dem);
+  NetworkSource source = request.network;
+  source.slope_optional = true;
+  const auto net = loadNetwork(source);
+  const network::ReachGraph& graph = *net->graph;
+  PrepareSummary s;
+  s.problems = net->problems;
+  if (!graph.topologicalOrder()) throw NetworkHasErrors(s.problems);
+
+  terrain::SlopeOptions options;
+  options.min_slope = config.min_slope;
+  options.rise_threshold_m = config.rise_threshold_m;
+  options.spacing_m = config.sample_spacing_m;
+  const auto slopes = terrain::bedSlopes(graph, dem, options, s.problems);
+
+  const auto& default_slope = net->config.field("slope").default_number;
+  const bool replace_slope = config.replaces("slope"), replace_elevations = config.replaces("elevations");
+  std::vector<io::PreparedReach> prepared(graph.size());
+  s.reaches = graph.size();
+  s.min_slope = std::numeric_limits<double>::quiet_NaN();
+  s.max_slope = s.min_slope;
+  for (network::ReachGraph::Vertex v = 0; v < graph.size(); ++v) {
+    const auto& r = graph.record(v);
+    const terrain::ReachSlope& d = slopes[v];
+    io::PreparedReach& p = prepared[v];
+    p.dem_raw_slope = d.raw_slope;
+    p.dem_samples = d.samples;
+    p.dem_valid_samples = d.valid_samples;
+    p.dem_flags = terrain::flagNames(d.flags);
+    if (std::isfinite(r.section.bed_slope) && !replace_slope) {
+      p.slope = r.section.bed_slope;
+      p.slope_source = "field";
+      ++s.slope_from_field;
+    } else if (std::isfinite(d.slope)) {
+      p.slope = d.slope;
+      p.slope_source = "dem";
+      ++s.slope_from_dem;
+      s.floored += (d.flags & terrain::kFloored) != 0;
+    } else if (default_slope) {
+      p.slope = *default_slope;
+      p.slope_source = "default";
+      ++s.slope_from_default;
+    } else {
+      ++s.slope_missing;
+      s.problems.push_back(network::reachProblem(
+          network::ProblemCode::MissingAttribute, r,
+          "no bed slope: the slope field is empty, the DEM gives none and the run file has no "
+          "slope default"));
+    }
+    s.interpolated += (d.flags & terrain::kInterpolated) != 0;
+    s.with_nodata += d.valid_samples < d.samples;
+    if (std::isfinite(r.up_elevation_m) && std::isfinite(r.down_elevation_m) && !replace_elevations) {
+      p.up_elevation_m = r.up_elevation_m;
+      p.down_elevation_m = r.down_elevation_m;
+      p.elevation_source = "field";
+    } else if (std::isfinite(d.up_elevation_m)) {
+      p.up_elevation_m = d.up_elevation_m;
+      p.down_elevation_m = d.down_elevation_m;
+      p.elevation_source = "dem";
+    }
+    if (std::isfinite(p.slope)) {
+      s.min_slope = std::isnan(s.min_slope) ? p.slope : std::min(s.min_slope, p.slope);
+      s.max_slope = std::isnan(s.max_slope) ? p.slope : std::max(s.max_slope, p.slope);
+    }
+  }
+  io::writePreparedGeoPackage(request.out, request.overwrite, graph, net->config, prepared, s.problems);
+  return s;
+}
+
+}  // namespace reachwise::run
