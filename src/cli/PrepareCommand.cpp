@@ -35,6 +35,12 @@ void printSummary(std::ostream& out, const PrepareOptions& o, const run::Prepare
     fmt::print(out, "slope range    -\n");
   else
     fmt::print(out, "slope range    {:.4g} to {:.4g}\n", s.min_slope, s.max_slope);
+  fmt::print(out, "bottom widths  {} from hydraulic geometry, {} from the layer", s.width_from_geometry,
+             s.width_from_field);
+  if (std::isnan(s.min_width_m))
+    fmt::print(out, "\n");
+  else
+    fmt::print(out, "; {:.3g} to {:.3g} m\n", s.min_width_m, s.max_width_m);
   fmt::print(out, "problems       {} error{}, {} warning{}, {} note{}\n", errors, errors == 1 ? "" : "s",
              warnings, warnings == 1 ? "" : "s", notes, notes == 1 ? "" : "s");
 }

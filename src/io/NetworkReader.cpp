@@ -298,7 +298,7 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
   where.layer = table.layer;
   network::geos::CrsMetric metric;
   const LineLength measure = lengthMeasure(*layer, config, where, table, metric);
-  const detail::ReachAttributes attrs(*layer->GetLayerDefn(), config, where, options.slope_optional);
+  const detail::ReachAttributes attrs(*layer->GetLayerDefn(), config, where, options.derive_attributes);
   ReadSummary summary;
   readFeatures(*layer, attrs, measure, table, problems, summary);
   if (summary.features == 0) {

@@ -31,8 +31,25 @@ std::string lower(std::string s) {
 }
 
 /// Fields written by prepare besides the reach attributes.
-constexpr const char* kProvenanceFields[] = {"slope_source", "elevation_source", "dem_raw_slope",
-                                             "dem_samples", "dem_valid_fraction", "dem_flags"};
+constexpr const char* kProvenanceFields[] = {
+    "slope_source",      "elevation_source",   "dem_raw_slope",       "dem_samples",
+    "dem_valid_fraction", "dem_flags",         "drainage_area_km2",   "area_source",
+    "bottom_width_source", "side_slope_source", "manning_n_source",   "bank_depth_source"};
+
+/// Text provenance fields and their values.
+struct TextField {
+  const char* name;
+  const std::string PreparedReach::*value;
+};
+const TextField kTextProvenance[] = {
+    {"slope_source", &PreparedReach::slope_source},
+    {"elevation_source", &PreparedReach::elevation_source},
+    {"area_source", &PreparedReach::area_source},
+    {"bottom_width_source", &PreparedReach::bottom_width_source},
+    {"side_slope_source", &PreparedReach::side_slope_source},
+    {"manning_n_source", &PreparedReach::manning_n_source},
+    {"bank_depth_source", &PreparedReach::bank_depth_source},
+};
 
 /// Numeric attributes written under their canonical names, in SI units.
 struct NumericAttribute {
@@ -127,8 +144,8 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
   addField(path, *layer, "shape", OFTString);
   for (const auto& a : kNumeric) addField(path, *layer, a.name, OFTReal);
   if (source.has_length) addField(path, *layer, "length", OFTReal);
-  addField(path, *layer, "slope_source", OFTString);
-  addField(path, *layer, "elevation_source", OFTString);
+  for (const auto& t : kTextProvenance) addField(path, *layer, t.name, OFTString);
+  addField(path, *layer, "drainage_area_km2", OFTReal);
   addField(path, *layer, "dem_raw_slope", OFTReal);
   addField(path, *layer, "dem_samples", OFTInteger64);
   addField(path, *layer, "dem_valid_fraction", OFTReal);
@@ -152,11 +169,13 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
     setNumber(f, "slope", p.slope);
     setNumber(f, "up_elevation", p.up_elevation_m);
     setNumber(f, "down_elevation", p.down_elevation_m);
-    f.SetField("shape", r.section.shape == hydraulics::Shape::Circle ? "circle" : "trapezoid");
-    for (const auto& a : kNumeric) setNumber(f, a.name, a.get(r));
+    network::ReachRecord written = r;  // the attributes as prepared
+    written.section = p.section;
+    f.SetField("shape", p.section.shape == hydraulics::Shape::Circle ? "circle" : "trapezoid");
+    for (const auto& a : kNumeric) setNumber(f, a.name, a.get(written));
     if (source.has_length) setNumber(f, "length", r.length_m);
-    setText(f, "slope_source", p.slope_source);
-    setText(f, "elevation_source", p.elevation_source);
+    for (const auto& t : kTextProvenance) setText(f, t.name, p.*t.value);
+    setNumber(f, "drainage_area_km2", p.drainage_area_km2);
     setNumber(f, "dem_raw_slope", p.dem_raw_slope);
     f.SetField("dem_samples", static_cast<GIntBig>(p.dem_samples));
     setNumber(f, "dem_valid_fraction",

@@ -49,12 +49,12 @@ std::string fieldList(const OGRFeatureDefn& defn) {
 }  // namespace
 
 ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config,
-                                 InputLocation where, bool slope_optional)
+                                 InputLocation where, bool derive_attributes)
     : config_(config),
       length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0),
       discharge_scale_(config.units == units::System::USCustomary ? units::kCubicMetresPerCubicFoot
                                                                   : 1.0),
-      slope_optional_(slope_optional) {
+      derive_attributes_(derive_attributes) {
   for (auto name : kFieldNames)
     index_[std::string(name)] = defn.GetFieldIndex(config.field(name).name.c_str());
   auto usable = [&](std::string_view n) { return hasField(n) || config.field(n).hasDefault(); };
@@ -65,9 +65,9 @@ ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig
                                         n, fieldList(defn)));
   };
   require("reach_id", hasField("reach_id"));
-  require("slope", slope_optional_ || usable("slope") || (hasField("up_elevation") && hasField("down_elevation")));
-  require("manning_n", usable("manning_n"));
-  require("bottom_width", usable("bottom_width") || usable("shape"));
+  require("slope", derive_attributes_ || usable("slope") || (hasField("up_elevation") && hasField("down_elevation")));
+  require("manning_n", derive_attributes_ || usable("manning_n"));
+  require("bottom_width", derive_attributes_ || usable("bottom_width") || usable("shape"));
 }
 
 bool ReachAttributes::hasField(std::string_view canonical) const {
@@ -184,14 +184,21 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
         fmt::format("length field says {:.1f} m but the line measures {:.1f} m", len.number, g)));
 }
 
+ReachAttributes::Value ReachAttributes::derivable(const OGRFeature& f, std::string_view canonical,
+                                                  double scale, const ReachRecord& r,
+                                                  ProblemList& problems) const {
+  Value v = number(f, canonical, scale, r, problems);
+  if (derive_attributes_ && v.state == Value::State::Ok) {
+    // The config's default is left to the caller, who derives a better value.
+    const int idx = index_.find(canonical)->second;
+    if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) v = Value{};
+  }
+  return v;
+}
+
 void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
                                 ProblemList& problems) const {
-  Value s = number(f, "slope", 1.0, r, problems);
-  if (slope_optional_ && s.state == Value::State::Ok) {
-    // The config's default is left to the caller, who has better slopes.
-    const int idx = index_.find("slope")->second;
-    if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) s = Value{};
-  }
+  const Value s = derivable(f, "slope", 1.0, r, problems);
   double slope = s.number;
   if (s.state == Value::State::Invalid) return;
   if (s.state == Value::State::Missing) {
@@ -200,7 +207,7 @@ void ReachAttributes::readSlope(const OGRFeature& f, ReachRecord& r,
     if (std::isfinite(drop) && r.length_m > 0) slope = drop / r.length_m;
   }
   r.section.bed_slope = slope;
-  if (std::isnan(slope) && !slope_optional_)
+  if (std::isnan(slope) && !derive_attributes_)
     problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                     "no bed slope (slope field empty and no elevations)"));
 }
@@ -230,17 +237,17 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
         fmt::format("field {} (shape): \"{}\" is not trapezoid or circle",
                     config_.field("shape").name, shape.text)));
   }
-  sec.manning_n = number(f, "manning_n", 1.0, r, problems).number;
-  requireValue(sec.manning_n, "manning_n", r, problems);
+  sec.manning_n = derivable(f, "manning_n", 1.0, r, problems).number;
+  if (!derive_attributes_) requireValue(sec.manning_n, "manning_n", r, problems);
   if (sec.shape == Shape::Circle) {
     sec.diameter_m = number(f, "diameter", length_scale_, r, problems).number;
     requireValue(sec.diameter_m, "diameter (shape circle)", r, problems);
     return;
   }
-  sec.bottom_width_m = number(f, "bottom_width", length_scale_, r, problems).number;
-  const double z = number(f, "side_slope", 1.0, r, problems).number;
+  sec.bottom_width_m = derivable(f, "bottom_width", length_scale_, r, problems).number;
+  const double z = derivable(f, "side_slope", 1.0, r, problems).number;
   sec.side_slope = std::isnan(z) ? 0.0 : z;  // none given: vertical banks
-  requireValue(sec.bottom_width_m, "bottom_width", r, problems);
+  if (!derive_attributes_) requireValue(sec.bottom_width_m, "bottom_width", r, problems);
   readTwoStage(f, r, problems);
 }
 

@@ -21,9 +21,9 @@ class ReachAttributes {
 public:
   /// Looks the configured fields up in the layer. Throws InputError (with
   /// `where`'s file and layer) when a required field is absent and has no default.
-  /// `slope_optional`: see ReadOptions::slope_optional.
+  /// `derive_attributes`: see ReadOptions::derive_attributes.
   ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config, InputLocation where,
-                  bool slope_optional = false);
+                  bool derive_attributes = false);
 
   /// True when the layer has the field configured for `canonical`.
   bool hasField(std::string_view canonical) const;
@@ -41,6 +41,10 @@ private:
   };
   Value number(const OGRFeature& f, std::string_view canonical, double scale,
                const network::ReachRecord& r, network::ProblemList& problems) const;
+  /// number(), but with derive_attributes a value from the config's
+  /// default (no value in the layer) counts as missing.
+  Value derivable(const OGRFeature& f, std::string_view canonical, double scale,
+                  const network::ReachRecord& r, network::ProblemList& problems) const;
   Value text(const OGRFeature& f, std::string_view canonical) const;
   void readSection(const OGRFeature& f, network::ReachRecord& r,
                    network::ProblemList& problems) const;
@@ -57,7 +61,7 @@ private:
   std::map<std::string, int, std::less<>> index_;  ///< canonical name -> field index, -1 absent
   double length_scale_ = 1.0;                      ///< metres per unit of widths/depths/lengths
   double discharge_scale_ = 1.0;                   ///< m^3/s per unit of discharge (base flow)
-  bool slope_optional_ = false;
+  bool derive_attributes_ = false;
 };
 
 }  // namespace reachwise::io::detail

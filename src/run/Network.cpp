@@ -42,7 +42,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
     read_options.config = io::NetworkConfig::fromFile(source.config);
   }
   read_options.layer = source.layer;
-  read_options.slope_optional = source.slope_optional;
+  read_options.derive_attributes = source.derive_attributes;
   auto net = std::make_unique<LoadedNetwork>();
   net->source = source;
   net->config = read_options.config;

@@ -9,10 +9,57 @@
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/PrepareConfig.hpp"
 #include "reachwise/io/PreparedWriter.hpp"
+#include "reachwise/io/ReachValues.hpp"
 #include "reachwise/network/ReachProblem.hpp"
 #include "reachwise/terrain/Dem.hpp"
+#include "reachwise/terrain/DrainageArea.hpp"
+#include "reachwise/terrain/HydraulicGeometry.hpp"
 
 namespace reachwise::run {
+
+namespace {
+
+struct Channels {
+  std::vector<terrain::AreaValue> areas;
+  std::vector<terrain::DerivedSection> sections;
+};
+
+/// Drainage area and hydraulic geometry of every reach ([prepare] keys).
+Channels channelSections(const network::ReachGraph& graph, const io::PrepareConfig& config,
+                         network::ProblemList& problems) {
+  const auto& table = graph.table();
+  std::vector<double> field_km2;
+  if (!config.area_field.empty()) field_km2 = io::readReachNumbers(table, config.area_field, true);
+  Channels c;
+  c.areas = terrain::drainageArea(graph, config.areaOptions(std::move(field_km2)), problems);
+  terrain::HydraulicGeometryOptions geometry = config.geometry;
+  if (!config.class_field.empty()) geometry.class_values = io::readReachTexts(table, config.class_field);
+  c.sections = terrain::hydraulicGeometry(graph, c.areas, geometry);
+  return c;
+}
+
+void describeSection(const terrain::AreaValue& area, const terrain::DerivedSection& d, io::PreparedReach& p,
+                     PrepareSummary& s) {
+  p.section = d.section;
+  p.drainage_area_km2 = d.area_km2;
+  if (area.source != terrain::AreaSource::None) p.area_source = terrain::areaSourceName(area.source);
+  auto name = [](terrain::AttributeSource a) {
+    return a == terrain::AttributeSource::None ? std::string() : std::string(terrain::attributeSourceName(a));
+  };
+  p.bottom_width_source = name(d.bottom_width);
+  p.side_slope_source = name(d.side_slope);
+  p.manning_n_source = name(d.manning_n);
+  p.bank_depth_source = name(d.bank_depth);
+  s.width_from_geometry += d.bottom_width == terrain::AttributeSource::HydraulicGeometry;
+  s.width_from_field += d.bottom_width == terrain::AttributeSource::Field;
+  const double w = d.section.bottom_width_m;
+  if (std::isfinite(w)) {
+    s.min_width_m = std::isnan(s.min_width_m) ? w : std::min(s.min_width_m, w);
+    s.max_width_m = std::isnan(s.max_width_m) ? w : std::max(s.max_width_m, w);
+  }
+}
+
+}  // namespace
 
 PrepareSummary prepare(const PrepareRequest& request) {
   requireExisting(request.dem);
@@ -24,7 +71,7 @@ PrepareSummary prepare(const PrepareRequest& request) {
   }
   const terrain::Dem dem(request.dem);
   NetworkSource source = request.network;
-  source.slope_optional = true;
+  source.derive_attributes = true;
   const auto net = loadNetwork(source);
   const network::ReachGraph& graph = *net->graph;
   PrepareSummary s;
@@ -36,6 +83,7 @@ PrepareSummary prepare(const PrepareRequest& request) {
   options.rise_threshold_m = config.rise_threshold_m;
   options.spacing_m = config.sample_spacing_m;
   const auto slopes = terrain::bedSlopes(graph, dem, options, s.problems);
+  const Channels channels = channelSections(graph, config, s.problems);
 
   const auto& default_slope = net->config.field("slope").default_number;
   const bool replace_slope = config.replaces("slope"), replace_elevations = config.replaces("elevations");
@@ -82,6 +130,7 @@ PrepareSummary prepare(const PrepareRequest& request) {
       p.down_elevation_m = d.down_elevation_m;
       p.elevation_source = "dem";
     }
+    describeSection(channels.areas[v], channels.sections[v], p, s);
     if (std::isfinite(p.slope)) {
       s.min_slope = std::isnan(s.min_slope) ? p.slope : std::min(s.min_slope, p.slope);
       s.max_slope = std::isnan(s.max_slope) ? p.slope : std::max(s.max_slope, p.slope);

@@ -63,6 +63,21 @@ struct Case {
   }
 };
 
+/// Routes the prepared layer of `c` into `results` with a small flood
+/// entering at `up` and `trib`.
+testsupport::CliRun routePrepared(const Case& c, const std::string& results) {
+  const std::string inflow = (c.dir / "inflow.csv").string();
+  {
+    std::ofstream csv(inflow);
+    csv << "reach_id,time,discharge\n";
+    const double up[] = {1, 20, 8, 3, 1}, trib[] = {1, 5, 3, 1, 1};
+    for (int k = 0; k < 5; ++k) csv << fmt::format("up,2026-05-01T{:02d}:00:00Z,{}\n", 3 * k, up[k]);
+    for (int k = 0; k < 5; ++k) csv << fmt::format("trib,2026-05-01T{:02d}:00:00Z,{}\n", 3 * k, trib[k]);
+  }
+  fs::remove(results);
+  return runReachwise(fmt::format("route {} --inflow {} --out {} --quiet", c.out, inflow, results));
+}
+
 /// reach_id -> feature of the `reaches` layer of `path`.
 std::map<std::string, std::unique_ptr<OGRFeature>> readReaches(const std::string& path) {
   GDALAllRegister();
@@ -119,17 +134,8 @@ TEST(PrepareCommand, WritesSlopesFromTheDemAndRoutes) {
             reaches.at("up")->GetFieldAsDouble("down_elevation") + 1e-9);
 
   // The prepared layer routes as it is.
-  const std::string inflow = (c.dir / "inflow.csv").string();
-  {
-    std::ofstream csv(inflow);
-    csv << "reach_id,time,discharge\n";
-    const double up[] = {1, 20, 8, 3, 1}, trib[] = {1, 5, 3, 1, 1};
-    for (int k = 0; k < 5; ++k) csv << fmt::format("up,2026-05-01T{:02d}:00:00Z,{}\n", 3 * k, up[k]);
-    for (int k = 0; k < 5; ++k) csv << fmt::format("trib,2026-05-01T{:02d}:00:00Z,{}\n", 3 * k, trib[k]);
-  }
   const std::string results = (c.dir / "results.gpkg").string();
-  fs::remove(results);
-  const auto routed = runReachwise(fmt::format("route {} --inflow {} --out {} --quiet", c.out, inflow, results));
+  const auto routed = routePrepared(c, results);
   EXPECT_EQ(routed.code, 0) << routed.out << routed.err;
   EXPECT_TRUE(fs::exists(results));
 }
@@ -235,8 +241,9 @@ TEST(PrepareCommand, TopologyFromGeometryIsWrittenAsBuilt) {
 }
 
 TEST(PrepareCommand, NetworkWithErrorsIsWrittenWithThemAndExitsOne) {
-  // T has no manning_n and no default: an error. prepare still writes the
-  // layer (to be fixed in a GIS), with the error in its problems layer.
+  // T's Manning's n is negative: an error prepare does not mend (a value
+  // in the layer wins). prepare still writes the layer (to be fixed in a
+  // GIS), with the error in its problems layer.
   Case c;
   fs::remove(c.network);
   fixtures::Layer layer;
@@ -244,19 +251,62 @@ TEST(PrepareCommand, NetworkWithErrorsIsWrittenWithThemAndExitsOne) {
   const double y = kY0 - 5000;
   layer.features.push_back({fmt::format("LINESTRING ({} {}, {} {})", kX0 + 1000, y, kX0 + 3000, y), {"M", "0.035", "6"}});
   layer.features.push_back(
-      {fmt::format("LINESTRING ({} {}, {} {})", kX0 + 3000, y, kX0 + 5000, y), {"T", std::nullopt, "3"}});
+      {fmt::format("LINESTRING ({} {}, {} {})", kX0 + 3000, y, kX0 + 5000, y), {"T", "-0.02", "3"}});
   fixtures::write(c.network, "GPKG", {layer});
   const auto r = runReachwise(fmt::format("prepare {} --dem {} --out {}", c.network, c.dem, c.out));
   EXPECT_EQ(r.code, 1) << r.out << r.err;
-  EXPECT_NE(r.err.find("error missing_attribute T "), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("error invalid_attribute T "), std::string::npos) << r.err;
   ASSERT_TRUE(fs::exists(c.out));
   GDALAllRegister();
   const GDALDatasetUniquePtr ds(GDALDataset::Open(c.out.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
   ASSERT_TRUE(ds);
   OGRLayer* problems = ds->GetLayerByName("problems");
   ASSERT_NE(problems, nullptr);
-  problems->SetAttributeFilter("code = 'missing_attribute' AND reach_id = 'T'");
+  problems->SetAttributeFilter("code = 'invalid_attribute' AND reach_id = 'T'");
   EXPECT_EQ(problems->GetFeatureCount(), 1);
+}
+
+TEST(PrepareCommand, PlainLinesGetEveryChannelAttributeAndRoute) {
+  // Lines with an id and nothing else: slopes from the DEM, drainage area
+  // from Hack's law, bottom width from the width and depth power laws,
+  // side slope and Manning's n from the defaults; each says so.
+  Case c;
+  fs::remove(c.network);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}};
+  const double y = kY0 - 5000;
+  auto line = [](double xa, double ya, double xb, double yb) {
+    return fmt::format("LINESTRING ({} {}, {} {})", xa, ya, xb, yb);
+  };
+  layer.features.push_back({line(kX0 + 1000, y, kX0 + 3000, y), {"up"}});
+  layer.features.push_back({line(kX0 + 2000, y + 1500, kX0 + 3000, y), {"trib"}});
+  layer.features.push_back({line(kX0 + 3000, y, kX0 + 6000, y), {"down"}});
+  fixtures::write(c.network, "GPKG", {layer});
+  const auto r = runReachwise(fmt::format("prepare {} --dem {} --out {}", c.network, c.dem, c.out));
+  ASSERT_EQ(r.code, 0) << r.out << r.err;
+  EXPECT_NE(r.out.find("bottom widths  3 from hydraulic geometry, 0 from the layer"), std::string::npos) << r.out;
+  const auto reaches = readReaches(c.out);
+  ASSERT_EQ(reaches.size(), 3u);
+  for (const auto& [id, f] : reaches) {
+    EXPECT_STREQ(f->GetFieldAsString("slope_source"), "dem") << id;
+    // Hack (1957) on the longest flow path: concave in L, so down's own
+    // estimate (5 km of path) exceeds the sum of up's and trib's.
+    EXPECT_STREQ(f->GetFieldAsString("area_source"), "length_relation") << id;
+    EXPECT_STREQ(f->GetFieldAsString("bottom_width_source"), "hydraulic_geometry") << id;
+    EXPECT_STREQ(f->GetFieldAsString("side_slope_source"), "default") << id;
+    EXPECT_STREQ(f->GetFieldAsString("manning_n_source"), "default") << id;
+    EXPECT_GT(f->GetFieldAsDouble("bottom_width"), 0.0) << id;
+  }
+  // Areas add up at the confluence and widths grow downstream with them
+  // (w = a A^b with b > 0).
+  const double a_up = reaches.at("up")->GetFieldAsDouble("drainage_area_km2");
+  const double a_trib = reaches.at("trib")->GetFieldAsDouble("drainage_area_km2");
+  const double a_down = reaches.at("down")->GetFieldAsDouble("drainage_area_km2");
+  EXPECT_GE(a_down, a_up + a_trib - 1e-9);
+  EXPECT_GT(reaches.at("down")->GetFieldAsDouble("bottom_width"), reaches.at("up")->GetFieldAsDouble("bottom_width"));
+  // The prepared layer routes as it is.
+  const auto rr = routePrepared(c, (c.dir / "plain_routed.gpkg").string());
+  EXPECT_EQ(rr.code, 0) << rr.out << rr.err;
 }
 
 TEST(PrepareCommand, UsageErrorsExitTwo) {

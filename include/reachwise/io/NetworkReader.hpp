@@ -15,12 +15,13 @@ namespace reachwise::io {
 struct ReadOptions {
   std::string layer;      ///< overrides config.layer when set (the --layer flag)
   NetworkConfig config;   ///< field mapping, units, topology settings
-  /// The caller supplies bed slopes itself (from a DEM, `reachwise
-  /// prepare`): the layer needs no slope field, a reach without a slope is
-  /// no problem (its bed_slope stays NaN), and the slope default of the
-  /// config is not applied. Slopes in the layer (the slope field or the
-  /// elevation fields) are still read.
-  bool slope_optional = false;
+  /// The caller derives the channel attributes itself (`reachwise
+  /// prepare`: bed slope from a DEM, bottom width, side slope and Manning's
+  /// n from hydraulic geometry): the layer needs none of these fields, a
+  /// reach without them is no problem (they stay NaN), and the config's
+  /// defaults for them are not applied. Values in the layer (and slopes
+  /// from the elevation fields) are still read.
+  bool derive_attributes = false;
 };
 
 /// What the reader did, for the CLI's report.

@@ -25,6 +25,15 @@ struct PreparedReach {
   std::size_t dem_samples = 0;
   std::size_t dem_valid_samples = 0;
   std::string dem_flags;           ///< terrain::flagNames
+  /// The section written: the layer's, with the derived widths, side
+  /// slope, bank depth and Manning's n filled in.
+  hydraulics::SectionSpec section;
+  double drainage_area_km2 = network::ReachRecord::kUnset;
+  std::string area_source;         ///< terrain::areaSourceName, "" = none
+  std::string bottom_width_source; ///< terrain::attributeSourceName ("field", "hydraulic_geometry", ...)
+  std::string side_slope_source;
+  std::string manning_n_source;
+  std::string bank_depth_source;   ///< two-stage sections only
 };
 
 /// Writes `path`, a GeoPackage with

@@ -20,8 +20,8 @@ struct NetworkSource {
   std::string path;     ///< any path or connection string GDAL opens as vector data
   std::string layer;    ///< empty: the config's layer, else the only line layer
   std::string config;   ///< TOML run file with the `[network]` table; empty: defaults
-  /// Bed slopes come from elsewhere (a DEM): io::ReadOptions::slope_optional.
-  bool slope_optional = false;
+  /// Channel attributes come from elsewhere (`prepare`): io::ReadOptions::derive_attributes.
+  bool derive_attributes = false;
 };
 
 /// A network as read and validated. Not movable: `graph` refers to `table`.

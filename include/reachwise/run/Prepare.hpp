@@ -1,11 +1,12 @@
 #pragma once
 /// \file
 /// `reachwise prepare`: a network's bed slopes and end elevations from a
-/// DEM, written with the network as built to a new GeoPackage that can be
+/// DEM, drainage areas and channel sections from hydraulic geometry, written with the network as built to a new GeoPackage that can be
 /// edited in a GIS and routed as it is (docs/formats.md, "Preparing a
 /// network").
 
 #include <cstddef>
+#include <limits>
 #include <string>
 
 #include "reachwise/network/Problem.hpp"
@@ -30,12 +31,18 @@ struct PrepareSummary {
   std::size_t interpolated = 0;      ///< reaches without DEM profile, elevations from neighbours
   std::size_t with_nodata = 0;       ///< reaches with at least one invalid DEM sample
   double min_slope = 0, max_slope = 0;  ///< of the slopes written (NaN when none)
+  std::size_t width_from_geometry = 0;  ///< bottom widths from the hydraulic-geometry power laws
+  std::size_t width_from_field = 0;     ///< bottom widths kept from the layer
+  double min_width_m = std::numeric_limits<double>::quiet_NaN();  ///< of the bottom widths written
+  double max_width_m = std::numeric_limits<double>::quiet_NaN();
   network::ProblemList problems;     ///< the reader's, the graph's and the DEM's
   bool hasErrors() const { return network::hasErrors(problems); }
 };
 
-/// Reads the network (the layer may lack slopes), samples the DEM along
-/// every reach, conditions the elevations and writes `out` (layers
+/// Reads the network (the layer may lack slopes, widths, side slopes and
+/// Manning's n), samples the DEM along every reach, conditions the
+/// elevations, derives drainage areas and sections ([prepare] keys) and
+/// writes `out` (layers
 /// `reaches` and `problems`). Slopes and elevations in the layer win unless
 /// `[prepare] replace` names them. The output is written even when the
 /// network has errors (they are in its `problems` layer), except that a
