@@ -5,6 +5,7 @@
 #include <gdal_priv.h>
 #include <ogrsf_frmts.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
@@ -151,6 +152,7 @@ std::vector<Reach> brannoch() {
 
 struct Variant {
   bool to_reach = true, slope = true;
+  bool channel = true;  ///< false: no channel attributes at all (plain lines: reach_id only)
 };
 
 void setReal(OGRFeature& f, const char* name, double v) {
@@ -176,14 +178,23 @@ void write(const std::filesystem::path& path, const std::vector<Reach>& reaches,
   field("reach_id", OFTString);
   if (v.to_reach) field("to_reach", OFTString);
   if (v.slope) field("slope", OFTReal);
-  for (const char* name : {"manning_n", "bottom_width", "side_slope"}) field(name, OFTReal);
-  field("shape", OFTString);
-  for (const char* name : {"diameter", "bank_depth", "floodplain_width", "floodplain_n",
-                           "muskingum_k_h", "muskingum_x"})
-    field(name, OFTReal);
+  if (v.channel) {
+    for (const char* name : {"manning_n", "bottom_width", "side_slope"}) field(name, OFTReal);
+    field("shape", OFTString);
+    for (const char* name : {"diameter", "bank_depth", "floodplain_width", "floodplain_n",
+                             "muskingum_k_h", "muskingum_x"})
+      field(name, OFTReal);
+  }
   for (const auto& r : reaches) {
     OGRFeature f(layer->GetLayerDefn());
     f.SetField("reach_id", r.id.c_str());
+    OGRLineString line;
+    for (const auto& p : r.line) line.addPoint(std::round(p.x * 100) / 100, std::round(p.y * 100) / 100);
+    f.SetGeometry(&line);
+    if (!v.channel) {
+      if (layer->CreateFeature(&f) != OGRERR_NONE) throw std::runtime_error("cannot write " + tmp);
+      continue;
+    }
     if (v.to_reach) {
       if (r.to.empty())
         f.SetFieldNull(f.GetFieldIndex("to_reach"));
@@ -201,12 +212,83 @@ void write(const std::filesystem::path& path, const std::vector<Reach>& reaches,
     setReal(f, "floodplain_n", r.fp_n);
     setReal(f, "muskingum_k_h", r.k_h);
     setReal(f, "muskingum_x", r.x);
-    OGRLineString line;
-    for (const auto& p : r.line) line.addPoint(std::round(p.x * 100) / 100, std::round(p.y * 100) / 100);
-    f.SetGeometry(&line);
     if (layer->CreateFeature(&f) != OGRERR_NONE) throw std::runtime_error("cannot write " + tmp);
   }
   ds.reset();  // flush and close before the rename
+  std::filesystem::rename(tmp, path);
+}
+
+/// The bed elevation of every vertex: the outlet's bottom at 100 m, each
+/// reach rising upstream at its own slope from the top of the reach it
+/// flows into (reaches are listed downstream first).
+std::vector<std::vector<double>> bedElevations(const std::vector<Reach>& reaches) {
+  std::vector<std::vector<double>> z(reaches.size());
+  auto index = [&](const std::string& id) {
+    for (std::size_t k = 0; k < reaches.size(); ++k)
+      if (reaches[k].id == id) return k;
+    throw std::runtime_error("no reach " + id);
+  };
+  for (std::size_t k = 0; k < reaches.size(); ++k) {
+    const Reach& r = reaches[k];
+    const double bottom = r.to.empty() ? 100.0 : z[index(r.to)].front();
+    if (!r.to.empty() && z[index(r.to)].empty()) throw std::runtime_error("reach order: " + r.id);
+    std::vector<double>& zr = z[k];
+    zr.assign(r.line.size(), bottom);
+    for (std::size_t i = r.line.size() - 1; i-- > 0;)
+      zr[i] = zr[i + 1] + r.slope * std::hypot(r.line[i + 1].x - r.line[i].x, r.line[i + 1].y - r.line[i].y);
+  }
+  return z;
+}
+
+/// An invented DEM of the catchment (GeoTIFF, 30 m cells, EPSG:32633): a
+/// valley floor 60 m either side of every line at the line's bed elevation
+/// (the nearest point of the nearest line), rising 5 % beyond it.
+void writeDem(const std::filesystem::path& path, const std::vector<Reach>& reaches) {
+  const auto z = bedElevations(reaches);
+  double x0 = 1e300, x1 = -1e300, y0 = 1e300, y1 = -1e300;
+  for (const auto& r : reaches)
+    for (const auto& p : r.line) {
+      x0 = std::min(x0, p.x), x1 = std::max(x1, p.x);
+      y0 = std::min(y0, p.y), y1 = std::max(y1, p.y);
+    }
+  const double cell = 30, margin = 1500;
+  x0 = std::floor((x0 - margin) / cell) * cell, y1 = std::ceil((y1 + margin) / cell) * cell;
+  const int nx = static_cast<int>(std::ceil((x1 + margin - x0) / cell));
+  const int ny = static_cast<int>(std::ceil((y1 - (y0 - margin)) / cell));
+  std::vector<float> grid(static_cast<std::size_t>(nx) * ny);
+  for (int j = 0; j < ny; ++j)
+    for (int i = 0; i < nx; ++i) {
+      const double x = x0 + (i + 0.5) * cell, y = y1 - (j + 0.5) * cell;
+      double best = 1e300, zb = 0;
+      for (std::size_t k = 0; k < reaches.size(); ++k) {
+        const auto& l = reaches[k].line;
+        for (std::size_t v = 1; v < l.size(); ++v) {
+          const double dx = l[v].x - l[v - 1].x, dy = l[v].y - l[v - 1].y;
+          const double t = std::clamp(((x - l[v - 1].x) * dx + (y - l[v - 1].y) * dy) / (dx * dx + dy * dy), 0.0, 1.0);
+          const double d = std::hypot(l[v - 1].x + t * dx - x, l[v - 1].y + t * dy - y);
+          if (d < best) best = d, zb = z[k][v - 1] + t * (z[k][v] - z[k][v - 1]);
+        }
+      }
+      grid[static_cast<std::size_t>(j) * nx + i] = static_cast<float>(zb + 0.05 * std::max(0.0, best - 60.0));
+    }
+  const auto tmp = path.string() + ".tmp.tif";
+  std::filesystem::remove(tmp);
+  char** opts = nullptr;
+  opts = CSLSetNameValue(opts, "COMPRESS", "DEFLATE");
+  opts = CSLSetNameValue(opts, "PREDICTOR", "3");
+  opts = CSLSetNameValue(opts, "TILED", "YES");
+  GDALDriver* drv = GetGDALDriverManager()->GetDriverByName("GTiff");
+  GDALDatasetUniquePtr ds(drv->Create(tmp.c_str(), nx, ny, 1, GDT_Float32, opts));
+  CSLDestroy(opts);
+  if (!ds) throw std::runtime_error("cannot create " + tmp);
+  double gt[6] = {x0, cell, 0, y1, 0, -cell};
+  ds->SetGeoTransform(gt);
+  OGRSpatialReference srs;
+  srs.importFromEPSG(32633);
+  ds->SetSpatialRef(&srs);
+  if (ds->GetRasterBand(1)->RasterIO(GF_Write, 0, 0, nx, ny, grid.data(), nx, ny, GDT_Float32, 0, 0) != CE_None)
+    throw std::runtime_error("cannot write " + tmp);
+  ds.reset();
   std::filesystem::rename(tmp, path);
 }
 
@@ -234,6 +316,11 @@ int main(int argc, char** argv) {
     write(out / "gap.gpkg", gap, {false, true});
 
     write(out / "missing_field.gpkg", net, {true, false});
+
+    // plain.gpkg + dem.tif: the same lines with nothing but their ids, and
+    // a DEM whose valleys follow them (for `reachwise prepare`).
+    write(out / "plain.gpkg", net, {false, false, false});
+    writeDem(out / "dem.tif", net);
     std::printf("wrote %zu reaches to %s\n", net.size(), out.string().c_str());
     return 0;
   } catch (const std::exception& e) {
