@@ -74,7 +74,7 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
 }
 
 int check(const CheckOptions& options, std::ostream& out, std::ostream& err) {
-  const auto net = run::loadNetwork({options.network, options.layer, options.config});
+  const auto net = run::loadNetwork({options.network, options.layer, options.config, ""});
   printSummary(out, net->table, network::summarize(*net->graph), net->read, net->problems);
   for (const auto& p : net->problems) fmt::print(err, "{}\n", run::problemLine(p));
   if (!options.problems.empty()) {

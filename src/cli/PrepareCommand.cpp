@@ -47,7 +47,7 @@ void printSummary(std::ostream& out, const PrepareOptions& o, const run::Prepare
 
 int prepare(const PrepareOptions& options, std::ostream& out, std::ostream& err) {
   run::PrepareRequest request;
-  request.network = {options.network, options.layer, options.config};
+  request.network = {options.network, options.layer, options.config, ""};
   request.dem = options.dem;
   request.out = options.out;
   request.overwrite = options.overwrite;

@@ -96,7 +96,7 @@ private:
 
 run::RouteRequest requestOf(const RouteOptions& o) {
   run::RouteRequest r;
-  r.network = {o.network, o.layer, o.config};
+  r.network = {o.network, o.layer, o.config, ""};
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
   r.forcing.dt_s = o.dt_s;

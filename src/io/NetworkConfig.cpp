@@ -3,6 +3,7 @@
 #include <toml++/toml.h>
 
 #include <cmath>
+#include <filesystem>
 
 #include "RunFile.hpp"
 #include "reachwise/Error.hpp"
@@ -235,6 +236,11 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
       cfg.gaps_are_errors = s == "error";
     } else if (name == "unconnected") {
       cfg.unconnected = requireReachIds(v, o, key);
+    } else if (name == "dem") {
+      const std::filesystem::path dem = requireString(v, o, key);
+      if (dem.empty()) throw configError(o, key, "path must not be empty");
+      const std::filesystem::path base = std::filesystem::path(o).parent_path();
+      cfg.dem = (dem.is_relative() && !base.empty() ? base / dem : dem).string();
     } else if (name == "connect") {
       cfg.connections = parseConnections(v, o, key);
     } else if (name == "default_split") {

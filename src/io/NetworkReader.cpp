@@ -13,6 +13,7 @@
 #include "reachwise/io/Gdal.hpp"
 #include "reachwise/io/LineLength.hpp"
 #include "reachwise/network/geos/LineParts.hpp"
+#include "reachwise/terrain/Dem.hpp"
 
 namespace reachwise::io {
 
@@ -261,6 +262,29 @@ std::vector<std::string> lineLayers(const std::string& source) {
   return lineLayerNames(*ds);
 }
 
+/// Line ends without Z take the DEM's elevation there; returns how many
+/// lines got both. An end outside the DEM or on nodata stays without Z
+/// (the line keeps its digitised direction), reported as `dem_nodata`.
+std::size_t endElevationsFromDem(ReachTable& table, const std::string& dem_path, ProblemList& problems) {
+  const terrain::Dem dem(dem_path);
+  std::size_t filled = 0;
+  for (auto& r : table.reaches) {
+    if (r.line.size() < 2 || (std::isfinite(r.line.front().z) && std::isfinite(r.line.back().z))) continue;
+    // The two ends only: a spacing longer than the line samples nothing between.
+    const std::vector<Point3> ends{r.line.front(), r.line.back()};
+    const auto samples = dem.profile(ends, 1.0, table.crs_wkt, 10.0);
+    if (samples.size() < 2 || !samples.front().valid || !samples.back().valid) {
+      problems.push_back(reachProblem(ProblemCode::DemNodata, r,
+                                      "an end of the line has no DEM elevation, so the DEM cannot orient it"));
+      continue;
+    }
+    r.line.front().z = samples.front().elevation_m;
+    r.line.back().z = samples.back().elevation_m;
+    ++filled;
+  }
+  return filled;
+}
+
 /// `[[network.connect]]` with topology from ids: the `from` reach, which
 /// must have no downstream reach, flows into the `to` reach.
 void connectByIds(ReachTable& table, const NetworkConfig& config, ProblemList& problems) {
@@ -335,6 +359,8 @@ ReachTable readNetwork(const std::string& source, const ReadOptions& options,
     topo.gaps_are_errors = config.gaps_are_errors;
     topo.unconnected = config.unconnected;
     topo.connections = config.connections;
+    if (!options.dem.empty() && config.orientation == network::geos::Orientation::Elevation)
+      summary.ends_from_dem = endElevationsFromDem(table, options.dem, problems);
     summary.topology_from_geometry = true;
     summary.snap_tolerance_m = topo.snap_tolerance_m;
     summary.gap_search_m = topo.gap_search_m;

@@ -42,12 +42,20 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
     read_options.config = io::NetworkConfig::fromFile(source.config);
   }
   read_options.layer = source.layer;
-  read_options.derive_attributes = source.derive_attributes;
+  const std::string dem = source.dem.empty() ? read_options.config.dem : source.dem;
+  if (!dem.empty()) requireExisting(dem);
+  read_options.derive_attributes = !dem.empty();
+  read_options.dem = dem;
   auto net = std::make_unique<LoadedNetwork>();
   net->source = source;
   net->config = read_options.config;
   net->table = io::readNetwork(source.path, read_options, net->problems, &net->read);
   net->graph.emplace(net->table, net->config.splits);
+  if (!dem.empty() && net->graph->topologicalOrder()) {
+    const io::PrepareConfig prepare =
+        source.config.empty() ? io::PrepareConfig{} : io::PrepareConfig::fromFile(source.config);
+    net->derived = deriveAttributes(*net, dem, prepare);
+  }
   network::mergeProblems(net->problems, network::validate(*net->graph));
   return net;
 }

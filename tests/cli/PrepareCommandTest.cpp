@@ -342,6 +342,62 @@ TEST(PrepareCommand, TheSampleDemGivesBackTheSampleSlopes) {
   EXPECT_LE(off, 6);
 }
 
+TEST(PrepareCommand, ADemInTheRunFileDerivesOnTheFlyForCheckAndRoute) {
+  // The same derivation as prepare, run by check and route when the run
+  // file names a DEM: plain.gpkg (ids only) is refused without it, checks
+  // clean with it, and routes to the same outlet peak as prepare + route.
+  const std::string sample = std::string(REACHWISE_SOURCE_DIR) + "/sample-network/";
+  const auto dir = testsupport::testScratchDir();
+  const std::string run = (dir / "dem_run.toml").string();
+  std::ofstream(run) << "[network]\ndem = \"" << sample << "dem.tif\"\n";
+  EXPECT_EQ(runReachwise(fmt::format("check {}plain.gpkg", sample)).code, 1);
+  const auto checked = runReachwise(fmt::format("check {}plain.gpkg --config {}", sample, run));
+  EXPECT_EQ(checked.code, 0) << checked.out << checked.err;
+
+  const std::string prepared = (dir / "prepared.gpkg").string(), direct = (dir / "direct.gpkg").string(),
+                    two_step = (dir / "two_step.gpkg").string();
+  for (const auto& f : {prepared, direct, two_step}) fs::remove(f);
+  ASSERT_EQ(runReachwise(fmt::format("prepare {}plain.gpkg --dem {}dem.tif --out {}", sample, sample, prepared)).code, 0);
+  const std::string inflow = sample + "inflow.csv";
+  const auto a = runReachwise(fmt::format("route {} --inflow {} --out {} --quiet", prepared, inflow, two_step));
+  ASSERT_EQ(a.code, 0) << a.err;
+  const auto b = runReachwise(
+      fmt::format("route {}plain.gpkg --config {} --inflow {} --out {} --quiet", sample, run, inflow, direct));
+  ASSERT_EQ(b.code, 0) << b.err;
+  const auto ra = readReaches(two_step, false), rb = readReaches(direct, false);
+  ASSERT_EQ(ra.size(), 41u);
+  ASSERT_EQ(rb.size(), 41u);
+  for (const auto& [id, f] : ra)
+    EXPECT_NEAR(rb.at(id)->GetFieldAsDouble("peak_q"), f->GetFieldAsDouble("peak_q"),
+                1e-9 * f->GetFieldAsDouble("peak_q")) << id;
+}
+
+TEST(PrepareCommand, ElevationOrientationTakesEndElevationsFromTheDem) {
+  // The plane falls to the east. "a" is digitised westwards (uphill) and
+  // meets "b", digitised eastwards, at x = 4 km: without Z both leave that
+  // node (two outlets); with the DEM's end elevations "a" is turned and
+  // flows into "b" (one outlet).
+  Case c;
+  fs::remove(c.network);
+  fixtures::Layer layer;
+  layer.fields = {{"reach_id", OFTString}};
+  const double y = kY0 - 5000;
+  layer.features.push_back({fmt::format("LINESTRING ({} {}, {} {})", kX0 + 4000, y, kX0 + 1000, y), {"a"}});
+  layer.features.push_back({fmt::format("LINESTRING ({} {}, {} {})", kX0 + 4000, y, kX0 + 7000, y), {"b"}});
+  fixtures::write(c.network, "GPKG", {layer});
+  const std::string with = (c.dir / "with_dem.toml").string(), without = (c.dir / "without_dem.toml").string();
+  std::ofstream(with) << "[network]\norientation = \"elevation\"\ndem = \"" << c.dem << "\"\n";
+  std::ofstream(without) << "[network]\norientation = \"elevation\"\n"
+                         << "[network.fields]\nslope = { default = 0.002 }\nmanning_n = { default = 0.035 }\n"
+                         << "bottom_width = { default = 5 }\n";
+  const auto r = runReachwise(fmt::format("check {} --config {}", c.network, with));
+  EXPECT_EQ(r.code, 0) << r.out << r.err;
+  EXPECT_NE(r.err.find("warning flipped_line a "), std::string::npos) << r.err;
+  EXPECT_EQ(testsupport::summaryValue(r.out, "outlets"), "1") << r.out;
+  const auto n = runReachwise(fmt::format("check {} --config {}", c.network, without));
+  EXPECT_EQ(testsupport::summaryValue(n.out, "outlets"), "2") << n.out << n.err;
+}
+
 TEST(PrepareCommand, UsageErrorsExitTwo) {
   EXPECT_EQ(runReachwise("prepare").code, 2);
   EXPECT_EQ(runReachwise("prepare net.gpkg --out x.gpkg").code, 2);  // no --dem

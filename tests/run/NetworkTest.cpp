@@ -38,7 +38,7 @@ struct Checked {
 
 Checked check(const std::string& path) {
   Checked c;
-  c.net = run::loadNetwork({path, "", ""});
+  c.net = run::loadNetwork({path, "", "", ""});
   c.summary = network::summarize(*c.net->graph);
   for (const auto& p : c.net->problems) c.err += run::problemLine(p) + "\n";
   return c;
@@ -239,19 +239,19 @@ TEST(LoadNetwork, GapIsReportedAtTheLooseEnd) {
 
 TEST(LoadNetwork, MissingFileAndMissingFieldAreNamed) {
   try {
-    run::loadNetwork({"/nonexistent/rivers_of_nowhere.gpkg", "", ""});
+    run::loadNetwork({"/nonexistent/rivers_of_nowhere.gpkg", "", "", ""});
     ADD_FAILURE() << "a missing file was read";
   } catch (const InputError& e) {
     EXPECT_EQ(e.where().file, "/nonexistent/rivers_of_nowhere.gpkg");
   }
   try {
-    run::loadNetwork({kSamples + "missing_field.gpkg", "", ""});
+    run::loadNetwork({kSamples + "missing_field.gpkg", "", "", ""});
     ADD_FAILURE() << "a layer without slope was read";
   } catch (const InputError& e) {
     EXPECT_NE(std::string(e.what()).find("missing_field.gpkg"), std::string::npos) << e.what();
     EXPECT_NE(std::string(e.what()).find("slope"), std::string::npos) << e.what();
   }
-  EXPECT_THROW(run::loadNetwork({kSamples + "network.gpkg", "no_such_layer", ""}), InputError);
+  EXPECT_THROW(run::loadNetwork({kSamples + "network.gpkg", "no_such_layer", "", ""}), InputError);
 }
 
 TEST(LoadNetwork, ProblemsGeoPackageHoldsProblemsAndNetwork) {
@@ -321,7 +321,7 @@ Checked checkWith(const std::string& path, const std::string& name, const std::s
   const auto config = (testsupport::testScratchDir() / name).string();
   std::ofstream(config) << toml;
   Checked c;
-  c.net = run::loadNetwork({path, "", config});
+  c.net = run::loadNetwork({path, "", config, ""});
   c.summary = network::summarize(*c.net->graph);
   for (const auto& p : c.net->problems) c.err += run::problemLine(p) + "\n";
   return c;
@@ -380,7 +380,7 @@ TEST(LoadNetwork, RunFileOverrideSetsTheSharesAndItsMistakesNameTheFileAndKey) {
   const auto config = (testsupport::testScratchDir() / "override_bad.toml").string();
   std::ofstream(config) << "[[network.split]]\nat = \"U\"\nshares = { A = 0.9, L = 0.1 }\n";
   try {
-    run::loadNetwork({path, "", config});
+    run::loadNetwork({path, "", config, ""});
     ADD_FAILURE() << "an override naming a reach that is no branch was accepted";
   } catch (const InputError& e) {
     EXPECT_EQ(e.where().file, config);

@@ -123,7 +123,7 @@ TEST(Route, NothingWrittenWhenNoOutputIsAskedFor) {
 TEST(Route, TheSameNetworkRoutesTwiceFromItsPiecesWithTheSameResult) {
   // What a calibration loop does: load once, bind the forcing once, route
   // many times; the router is deterministic (same inputs, same bits).
-  const auto net = run::loadNetwork({kSample + "network.gpkg", "", ""});
+  const auto net = run::loadNetwork({kSample + "network.gpkg", "", "", ""});
   const network::NetworkPlan plan = run::routablePlan(*net);
   const run::RunForcing forcing({kSample + "inflow.csv", kSample + "lateral.csv", std::nullopt}, plan);
   routing::NetworkRouteOptions options;
@@ -310,7 +310,7 @@ TEST(Route, BaseFlowAccumulatesToASteadyOutletFlow) {
   writeText(tmp.path() / "run.toml", "[network.fields]\nbase_flow = { default = 0.5 }\n");
   writeText(tmp.path() / "in.csv", "reach_id,time,discharge\nR12,2026-05-01T00:00:00Z,0\nR12,2026-05-01T12:00:00Z,0\n");
   run::RouteRequest request;
-  request.network = {kSample + "network.gpkg", "", tmp.file("run.toml")};
+  request.network = {kSample + "network.gpkg", "", tmp.file("run.toml"), ""};
   request.forcing = {tmp.file("in.csv"), "", 1800.0};
   Capture capture;
   request.sinks = {&capture};
@@ -348,7 +348,7 @@ TEST(Route, WriteBackRunsAgainOnTheSameFile) {
   EXPECT_NO_THROW(run::route(request));
   EXPECT_EQ(peaks(copy, "rw_reaches").size(), 41u);
   EXPECT_EQ(hydrographs(copy, "rw_hydrographs").size(), 41u);
-  EXPECT_FALSE(run::loadNetwork({copy.string(), "", ""})->hasErrors());
+  EXPECT_FALSE(run::loadNetwork({copy.string(), "", "", ""})->hasErrors());
 }
 
 TEST(Route, ANetworkWithErrorsIsRefusedWithItsProblems) {

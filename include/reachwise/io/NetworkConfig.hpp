@@ -64,6 +64,11 @@ struct NetworkConfig {
   /// `[[network.split]]` tables; `origin` names this file. Checked against
   /// the network when the graph is built (network::resolveSplits).
   network::SplitRules splits;
+  /// `dem`: a DEM (any GDAL raster; a relative path is taken from the run
+  /// file's folder) to derive bed slopes and channel sections from
+  /// (run::deriveAttributes), and, with orientation "elevation", the end
+  /// elevations of lines without Z. Empty: none.
+  std::string dem;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 

@@ -22,6 +22,10 @@ struct ReadOptions {
   /// defaults for them are not applied. Values in the layer (and slopes
   /// from the elevation fields) are still read.
   bool derive_attributes = false;
+  /// A DEM: with topology from geometry and orientation "elevation", line
+  /// ends without Z take the DEM's elevation there (bilinear), so lines
+  /// without Z can be oriented downhill. Empty: none.
+  std::string dem;
 };
 
 /// What the reader did, for the CLI's report.
@@ -32,6 +36,7 @@ struct ReadSummary {
   double snap_tolerance_m = 0;     ///< metres, when topology came from geometry
   double gap_search_m = 0;         ///< metres, when topology came from geometry
   network::geos::TopologySummary topology;
+  std::size_t ends_from_dem = 0;   ///< lines whose end elevations came from ReadOptions::dem
 };
 
 /// Reads the network layer of `source` (a path or connection string GDAL

@@ -12,6 +12,7 @@
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"
+#include "reachwise/run/Derive.hpp"
 
 namespace reachwise::run {
 
@@ -20,8 +21,10 @@ struct NetworkSource {
   std::string path;     ///< any path or connection string GDAL opens as vector data
   std::string layer;    ///< empty: the config's layer, else the only line layer
   std::string config;   ///< TOML run file with the `[network]` table; empty: defaults
-  /// Channel attributes come from elsewhere (`prepare`): io::ReadOptions::derive_attributes.
-  bool derive_attributes = false;
+  /// A DEM (any GDAL raster) to derive the channel attributes from
+  /// (deriveAttributes; the layer may lack them, io::ReadOptions::derive_attributes);
+  /// overrides `[network] dem`. Empty: the run file's, if any.
+  std::string dem;
 };
 
 /// A network as read and validated. Not movable: `graph` refers to `table`.
@@ -32,6 +35,9 @@ struct LoadedNetwork {
   io::ReadSummary read;
   network::ProblemList problems;  ///< the reader's and the graph's, without repeats
   std::optional<network::ReachGraph> graph;
+  /// With a DEM: what was derived and where each value came from (unset
+  /// when the network has a cycle, which has no flow order to derive along).
+  std::optional<Derivation> derived;
 
   LoadedNetwork() = default;
   LoadedNetwork(const LoadedNetwork&) = delete;
@@ -57,7 +63,9 @@ private:
 /// plainer message than GDAL's.
 void requireExisting(const std::string& source);
 
-/// Reads `source`, builds the reach graph and validates it. Problems with
+/// Reads `source`, builds the reach graph, derives the channel attributes
+/// when a DEM is given (`source.dem` or `[network] dem`, with the run file's
+/// `[prepare]` table) and validates it. Problems with
 /// single features go into the result; a source that cannot be read at
 /// all throws reachwise::InputError naming the file (and layer / field).
 std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source);

@@ -10,6 +10,7 @@
 #include <string>
 
 #include "reachwise/network/Problem.hpp"
+#include "reachwise/run/Derive.hpp"
 #include "reachwise/run/Network.hpp"
 
 namespace reachwise::run {
@@ -21,21 +22,9 @@ struct PrepareRequest {
   bool overwrite = false; ///< replace an existing `out`
 };
 
-struct PrepareSummary {
+struct PrepareSummary : DerivationSummary {
   std::size_t reaches = 0;
-  std::size_t slope_from_dem = 0;
-  std::size_t slope_from_field = 0;
-  std::size_t slope_from_default = 0;
-  std::size_t slope_missing = 0;     ///< no field, no DEM value, no default (an error each)
-  std::size_t floored = 0;           ///< DEM slopes raised to the minimum (among slope_from_dem)
-  std::size_t interpolated = 0;      ///< reaches without DEM profile, elevations from neighbours
-  std::size_t with_nodata = 0;       ///< reaches with at least one invalid DEM sample
-  double min_slope = 0, max_slope = 0;  ///< of the slopes written (NaN when none)
-  std::size_t width_from_geometry = 0;  ///< bottom widths from the hydraulic-geometry power laws
-  std::size_t width_from_field = 0;     ///< bottom widths kept from the layer
-  double min_width_m = std::numeric_limits<double>::quiet_NaN();  ///< of the bottom widths written
-  double max_width_m = std::numeric_limits<double>::quiet_NaN();
-  network::ProblemList problems;     ///< the reader's, the graph's and the DEM's
+  network::ProblemList problems;     ///< the reader's, the graph's and the derivation's
   bool hasErrors() const { return network::hasErrors(problems); }
 };
 
