@@ -41,6 +41,10 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {SplitUnused,             "split_unused",              W, false, "split on a reach that is not a branch of a bifurcation"},
   {Basin,                   "basin",                     I, false, "one of several basins of a layer, with its outlet(s)"},
   {SplitAssumed,            "split_assumed",             W, false, "a bifurcation without split values got shares by the default rule (default_split)"},
+  {LakePiece,               "lake_piece",                W, false, "a reach with both ends on or inside a lake (dropped when the lake is routed)"},
+  {TerminalLake,            "terminal_lake",             I, false, "a lake with no outflowing reach: a terminal sink"},
+  {LakeWithoutInflow,       "lake_without_inflow",       W, false, "a lake no reach flows into"},
+  {LakeOverlap,             "lake_overlap",              E, false, "a reach end on or inside several lakes"},
 }};
 // clang-format on
 

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <filesystem>
 
+#include "reachwise/io/LakeReader.hpp"
 #include "reachwise/io/ProblemsWriter.hpp"
 #include "reachwise/network/Validation.hpp"
 
@@ -48,6 +49,22 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
   net->table = io::readNetwork(source.path, read_options, net->problems, &net->read);
   net->graph.emplace(net->table, net->config.splits);
   network::mergeProblems(net->problems, network::validate(*net->graph));
+  const std::string lakes = !source.lakes.empty() ? source.lakes : net->config.lakes;
+  if (!lakes.empty()) {
+    requireExisting(lakes);
+    io::LakeReadOptions lake_options;
+    lake_options.layer = !source.lakes_layer.empty() ? source.lakes_layer : net->config.lakes_layer;
+    lake_options.network_crs_wkt = net->table.crs_wkt;
+    lake_options.length_unit_m = net->config.length_unit_m;
+    net->lakes = io::readLakes(lakes, lake_options);
+    if (!net->hasErrors()) {
+      net->lake_plan = net->graph->freeze();
+      const double tolerance = net->config.snap_tolerance_m / net->lakes->metres_per_unit;
+      network::ProblemList found;
+      net->lake_links = network::linkLakes(*net->lake_plan, *net->lakes, tolerance, found);
+      network::mergeProblems(net->problems, std::move(found));
+    }
+  }
   return net;
 }
 
@@ -68,6 +85,11 @@ void writeProblems(const std::string& out, const LoadedNetwork& net) {
 
 network::NetworkPlan routablePlan(const LoadedNetwork& net) {
   if (net.hasErrors()) throw NetworkHasErrors(net.problems);
+  if (net.lakes) {
+    InputLocation at;
+    at.file = net.lakes->source;
+    throw InputError(at, "lakes are read and linked to the network (reachwise check), but not routed yet");
+  }
   return net.graph->freeze();
 }
 

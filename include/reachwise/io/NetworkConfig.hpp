@@ -64,6 +64,10 @@ struct NetworkConfig {
   /// `[[network.split]]` tables; `origin` names this file. Checked against
   /// the network when the graph is built (network::resolveSplits).
   network::SplitRules splits;
+  /// `lakes`: a polygon source of lakes and reservoirs (a path relative to
+  /// the run file's folder, or a connection string); empty: none.
+  /// `lakes_layer`: its layer; empty: the only polygon layer.
+  std::string lakes, lakes_layer;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 

@@ -54,10 +54,15 @@ enum class ProblemCode : std::uint8_t {
   BifurcationSplitSum,
   SplitUnused,
   Basin,
-  SplitAssumed,  ///< the last code
+  SplitAssumed,
+  // lakes (linkLakes)
+  LakePiece,
+  TerminalLake,
+  LakeWithoutInflow,
+  LakeOverlap,  ///< the last code
 };
 
-inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SplitAssumed) + 1;
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::LakeOverlap) + 1;
 
 /// One row of the code table.
 struct ProblemKind {

@@ -9,6 +9,7 @@
 
 #include "reachwise/Error.hpp"
 #include "reachwise/io/NetworkReader.hpp"
+#include "reachwise/network/Lakes.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"
@@ -20,6 +21,8 @@ struct NetworkSource {
   std::string path;     ///< any path or connection string GDAL opens as vector data
   std::string layer;    ///< empty: the config's layer, else the only line layer
   std::string config;   ///< TOML run file with the `[network]` table; empty: defaults
+  std::string lakes = {};  ///< polygon source of lakes; empty: the config's `lakes` (if any)
+  std::string lakes_layer = {};  ///< empty: the config's `lakes_layer`, else the only polygon layer
 };
 
 /// A network as read and validated. Not movable: `graph` refers to `table`.
@@ -30,6 +33,12 @@ struct LoadedNetwork {
   io::ReadSummary read;
   network::ProblemList problems;  ///< the reader's and the graph's, without repeats
   std::optional<network::ReachGraph> graph;
+  /// Lakes, when a lakes source was given, and which reaches meet each
+  /// (`lake_links`, indices into `lake_plan`; both empty when the network
+  /// has errors, as it cannot be put in order then).
+  std::optional<network::LakeTable> lakes;
+  std::optional<network::NetworkPlan> lake_plan;
+  std::vector<network::LakeLinks> lake_links;
 
   LoadedNetwork() = default;
   LoadedNetwork(const LoadedNetwork&) = delete;
@@ -70,7 +79,8 @@ std::string problemLine(const network::Problem& p);
 void writeProblems(const std::string& out, const LoadedNetwork& net);
 
 /// The plan routing runs on. Throws NetworkHasErrors when the network has
-/// errors.
+/// errors, and InputError naming the lakes source when lakes were given
+/// (lakes are read and linked by `check`, not routed yet).
 network::NetworkPlan routablePlan(const LoadedNetwork& net);
 
 }  // namespace reachwise::run
