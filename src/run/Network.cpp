@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 
@@ -57,6 +58,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
     lake_options.network_crs_wkt = net->table.crs_wkt;
     lake_options.length_unit_m = net->config.length_unit_m;
     net->lakes = io::readLakes(lakes, lake_options);
+    for (const auto& lake : net->lakes->lakes) net->lake_pools.push_back(lake.levelPool());
     if (!net->hasErrors()) {
       net->lake_plan = net->graph->freeze();
       const double tolerance = net->config.snap_tolerance_m / net->lakes->metres_per_unit;
@@ -85,12 +87,43 @@ void writeProblems(const std::string& out, const LoadedNetwork& net) {
 
 network::NetworkPlan routablePlan(const LoadedNetwork& net) {
   if (net.hasErrors()) throw NetworkHasErrors(net.problems);
-  if (net.lakes) {
+  return net.graph->freeze();
+}
+
+std::vector<const routing::LevelPool*> lakesAtTop(const LoadedNetwork& net, const network::NetworkPlan& plan) {
+  std::vector<const routing::LevelPool*> at_top;
+  if (!net.lakes) return at_top;
+  REACHWISE_ASSERT(net.lake_plan && net.lake_plan->size() == plan.size());
+  at_top.assign(plan.size(), nullptr);
+  const auto& lp = *net.lake_plan;
+  for (std::size_t l = 0; l < net.lakes->lakes.size(); ++l) {
+    const auto& links = net.lake_links[l];
     InputLocation at;
     at.file = net.lakes->source;
-    throw InputError(at, "lakes are read and linked to the network (reachwise check), but not routed yet");
+    at.layer = net.lakes->layer;
+    at.fid = net.lakes->lakes[l].fid;
+    at.lake_id = net.lakes->lakes[l].lake_id;
+    const auto refuse = [&](const std::string& why) {
+      throw InputError(at, why + "; only a lake on a node of the network (one outflowing reach, the reaches "
+                                 "joined to its top flowing in, none inside) is routed so far");
+    };
+    if (links.outflow.empty()) refuse("a terminal lake is not routed yet");
+    if (links.outflow.size() > 1) refuse("a lake with several outflowing reaches is not routed yet");
+    if (!links.inside.empty()) refuse("a lake with reaches inside it is not routed yet");
+    const std::uint32_t o = links.outflow.front();
+    std::vector<std::uint32_t> ups(lp.up_reach.begin() + lp.up_offset[o], lp.up_reach.begin() + lp.up_offset[o + 1]);
+    std::vector<std::uint32_t> in = links.inflow;
+    std::sort(ups.begin(), ups.end());
+    std::sort(in.begin(), in.end());
+    if (ups != in)
+      refuse(fmt::format("its inflowing reaches are not the reaches the network joins to the top of {}",
+                         lp.reach_id[o]));
+    // The same reach in `plan` (frozen from the same graph: same order).
+    REACHWISE_ASSERT(plan.reach_id[o] == lp.reach_id[o]);
+    if (at_top[o]) refuse(fmt::format("reach {} starts on two lakes", lp.reach_id[o]));
+    at_top[o] = &net.lake_pools[l];
   }
-  return net.graph->freeze();
+  return at_top;
 }
 
 }  // namespace reachwise::run

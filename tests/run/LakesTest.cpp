@@ -19,6 +19,7 @@
 #include "reachwise/io/LakeReader.hpp"
 #include "reachwise/network/Lakes.hpp"
 #include "reachwise/run/Network.hpp"
+#include "reachwise/run/Route.hpp"
 #include "support/Scratch.hpp"
 
 using namespace reachwise;
@@ -320,7 +321,55 @@ TEST(Lakes, LoadedWithTheSampleNetwork) {
   EXPECT_TRUE(terminal_reported);
   EXPECT_TRUE(piece_reported);
   EXPECT_FALSE(net->hasErrors());
-  // Routing refuses lakes for now, naming the lakes source.
-  const std::string refused = errorOf([&] { run::routablePlan(*net); });
-  EXPECT_TRUE(contains(refused, "lakes.gpkg") && contains(refused, "not routed yet")) << refused;
+  // Routing takes lakes on a node only: the terminal lake is refused,
+  // naming the lakes file and the lake.
+  const auto routable = run::routablePlan(*net);
+  const std::string refused = errorOf([&] { run::lakesAtTop(*net, routable); });
+  EXPECT_TRUE(contains(refused, "lakes.gpkg") && contains(refused, "lake end") &&
+              contains(refused, "terminal lake is not routed yet"))
+      << refused;
+}
+
+// Routing the sample storm through a weir lake on the node where R2 flows
+// into R1: the lake takes R2's outflow, R1 takes the lake's outflow (lower
+// and later), and the network's volume still balances.
+TEST(Lakes, RouteTakesALakeOnANode) {
+  testsupport::TempDir dir;
+  const std::string sample = REACHWISE_SOURCE_DIR "/sample-network/";
+  run::RouteRequest request;
+  request.network.path = kNetwork;
+  request.forcing.inflow = sample + "inflow.csv";
+  request.forcing.lateral = sample + "lateral.csv";
+  const run::RouteSummary plain = run::route(request);
+
+  const std::string path = (dir.path() / "lakes.gpkg").string();
+  writeLakes(path, {{"Upper", square({511926.51, 5181963.78}, 150), {{"crest_level_m", 210}, {"weir_length_m", 10}}, {}}},
+             networkSrs().get());
+  request.network.lakes = path;
+  const run::RouteSummary s = run::route(request);
+  const auto& plan = s.plan;
+  const auto index = [&](const std::string& id) {
+    return static_cast<std::size_t>(std::find(plan.reach_id.begin(), plan.reach_id.end(), id) - plan.reach_id.begin());
+  };
+  const std::size_t r1 = index("R1"), r2 = index("R2");
+  ASSERT_LT(r1, plan.size());
+  ASSERT_EQ(s.lakes.size(), plan.size());
+  ASSERT_TRUE(s.lakes[r1].routed);
+  for (std::size_t i = 0; i < plan.size(); ++i) EXPECT_EQ(s.lakes[i].routed, i == r1) << i;
+  const auto& lake = s.lakes[r1];
+  const double in_peak = *std::max_element(lake.inflow_m3s.begin(), lake.inflow_m3s.end());
+  const double out_peak = *std::max_element(lake.result.outflow_m3s.begin(), lake.result.outflow_m3s.end());
+  // The lake's inflow is R2's outflow, whose peak the results carry
+  // (interpolated between samples: at least the highest sample).
+  EXPECT_GE(s.results.reaches[r2].peak_q_m3s, in_peak * (1 - 1e-12));
+  EXPECT_LT(out_peak, in_peak);
+  EXPECT_LT(s.results.reaches[r1].peak_q_m3s, plain.results.reaches[r1].peak_q_m3s);
+  EXPECT_LT(std::abs(lake.result.volume_error_m3), 1e-9 * lake.result.volume_in_m3);
+  // The network balance with the lake holds as well as without it (vpmc, 1 %).
+  EXPECT_LT(std::abs(s.results.volume.error_pct), 1.0);
+  EXPECT_NEAR(s.results.volume.error_pct, plain.results.volume.error_pct, 0.05);
+  std::printf("sample with lake Upper: R1 peak %.3f -> %.3f m3/s, lake in %.3f out %.3f, volume error %.4f %% (%.4f %% "
+              "without)\n",
+              plain.results.reaches[r1].peak_q_m3s, s.results.reaches[r1].peak_q_m3s, in_peak, out_peak,
+              s.results.volume.error_pct, plain.results.volume.error_pct);
 }

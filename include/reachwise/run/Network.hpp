@@ -39,6 +39,8 @@ struct LoadedNetwork {
   std::optional<network::LakeTable> lakes;
   std::optional<network::NetworkPlan> lake_plan;
   std::vector<network::LakeLinks> lake_links;
+  /// One level-pool lake per lake record (checked when read).
+  std::vector<routing::LevelPool> lake_pools;
 
   LoadedNetwork() = default;
   LoadedNetwork(const LoadedNetwork&) = delete;
@@ -79,8 +81,15 @@ std::string problemLine(const network::Problem& p);
 void writeProblems(const std::string& out, const LoadedNetwork& net);
 
 /// The plan routing runs on. Throws NetworkHasErrors when the network has
-/// errors, and InputError naming the lakes source when lakes were given
-/// (lakes are read and linked by `check`, not routed yet).
+/// errors.
 network::NetworkPlan routablePlan(const LoadedNetwork& net);
+
+/// The lake at the top of each reach of `plan` (by plan index; empty when
+/// no lakes were given). Routed so far: a lake on a node of the network,
+/// i.e. with exactly one outflowing reach, nothing inside, and inflowing
+/// reaches that are exactly the reaches the topology joins to the top of
+/// that reach. Any other lake throws InputError naming the lakes file,
+/// the lake and what is missing (no lake is ever skipped silently).
+std::vector<const routing::LevelPool*> lakesAtTop(const LoadedNetwork& net, const network::NetworkPlan& plan);
 
 }  // namespace reachwise::run
