@@ -253,6 +253,7 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
         if (!std::isfinite(pt.x) || !std::isfinite(pt.y)) throw InputError(at, "a vertex is not finite");
     if (lake.rings.empty()) throw InputError(at, "the polygon has no ring of three or more vertices");
     lake.area_m2 = area;
+    lake.wkt = linear->exportToWkt();
 
     // The outflow rule: exactly one of weir, table, linear reservoir.
     const auto crest = number(*feature, "crest_level_m", at);

@@ -3,6 +3,7 @@
 #include <chrono>
 #include <cmath>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -89,6 +90,15 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   summary.info = runInfo(request, summary.results);
   outputs.commit(summary.results, summary.info);
   summary.gpkg = outputs.geopackage();
+  if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
+    std::vector<io::LakeOutput> rows;
+    for (std::size_t i = 0; i < summary.lakes.size(); ++i)
+      if (summary.lakes[i].routed) {
+        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
+        rows.push_back({&net.lakes->lakes[k], plan.reach_id[i], &summary.lakes[i]});
+      }
+    io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), rows);
+  }
   return summary;
 }
 

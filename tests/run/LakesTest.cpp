@@ -346,6 +346,7 @@ TEST(Lakes, RouteTakesALakeOnANode) {
   writeLakes(path, {{"Upper", square({511926.51, 5181963.78}, 150), {{"crest_level_m", 210}, {"weir_length_m", 10}}, {}}},
              networkSrs().get());
   request.network.lakes = path;
+  request.outputs.gpkg = (dir.path() / "out.gpkg").string();
   const run::RouteSummary s = run::route(request);
   const auto& plan = s.plan;
   const auto index = [&](const std::string& id) {
@@ -368,6 +369,32 @@ TEST(Lakes, RouteTakesALakeOnANode) {
   // The network balance with the lake holds as well as without it (vpmc, 1 %).
   EXPECT_LT(std::abs(s.results.volume.error_pct), 1.0);
   EXPECT_NEAR(s.results.volume.error_pct, plain.results.volume.error_pct, 0.05);
+  // The results' lakes layer: one polygon with the lake's figures.
+  {
+    GDALDatasetUniquePtr out(GDALDataset::Open(request.outputs.gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+    ASSERT_TRUE(out);
+    OGRLayer* layer = out->GetLayerByName("lakes");
+    ASSERT_NE(layer, nullptr);
+    ASSERT_EQ(layer->GetFeatureCount(), 1);
+    std::unique_ptr<OGRFeature> f(layer->GetNextFeature());
+    EXPECT_STREQ(f->GetFieldAsString("lake_id"), "Upper");
+    EXPECT_STREQ(f->GetFieldAsString("reach_id"), "R1");
+    const double qin = f->GetFieldAsDouble("inflow_peak_m3s"), qout = f->GetFieldAsDouble("outflow_peak_m3s");
+    // Interpolated peaks: at least the highest sample, and near it.
+    EXPECT_GE(qin, in_peak * (1 - 1e-12));
+    EXPECT_LT(qin, in_peak * 1.02);
+    EXPECT_GE(qout, out_peak * (1 - 1e-12));
+    EXPECT_LT(qout, out_peak * 1.02);
+    EXPECT_NEAR(f->GetFieldAsDouble("attenuation_pct"), 100 * (1 - qout / qin), 1e-9);
+    EXPECT_GT(f->GetFieldAsDouble("lag_h"), 0.0);
+    EXPECT_GT(f->GetFieldAsDouble("peak_level_m"), 210.0);
+    EXPECT_NEAR(f->GetFieldAsDouble("volume_in_m3"), lake.result.volume_in_m3, 1e-6 * lake.result.volume_in_m3);
+    EXPECT_LT(std::abs(f->GetFieldAsDouble("volume_error_m3")), 1e-9 * lake.result.volume_in_m3);
+    const OGRGeometry* g = f->GetGeometryRef();
+    ASSERT_NE(g, nullptr);
+    EXPECT_NEAR(g->toMultiPolygon()->get_Area(), 300.0 * 300.0, 1e-3);
+    EXPECT_FALSE(f->IsFieldNull(f->GetFieldIndex("outflow_peak_time")));
+  }
   std::printf("sample with lake Upper: R1 peak %.3f -> %.3f m3/s, lake in %.3f out %.3f, volume error %.4f %% (%.4f %% "
               "without)\n",
               plain.results.reaches[r1].peak_q_m3s, s.results.reaches[r1].peak_q_m3s, in_peak, out_peak,

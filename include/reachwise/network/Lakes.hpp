@@ -22,6 +22,7 @@ struct LakeRecord {
   std::string lake_id;
   std::int64_t fid = -1;                    ///< source feature id
   std::vector<std::vector<Point2>> rings;
+  std::string wkt;                          ///< the polygon(s) as read (WKT), for outputs
   double area_m2 = 0;                       ///< of the polygon (prismatic level–storage)
   routing::OutflowRule rule;
   std::optional<double> initial_level_m;
