@@ -5,6 +5,8 @@
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <map>
+#include <set>
 
 #include "reachwise/io/LakeReader.hpp"
 #include "reachwise/io/ProblemsWriter.hpp"
@@ -20,6 +22,48 @@ std::size_t countErrors(const network::ProblemList& problems) {
   std::size_t n = 0;
   for (const auto& p : problems) n += p.severity == network::Severity::Error;
   return n;
+}
+
+/// Re-wires the table so that every lake with one outflowing reach sits on
+/// a node: the reaches lying inside it are dropped (their `lake_piece`
+/// problems list them), and every inflowing reach, and any reach that
+/// flowed into a dropped one, flows into the outflowing reach. Returns
+/// whether anything changed. Lakes with no or several outflowing reaches
+/// are left as they are (routing refuses them by name).
+bool joinThroughLakes(LoadedNetwork& net) {
+  const auto& plan = *net.lake_plan;
+  std::set<std::uint32_t> drop;                     // table records
+  std::map<std::string, std::string> into;           // dropped reach id -> the outflowing reach id
+  std::map<std::uint32_t, std::string> redirect;     // table record -> new to_reach
+  for (const auto& links : net.lake_links) {
+    if (links.outflow.size() != 1) continue;
+    const std::string& out = plan.reach_id[links.outflow.front()];
+    for (const auto r : links.inside) {
+      drop.insert(plan.record[r]);
+      into[plan.reach_id[r]] = out;
+    }
+    for (const auto r : links.inflow) {
+      const auto& rec = net.table.reaches[plan.record[r]];
+      if (rec.to_reach.value_or("") != out) redirect[plan.record[r]] = out;
+    }
+  }
+  bool changed = !drop.empty() || !redirect.empty();
+  for (auto& [record, out] : redirect) net.table.reaches[record].to_reach = out;
+  if (!into.empty())
+    for (std::size_t k = 0; k < net.table.reaches.size(); ++k) {
+      auto& rec = net.table.reaches[k];
+      if (drop.count(static_cast<std::uint32_t>(k)) || !rec.to_reach) continue;
+      const auto it = into.find(*rec.to_reach);
+      if (it != into.end()) rec.to_reach = it->second;
+    }
+  if (!drop.empty()) {
+    std::vector<network::ReachRecord> kept;
+    kept.reserve(net.table.reaches.size() - drop.size());
+    for (std::size_t k = 0; k < net.table.reaches.size(); ++k)
+      if (!drop.count(static_cast<std::uint32_t>(k))) kept.push_back(std::move(net.table.reaches[k]));
+    net.table.reaches = std::move(kept);
+  }
+  return changed;
 }
 
 }  // namespace
@@ -65,6 +109,19 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
       network::ProblemList found;
       net->lake_links = network::linkLakes(*net->lake_plan, *net->lakes, tolerance, found);
       network::mergeProblems(net->problems, std::move(found));
+      if (!net->hasErrors() && joinThroughLakes(*net)) {
+        // The graph again, on the re-wired table: lakes now sit on nodes.
+        net->graph.emplace(net->table, net->config.splits);
+        network::mergeProblems(net->problems, network::validate(*net->graph));
+        if (!net->hasErrors()) {
+          net->lake_plan = net->graph->freeze();
+          network::ProblemList again;
+          net->lake_links = network::linkLakes(*net->lake_plan, *net->lakes, tolerance, again);
+        } else {
+          net->lake_plan.reset();
+          net->lake_links.clear();
+        }
+      }
     }
   }
   return net;

@@ -66,7 +66,10 @@ private:
 /// plainer message than GDAL's.
 void requireExisting(const std::string& source);
 
-/// Reads `source`, builds the reach graph and validates it. Problems with
+/// Reads `source`, builds the reach graph and validates it. With lakes,
+/// attaches reaches to them by geometry and joins the network across every
+/// lake with one outflowing reach (reaches inside dropped, inflowing reaches
+/// flowing into the outflowing one; docs/formats.md, "Lakes"). Problems with
 /// single features go into the result; a source that cannot be read at
 /// all throws reachwise::InputError naming the file (and layer / field).
 std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source);
