@@ -14,6 +14,7 @@ std::string InputLocation::describe() const {
   if (line) add("line " + std::to_string(*line));
   if (fid) add("feature " + std::to_string(*fid));
   if (!reach_id.empty()) add("reach " + reach_id);
+  if (!lake_id.empty()) add("lake " + lake_id);
   if (!field.empty()) add("field " + field);
   if (!time.empty()) add("time " + time);
   return out;

@@ -73,9 +73,37 @@ void printSummary(std::ostream& out, const network::ReachTable& table,
              problems.size() - errors - warnings, problems.size() - errors - warnings == 1 ? "" : "s");
 }
 
+std::string reachList(const network::NetworkPlan& plan, const std::vector<std::uint32_t>& reaches) {
+  std::string out;
+  for (const auto r : reaches) out += (out.empty() ? "" : ", ") + plan.reach_id[r];
+  return out.empty() ? "-" : out;
+}
+
+/// `lakes` and one line per lake: the reaches flowing in and out, and those
+/// lying inside (dropped when lakes are routed).
+void printLakes(std::ostream& out, const run::LoadedNetwork& net) {
+  const auto& lakes = *net.lakes;
+  fmt::print(out, "lakes          {} (layer {} of {})\n", lakes.lakes.size(), lakes.layer, lakes.source);
+  if (!net.lake_plan) {
+    fmt::print(out, "               not linked: the network has errors\n");
+    return;
+  }
+  for (std::size_t l = 0; l < lakes.lakes.size(); ++l) {
+    const auto& links = net.lake_links[l];
+    fmt::print(out, "lake {}  area {:.4g} km2, in: {}; out: {}{}{}\n", lakes.lakes[l].lake_id,
+               lakes.lakes[l].area_m2 / 1e6, reachList(*net.lake_plan, links.inflow),
+               reachList(*net.lake_plan, links.outflow), links.terminal() ? " (terminal sink)" : "",
+               links.inside.empty() ? std::string() : "; inside: " + reachList(*net.lake_plan, links.inside));
+  }
+}
+
 int check(const CheckOptions& options, std::ostream& out, std::ostream& err) {
-  const auto net = run::loadNetwork({options.network, options.layer, options.config, ""});
+  run::NetworkSource source{options.network, options.layer, options.config, ""};
+  source.lakes = options.lakes;
+  source.lakes_layer = options.lakes_layer;
+  const auto net = run::loadNetwork(source);
   printSummary(out, net->table, network::summarize(*net->graph), net->read, net->problems);
+  if (net->lakes) printLakes(out, *net);
   for (const auto& p : net->problems) fmt::print(err, "{}\n", run::problemLine(p));
   if (!options.problems.empty()) {
     run::writeProblems(options.problems, *net);
@@ -97,6 +125,9 @@ void addCheckCommand(CLI::App& app, Runner& chosen) {
       ->required();
   sub->add_option("--layer", options->layer, "Layer name (default: the only line layer)");
   sub->add_option("--config", options->config, "TOML run file with field mappings and defaults");
+  sub->add_option("--lakes", options->lakes,
+                  "Lakes and reservoirs: a polygon source (fields in docs/formats.md, \"Lakes\")");
+  sub->add_option("--lakes-layer", options->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
   sub->add_option("--problems", options->problems,
                   "Write a GeoPackage with the problems (points) and the network as built (lines)");
   sub->callback([&chosen, options] {

@@ -16,6 +16,8 @@ struct CheckOptions {
   std::string layer;     ///< empty: the only line layer
   std::string config;    ///< TOML run file, empty: defaults
   std::string problems;  ///< GeoPackage to write, empty: none
+  std::string lakes = {};  ///< polygon source of lakes, empty: the config's (if any)
+  std::string lakes_layer = {};
 };
 
 /// Runs the check; summary to `out`, problems (one per line) to `err`.

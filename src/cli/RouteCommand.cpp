@@ -29,6 +29,7 @@ namespace fs = std::filesystem;
 struct RouteOptions {
   std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report;
   std::string hydrographs = "auto";
+  std::string lakes, lakes_layer;
   std::optional<double> dt_s;   ///< unset: the forcing's own step
   double diffusion_below = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;
@@ -97,6 +98,8 @@ private:
 run::RouteRequest requestOf(const RouteOptions& o) {
   run::RouteRequest r;
   r.network = {o.network, o.layer, o.config, ""};
+  r.network.lakes = o.lakes;
+  r.network.lakes_layer = o.lakes_layer;
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
   r.forcing.dt_s = o.dt_s;
@@ -183,6 +186,9 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
                                   "CSV or NetCDF of discharge entering at the top of named reaches");
   sub->add_option("--lateral", o->lateral, "CSV or NetCDF of lateral inflow along named reaches");
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
+  sub->add_option("--lakes", o->lakes,
+                  "Lakes and reservoirs: a polygon source (fields in docs/formats.md, \"Lakes\")");
+  sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
   sub->add_option("--config", o->config,
                   "TOML run file: field mappings and defaults ([network]), any of these options ([route])");
   sub->add_option("--method", o->method,

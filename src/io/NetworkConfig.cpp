@@ -205,6 +205,16 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
     const std::string_view name = k.str();
     if (name == "layer") {
       cfg.layer = requireString(v, o, key);
+    } else if (name == "lakes") {
+      cfg.lakes = requireString(v, o, key);
+      if (cfg.lakes.empty()) throw configError(o, key, "must not be empty");
+      // A plain relative path is taken from the run file's folder.
+      const std::filesystem::path p(cfg.lakes);
+      if (p.is_relative() && cfg.lakes.find(':') == std::string::npos && !o.empty() &&
+          std::filesystem::path(o).has_parent_path())
+        cfg.lakes = (std::filesystem::path(o).parent_path() / p).string();
+    } else if (name == "lakes_layer") {
+      cfg.lakes_layer = requireString(v, o, key);
     } else if (name == "units") {
       cfg.units = parseUnits(requireString(v, o, key), o);
     } else if (name == "length_unit") {

@@ -45,6 +45,10 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {DemNodata,               "dem_nodata",                W, false, "part or all of a reach has no DEM data (nodata or outside the raster), with the valid fraction"},
   {DemProfileRise,          "dem_profile_rise",          W, false, "the fitted DEM profile of a reach rises downstream by more than prepare.rise_threshold_m"},
   {SlopeFloored,            "slope_floored",             I, false, "a bed slope from the DEM was raised to prepare.min_slope"},
+  {LakePiece,               "lake_piece",                W, false, "a reach with both ends on or inside a lake (dropped when the lake is routed)"},
+  {TerminalLake,            "terminal_lake",             I, false, "a lake with no outflowing reach: a terminal sink"},
+  {LakeWithoutInflow,       "lake_without_inflow",       W, false, "a lake no reach flows into"},
+  {LakeOverlap,             "lake_overlap",              E, false, "a reach end on or inside several lakes"},
 }};
 // clang-format on
 

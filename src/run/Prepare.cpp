@@ -11,6 +11,13 @@ PrepareSummary prepare(const PrepareRequest& request) {
   NetworkSource source = request.network;
   source.dem = request.dem;
   const auto net = loadNetwork(source);
+  if (net->lakes) {
+    // The lines are written as built; lakes join the network when routed.
+    InputLocation at;
+    at.file = request.network.config;
+    at.field = "network.lakes";
+    throw InputError(at, "prepare writes the lines as they are; give the lakes to route on the prepared layer");
+  }
   if (!net->derived) throw NetworkHasErrors(net->problems);  // a cycle: no flow order
   PrepareSummary s;
   static_cast<DerivationSummary&>(s) = net->derived->summary;

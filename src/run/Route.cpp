@@ -1,7 +1,9 @@
 #include "reachwise/run/Route.hpp"
 
 #include <chrono>
+#include <cmath>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -66,6 +68,16 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   ro.threads = request.threads;
   ro.base_flow_m3s = baseFlows(plan);
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
+  ro.lake_at_top = lakesAtTop(net, plan);
+  if (net.lakes) {
+    ro.lake_results = &summary.lakes;
+    ro.lake_initial_level_m.assign(plan.size(), std::nan(""));
+    for (std::size_t i = 0; i < plan.size(); ++i)
+      if (ro.lake_at_top[i]) {
+        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
+        if (const auto& h0 = net.lakes->lakes[k].initial_level_m) ro.lake_initial_level_m[i] = *h0;
+      }
+  }
   const auto t0 = std::chrono::steady_clock::now();
   summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
   summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
@@ -78,6 +90,15 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   summary.info = runInfo(request, summary.results);
   outputs.commit(summary.results, summary.info);
   summary.gpkg = outputs.geopackage();
+  if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
+    std::vector<io::LakeOutput> rows;
+    for (std::size_t i = 0; i < summary.lakes.size(); ++i)
+      if (summary.lakes[i].routed) {
+        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
+        rows.push_back({&net.lakes->lakes[k], plan.reach_id[i], &summary.lakes[i]});
+      }
+    io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), rows);
+  }
   return summary;
 }
 

@@ -69,6 +69,10 @@ struct NetworkConfig {
   /// (run::deriveAttributes), and, with orientation "elevation", the end
   /// elevations of lines without Z. Empty: none.
   std::string dem;
+  /// `lakes`: a polygon source of lakes and reservoirs (a path relative to
+  /// the run file's folder, or a connection string); empty: none.
+  /// `lakes_layer`: its layer; empty: the only polygon layer.
+  std::string lakes, lakes_layer;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
 

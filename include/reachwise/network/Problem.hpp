@@ -60,10 +60,15 @@ enum class ProblemCode : std::uint8_t {
   // bed slopes from a DEM (terrain::bedSlopes, `reachwise prepare`)
   DemNodata,
   DemProfileRise,
-  SlopeFloored,  ///< the last code
+  SlopeFloored,
+  // lakes (linkLakes)
+  LakePiece,
+  TerminalLake,
+  LakeWithoutInflow,
+  LakeOverlap,  ///< the last code
 };
 
-inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::SlopeFloored) + 1;
+inline constexpr std::size_t kProblemCodeCount = static_cast<std::size_t>(ProblemCode::LakeOverlap) + 1;
 
 /// One row of the code table.
 struct ProblemKind {

@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/LevelPool.hpp"
 #include "reachwise/routing/ReachRouter.hpp"
 #include "reachwise/routing/Results.hpp"
 
@@ -37,6 +38,14 @@ public:
   bool lateral(std::uint32_t reach, std::span<double> out) const override;
 };
 
+/// One lake as the network routed it: the inflow it took (m^3/s, on the
+/// run's axis) and its level-pool routing.
+struct LakeRouting {
+  bool routed = false;
+  std::vector<double> inflow_m3s;
+  LevelPoolResult result;
+};
+
 struct NetworkRouteOptions {
   RouteOptions reach;            ///< method, scheme, forced grid (applies to every reach)
   unsigned threads = 0;          ///< 0 = all cores
@@ -48,6 +57,19 @@ struct NetworkRouteOptions {
   /// once at the end, from whichever thread finished the reach, one call
   /// at a time. Empty = no reports.
   std::function<void(std::size_t done, std::size_t total)> progress;
+  /// Lakes by plan index, empty = none: when `lake_at_top[i]` is set, the
+  /// flow arriving at the top of reach i (upstream outflows and point
+  /// inflow) passes through that lake (LevelPool::route from its steady
+  /// state, or its initial level) and the lake's outflow enters the reach.
+  /// The lakes must outlive the call. Their storage change counts in the
+  /// network's volume balance.
+  std::vector<const LevelPool*> lake_at_top;
+  /// Where each lake's routing goes, by plan index (resized to the plan);
+  /// null = not kept.
+  std::vector<LakeRouting>* lake_results = nullptr;
+  /// Initial level per lake, by plan index like `lake_at_top`; NaN or
+  /// empty = the steady state of the first inflow.
+  std::vector<double> lake_initial_level_m;
 };
 
 /// Routes every reach of `plan` over `axis`. Each finished reach's outflow

@@ -9,6 +9,7 @@
 
 #include "reachwise/Error.hpp"
 #include "reachwise/io/NetworkReader.hpp"
+#include "reachwise/network/Lakes.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"
@@ -24,7 +25,9 @@ struct NetworkSource {
   /// A DEM (any GDAL raster) to derive the channel attributes from
   /// (deriveAttributes; the layer may lack them, io::ReadOptions::derive_attributes);
   /// overrides `[network] dem`. Empty: the run file's, if any.
-  std::string dem;
+  std::string dem = {};
+  std::string lakes = {};  ///< polygon source of lakes; empty: the config's `lakes` (if any)
+  std::string lakes_layer = {};  ///< empty: the config's `lakes_layer`, else the only polygon layer
 };
 
 /// A network as read and validated. Not movable: `graph` refers to `table`.
@@ -38,6 +41,14 @@ struct LoadedNetwork {
   /// With a DEM: what was derived and where each value came from (unset
   /// when the network has a cycle, which has no flow order to derive along).
   std::optional<Derivation> derived;
+  /// Lakes, when a lakes source was given, and which reaches meet each
+  /// (`lake_links`, indices into `lake_plan`; both empty when the network
+  /// has errors, as it cannot be put in order then).
+  std::optional<network::LakeTable> lakes;
+  std::optional<network::NetworkPlan> lake_plan;
+  std::vector<network::LakeLinks> lake_links;
+  /// One level-pool lake per lake record (checked when read).
+  std::vector<routing::LevelPool> lake_pools;
 
   LoadedNetwork() = default;
   LoadedNetwork(const LoadedNetwork&) = delete;
@@ -65,7 +76,10 @@ void requireExisting(const std::string& source);
 
 /// Reads `source`, builds the reach graph, derives the channel attributes
 /// when a DEM is given (`source.dem` or `[network] dem`, with the run file's
-/// `[prepare]` table) and validates it. Problems with
+/// `[prepare]` table) and validates it. With lakes,
+/// attaches reaches to them by geometry and joins the network across every
+/// lake with one outflowing reach (reaches inside dropped, inflowing reaches
+/// flowing into the outflowing one; docs/formats.md, "Lakes"). Problems with
 /// single features go into the result; a source that cannot be read at
 /// all throws reachwise::InputError naming the file (and layer / field).
 std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source);
@@ -82,5 +96,13 @@ void writeProblems(const std::string& out, const LoadedNetwork& net);
 /// The plan routing runs on. Throws NetworkHasErrors when the network has
 /// errors.
 network::NetworkPlan routablePlan(const LoadedNetwork& net);
+
+/// The lake at the top of each reach of `plan` (by plan index; empty when
+/// no lakes were given). Routed so far: a lake on a node of the network,
+/// i.e. with exactly one outflowing reach, nothing inside, and inflowing
+/// reaches that are exactly the reaches the topology joins to the top of
+/// that reach. Any other lake throws InputError naming the lakes file,
+/// the lake and what is missing (no lake is ever skipped silently).
+std::vector<const routing::LevelPool*> lakesAtTop(const LoadedNetwork& net, const network::NetworkPlan& plan);
 
 }  // namespace reachwise::run

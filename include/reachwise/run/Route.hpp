@@ -78,6 +78,9 @@ struct RouteSummary {
   io::RunInfo info;                         ///< what run_info records
   std::string gpkg;                         ///< the GeoPackage written, or empty
   double routing_s = 0;                     ///< wall time of the routing alone (threads: results.threads)
+  /// Each lake's routing by plan index of the reach it feeds (`routed`
+  /// false elsewhere; empty when no lakes were given).
+  std::vector<routing::LakeRouting> lakes;
 };
 
 /// Routes `request`. Throws NetworkHasErrors when the network cannot be
