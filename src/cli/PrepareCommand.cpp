@@ -41,6 +41,12 @@ void printSummary(std::ostream& out, const PrepareOptions& o, const run::Prepare
     fmt::print(out, "\n");
   else
     fmt::print(out, "; {:.3g} to {:.3g} m\n", s.min_width_m, s.max_width_m);
+  if (!s.width_by_order.empty()) {
+    std::string by_order;
+    for (const auto& [order, range] : s.width_by_order)
+      by_order += fmt::format("{}{}: {:.3g}-{:.3g} m", by_order.empty() ? "" : ", ", order, range.first, range.second);
+    fmt::print(out, "width by order {}\n", by_order);
+  }
   fmt::print(out, "problems       {} error{}, {} warning{}, {} note{}\n", errors, errors == 1 ? "" : "s",
              warnings, warnings == 1 ? "" : "s", notes, notes == 1 ? "" : "s");
 }

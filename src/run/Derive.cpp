@@ -55,6 +55,8 @@ void describeSection(const terrain::AreaValue& area, const terrain::DerivedSecti
   if (std::isfinite(w)) {
     s.min_width_m = std::isnan(s.min_width_m) ? w : std::min(s.min_width_m, w);
     s.max_width_m = std::isnan(s.max_width_m) ? w : std::max(s.max_width_m, w);
+    auto [it, fresh] = s.width_by_order.try_emplace(d.strahler_order, w, w);
+    it->second = {std::min(it->second.first, w), std::max(it->second.second, w)};
   }
 }
 

@@ -288,6 +288,10 @@ TEST(PrepareCommand, PlainLinesGetEveryChannelAttributeAndRoute) {
   const auto r = runReachwise(fmt::format("prepare {} --dem {} --out {}", c.network, c.dem, c.out));
   ASSERT_EQ(r.code, 0) << r.out << r.err;
   EXPECT_NE(r.out.find("bottom widths  3 from hydraulic geometry, 0 from the layer"), std::string::npos) << r.out;
+  // up and trib are first order, down (below their confluence) second.
+  const std::string by_order = testsupport::summaryValue(r.out, "width by order");
+  EXPECT_EQ(by_order.rfind("1: ", 0), 0u) << r.out;
+  EXPECT_NE(by_order.find(", 2: "), std::string::npos) << r.out;
   const auto reaches = readReaches(c.out);
   ASSERT_EQ(reaches.size(), 3u);
   for (const auto& [id, f] : reaches) {

@@ -6,8 +6,11 @@
 /// `check` and `route` with `[network] dem` (which route it directly).
 
 #include <cstddef>
+#include <cstdint>
 #include <limits>
+#include <map>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "reachwise/io/PrepareConfig.hpp"
@@ -32,6 +35,8 @@ struct DerivationSummary {
   std::size_t width_from_field = 0;     ///< bottom widths kept from the layer
   double min_width_m = std::numeric_limits<double>::quiet_NaN();  ///< of the bottom widths
   double max_width_m = std::numeric_limits<double>::quiet_NaN();
+  /// Bottom width range (min, max, metres) per Strahler order.
+  std::map<std::uint16_t, std::pair<double, double>> width_by_order;
 };
 
 struct Derivation {
