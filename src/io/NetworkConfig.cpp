@@ -12,24 +12,9 @@ namespace reachwise::io {
 
 namespace {
 
-InputError configError(const std::string& origin, const std::string& key,
-                       const std::string& message) {
-  InputLocation where;
-  where.file = origin;
-  where.field = key;
-  return InputError(where, message);
-}
-
-std::string requireString(const toml::node& node, const std::string& origin,
-                          const std::string& key) {
-  if (auto s = node.value<std::string>()) return *s;
-  throw configError(origin, key, "expected a text value");
-}
-
-double requireNumber(const toml::node& node, const std::string& origin, const std::string& key) {
-  if (auto d = node.value<double>()) return *d;  // integers convert too
-  throw configError(origin, key, "expected a number");
-}
+using detail::configError;
+using detail::requireNumber;
+using detail::requireString;
 
 bool isKnownField(std::string_view name) {
   for (auto f : kFieldNames)

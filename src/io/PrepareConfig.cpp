@@ -14,30 +14,11 @@ namespace reachwise::io {
 
 namespace {
 
+using detail::configError;
+using detail::requireNumber;
+using detail::requireString;
+
 namespace fs = std::filesystem;
-
-InputError configError(const std::string& origin, const std::string& key,
-                       const std::string& message) {
-  InputLocation where;
-  where.file = origin;
-  where.field = key;
-  return InputError(where, message);
-}
-
-std::string requireString(const toml::node& node, const std::string& origin,
-                          const std::string& key) {
-  if (auto s = node.value<std::string>()) return *s;
-  throw configError(origin, key, "expected a text value");
-}
-
-double requireNumber(const toml::node& node, const std::string& origin, const std::string& key) {
-  if (node.is_boolean()) throw configError(origin, key, "expected a number");
-  if (auto d = node.value<double>()) {  // integers convert too
-    if (!std::isfinite(*d)) throw configError(origin, key, "must be finite");
-    return *d;
-  }
-  throw configError(origin, key, "expected a number");
-}
 
 double requirePositive(const toml::node& node, const std::string& origin, const std::string& key) {
   const double d = requireNumber(node, origin, key);

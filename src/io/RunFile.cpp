@@ -1,11 +1,33 @@
 #include "RunFile.hpp"
 
+#include <cmath>
 #include <fstream>
 #include <sstream>
 
 #include "reachwise/Error.hpp"
 
 namespace reachwise::io::detail {
+
+InputError configError(const std::string& origin, const std::string& key, const std::string& message) {
+  InputLocation where;
+  where.file = origin;
+  where.field = key;
+  return InputError(where, message);
+}
+
+std::string requireString(const toml::node& node, const std::string& origin, const std::string& key) {
+  if (auto s = node.value<std::string>()) return *s;
+  throw configError(origin, key, "expected a text value");
+}
+
+double requireNumber(const toml::node& node, const std::string& origin, const std::string& key) {
+  if (node.is_boolean()) throw configError(origin, key, "expected a number");
+  if (auto d = node.value<double>()) {  // integers convert too
+    if (!std::isfinite(*d)) throw configError(origin, key, "must be finite");
+    return *d;
+  }
+  throw configError(origin, key, "expected a number");
+}
 
 toml::table parseRunFile(const std::string& text, const std::string& origin) {
   try {
