@@ -23,4 +23,23 @@ std::filesystem::path partialPath(const std::filesystem::path& target, const std
   return tmp;
 }
 
+void writeThenRename(const std::filesystem::path& target, const std::string& suffix,
+                     const std::function<void(const std::filesystem::path& partial)>& write) {
+  const auto tmp = partialPath(target, suffix);
+  std::error_code ignored;
+  std::filesystem::remove(tmp, ignored);
+  try {
+    write(tmp);
+    std::filesystem::rename(tmp, target);
+  } catch (const std::filesystem::filesystem_error& e) {
+    std::filesystem::remove(tmp, ignored);
+    InputLocation at;
+    at.file = target.string();
+    throw InputError(at, std::string("cannot put the output in place: ") + e.code().message());
+  } catch (...) {
+    std::filesystem::remove(tmp, ignored);
+    throw;
+  }
+}
+
 }  // namespace reachwise::io

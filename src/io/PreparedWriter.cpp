@@ -203,33 +203,19 @@ void writePreparedGeoPackage(const std::string& path, bool overwrite, const Reac
   REACHWISE_ASSERT(prepared.size() == graph.size());
   ensureGdal();
   CPLErrorReset();
-  const std::filesystem::path target(path);
-  refuseExisting(target, overwrite);
-  const auto tmp = partialPath(target, ".gpkg");
-  std::error_code ignored;
-  std::filesystem::remove(tmp, ignored);
-  try {
+  refuseExisting(path, overwrite);
+  writeThenRename(path, ".gpkg", [&](const std::filesystem::path& tmp) {
     GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
     if (!driver) fail(path, "GDAL has no GeoPackage driver");
-    {
-      std::unique_ptr<GDALDataset> ds(driver->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
-      if (!ds) fail(path, "cannot create the output file");
-      const auto srs = spatialReferenceFromWkt(graph.table().crs_wkt);
-      if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
-      writeReaches(path, *ds, srs.get(), graph, config, prepared);
-      addProblemsLayer(path, *ds, srs.get(), problems);
-      if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
-    }  // closed and flushed before the rename
-    std::filesystem::rename(tmp, target);
-  } catch (const std::filesystem::filesystem_error& e) {
-    std::filesystem::remove(tmp, ignored);
-    InputLocation at;
-    at.file = path;
-    throw InputError(at, std::string("cannot put the output in place: ") + e.code().message());
-  } catch (...) {
-    std::filesystem::remove(tmp, ignored);
-    throw;
-  }
+    std::unique_ptr<GDALDataset> ds(driver->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+    if (!ds) fail(path, "cannot create the output file");
+    const auto srs = spatialReferenceFromWkt(graph.table().crs_wkt);
+    if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
+    writeReaches(path, *ds, srs.get(), graph, config, prepared);
+    addProblemsLayer(path, *ds, srs.get(), problems);
+    if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
+    ds.reset();  // closed and flushed before the rename
+  });
 }
 
 }  // namespace reachwise::io

@@ -142,22 +142,8 @@ void writeProblemsGeoPackage(const std::string& path, const ReachGraph& graph,
                              const network::ProblemList& problems) {
   ensureGdal();
   CPLErrorReset();
-  const std::filesystem::path target(path);
-  const auto tmp = partialPath(target, ".gpkg");
-  std::error_code ignored;
-  std::filesystem::remove(tmp, ignored);
-  try {
-    writeAll(path, tmp, graph, problems);
-    std::filesystem::rename(tmp, target);
-  } catch (const std::filesystem::filesystem_error& e) {
-    std::filesystem::remove(tmp, ignored);
-    InputLocation at;
-    at.file = path;
-    throw InputError(at, std::string("cannot put the output in place: ") + e.code().message());
-  } catch (...) {
-    std::filesystem::remove(tmp, ignored);
-    throw;
-  }
+  writeThenRename(path, ".gpkg",
+                  [&](const std::filesystem::path& tmp) { writeAll(path, tmp, graph, problems); });
 }
 
 }  // namespace reachwise::io
