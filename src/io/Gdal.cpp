@@ -33,6 +33,13 @@ void throwWithGdalMessage(const InputLocation& where, const std::string& what) {
   throw InputError(where, gdal.empty() ? what : what + " (" + gdal + ")");
 }
 
+void addLayerField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
+                   OGRFieldSubType subtype) {
+  OGRFieldDefn defn(name, type);
+  defn.SetSubType(subtype);
+  if (layer.CreateField(&defn) != OGRERR_NONE) throwWithGdalMessage(path, std::string("cannot add field ") + name);
+}
+
 std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt) {
   if (crs_wkt.empty()) return nullptr;
   auto srs = std::make_unique<OGRSpatialReference>();

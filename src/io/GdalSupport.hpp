@@ -1,12 +1,12 @@
 #pragma once
 // GDAL helpers shared by the readers and writers in src/io (private).
 
+#include <ogrsf_frmts.h>
+
 #include <memory>
 #include <string>
 
 #include "reachwise/Error.hpp"
-
-class OGRSpatialReference;
 
 namespace reachwise::io {
 
@@ -26,5 +26,9 @@ namespace reachwise::io {
 /// The CRS of a layer from its WKT, with coordinates taken x = easting /
 /// longitude as the reader stored them; null for an empty or unreadable WKT.
 std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt);
+
+/// Adds a field to `layer`; throws InputError naming `path` when GDAL refuses.
+void addLayerField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
+                   OGRFieldSubType subtype = OFSTNone);
 
 }  // namespace reachwise::io

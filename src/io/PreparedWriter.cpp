@@ -70,10 +70,6 @@ const NumericAttribute kNumeric[] = {
     {"base_flow", [](const network::ReachRecord& r) { return r.base_flow_m3s; }},
 };
 
-void addField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type) {
-  OGRFieldDefn defn(name, type);
-  if (layer.CreateField(&defn) != OGRERR_NONE) fail(path, std::string("cannot add field ") + name);
-}
 
 void setNumber(OGRFeature& f, const char* name, double v) {
   if (std::isfinite(v))
@@ -136,20 +132,20 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
       fail(path, std::string("cannot add field ") + copy.GetNameRef());
     out_index.push_back(layer->GetLayerDefn()->GetFieldIndex(copy.GetNameRef()));
   }
-  addField(path, *layer, "reach_id", OFTString);
-  addField(path, *layer, "to_reach", OFTString);
-  addField(path, *layer, "slope", OFTReal);
-  addField(path, *layer, "up_elevation", OFTReal);
-  addField(path, *layer, "down_elevation", OFTReal);
-  addField(path, *layer, "shape", OFTString);
-  for (const auto& a : kNumeric) addField(path, *layer, a.name, OFTReal);
-  if (source.has_length) addField(path, *layer, "length", OFTReal);
-  for (const auto& t : kTextProvenance) addField(path, *layer, t.name, OFTString);
-  addField(path, *layer, "drainage_area_km2", OFTReal);
-  addField(path, *layer, "dem_raw_slope", OFTReal);
-  addField(path, *layer, "dem_samples", OFTInteger64);
-  addField(path, *layer, "dem_valid_fraction", OFTReal);
-  addField(path, *layer, "dem_flags", OFTString);
+  addLayerField(path, *layer, "reach_id", OFTString);
+  addLayerField(path, *layer, "to_reach", OFTString);
+  addLayerField(path, *layer, "slope", OFTReal);
+  addLayerField(path, *layer, "up_elevation", OFTReal);
+  addLayerField(path, *layer, "down_elevation", OFTReal);
+  addLayerField(path, *layer, "shape", OFTString);
+  for (const auto& a : kNumeric) addLayerField(path, *layer, a.name, OFTReal);
+  if (source.has_length) addLayerField(path, *layer, "length", OFTReal);
+  for (const auto& t : kTextProvenance) addLayerField(path, *layer, t.name, OFTString);
+  addLayerField(path, *layer, "drainage_area_km2", OFTReal);
+  addLayerField(path, *layer, "dem_raw_slope", OFTReal);
+  addLayerField(path, *layer, "dem_samples", OFTInteger64);
+  addLayerField(path, *layer, "dem_valid_fraction", OFTReal);
+  addLayerField(path, *layer, "dem_flags", OFTString);
 
   for (ReachGraph::Vertex v = 0; v < graph.size(); ++v) {
     const auto& r = graph.record(v);

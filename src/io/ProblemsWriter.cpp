@@ -23,12 +23,6 @@ using network::ReachGraph;
 
 [[noreturn]] void fail(const std::string& path, const std::string& what) { throwWithGdalMessage(path, what); }
 
-void addField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
-              OGRFieldSubType subtype = OFSTNone) {
-  OGRFieldDefn defn(name, type);
-  defn.SetSubType(subtype);
-  if (layer.CreateField(&defn) != OGRERR_NONE) fail(path, std::string("cannot add field ") + name);
-}
 
 }  // namespace
 
@@ -49,13 +43,13 @@ void addProblemsLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefere
   layer_options.SetNameValue("FID", "problem_id");
   OGRLayer* layer = ds.CreateLayer("problems", srs, wkbPoint, layer_options.List());
   if (!layer) fail(path, "cannot create layer problems");
-  addField(path, *layer, "code", OFTString);
-  addField(path, *layer, "severity", OFTString);
-  addField(path, *layer, "reach_id", OFTString);
-  addField(path, *layer, "fid", OFTInteger64);
-  addField(path, *layer, "message", OFTString);
-  addField(path, *layer, "other_reach", OFTString);
-  addField(path, *layer, "distance_m", OFTReal);
+  addLayerField(path, *layer, "code", OFTString);
+  addLayerField(path, *layer, "severity", OFTString);
+  addLayerField(path, *layer, "reach_id", OFTString);
+  addLayerField(path, *layer, "fid", OFTInteger64);
+  addLayerField(path, *layer, "message", OFTString);
+  addLayerField(path, *layer, "other_reach", OFTString);
+  addLayerField(path, *layer, "distance_m", OFTReal);
   for (const auto& p : problems) {
     OGRFeature f(layer->GetLayerDefn());
     f.SetField("code", std::string(p.codeName()).c_str());
@@ -90,13 +84,13 @@ void writeNetworkLayer(const std::string& path, GDALDataset& ds, OGRSpatialRefer
   layer_options.SetNameValue("FID", "row_id");
   OGRLayer* layer = ds.CreateLayer("network", srs, wkbLineString, layer_options.List());
   if (!layer) fail(path, "cannot create layer network");
-  addField(path, *layer, "reach_id", OFTString);
-  addField(path, *layer, "fid", OFTInteger64);
-  addField(path, *layer, "to_reach", OFTString);
-  addField(path, *layer, "flipped", OFTInteger, OFSTBoolean);
-  addField(path, *layer, "split", OFTReal);
-  addField(path, *layer, "strahler", OFTInteger);
-  addField(path, *layer, "basin", OFTInteger);
+  addLayerField(path, *layer, "reach_id", OFTString);
+  addLayerField(path, *layer, "fid", OFTInteger64);
+  addLayerField(path, *layer, "to_reach", OFTString);
+  addLayerField(path, *layer, "flipped", OFTInteger, OFSTBoolean);
+  addLayerField(path, *layer, "split", OFTReal);
+  addLayerField(path, *layer, "strahler", OFTInteger);
+  addLayerField(path, *layer, "basin", OFTInteger);
 
   const auto order = graph.topologicalOrder();
   const auto strahler = order ? network::strahlerOrder(graph, *order) : std::vector<std::uint16_t>{};

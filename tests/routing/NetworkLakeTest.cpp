@@ -12,12 +12,17 @@
 #include <span>
 
 #include "reachwise/routing/NetworkRouter.hpp"
+#include "routing/RouterFixtures.hpp"
 
 using namespace reachwise;
 using namespace reachwise::routing;
 using network::NetworkPlan;
 
 namespace {
+
+using routertest::Capture;
+using routertest::hourly;
+using routertest::storm;
 
 constexpr double kArea = 2e6, kCrest = 50, kLength = 15, kDt = 3600;
 
@@ -49,31 +54,6 @@ NetworkPlan confluence() {
   p.down_offset = {0, 1, 2, 2};
   p.down_reach = {2, 2};
   return p;
-}
-
-std::vector<double> storm(std::size_t steps, double base, double peak, double start_h, double len_h) {
-  std::vector<double> q(steps, base);
-  for (std::size_t n = 0; n < steps; ++n) {
-    const double t = double(n) - start_h;
-    if (t > 0 && t < len_h) q[n] += peak * std::pow(std::sin(std::numbers::pi * t / len_h), 2);
-  }
-  return q;
-}
-
-struct Capture : SeriesSink {
-  std::map<std::uint32_t, std::vector<double>> q;
-  void write(std::uint32_t reach, std::span<const double> qs, std::span<const double>,
-             std::span<const double>) override {
-    q[reach].assign(qs.begin(), qs.end());
-  }
-};
-
-TimeAxis hourly(std::size_t steps) {
-  TimeAxis a;
-  a.start_unix_s = 1777593600;
-  a.dt_s = kDt;
-  a.steps = steps;
-  return a;
 }
 
 /// RK4, 1 s step, inflow linear between the samples; storage counted from the crest.

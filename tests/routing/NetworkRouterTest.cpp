@@ -1,4 +1,5 @@
 #include "reachwise/routing/NetworkRouter.hpp"
+#include "routing/RouterFixtures.hpp"
 
 #include <gtest/gtest.h>
 
@@ -15,6 +16,10 @@ using namespace reachwise::routing;
 using network::NetworkPlan;
 
 namespace {
+
+using routertest::Capture;
+using routertest::hourly;
+using routertest::storm;
 
 /// A seeded random tree of n reaches in topological order (upstream first):
 /// reach j of the "outlet-first" numbering drains into a random earlier one.
@@ -58,15 +63,6 @@ NetworkPlan randomTree(std::size_t n, std::mt19937& rng) {
   return p;
 }
 
-std::vector<double> storm(std::size_t steps, double base, double peak, double start_h, double len_h) {
-  std::vector<double> q(steps, base);
-  for (std::size_t n = 0; n < steps; ++n) {
-    const double t = double(n) - start_h;
-    if (t > 0 && t < len_h) q[n] += peak * std::pow(std::sin(std::numbers::pi * t / len_h), 2);
-  }
-  return q;
-}
-
 MemoryForcing randomForcing(const NetworkPlan& p, std::size_t steps, std::mt19937& rng) {
   std::uniform_real_distribution<double> u(0, 1);
   MemoryForcing f;
@@ -79,21 +75,6 @@ MemoryForcing randomForcing(const NetworkPlan& p, std::size_t steps, std::mt1993
   return f;
 }
 
-struct Capture : SeriesSink {
-  std::map<std::uint32_t, std::vector<double>> q;
-  void write(std::uint32_t reach, std::span<const double> qs, std::span<const double>,
-             std::span<const double>) override {
-    q[reach].assign(qs.begin(), qs.end());
-  }
-};
-
-TimeAxis hourly(std::size_t steps) {
-  TimeAxis a;
-  a.start_unix_s = 1777593600;  // 2026-05-01T00:00:00Z
-  a.dt_s = 3600;
-  a.steps = steps;
-  return a;
-}
 
 }  // namespace
 
