@@ -38,6 +38,12 @@ std::string readWhole(const std::filesystem::path& path) {
   return std::move(text).str();
 }
 
+/// A missing observation: an empty cell, NA or NaN (any case).
+bool isMissing(std::string_view raw) {
+  const std::string s = lower(trimCsvField(raw));
+  return s.empty() || s == "na" || s == "nan";
+}
+
 double parseDischarge(std::string_view raw, const InputLocation& where, units::System unit) {
   std::string_view s = trimCsvField(raw);
   if (s.empty()) throw InputError(where, "the discharge is empty");
@@ -82,7 +88,8 @@ void checkFieldCount(const CsvRecord& record, std::size_t expected, const std::s
                      fmt::format("{} fields where the header has {}", record.fields.size(), expected));
 }
 
-void readLong(const std::vector<CsvRecord>& records, CsvForcingFile& out, units::System unit) {
+void readLong(const std::vector<CsvRecord>& records, CsvForcingFile& out, units::System unit,
+              CsvValues values) {
   const auto& header = records.front().fields;
   std::size_t col_id = 0, col_time = 0, col_q = 0;
   for (std::size_t c = 0; c < header.size(); ++c) {
@@ -102,6 +109,7 @@ void readLong(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
     const IsoTime t = parseTime(rec.fields[col_time], where);
     if (out.series.empty()) out.utc_offset_min = t.utc_offset_min;
     where.time = std::string(trimCsvField(rec.fields[col_time]));
+    if (values == CsvValues::Observed && isMissing(rec.fields[col_q])) continue;
     InputLocation qwhere = where;
     qwhere.field = "discharge";
     const double q = parseDischarge(rec.fields[col_q], qwhere, unit);
@@ -110,7 +118,8 @@ void readLong(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
   }
 }
 
-void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units::System unit) {
+void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units::System unit,
+              CsvValues values) {
   const CsvRecord& header = records.front();
   std::vector<std::string> ids;
   std::set<std::string, std::less<>> seen;
@@ -142,6 +151,7 @@ void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
     previous_line = rec.line;
     for (std::size_t c = 1; c < rec.fields.size(); ++c) {
       if (trimCsvField(rec.fields[c]).empty()) continue;  // no sample of this reach at this time
+      if (values == CsvValues::Observed && isMissing(rec.fields[c])) continue;
       InputLocation qwhere = where;
       qwhere.reach_id = ids[c - 1];
       const double q = parseDischarge(rec.fields[c], qwhere, unit);
@@ -170,7 +180,7 @@ CsvLayout detectLayout(const CsvRecord& header, const std::string& file) {
 
 }  // namespace
 
-CsvForcingFile readForcingCsvFile(const std::filesystem::path& path, units::System unit) {
+CsvForcingFile readForcingCsvFile(const std::filesystem::path& path, units::System unit, CsvValues values) {
   CsvForcingFile out;
   out.file = path.string();
   const std::vector<CsvRecord> records = parseCsvRecords(readWhole(path), out.file);
@@ -180,9 +190,9 @@ CsvForcingFile readForcingCsvFile(const std::filesystem::path& path, units::Syst
   if (records.size() == 1)
     throw InputError(textLocation(out.file, records.front().line + 1), "no data rows after the header");
   if (out.layout == CsvLayout::Long)
-    readLong(records, out, unit);
+    readLong(records, out, unit, values);
   else
-    readWide(records, out, unit);
+    readWide(records, out, unit, values);
   return out;
 }
 

@@ -31,9 +31,15 @@ struct CsvForcingFile : RawForcing {
   CsvLayout layout = CsvLayout::Long;
 };
 
+/// What the values of a file are: forcing (every value present) or
+/// observations, where an empty cell, `NA` or `NaN` (any case) is a missing
+/// value and is skipped (in the wide form an empty cell is always skipped).
+enum class CsvValues { Forcing, Observed };
+
 /// Reads and checks one file. Throws InputError (file, line, field).
 CsvForcingFile readForcingCsvFile(const std::filesystem::path& path,
-                                  units::System unit = units::System::SI);
+                                  units::System unit = units::System::SI,
+                                  CsvValues values = CsvValues::Forcing);
 
 /// readForcingCsvFile + buildForcing. At least one path must be given.
 Forcing readForcingCsv(const std::optional<std::filesystem::path>& inflow,
