@@ -15,6 +15,7 @@ std::string InputLocation::describe() const {
   if (fid) add("feature " + std::to_string(*fid));
   if (!reach_id.empty()) add("reach " + reach_id);
   if (!lake_id.empty()) add("lake " + lake_id);
+  if (!gauge_id.empty()) add("gauge " + gauge_id);
   if (!field.empty()) add("field " + field);
   if (!time.empty()) add("time " + time);
   return out;

@@ -36,6 +36,7 @@ struct InputLocation {
   std::optional<std::int64_t> fid;     ///< OGR feature id
   std::string reach_id;
   std::string lake_id;
+  std::string gauge_id;
   std::string field;
   std::optional<std::int64_t> line;    ///< 1-based line in a text file
   std::string time;                    ///< ISO 8601 time stamp
