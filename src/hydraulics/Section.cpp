@@ -98,6 +98,27 @@ Section Section::fromSpec(const SectionSpec& spec) {
   return trapezoid(spec.bottom_width_m, spec.side_slope, spec.manning_n, spec.bed_slope);
 }
 
+Section Section::withRoughnessScaled(double factor) const {
+  requirePositive("factor", factor);
+  Section s = *this;
+  s.n_ *= factor;
+  s.nf_ *= factor;
+  if (s.shape_ == Shape::Circle) s.computeCapacity();
+  return s;
+}
+
+Section Section::withWidthScaled(double factor) const {
+  requirePositive("factor", factor);
+  Section s = *this;
+  if (s.shape_ == Shape::Circle) {
+    s.d_ *= factor;
+    s.computeCapacity();
+  } else {
+    s.b_ *= factor;
+  }
+  return s;
+}
+
 void Section::computeCapacity() {
   // Q(y) of a pipe peaks below the crown (near 0.938 d; Chow 1959 §6-3):
   // locate the maximum by golden-section search on [0.85 d, d].

@@ -213,3 +213,22 @@ TEST(Section, BadParametersRaiseTypedErrorNamingTheQuantity) {
   SectionSpec spec;  // everything unset
   expectInvalid("bottom_width", [&] { Section::fromSpec(spec); });
 }
+
+// Manning's formula Q = (1/n) A R^(2/3) √S (Manning 1891; common practice):
+// scaling every n by f divides the discharge at any depth by f; a wider
+// rectangle carries what the formula gives for its own width.
+TEST(SectionScaling, RoughnessAndWidthMultipliers) {
+  const Section two = Section::twoStage(12, 2, 2.5, 80, 0.035, 0.07, 0.001);
+  const Section rough = two.withRoughnessScaled(1.5);
+  for (double y : {0.5, 2.0, 3.5}) EXPECT_NEAR(rough.discharge(y), two.discharge(y) / 1.5, 1e-9 * two.discharge(y)) << y;
+  EXPECT_DOUBLE_EQ(rough.manningN(), 0.035 * 1.5);
+
+  const Section rect = Section::rectangle(10, 0.03, 0.002).withWidthScaled(2.0);
+  const double y = 1.2, b = 20, a = b * y, r = a / (b + 2 * y);
+  EXPECT_NEAR(rect.discharge(y), a * std::pow(r, 2.0 / 3.0) * std::sqrt(0.002) / 0.03, 1e-9);
+
+  const Section pipe = Section::circle(1.0, 0.013, 0.01);
+  EXPECT_NEAR(pipe.withRoughnessScaled(2.0).capacity(), pipe.capacity() / 2, 1e-9 * pipe.capacity());
+  EXPECT_THROW((void)two.withRoughnessScaled(0.0), reachwise::InvalidParameter);
+  EXPECT_THROW((void)two.withWidthScaled(std::nan("")), reachwise::InvalidParameter);
+}

@@ -71,6 +71,15 @@ public:
   /// Build from a spec; throws InvalidParameter for a missing or bad value.
   static Section fromSpec(const SectionSpec& spec);
 
+  /// The same section with every Manning's n (main channel and, for a
+  /// two-stage section, floodplain) multiplied by `factor`: what a
+  /// roughness calibration varies. Throws InvalidParameter("factor")
+  /// unless `factor` is finite and > 0.
+  Section withRoughnessScaled(double factor) const;
+  /// The same section with the bottom width (a pipe: the diameter)
+  /// multiplied by `factor`, as withRoughnessScaled.
+  Section withWidthScaled(double factor) const;
+
   Shape shape() const noexcept { return shape_; }
   double manningN() const noexcept { return n_; }
   double bedSlope() const noexcept { return slope_; }
