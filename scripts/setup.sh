@@ -11,7 +11,7 @@ packages=(
   libgdal-dev gdal-bin libgeos-dev libgeographiclib-dev
   libboost-graph-dev libtbb-dev libeigen3-dev
   libtomlplusplus-dev libcli11-dev libfmt-dev libnetcdf-dev netcdf-bin
-  libcairo2-dev
+  libcairo2-dev libnlopt-cxx-dev
   libgtest-dev libgmock-dev libbenchmark-dev
 )
 

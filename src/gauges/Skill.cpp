@@ -23,7 +23,7 @@ SkillScores skill(std::span<const double> observed, std::span<const double> simu
     sum_o += observed[i];
     sum_s += simulated[i];
   }
-  s.nse = s.kge = s.kge_r = s.kge_alpha = s.kge_beta = s.pbias_pct = s.peak_error_pct = s.peak_timing_h = nan;
+  s.nse = s.nse_peak_weighted = s.kge = s.kge_r = s.kge_alpha = s.kge_beta = s.pbias_pct = s.peak_error_pct = s.peak_timing_h = nan;
   s.volume_error_m3 = (sum_s - sum_o) * dt_s;
   if (s.n_obs == 0) return s;
   s.peak_timing_h = (static_cast<double>(peak_s) - static_cast<double>(peak_o)) * dt_s / 3600.0;
@@ -33,7 +33,7 @@ SkillScores skill(std::span<const double> observed, std::span<const double> simu
 
   // Second pass about the means (two-pass sums: no cancellation on large flows).
   const double n = static_cast<double>(s.n_obs), mean_o = sum_o / n, mean_s = sum_s / n;
-  double ss_err = 0, ss_o = 0, ss_s = 0, cross = 0;
+  double ss_err = 0, ss_o = 0, ss_s = 0, cross = 0, w_err = 0, w_o = 0;
   for (std::size_t i = 0; i < observed.size(); ++i) {
     if (!used(i)) continue;
     const double d_o = observed[i] - mean_o, d_s = simulated[i] - mean_s, e = simulated[i] - observed[i];
@@ -41,9 +41,13 @@ SkillScores skill(std::span<const double> observed, std::span<const double> simu
     ss_o += d_o * d_o;
     ss_s += d_s * d_s;
     cross += d_o * d_s;
+    const double w = mean_o > 0 ? observed[i] / mean_o : 1.0;
+    w_err += w * e * e;
+    w_o += w * d_o * d_o;
   }
   if (ss_o <= 0) return s;
   s.nse = 1.0 - ss_err / ss_o;
+  if (w_o > 0) s.nse_peak_weighted = 1.0 - w_err / w_o;
   s.kge_alpha = std::sqrt(ss_s / ss_o);
   if (mean_o > 0) s.kge_beta = mean_s / mean_o;
   // A simulation that does not vary has no correlation: r is taken as 0.

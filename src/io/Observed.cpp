@@ -20,7 +20,7 @@ std::vector<double> observedOnAxis(const RawSeries& series, const routing::TimeA
     const std::size_t k = static_cast<std::size_t>(next - t.begin());
     if (k > 0 && std::abs(t[k - 1] - at) <= kSameInstant_s) {
       out[i] = series.q_m3s[k - 1];
-    } else if (k > 0 && k < t.size() && at - t[k - 1] <= axis.dt_s && t[k] - at <= axis.dt_s) {
+    } else if (k > 0 && k < t.size() && t[k] - t[k - 1] <= axis.dt_s + kSameInstant_s) {
       const double w = (at - t[k - 1]) / (t[k] - t[k - 1]);
       out[i] = series.q_m3s[k - 1] + w * (series.q_m3s[k] - series.q_m3s[k - 1]);
     }

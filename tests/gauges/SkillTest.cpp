@@ -66,6 +66,7 @@ TEST(Skill, AnalyticalCases) {
   const std::vector<double> o = record(120, 3);
   const SkillScores same = skill(o, o, kHour);
   EXPECT_DOUBLE_EQ(same.nse, 1.0);
+  EXPECT_DOUBLE_EQ(same.nse_peak_weighted, 1.0);
   EXPECT_NEAR(same.kge, 1.0, 1e-14);
   EXPECT_DOUBLE_EQ(same.pbias_pct, 0.0);
   EXPECT_DOUBLE_EQ(same.peak_error_pct, 0.0);
@@ -88,6 +89,10 @@ TEST(Skill, AnalyticalCases) {
 
   const SkillScores c = skill(o, shifted, kHour);
   EXPECT_NEAR(c.nse, 1 - 120 * 25.0 / ss, 1e-12);
+  // Peak-weighted, w = o/ō: Σ w c² = n c² (the weights sum to n).
+  double wss = 0;
+  for (double v : o) wss += v / mean * (v - mean) * (v - mean);
+  EXPECT_NEAR(c.nse_peak_weighted, 1 - 120 * 25.0 / wss, 1e-12);
   EXPECT_NEAR(c.kge_alpha, 1.0, 1e-12);
   EXPECT_NEAR(c.kge_beta, 1 + 5.0 / mean, 1e-12);
 

@@ -31,35 +31,43 @@ constexpr std::int64_t kMay1 = 1777593600;
 
 }  // namespace
 
-// Hourly observations with a missing value (NA) and an empty cell, put on a
-// 30-min axis: hours carry the observation, half hours the mean of the two
-// hours around them (linear interpolation), and nothing is compared across
-// the missing hour or outside the record.
-TEST_F(ObservedTest, HourlyRecordOnAHalfHourAxis) {
+// Hourly observations with a missing value (NA) and an empty cell. On an
+// hourly axis shifted by 30 min, each run time lies midway between two
+// hours and gets their mean (linear interpolation); nothing is compared
+// across a missing value or outside the record. On a 30-min axis only the
+// hours are compared: observations an hour apart are coarser than the step.
+TEST_F(ObservedTest, HourlyRecordOnShiftedAndFinerAxes) {
   const auto path = write("obs.csv",
                           "time,G1,G2\n"
                           "2026-05-01T00:00:00Z,10,1\n"
                           "2026-05-01T01:00:00Z,20,\n"
                           "2026-05-01T02:00:00Z,NA,3\n"
-                          "2026-05-01T03:00:00Z,40,4\n");
-  const auto axis = routing::TimeAxis::make(kMay1, 1800, 10);  // 00:00 .. 04:30
-  const Observations obs = readObservations(path, axis);
+                          "2026-05-01T03:00:00Z,40,4\n"
+                          "2026-05-01T04:00:00Z,50,5\n");
+  const auto shifted = routing::TimeAxis::make(kMay1 - 1800, 3600, 7);  // 23:30 .. 05:30
+  const Observations obs = readObservations(path, shifted);
   const auto& g1 = obs.values.at("G1");
-  ASSERT_EQ(g1.size(), 10u);
-  EXPECT_DOUBLE_EQ(g1[0], 10);
-  EXPECT_DOUBLE_EQ(g1[1], 15);  // halfway between 10 and 20
-  EXPECT_DOUBLE_EQ(g1[2], 20);
-  EXPECT_TRUE(std::isnan(g1[3]));  // 01:30: the next observation is 03:00, more than a step away
-  EXPECT_TRUE(std::isnan(g1[4]));  // 02:00 is missing (NA)
-  EXPECT_TRUE(std::isnan(g1[5]));
-  EXPECT_DOUBLE_EQ(g1[6], 40);
-  for (std::size_t i = 7; i < 10; ++i) EXPECT_TRUE(std::isnan(g1[i])) << i;  // never held past the record
+  ASSERT_EQ(g1.size(), 7u);
+  EXPECT_TRUE(std::isnan(g1[0]));  // before the record: never held
+  EXPECT_DOUBLE_EQ(g1[1], 15);     // 00:30, between 10 and 20
+  EXPECT_TRUE(std::isnan(g1[2]));  // 01:30: 02:00 is missing (NA)
+  EXPECT_TRUE(std::isnan(g1[3]));  // 02:30
+  EXPECT_DOUBLE_EQ(g1[4], 45);     // 03:30
+  EXPECT_TRUE(std::isnan(g1[5]));  // 04:30: past the record
   const auto& g2 = obs.values.at("G2");
-  EXPECT_DOUBLE_EQ(g2[0], 1);
-  EXPECT_TRUE(std::isnan(g2[1]));  // the empty cell at 01:00 leaves 00:00–02:00 uncompared
-  EXPECT_DOUBLE_EQ(g2[4], 3);
-  EXPECT_DOUBLE_EQ(g2[5], 3.5);
+  EXPECT_TRUE(std::isnan(g2[1]));  // the empty cell at 01:00
+  EXPECT_DOUBLE_EQ(g2[3], 3.5);
   EXPECT_TRUE(obs.warnings.empty());
+
+  const auto finer = routing::TimeAxis::make(kMay1, 1800, 10);  // 00:00 .. 04:30
+  const Observations on_finer = readObservations(path, finer);
+  const auto& h1 = on_finer.values.at("G1");
+  EXPECT_DOUBLE_EQ(h1[0], 10);
+  EXPECT_TRUE(std::isnan(h1[1]));  // 00:30: the hours around it are two steps apart
+  EXPECT_DOUBLE_EQ(h1[2], 20);
+  EXPECT_TRUE(std::isnan(h1[4]));  // 02:00 missing
+  EXPECT_DOUBLE_EQ(h1[6], 40);
+  EXPECT_DOUBLE_EQ(h1[8], 50);
 }
 
 // Observations on a finer step than the run are sampled at the run's times;

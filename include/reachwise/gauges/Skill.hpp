@@ -19,6 +19,10 @@ struct SkillScores {
   /// 1 − Σ(s − o)² / Σ(o − ō)²; 1 is a perfect fit, 0 no better than the
   /// observed mean. NaN when the observations do not vary.
   double nse = 0;
+  /// Peak-weighted NSE: squared errors and variance weighted by o/ō, so
+  /// that high flows count more (a weighting in common practice for flood
+  /// calibration): 1 − Σ w (s − o)² / Σ w (o − ō)².
+  double nse_peak_weighted = 0;
   /// Kling–Gupta efficiency (Gupta et al. 2009):
   /// 1 − √((r − 1)² + (α − 1)² + (β − 1)²), with r the linear correlation,
   /// α = σ_s/σ_o the ratio of spreads, β = μ_s/μ_o the ratio of means.

@@ -8,10 +8,11 @@
 /// keyed by reach id, where a value may be missing (an empty cell, `NA`,
 /// `NaN`). Observations are never held or extended: a run sample gets an
 /// observed value when an observation lies at its time (within
-/// kSameInstant_s), or, linearly interpolated, when two consecutive
-/// observations lie on either side of it, each within one run step of it.
-/// Elsewhere (outside the record, across longer gaps, between coarser
-/// observations) it has none (NaN) and is not compared. Time stamps with
+/// kSameInstant_s), or, linearly interpolated, when it lies between two
+/// consecutive observations at most one run step apart. Elsewhere (outside
+/// the record, across a missing value, between observations coarser than
+/// the run's step) it has none (NaN) and is not compared: no observation is
+/// invented across a gap. Time stamps with
 /// any UTC offset are read as instants.
 
 #include <filesystem>

@@ -1,0 +1,97 @@
+#pragma once
+/// \file
+/// Calibration against gauges (`reachwise calibrate`): a multiplier per
+/// gauged sub-basin on Manning's n (or on the bottom width), chosen by a
+/// bounded derivative-free optimiser so that the routed outflow at the
+/// gauge best matches the observed one (docs/methods.md, "Calibration").
+///
+/// Sub-basins are calibrated from upstream to downstream: a gauge's
+/// sub-basin is every reach upstream of it (its own reach included) that
+/// no gauge above it already holds, and its multiplier is chosen with the
+/// multipliers above it fixed at their calibrated values. Reaches below
+/// every gauge keep their roughness (multiplier 1).
+
+#include <cstddef>
+#include <functional>
+#include <limits>
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "reachwise/gauges/Skill.hpp"
+#include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/ReachRouter.hpp"
+#include "reachwise/run/Forcing.hpp"
+#include "reachwise/run/Gauges.hpp"
+#include "reachwise/run/Network.hpp"
+
+namespace reachwise::run {
+
+enum class CalibrationParameter { Roughness, Width };
+enum class Objective { Kge, Nse, PeakWeightedNse };
+
+/// `n` / `width`; `kge` / `nse` / `nse_peak`.
+std::string_view parameterName(CalibrationParameter p);
+std::string_view objectiveName(Objective o);
+/// The objective's score (higher is better, 1 is a perfect fit).
+double objectiveScore(Objective o, const gauges::SkillScores& s);
+
+struct CalibrationSettings {
+  CalibrationParameter parameter = CalibrationParameter::Roughness;
+  double lower = 0.5, upper = 2.0;      ///< bounds of the multiplier, 0 < lower < upper
+  Objective objective = Objective::Kge;
+  std::size_t max_evaluations = 60;     ///< routings per sub-basin
+  double tolerance = 1e-3;              ///< relative change of the multiplier at which to stop
+  /// Fewer observations than this in the run leave a gauge out (its reaches
+  /// go to the gauge below).
+  std::size_t min_observations = 10;
+};
+
+struct CalibrateRequest {
+  NetworkSource network;
+  ForcingFiles forcing;
+  GaugeFiles gauges;
+  routing::Method method = routing::Method::VariableParameter;
+  double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
+  unsigned threads = 0;
+  CalibrationSettings settings;
+  /// Told of each sub-basin when done (upstream first); may be empty.
+  std::function<void(const struct SubBasinResult&)> on_sub_basin;
+};
+
+struct SubBasinResult {
+  std::string gauge_id, reach_id;
+  std::vector<std::uint32_t> reaches;   ///< plan indices of the sub-basin
+  double multiplier = 1;
+  gauges::SkillScores before, after;    ///< at multiplier 1 (upstream calibrated) and at the result
+  std::size_t evaluations = 0;
+  bool at_bound = false;                ///< the result lies on a bound (within the tolerance)
+};
+
+struct CalibrationResult {
+  std::unique_ptr<LoadedNetwork> network;
+  network::NetworkPlan plan;            ///< sections as calibrated
+  routing::TimeAxis axis;
+  BoundGauges gauges;
+  std::vector<SubBasinResult> sub_basins;   ///< upstream first
+  std::vector<double> multiplier;           ///< per plan reach; 1 where not calibrated
+  std::vector<gauges::SkillScores> scores;  ///< every gauge, routed with every multiplier
+  std::vector<std::string> left_out;        ///< gauges not calibrated, with the reason
+  std::size_t uncalibrated_reaches = 0;     ///< reaches below every calibrated gauge
+  std::size_t evaluations = 0;
+};
+
+/// Calibrates. Throws as run::route for bad input, InputError naming the
+/// observed file when no gauge has enough observations, and
+/// InvalidParameter for bad settings.
+CalibrationResult calibrate(const CalibrateRequest& request);
+
+/// The sub-basins of gauges at `gauge_reaches` (plan indices, any order):
+/// for each, in plan (upstream-first) order, the reaches upstream of it not
+/// held by a gauge above. Two gauges on one reach share it (the second gets
+/// an empty sub-basin).
+std::vector<std::vector<std::uint32_t>> subBasins(const network::NetworkPlan& plan,
+                                                  const std::vector<std::uint32_t>& gauge_reaches);
+
+}  // namespace reachwise::run

@@ -1,0 +1,261 @@
+#include "reachwise/run/Calibrate.hpp"
+
+#include <fmt/format.h>
+#include <nlopt.hpp>
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+
+#include "reachwise/Error.hpp"
+#include "reachwise/routing/NetworkRouter.hpp"
+
+namespace reachwise::run {
+
+std::string_view parameterName(CalibrationParameter p) {
+  return p == CalibrationParameter::Roughness ? "n" : "width";
+}
+
+std::string_view objectiveName(Objective o) {
+  switch (o) {
+    case Objective::Nse:
+      return "nse";
+    case Objective::PeakWeightedNse:
+      return "nse_peak";
+    case Objective::Kge:
+      break;
+  }
+  return "kge";
+}
+
+double objectiveScore(Objective o, const gauges::SkillScores& s) {
+  switch (o) {
+    case Objective::Nse:
+      return s.nse;
+    case Objective::PeakWeightedNse:
+      return s.nse_peak_weighted;
+    case Objective::Kge:
+      break;
+  }
+  return s.kge;
+}
+
+std::vector<std::vector<std::uint32_t>> subBasins(const network::NetworkPlan& plan,
+                                                  const std::vector<std::uint32_t>& gauge_reaches) {
+  std::vector<std::size_t> order(gauge_reaches.size());
+  for (std::size_t k = 0; k < order.size(); ++k) order[k] = k;
+  std::stable_sort(order.begin(), order.end(),
+                   [&](std::size_t a, std::size_t b) { return gauge_reaches[a] < gauge_reaches[b]; });
+  std::vector<char> held(plan.size(), 0);
+  std::vector<std::vector<std::uint32_t>> basins(gauge_reaches.size());
+  for (const std::size_t k : order) {
+    const std::uint32_t g = gauge_reaches[k];
+    if (held[g]) continue;  // a second gauge on the reach
+    std::vector<std::uint32_t> stack{g};
+    held[g] = 1;
+    while (!stack.empty()) {
+      const std::uint32_t r = stack.back();
+      stack.pop_back();
+      basins[k].push_back(r);
+      for (std::uint32_t u = plan.up_offset[r]; u < plan.up_offset[r + 1]; ++u) {
+        const std::uint32_t up = plan.up_reach[u];
+        if (!held[up]) {
+          held[up] = 1;
+          stack.push_back(up);
+        }
+      }
+    }
+    std::sort(basins[k].begin(), basins[k].end());
+  }
+  return basins;
+}
+
+namespace {
+
+void checkSettings(const CalibrationSettings& s) {
+  if (!(std::isfinite(s.lower) && s.lower > 0))
+    throw InvalidParameter("calibrate.lower", fmt::format("must be > 0, got {}", s.lower));
+  if (!(std::isfinite(s.upper) && s.upper > s.lower))
+    throw InvalidParameter("calibrate.upper", fmt::format("must be above lower ({}), got {}", s.lower, s.upper));
+  if (s.max_evaluations < 4) throw InvalidParameter("calibrate.max_evaluations", "must be at least 4");
+  if (!(s.tolerance > 0 && s.tolerance < 1))
+    throw InvalidParameter("calibrate.tolerance", fmt::format("must lie in (0, 1), got {}", s.tolerance));
+}
+
+/// Routes the plan as it stands and keeps the gauges' outflow.
+class Router {
+public:
+  Router(const CalibrateRequest& request, const LoadedNetwork& net, network::NetworkPlan& plan,
+         const RunForcing& forcing, const std::vector<std::uint32_t>& gauge_reaches)
+      : plan_(plan), forcing_(forcing), capture_(plan.size(), gauge_reaches) {
+    options_.reach.method = request.method;
+    options_.reach.diffusion_below_ponce = request.diffusion_below_ponce;
+    options_.threads = request.threads;
+    options_.base_flow_m3s = baseFlows(plan);
+    options_.lake_at_top = lakesAtTop(net, plan);
+    if (net.lakes) {
+      options_.lake_initial_level_m.assign(plan.size(), std::nan(""));
+      for (std::size_t i = 0; i < plan.size(); ++i)
+        if (options_.lake_at_top[i]) {
+          const auto k = static_cast<std::size_t>(options_.lake_at_top[i] - net.lake_pools.data());
+          if (const auto& h0 = net.lakes->lakes[k].initial_level_m) options_.lake_initial_level_m[i] = *h0;
+        }
+    }
+  }
+  const OutflowCapture& route() {
+    (void)routing::routeNetwork(plan_, forcing_.axis(), forcing_.provider(), options_, &capture_);
+    ++routings_;
+    return capture_;
+  }
+  std::size_t routings() const { return routings_; }
+
+private:
+  network::NetworkPlan& plan_;
+  const RunForcing& forcing_;
+  routing::NetworkRouteOptions options_;
+  OutflowCapture capture_;
+  std::size_t routings_ = 0;
+};
+
+}  // namespace
+
+CalibrationResult calibrate(const CalibrateRequest& request) {
+  const CalibrationSettings& settings = request.settings;
+  checkSettings(settings);
+  CalibrationResult out;
+  out.network = loadNetwork(request.network);
+  const LoadedNetwork& net = *out.network;
+  out.plan = routablePlan(net);
+  network::NetworkPlan& plan = out.plan;
+  const RunForcing forcing(request.forcing, plan, net.config.units);
+  out.axis = forcing.axis();
+  if (request.gauges.observed.empty()) {
+    InputLocation at;
+    at.field = "observed";
+    throw InputError(at, "calibration needs observed hydrographs (--observed)");
+  }
+  out.gauges = bindGauges(request.gauges, net, plan, out.axis, net.config.units);
+  const auto& gauges = out.gauges.gauges;
+
+  // Gauges with enough observations are calibrated; the others are left out.
+  std::vector<std::size_t> used;
+  std::vector<std::uint32_t> used_reaches, all_reaches;
+  std::map<std::uint32_t, std::string> reach_gauge;
+  for (std::size_t g = 0; g < gauges.size(); ++g) {
+    all_reaches.push_back(gauges[g].reach);
+    const auto n = static_cast<std::size_t>(
+        std::count_if(gauges[g].observed.begin(), gauges[g].observed.end(), [](double v) { return !std::isnan(v); }));
+    if (n < settings.min_observations) {
+      out.left_out.push_back(fmt::format("gauge {}: {} observations within the run (at least {} needed)",
+                                         gauges[g].gauge_id, n, settings.min_observations));
+      continue;
+    }
+    if (const auto it = reach_gauge.find(gauges[g].reach); it != reach_gauge.end()) {
+      out.left_out.push_back(fmt::format("gauge {}: on reach {} with gauge {}, which is calibrated",
+                                         gauges[g].gauge_id, gauges[g].reach_id, it->second));
+      continue;
+    }
+    reach_gauge.emplace(gauges[g].reach, gauges[g].gauge_id);
+    used.push_back(g);
+    used_reaches.push_back(gauges[g].reach);
+  }
+  if (used.empty()) {
+    InputLocation at;
+    at.file = request.gauges.observed;
+    throw InputError(at, fmt::format("no gauge has {} or more observations within the run; nothing to calibrate",
+                                     settings.min_observations));
+  }
+  const auto basins = subBasins(plan, used_reaches);
+
+  const std::vector<hydraulics::Section> base = plan.section;
+  out.multiplier.assign(plan.size(), 1.0);
+  const auto scaled = [&](std::uint32_t r, double m) {
+    return settings.parameter == CalibrationParameter::Roughness ? base[r].withRoughnessScaled(m)
+                                                                  : base[r].withWidthScaled(m);
+  };
+  Router router(request, net, plan, forcing, all_reaches);
+
+  // Upstream first: plan order of the gauges' reaches.
+  std::vector<std::size_t> order(used.size());
+  for (std::size_t k = 0; k < order.size(); ++k) order[k] = k;
+  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return used_reaches[a] < used_reaches[b]; });
+  for (const std::size_t k : order) {
+    const Gauge& gauge = gauges[used[k]];
+    SubBasinResult sb;
+    sb.gauge_id = gauge.gauge_id;
+    sb.reach_id = gauge.reach_id;
+    sb.reaches = basins[k];
+    const auto apply = [&](double m) {
+      for (const auto r : sb.reaches) plan.section[r] = scaled(r, m);
+    };
+    const auto score = [&](double m) {
+      apply(m);
+      const auto& capture = router.route();
+      ++sb.evaluations;
+      return gauges::skill(gauge.observed, capture.outflow(gauge.reach), out.axis.dt_s);
+    };
+    sb.before = score(1.0);
+
+    // Search in log(multiplier): a ratio of 2 up weighs the same as one down.
+    const double lo = std::log(settings.lower), hi = std::log(settings.upper);
+    double best_y = std::clamp(0.0, lo, hi), best_f = std::numeric_limits<double>::infinity();
+    auto f = [&](const std::vector<double>& y, std::vector<double>&, void*) {
+      const double value = 1.0 - objectiveScore(settings.objective, score(std::exp(y[0])));
+      const double v = std::isfinite(value) ? value : std::numeric_limits<double>::max();
+      if (v < best_f) best_f = v, best_y = y[0];
+      return v;
+    };
+    using Fn = decltype(f);
+    const auto call = [](const std::vector<double>& x, std::vector<double>& g, void* data) {
+      return (*static_cast<Fn*>(data))(x, g, nullptr);
+    };
+    const std::size_t global = std::max<std::size_t>(2, settings.max_evaluations * 2 / 3);
+    // Global: DIRECT-L (Gablonsky & Kelley 2001, as implemented by NLopt):
+    // deterministic, bounded, no start point needed.
+    nlopt::opt direct(nlopt::GN_DIRECT_L, 1);
+    direct.set_lower_bounds({lo});
+    direct.set_upper_bounds({hi});
+    direct.set_min_objective(call, static_cast<void*>(&f));
+    direct.set_maxeval(static_cast<int>(global));
+    direct.set_xtol_abs(settings.tolerance);
+    std::vector<double> y{best_y};
+    double fy = 0;
+    try {
+      direct.optimize(y, fy);
+    } catch (const nlopt::roundoff_limited&) {
+    }
+    // Local polish: COBYLA (Powell 1994, as implemented by NLopt) from the best point.
+    const std::size_t left = settings.max_evaluations > sb.evaluations ? settings.max_evaluations - sb.evaluations : 0;
+    if (left >= 2) {
+      nlopt::opt local(nlopt::LN_COBYLA, 1);
+      local.set_lower_bounds({lo});
+      local.set_upper_bounds({hi});
+      local.set_min_objective(call, static_cast<void*>(&f));
+      local.set_maxeval(static_cast<int>(left));
+      local.set_xtol_abs(settings.tolerance);
+      local.set_initial_step(std::max(settings.tolerance * 10, (hi - lo) / 20));
+      y = {best_y};
+      try {
+        local.optimize(y, fy);
+      } catch (const nlopt::roundoff_limited&) {
+      }
+    }
+    sb.multiplier = std::exp(best_y);
+    sb.at_bound = best_y - lo <= settings.tolerance || hi - best_y <= settings.tolerance;
+    sb.after = score(sb.multiplier);  // leaves the sub-basin at its result
+    for (const auto r : sb.reaches) out.multiplier[r] = sb.multiplier;
+    if (request.on_sub_basin) request.on_sub_basin(sb);
+    out.sub_basins.push_back(std::move(sb));
+  }
+  std::vector<char> calibrated(plan.size(), 0);
+  for (const auto& sb : out.sub_basins)
+    for (const auto r : sb.reaches) calibrated[r] = 1;
+  out.uncalibrated_reaches = static_cast<std::size_t>(std::count(calibrated.begin(), calibrated.end(), 0));
+
+  // Every gauge on the calibrated network.
+  out.scores = scoreGauges(gauges, router.route(), out.axis);
+  out.evaluations = router.routings();
+  return out;
+}
+
+}  // namespace reachwise::run
