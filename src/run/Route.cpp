@@ -88,7 +88,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
-  outputs.commit(summary.results, summary.info);
+  outputs.commit(summary.results, summary.info, summary.lakes);
   summary.gpkg = outputs.geopackage();
   if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
     std::vector<io::LakeOutput> rows;
