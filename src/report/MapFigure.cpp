@@ -356,27 +356,40 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
   // Lake labels after the nodes' (which they must not hide), in the
   // figure's order of priority: on the lake, else beside its outline; a
   // label with no free place is left out (the lake's panel names it).
+  // A label covers no other lake either (the outlines' boxes, in pixels).
+  std::vector<Box> lake_box;
   for (const MapLake& l : map.lakes) {
+    Box b{INFINITY, INFINITY, -INFINITY, -INFINITY};
+    for (const auto& ring : *l.rings)
+      for (const auto& p : ring) {
+        b.x0 = std::min(b.x0, X(p.x)), b.x1 = std::max(b.x1, X(p.x));
+        b.y0 = std::min(b.y0, Y(p.y)), b.y1 = std::max(b.y1, Y(p.y));
+      }
+    lake_box.push_back(b);
+  }
+  for (std::size_t i = 0; i < map.lakes.size(); ++i) {
+    const MapLake& l = map.lakes[i];
     if (l.label.empty()) continue;
     const network::Point2 a = lakeAnchor(*l.rings);
     if (!std::isfinite(a.x)) continue;
-    double bx0 = INFINITY, bx1 = -INFINITY, by0 = INFINITY, by1 = -INFINITY;  // outline's box, pixels
-    for (const auto& ring : *l.rings)
-      for (const auto& p : ring) {
-        bx0 = std::min(bx0, X(p.x)), bx1 = std::max(bx1, X(p.x));
-        by0 = std::min(by0, Y(p.y)), by1 = std::max(by1, Y(p.y));
-      }
+    const double bx0 = lake_box[i].x0, bx1 = lake_box[i].x1, by0 = lake_box[i].y0, by1 = lake_box[i].y1;
     const double size = 11.5, w = textWidth(cr, l.label, size, true), h = 12;
     const double ax = X(a.x), ay = Y(a.y);
-    // Left x and baseline y of each place tried.
-    const std::pair<double, double> tries[] = {{ax - w / 2, ay + 4},  {ax - w / 2, by0 - 5}, {ax - w / 2, by1 + 14},
-                                               {bx1 + 5, ay + 4},     {bx0 - 5 - w, ay + 4}, {bx1 + 5, by0 - 3},
-                                               {bx0 - 5 - w, by1 + 12}};
-    for (const auto& [lx, ly] : tries) {
+    // Left x and baseline y of each place tried: on the lake when the label
+    // fits inside its outline's box, else beside the outline (a label on a
+    // small lake would hide it).
+    const bool fits = w + 4 <= bx1 - bx0 && h + 4 <= by1 - by0;
+    const std::pair<double, double> tries[] = {{ax - w / 2, ay + 4},   {bx1 + 5, ay + 4},     {bx0 - 5 - w, ay + 4},
+                                               {ax - w / 2, by0 - 5},  {ax - w / 2, by1 + 14}, {bx1 + 5, by0 - 3},
+                                               {bx0 - 5 - w, by0 - 3}, {bx1 + 5, by1 + 12},   {bx0 - 5 - w, by1 + 12}};
+    for (std::size_t t = fits ? 0 : 1; t < std::size(tries); ++t) {
+      const auto [lx, ly] = tries[t];
       const Box b{lx - 1, ly - h, lx + w + 1, ly + 2};
       const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
-      if (!inside || std::any_of(taken.begin(), taken.end(), [&](const Box& o) { return o.overlaps(b); }))
-        continue;
+      const auto hits = [&](const Box& o) { return o.overlaps(b); };
+      bool free = inside && std::none_of(taken.begin(), taken.end(), hits);
+      for (std::size_t j = 0; free && j < lake_box.size(); ++j) free = j == i || !hits(lake_box[j]);
+      if (!free) continue;
       taken.push_back(b);
       drawHaloText(cr, lx, ly, l.label, size, true, kLakeLabel);
       break;
