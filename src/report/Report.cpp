@@ -70,7 +70,7 @@ detail::LakeFacts lakeFacts(const io::LakeOutput& lake, const routing::TimeAxis&
     }
   }
   for (std::size_t k = 0; k < r.level_m.size(); ++k)
-    if (!(r.level_m[k] <= f.peak_level_m)) {
+    if (std::isfinite(r.level_m[k]) && !(r.level_m[k] <= f.peak_level_m)) {
       f.peak_level_m = r.level_m[k];
       f.peak_level_t = axis.at(static_cast<double>(k));
     }

@@ -205,7 +205,9 @@ LakeFigure lakeFigure(const ReportInputs& in, const ReportModel& m, std::size_t 
   const LakeFacts& f = m.lake_facts[l];
   const DisplayUnits& u = m.units;
   LakeFigure fig;
-  fig.title = fmt::format("Lake {}: outflow into reach {}", lake.lake->lake_id, lake.outflow_reach);
+  fig.title = lake.outflow_reach.empty()
+                  ? fmt::format("Lake {} (terminal: no reach leaves it)", lake.lake->lake_id)
+                  : fmt::format("Lake {}: outflow into reach {}", lake.lake->lake_id, lake.outflow_reach);
   fig.inflow = scaled(lake.routing->inflow_m3s, u);
   fig.outflow = scaled(lake.routing->result.outflow_m3s, u);
   for (const double h : lake.routing->result.level_m) fig.level.push_back(u.len(h));

@@ -38,7 +38,8 @@ std::optional<routing::Method> methodFromName(std::string_view name) {
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results) {
   io::RunInfo info;
   info.inputs = {request.network.path};
-  for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config})
+  for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config,
+                               &request.network.lakes})
     if (!f->empty()) info.inputs.push_back(*f);
   info.method = routing::methodName(request.method);
   info.command_line = provenance(request);

@@ -189,6 +189,8 @@ TEST_F(ReportLakesTest, TableMatchesTheLakesLayerOfTheGeoPackage) {
   // The caution of every report stays, and the lakes section carries its own.
   EXPECT_NE(html.find(io::kResultsCaution), std::string::npos);
   EXPECT_NE(html.find("Level-pool routing takes the lake's surface as level"), std::string::npos);
+  // The run summary lists the lakes file among the inputs.
+  EXPECT_NE(html.find("<code>" + (kSample / "lakes.gpkg").string() + "</code>"), std::string::npos);
 }
 
 TEST_F(ReportLakesTest, PanelAndMapShowTheLake) {

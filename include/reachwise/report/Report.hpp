@@ -91,7 +91,8 @@ struct ReportInputs {
   std::size_t svg_map_max_reaches = 20000;
   /// The routed lakes (run::routedLakes; empty: none): each lake's outline
   /// (in the network's CRS) and id, the reach its outflow enters, and its
-  /// inflow, outflow and level series, one value per axis step.
+  /// inflow, outflow and level series, one value per axis step. An empty
+  /// `outflow_reach` is shown as a terminal lake.
   std::vector<io::LakeOutput> lakes = {};
 };
 
