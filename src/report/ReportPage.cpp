@@ -240,12 +240,16 @@ private:
     for (std::size_t k = 0; k < rows; ++k) {
       const std::size_t l = m_.shown_lakes[k];
       const LakeFacts& f = m_.lake_facts[l];
-      out_ << "<tr><td>" << esc(in_.lakes[l].lake->lake_id) << "</td><td>" << (in_.lakes[l].outflow_reach.empty() ? "(terminal)" : esc(in_.lakes[l].outflow_reach))
-           << "</td><td class=\"num\">" << num(u_.q(f.inflow_peak_m3s), 2) << "</td><td>"
-           << esc(time(f.inflow_peak_t)) << "</td><td class=\"num\">" << num(u_.q(f.outflow_peak_m3s), 2)
-           << "</td><td>" << esc(time(f.outflow_peak_t)) << "</td><td class=\"num\">" << num(f.attenuation_pct, 1)
-           << "</td><td class=\"num\">" << num(f.lag_h, 2) << "</td><td class=\"num\">"
-           << num(u_.len(f.peak_level_m), 2) << "</td></tr>\n";
+      const std::string& into = in_.lakes[l].outflow_reach;
+      out_ << "<tr><td>" << esc(in_.lakes[l].lake->lake_id) << "</td><td>"
+           << (into.empty() ? std::string("(terminal)") : esc(into))
+           << "</td><td class=\"num\">" << num(u_.q(f.inflow_peak_m3s), 2)
+           << "</td><td>" << esc(time(f.inflow_peak_t))
+           << "</td><td class=\"num\">" << num(u_.q(f.outflow_peak_m3s), 2)
+           << "</td><td>" << esc(time(f.outflow_peak_t))
+           << "</td><td class=\"num\">" << num(f.attenuation_pct, 1)
+           << "</td><td class=\"num\">" << num(f.lag_h, 2)
+           << "</td><td class=\"num\">" << num(u_.len(f.peak_level_m), 2) << "</td></tr>\n";
     }
     out_ << "</tbody>\n</table>\n";
     if (m_.lake_figures.size() < m_.shown_lakes.size())
