@@ -199,6 +199,12 @@ TEST_F(ReportLakesTest, PanelAndMapShowTheLake) {
   EXPECT_NE(html.find("src=\"lake-1.svg\""), std::string::npos);
   EXPECT_NE(html.find("Inflow, outflow and level of Lake RES1"), std::string::npos);
   EXPECT_NE(html.find("1 lake"), std::string::npos);
+  // The key numbers name the lake with its attenuation (the lakes layer's, 1 decimal).
+  const auto lakes = gpkgLakes(lakeRun().gpkg);
+  ASSERT_EQ(lakes.size(), 1u);
+  EXPECT_NE(html.find("<div class=\"k\">lake attenuation</div><div class=\"v\">" +
+                      fmt::format("{:.1f} %", lakes[0].attenuation) + "</div><div class=\"d\">lake RES1:"),
+            std::string::npos);
   for (const char* f : {"lake-1.svg", "map.svg"}) {
     const std::string svg = readText(report() / f);
     CPLXMLNode* root = CPLParseXMLString(svg.c_str());  // an independent reader refusing malformed XML
