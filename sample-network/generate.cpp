@@ -3,6 +3,7 @@
 //   reachwise_make_sample [OUT_DIR]     (default: the folder of this file)
 #include <cpl_conv.h>
 #include <gdal_priv.h>
+#include <ogr_geometry.h>
 #include <ogrsf_frmts.h>
 
 #include <algorithm>
@@ -10,6 +11,7 @@
 #include <cstdint>
 #include <cstdio>
 #include <filesystem>
+#include <memory>
 #include <optional>
 #include <stdexcept>
 #include <string>
@@ -292,6 +294,106 @@ void writeDem(const std::filesystem::path& path, const std::vector<Reach>& reach
   std::filesystem::rename(tmp, path);
 }
 
+/// Distance (m) along a line from its downstream end, and the point and
+/// the upstream direction there.
+struct Station {
+  Pt p, up;
+};
+Station upstreamFrom(const std::vector<Pt>& line, double s) {
+  for (std::size_t i = line.size() - 1; i > 0; --i) {
+    const Pt a = line[i], b = line[i - 1];  // walking upstream from a to b
+    const double len = std::hypot(b.x - a.x, b.y - a.y);
+    const Pt u{(b.x - a.x) / len, (b.y - a.y) / len};
+    if (s <= len || i == 1) return {{a.x + s * u.x, a.y + s * u.y}, u};
+    s -= len;
+  }
+  throw std::runtime_error("empty line");
+}
+
+/// The demo reservoir: a dam across the valley where R14 flows into R13
+/// (the bottom of R14), its lake reaching `length` metres up R14's valley,
+/// `width` metres wide at the dam and narrowing to a round head (the union
+/// of discs along the line, cut straight across at the dam). The dam stands
+/// 30 m below the node, so that the node (R14's downstream end, R13's
+/// upstream end) lies inside the outline and R14's upstream end far outside.
+OGRPolygon reservoirOutline(const Reach& above, double length, double width) {
+  const Station dam = upstreamFrom(above.line, 0.0);
+  OGRMultiPolygon discs;
+  for (double s = 0; s <= length; s += 25) {
+    const Station st = upstreamFrom(above.line, s);
+    const double r = 0.5 * width * std::sqrt(std::max(0.0, 1.0 - std::pow(s / length, 2.0)));
+    if (r < 5) continue;
+    OGRPoint c(st.p.x, st.p.y);
+    discs.addGeometryDirectly(c.Buffer(r, 16));
+  }
+  std::unique_ptr<OGRGeometry> lake(discs.UnionCascaded());
+  // Keep what lies upstream of the dam line (30 m below the node, across the valley).
+  const Pt d = dam.up, n{-d.y, d.x};
+  const Pt o{dam.p.x - 30 * d.x, dam.p.y - 30 * d.y};
+  const double big = 10 * (length + width);
+  OGRLinearRing ring;
+  ring.addPoint(o.x + big * n.x, o.y + big * n.y);
+  ring.addPoint(o.x + big * n.x + big * d.x, o.y + big * n.y + big * d.y);
+  ring.addPoint(o.x - big * n.x + big * d.x, o.y - big * n.y + big * d.y);
+  ring.addPoint(o.x - big * n.x, o.y - big * n.y);
+  ring.closeRings();
+  OGRPolygon half;
+  half.addRing(&ring);
+  std::unique_ptr<OGRGeometry> cut(lake ? lake->Intersection(&half) : nullptr);
+  if (!cut || wkbFlatten(cut->getGeometryType()) != wkbPolygon)
+    throw std::runtime_error("the reservoir outline is not one polygon (GDAL needs GEOS here)");
+  std::unique_ptr<OGRGeometry> simple(cut->SimplifyPreserveTopology(2.0));
+  OGRPolygon out;
+  OGRLinearRing rounded;
+  for (const OGRPoint& p : *simple->toPolygon()->getExteriorRing())
+    rounded.addPoint(std::round(p.getX() * 100) / 100, std::round(p.getY() * 100) / 100);
+  rounded.closeRings();
+  out.addRing(&rounded);
+  if (!out.IsValid()) throw std::runtime_error("the reservoir outline is not a valid polygon");
+  return out;
+}
+
+/// lakes.gpkg: the demo reservoir RES1 on the tributary R13–R17, a dam
+/// with a free spillway (a broad-crested weir: crest 6 m above the bed at
+/// the dam, 10 m long; the coefficient left to its default).
+void writeLakes(const std::filesystem::path& path, const std::vector<Reach>& reaches) {
+  const auto z = bedElevations(reaches);
+  std::size_t r14 = reaches.size(), r13 = reaches.size();
+  for (std::size_t k = 0; k < reaches.size(); ++k) {
+    if (reaches[k].id == "R14") r14 = k;
+    if (reaches[k].id == "R13") r13 = k;
+  }
+  if (r14 == reaches.size() || r13 == reaches.size() || reaches[r14].to != "R13")
+    throw std::runtime_error("the reservoir's reaches R13 and R14 are not where expected");
+  const double bed = z[r13].front();  // the bed at the dam: R13's top
+  const OGRPolygon outline = reservoirOutline(reaches[r14], 1050.0, 380.0);
+
+  const auto tmp = path.string() + ".tmp.gpkg";
+  std::filesystem::remove(tmp);
+  GDALDriver* drv = GetGDALDriverManager()->GetDriverByName("GPKG");
+  GDALDatasetUniquePtr ds(drv->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+  if (!ds) throw std::runtime_error("cannot create " + tmp);
+  OGRSpatialReference srs;
+  srs.importFromEPSG(32633);  // as the network
+  OGRLayer* layer = ds->CreateLayer("lakes", &srs, wkbPolygon, nullptr);
+  OGRFieldDefn id("lake_id", OFTString);
+  layer->CreateField(&id);
+  for (const char* name : {"crest_level_m", "weir_length_m", "bottom_level_m"}) {
+    OGRFieldDefn f(name, OFTReal);
+    layer->CreateField(&f);
+  }
+  OGRFeature f(layer->GetLayerDefn());
+  f.SetField("lake_id", "RES1");
+  f.SetField("crest_level_m", std::round((bed + 6.0) * 100) / 100);
+  f.SetField("weir_length_m", 10.0);
+  f.SetField("bottom_level_m", std::round(bed * 100) / 100);
+  f.SetGeometry(&outline);
+  if (layer->CreateFeature(&f) != OGRERR_NONE) throw std::runtime_error("cannot write " + tmp);
+  ds.reset();
+  std::filesystem::rename(tmp, path);
+  std::printf("reservoir RES1: %.0f m2, crest %.2f m, bed %.2f m\n", outline.get_Area(), bed + 6.0, bed);
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -321,6 +423,9 @@ int main(int argc, char** argv) {
     // a DEM whose valleys follow them (for `reachwise prepare`).
     write(out / "plain.gpkg", net, {false, false, false});
     writeDem(out / "dem.tif", net);
+
+    // lakes.gpkg: the demo's reservoir (`reachwise demo` routes through it).
+    writeLakes(out / "lakes.gpkg", net);
     std::printf("wrote %zu reaches to %s\n", net.size(), out.string().c_str());
     return 0;
   } catch (const std::exception& e) {

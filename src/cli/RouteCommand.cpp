@@ -230,7 +230,7 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
 
 void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
   auto dir = std::make_shared<std::string>("reachwise-demo");
-  CLI::App* sub = app.add_subcommand("demo", "Route the shipped sample network with its storm scenario");
+  CLI::App* sub = app.add_subcommand("demo", "Route the shipped sample network (with its reservoir) and storm scenario");
   sub->add_option("--out", *dir, "Output folder (default reachwise-demo)");
   sub->callback([&chosen, dir, command_line] {
     chosen = [dir, command_line] {
@@ -239,6 +239,7 @@ void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_li
       o.network = (sample / "network.gpkg").string();
       o.inflow = (sample / "inflow.csv").string();
       o.lateral = (sample / "lateral.csv").string();
+      o.lakes = (sample / "lakes.gpkg").string();  // the reservoir RES1 on the tributary R13-R17
       o.demo = true;
       o.overwrite = true;  // the demo folder is ours to refresh
       o.command_line = command_line;

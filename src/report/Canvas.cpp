@@ -136,7 +136,7 @@ void drawText(cairo_t* cr, double x, double y, std::string_view text, double siz
   cairo_new_path(cr);
 }
 
-void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold) {
+void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold, Rgb colour) {
   selectFont(cr, size, bold);
   const std::string s(text);
   cairo_save(cr);
@@ -147,7 +147,7 @@ void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double
   cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
   cairo_stroke(cr);
   cairo_restore(cr);
-  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  setColour(cr, colour);
   cairo_move_to(cr, x, y);
   cairo_show_text(cr, s.c_str());
   cairo_new_path(cr);

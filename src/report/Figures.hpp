@@ -7,10 +7,12 @@
 #include <cmath>
 #include <cstdint>
 #include <filesystem>
+#include <functional>
 #include <string>
 #include <string_view>
 #include <vector>
 
+#include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
 
 namespace reachwise::report::detail {
@@ -56,7 +58,8 @@ void drawText(cairo_t* cr, double x, double y, std::string_view text, double siz
               bool bold = false);
 double textWidth(cairo_t* cr, std::string_view text, double size, bool bold = false);
 /// Text drawn over a white halo, readable on top of lines.
-void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold = false);
+void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold = false,
+                  Rgb colour = {0.1, 0.1, 0.1});
 
 /// A "nice" tick step (1, 2 or 5 × 10^k) giving about `target` ticks over `span`.
 double niceStep(double span, int target);
@@ -90,9 +93,18 @@ struct MapMarker {
   std::string label;        ///< empty = no label
 };
 
+/// A lake's outline, filled; labelled with its id when `label` is set and
+/// a place is free (lake labels give way to node labels, and to the
+/// labels of lakes listed before them).
+struct MapLake {
+  const std::vector<std::vector<network::Point2>>* rings = nullptr;  ///< CRS units, even–odd rule (not copied)
+  std::string label;
+};
+
 struct MapFigure {
   std::vector<MapLine> lines;
   std::vector<MapMarker> markers;
+  std::vector<MapLake> lakes;
   std::string value_label;  ///< e.g. "peak discharge (m³/s)"
   /// Metres per CRS unit along x at the map's centre (for the scale bar);
   /// NaN when unknown (then the bar is labelled in CRS units).
@@ -127,6 +139,32 @@ struct HydrographFigure {
 };
 
 void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& fig);
+
+/// Adds the polyline of series `q` (samples `dt` apart from `t0`) to the
+/// current path; with more samples than pixel columns, the minimum and
+/// maximum of each column (keeps every peak, bounds the file size).
+void tracePath(cairo_t* cr, const std::vector<double>& q, const TimeScale& ts, double t0, double dt,
+               const std::function<double(double)>& ypix);
+
+// ---- lakes ----
+
+/// One lake's panel: inflow and outflow on the left (discharge) axis, the
+/// level on the right axis.
+struct LakeFigure {
+  std::string title;
+  std::vector<double> inflow, outflow, level;   ///< one value per axis step (display units)
+  double inflow_peak = NAN, inflow_peak_t = NAN;
+  double outflow_peak = NAN, outflow_peak_t = NAN;
+  double level_peak = NAN, level_peak_t = NAN;
+  double crest_level = NAN;                     ///< a weir's crest (display unit), drawn when finite
+  std::int64_t start_unix_s = 0;
+  double dt_s = 3600;
+  std::size_t steps = 0;
+  int utc_offset_min = 0;
+  std::string q_unit, len_unit;
+};
+
+void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig);
 
 // ---- confluence timing ----
 

@@ -20,10 +20,10 @@ std::string localMinute(double t, int offset_min) {
   return iso.substr(0, 10) + " " + iso.substr(11, 5);
 }
 
-/// Polyline of one series; with more samples than pixels, the minimum and
-/// maximum of each pixel column (keeps every peak, bounds the file size).
+}  // namespace
+
 void tracePath(cairo_t* cr, const std::vector<double>& q, const TimeScale& ts, double t0, double dt,
-               const auto& ypix) {
+               const std::function<double(double)>& ypix) {
   const std::size_t n = q.size();
   const std::size_t columns = static_cast<std::size_t>(ts.x1 - ts.x0);
   if (n <= 2 * columns) {
@@ -52,8 +52,6 @@ void tracePath(cairo_t* cr, const std::vector<double>& q, const TimeScale& ts, d
     k = std::max(end, k + 1);
   }
 }
-
-}  // namespace
 
 void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& fig) {
   const double height = kTop + kPlotHeight + 58 + kLegendRow * static_cast<double>(fig.curves.size()) + 8;

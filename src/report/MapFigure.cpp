@@ -1,6 +1,6 @@
 // The network map: reaches coloured (and widened) by peak discharge,
-// confluences and outlets marked, a colour legend, a scale bar and a north
-// arrow in a strip below the map.
+// lakes filled, confluences and outlets marked, a colour legend, a scale
+// bar and a north arrow in a strip below the map.
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -8,10 +8,15 @@
 #include <numeric>
 
 #include "Figures.hpp"
+#include "reachwise/network/Lakes.hpp"
 
 namespace reachwise::report::detail {
 
 namespace {
+
+// Water areas in a light blue under the rivers, outlined a shade darker,
+// labelled in a dark blue (common cartographic practice).
+constexpr Rgb kLakeFill{0.776, 0.878, 0.961}, kLakeEdge{0.38, 0.58, 0.78}, kLakeLabel{0.05, 0.25, 0.50};
 
 constexpr double kMargin = 10, kLegendRow = 84;
 constexpr double kMaxPlotWidth = 940, kMaxPlotHeight = 760, kMinPlotWidth = 540, kMinPlotHeight = 360;
@@ -168,9 +173,9 @@ void drawMarker(cairo_t* cr, MapMarker::Kind kind, double x, double y) {
   cairo_stroke(cr);
 }
 
-void drawMarkerLegend(cairo_t* cr, double x, double y) {
+void drawMarkerLegend(cairo_t* cr, double x, double y, bool lakes) {
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-  drawText(cr, x, y, "nodes", 12, Align::Left, true);
+  drawText(cr, x, y, lakes ? "nodes and lakes" : "nodes", 12, Align::Left, true);
   const std::pair<MapMarker::Kind, const char*> items[] = {
       {MapMarker::Kind::Outlet, "outlet"},
       {MapMarker::Kind::MajorConfluence, "confluence with hydrograph"},
@@ -182,6 +187,33 @@ void drawMarkerLegend(cairo_t* cr, double x, double y) {
     drawText(cr, x + 20, yy, text, 11);
     yy += 18;
   }
+  if (!lakes) return;
+  cairo_rectangle(cr, x + 1.5, yy - 9.5, 11, 10);
+  setColour(cr, kLakeFill);
+  cairo_fill_preserve(cr);
+  setColour(cr, kLakeEdge);
+  cairo_set_line_width(cr, 1);
+  cairo_stroke(cr);
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  drawText(cr, x + 20, yy, "lake or reservoir", 11);
+}
+
+/// Where a lake's label is tried first: the exterior ring's centroid when
+/// it lies inside the lake, else the first vertex.
+network::Point2 lakeAnchor(const std::vector<std::vector<network::Point2>>& rings) {
+  if (rings.empty() || rings.front().empty()) return {NAN, NAN};
+  const auto& r = rings.front();
+  // Centroid of a simple polygon (the shoelace formula; common practice).
+  double a = 0, cx = 0, cy = 0;
+  for (std::size_t i = 0, j = r.size() - 1; i < r.size(); j = i++) {
+    const double c = r[j].x * r[i].y - r[i].x * r[j].y;
+    a += c, cx += (r[j].x + r[i].x) * c, cy += (r[j].y + r[i].y) * c;
+  }
+  if (a != 0) {
+    const network::Point2 p{cx / (3 * a), cy / (3 * a)};
+    if (network::insideRings(rings, p)) return p;
+  }
+  return r.front();
 }
 
 void drawNorthArrow(cairo_t* cr, double x, double y) {
@@ -212,6 +244,12 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
       xmin = std::min(xmin, p.x), xmax = std::max(xmax, p.x);
       ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
     }
+  for (const MapLake& l : map.lakes)
+    for (const auto& ring : *l.rings)
+      for (const auto& p : ring) {
+        xmin = std::min(xmin, p.x), xmax = std::max(xmax, p.x);
+        ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
+      }
   if (!(xmax >= xmin)) xmin = 0, xmax = 1, ymin = 0, ymax = 1;
   const double dx = std::max((xmax - xmin) * map.aspect_x, 1e-9), dy = std::max(ymax - ymin, 1e-9);
   // The map takes the network's shape within kMaxPlot; a tall network gets
@@ -231,13 +269,34 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
     bx[b] = cursor, by[b] = row_y;
     cursor += block_w[b] + 10;
   }
-  const double width = pw + 2 * kMargin, height = row_y + kLegendRow - 16;
+  const bool lakes = !map.lakes.empty();
+  const double width = pw + 2 * kMargin, height = row_y + kLegendRow - 16 + (lakes ? 18 : 0);
 
   Canvas canvas(file, width, height, format);
   cairo_t* cr = canvas.cr();
   cairo_set_source_rgb(cr, 0.975, 0.975, 0.965);
   cairo_rectangle(cr, kMargin, kMargin, pw, ph);
   cairo_fill(cr);
+
+  // Lakes under the rivers (a reach may run into a reservoir's outline).
+  cairo_set_fill_rule(cr, CAIRO_FILL_RULE_EVEN_ODD);  // holes stay open
+  for (const MapLake& l : map.lakes) {
+    for (const auto& ring : *l.rings) {
+      if (ring.size() < 3) continue;
+      bool first = true;
+      for (const auto& p : ring) {
+        (first ? cairo_move_to : cairo_line_to)(cr, X(p.x), Y(p.y));
+        first = false;
+      }
+      cairo_close_path(cr);
+    }
+    setColour(cr, kLakeFill);
+    cairo_fill_preserve(cr);
+    setColour(cr, kLakeEdge);
+    cairo_set_line_width(cr, 1.0);
+    cairo_stroke(cr);
+  }
+  cairo_set_fill_rule(cr, CAIRO_FILL_RULE_WINDING);
 
   // Reaches, smallest flows first so that large rivers are drawn on top.
   const ValueScale vs = valueScale(map.lines);
@@ -294,6 +353,48 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
     taken.push_back(chosen);
     drawHaloText(cr, chosen.x0 + 1, chosen.y1 - 2, m.label, size, true);
   }
+  // Lake labels after the nodes' (which they must not hide), in the
+  // figure's order of priority: on the lake, else beside its outline; a
+  // label with no free place is left out (the lake's panel names it).
+  // A label covers no other lake either (the outlines' boxes, in pixels).
+  std::vector<Box> lake_box;
+  for (const MapLake& l : map.lakes) {
+    Box b{INFINITY, INFINITY, -INFINITY, -INFINITY};
+    for (const auto& ring : *l.rings)
+      for (const auto& p : ring) {
+        b.x0 = std::min(b.x0, X(p.x)), b.x1 = std::max(b.x1, X(p.x));
+        b.y0 = std::min(b.y0, Y(p.y)), b.y1 = std::max(b.y1, Y(p.y));
+      }
+    lake_box.push_back(b);
+  }
+  for (std::size_t i = 0; i < map.lakes.size(); ++i) {
+    const MapLake& l = map.lakes[i];
+    if (l.label.empty()) continue;
+    const network::Point2 a = lakeAnchor(*l.rings);
+    if (!std::isfinite(a.x)) continue;
+    const double bx0 = lake_box[i].x0, bx1 = lake_box[i].x1, by0 = lake_box[i].y0, by1 = lake_box[i].y1;
+    const double size = 11.5, w = textWidth(cr, l.label, size, true), h = 12;
+    const double ax = X(a.x), ay = Y(a.y);
+    // Left x and baseline y of each place tried: on the lake when the label
+    // fits inside its outline's box, else beside the outline (a label on a
+    // small lake would hide it).
+    const bool fits = w + 4 <= bx1 - bx0 && h + 4 <= by1 - by0;
+    const std::pair<double, double> tries[] = {{ax - w / 2, ay + 4},   {bx1 + 5, ay + 4},     {bx0 - 5 - w, ay + 4},
+                                               {ax - w / 2, by0 - 5},  {ax - w / 2, by1 + 14}, {bx1 + 5, by0 - 3},
+                                               {bx0 - 5 - w, by0 - 3}, {bx1 + 5, by1 + 12},   {bx0 - 5 - w, by1 + 12}};
+    for (std::size_t t = fits ? 0 : 1; t < std::size(tries); ++t) {
+      const auto [lx, ly] = tries[t];
+      const Box b{lx - 1, ly - h, lx + w + 1, ly + 2};
+      const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
+      const auto hits = [&](const Box& o) { return o.overlaps(b); };
+      bool free = inside && std::none_of(taken.begin(), taken.end(), hits);
+      for (std::size_t j = 0; free && j < lake_box.size(); ++j) free = j == i || !hits(lake_box[j]);
+      if (!free) continue;
+      taken.push_back(b);
+      drawHaloText(cr, lx, ly, l.label, size, true, kLakeLabel);
+      break;
+    }
+  }
   drawNorthArrow(cr, kMargin + pw - 24, kMargin + 12);
   cairo_set_source_rgb(cr, 0.55, 0.55, 0.55);
   cairo_set_line_width(cr, 1);
@@ -302,7 +403,7 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
 
   drawColourLegend(cr, map, vs, bx[0], by[0]);
   drawScaleBar(cr, map, s * map.aspect_x, bx[1], by[1]);
-  drawMarkerLegend(cr, bx[2], by[2]);
+  drawMarkerLegend(cr, bx[2], by[2], lakes);
   canvas.finish();
   return width;
 }

@@ -16,6 +16,7 @@
 #include "reachwise/hydraulics/Units.hpp"
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/OutputFiles.hpp"
+#include "reachwise/routing/Peak.hpp"
 
 namespace reachwise::report {
 
@@ -51,6 +52,31 @@ bool largerPeak(const routing::NodeSummary& a, const routing::NodeSummary& b) {
   return x > y;
 }
 
+/// A lake's peaks, attenuation, lag and peak level, defined as in the
+/// GeoPackage's `lakes` layer (io::writeLakesLayer).
+detail::LakeFacts lakeFacts(const io::LakeOutput& lake, const routing::TimeAxis& axis) {
+  detail::LakeFacts f;
+  const auto& r = lake.routing->result;
+  if (!lake.routing->inflow_m3s.empty()) {
+    const routing::Peak in = routing::findPeak(lake.routing->inflow_m3s);
+    f.inflow_peak_m3s = in.value;
+    f.inflow_peak_t = axis.at(in.index);
+    if (!r.outflow_m3s.empty()) {
+      const routing::Peak out = routing::findPeak(r.outflow_m3s);
+      f.outflow_peak_m3s = out.value;
+      f.outflow_peak_t = axis.at(out.index);
+      if (in.value > 0) f.attenuation_pct = 100.0 * (1.0 - out.value / in.value);
+      f.lag_h = (out.index - in.index) * axis.dt_s / 3600.0;
+    }
+  }
+  for (std::size_t k = 0; k < r.level_m.size(); ++k)
+    if (std::isfinite(r.level_m[k]) && !(r.level_m[k] <= f.peak_level_m)) {
+      f.peak_level_m = r.level_m[k];
+      f.peak_level_t = axis.at(static_cast<double>(k));
+    }
+  return f;
+}
+
 detail::ReportModel chooseContents(const ReportInputs& in, const ReportSeries& series) {
   detail::ReportModel m;
   m.units.us = in.us_units;
@@ -79,6 +105,16 @@ detail::ReportModel chooseContents(const ReportInputs& in, const ReportSeries& s
     return (std::isnan(x) ? -INFINITY : x) > (std::isnan(y) ? -INFINITY : y);
   });
   if (m.hydrograph_outlets.size() > detail::kShownOutlets) m.hydrograph_outlets.resize(detail::kShownOutlets);
+
+  // Lakes, the largest inflow peak first.
+  for (std::size_t l = 0; l < in.lakes.size(); ++l) {
+    m.lake_facts.push_back(lakeFacts(in.lakes[l], in.results.axis));
+    m.shown_lakes.push_back(l);
+  }
+  std::stable_sort(m.shown_lakes.begin(), m.shown_lakes.end(), [&](std::size_t a, std::size_t b) {
+    const double x = m.lake_facts[a].inflow_peak_m3s, y = m.lake_facts[b].inflow_peak_m3s;
+    return (std::isnan(x) ? -INFINITY : x) > (std::isnan(y) ? -INFINITY : y);
+  });
   return m;
 }
 
@@ -131,6 +167,7 @@ void writeReport(const fs::path& dir, const ReportInputs& in, const ReportSeries
   REACHWISE_ASSERT(&series.plan() == &in.plan);
   REACHWISE_ASSERT(in.results.reaches.size() == in.plan.size());
   REACHWISE_ASSERT(in.plan.record.size() == in.plan.size());
+  for (const auto& lake : in.lakes) REACHWISE_ASSERT(lake.lake && lake.routing);
   fs::path target = dir.lexically_normal();
   if (target.has_filename() == false) target = target.parent_path();
   if (target.empty() || target.filename() == "." || target.filename() == "..")

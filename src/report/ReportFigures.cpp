@@ -75,6 +75,13 @@ MapFigure mapFigure(const ReportInputs& in, const ReportModel& m) {
     map.markers.push_back({plan.bottom[i].x, plan.bottom[i].y, MapMarker::Kind::Outlet,
                            shown_outlet[i] ? "O:" + plan.reach_id[i] : std::string()});
   }
+  // Every lake's outline; labels by priority (the largest inflow first),
+  // all of them while they stay legible, else those with a panel.
+  for (std::size_t k = 0; k < m.shown_lakes.size(); ++k) {
+    const auto* lake = in.lakes[m.shown_lakes[k]].lake;
+    const bool label = in.lakes.size() <= kLabelAllLakes || k < kShownLakes;
+    map.lakes.push_back({&lake->rings, label ? lake->lake_id : std::string()});
+  }
   return map;
 }
 
@@ -193,6 +200,33 @@ TimingFigure timingFigure(const ReportInputs& in, const ReportModel& m) {
   return fig;
 }
 
+LakeFigure lakeFigure(const ReportInputs& in, const ReportModel& m, std::size_t l) {
+  const io::LakeOutput& lake = in.lakes[l];
+  const LakeFacts& f = m.lake_facts[l];
+  const DisplayUnits& u = m.units;
+  LakeFigure fig;
+  fig.title = lake.outflow_reach.empty()
+                  ? fmt::format("Lake {} (terminal: no reach leaves it)", lake.lake->lake_id)
+                  : fmt::format("Lake {}: outflow into reach {}", lake.lake->lake_id, lake.outflow_reach);
+  fig.inflow = scaled(lake.routing->inflow_m3s, u);
+  fig.outflow = scaled(lake.routing->result.outflow_m3s, u);
+  for (const double h : lake.routing->result.level_m) fig.level.push_back(u.len(h));
+  fig.inflow_peak = u.q(f.inflow_peak_m3s);
+  fig.inflow_peak_t = f.inflow_peak_t;
+  fig.outflow_peak = u.q(f.outflow_peak_m3s);
+  fig.outflow_peak_t = f.outflow_peak_t;
+  fig.level_peak = u.len(f.peak_level_m);
+  fig.level_peak_t = f.peak_level_t;
+  if (lake.lake->rule.kind == routing::OutflowRule::Kind::Weir) fig.crest_level = u.len(lake.lake->rule.crest_level_m);
+  fig.start_unix_s = in.results.axis.start_unix_s;
+  fig.dt_s = in.results.axis.dt_s;
+  fig.steps = in.results.axis.steps;
+  fig.utc_offset_min = m.utc_offset_min;
+  fig.q_unit = u.q_unit();
+  fig.len_unit = u.len_unit();
+  return fig;
+}
+
 }  // namespace
 
 void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, const ReportSeries& series,
@@ -200,8 +234,9 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
   const bool png = in.plan.size() > in.svg_map_max_reaches;
   m.map = {png ? "map.png" : "map.svg",
            fmt::format("Reaches coloured and widened by peak discharge ({}); node labels are the ids of the "
-                       "GeoPackage's nodes layer.",
-                       m.units.q_unit()),
+                       "GeoPackage's nodes layer{}.",
+                       m.units.q_unit(),
+                       in.lakes.empty() ? "" : "; lakes and reservoirs in light blue, labelled with their ids"),
            0, true};
   m.map.width_px = drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
 
@@ -217,6 +252,12 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
     FigureFile f{fmt::format("confluence-{}.svg", k + 1), "Confluence " + node.node_id, 620};
     drawHydrograph(folder / f.file, confluenceFigure(in, series, m, node, leavingReach(series, node.node_id)));
     m.confluence_figures.push_back(std::move(f));
+  }
+  for (std::size_t k = 0; k < std::min(m.shown_lakes.size(), kShownLakes); ++k) {
+    const std::size_t l = m.shown_lakes[k];
+    FigureFile f{fmt::format("lake-{}.svg", k + 1), "Lake " + in.lakes[l].lake->lake_id, 620};
+    drawLakeChart(folder / f.file, lakeFigure(in, m, l));
+    m.lake_figures.push_back(std::move(f));
   }
   if (m.timing_confluences.empty()) return;  // the page says there are none
   m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960, true};

@@ -3,6 +3,7 @@
 // outlets and confluences drawn, the figure files written. The page and
 // the figures both read it.
 
+#include <cmath>
 #include <cstdint>
 #include <filesystem>
 #include <string>
@@ -33,6 +34,16 @@ struct FigureFile {
   bool show_caption = false;  ///< else the caption is only the image's alt text
 };
 
+/// One routed lake's numbers, as the `lakes` layer of the GeoPackage
+/// gives them (docs/formats.md, "Lakes and reservoirs").
+struct LakeFacts {
+  double inflow_peak_m3s = NAN, inflow_peak_t = NAN;    ///< interpolated between samples (unix s)
+  double outflow_peak_m3s = NAN, outflow_peak_t = NAN;
+  double attenuation_pct = NAN;                         ///< 100 (1 − outflow peak / inflow peak)
+  double lag_h = NAN;                                   ///< outflow peak time − inflow peak time
+  double peak_level_m = NAN, peak_level_t = NAN;        ///< the highest sample
+};
+
 struct ReportModel {
   DisplayUnits units;
   int utc_offset_min = 0;
@@ -44,6 +55,12 @@ struct ReportModel {
   std::size_t outlet_count = 0, confluence_count = 0;
   FigureFile map, timing;
   std::vector<FigureFile> outlet_figures, confluence_figures;
+  /// One entry per lake of ReportInputs::lakes; `shown_lakes` indexes them,
+  /// largest inflow peak first (the table shows kLakeTableRows, the panels
+  /// the first kShownLakes of them).
+  std::vector<LakeFacts> lake_facts;
+  std::vector<std::size_t> shown_lakes;
+  std::vector<FigureFile> lake_figures;
 };
 
 /// Branch peaks closer than this count as coinciding (the report's rule).
@@ -53,6 +70,11 @@ inline constexpr std::size_t kTimingConfluences = 12;
 inline constexpr std::size_t kShownOutlets = 12;
 inline constexpr std::size_t kTableRows = 10;
 inline constexpr std::size_t kWorstVolumeRows = 5;
+inline constexpr std::size_t kShownLakes = 12;
+inline constexpr std::size_t kLakeTableRows = 50;
+/// Lakes labelled on the map: all of them up to this many, else only those
+/// with a panel.
+inline constexpr std::size_t kLabelAllLakes = 50;
 
 /// `YYYY-MM-DD HH:MM` in the run's offset, rounded to the minute; "-" for NaN.
 std::string displayTime(double unix_s, int utc_offset_min);

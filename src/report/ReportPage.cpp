@@ -73,6 +73,7 @@ th{background:#f0f3f6}
 td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}
 table.kv th{width:230px;background:none;font-weight:normal;color:#555}
 .warn{color:#8a4b00}
+.note{background:#f2f7fb;border-left:4px solid #6b9cc8;padding:6px 12px;margin:8px 0;font-size:14px}
 footer{color:#777;font-size:12.5px;margin-top:30px}
 code{font-size:13px}
 )";
@@ -119,7 +120,8 @@ private:
     };
     out_ << "<p class=\"sub\">" << count(in_.plan.size(), "reach", "reaches") << ", "
          << count(m_.confluence_count, "confluence", "confluences") << ", "
-         << count(m_.outlet_count, "outlet", "outlets") << " &middot; method <b>"
+         << count(m_.outlet_count, "outlet", "outlets")
+         << (in_.lakes.empty() ? "" : ", " + count(in_.lakes.size(), "lake", "lakes")) << " &middot; method <b>"
          << esc(in_.info.method) << "</b> &middot; " << esc(time(static_cast<double>(axis.start_unix_s)))
          << " to " << esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0)))) << " ("
          << esc(offset()) << "), " << axis.steps << " steps of " << num(axis.dt_s, 0) << " s</p>\n";
@@ -144,6 +146,7 @@ private:
       if (n.kind == routing::NodeKind::Confluence && n.branch_spread_s <= kCoincidenceS) ++close;
     card("confluences with branch peaks within 1 h", std::to_string(close),
          fmt::format("of {} confluences", m_.confluence_count));
+    lakeCard();
     const routing::VolumeBalance& v = in_.results.volume;
     card("volume balance error", num(v.error_pct, 3) + " %",
          volume(u_.vol(v.inflow_m3 + v.lateral_m3)) + " " + u_.vol_unit() + " in, " +
@@ -151,6 +154,20 @@ private:
     const auto w = warnings();
     card("warnings", std::to_string(w.size()), w.empty() ? "none" : "listed in the run summary");
     out_ << "</div>\n";
+  }
+
+  /// The lake that lowers its inflow peak most.
+  void lakeCard() {
+    const std::size_t* best = nullptr;
+    for (const std::size_t& l : m_.shown_lakes) {
+      const double a = m_.lake_facts[l].attenuation_pct;
+      if (std::isfinite(a) && (!best || a > m_.lake_facts[*best].attenuation_pct)) best = &l;
+    }
+    if (!best) return;
+    const LakeFacts& f = m_.lake_facts[*best];
+    card(in_.lakes.size() > 1 ? "largest lake attenuation" : "lake attenuation", num(f.attenuation_pct, 1) + " %",
+         "lake " + in_.lakes[*best].lake->lake_id + ": peak " + num(u_.q(f.inflow_peak_m3s), 2) + " → " +
+             num(u_.q(f.outflow_peak_m3s), 2) + " " + u_.q_unit() + ", " + num(f.lag_h, 1) + " h later");
   }
 
   void figure(const FigureFile& f, const std::string& alt) {
@@ -182,6 +199,7 @@ private:
       outletFigures();
       out_ << "</div>\n";
     }
+    lakes();
     out_ << "<h2>Hydrographs at the major confluences</h2>\n";
     if (m_.confluence_figures.empty()) {
       out_ << "<p>The network has no confluences.</p>\n";
@@ -198,6 +216,47 @@ private:
             "before the tributary's arrives.</p>\n";
     if (m_.timing.file.empty()) out_ << "<p>The network has no confluences.</p>\n";
     else figure(m_.timing, "Chart of branch peak times at the major confluences");
+  }
+
+  /// Every routed lake: a table of its peaks and a panel per lake.
+  void lakes() {
+    if (in_.lakes.empty()) return;
+    out_ << "<h2>Lakes and reservoirs</h2>\n<p>Each lake is routed as a level pool (storage indication, "
+            "docs/methods.md): the flow arriving from the reaches that end at it, the outflow by its rule (a "
+            "spillway's weir, a rating table or a linear reservoir) into the reach below, and its level. "
+            "Attenuation: how much lower the outflow peak is than the inflow peak; lag: the outflow peak's time "
+            "less the inflow peak's.</p>\n<p class=\"note\">Level-pool routing takes the lake's surface as "
+            "level and its area as the outline's at every level, and applies the outflow rule as given: gate "
+            "operation, operating rules and wind set-up are not represented, and the rule's values decide the "
+            "result.</p>\n";
+    const std::size_t rows = std::min(m_.shown_lakes.size(), kLakeTableRows);
+    if (rows < m_.shown_lakes.size())
+      out_ << "<p>The " << rows << " lakes with the largest inflow peak of " << m_.shown_lakes.size() << ".</p>\n";
+    const std::string q = u_.q_unit(), len = u_.len_unit();
+    out_ << "<table id=\"lakes\">\n<thead><tr><th>lake</th><th>outflow into reach</th><th class=\"num\">inflow "
+            "peak (" << q << ")</th><th>inflow peak time</th><th class=\"num\">outflow peak (" << q
+         << ")</th><th>outflow peak time</th><th class=\"num\">attenuation (%)</th><th class=\"num\">lag (h)"
+            "</th><th class=\"num\">peak level (" << len << ")</th></tr></thead>\n<tbody>\n";
+    for (std::size_t k = 0; k < rows; ++k) {
+      const std::size_t l = m_.shown_lakes[k];
+      const LakeFacts& f = m_.lake_facts[l];
+      const std::string& into = in_.lakes[l].outflow_reach;
+      out_ << "<tr><td>" << esc(in_.lakes[l].lake->lake_id) << "</td><td>"
+           << (into.empty() ? std::string("(terminal)") : esc(into))
+           << "</td><td class=\"num\">" << num(u_.q(f.inflow_peak_m3s), 2)
+           << "</td><td>" << esc(time(f.inflow_peak_t))
+           << "</td><td class=\"num\">" << num(u_.q(f.outflow_peak_m3s), 2)
+           << "</td><td>" << esc(time(f.outflow_peak_t))
+           << "</td><td class=\"num\">" << num(f.attenuation_pct, 1)
+           << "</td><td class=\"num\">" << num(f.lag_h, 2)
+           << "</td><td class=\"num\">" << num(u_.len(f.peak_level_m), 2) << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
+    if (m_.lake_figures.size() < m_.shown_lakes.size())
+      out_ << "<p>Panels for the " << m_.lake_figures.size() << " lakes with the largest inflow peak.</p>\n";
+    out_ << "<div class=\"grid\">\n";
+    for (const auto& f : m_.lake_figures) figure(f, "Inflow, outflow and level of " + f.caption);
+    out_ << "</div>\n";
   }
 
   /// The confluences labelled on the map, with the numbers behind them.

@@ -8,6 +8,7 @@
 #include "reachwise/io/SeriesNetcdf.hpp"
 #include "reachwise/report/Report.hpp"
 #include "reachwise/run/Network.hpp"
+#include "reachwise/run/RoutedLakes.hpp"
 #include "reachwise/run/SeriesChoice.hpp"
 #include "reachwise/version.hpp"
 
@@ -102,10 +103,12 @@ Outputs::~Outputs() = default;
 
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
-void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info) {
+void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
+                     const std::vector<routing::LakeRouting>& lakes) {
   if (w_->gpkg) w_->gpkg->writeSummaries(results, info);
   if (w_->report) {
-    const report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
+    report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
+    ri.lakes = routedLakes(net_, plan_, lakes);
     report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
   }
   if (w_->csv) {

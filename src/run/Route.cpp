@@ -38,7 +38,8 @@ std::optional<routing::Method> methodFromName(std::string_view name) {
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results) {
   io::RunInfo info;
   info.inputs = {request.network.path};
-  for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config})
+  for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config,
+                               &request.network.lakes})
     if (!f->empty()) info.inputs.push_back(*f);
   info.method = routing::methodName(request.method);
   info.command_line = provenance(request);
@@ -88,7 +89,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
-  outputs.commit(summary.results, summary.info);
+  outputs.commit(summary.results, summary.info, summary.lakes);
   summary.gpkg = outputs.geopackage();
   if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
     std::vector<io::LakeOutput> rows;

@@ -5,6 +5,8 @@
 
 #include <cstdlib>
 #include <filesystem>
+#include <fstream>
+#include <iterator>
 #include <memory>
 #include <string>
 
@@ -45,6 +47,18 @@ TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {
     EXPECT_GT(f->GetFieldAsDouble("peak_q"), 0.0);
     EXPECT_LT(std::abs(f->GetFieldAsDouble("volume_error_pct")), 1.0);
   }
+  // The demo routes through the sample's reservoir RES1, whose outflow
+  // enters R13 (sample-network/README.md), and the report shows it.
+  OGRLayer* lakes = ds->GetLayerByName("lakes");
+  ASSERT_NE(lakes, nullptr);
+  ASSERT_EQ(lakes->GetFeatureCount(), 1);
+  std::unique_ptr<OGRFeature> lake(lakes->GetNextFeature());
+  EXPECT_STREQ(lake->GetFieldAsString("lake_id"), "RES1");
+  EXPECT_STREQ(lake->GetFieldAsString("reach_id"), "R13");
+  EXPECT_TRUE(fs::exists(dir / "report" / "lake-1.svg"));
+  std::ifstream page(dir / "report" / "index.html");
+  const std::string html((std::istreambuf_iterator<char>(page)), std::istreambuf_iterator<char>());
+  EXPECT_NE(html.find("<table id=\"lakes\">"), std::string::npos);
 }
 
 TEST(RouteCommand, BadForcingLeavesNoOutput) {

@@ -24,6 +24,7 @@
 #include <string>
 #include <vector>
 
+#include "support/ReportPage.hpp"
 #include "support/Scratch.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Forcing.hpp"
@@ -40,6 +41,9 @@ namespace {
 
 namespace fs = std::filesystem;
 using namespace reachwise;
+using testsupport::readText;
+using testsupport::tableRows;
+using testsupport::trim;
 
 const fs::path kSample = fs::path(REACHWISE_SOURCE_DIR) / "sample-network";
 
@@ -98,13 +102,6 @@ const SampleRun& sampleRun() {
   return run;
 }
 
-std::string readText(const fs::path& p) {
-  std::ifstream in(p, std::ios::binary);
-  std::stringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 /// Every src= and href= value of the page.
 std::vector<std::string> references(const std::string& html) {
   static const std::regex attr(R"re(\b(?:src|href)\s*=\s*["']([^"']*)["'])re", std::regex::icase);
@@ -112,26 +109,6 @@ std::vector<std::string> references(const std::string& html) {
   for (auto it = std::sregex_iterator(html.begin(), html.end(), attr); it != std::sregex_iterator(); ++it)
     out.push_back((*it)[1].str());
   return out;
-}
-
-/// Cell texts of each body row of the table with this id (tags inside a
-/// cell removed, entities left as written).
-std::vector<std::vector<std::string>> tableRows(const std::string& html, const std::string& id) {
-  const auto start = html.find("<table id=\"" + id + "\"");
-  if (start == std::string::npos) return {};
-  const auto body = html.find("<tbody>", start), end = html.find("</table>", start);
-  std::vector<std::vector<std::string>> rows;
-  if (body == std::string::npos || body > end) return rows;
-  const std::string part = html.substr(body, end - body);
-  static const std::regex tr(R"(<tr>(.*?)</tr>)"), td(R"(<td[^>]*>(.*?)</td>)"), tag(R"(<[^>]*>)");
-  for (auto r = std::sregex_iterator(part.begin(), part.end(), tr); r != std::sregex_iterator(); ++r) {
-    const std::string cells = (*r)[1].str();
-    std::vector<std::string> row;
-    for (auto c = std::sregex_iterator(cells.begin(), cells.end(), td); c != std::sregex_iterator(); ++c)
-      row.push_back(std::regex_replace((*c)[1].str(), tag, " "));
-    rows.push_back(row);
-  }
-  return rows;
 }
 
 struct GpkgReach {
@@ -189,11 +166,6 @@ std::set<std::string> gpkgCoincidentConfluences(const fs::path& gpkg) {
       out.insert(f->GetFieldAsString("node_id"));
   }
   return out;
-}
-
-std::string trim(std::string s) {
-  const auto a = s.find_first_not_of(" \t\n"), b = s.find_last_not_of(" \t\n");
-  return a == std::string::npos ? std::string() : s.substr(a, b - a + 1);
 }
 
 class ReportTest : public ::testing::Test {

@@ -4,8 +4,10 @@
 /// drawn with cairo) that a practitioner opens in any browser. It shows a
 /// map of the network coloured by peak discharge, hydrographs at the
 /// outlets and at the confluences with the largest combined peaks, a chart
-/// of how far apart the branch peaks of those confluences arrive, and
-/// tables of the run, the top reaches and the coinciding confluences.
+/// of how far apart the branch peaks of those confluences arrive, each
+/// routed lake (its outline on the map, a panel with inflow, outflow and
+/// level, a table of its peaks), and tables of the run, the top reaches
+/// and the coinciding confluences.
 ///
 /// Use: build a ReportSeries from the plan before routing, let it receive
 /// the series (alone or through io::SeriesFanOut beside the GeoPackage
@@ -20,6 +22,7 @@
 #include <unordered_map>
 #include <vector>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
@@ -86,6 +89,11 @@ struct ReportInputs {
   /// Above this many reaches the map is a PNG instead of an SVG (an SVG of
   /// a million lines would be too heavy for a browser).
   std::size_t svg_map_max_reaches = 20000;
+  /// The routed lakes (run::routedLakes; empty: none): each lake's outline
+  /// (in the network's CRS) and id, the reach its outflow enters, and its
+  /// inflow, outflow and level series, one value per axis step. An empty
+  /// `outflow_reach` is shown as a terminal lake.
+  std::vector<io::LakeOutput> lakes = {};
 };
 
 /// Name of the marker file every report folder holds; writeReport() only

@@ -11,6 +11,7 @@
 
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
+#include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/routing/Results.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
@@ -52,7 +53,10 @@ public:
 
   /// Writes the summaries and the report, then commits every file; the
   /// report comes first so that a failing report leaves no output behind.
-  void commit(const routing::NetworkResults& results, const io::RunInfo& info);
+  /// `lakes`: each lake's routing as routing::routeNetwork filled it
+  /// (RouteSummary::lakes; empty: none), shown in the report.
+  void commit(const routing::NetworkResults& results, const io::RunInfo& info,
+              const std::vector<routing::LakeRouting>& lakes = {});
 
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }
