@@ -35,6 +35,12 @@ std::optional<routing::Method> methodFromName(std::string_view name) {
   return std::nullopt;
 }
 
+const LakeResult* RouteSummary::lake(std::string_view lake_id) const {
+  for (const auto& l : lakes)
+    if (l.lake_id == lake_id) return &l;
+  return nullptr;
+}
+
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results) {
   io::RunInfo info;
   info.inputs = {request.network.path};
@@ -58,7 +64,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   const network::NetworkPlan& plan = summary.plan;
 
   tell.stage("reading the forcing");
-  const RunForcing forcing(request.forcing, plan, net.config.units);
+  const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
   Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), request.sinks);
 
   tell.stage("routing");
@@ -68,19 +74,15 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   ro.threads = request.threads;
   ro.base_flow_m3s = baseFlows(plan);
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
-  ro.lake_at_top = lakesAtTop(net, plan);
-  if (net.lakes) {
-    ro.lake_results = &summary.lakes;
-    ro.lake_initial_level_m.assign(plan.size(), std::nan(""));
-    for (std::size_t i = 0; i < plan.size(); ++i)
-      if (ro.lake_at_top[i]) {
-        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
-        if (const auto& h0 = net.lakes->lakes[k].initial_level_m) ro.lake_initial_level_m[i] = *h0;
-      }
-  }
+  ro.lakes = routedLakes(net, plan);
+  std::vector<routing::LakeRouting> lake_routing;
+  ro.lake_results = &lake_routing;
   const auto t0 = std::chrono::steady_clock::now();
   summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
   summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  for (std::size_t k = 0; k < ro.lakes.size(); ++k)
+    summary.lakes.push_back({k, net.lakes->lakes[k].lake_id, ro.lakes[k].inflow_reaches, ro.lakes[k].outflow_reaches,
+                             ro.lakes[k].outflow_shares, std::move(lake_routing[k])});
 
   tell.stage("writing the results");
   auto& warnings = summary.results.warnings;
@@ -92,11 +94,11 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   summary.gpkg = outputs.geopackage();
   if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
     std::vector<io::LakeOutput> rows;
-    for (std::size_t i = 0; i < summary.lakes.size(); ++i)
-      if (summary.lakes[i].routed) {
-        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
-        rows.push_back({&net.lakes->lakes[k], plan.reach_id[i], &summary.lakes[i]});
-      }
+    for (const LakeResult& lake : summary.lakes) {
+      std::string into;  // empty for a terminal lake
+      for (const auto o : lake.outflow_reaches) into += (into.empty() ? "" : ";") + plan.reach_id[o];
+      rows.push_back({&net.lakes->lakes[lake.lake], into, &lake.routing});
+    }
     io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), rows);
   }
   return summary;

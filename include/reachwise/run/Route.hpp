@@ -69,6 +69,25 @@ public:
   virtual void routed(std::size_t /*done*/, std::size_t /*total*/) {}
 };
 
+/// One lake as a run routed it (RouteSummary::lakes).
+struct LakeResult {
+  /// Which lake: index into `RouteSummary::network->lakes->lakes` (the
+  /// lakes layer's order), and its id.
+  std::size_t lake = 0;
+  std::string lake_id;
+  /// Plan indices (RouteSummary::plan) of the reaches flowing into it, and
+  /// of those its outflow enters, with their shares (summing to 1; one
+  /// reach: 1). No outflowing reach: a terminal lake, whose outflow (what
+  /// it spills) leaves the network.
+  std::vector<std::uint32_t> inflow_reaches, outflow_reaches;
+  std::vector<double> outflow_shares;
+  /// Its inflow (the sum of what arrives at it, m^3/s on the run's axis)
+  /// and level-pool routing: outflow, level and storage series, volumes.
+  routing::LakeRouting routing;
+
+  bool terminal() const { return outflow_reaches.empty(); }
+};
+
 struct RouteSummary {
   std::unique_ptr<LoadedNetwork> network;   ///< the layer as read, its graph and its problems
   network::NetworkPlan plan;
@@ -78,9 +97,13 @@ struct RouteSummary {
   io::RunInfo info;                         ///< what run_info records
   std::string gpkg;                         ///< the GeoPackage written, or empty
   double routing_s = 0;                     ///< wall time of the routing alone (threads: results.threads)
-  /// Each lake's routing by plan index of the reach it feeds (`routed`
-  /// false elsewhere; empty when no lakes were given).
-  std::vector<routing::LakeRouting> lakes;
+  /// Every lake, in the lakes layer's order (`lakes[k].lake == k`; empty
+  /// when no lakes were given): where it sits in the plan and its routing.
+  /// Every lake of the layer is routed (a lake that cannot be is an
+  /// error), terminal lakes included.
+  std::vector<LakeResult> lakes;
+  /// The lake of that id; nullptr when there is none.
+  const LakeResult* lake(std::string_view lake_id) const;
 };
 
 /// Routes `request`. Throws NetworkHasErrors when the network cannot be
