@@ -1,5 +1,5 @@
 // A lake in the middle of a small network: two tributaries flow into it and
-// the lake's outflow enters the reach below (NetworkRouteOptions::lake_at_top).
+// the lake's outflow enters the reach below (NetworkRouteOptions::lakes).
 // Checked against the tributaries' own outflows (the lake's inflow), an RK4
 // written here on dS/dt = I − C L (S/A)^1.5 with a 1 s step (the lake's
 // outflow), and the network's volume balance with the lake's storage.

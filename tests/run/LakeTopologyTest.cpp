@@ -414,6 +414,19 @@ TEST(LakeTopology, ReachesNameTheirLakeOnAToReachNetwork) {
   EXPECT_TRUE(contains(e, "net.gpkg") && contains(e, "feature 4") && contains(e, "reach D") &&
               contains(e, "field LAKE") && contains(e, "\"Nowhere\""))
       << e;
+  // A reach flowing into C, below the lake, without naming it: the lake
+  // cannot sit at C's top.
+  writeNetwork(at("net.gpkg"),
+               {{"A", std::string("C"), std::string("L"), 0, 10000, 0, 8000},
+                {"B", std::string("C"), std::string("L"), 2000, 10000, 0, 8000},
+                {"Z", std::string("C"), {}, -2000, 10000, 0, 8000},
+                {"C", {}, {}, 0, 8000, 0, 0},
+                {"D", {}, std::string("T"), 5000, 9000, 5000, 4000}},
+               true, "LAKE");
+  e = errorOf([&] { run::route(request); });
+  EXPECT_TRUE(contains(e, "lakes.gpkg") && contains(e, "lake L") && contains(e, "reach Z flows into C") &&
+              contains(e, "give it lake_id = L"))
+      << e;
   // Reaches naming one lake but flowing into different reaches.
   network("T", "");
   e = errorOf([&] { run::route(request); });
