@@ -225,21 +225,35 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
     for (const auto& lake : net->lakes->lakes) net->lake_pools.push_back(lake.levelPool());
     net->lake_splits = takeLakeSplits(rules, net->table, *net->lakes);
   }
-  net->graph.emplace(net->table, rules);
+  // A split table naming a lake resolves the shares of the bifurcations
+  // the joining makes of the lake's inflowing reaches, which may already
+  // bifurcate into its outflowing reaches: until then, `none` is taken as
+  // `equal` (the graph is built again with the rules as given).
+  network::SplitRules first = rules;
+  if (!net->lake_splits.empty() && first.fallback == network::DefaultSplit::None)
+    first.fallback = network::DefaultSplit::Equal;
+  net->graph.emplace(net->table, first);
   if (!dem.empty() && net->graph->topologicalOrder()) {
     const io::PrepareConfig prepare =
         source.config.empty() ? io::PrepareConfig{} : io::PrepareConfig::fromFile(source.config);
     net->derived = deriveAttributes(*net, dem, prepare);
   }
+  const network::ProblemList read_problems = net->problems;
   network::mergeProblems(net->problems, network::validate(*net->graph));
   if (net->lakes && !net->hasErrors()) {
     net->lake_plan = net->graph->freeze();
     network::ProblemList found;
     net->lake_links = linkAll(*net, found);
-    network::mergeProblems(net->problems, std::move(found));
-    if (!net->hasErrors() && joinThroughLakes(*net, rules)) {
-      // The graph again, on the re-wired table: lakes now sit on nodes.
+    network::mergeProblems(net->problems, found);
+    const std::size_t overrides = rules.overrides.size();
+    if (!net->hasErrors() && (joinThroughLakes(*net, rules) || rules.overrides.size() != overrides ||
+                              first.fallback != rules.fallback)) {
+      // The graph again, on the re-wired table: lakes now sit on nodes. Its
+      // validation replaces the first one's (which saw the reaches now
+      // dropped, and the network before the join).
       net->graph.emplace(net->table, rules);
+      net->problems = read_problems;
+      network::mergeProblems(net->problems, found);
       network::mergeProblems(net->problems, network::validate(*net->graph));
       if (!net->hasErrors()) {
         net->lake_plan = net->graph->freeze();

@@ -244,16 +244,18 @@ TEST(LakeTopology, LakeWithTwoOutflowingReachesSharesItsOutflow) {
               in_peak, out_peak, s.results.reaches[c].volume.inflow_m3, s.results.reaches[d].volume.inflow_m3, out,
               s.results.volume.error_pct);
 
-  // A split table naming the lake.
+  // A split table naming the lake, with no default rule: the table alone
+  // gives the shares (A and B already split into C and D before the join).
   {
     std::ofstream toml(at("run.toml"));
-    toml << "[[network.split]]\nat = \"L\"\nshares = { C = 0.8, D = 0.2 }\n";
+    toml << "[network]\ndefault_split = \"none\"\n\n[[network.split]]\nat = \"L\"\nshares = { C = 0.8, D = 0.2 }\n";
   }
   request.network.config = at("run.toml");
   request.outputs.gpkg.clear();
   const run::RouteSummary t = run::route(request);
   const run::LakeResult* m = t.lake("L");
   ASSERT_NE(m, nullptr);
+  for (const auto& p : t.network->problems) EXPECT_NE(p.codeName(), "split_assumed") << p.message;
   EXPECT_NEAR(shareOf(*m, "C"), 0.8, 1e-15);
   EXPECT_NEAR(shareOf(*m, "D"), 0.2, 1e-15);
   const double out_t = trapezoids(m->routing.result.outflow_m3s, dt);
