@@ -6,6 +6,7 @@
 #include <cmath>
 #include <limits>
 #include <filesystem>
+#include <functional>
 #include <map>
 #include <set>
 
@@ -288,6 +289,52 @@ network::NetworkPlan routablePlan(const LoadedNetwork& net) {
   return net.graph->freeze();
 }
 
+namespace {
+
+/// The shares of lake `l`'s outflowing reaches `outs` when no reach flows
+/// into it (so the joining made no bifurcation to take them from): by a
+/// bifurcation's rule, its `[[network.split]]` table, else the reaches'
+/// `split` (every one), else `default_split`.
+std::vector<double> sharesWithoutInflow(const LoadedNetwork& net, std::size_t l, const std::vector<std::uint32_t>& outs,
+                                        const std::function<void(const std::string&)>& refuse) {
+  const auto& lp = *net.lake_plan;
+  const auto record = [&](std::uint32_t o) -> const network::ReachRecord& { return net.table.reaches[lp.record[o]]; };
+  std::vector<double> share;
+  for (const auto& o : net.lake_splits)
+    if (o.at == net.lakes->lakes[l].lake_id) {  // checked against the lake's reaches when joined
+      for (const auto r : outs)
+        for (const auto& [id, value] : o.shares)
+          if (id == lp.reach_id[r]) share.push_back(value);
+      return share;
+    }
+  std::size_t given = 0;
+  for (const auto r : outs) given += !std::isnan(record(r).split);
+  if (given == outs.size()) {
+    double sum = 0;
+    for (const auto r : outs) sum += record(r).split;
+    if (std::abs(sum - 1.0) > network::kSplitSumTolerance)
+      refuse(fmt::format("the split values of its outflowing reaches sum to {}, not 1", sum));
+    for (const auto r : outs) share.push_back(record(r).split);
+    return share;
+  }
+  if (given > 0 || net.config.splits.fallback == network::DefaultSplit::None)
+    refuse("its outflowing reaches need a split value each (or a [[network.split]] table naming the lake, or "
+           "default_split = \"width\" or \"equal\")");
+  double total = 0;
+  bool widths = net.config.splits.fallback == network::DefaultSplit::Width;
+  for (const auto r : outs) {
+    const auto& rec = record(r);
+    const double w = rec.section.shape == hydraulics::Shape::Circle ? rec.section.diameter_m : rec.section.bottom_width_m;
+    if (!(w > 0) || !std::isfinite(w)) widths = false;
+    share.push_back(w);
+    total += w;
+  }
+  for (double& s : share) s = widths ? s / total : 1.0 / static_cast<double>(outs.size());
+  return share;
+}
+
+}  // namespace
+
 std::vector<routing::NetworkLake> routedLakes(const LoadedNetwork& net, const network::NetworkPlan& plan) {
   std::vector<routing::NetworkLake> out;
   if (!net.lakes) return out;
@@ -317,10 +364,9 @@ std::vector<routing::NetworkLake> routedLakes(const LoadedNetwork& net, const ne
       if (lake.outflow_reaches.empty() && !lp.isOutlet(u))
         refuse(fmt::format("it has no outflowing reach, but reach {}, which flows into it, flows on into {}",
                            lp.reach_id[u], lp.reach_id[lp.down_reach[lp.down_offset[u]]]));
-    if (lake.outflow_reaches.size() > 1 && lake.inflow_reaches.empty())
-      refuse(fmt::format("its outflow would be shared among its outflowing reaches {}, but no reach flows into it "
-                         "to share it as a bifurcation; give the reaches flowing in (lake_id on a to_reach network)",
-                         ids(lake.outflow_reaches)));
+    const bool own_shares = lake.outflow_reaches.size() > 1 && lake.inflow_reaches.empty();
+    const std::vector<double> shares =
+        own_shares ? sharesWithoutInflow(net, l, lake.outflow_reaches, refuse) : std::vector<double>{};
     for (const auto o : lake.outflow_reaches) {
       std::vector<std::uint32_t> ups(lp.up_reach.begin() + lp.up_offset[o], lp.up_reach.begin() + lp.up_offset[o + 1]);
       std::sort(ups.begin(), ups.end());
@@ -337,7 +383,9 @@ std::vector<routing::NetworkLake> routedLakes(const LoadedNetwork& net, const ne
       REACHWISE_ASSERT(plan.reach_id[o] == lp.reach_id[o]);
       if (const auto [it, fresh] = leaving.emplace(o, l); !fresh)
         refuse(fmt::format("reach {} leaves it and lake {} both", lp.reach_id[o], lakes[it->second].lake_id));
-      const double share = lake.outflow_reaches.size() == 1 ? 1.0 : plan.split[o];
+      const double share = lake.outflow_reaches.size() == 1 ? 1.0
+                           : own_shares                     ? shares[lake.outflow_shares.size()]
+                                                            : plan.split[o];
       if (!(share >= 0)) refuse(fmt::format("no share of its outflow for reach {}", lp.reach_id[o]));
       lake.outflow_shares.push_back(share);
     }

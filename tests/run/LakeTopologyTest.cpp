@@ -454,3 +454,35 @@ TEST(LakeTopology, ForcingForAReachInsideALakeNamesTheLake) {
   const std::string e = errorOf([&] { run::route(request); });
   EXPECT_TRUE(contains(e, "inflow.csv") && contains(e, "reach P lies inside lake Mid")) << e;
 }
+
+// A lake that two channels leave and no reach enters (a spring-fed pond
+// with point inflow given at the top of one channel): the inflow passes
+// through the lake and its outflow is shared by the bifurcation rule applied
+// to the channels themselves (bottom widths 20 : 10).
+TEST(LakeTopology, LakeWithoutInflowSharesByTheRuleToo) {
+  testsupport::TempDir dir;
+  const auto at = [&](const char* name) { return (dir.path() / name).string(); };
+  writeNetwork(at("net.gpkg"), {{"C", {}, {}, 0, 5000, -2000, 0, 20}, {"D", {}, {}, 0, 5000, 2000, 0, 10}}, false);
+  writeLakes(at("lakes.gpkg"), {{"Pond", 0, 5000, 200, {{"k_h", 2}}}});
+  writeInflow(at("inflow.csv"), {"C"});
+  run::RouteRequest request;
+  request.network.path = at("net.gpkg");
+  request.network.lakes = at("lakes.gpkg");
+  request.forcing.inflow = at("inflow.csv");
+  request.method = routing::Method::ConstantParameter;
+  const run::RouteSummary s = run::route(request);
+  const run::LakeResult* p = s.lake("Pond");
+  ASSERT_NE(p, nullptr);
+  EXPECT_TRUE(p->inflow_reaches.empty());
+  ASSERT_EQ(p->outflow_reaches.size(), 2u);
+  const std::uint32_t c = indexOf(s.plan, "C"), d = indexOf(s.plan, "D");
+  const double sc = p->outflow_reaches[0] == c ? p->outflow_shares[0] : p->outflow_shares[1];
+  EXPECT_NEAR(sc, 20.0 / 30.0, 1e-12);  // default_split = "width"
+  const double dt = s.results.axis.dt_s;
+  const double out = trapezoids(p->routing.result.outflow_m3s, dt);
+  // The pond took C's point inflow, and C and D share what it let out.
+  EXPECT_NEAR(p->routing.result.volume_in_m3 / s.results.reaches[c].volume.point_inflow_m3, 1.0, 1e-12);
+  EXPECT_NEAR(s.results.reaches[c].volume.inflow_m3 / out, 20.0 / 30.0, 1e-12);
+  EXPECT_NEAR(s.results.reaches[d].volume.inflow_m3 / out, 10.0 / 30.0, 1e-12);
+  EXPECT_LT(std::abs(s.results.volume.error_pct), 0.01) << s.results.volume.error_pct;
+}

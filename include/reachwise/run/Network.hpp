@@ -113,12 +113,13 @@ network::NetworkPlan routablePlan(const LoadedNetwork& net);
 /// the lakes layer's order (index k is `net.lakes->lakes[k]`); empty when no
 /// lakes were given. `plan` is routablePlan(net). A lake with outflowing
 /// reaches sits at their top, each taking its resolved share (the plan's
-/// `split`; 1 for a single reach); a terminal lake takes its inflowing
-/// reaches, outlets of the plan. Throws InputError naming the lakes file
-/// and the lake when a lake cannot be placed on a node: a reach flowing into
-/// an outflowing reach without flowing into the lake (on a `to_reach`
-/// network: give it the `lake_id`), or several outflowing reaches and no
-/// reach flowing in (no shares). No lake is ever skipped silently.
+/// `split`; 1 for a single reach; with no reach flowing in, by the same
+/// rule applied to the lake's own outflowing reaches); a terminal lake
+/// takes its inflowing reaches, outlets of the plan. Throws InputError
+/// naming the lakes file and the lake when a lake cannot be placed on a
+/// node: a reach flowing into an outflowing reach without flowing into the
+/// lake (on a `to_reach` network: give it the `lake_id`), or outflowing
+/// reaches with no share. No lake is ever skipped silently.
 std::vector<routing::NetworkLake> routedLakes(const LoadedNetwork& net, const network::NetworkPlan& plan);
 
 }  // namespace reachwise::run
