@@ -90,9 +90,15 @@ void printLakes(std::ostream& out, const run::LoadedNetwork& net) {
   }
   for (std::size_t l = 0; l < lakes.lakes.size(); ++l) {
     const auto& links = net.lake_links[l];
-    fmt::print(out, "lake {}  area {:.4g} km2, in: {}; out: {}{}{}\n", lakes.lakes[l].lake_id,
+    std::string shares;  // of several outflowing reaches, as resolved
+    if (links.outflow.size() > 1 && !links.inflow.empty()) {
+      for (const auto o : links.outflow)
+        shares += fmt::format("{}{:.3g}", shares.empty() ? " (shares " : ", ", net.lake_plan->split[o]);
+      shares += ")";
+    }
+    fmt::print(out, "lake {}  area {:.4g} km2, in: {}; out: {}{}{}{}\n", lakes.lakes[l].lake_id,
                lakes.lakes[l].area_m2 / 1e6, reachList(*net.lake_plan, links.inflow),
-               reachList(*net.lake_plan, links.outflow), links.terminal() ? " (terminal sink)" : "",
+               reachList(*net.lake_plan, links.outflow), shares, links.terminal() ? " (terminal sink)" : "",
                links.inside.empty() ? std::string() : "; inside: " + reachList(*net.lake_plan, links.inside));
   }
 }

@@ -50,7 +50,7 @@ void writeLakesLayer(const std::string& gpkg, const std::string& crs_wkt, const 
     const routing::Peak o = routing::findPeak(r.outflow_m3s);
     OGRFeature f(layer->GetLayerDefn());
     f.SetField("lake_id", out.lake->lake_id.c_str());
-    f.SetField("reach_id", out.outflow_reach.c_str());
+    if (!out.outflow_reach.empty()) f.SetField("reach_id", out.outflow_reach.c_str());  // null: a terminal lake
     f.SetField("inflow_peak_m3s", in.value);
     setTime(f, "inflow_peak_time", axis.at(in.index));
     f.SetField("outflow_peak_m3s", o.value);

@@ -134,6 +134,9 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
   }
   addLayerField(path, *layer, "reach_id", OFTString);
   addLayerField(path, *layer, "to_reach", OFTString);
+  const bool lake_ids = std::any_of(graph.table().reaches.begin(), graph.table().reaches.end(),
+                                    [](const network::ReachRecord& r) { return !r.lake_id.empty(); });
+  if (lake_ids) addLayerField(path, *layer, "lake_id", OFTString);
   addLayerField(path, *layer, "slope", OFTReal);
   addLayerField(path, *layer, "up_elevation", OFTReal);
   addLayerField(path, *layer, "down_elevation", OFTReal);
@@ -162,6 +165,7 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
     }
     f.SetField("reach_id", r.id.c_str());
     setText(f, "to_reach", r.to_reach.value_or(""));
+    if (lake_ids) setText(f, "lake_id", r.lake_id);
     setNumber(f, "slope", p.slope);
     setNumber(f, "up_elevation", p.up_elevation_m);
     setNumber(f, "down_elevation", p.down_elevation_m);

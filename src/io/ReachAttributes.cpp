@@ -153,6 +153,10 @@ bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& pro
     const Value to = text(f, "to_reach");
     if (to.state == Value::State::Ok) r.to_reach = to.text;
   }
+  if (hasField("lake_id") || config_.field("lake_id").default_text) {
+    const Value lake = text(f, "lake_id");
+    if (lake.state == Value::State::Ok) r.lake_id = lake.text;
+  }
   readLength(f, r, problems);
   readSection(f, r, problems);
   readSlope(f, r, problems);

@@ -101,20 +101,26 @@ std::vector<LakeLinks> linkLakes(const NetworkPlan& plan, const LakeTable& lakes
     if (bottom >= 0) links[static_cast<std::size_t>(bottom)].inflow.push_back(r);
     if (top >= 0) links[static_cast<std::size_t>(top)].outflow.push_back(r);
   }
-  for (std::size_t l = 0; l < links.size(); ++l) {
-    const auto& lake = lakes.lakes[l];
-    const Point2 at = !lake.rings.empty() && !lake.rings.front().empty()
-                          ? lake.rings.front().front()
-                          : Point2{std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN()};
-    if (links[l].outflow.empty())
-      problems.push_back(placed(ProblemCode::TerminalLake,
-                                fmt::format("lake {} has no outflowing reach: a terminal sink", lake.lake_id), at,
-                                {}, lake.fid));
-    if (links[l].inflow.empty())
-      problems.push_back(placed(ProblemCode::LakeWithoutInflow,
-                                fmt::format("no reach flows into lake {}", lake.lake_id), at, {}, lake.fid));
-  }
+  for (std::size_t l = 0; l < links.size(); ++l) reportLakeEnds(lakes.lakes[l], links[l], problems);
   return links;
+}
+
+void reportLakeEnds(const LakeRecord& lake, const LakeLinks& links, ProblemList& problems) {
+  const Point2 at = !lake.rings.empty() && !lake.rings.front().empty()
+                        ? lake.rings.front().front()
+                        : Point2{std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN()};
+  if (links.outflow.empty()) {
+    const char* how = lake.rule.kind == routing::OutflowRule::Kind::Weir ? "spills over its weir"
+                                                                         : "lets out by its outflow rule";
+    problems.push_back(placed(ProblemCode::TerminalLake,
+                              fmt::format("lake {} has no outflowing reach: a terminal sink; it is routed on "
+                                          "what flows in, and what it {} leaves the network",
+                                          lake.lake_id, how),
+                              at, {}, lake.fid));
+  }
+  if (links.inflow.empty())
+    problems.push_back(placed(ProblemCode::LakeWithoutInflow, fmt::format("no reach flows into lake {}", lake.lake_id),
+                              at, {}, lake.fid));
 }
 
 }  // namespace reachwise::network

@@ -92,12 +92,11 @@ public:
     results_.axis = axis;
     results_.reaches.resize(n_);
     top_node_.resize(n_);
-    lake_storage_change_.assign(n_, 0.0);
-    if (options.lake_results) options.lake_results->assign(n_, LakeRouting{});
     for (std::size_t i = 0; i < n_; ++i) {
       pending_[i] = plan.up_offset[i + 1] - plan.up_offset[i];
       consumers_[i] = plan.down_offset[i + 1] - plan.down_offset[i];
     }
+    setUpLakes();
   }
 
   NetworkResults run() {
@@ -121,6 +120,7 @@ public:
       tbb::parallel_for_each(roots.begin(), roots.end(), body);
     }
     if (error_) std::rethrow_exception(error_);
+    routeTerminalLakes();
     collectNodes();
     results_.peak_live_series = peak_live_;
     summariseWarnings();
@@ -150,42 +150,32 @@ private:
     where.reach_id = plan_.reach_id[i];
     where.fid = plan_.fid[i];
 
-    // Top inflow: upstream outflows (their shares) in plan order, then point inflow.
+    // Top inflow: upstream outflows (their shares) in plan order, then
+    // point inflow; or, below a lake, the reach's share of its outflow.
     ws.inflow.assign(steps, 0.0);
-    for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) {
-      const std::uint32_t u = plan_.up_reach[k];
-      const double f = plan_.up_fraction[k];
-      const std::vector<double>& q = *outflow_[u];
-      for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] += f * q[n];
-      release(u);
-    }
     ws.point.assign(steps, 0.0);
     double point_m3 = 0;
-    if (forcing_.inflow(i, ws.point)) {
-      for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] += ws.point[n];
-      // Trapezoids: the reach takes its top inflow as linear between samples.
+    const bool has_point = forcing_.inflow(i, ws.point);
+    if (has_point)  // trapezoids: the reach takes its top inflow as linear between samples
       for (std::size_t n = 1; n < steps; ++n) point_m3 += 0.5 * (ws.point[n - 1] + ws.point[n]) * axis_.dt_s;
-    }
-    if (i < options_.lake_at_top.size() && options_.lake_at_top[i]) {
-      LevelPoolOptions lake_options;
-      if (i < options_.lake_initial_level_m.size() && std::isfinite(options_.lake_initial_level_m[i]))
-        lake_options.initial_level_m = options_.lake_initial_level_m[i];
-      try {
-        LevelPoolResult lake = options_.lake_at_top[i]->route(ws.inflow, axis_.dt_s, lake_options);
-        lake_storage_change_[i] = lake.storage_change_m3;
-        if (options_.lake_results) {
-          LakeRouting& slot = (*options_.lake_results)[i];  // this reach's slot only
-          slot.routed = true;
-          slot.inflow_m3s = ws.inflow;
-          ws.inflow = lake.outflow_m3s;
-          slot.result = std::move(lake);
-        } else {
-          ws.inflow = std::move(lake.outflow_m3s);
-        }
-      } catch (const InvalidParameter& e) {
-        where.field = e.quantity();
-        throw InputError(where, e.what());
+    if (const std::int32_t l = lake_at_top_.empty() ? -1 : lake_at_top_[i]; l >= 0) {
+      // The first outflowing reach to get here routes the lake, on
+      // everything that reaches its node; the others wait for it.
+      std::call_once(lake_once_[static_cast<std::size_t>(l)], [&] { routeLakeAtNode(static_cast<std::size_t>(l)); });
+      const std::vector<double>& q = lake_out_[static_cast<std::size_t>(l)];
+      const double share = share_at_top_[i];
+      for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] = share * q[n];
+      for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) release(plan_.up_reach[k]);
+    } else {
+      for (std::uint32_t k = plan_.up_offset[i]; k < plan_.up_offset[i + 1]; ++k) {
+        const std::uint32_t u = plan_.up_reach[k];
+        const double f = plan_.up_fraction[k];
+        const std::vector<double>& q = *outflow_[u];
+        for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] += f * q[n];
+        release(u);
       }
+      if (has_point)
+        for (std::size_t n = 0; n < steps; ++n) ws.inflow[n] += ws.point[n];
     }
     ws.lateral.assign(steps, 0.0);
     const bool has_lateral = forcing_.lateral(i, ws.lateral);
@@ -216,7 +206,7 @@ private:
       std::lock_guard lock(sink_mutex_);
       sink_->write(i, *out, ws.depth, ws.velocity);
     }
-    if (plan_.isOutlet(i)) return;  // nobody downstream needs it
+    if (plan_.isOutlet(i) && !(i < keep_outflow_.size() && keep_outflow_[i])) return;  // nobody downstream needs it
     outflow_[i] = std::move(out);
     const std::size_t live = ++live_;
     std::size_t seen = peak_live_.load();
@@ -224,19 +214,149 @@ private:
     }
   }
 
-  /// A lake at the top of a reach stores what arrived less what it let
-  /// into the reach: its storage change joins the network's, and the
+  /// Checks the lakes against the plan and marks where each sits.
+  void setUpLakes() {
+    const auto& lakes = options_.lakes;
+    if (options_.lake_results) options_.lake_results->assign(lakes.size(), LakeRouting{});
+    if (lakes.empty()) return;
+    lake_at_top_.assign(n_, -1);
+    share_at_top_.assign(n_, 0.0);
+    keep_outflow_.assign(n_, false);
+    lake_once_.reset(new std::once_flag[lakes.size()]);
+    lake_out_.resize(lakes.size());
+    lake_volume_.assign(lakes.size(), LakeVolumes{});
+    const auto bad = [](const std::string& why) { throw InvalidParameter("lakes", why); };
+    const auto ups = [&](std::uint32_t i) {
+      std::vector<std::uint32_t> u(plan_.up_reach.begin() + plan_.up_offset[i],
+                                   plan_.up_reach.begin() + plan_.up_offset[i + 1]);
+      std::sort(u.begin(), u.end());
+      return u;
+    };
+    for (std::size_t l = 0; l < lakes.size(); ++l) {
+      const NetworkLake& lake = lakes[l];
+      if (!lake.pool) bad("lake " + std::to_string(l) + " has no level-pool lake");
+      if (lake.outflow_shares.size() != lake.outflow_reaches.size())
+        bad("lake " + std::to_string(l) + " needs one share per outflowing reach");
+      double sum = 0;
+      for (std::size_t k = 0; k < lake.outflow_reaches.size(); ++k) {
+        const std::uint32_t o = lake.outflow_reaches[k];
+        if (o >= n_) bad("lake " + std::to_string(l) + " names a reach outside the plan");
+        if (lake_at_top_[o] >= 0) bad("reach " + plan_.reach_id[o] + " is the outflowing reach of two lakes");
+        if (!(lake.outflow_shares[k] >= 0)) bad("a lake's share must be zero or positive");
+        if (ups(o) != ups(lake.outflow_reaches.front()))
+          bad("the outflowing reaches " + plan_.reach_id[lake.outflow_reaches.front()] + " and " + plan_.reach_id[o] +
+              " of one lake have different upstream reaches");
+        lake_at_top_[o] = static_cast<std::int32_t>(l);
+        share_at_top_[o] = lake.outflow_shares[k];
+        sum += lake.outflow_shares[k];
+      }
+      if (!lake.outflow_reaches.empty() && std::abs(sum - 1.0) > 1e-6)
+        bad("the shares of a lake's outflowing reaches sum to " + std::to_string(sum) + ", not 1");
+      // Shares summing to 1 to round-off: the outflowing reaches take the
+      // whole of the lake's outflow.
+      for (const std::uint32_t o : lake.outflow_reaches) share_at_top_[o] /= sum;
+      if (lake.outflow_reaches.empty()) {
+        terminal_.push_back(l);
+        for (const std::uint32_t u : lake.inflow_reaches) {
+          if (u >= n_ || !plan_.isOutlet(u)) bad("a terminal lake's inflowing reaches must be outlets of the plan");
+          keep_outflow_[u] = true;
+        }
+      }
+    }
+  }
+
+  /// Routes lake `l` (level pool) on `inflow`; `where` names it in errors.
+  void routeLake(std::size_t l, std::vector<double> inflow, InputLocation where) {
+    const NetworkLake& lake = options_.lakes[l];
+    LevelPoolOptions lake_options;
+    if (std::isfinite(lake.initial_level_m)) lake_options.initial_level_m = lake.initial_level_m;
+    try {
+      LevelPoolResult r = lake.pool->route(inflow, axis_.dt_s, lake_options);
+      lake_volume_[l] = {true, r.volume_in_m3, r.volume_out_m3, r.storage_change_m3};
+      if (options_.lake_results) {
+        LakeRouting& slot = (*options_.lake_results)[l];  // this lake's slot only
+        slot.routed = true;
+        slot.inflow_m3s = std::move(inflow);
+        if (!lake.outflow_reaches.empty()) lake_out_[l] = r.outflow_m3s;
+        slot.result = std::move(r);
+      } else if (!lake.outflow_reaches.empty()) {
+        lake_out_[l] = std::move(r.outflow_m3s);
+      }
+    } catch (const InvalidParameter& e) {
+      where.field = e.quantity();
+      throw InputError(where, e.what());
+    }
+  }
+
+  /// A lake with outflowing reaches takes what the plan brings to all of
+  /// their tops: upstream outflows (their fractions) and point inflows,
+  /// summed in a fixed order (reach by reach, as listed), whichever thread
+  /// does it.
+  void routeLakeAtNode(std::size_t l) {
+    const NetworkLake& lake = options_.lakes[l];
+    const std::size_t steps = axis_.steps;
+    std::vector<double> inflow(steps, 0.0), point(steps, 0.0);
+    for (const std::uint32_t o : lake.outflow_reaches) {
+      for (std::uint32_t k = plan_.up_offset[o]; k < plan_.up_offset[o + 1]; ++k) {
+        const double f = plan_.up_fraction[k];
+        const std::vector<double>& q = *outflow_[plan_.up_reach[k]];
+        for (std::size_t n = 0; n < steps; ++n) inflow[n] += f * q[n];
+      }
+      std::fill(point.begin(), point.end(), 0.0);
+      if (forcing_.inflow(o, point))
+        for (std::size_t n = 0; n < steps; ++n) inflow[n] += point[n];
+    }
+    InputLocation where;
+    where.reach_id = plan_.reach_id[lake.outflow_reaches.front()];
+    where.fid = plan_.fid[lake.outflow_reaches.front()];
+    routeLake(l, std::move(inflow), where);
+  }
+
+  /// A terminal lake takes its inflowing reaches' outflows once the whole
+  /// network is routed.
+  void routeTerminalLakes() {
+    for (const std::size_t l : terminal_) {
+      std::vector<double> inflow(axis_.steps, 0.0);
+      for (const std::uint32_t u : options_.lakes[l].inflow_reaches) {
+        if (!outflow_[u]) continue;  // listed twice
+        const std::vector<double>& q = *outflow_[u];
+        for (std::size_t n = 0; n < q.size(); ++n) inflow[n] += q[n];
+      }
+      routeLake(l, std::move(inflow), InputLocation{});
+    }
+    for (std::size_t i = 0; i < keep_outflow_.size(); ++i)
+      if (keep_outflow_[i] && outflow_[i]) {
+        outflow_[i].reset();
+        --live_;
+      }
+  }
+
+  /// A lake stores what arrived less what it let out: its storage change
+  /// joins the network's. Below a lake with outflowing reaches the
   /// hand-over (top inflows less upstream outflows, where the lake's
-  /// outflow now stands) is corrected by the same amount. What remains in
-  /// the hand-over is the lake's outflow volume over its sub-steps against
-  /// the trapezoids of its outflow samples.
+  /// outflow now stands) is corrected by the same amount; what remains
+  /// there is the lake's outflow volume over its sub-steps against the
+  /// trapezoids of its outflow samples. What a terminal lake lets out
+  /// leaves the network: it replaces its inflowing outlets' outflow in the
+  /// network's outflow, and the difference between what they sent (over
+  /// their sub-steps) and what the lake took (trapezoids of the samples)
+  /// is hand-over.
   void addLakesToBalance() {
-    double stored = 0;
-    for (double v : lake_storage_change_) stored += v;
-    if (stored == 0) return;
+    if (options_.lakes.empty()) return;
     VolumeBalance& b = results_.volume;
-    b.storage_change_m3 += stored;
-    b.handover_m3 += stored;
+    for (std::size_t l = 0; l < options_.lakes.size(); ++l) {
+      const LakeVolumes& v = lake_volume_[l];
+      if (!v.routed) continue;
+      b.storage_change_m3 += v.storage_change_m3;
+      if (!options_.lakes[l].outflow_reaches.empty()) {
+        b.handover_m3 += v.storage_change_m3;
+        continue;
+      }
+      double sent = 0;
+      for (const std::uint32_t u : options_.lakes[l].inflow_reaches) sent += results_.reaches[u].volume.outflow_m3;
+      b.outflow_m3 += v.out_m3 - sent;
+      b.handover_m3 += v.in_m3 - sent;
+    }
     const double entered = b.inflow_m3 + b.lateral_m3;
     b.error_pct = entered > 0 ? 100.0 * (entered - b.outflow_m3 - b.storage_change_m3) / entered : 0.0;
     b.event_error_pct = eventErrorPct(b);
@@ -293,7 +413,18 @@ private:
   std::unique_ptr<std::atomic<std::uint32_t>[]> pending_, consumers_;
   std::vector<std::unique_ptr<std::vector<double>>> outflow_;
   std::vector<Peak> top_node_;
-  std::vector<double> lake_storage_change_;
+  // ---- lakes (empty without) ----
+  struct LakeVolumes {
+    bool routed = false;
+    double in_m3 = 0, out_m3 = 0, storage_change_m3 = 0;
+  };
+  std::vector<std::int32_t> lake_at_top_;     ///< per reach: the lake whose outflow enters its top, or -1
+  std::vector<double> share_at_top_;          ///< per reach: its share of that lake's outflow
+  std::vector<bool> keep_outflow_;            ///< per reach: an outlet flowing into a terminal lake
+  std::unique_ptr<std::once_flag[]> lake_once_;
+  std::vector<std::vector<double>> lake_out_; ///< per lake: its outflow samples (lakes with outflowing reaches)
+  std::vector<LakeVolumes> lake_volume_;
+  std::vector<std::size_t> terminal_;         ///< terminal lakes
   tbb::enumerable_thread_specific<Workspace> workspace_;
   NetworkResults results_;
   std::atomic<std::size_t> live_{0}, peak_live_{0}, done_{0};

@@ -9,6 +9,7 @@
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/run/Route.hpp"
 
 namespace reachwise::run {
 
@@ -87,21 +88,10 @@ class Router {
 public:
   Router(const CalibrateRequest& request, const LoadedNetwork& net, network::NetworkPlan& plan,
          const RunForcing& forcing, const std::vector<std::uint32_t>& gauge_reaches)
-      : plan_(plan), forcing_(forcing), capture_(plan.size(), gauge_reaches) {
-    options_.reach.method = request.method;
-    options_.reach.diffusion_below_ponce = request.diffusion_below_ponce;
-    options_.threads = request.threads;
-    options_.base_flow_m3s = baseFlows(plan);
-    options_.lake_at_top = lakesAtTop(net, plan);
-    if (net.lakes) {
-      options_.lake_initial_level_m.assign(plan.size(), std::nan(""));
-      for (std::size_t i = 0; i < plan.size(); ++i)
-        if (options_.lake_at_top[i]) {
-          const auto k = static_cast<std::size_t>(options_.lake_at_top[i] - net.lake_pools.data());
-          if (const auto& h0 = net.lakes->lakes[k].initial_level_m) options_.lake_initial_level_m[i] = *h0;
-        }
-    }
-  }
+      : plan_(plan),
+        forcing_(forcing),
+        options_(networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads)),
+        capture_(plan.size(), gauge_reaches) {}
   const OutflowCapture& route() {
     (void)routing::routeNetwork(plan_, forcing_.axis(), forcing_.provider(), options_, &capture_);
     ++routings_;
@@ -127,7 +117,7 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   const LoadedNetwork& net = *out.network;
   out.plan = routablePlan(net);
   network::NetworkPlan& plan = out.plan;
-  const RunForcing forcing(request.forcing, plan, net.config.units);
+  const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
   out.axis = forcing.axis();
   if (request.gauges.observed.empty()) {
     InputLocation at;

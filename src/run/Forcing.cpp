@@ -14,7 +14,8 @@ namespace reachwise::run {
 
 namespace {
 
-io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkPlan& plan, units::System unit) {
+io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkPlan& plan, units::System unit,
+                              const std::map<std::string, std::string, std::less<>>* dropped_in_lake) {
   if (files.inflow.empty() && files.lateral.empty())
     throw InvalidParameter("forcing", "neither an inflow nor a lateral inflow file is named");
   io::CsvForcingOptions options;
@@ -33,6 +34,11 @@ io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkP
   io::requireKnownReaches(
       *opened.source, [&](std::string_view id) { return known.contains(id) || cut.pieces(id); },
       [&](std::string_view id) {
+        if (dropped_in_lake)
+          if (const auto it = dropped_in_lake->find(id); it != dropped_in_lake->end())
+            return fmt::format("reach {} lies inside lake {} and was dropped from the network, which is joined across "
+                               "the lake (give its forcing to a reach flowing into the lake, or to one leaving it)",
+                               id, it->second);
         const std::string line = cut.lineOf(id);
         return line.empty() ? std::string()
                             : fmt::format("{} (give forcing for {} or for a piece)", cut.hint(id), line);
@@ -127,8 +133,9 @@ bool PlanForcing::lateral(std::uint32_t reach, std::span<double> out) const {
   return true;
 }
 
-RunForcing::RunForcing(const ForcingFiles& files, const network::NetworkPlan& plan, units::System unit)
-    : opened_(openChecked(files, plan, unit)), bound_(*opened_.source, plan) {
+RunForcing::RunForcing(const ForcingFiles& files, const network::NetworkPlan& plan, units::System unit,
+                       const std::map<std::string, std::string, std::less<>>* dropped_in_lake)
+    : opened_(openChecked(files, plan, unit, dropped_in_lake)), bound_(*opened_.source, plan) {
   opened_.warnings.insert(opened_.warnings.end(), bound_.notes().begin(), bound_.notes().end());
 }
 

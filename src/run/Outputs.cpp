@@ -104,7 +104,7 @@ Outputs::~Outputs() = default;
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
 void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
-                     const std::vector<routing::LakeRouting>& lakes) {
+                     const std::vector<LakeResult>& lakes) {
   if (w_->gpkg) w_->gpkg->writeSummaries(results, info);
   if (w_->report) {
     report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};

@@ -35,6 +35,12 @@ std::optional<routing::Method> methodFromName(std::string_view name) {
   return std::nullopt;
 }
 
+const LakeResult* RouteSummary::lake(std::string_view lake_id) const {
+  for (const auto& l : lakes)
+    if (l.lake_id == lake_id) return &l;
+  return nullptr;
+}
+
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results) {
   io::RunInfo info;
   info.inputs = {request.network.path};
@@ -48,6 +54,18 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
   return info;
 }
 
+routing::NetworkRouteOptions networkRouteOptions(const LoadedNetwork& net, const network::NetworkPlan& plan,
+                                                 routing::Method method, double diffusion_below_ponce,
+                                                 unsigned threads) {
+  routing::NetworkRouteOptions ro;
+  ro.reach.method = method;
+  ro.reach.diffusion_below_ponce = diffusion_below_ponce;
+  ro.threads = threads;
+  ro.base_flow_m3s = baseFlows(plan);
+  ro.lakes = networkLakes(net, plan);
+  return ro;
+}
+
 RouteSummary route(const RouteRequest& request, Progress* progress) {
   Progress silent;
   Progress& tell = progress ? *progress : silent;
@@ -59,29 +77,21 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   const network::NetworkPlan& plan = summary.plan;
 
   tell.stage("reading the forcing");
-  const RunForcing forcing(request.forcing, plan, net.config.units);
+  const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
   Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), request.sinks);
 
   tell.stage("routing");
-  routing::NetworkRouteOptions ro;
-  ro.reach.method = request.method;
-  ro.reach.diffusion_below_ponce = request.diffusion_below_ponce;
-  ro.threads = request.threads;
-  ro.base_flow_m3s = baseFlows(plan);
+  routing::NetworkRouteOptions ro =
+      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
-  ro.lake_at_top = lakesAtTop(net, plan);
-  if (net.lakes) {
-    ro.lake_results = &summary.lakes;
-    ro.lake_initial_level_m.assign(plan.size(), std::nan(""));
-    for (std::size_t i = 0; i < plan.size(); ++i)
-      if (ro.lake_at_top[i]) {
-        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
-        if (const auto& h0 = net.lakes->lakes[k].initial_level_m) ro.lake_initial_level_m[i] = *h0;
-      }
-  }
+  std::vector<routing::LakeRouting> lake_routing;
+  ro.lake_results = &lake_routing;
   const auto t0 = std::chrono::steady_clock::now();
   summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
   summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  for (std::size_t k = 0; k < ro.lakes.size(); ++k)
+    summary.lakes.push_back({k, net.lakes->lakes[k].lake_id, ro.lakes[k].inflow_reaches, ro.lakes[k].outflow_reaches,
+                             ro.lakes[k].outflow_shares, std::move(lake_routing[k])});
 
   tell.stage("writing the results");
   auto& warnings = summary.results.warnings;
@@ -91,15 +101,8 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   summary.info = runInfo(request, summary.results);
   outputs.commit(summary.results, summary.info, summary.lakes);
   summary.gpkg = outputs.geopackage();
-  if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
-    std::vector<io::LakeOutput> rows;
-    for (std::size_t i = 0; i < summary.lakes.size(); ++i)
-      if (summary.lakes[i].routed) {
-        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
-        rows.push_back({&net.lakes->lakes[k], plan.reach_id[i], &summary.lakes[i]});
-      }
-    io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), rows);
-  }
+  if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back)
+    io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), routedLakes(net, plan, summary.lakes));
   return summary;
 }
 

@@ -332,13 +332,18 @@ TEST(Lakes, LoadedWithTheSampleNetwork) {
   EXPECT_TRUE(terminal_reported);
   EXPECT_TRUE(piece_reported);
   EXPECT_FALSE(net->hasErrors());
-  // Routing takes lakes on a node only: the terminal lake is refused,
-  // naming the lakes file and the lake.
+  // Every lake is placed for routing: the terminal lake takes the outlet
+  // flowing into it, the others sit at the top of their outflowing reach.
   const auto routable = run::routablePlan(*net);
-  const std::string refused = errorOf([&] { run::lakesAtTop(*net, routable); });
-  EXPECT_TRUE(contains(refused, "lakes.gpkg") && contains(refused, "lake end") &&
-              contains(refused, "terminal lake is not routed yet"))
-      << refused;
+  const auto placed = run::networkLakes(*net, routable);
+  ASSERT_EQ(placed.size(), 3u);
+  EXPECT_TRUE(placed[1].outflow_reaches.empty());
+  ASSERT_EQ(placed[1].inflow_reaches.size(), 1u);
+  EXPECT_EQ(routable.reach_id[placed[1].inflow_reaches[0]], plan.reach_id[*o]);
+  EXPECT_TRUE(routable.isOutlet(placed[1].inflow_reaches[0]));
+  ASSERT_EQ(placed[0].outflow_reaches.size(), 1u);
+  EXPECT_EQ(routable.reach_id[placed[0].outflow_reaches[0]], plan.reach_id[*d]);
+  EXPECT_EQ(placed[0].outflow_shares, std::vector<double>{1.0});
 }
 
 // Routing the sample storm through a weir lake on the node where R2 flows
@@ -365,10 +370,12 @@ TEST(Lakes, RouteTakesALakeOnANode) {
   };
   const std::size_t r1 = index("R1"), r2 = index("R2");
   ASSERT_LT(r1, plan.size());
-  ASSERT_EQ(s.lakes.size(), plan.size());
-  ASSERT_TRUE(s.lakes[r1].routed);
-  for (std::size_t i = 0; i < plan.size(); ++i) EXPECT_EQ(s.lakes[i].routed, i == r1) << i;
-  const auto& lake = s.lakes[r1];
+  ASSERT_EQ(s.lakes.size(), 1u);
+  ASSERT_EQ(s.lake("Upper"), &s.lakes[0]);
+  EXPECT_EQ(s.lakes[0].outflow_reaches, std::vector<std::uint32_t>{static_cast<std::uint32_t>(r1)});
+  EXPECT_EQ(s.lakes[0].inflow_reaches, std::vector<std::uint32_t>{static_cast<std::uint32_t>(r2)});
+  ASSERT_TRUE(s.lakes[0].routing.routed);
+  const auto& lake = s.lakes[0].routing;
   const double in_peak = *std::max_element(lake.inflow_m3s.begin(), lake.inflow_m3s.end());
   const double out_peak = *std::max_element(lake.result.outflow_m3s.begin(), lake.result.outflow_m3s.end());
   // The lake's inflow is R2's outflow, whose peak the results carry
@@ -446,8 +453,10 @@ TEST(Lakes, RiverThroughALakeIsJoinedAcrossIt) {
   std::set<std::string> into_r1;
   for (auto k = s.plan.up_offset[r1]; k < s.plan.up_offset[r1 + 1]; ++k) into_r1.insert(s.plan.reach_id[s.plan.up_reach[k]]);
   EXPECT_EQ(into_r1, feeding);
-  ASSERT_TRUE(s.lakes.at(r1).routed);
-  const auto& lake = s.lakes[r1].result;
+  ASSERT_NE(s.lake("Long"), nullptr);
+  ASSERT_TRUE(s.lake("Long")->routing.routed);
+  EXPECT_EQ(s.lake("Long")->outflow_reaches, std::vector<std::uint32_t>{static_cast<std::uint32_t>(r1)});
+  const auto& lake = s.lake("Long")->routing.result;
   // What entered the lake is what the feeding reaches sent (their outflow
   // volumes, summed over their sub-steps; the lake integrates the samples:
   // within 1 %).

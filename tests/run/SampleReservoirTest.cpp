@@ -94,8 +94,11 @@ TEST(SampleReservoir, MatchesAnIndependentIntegrationOfItsWeir) {
   const run::RouteSummary s = run::route(demoRequest(true));
   const std::size_t r13 = indexOf(s.plan, "R13");
   ASSERT_LT(r13, s.plan.size());
-  ASSERT_TRUE(s.lakes.at(r13).routed);
-  const auto& lake = s.lakes[r13];
+  const run::LakeResult* res1 = s.lake("RES1");
+  ASSERT_NE(res1, nullptr);
+  ASSERT_EQ(res1->outflow_reaches, (std::vector<std::uint32_t>{static_cast<std::uint32_t>(r13)}));
+  const auto& lake = res1->routing;
+  ASSERT_TRUE(lake.routed);
   const std::vector<double>& inflow = lake.inflow_m3s;
   ASSERT_EQ(inflow.size(), s.results.axis.steps);
 

@@ -15,7 +15,9 @@ namespace reachwise::io {
 
 struct LakeOutput {
   const network::LakeRecord* lake = nullptr;
-  std::string outflow_reach;               ///< the reach its outflow enters
+  /// The reach(es) its outflow enters, `;`-separated; empty (written as
+  /// null) for a terminal lake.
+  std::string outflow_reach;
   const routing::LakeRouting* routing = nullptr;
 };
 

@@ -94,7 +94,7 @@ inline constexpr std::string_view kFieldNames[] = {
     "reach_id",     "to_reach",       "slope",         "manning_n",    "bottom_width",
     "side_slope",   "length",         "shape",         "diameter",     "bank_depth",
     "floodplain_width", "floodplain_n", "muskingum_k_h", "muskingum_x", "split",
-    "up_elevation", "down_elevation", "base_flow"};
+    "up_elevation", "down_elevation", "base_flow", "lake_id"};
 
 /// Parses a length unit name ("m", "ft", "us_ft", "km") or throws InputError.
 double metresPerUnit(const std::string& name, const std::string& origin);

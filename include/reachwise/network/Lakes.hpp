@@ -11,6 +11,7 @@
 
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/Problem.hpp"
+#include "reachwise/network/ReachTable.hpp"
 #include "reachwise/routing/LevelPool.hpp"
 
 namespace reachwise::network {
@@ -64,5 +65,34 @@ double distanceToRings(const std::vector<std::vector<Point2>>& rings, Point2 p);
 /// (the first in table order is taken). One entry per lake, in table order.
 std::vector<LakeLinks> linkLakes(const NetworkPlan& plan, const LakeTable& lakes, double tolerance,
                                  ProblemList& problems);
+
+/// The `terminal_lake` (no outflowing reach) and `lake_without_inflow`
+/// problems of one lake, as linkLakes reports them.
+void reportLakeEnds(const LakeRecord& lake, const LakeLinks& links, ProblemList& problems);
+
+/// Names of the reach layer's fields, for messages.
+struct LakeIdFields {
+  std::string lake_id = "lake_id";
+  std::string to_reach = "to_reach";
+};
+
+/// After linkLakes: attaches the reaches that name a lake in their
+/// `lake_id` (ReachRecord::lake_id) to it, whatever their geometry
+/// (docs/formats.md, "Lakes and reservoirs"):
+///  - a naming reach flows into the lake it names: it joins that lake's
+///    inflow and leaves any other lake's inflow and that lake's outflow; one
+///    lying inside the lake stays inside. Of a line cut into pieces, only
+///    the last piece (where the flow leaves the line) takes its line's lake.
+///  - a lake no reach leaves by geometry takes as outflowing reaches those
+///    its naming reaches flow into (`to_reach`, several for a bifurcation);
+///    none: a terminal lake.
+/// The `terminal_lake` and `lake_without_inflow` problems of the lakes it
+/// changes are replaced. Throws InputError naming the reach layer's file,
+/// layer, feature, reach and field for a lake id that is no lake of
+/// `lakes`, for naming reaches of one lake that flow into different reaches,
+/// and for a naming reach that flows into a reach that neither leaves its
+/// lake nor lies inside it.
+void linkNamedLakes(const NetworkPlan& plan, const ReachTable& table, const LakeTable& lakes,
+                    const LakeIdFields& fields, std::vector<LakeLinks>& links, ProblemList& problems);
 
 }  // namespace reachwise::network

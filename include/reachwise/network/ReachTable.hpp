@@ -40,6 +40,10 @@ struct ReachRecord {
   double up_elevation_m = kUnset;        ///< optional elevation fields
   double down_elevation_m = kUnset;
   double base_flow_m3s = kUnset;         ///< constant flow entering along the reach, NaN = none
+  /// The lake the reach flows into, from the optional `lake_id` field:
+  /// it flows into that lake whatever its geometry (network::linkNamedLakes).
+  /// Empty = none. Read only when lakes are given.
+  std::string lake_id;
 };
 
 struct ReachTable {

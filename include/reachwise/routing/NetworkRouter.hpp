@@ -9,6 +9,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <functional>
+#include <limits>
 #include <span>
 #include <vector>
 
@@ -39,11 +40,34 @@ public:
 };
 
 /// One lake as the network routed it: the inflow it took (m^3/s, on the
-/// run's axis) and its level-pool routing.
+/// run's axis) and its level-pool routing (outflow, level and storage
+/// series, volumes).
 struct LakeRouting {
   bool routed = false;
   std::vector<double> inflow_m3s;
   LevelPoolResult result;
+};
+
+/// A lake on a node of the network (NetworkRouteOptions::lakes).
+///
+/// With outflowing reaches, the lake sits at their top: it takes
+/// everything the plan brings there (the upstream reaches' outflows, their
+/// fractions, summed over all its outflowing reaches, plus the point
+/// inflow at the top of each of them) and each outflowing reach k takes
+/// `outflow_shares[k]` of the lake's outflow as its top inflow. Every
+/// outflowing reach must have the same upstream reaches (the lake's
+/// inflowing reaches). With none, the lake is terminal: it takes the
+/// outflows of `inflow_reaches` (outlets of the plan) and what it lets out
+/// leaves the network.
+struct NetworkLake {
+  const LevelPool* pool = nullptr;               ///< must outlive the call
+  std::vector<std::uint32_t> outflow_reaches;    ///< plan indices; empty: a terminal lake
+  std::vector<double> outflow_shares;            ///< per outflowing reach, >= 0, summing to 1 (within 1e-6)
+  /// Plan indices of the reaches flowing in. Routing reads it for a
+  /// terminal lake only (they must be outlets); otherwise informative.
+  std::vector<std::uint32_t> inflow_reaches;
+  /// Level at the start; NaN: the steady state of the first inflow.
+  double initial_level_m = std::numeric_limits<double>::quiet_NaN();
 };
 
 struct NetworkRouteOptions {
@@ -57,19 +81,16 @@ struct NetworkRouteOptions {
   /// once at the end, from whichever thread finished the reach, one call
   /// at a time. Empty = no reports.
   std::function<void(std::size_t done, std::size_t total)> progress;
-  /// Lakes by plan index, empty = none: when `lake_at_top[i]` is set, the
-  /// flow arriving at the top of reach i (upstream outflows and point
-  /// inflow) passes through that lake (LevelPool::route from its steady
-  /// state, or its initial level) and the lake's outflow enters the reach.
-  /// The lakes must outlive the call. Their storage change counts in the
-  /// network's volume balance.
-  std::vector<const LevelPool*> lake_at_top;
-  /// Where each lake's routing goes, by plan index (resized to the plan);
-  /// null = not kept.
+  /// Lakes on nodes of the network (NetworkLake), empty = none. A reach
+  /// is the outflowing reach of one lake at most. Each lake is routed once
+  /// (LevelPool::route from its steady state, or its initial level). The
+  /// network's volume balance counts their storage change as storage and
+  /// what terminal lakes let out as outflow (docs/methods.md, "Lakes and
+  /// reservoirs").
+  std::vector<NetworkLake> lakes;
+  /// Where each lake's routing goes, by index into `lakes` (resized to
+  /// it); null = not kept.
   std::vector<LakeRouting>* lake_results = nullptr;
-  /// Initial level per lake, by plan index like `lake_at_top`; NaN or
-  /// empty = the steady state of the first inflow.
-  std::vector<double> lake_initial_level_m;
 };
 
 /// Routes every reach of `plan` over `axis`. Each finished reach's outflow

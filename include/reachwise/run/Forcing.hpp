@@ -4,6 +4,8 @@
 /// the network and bound to its plan, ready for the router.
 
 #include <cstdint>
+#include <functional>
+#include <map>
 #include <optional>
 #include <span>
 #include <string>
@@ -68,10 +70,13 @@ public:
   /// discharges are in) and checks that they name only reaches of `plan`
   /// or lines cut into its pieces (one InputError lists every unknown id,
   /// saying how a line was cut when an id looks like one of its pieces;
-  /// see also checkCutLineForcing). Throws InputError naming the file for
-  /// a missing or unreadable file.
+  /// see also checkCutLineForcing; and, with `dropped_in_lake` (reach id
+  /// -> lake id, LoadedNetwork::dropped_in_lake), the lake a reach lies
+  /// in when it was dropped from the network for it). Throws InputError
+  /// naming the file for a missing or unreadable file.
   RunForcing(const ForcingFiles& files, const network::NetworkPlan& plan,
-             units::System unit = units::System::SI);
+             units::System unit = units::System::SI,
+             const std::map<std::string, std::string, std::less<>>* dropped_in_lake = nullptr);
 
   const routing::TimeAxis& axis() const { return opened_.source->axis(); }
   /// What the router reads, by plan index.

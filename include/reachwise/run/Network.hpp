@@ -3,6 +3,7 @@
 /// The first step of every run: read a network layer, build the reach
 /// graph and validate it.
 
+#include <map>
 #include <memory>
 #include <optional>
 #include <string>
@@ -13,6 +14,7 @@
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"
+#include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/run/Derive.hpp"
 
 namespace reachwise::run {
@@ -49,6 +51,12 @@ struct LoadedNetwork {
   std::vector<network::LakeLinks> lake_links;
   /// One level-pool lake per lake record (checked when read).
   std::vector<routing::LevelPool> lake_pools;
+  /// The reaches dropped from the network because they lie inside a lake:
+  /// reach id -> lake id (each also a `lake_piece` problem).
+  std::map<std::string, std::string, std::less<>> dropped_in_lake;
+  /// The `[[network.split]]` tables whose `at` names a lake (no reach):
+  /// the shares of its outflowing reaches.
+  std::vector<network::SplitOverride> lake_splits;
 
   LoadedNetwork() = default;
   LoadedNetwork(const LoadedNetwork&) = delete;
@@ -76,10 +84,14 @@ void requireExisting(const std::string& source);
 
 /// Reads `source`, builds the reach graph, derives the channel attributes
 /// when a DEM is given (`source.dem` or `[network] dem`, with the run file's
-/// `[prepare]` table) and validates it. With lakes,
-/// attaches reaches to them by geometry and joins the network across every
-/// lake with one outflowing reach (reaches inside dropped, inflowing reaches
-/// flowing into the outflowing one; docs/formats.md, "Lakes"). Problems with
+/// `[prepare]` table) and validates it. With lakes, attaches reaches to them
+/// by geometry and by the reaches' `lake_id` (network::linkLakes,
+/// linkNamedLakes) and joins the network across every lake: the reaches
+/// inside are dropped (`dropped_in_lake`), and each inflowing reach flows
+/// into the lake's outflowing reaches (a bifurcation when there are
+/// several, shared by the `[[network.split]]` table naming the lake, the
+/// outflowing reaches' `split` or `default_split`), or is an outlet of the
+/// network when the lake is terminal (docs/formats.md, "Lakes"). Problems with
 /// single features go into the result; a source that cannot be read at
 /// all throws reachwise::InputError naming the file (and layer / field).
 std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source);
@@ -97,12 +109,17 @@ void writeProblems(const std::string& out, const LoadedNetwork& net);
 /// errors.
 network::NetworkPlan routablePlan(const LoadedNetwork& net);
 
-/// The lake at the top of each reach of `plan` (by plan index; empty when
-/// no lakes were given). Routed so far: a lake on a node of the network,
-/// i.e. with exactly one outflowing reach, nothing inside, and inflowing
-/// reaches that are exactly the reaches the topology joins to the top of
-/// that reach. Any other lake throws InputError naming the lakes file,
-/// the lake and what is missing (no lake is ever skipped silently).
-std::vector<const routing::LevelPool*> lakesAtTop(const LoadedNetwork& net, const network::NetworkPlan& plan);
+/// Every lake of `net` as the router takes it (routing::NetworkLake), in
+/// the lakes layer's order (index k is `net.lakes->lakes[k]`); empty when no
+/// lakes were given. `plan` is routablePlan(net). A lake with outflowing
+/// reaches sits at their top, each taking its resolved share (the plan's
+/// `split`; 1 for a single reach; with no reach flowing in, by the same
+/// rule applied to the lake's own outflowing reaches); a terminal lake
+/// takes its inflowing reaches, outlets of the plan. Throws InputError
+/// naming the lakes file and the lake when a lake cannot be placed on a
+/// node: a reach flowing into an outflowing reach without flowing into the
+/// lake (on a `to_reach` network: give it the `lake_id`), or outflowing
+/// reaches with no share. No lake is ever skipped silently.
+std::vector<routing::NetworkLake> networkLakes(const LoadedNetwork& net, const network::NetworkPlan& plan);
 
 }  // namespace reachwise::run

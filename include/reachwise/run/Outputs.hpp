@@ -14,6 +14,7 @@
 #include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/routing/Results.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
+#include "reachwise/run/RoutedLakes.hpp"
 
 namespace reachwise::run {
 
@@ -56,7 +57,7 @@ public:
   /// `lakes`: each lake's routing as routing::routeNetwork filled it
   /// (RouteSummary::lakes; empty: none), shown in the report.
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
-              const std::vector<routing::LakeRouting>& lakes = {});
+              const std::vector<LakeResult>& lakes = {});
 
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }

@@ -26,6 +26,7 @@
 #include "reachwise/run/Forcing.hpp"
 #include "reachwise/run/Network.hpp"
 #include "reachwise/run/Outputs.hpp"
+#include "reachwise/run/RoutedLakes.hpp"
 
 namespace reachwise::run {
 
@@ -69,6 +70,8 @@ public:
   virtual void routed(std::size_t /*done*/, std::size_t /*total*/) {}
 };
 
+/// One lake as a run routed it (RouteSummary::lakes).
+
 struct RouteSummary {
   std::unique_ptr<LoadedNetwork> network;   ///< the layer as read, its graph and its problems
   network::NetworkPlan plan;
@@ -78,10 +81,21 @@ struct RouteSummary {
   io::RunInfo info;                         ///< what run_info records
   std::string gpkg;                         ///< the GeoPackage written, or empty
   double routing_s = 0;                     ///< wall time of the routing alone (threads: results.threads)
-  /// Each lake's routing by plan index of the reach it feeds (`routed`
-  /// false elsewhere; empty when no lakes were given).
-  std::vector<routing::LakeRouting> lakes;
+  /// Every lake, in the lakes layer's order (`lakes[k].lake == k`; empty
+  /// when no lakes were given): where it sits in the plan and its routing.
+  /// Every lake of the layer is routed (a lake that cannot be is an
+  /// error), terminal lakes included.
+  std::vector<LakeResult> lakes;
+  /// The lake of that id; nullptr when there is none.
+  const LakeResult* lake(std::string_view lake_id) const;
 };
+
+/// How route() routes `plan` (routablePlan(net)): the method, the Ponce
+/// hand-over to the diffusion wave, threads, base flows and lakes. For
+/// callers that route one network many times (e.g. calibration).
+routing::NetworkRouteOptions networkRouteOptions(const LoadedNetwork& net, const network::NetworkPlan& plan,
+                                                 routing::Method method, double diffusion_below_ponce,
+                                                 unsigned threads);
 
 /// Routes `request`. Throws NetworkHasErrors when the network cannot be
 /// routed, InputError naming file / feature / field for bad input or an
