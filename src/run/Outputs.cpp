@@ -2,8 +2,10 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <filesystem>
 
+#include "reachwise/Error.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
 #include "reachwise/report/Report.hpp"
@@ -41,6 +43,51 @@ private:
 
 }  // namespace
 
+std::vector<io::LakeOutput> routedLakes(const LoadedNetwork& net, const network::NetworkPlan& plan,
+                                        const std::vector<routing::LakeRouting>* routed) {
+  std::vector<io::LakeOutput> rows;
+  if (!net.lakes) return rows;
+  // The router keeps a lake's routing at the plan index of the reach whose
+  // top it sits at (NetworkRouteOptions::lake_at_top, lake_results).
+  const std::vector<const routing::LevelPool*> at_top = lakesAtTop(net, plan);
+  const auto& records = net.lakes->lakes;
+  std::vector<std::uint32_t> reach_of(records.size(), ~0u);
+  for (std::uint32_t i = 0; i < at_top.size(); ++i)
+    if (at_top[i]) reach_of[static_cast<std::size_t>(at_top[i] - net.lake_pools.data())] = i;
+  for (std::size_t k = 0; k < records.size(); ++k) {
+    const std::uint32_t i = reach_of[k];
+    if (i == ~0u) continue;
+    io::LakeOutput row;
+    row.lake = &records[k];
+    row.reach = i;
+    row.outflow_reach = plan.reach_id[i];
+    if (routed) {
+      if (i >= routed->size() || !(*routed)[i].routed)
+        throw InternalError("lake " + records[k].lake_id + " has no routing results");
+      row.routing = &(*routed)[i];
+    }
+    rows.push_back(std::move(row));
+  }
+  return rows;
+}
+
+void markLakeNodes(routing::NetworkResults& results, const std::vector<io::LakeOutput>& lakes) {
+  if (lakes.empty()) return;
+  std::uint32_t n = 0;
+  for (const auto& lake : lakes) n = std::max(n, lake.reach + 1);
+  std::vector<routing::NodeSummary*> top(n, nullptr);
+  for (auto& node : results.nodes) {
+    const bool at_top = node.kind != routing::NodeKind::Outlet && node.kind != routing::NodeKind::Bifurcation;
+    if (at_top && node.reach < n) top[node.reach] = &node;
+  }
+  for (const auto& lake : lakes) {
+    // Every reach that is not a branch of a bifurcation has a top node, and
+    // a lake with one outflowing reach never sits on a bifurcation.
+    if (!top[lake.reach]) throw InternalError("no node at the top of reach " + lake.outflow_reach);
+    top[lake.reach]->lake_id = lake.lake->lake_id;
+  }
+}
+
 struct Outputs::Writers {
   std::unique_ptr<io::GpkgResultsWriter> gpkg;
   std::unique_ptr<io::CsvSeriesWriter> csv;
@@ -57,12 +104,22 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   const OutputRequest& o = request_;
   const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
   std::vector<routing::SeriesSink*> sinks = std::move(extra);
+  // Lakes: a `lakes` and a `lake_series` table in every output; their series
+  // go where the hydrographs go, and not at all with `--hydrographs none`.
+  has_lakes_ = net.lakes.has_value();
+  for (const auto& lake : routedLakes(net, plan)) lake_ids_.push_back(lake.lake->lake_id);
+  if (has_lakes_) {
+    const std::vector<bool> mask = selection.mask(plan.size());
+    lake_series_ = std::find(mask.begin(), mask.end(), true) != mask.end();
+  }
   // A new GeoPackage (temporary name, renamed on success) or prefixed
   // layers in the input GeoPackage; with a NetCDF series file the chosen
   // hydrographs go there instead of the GeoPackage table.
   io::GpkgWriterOptions wo;
   wo.overwrite = o.overwrite;
   wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
+  wo.lakes = has_lakes_;
+  wo.lake_series = lake_series_ && o.series_nc.empty();
   if (o.write_back) {
     w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
     gpkg_target_ = net.source.path;
@@ -75,6 +132,8 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     std::error_code ec;
     fs::create_directories(o.csv_dir, ec);
     w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection);
+    if (has_lakes_)  // refused now rather than after routing
+      for (const char* name : io::kCsvLakeFiles) io::refuseExisting(fs::path(o.csv_dir) / name, o.overwrite);
     sinks.push_back(w_->csv.get());
   }
   if (!o.series_nc.empty()) {
@@ -86,6 +145,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     io::SeriesNetcdfOptions so;
     so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
     so.history = history;
+    if (lake_series_) so.lake_ids = lake_ids_;
     w_->netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
     w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
     sinks.push_back(w_->netcdf_selected.get());
@@ -102,17 +162,34 @@ Outputs::~Outputs() = default;
 
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
-void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info) {
-  if (w_->gpkg) w_->gpkg->writeSummaries(results, info);
+void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
+                     const std::vector<io::LakeOutput>& lakes) {
+  // The lakes must be the ones the outputs were opened for, in that order.
+  bool same = lakes.size() == lake_ids_.size();
+  for (std::size_t k = 0; same && k < lakes.size(); ++k)
+    same = lakes[k].lake && lakes[k].routing && lakes[k].lake->lake_id == lake_ids_[k];
+  if (!same) throw InternalError("the lakes given to Outputs::commit are not the lakes the run routes");
+  if (w_->gpkg) {
+    w_->gpkg->writeSummaries(results, info);
+    if (has_lakes_) w_->gpkg->writeLakes(lakes);
+  }
   if (w_->report) {
     const report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
     report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
   }
   if (w_->csv) {
-    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info);
+    io::CsvLakes csv_lakes;
+    if (has_lakes_) csv_lakes = {&lakes, lake_series_};
+    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes);
     w_->csv->commit();
   }
-  if (w_->netcdf) w_->netcdf->finish();
+  if (w_->netcdf) {
+    for (std::size_t k = 0; k < lakes.size() && lake_series_; ++k) {
+      const auto& r = *lakes[k].routing;
+      w_->netcdf->writeLake(k, r.result.level_m, r.result.storage_m3, r.inflow_m3s, r.result.outflow_m3s);
+    }
+    w_->netcdf->finish();
+  }
   if (w_->gpkg) w_->gpkg->commit();
 }
 

@@ -3,7 +3,6 @@
 #include <chrono>
 #include <cmath>
 
-#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -88,18 +87,16 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
-  outputs.commit(summary.results, summary.info);
+  const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, &summary.lakes);
+  markLakeNodes(summary.results, lakes);
+  outputs.commit(summary.results, summary.info, lakes);
   summary.gpkg = outputs.geopackage();
-  if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back) {
-    std::vector<io::LakeOutput> rows;
-    for (std::size_t i = 0; i < summary.lakes.size(); ++i)
-      if (summary.lakes[i].routed) {
-        const auto k = static_cast<std::size_t>(ro.lake_at_top[i] - net.lake_pools.data());
-        rows.push_back({&net.lakes->lakes[k], plan.reach_id[i], &summary.lakes[i]});
-      }
-    io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), rows);
-  }
   return summary;
+}
+
+std::vector<io::LakeOutput> routedLakes(const RouteSummary& summary) {
+  if (!summary.network) return {};
+  return routedLakes(*summary.network, summary.plan, &summary.lakes);
 }
 
 }  // namespace reachwise::run

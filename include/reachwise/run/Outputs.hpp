@@ -3,12 +3,15 @@
 /// Every output of a run (GeoPackage, CSV tables, NetCDF series, HTML
 /// report), opened before routing, so that a refused output costs no
 /// routing time, and committed together once all are written: a failed
-/// run leaves nothing that looks complete.
+/// run leaves nothing that looks complete. A run with lakes writes them in
+/// the same outputs (`lakes`, `lake_series`), before the commit like every
+/// other table.
 
 #include <memory>
 #include <string>
 #include <vector>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/routing/Results.hpp"
@@ -33,6 +36,19 @@ struct OutputRequest {
 /// The prefix of written-back layers (`rw_reaches`, ...).
 inline constexpr const char* kWriteBackPrefix = "rw_";
 
+/// Every lake a run of `net` on `plan` routes, in the lakes layer's order:
+/// its record, the reach its outflow enters (the lake sits at that reach's
+/// top) and, when `routed` is given (RouteSummary::lakes), its routing.
+/// Empty when the network has no lakes. Throws InputError, as lakesAtTop()
+/// does, for a lake that cannot be routed. This is the one place that knows
+/// how the router's lake results are indexed.
+std::vector<io::LakeOutput> routedLakes(const LoadedNetwork& net, const network::NetworkPlan& plan,
+                                        const std::vector<routing::LakeRouting>* routed = nullptr);
+
+/// Sets `lake_id` on the node each lake sits on (the top node of the reach
+/// its outflow enters).
+void markLakeNodes(routing::NetworkResults& results, const std::vector<io::LakeOutput>& lakes);
+
 class Outputs {
 public:
   /// Opens every requested output for `net` routed over `axis`; throws
@@ -50,9 +66,12 @@ public:
   /// Where the router sends each finished series.
   routing::SeriesSink& sink();
 
-  /// Writes the summaries and the report, then commits every file; the
-  /// report comes first so that a failing report leaves no output behind.
-  void commit(const routing::NetworkResults& results, const io::RunInfo& info);
+  /// Writes the summaries, the lakes (`lakes`: routedLakes() with their
+  /// routing, every lake the run routes) and the report, then commits every
+  /// file; the report comes first so that a failing report leaves no output
+  /// behind.
+  void commit(const routing::NetworkResults& results, const io::RunInfo& info,
+              const std::vector<io::LakeOutput>& lakes = {});
 
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }
@@ -63,6 +82,9 @@ private:
   const LoadedNetwork& net_;
   const network::NetworkPlan& plan_;
   std::string gpkg_target_;
+  bool has_lakes_ = false;             ///< the network has lakes: lake tables in every output
+  bool lake_series_ = false;           ///< the lakes' series are written (hydrographs are)
+  std::vector<std::string> lake_ids_;  ///< the lakes the run routes, in order
   std::unique_ptr<Writers> w_;
 };
 

@@ -79,7 +79,8 @@ struct RouteSummary {
   std::string gpkg;                         ///< the GeoPackage written, or empty
   double routing_s = 0;                     ///< wall time of the routing alone (threads: results.threads)
   /// Each lake's routing by plan index of the reach it feeds (`routed`
-  /// false elsewhere; empty when no lakes were given).
+  /// false elsewhere; empty when no lakes were given). Read it through
+  /// routedLakes(summary), which pairs each with its lake.
   std::vector<routing::LakeRouting> lakes;
 };
 
@@ -87,6 +88,11 @@ struct RouteSummary {
 /// routed, InputError naming file / feature / field for bad input or an
 /// output that may not be written; nothing is left behind then.
 RouteSummary route(const RouteRequest& request, Progress* progress = nullptr);
+
+/// The lakes `summary` routed, in the lakes layer's order, each with its
+/// record, the reach its outflow enters and its routing (routedLakes()
+/// above; pointers into `summary`, which must outlive them).
+std::vector<io::LakeOutput> routedLakes(const RouteSummary& summary);
 
 /// The run_info record of a run: inputs, method, command line, warnings.
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results);
