@@ -39,9 +39,39 @@ struct RouteOptions {
 
 std::string hours(double s) { return fmt::format("{:.1f} h", s / 3600.0); }
 
+/// Lakes listed by name in the console summary; the rest are counted.
+constexpr std::size_t kLakesListed = 10;
+
+/// One line per routed lake, largest attenuation first (ties and lakes
+/// without inflow: by id), at most kLakesListed, then how many more.
+void printLakes(std::ostream& out, const std::vector<io::LakeOutput>& lakes, const routing::TimeAxis& axis) {
+  if (lakes.empty()) return;
+  struct Line {
+    const std::string* id;
+    io::LakeFigures f;
+  };
+  std::vector<Line> lines;
+  for (const auto& lake : lakes) lines.push_back({&lake.lake->lake_id, io::lakeFigures(*lake.routing, axis)});
+  std::sort(lines.begin(), lines.end(), [](const Line& a, const Line& b) {
+    const double x = std::isnan(a.f.attenuation_pct) ? -INFINITY : a.f.attenuation_pct;
+    const double y = std::isnan(b.f.attenuation_pct) ? -INFINITY : b.f.attenuation_pct;
+    return x != y ? x > y : *a.id < *b.id;
+  });
+  fmt::print(out, "lakes: {} routed, largest attenuation first:\n", lines.size());
+  for (std::size_t k = 0; k < std::min(kLakesListed, lines.size()); ++k) {
+    const io::LakeFigures& f = lines[k].f;
+    const std::string attenuation =
+        std::isnan(f.attenuation_pct) ? std::string("no inflow") : fmt::format("attenuation {:.1f} %", f.attenuation_pct);
+    fmt::print(out, "  lake {}: peak {:.2f} -> {:.2f} m3/s, {}, lag {}, peak level {:.2f} m\n", *lines[k].id,
+               f.inflow_peak_m3s, f.outflow_peak_m3s, attenuation, hours(f.lag_s), f.peak_level_m);
+  }
+  if (lines.size() > kLakesListed)
+    fmt::print(out, "  ... and {} more lake(s), all in the lakes layer\n", lines.size() - kLakesListed);
+}
+
 void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
-                      const routing::NetworkResults& r, const std::string& gpkg,
-                      const std::string& report_dir) {
+                      const routing::NetworkResults& r, const std::vector<io::LakeOutput>& lakes,
+                      const std::string& gpkg, const std::string& report_dir) {
   const int off = r.axis.utc_offset_min;
   fmt::print(out, "reachwise demo: {} reaches, {} steps of {} s from {}\n", plan.size(), r.axis.steps,
              r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off));
@@ -70,6 +100,7 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
     fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], s.attenuation_pct,
                hours(s.travel_time_s));
   }
+  printLakes(out, lakes, r.axis);
   const routing::VolumeBalance& v = r.volume;
   fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} % of all inflow",
              v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
@@ -133,8 +164,9 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   progress.finish();
   const routing::NetworkResults& results = s.results;
 
+  const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
   if (o.demo) {
-    printDemoSummary(out, s.plan, results, s.gpkg, o.report);
+    printDemoSummary(out, s.plan, results, lakes, s.gpkg, o.report);
   } else if (!o.quiet) {
     fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", s.plan.size(), results.axis.steps,
                o.method, s.gpkg, o.series_nc.empty() ? "" : " and " + o.series_nc,
@@ -143,6 +175,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
                "series held at once\n",
                s.routing_s, results.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, results.threads,
                results.peak_live_series);
+    printLakes(out, lakes, results.axis);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }
   return kExitOk;

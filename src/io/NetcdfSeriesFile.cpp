@@ -35,9 +35,12 @@ void putText(int ncid, int varid, const char* name, const std::string& value,
 
 SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis,
                        const std::vector<std::string>& reach_ids,
-                       std::vector<SeriesVariable> variables, const SeriesFileOptions& options)
+                       std::vector<SeriesVariable> variables, const SeriesFileOptions& options,
+                       std::vector<SeriesStations> more)
     : path_(std::move(path)), variables_(std::move(variables)), reaches_(reach_ids.size()),
       steps_(axis.steps) {
+  for (const SeriesStations& set : more)
+    if (set.ids.empty()) throw InvalidParameter(set.id_variable, "no series to write");
   if (steps_ == 0) throw InvalidParameter("time axis", "no steps to write");
   if (reaches_ == 0) throw InvalidParameter("reach_id", "no reaches to write");
   if (options.reach_chunk == 0) throw InvalidParameter("reach_chunk", "must be at least 1");
@@ -46,7 +49,7 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
   const std::lock_guard lock(netcdfMutex());
   check(nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_), temp_, "creating the file");
   try {
-    define(axis, reach_ids, options);
+    define(axis, reach_ids, options, more);
   } catch (...) {
     abandon();
     throw;
@@ -54,7 +57,7 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
 }
 
 void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::string>& reach_ids,
-                        const SeriesFileOptions& options) {
+                        const SeriesFileOptions& options, const std::vector<SeriesStations>& more) {
   int dim_time = 0, dim_reach = 0, var_time = 0, var_id = 0;
   check(nc_def_dim(ncid_, "time", steps_, &dim_time), temp_, "defining dimension time");
   check(nc_def_dim(ncid_, "reach", reaches_, &dim_reach), temp_, "defining dimension reach");
@@ -71,22 +74,39 @@ void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::st
   putText(ncid_, var_id, "long_name", "reach id", temp_);
   putText(ncid_, var_id, "cf_role", "timeseries_id", temp_);
 
-  const int dims[2] = {dim_time, dim_reach};
-  const std::size_t chunks[2] = {steps_, std::min(options.reach_chunk, reaches_)};
   const nc_type type = options.single_precision ? NC_FLOAT : NC_DOUBLE;
   const double fill = options.single_precision ? static_cast<double>(NC_FILL_FLOAT) : NC_FILL_DOUBLE;
-  for (const SeriesVariable& v : variables_) {
-    int id = 0;
-    check(nc_def_var(ncid_, v.name.c_str(), type, 2, dims, &id), temp_, "defining " + v.name);
-    check(nc_def_var_chunking(ncid_, id, NC_CHUNKED, chunks), temp_, "chunking " + v.name);
-    if (options.deflate_level > 0)
-      check(nc_def_var_deflate(ncid_, id, 1, 1, options.deflate_level), temp_, "compressing " + v.name);
-    check(nc_put_att_double(ncid_, id, "_FillValue", type, 1, &fill), temp_, "fill of " + v.name);
-    putText(ncid_, id, "units", v.units, temp_);
-    putText(ncid_, id, "long_name", v.long_name, temp_);
-    if (!v.standard_name.empty()) putText(ncid_, id, "standard_name", v.standard_name, temp_);
-    putText(ncid_, id, "coordinates", "reach_id", temp_);
-    varids_.push_back(id);
+  // One chunk holds the whole series of `chunk` stations (see docs/formats.md).
+  const auto defineVariables = [&](int dim, std::size_t length, const std::vector<SeriesVariable>& variables,
+                                   std::size_t chunk, const std::string& id_variable) {
+    const int dims[2] = {dim_time, dim};
+    const std::size_t chunks[2] = {steps_, std::min(chunk, length)};
+    for (const SeriesVariable& v : variables) {
+      int id = 0;
+      check(nc_def_var(ncid_, v.name.c_str(), type, 2, dims, &id), temp_, "defining " + v.name);
+      check(nc_def_var_chunking(ncid_, id, NC_CHUNKED, chunks), temp_, "chunking " + v.name);
+      if (options.deflate_level > 0)
+        check(nc_def_var_deflate(ncid_, id, 1, 1, options.deflate_level), temp_, "compressing " + v.name);
+      check(nc_put_att_double(ncid_, id, "_FillValue", type, 1, &fill), temp_, "fill of " + v.name);
+      putText(ncid_, id, "units", v.units, temp_);
+      putText(ncid_, id, "long_name", v.long_name, temp_);
+      if (!v.standard_name.empty()) putText(ncid_, id, "standard_name", v.standard_name, temp_);
+      putText(ncid_, id, "coordinates", id_variable, temp_);
+      varids_.push_back(id);
+      var_length_.push_back(length);
+    }
+  };
+  defineVariables(dim_reach, reaches_, variables_, options.reach_chunk, "reach_id");
+  std::vector<int> more_ids;
+  for (const SeriesStations& set : more) {
+    int dim = 0, var = 0;
+    check(nc_def_dim(ncid_, set.dimension.c_str(), set.ids.size(), &dim), temp_, "defining dimension " + set.dimension);
+    check(nc_def_var(ncid_, set.id_variable.c_str(), NC_STRING, 1, &dim, &var), temp_, "defining " + set.id_variable);
+    putText(ncid_, var, "long_name", set.id_long_name, temp_);
+    putText(ncid_, var, "cf_role", "timeseries_id", temp_);
+    more_ids.push_back(var);
+    defineVariables(dim, set.ids.size(), set.variables, 1, set.id_variable);
+    variables_.insert(variables_.end(), set.variables.begin(), set.variables.end());
   }
   putText(ncid_, NC_GLOBAL, "Conventions", "CF-1.8", temp_);
   putText(ncid_, NC_GLOBAL, "title", options.title, temp_);
@@ -101,14 +121,19 @@ void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::st
   ids.reserve(reaches_);
   for (const std::string& id : reach_ids) ids.push_back(id.c_str());
   check(nc_put_var_string(ncid_, var_id, ids.data()), temp_, "writing reach_id");
+  for (std::size_t k = 0; k < more.size(); ++k) {
+    std::vector<const char*> texts;
+    for (const std::string& id : more[k].ids) texts.push_back(id.c_str());
+    check(nc_put_var_string(ncid_, more_ids[k], texts.data()), temp_, "writing " + more[k].id_variable);
+  }
 }
 
 void SeriesFile::write(std::size_t variable, std::size_t reach, std::span<const double> values) {
   if (finished_) throw InternalError("write after finish on " + path_.string());
   REACHWISE_ASSERT(variable < varids_.size());
-  if (reach >= reaches_)
-    throw InternalError(fmt::format("reach index {} beyond the {} reaches of {}", reach, reaches_,
-                                    path_.string()));
+  if (reach >= var_length_[variable])
+    throw InternalError(fmt::format("index {} beyond the {} series of {} in {}", reach, var_length_[variable],
+                                    variables_[variable].name, path_.string()));
   if (values.size() != steps_)
     throw InternalError(fmt::format("{} values for reach index {} on an axis of {} steps",
                                     values.size(), reach, steps_));

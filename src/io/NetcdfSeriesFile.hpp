@@ -33,6 +33,16 @@ struct SeriesVariable {
   std::string standard_name;   ///< CF standard name, or empty
 };
 
+/// A further set of series on a dimension of its own beside `reach` (e.g.
+/// the lakes of a run): its ids and one variable (time, dimension) each.
+struct SeriesStations {
+  std::string dimension;      ///< e.g. "lake"
+  std::string id_variable;    ///< e.g. "lake_id" (NC_STRING, cf_role timeseries_id)
+  std::string id_long_name;   ///< e.g. "lake id"
+  std::vector<std::string> ids;
+  std::vector<SeriesVariable> variables;
+};
+
 struct SeriesFileOptions {
   std::string title;
   std::string source;
@@ -46,20 +56,23 @@ struct SeriesFileOptions {
 
 /// A CF file with dimensions `time` and `reach`, coordinate `time`, the
 /// `reach_id` strings, and one double (or float) variable (time, reach) per entry of
-/// `variables`, filled with _FillValue until written. Created under a
+/// `variables`, filled with _FillValue until written; and for each entry of
+/// `more` its dimension, id strings and variables likewise. Variables are
+/// numbered in that order: `variables` first, then each set's. Created under a
 /// temporary name beside `path`; `finish()` closes and renames it; the
 /// destructor removes it when `finish()` was not reached.
 class SeriesFile {
 public:
   SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis,
              const std::vector<std::string>& reach_ids, std::vector<SeriesVariable> variables,
-             const SeriesFileOptions& options);
+             const SeriesFileOptions& options, std::vector<SeriesStations> more = {});
   ~SeriesFile();
   SeriesFile(const SeriesFile&) = delete;
   SeriesFile& operator=(const SeriesFile&) = delete;
 
   /// Writes the whole series of `variable` for reach `reach` (an index into
-  /// `reach_ids`). `values.size()` must be the axis length.
+  /// `reach_ids`, or into the ids of the variable's set). `values.size()`
+  /// must be the axis length.
   void write(std::size_t variable, std::size_t reach, std::span<const double> values);
 
   /// Closes the file and renames it to its final name (replacing a file
@@ -73,13 +86,14 @@ public:
 
 private:
   void define(const routing::TimeAxis& axis, const std::vector<std::string>& reach_ids,
-              const SeriesFileOptions& options);
+              const SeriesFileOptions& options, const std::vector<SeriesStations>& more);
   void abandon() noexcept;
 
   std::filesystem::path path_;
   std::filesystem::path temp_;
   std::vector<SeriesVariable> variables_;
   std::vector<int> varids_;
+  std::vector<std::size_t> var_length_;   ///< length of each variable's second dimension
   std::size_t reaches_ = 0;
   std::size_t steps_ = 0;
   int ncid_ = -1;

@@ -1,7 +1,9 @@
 #include <fmt/format.h>
+#include <ogr_geometry.h>
 
 #include <cmath>
 #include <fstream>
+#include <memory>
 #include <system_error>
 
 
@@ -60,6 +62,21 @@ std::string wkt(const std::vector<network::Point3>& line) {
   return out + ")\"";
 }
 
+/// A lake's polygon(s) as WKT `MULTIPOLYGON`, as the GeoPackage layer holds
+/// them (quoted: the text holds commas); empty when there is none.
+std::string lakeWkt(const std::string& wkt) {
+  if (wkt.empty()) return {};
+  OGRGeometry* g = nullptr;
+  if (OGRGeometryFactory::createFromWkt(wkt.c_str(), nullptr, &g) != OGRERR_NONE) return {};
+  std::unique_ptr<OGRGeometry> multi(OGRGeometryFactory::forceToMultiPolygon(g));
+  OGRErr err = OGRERR_NONE;
+  const std::string text = multi->exportToWkt(OGRWktOptions(), &err);  // 15 significant digits
+  return err == OGRERR_NONE ? quoted(text) : std::string();
+}
+
+/// Whole-second steps need no fraction in the time stamps of a series.
+int seriesFractionDigits(const routing::TimeAxis& axis) { return axis.dt_s == std::floor(axis.dt_s) ? 0 : 3; }
+
 }  // namespace
 
 /// A text file written under a temporary name beside its target and renamed
@@ -112,15 +129,20 @@ void writeRow(std::ostream& out, const results::Row& row, int offset) {
 
 void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTable& table,
                     const network::NetworkPlan& plan, const routing::NetworkResults& results,
-                    const RunInfo& info) {
+                    const RunInfo& info, const CsvLakes& csv_lakes) {
   REACHWISE_ASSERT(results.reaches.size() == plan.size());
   prepareDirectory(dir);
   const int offset = results.axis.utc_offset_min;
-  // All four are opened first, so that a refusal to overwrite leaves nothing new.
+  // All are opened first, so that a refusal to overwrite leaves nothing new.
   Stream reaches(dir, "reaches.csv", overwrite);
   Stream nodes(dir, "nodes.csv", overwrite);
   Stream branches(dir, "confluence_branches.csv", overwrite);
   Stream run_info(dir, "run_info.csv", overwrite);
+  std::unique_ptr<Stream> lakes, lake_series;
+  if (csv_lakes.lakes) {
+    lakes = std::make_unique<Stream>(dir, kCsvLakeFiles[0], overwrite);
+    lake_series = std::make_unique<Stream>(dir, kCsvLakeFiles[1], overwrite);
+  }
 
   header(reaches.out, results::reachColumns());
   reaches.out << ",geometry\n";
@@ -146,10 +168,36 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
   for (const auto& [key, value] : results::runInfoRows(results, info))
     run_info.out << quoted(key) << ',' << quoted(value) << '\n';
 
+  if (csv_lakes.lakes) {
+    const routing::TimeAxis& axis = results.axis;
+    header(lakes->out, results::lakeColumns());
+    lakes->out << ",geometry\n";
+    header(lake_series->out, results::lakeSeriesColumns());
+    lake_series->out << '\n';
+    const int series_offset = results::writableOffsetMin(axis.utc_offset_min);
+    const int digits = seriesFractionDigits(axis);
+    for (const LakeOutput& lake : *csv_lakes.lakes) {
+      writeRow(lakes->out, results::lakeRow(axis, lake), offset);
+      lakes->out << ',' << lakeWkt(lake.lake->wkt) << '\n';
+      if (!csv_lakes.series) continue;
+      const auto series = results::lakeSeries(lake, axis.steps);
+      const auto id = quoted(lake.lake->lake_id);
+      for (std::size_t k = 0; k < axis.steps; ++k) {
+        lake_series->out << id << ',' << formatIsoTime(axis.at(static_cast<double>(k)), series_offset, digits);
+        for (const auto& s : series) lake_series->out << ',' << real(s[k]);
+        lake_series->out << '\n';
+      }
+    }
+  }
+
   reaches.commit();
   nodes.commit();
   branches.commit();
   run_info.commit();
+  if (lakes) {
+    lakes->commit();
+    lake_series->commit();
+  }
 }
 
 CsvSeriesWriter::CsvSeriesWriter(const fs::path& dir, bool overwrite,
@@ -158,8 +206,7 @@ CsvSeriesWriter::CsvSeriesWriter(const fs::path& dir, bool overwrite,
     : plan_(plan), axis_(axis), selected_(selection.mask(plan.size())) {
   prepareDirectory(dir);
   out_ = std::make_unique<Stream>(dir, "hydrographs.csv", overwrite);
-  // Whole-second steps need no fraction in the time stamps.
-  fraction_digits_ = axis_.dt_s == std::floor(axis_.dt_s) ? 0 : 3;
+  fraction_digits_ = seriesFractionDigits(axis_);
   out_->out << "reach_id,time,q,depth,velocity\n";
 }
 

@@ -135,6 +135,7 @@ const std::vector<Column>& nodeColumns() {
       {"peak_q", CT::Real},           {"peak_time", CT::DateTime},
       {"branch_count", CT::Integer},  {"branch_spread_h", CT::Real},
       {"coincidence_ratio", CT::Real}, {"branches", CT::Text},
+      {"lake_id", CT::Text},
   };
   return columns;
 }
@@ -157,6 +158,8 @@ Row nodeRow(const network::NetworkPlan& plan, const routing::NodeSummary& node) 
   }
   if (branches.empty()) row.emplace_back();
   else row.emplace_back(std::move(branches));
+  if (node.lake_id.empty()) row.emplace_back();
+  else row.emplace_back(node.lake_id);
   REACHWISE_ASSERT(row.size() == nodeColumns().size());
   return row;
 }
@@ -180,6 +183,65 @@ Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node
   row.push_back(real(branch.peak_q_m3s));
   row.push_back(instant(branch.peak_time_s));
   return row;
+}
+
+const std::vector<Column>& lakeColumns() {
+  static const std::vector<Column> columns = {
+      {"lake_id", CT::Text},           {"reach_id", CT::Text},
+      {"inflow_peak_m3s", CT::Real},   {"inflow_peak_time", CT::DateTime},
+      {"outflow_peak_m3s", CT::Real},  {"outflow_peak_time", CT::DateTime},
+      {"attenuation_pct", CT::Real},   {"lag_h", CT::Real},
+      {"peak_level_m", CT::Real},      {"peak_storage_m3", CT::Real},
+      {"volume_in_m3", CT::Real},      {"volume_out_m3", CT::Real},
+      {"storage_change_m3", CT::Real}, {"volume_error_m3", CT::Real},
+      {"substeps", CT::Integer},
+  };
+  return columns;
+}
+
+Row lakeRow(const routing::TimeAxis& axis, const LakeOutput& lake) {
+  REACHWISE_ASSERT(lake.lake && lake.routing);
+  const auto& r = lake.routing->result;
+  const LakeFigures f = lakeFigures(*lake.routing, axis);
+  Row row;
+  row.reserve(lakeColumns().size());
+  row.emplace_back(lake.lake->lake_id);
+  if (lake.outflow_reach.empty())
+    row.emplace_back(std::monostate{});  // a terminal lake: its outflow enters no reach
+  else
+    row.emplace_back(lake.outflow_reach);
+  row.push_back(real(f.inflow_peak_m3s));
+  row.push_back(instant(f.inflow_peak_time_s));
+  row.push_back(real(f.outflow_peak_m3s));
+  row.push_back(instant(f.outflow_peak_time_s));
+  row.push_back(real(f.attenuation_pct));
+  row.push_back(hours(f.lag_s));
+  row.push_back(real(f.peak_level_m));
+  row.push_back(real(f.peak_storage_m3));
+  row.push_back(real(r.volume_in_m3));
+  row.push_back(real(r.volume_out_m3));
+  row.push_back(real(r.storage_change_m3));
+  row.push_back(real(r.volume_error_m3));
+  row.push_back(integer(r.substeps));
+  REACHWISE_ASSERT(row.size() == lakeColumns().size());
+  return row;
+}
+
+const std::vector<Column>& lakeSeriesColumns() {
+  static const std::vector<Column> columns = {
+      {"lake_id", CT::Text},     {"time", CT::DateTime},    {"level_m", CT::Real},
+      {"storage_m3", CT::Real},  {"inflow_m3s", CT::Real},  {"outflow_m3s", CT::Real},
+  };
+  return columns;
+}
+
+std::array<std::span<const double>, 4> lakeSeries(const LakeOutput& lake, std::size_t steps) {
+  REACHWISE_ASSERT(lake.lake && lake.routing);
+  const auto& r = lake.routing->result;
+  const std::array<std::span<const double>, 4> series = {r.level_m, r.storage_m3, lake.routing->inflow_m3s,
+                                                         r.outflow_m3s};
+  for (const auto& s : series) REACHWISE_ASSERT(s.size() == steps);
+  return series;
 }
 
 std::vector<network::Point3> flowLine(const network::ReachTable& table,

@@ -3,12 +3,15 @@
 /// The columns and rows of the result tables, shared by the GeoPackage and
 /// CSV writers so that both always hold the same fields in the same order.
 
+#include <array>
 #include <cstdint>
+#include <span>
 #include <string>
 #include <utility>
 #include <variant>
 #include <vector>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 
 namespace reachwise::io::results {
@@ -38,6 +41,17 @@ Row nodeRow(const network::NetworkPlan& plan, const routing::NodeSummary& node);
 const std::vector<Column>& branchColumns();
 Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node,
               const routing::ConfluenceBranch& branch);
+
+/// The `lakes` layer: one row per routed lake (times from `axis`).
+const std::vector<Column>& lakeColumns();
+Row lakeRow(const routing::TimeAxis& axis, const LakeOutput& lake);
+
+/// The `lake_series` table: `lake_id`, `time`, then the four series of
+/// lakeSeries(), one row per lake and time step.
+const std::vector<Column>& lakeSeriesColumns();
+/// A routed lake's level (m), storage (m^3), inflow and outflow (m^3/s),
+/// in the order of their columns; each `steps` long.
+std::array<std::span<const double>, 4> lakeSeries(const LakeOutput& lake, std::size_t steps);
 
 /// key/value rows of `run_info`, in order.
 std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::NetworkResults& results,

@@ -86,7 +86,8 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
   return line;
 }
 
-constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info"};
+constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info",
+                                   "lakes", "lake_series"};
 
 }  // namespace
 
@@ -108,6 +109,7 @@ GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& ta
   try {
     if (ds_->StartTransaction() != OGRERR_NONE) failAt(target_, "cannot start writing");
     openSeriesTable();
+    openLakeSeriesTable();
   } catch (...) {
     ds_.reset();
     fs::remove(working_, ec);
@@ -181,6 +183,7 @@ GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string p
     if (ds_->DeleteLayer(layerIndex(*ds_, name)) != OGRERR_NONE)
       failAt(target_, "cannot delete the old layer " + name, name);
   openSeriesTable();
+  openLakeSeriesTable();
 }
 
 GpkgResultsWriter::~GpkgResultsWriter() {
@@ -220,8 +223,23 @@ void GpkgResultsWriter::openSeriesTable() {
   if (CPLGetLastErrorType() >= CE_Failure) failAt(target_, "cannot index " + series, series);
 }
 
+void GpkgResultsWriter::openLakeSeriesTable() {
+  if (!options_.lakes) return;
+  const auto name = layerName("lake_series");
+  lake_series_layer_ = createTable(target_, *ds_, name, nullptr, wkbNone, results::lakeSeriesColumns());
+  // Indexed now, before any layer holds rows, for the reason given in openSeriesTable().
+  CPLErrorReset();
+  ds_->ExecuteSQL(fmt::format("CREATE INDEX \"idx_{0}_lake_id\" ON \"{0}\" (lake_id)", name).c_str(), nullptr,
+                  nullptr);
+  if (CPLGetLastErrorType() >= CE_Failure) failAt(target_, "cannot index " + name, name);
+}
+
 void GpkgResultsWriter::countRow() {
   ++hydrograph_rows_;
+  rowWritten();
+}
+
+void GpkgResultsWriter::rowWritten() {
   // A new file commits in batches so that memory and journal stay small; a
   // write-back keeps its one transaction so that it stays all-or-nothing.
   if (write_back_ || ++rows_in_transaction_ < options_.batch_rows) return;
@@ -330,10 +348,50 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   summaries_written_ = true;
 }
 
+void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
+  const auto in_this_thread = spatialIndexInThisThread();
+  REACHWISE_ASSERT(ds_ && !committed_ && !lakes_written_);
+  REACHWISE_ASSERT(options_.lakes && lake_series_layer_);
+  const int offset = timeOffsetMin(axis_.utc_offset_min);
+  const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
+  const auto name = layerName("lakes");
+  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbMultiPolygon, results::lakeColumns());
+  OGRFeature f(layer->GetLayerDefn());
+  for (const auto& lake : lakes) {
+    const auto row = results::lakeRow(axis_, lake);
+    for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+    OGRGeometry* g = nullptr;
+    if (!lake.lake->wkt.empty() &&
+        OGRGeometryFactory::createFromWkt(lake.lake->wkt.c_str(), nullptr, &g) == OGRERR_NONE) {
+      f.SetGeometryDirectly(OGRGeometryFactory::forceToMultiPolygon(g));
+    } else {
+      f.SetGeometryDirectly(nullptr);
+    }
+    f.SetFID(OGRNullFID);
+    if (layer->CreateFeature(&f) != OGRERR_NONE) failAt(target_, "cannot write lake " + lake.lake->lake_id, name);
+  }
+  if (options_.lake_series) {
+    OGRFeature s(lake_series_layer_->GetLayerDefn());
+    for (const auto& lake : lakes) {
+      const auto series = results::lakeSeries(lake, axis_.steps);
+      s.SetField(0, lake.lake->lake_id.c_str());
+      for (std::size_t k = 0; k < axis_.steps; ++k) {
+        setDateTime(s, 1, axis_.at(static_cast<double>(k)), offset);
+        for (std::size_t v = 0; v < series.size(); ++v)
+          setValue(s, static_cast<int>(2 + v), std::isnan(series[v][k]) ? Value{} : Value{series[v][k]}, 0);
+        insert(target_, *lake_series_layer_, s);
+        rowWritten();
+      }
+    }
+  }
+  lakes_written_ = true;
+}
+
 void GpkgResultsWriter::commit() {
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
+  REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
   if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
   series_feature_.reset();
   ds_.reset();  // closes and flushes the file before it is renamed

@@ -29,8 +29,19 @@ NetcdfSeriesWriter::NetcdfSeriesWriter(std::filesystem::path path, const routing
   file_options.source = options.source;
   file_options.history = options.history;
   file_options.deflate_level = options.deflate_level;
+  std::vector<detail::SeriesStations> more;
+  if (!options.lake_ids.empty()) {
+    lake_var_ = static_cast<int>(vars.size());
+    lake_ids_ = options.lake_ids;
+    lake_written_.assign(lake_ids_.size(), false);
+    more.push_back({"lake", "lake_id", "lake id", lake_ids_,
+                    {{"lake_level", "m", "water level of the lake (in the datum of its levels)", ""},
+                     {"lake_storage", "m3", "water volume stored in the lake above its empty level", ""},
+                     {"lake_inflow", "m3 s-1", "discharge flowing into the lake", ""},
+                     {"lake_outflow", "m3 s-1", "discharge flowing out of the lake", ""}}});
+  }
   file_ = std::make_unique<detail::SeriesFile>(std::move(path), axis, reach_ids_, std::move(vars),
-                                               file_options);
+                                               file_options, std::move(more));
 }
 
 NetcdfSeriesWriter::~NetcdfSeriesWriter() = default;
@@ -56,7 +67,26 @@ void NetcdfSeriesWriter::write(std::uint32_t reach, std::span<const double> q_m3
   ++written_count_;
 }
 
+void NetcdfSeriesWriter::writeLake(std::size_t lake, std::span<const double> level_m,
+                                   std::span<const double> storage_m3, std::span<const double> inflow_m3s,
+                                   std::span<const double> outflow_m3s) {
+  if (lake >= lake_written_.size())
+    throw InternalError(fmt::format("lake index {} beyond the {} lakes of {}", lake, lake_written_.size(),
+                                    file_->path().string()));
+  if (lake_written_[lake])
+    throw InternalError(fmt::format("lake {} written twice to {}", lake_ids_[lake], file_->path().string()));
+  const auto first = static_cast<std::size_t>(lake_var_);
+  file_->write(first, lake, level_m);
+  file_->write(first + 1, lake, storage_m3);
+  file_->write(first + 2, lake, inflow_m3s);
+  file_->write(first + 3, lake, outflow_m3s);
+  lake_written_[lake] = true;
+}
+
 void NetcdfSeriesWriter::finish() {
+  for (std::size_t k = 0; k < lake_written_.size(); ++k)
+    if (!lake_written_[k])
+      throw InternalError(fmt::format("lake {} never written to {}", lake_ids_[k], file_->path().string()));
   if (written_count_ != written_.size()) {
     std::vector<std::string> missing;
     for (std::size_t i = 0; i < written_.size() && missing.size() < 5; ++i)

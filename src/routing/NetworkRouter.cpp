@@ -451,6 +451,7 @@ void Scheduler::warnAboutHandover() {
 NodeSummary Scheduler::topNode(std::uint32_t i) const {
   NodeSummary node;
   node.node_id = "N:" + plan_.reach_id[i];
+  node.reach = i;
   node.x = plan_.top[i].x;
   node.y = plan_.top[i].y;
   node.peak_q_m3s = top_node_[i].value;
@@ -482,6 +483,7 @@ NodeSummary Scheduler::bottomNode(std::uint32_t i, const char* prefix, NodeKind 
   NodeSummary node;
   node.node_id = prefix + plan_.reach_id[i];
   node.kind = kind;
+  node.reach = i;
   node.x = plan_.bottom[i].x;
   node.y = plan_.bottom[i].y;
   node.peak_q_m3s = results_.reaches[i].peak_q_m3s;

@@ -2,8 +2,10 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <filesystem>
 
+#include "reachwise/Error.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
 #include "reachwise/report/Report.hpp"
@@ -42,6 +44,18 @@ private:
 
 }  // namespace
 
+void markLakeNodes(routing::NetworkResults& results, const std::vector<LakeResult>& lakes) {
+  for (auto& node : results.nodes) {
+    const bool bottom = node.kind == routing::NodeKind::Outlet || node.kind == routing::NodeKind::Bifurcation;
+    for (const LakeResult& lake : lakes) {
+      const bool one_out = lake.outflow_reaches.size() == 1;
+      const auto& reaches = !bottom && one_out ? lake.outflow_reaches : lake.inflow_reaches;
+      if ((bottom == !one_out) && std::find(reaches.begin(), reaches.end(), node.reach) != reaches.end())
+        node.lake_id = lake.lake_id;
+    }
+  }
+}
+
 struct Outputs::Writers {
   std::unique_ptr<io::GpkgResultsWriter> gpkg;
   std::unique_ptr<io::CsvSeriesWriter> csv;
@@ -58,12 +72,23 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   const OutputRequest& o = request_;
   const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
   std::vector<routing::SeriesSink*> sinks = std::move(extra);
+  // Lakes: a `lakes` and a `lake_series` table in every output; their series
+  // go where the hydrographs go, and not at all with `--hydrographs none`.
+  has_lakes_ = net.lakes.has_value();
+  if (net.lakes)
+    for (const auto& lake : net.lakes->lakes) lake_ids_.push_back(lake.lake_id);
+  if (has_lakes_) {
+    const std::vector<bool> mask = selection.mask(plan.size());
+    lake_series_ = std::find(mask.begin(), mask.end(), true) != mask.end();
+  }
   // A new GeoPackage (temporary name, renamed on success) or prefixed
   // layers in the input GeoPackage; with a NetCDF series file the chosen
   // hydrographs go there instead of the GeoPackage table.
   io::GpkgWriterOptions wo;
   wo.overwrite = o.overwrite;
   wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
+  wo.lakes = has_lakes_;
+  wo.lake_series = lake_series_ && o.series_nc.empty();
   if (o.write_back) {
     w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
     gpkg_target_ = net.source.path;
@@ -76,6 +101,8 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     std::error_code ec;
     fs::create_directories(o.csv_dir, ec);
     w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection);
+    if (has_lakes_)  // refused now rather than after routing
+      for (const char* name : io::kCsvLakeFiles) io::refuseExisting(fs::path(o.csv_dir) / name, o.overwrite);
     sinks.push_back(w_->csv.get());
   }
   if (!o.series_nc.empty()) {
@@ -87,6 +114,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     io::SeriesNetcdfOptions so;
     so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
     so.history = history;
+    if (lake_series_) so.lake_ids = lake_ids_;
     w_->netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
     w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
     sinks.push_back(w_->netcdf_selected.get());
@@ -104,18 +132,34 @@ Outputs::~Outputs() = default;
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
 void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
-                     const std::vector<LakeResult>& lakes) {
-  if (w_->gpkg) w_->gpkg->writeSummaries(results, info);
+                     const std::vector<io::LakeOutput>& lakes) {
+  // The lakes must be the ones the outputs were opened for, in that order.
+  bool same = lakes.size() == lake_ids_.size();
+  for (std::size_t k = 0; same && k < lakes.size(); ++k)
+    same = lakes[k].lake && lakes[k].routing && lakes[k].lake->lake_id == lake_ids_[k];
+  if (!same) throw InternalError("the lakes given to Outputs::commit are not the lakes the run routes");
+  if (w_->gpkg) {
+    w_->gpkg->writeSummaries(results, info);
+    if (has_lakes_) w_->gpkg->writeLakes(lakes);
+  }
   if (w_->report) {
     report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
-    ri.lakes = routedLakes(net_, plan_, lakes);
+    ri.lakes = lakes;
     report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
   }
   if (w_->csv) {
-    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info);
+    io::CsvLakes csv_lakes;
+    if (has_lakes_) csv_lakes = {&lakes, lake_series_};
+    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes);
     w_->csv->commit();
   }
-  if (w_->netcdf) w_->netcdf->finish();
+  if (w_->netcdf) {
+    for (std::size_t k = 0; k < lakes.size() && lake_series_; ++k) {
+      const auto& r = *lakes[k].routing;
+      w_->netcdf->writeLake(k, r.result.level_m, r.result.storage_m3, r.inflow_m3s, r.result.outflow_m3s);
+    }
+    w_->netcdf->finish();
+  }
   if (w_->gpkg) w_->gpkg->commit();
 }
 

@@ -3,7 +3,6 @@
 #include <chrono>
 #include <cmath>
 
-#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -99,11 +98,16 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
-  outputs.commit(summary.results, summary.info, summary.lakes);
+  const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
+  markLakeNodes(summary.results, summary.lakes);
+  outputs.commit(summary.results, summary.info, lakes);
   summary.gpkg = outputs.geopackage();
-  if (net.lakes && !summary.gpkg.empty() && !request.outputs.write_back)
-    io::writeLakesLayer(summary.gpkg, net.table.crs_wkt, forcing.axis(), routedLakes(net, plan, summary.lakes));
   return summary;
+}
+
+std::vector<io::LakeOutput> routedLakes(const RouteSummary& summary) {
+  if (!summary.network) return {};
+  return routedLakes(*summary.network, summary.plan, summary.lakes);
 }
 
 }  // namespace reachwise::run

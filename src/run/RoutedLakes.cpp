@@ -11,7 +11,8 @@ std::vector<io::LakeOutput> routedLakes(const LoadedNetwork& net, const network:
   for (const LakeResult& lake : lakes) {
     std::string into;  // empty for a terminal lake
     for (const auto o : lake.outflow_reaches) into += (into.empty() ? "" : ";") + plan.reach_id[o];
-    out.push_back({&net.lakes->lakes[lake.lake], into, &lake.routing});
+    const std::uint32_t reach = lake.outflow_reaches.empty() ? ~0u : lake.outflow_reaches.front();
+    out.push_back({&net.lakes->lakes[lake.lake], into, reach, &lake.routing});
   }
   return out;
 }

@@ -134,6 +134,7 @@ struct Network {
     y.branches = {{0, 10.0, t0() + 3600.25}, {1, 11.0, t0() + 7200.25}};
     y.branch_spread_s = 3600;
     y.coincidence_ratio = 19.5 / 21.0;
+    y.lake_id = "Mere";  // a lake on the confluence
     results.warnings = {"reach C,lower: grid compromise"};
     results.volume.event_error_pct = -2.5;
 
@@ -188,7 +189,8 @@ const std::vector<std::string> kReachFields = {
     "event_volume_error_pct", "x_clamp_cause", "envelope_exceedances", "envelope_excursion_pct",
     "ponce_number", "method"};
 const std::vector<std::string> kNodeFields = {"node_id", "kind", "peak_q", "peak_time",
-                                              "branch_count", "branch_spread_h", "coincidence_ratio"};
+                                              "branch_count", "branch_spread_h", "coincidence_ratio",
+                                              "lake_id"};
 
 std::unique_ptr<OGRFeature> featureWhere(OGRLayer& layer, const std::string& filter) {
   layer.SetAttributeFilter(filter.c_str());
@@ -280,6 +282,8 @@ TEST(GpkgResultsWriter, LayersFieldsCrsAndValuesReadBackWithOgr) {
   EXPECT_STREQ(y->GetFieldAsString("kind"), "confluence");
   EXPECT_EQ(y->GetFieldAsInteger("branch_count"), 2);
   EXPECT_DOUBLE_EQ(y->GetFieldAsDouble("branch_spread_h"), 1.0);
+  EXPECT_STREQ(y->GetFieldAsString("lake_id"), "Mere");
+  EXPECT_TRUE(featureWhere(nodes, "lake_id IS NOT NULL AND node_id <> 'n_y'") == nullptr);
   EXPECT_NEAR(readInstant(*y, "peak_time"), Network::t0() + 9000, 1e-3);
   EXPECT_DOUBLE_EQ(y->GetGeometryRef()->toPoint()->getX(), 500.0);
 
@@ -416,6 +420,18 @@ TEST(GpkgResultsWriter, CallerMistakesAreInternalErrorsAndLeaveNothing) {
     auto results = net.results;
     results.reaches.pop_back();
     EXPECT_THROW(writer.writeSummaries(results, net.info), InternalError);
+  }
+  EXPECT_FALSE(fs::exists(out));
+  EXPECT_TRUE(listDir(out.parent_path()).empty());
+  // A run with lakes must write them before committing: a file without its
+  // lakes would look complete.
+  {
+    GpkgWriterOptions options;
+    options.lakes = true;
+    GpkgResultsWriter writer(out, net.table, net.plan, net.axis, options);
+    net.stream(writer);
+    writer.writeSummaries(net.results, net.info);
+    EXPECT_THROW(writer.commit(), InternalError);
   }
   EXPECT_FALSE(fs::exists(out));
   EXPECT_TRUE(listDir(out.parent_path()).empty());
@@ -569,6 +585,7 @@ TEST(CsvResults, TablesParseBackWithGdalCsvDriver) {
   ASSERT_TRUE(y);
   EXPECT_DOUBLE_EQ(y->GetFieldAsDouble("x"), 500.0);
   EXPECT_STREQ(y->GetFieldAsString("kind"), "confluence");
+  EXPECT_STREQ(y->GetFieldAsString("lake_id"), "Mere");
 
   auto branches = openVector(out / "confluence_branches.csv", 0, options);
   ASSERT_TRUE(branches);

@@ -180,3 +180,52 @@ TEST_F(SeriesNetcdfTest, OmittedDepthStaysFillAndOptionalVariablesCanBeLeftOut) 
   EXPECT_EQ(nc_inq_varid(nc, "outflow", &v), NC_NOERR);
   nc_close(nc);
 }
+
+// Lakes on a dimension of their own beside the reaches: values read back
+// per lake, and a lake never written (or written twice, or beyond the
+// list) is refused, leaving no file behind.
+TEST_F(SeriesNetcdfTest, LakeSeriesOnTheirOwnDimension) {
+  const fs::path p = dir_ / "with-lakes.nc";
+  const std::vector<double> q(axis_.steps, 3.0);
+  const auto ramp = [&](double a) {
+    std::vector<double> v(axis_.steps);
+    for (std::size_t k = 0; k < v.size(); ++k) v[k] = a + static_cast<double>(k);
+    return v;
+  };
+  SeriesNetcdfOptions options;
+  options.lake_ids = {"Mere", "Tarn"};
+  {
+    NetcdfSeriesWriter writer(p, axis_, ids(2), options);
+    writer.write(0, q, {}, {});
+    writer.write(1, q, {}, {});
+    writer.writeLake(1, ramp(10), ramp(20), ramp(30), ramp(40));
+    EXPECT_THROW(writer.writeLake(1, ramp(10), ramp(20), ramp(30), ramp(40)), InternalError);
+    EXPECT_THROW(writer.writeLake(2, ramp(10), ramp(20), ramp(30), ramp(40)), InternalError);
+    EXPECT_THROW(writer.finish(), InternalError);  // Mere never written
+  }
+  EXPECT_EQ(filesInDir(), 0u);
+  {
+    NetcdfSeriesWriter writer(p, axis_, ids(2), options);
+    writer.write(0, q, {}, {});
+    writer.write(1, q, {}, {});
+    writer.writeLake(1, ramp(10), ramp(20), ramp(30), ramp(40));
+    writer.writeLake(0, ramp(1), ramp(2), ramp(3), ramp(4));
+    writer.finish();
+  }
+  int nc = 0, dim = 0;
+  ASSERT_EQ(nc_open(p.c_str(), NC_NOWRITE, &nc), NC_NOERR);
+  std::size_t lakes = 0;
+  ASSERT_EQ(nc_inq_dimid(nc, "lake", &dim), NC_NOERR);
+  nc_inq_dimlen(nc, dim, &lakes);
+  EXPECT_EQ(lakes, 2u);
+  EXPECT_EQ(column(nc, "lake_level", 0, axis_.steps), ramp(1));
+  EXPECT_EQ(column(nc, "lake_outflow", 0, axis_.steps), ramp(4));
+  EXPECT_EQ(column(nc, "lake_storage", 1, axis_.steps), ramp(20));
+  EXPECT_EQ(column(nc, "lake_inflow", 1, axis_.steps), ramp(30));
+  EXPECT_EQ(column(nc, "outflow", 1, axis_.steps), q);
+  int v = 0;
+  ASSERT_EQ(nc_inq_varid(nc, "lake_storage", &v), NC_NOERR);
+  EXPECT_EQ(textAtt(nc, v, "units"), "m3");  // UDUNITS (CF-1.8 §3.1)
+  EXPECT_EQ(textAtt(nc, v, "coordinates"), "lake_id");
+  nc_close(nc);
+}

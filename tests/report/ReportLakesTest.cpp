@@ -269,7 +269,7 @@ TEST_F(ReportLakesTest, ManyLakesAreRankedByInflowPeak) {
       r.result.outflow_m3s.push_back(0.5 * q);
       r.result.level_m.push_back(100.0 + 0.05 * q);
     }
-    in.lakes.push_back({&records[k], run.plan.reach_id[k], &r});
+    in.lakes.push_back({&records[k], run.plan.reach_id[k], static_cast<std::uint32_t>(k), &r});
   }
   const std::string html = write(in);
   const auto rows = tableRows(html, "lakes");

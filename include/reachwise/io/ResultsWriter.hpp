@@ -2,7 +2,8 @@
 /// \file
 /// Routing results as layers and tables any GIS opens (docs/formats.md,
 /// "Outputs"): `reaches` (lines), `nodes` (points), `confluence_branches`,
-/// `hydrographs` and `run_info` (tables), in a GeoPackage, written back into
+/// `hydrographs` and `run_info` (tables), and for a run with lakes `lakes`
+/// (polygons) and `lake_series` (table), in a GeoPackage, written back into
 /// the input GeoPackage under a prefix, or as CSV files.
 ///
 /// Every writer builds its output where a failure cannot leave something
@@ -19,6 +20,7 @@
 #include <string>
 #include <vector>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
 #include "reachwise/routing/Results.hpp"
@@ -78,6 +80,12 @@ struct GpkgWriterOptions {
   /// `start`, `end`). `true` writes them with the run's offset as the
   /// time-zone flag instead (read correctly by GDAL, not by every reader).
   bool local_offset_times = false;
+  /// The run has lakes: the `lakes` layer and the `lake_series` table are
+  /// written (writeLakes(), required before commit()).
+  bool lakes = false;
+  /// Fill `lake_series` (else it stays empty, as `hydrographs` does when the
+  /// series go to a NetCDF file).
+  bool lake_series = true;
 };
 
 /// Writes results into a GeoPackage. Use: construct, let the scheduler
@@ -121,6 +129,11 @@ public:
   /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`.
   void writeSummaries(const routing::NetworkResults& results, const RunInfo& info);
 
+  /// Writes `lakes` (one polygon per routed lake, in the table's CRS) and,
+  /// with `options.lake_series`, their rows of `lake_series`. Only with
+  /// `options.lakes`; every lake must be routed.
+  void writeLakes(const std::vector<LakeOutput>& lakes);
+
   /// Ends the writing: commits, closes, and (new file) renames onto the target.
   void commit();
 
@@ -134,6 +147,8 @@ private:
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::TimeAxis& axis, GpkgWriterOptions options);
   void openSeriesTable();
+  void openLakeSeriesTable();
+  void rowWritten();
   void countRow();
   std::string layerName(const char* base) const { return prefix_ + base; }
   [[noreturn]] void fail(const std::string& what) const;
@@ -150,21 +165,34 @@ private:
   std::vector<bool> selected_;
   std::unique_ptr<GDALDataset> ds_;
   OGRLayer* series_layer_ = nullptr;
+  OGRLayer* lake_series_layer_ = nullptr;
   std::unique_ptr<OGRFeature> series_feature_;   ///< reused for every row
   std::size_t rows_in_transaction_ = 0;
   std::size_t hydrograph_rows_ = 0;
   bool summaries_written_ = false;
+  bool lakes_written_ = false;
   bool committed_ = false;
+};
+
+/// The lakes of a run, for writeCsvTables.
+struct CsvLakes {
+  const std::vector<LakeOutput>* lakes = nullptr;   ///< null: the run has no lakes (no lake files)
+  bool series = true;                               ///< fill `lake_series.csv` (else its header only)
 };
 
 /// Writes `reaches.csv` (with a WKT `geometry` column), `nodes.csv` (x, y),
 /// `confluence_branches.csv` and `run_info.csv` into `dir` (created when
-/// missing), each under a temporary name renamed on success. Throws
+/// missing), and with lakes `lakes.csv` (a WKT `geometry` column) and
+/// `lake_series.csv`, each under a temporary name renamed on success. Throws
 /// InputError naming the file when one exists and `overwrite` is false.
 /// Text is quoted when it holds a comma, quote or line break; NaN is empty.
 void writeCsvTables(const std::filesystem::path& dir, bool overwrite,
                     const network::ReachTable& table, const network::NetworkPlan& plan,
-                    const routing::NetworkResults& results, const RunInfo& info);
+                    const routing::NetworkResults& results, const RunInfo& info,
+                    const CsvLakes& lakes = {});
+
+/// The names of the lake files writeCsvTables writes.
+inline constexpr const char* kCsvLakeFiles[] = {"lakes.csv", "lake_series.csv"};
 
 /// Streams `hydrographs.csv` (reach_id, time, q, depth, velocity) into
 /// `dir`; the file appears under its name in commit().

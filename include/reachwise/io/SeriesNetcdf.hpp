@@ -3,7 +3,9 @@
 /// Routed hydrographs to a CF-NetCDF file (docs/formats.md, "NetCDF layout"):
 /// variables `outflow` (m3 s-1), `depth` (m), `velocity` (m s-1) on
 /// (time, reach), written reach by reach in whatever order the scheduler
-/// finishes them.
+/// finishes them; for a run with lakes also `lake_level` (m),
+/// `lake_storage` (m3), `lake_inflow` and `lake_outflow` (m3 s-1) on
+/// (time, lake), written once routing is done.
 ///
 /// The file is built under a temporary name beside the output
 /// (`.OUT.partial-<pid>`, io/OutputFiles.hpp) and appears under its own name only when
@@ -34,6 +36,9 @@ struct SeriesNetcdfOptions {
   std::string source;              ///< e.g. "reachwise 0.1.0 (abc123)"
   std::string history;             ///< e.g. the command line
   int deflate_level = 1;           ///< 0-9; 0 = uncompressed
+  /// The lakes whose series the file holds (a `lake` dimension and the
+  /// `lake_*` variables); empty: none.
+  std::vector<std::string> lake_ids;
 };
 
 class NetcdfSeriesWriter final : public routing::SeriesSink {
@@ -50,8 +55,15 @@ public:
   void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
              std::span<const double> velocity_ms) override;
 
+  /// Writes lake `lake` (an index into `options.lake_ids`): its level (m),
+  /// storage (m^3), inflow and outflow (m^3/s), each axis.steps values.
+  /// Writing a lake twice is an InternalError.
+  void writeLake(std::size_t lake, std::span<const double> level_m, std::span<const double> storage_m3,
+                 std::span<const double> inflow_m3s, std::span<const double> outflow_m3s);
+
   /// Closes the file and gives it its final name. Throws InternalError when
-  /// some reach was never written (the file would look complete but is not).
+  /// some reach or lake was never written (the file would look complete but
+  /// is not).
   void finish();
 
   std::size_t written() const noexcept { return written_count_; }
@@ -64,6 +76,9 @@ private:
   std::size_t written_count_ = 0;
   int depth_var_ = -1;
   int velocity_var_ = -1;
+  int lake_var_ = -1;                  ///< the first lake variable
+  std::vector<std::string> lake_ids_;
+  std::vector<bool> lake_written_;
 };
 
 }  // namespace reachwise::io

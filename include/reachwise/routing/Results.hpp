@@ -150,6 +150,13 @@ struct BifurcationBranch {
 struct NodeSummary {
   std::string node_id;
   NodeKind kind = NodeKind::Junction;
+  /// Plan index of the reach at whose top (headwater, junction, confluence,
+  /// side-arm return) or bottom (outlet, bifurcation) the node lies.
+  std::uint32_t reach = 0;
+  /// The lake that sits on the node (routed there: its outflow is the flow
+  /// leaving the node), or empty. Set by the run layer, which knows the
+  /// lakes' ids (run::route); the router leaves it empty.
+  std::string lake_id;
   double x = kNaN, y = kNaN;        ///< CRS units
   double peak_q_m3s = kNaN;         ///< combined flow at the node
   double peak_time_s = kNaN;

@@ -3,12 +3,15 @@
 /// Every output of a run (GeoPackage, CSV tables, NetCDF series, HTML
 /// report), opened before routing, so that a refused output costs no
 /// routing time, and committed together once all are written: a failed
-/// run leaves nothing that looks complete.
+/// run leaves nothing that looks complete. A run with lakes writes them in
+/// the same outputs (`lakes`, `lake_series`), before the commit like every
+/// other table.
 
 #include <memory>
 #include <string>
 #include <vector>
 
+#include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
@@ -35,6 +38,12 @@ struct OutputRequest {
 /// The prefix of written-back layers (`rw_reaches`, ...).
 inline constexpr const char* kWriteBackPrefix = "rw_";
 
+/// Sets `lake_id` on the nodes each lake sits on: the top node of the reach
+/// its outflow enters; for a lake whose outflow is shared (a bifurcation)
+/// or that ends the network (terminal), the bifurcation or outlet nodes at
+/// the bottom of its inflowing reaches.
+void markLakeNodes(routing::NetworkResults& results, const std::vector<LakeResult>& lakes);
+
 class Outputs {
 public:
   /// Opens every requested output for `net` routed over `axis`; throws
@@ -52,12 +61,12 @@ public:
   /// Where the router sends each finished series.
   routing::SeriesSink& sink();
 
-  /// Writes the summaries and the report, then commits every file; the
-  /// report comes first so that a failing report leaves no output behind.
-  /// `lakes`: each lake's routing as routing::routeNetwork filled it
-  /// (RouteSummary::lakes; empty: none), shown in the report.
+  /// Writes the summaries, the lakes (`lakes`: routedLakes() with their
+  /// routing, every lake the run routes) and the report, then commits every
+  /// file; the report comes first so that a failing report leaves no output
+  /// behind.
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
-              const std::vector<LakeResult>& lakes = {});
+              const std::vector<io::LakeOutput>& lakes = {});
 
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }
@@ -68,6 +77,9 @@ private:
   const LoadedNetwork& net_;
   const network::NetworkPlan& plan_;
   std::string gpkg_target_;
+  bool has_lakes_ = false;             ///< the network has lakes: lake tables in every output
+  bool lake_series_ = false;           ///< the lakes' series are written (hydrographs are)
+  std::vector<std::string> lake_ids_;  ///< the lakes the run routes, in order
   std::unique_ptr<Writers> w_;
 };
 

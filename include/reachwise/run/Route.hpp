@@ -102,6 +102,11 @@ routing::NetworkRouteOptions networkRouteOptions(const LoadedNetwork& net, const
 /// output that may not be written; nothing is left behind then.
 RouteSummary route(const RouteRequest& request, Progress* progress = nullptr);
 
+/// The lakes `summary` routed, in the lakes layer's order, each with its
+/// record, the reach its outflow enters and its routing (routedLakes()
+/// above; pointers into `summary`, which must outlive them).
+std::vector<io::LakeOutput> routedLakes(const RouteSummary& summary);
+
 /// The run_info record of a run: inputs, method, command line, warnings.
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results);
 
