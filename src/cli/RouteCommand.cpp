@@ -30,6 +30,8 @@ struct RouteOptions {
   std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report;
   std::string hydrographs = "auto";
   std::string lakes, lakes_layer;
+  std::string observed, gauges, gauges_layer;
+  double gauge_snap_m = 100;
   std::optional<double> dt_s;   ///< unset: the forcing's own step
   double diffusion_below = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;
@@ -38,6 +40,34 @@ struct RouteOptions {
 };
 
 std::string hours(double s) { return fmt::format("{:.1f} h", s / 3600.0); }
+
+/// Gauges listed by name in the console summary; the rest are counted.
+constexpr std::size_t kGaugesListed = 10;
+
+/// One line per gauge, worst KGE first (a gauge without a score last), at
+/// most kGaugesListed, then how many more.
+void printGauges(std::ostream& out, const run::RouteSummary& s) {
+  const auto& gauges = s.gauges.gauges;
+  if (gauges.empty()) return;
+  std::vector<std::size_t> order(gauges.size());
+  for (std::size_t g = 0; g < order.size(); ++g) order[g] = g;
+  const auto key = [&](std::size_t g) {
+    const double k = s.gauge_scores[g].kge;
+    return std::isnan(k) ? INFINITY : k;
+  };
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return key(a) < key(b); });
+  fmt::print(out, "gauges: {} compared, worst KGE first:\n", gauges.size());
+  for (std::size_t k = 0; k < order.size() && k < kGaugesListed; ++k) {
+    const auto& g = gauges[order[k]];
+    const auto& sc = s.gauge_scores[order[k]];
+    fmt::print(out, "  gauge {} on {}: NSE {:.3f}, KGE {:.3f} (r {:.2f}, alpha {:.2f}, beta {:.2f}), bias {:+.1f} %, "
+               "peak {:+.1f} %, timing {:+.1f} h, {} observations\n",
+               g.gauge_id, g.reach_id, sc.nse, sc.kge, sc.kge_r, sc.kge_alpha, sc.kge_beta, sc.pbias_pct,
+               sc.peak_error_pct, sc.peak_timing_h, sc.n_obs);
+  }
+  if (order.size() > kGaugesListed)
+    fmt::print(out, "  ... and {} more gauge(s), all in the gauges layer\n", order.size() - kGaugesListed);
+}
 
 /// Lakes listed by name in the console summary; the rest are counted.
 constexpr std::size_t kLakesListed = 10;
@@ -131,6 +161,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.network = {o.network, o.layer, o.config, ""};
   r.network.lakes = o.lakes;
   r.network.lakes_layer = o.lakes_layer;
+  r.gauges = {o.observed, o.gauges, o.gauges_layer, o.gauge_snap_m};
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
   r.forcing.dt_s = o.dt_s;
@@ -176,6 +207,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
                s.routing_s, results.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, results.threads,
                results.peak_live_series);
     printLakes(out, lakes, results.axis);
+    printGauges(out, s);
     for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
   }
   return kExitOk;
@@ -222,6 +254,14 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--lakes", o->lakes,
                   "Lakes and reservoirs: a polygon source (fields in docs/formats.md, \"Lakes\")");
   sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
+  sub->add_option("--observed", o->observed,
+                  "CSV of observed discharge (gauge records) keyed by reach id, or by gauge id with --gauges; "
+                  "scores in the gauges layer");
+  sub->add_option("--gauges", o->gauges, "Gauges: a point source with gauge_id and optional reach_id");
+  sub->add_option("--gauges-layer", o->gauges_layer, "Layer of the gauges (default: the only point layer)");
+  sub->add_option("--gauge-snap", o->gauge_snap_m,
+                  "Largest distance from a gauge to its reach, metres (default 100)")
+      ->check(CLI::PositiveNumber);
   sub->add_option("--config", o->config,
                   "TOML run file: field mappings and defaults ([network]), any of these options ([route])");
   sub->add_option("--method", o->method,

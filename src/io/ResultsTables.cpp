@@ -185,6 +185,34 @@ Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node
   return row;
 }
 
+const std::vector<Column>& gaugeColumns() {
+  static const std::vector<Column> columns = {
+      {"gauge_id", CT::Text},        {"reach_id", CT::Text},         {"snap_distance_m", CT::Real},
+      {"n_obs", CT::Integer64},      {"nse", CT::Real},              {"nse_peak_weighted", CT::Real},
+      {"kge", CT::Real},             {"kge_r", CT::Real},            {"kge_alpha", CT::Real},
+      {"kge_beta", CT::Real},        {"pbias_pct", CT::Real},        {"volume_error_m3", CT::Real},
+      {"peak_error_pct", CT::Real},  {"peak_timing_h", CT::Real},
+  };
+  return columns;
+}
+
+Row gaugeRow(const GaugeOutput& gauge) {
+  const auto& k = gauge.skill;
+  Row row{gauge.gauge_id,        gauge.reach_id,           real(gauge.snap_distance_m),
+          integer(k.n_obs),      real(k.nse),              real(k.nse_peak_weighted),
+          real(k.kge),           real(k.kge_r),            real(k.kge_alpha),
+          real(k.kge_beta),      real(k.pbias_pct),        real(k.volume_error_m3),
+          real(k.peak_error_pct), real(k.peak_timing_h)};
+  REACHWISE_ASSERT(row.size() == gaugeColumns().size());
+  return row;
+}
+
+const std::vector<Column>& gaugeSeriesColumns() {
+  static const std::vector<Column> columns = {
+      {"gauge_id", CT::Text}, {"time", CT::DateTime}, {"observed_q", CT::Real}, {"simulated_q", CT::Real}};
+  return columns;
+}
+
 const std::vector<Column>& lakeColumns() {
   static const std::vector<Column> columns = {
       {"lake_id", CT::Text},           {"reach_id", CT::Text},

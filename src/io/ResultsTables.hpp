@@ -44,6 +44,9 @@ Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node
 
 /// The `lakes` layer: one row per routed lake (times from `axis`).
 const std::vector<Column>& lakeColumns();
+const std::vector<Column>& gaugeColumns();
+Row gaugeRow(const GaugeOutput& gauge);
+const std::vector<Column>& gaugeSeriesColumns();
 Row lakeRow(const routing::TimeAxis& axis, const LakeOutput& lake);
 
 /// The `lake_series` table: `lake_id`, `time`, then the four series of

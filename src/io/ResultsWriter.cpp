@@ -87,7 +87,7 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
 }
 
 constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info",
-                                   "lakes", "lake_series"};
+                                   "lakes", "lake_series", "gauges", "gauge_series"};
 
 }  // namespace
 
@@ -385,6 +385,39 @@ void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
     }
   }
   lakes_written_ = true;
+}
+
+void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
+  const auto in_this_thread = spatialIndexInThisThread();
+  REACHWISE_ASSERT(ds_ && !committed_);
+  const int offset = timeOffsetMin(axis_.utc_offset_min);
+  const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
+  const auto name = layerName("gauges");
+  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbPoint, results::gaugeColumns());
+  OGRFeature f(layer->GetLayerDefn());
+  for (const auto& gauge : gauges) {
+    const auto row = results::gaugeRow(gauge);
+    for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+    f.SetGeometryDirectly(new OGRPoint(gauge.x, gauge.y));
+    f.SetFID(OGRNullFID);
+    if (layer->CreateFeature(&f) != OGRERR_NONE) failAt(target_, "cannot write gauge " + gauge.gauge_id, name);
+  }
+  const auto series_name = layerName("gauge_series");
+  OGRLayer* series = createTable(target_, *ds_, series_name, nullptr, wkbNone, results::gaugeSeriesColumns());
+  OGRFeature s(series->GetLayerDefn());
+  const auto at = [](const std::vector<double>* v, std::size_t k) {
+    return v && k < v->size() && !std::isnan((*v)[k]) ? Value{(*v)[k]} : Value{};
+  };
+  for (const auto& gauge : gauges) {
+    s.SetField(0, gauge.gauge_id.c_str());
+    for (std::size_t k = 0; k < axis_.steps; ++k) {
+      setDateTime(s, 1, axis_.at(static_cast<double>(k)), offset);
+      setValue(s, 2, at(gauge.observed, k), 0);
+      setValue(s, 3, at(gauge.simulated, k), 0);
+      insert(target_, *series, s);
+      rowWritten();
+    }
+  }
 }
 
 void GpkgResultsWriter::commit() {

@@ -132,7 +132,7 @@ Outputs::~Outputs() = default;
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
 void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
-                     const std::vector<io::LakeOutput>& lakes) {
+                     const std::vector<io::LakeOutput>& lakes, const std::vector<io::GaugeOutput>& gauges) {
   // The lakes must be the ones the outputs were opened for, in that order.
   bool same = lakes.size() == lake_ids_.size();
   for (std::size_t k = 0; same && k < lakes.size(); ++k)
@@ -141,6 +141,7 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
   if (w_->gpkg) {
     w_->gpkg->writeSummaries(results, info);
     if (has_lakes_) w_->gpkg->writeLakes(lakes);
+    if (!gauges.empty()) w_->gpkg->writeGauges(gauges);
   }
   if (w_->report) {
     report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};

@@ -44,7 +44,7 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
   io::RunInfo info;
   info.inputs = {request.network.path};
   for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config,
-                               &request.network.lakes})
+                               &request.network.lakes, &request.gauges.observed, &request.gauges.gauges})
     if (!f->empty()) info.inputs.push_back(*f);
   info.method = routing::methodName(request.method);
   info.command_line = provenance(request);
@@ -77,7 +77,13 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
 
   tell.stage("reading the forcing");
   const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
-  Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), request.sinks);
+  summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.units);
+  std::vector<std::uint32_t> gauged;
+  for (const auto& g : summary.gauges.gauges) gauged.push_back(g.reach);
+  OutflowCapture capture(plan.size(), gauged);
+  std::vector<routing::SeriesSink*> sinks = request.sinks;
+  if (!gauged.empty()) sinks.push_back(&capture);
+  Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), sinks);
 
   tell.stage("routing");
   routing::NetworkRouteOptions ro =
@@ -93,14 +99,25 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
                              ro.lakes[k].outflow_shares, std::move(lake_routing[k])});
 
   tell.stage("writing the results");
+  summary.gauge_scores = scoreGauges(summary.gauges.gauges, capture, forcing.axis());
+  std::vector<io::GaugeOutput> gauge_rows;
+  for (std::size_t g = 0; g < summary.gauges.gauges.size(); ++g) {
+    const Gauge& gauge = summary.gauges.gauges[g];
+    summary.gauge_outflow.push_back(capture.outflow(gauge.reach));
+    const network::Point2 at = gauge.point.value_or(plan.bottom[gauge.reach]);
+    gauge_rows.push_back({gauge.gauge_id, gauge.reach_id, at.x, at.y, gauge.snap_distance_m,
+                          summary.gauge_scores[g], &gauge.observed, nullptr});
+  }
+  for (std::size_t g = 0; g < gauge_rows.size(); ++g) gauge_rows[g].simulated = &summary.gauge_outflow[g];
   auto& warnings = summary.results.warnings;
   warnings.insert(warnings.end(), forcing.warnings().begin(), forcing.warnings().end());
+  warnings.insert(warnings.end(), summary.gauges.warnings.begin(), summary.gauges.warnings.end());
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
   const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
   markLakeNodes(summary.results, summary.lakes);
-  outputs.commit(summary.results, summary.info, lakes);
+  outputs.commit(summary.results, summary.info, lakes, gauge_rows);
   summary.gpkg = outputs.geopackage();
   return summary;
 }

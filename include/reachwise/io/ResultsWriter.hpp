@@ -17,10 +17,12 @@
 #include <filesystem>
 #include <memory>
 #include <span>
+#include <limits>
 #include <string>
 #include <vector>
 
 #include "reachwise/io/LakesWriter.hpp"
+#include "reachwise/gauges/Skill.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
 #include "reachwise/routing/Results.hpp"
@@ -94,6 +96,17 @@ struct GpkgWriterOptions {
 /// geometry is written in `table.crs_wkt` (no CRS when it is empty), each
 /// line drawn in flow direction (`plan.reversed`).
 /// Both `table` and `plan` must outlive the writer.
+/// One gauge compared with the run: where it stands and how well the run
+/// matches its record (docs/formats.md, "Gauges in the results").
+struct GaugeOutput {
+  std::string gauge_id, reach_id;
+  double x = 0, y = 0;                    ///< the gauge (layer), else the reach's downstream end
+  double snap_distance_m = std::numeric_limits<double>::quiet_NaN();  ///< NaN: the reach was named
+  gauges::SkillScores skill;
+  const std::vector<double>* observed = nullptr;   ///< on the run's axis, NaN: none
+  const std::vector<double>* simulated = nullptr;  ///< the reach's outflow on the run's axis
+};
+
 class GpkgResultsWriter final : public routing::SeriesSink {
 public:
   /// A new GeoPackage at `out`. Throws InputError naming `out` when it
@@ -133,6 +146,10 @@ public:
   /// with `options.lake_series`, their rows of `lake_series`. Only with
   /// `options.lakes`; every lake must be routed.
   void writeLakes(const std::vector<LakeOutput>& lakes);
+
+  /// Writes `gauges` (a point per gauge with its skill scores) and
+  /// `gauge_series` (observed and simulated discharge per gauge and time).
+  void writeGauges(const std::vector<GaugeOutput>& gauges);
 
   /// Ends the writing: commits, closes, and (new file) renames onto the target.
   void commit();

@@ -61,12 +61,12 @@ public:
   /// Where the router sends each finished series.
   routing::SeriesSink& sink();
 
-  /// Writes the summaries, the lakes (`lakes`: routedLakes() with their
+  /// Writes the summaries, the gauges (GeoPackage only), the lakes (`lakes`: routedLakes() with their
   /// routing, every lake the run routes) and the report, then commits every
   /// file; the report comes first so that a failing report leaves no output
   /// behind.
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
-              const std::vector<io::LakeOutput>& lakes = {});
+              const std::vector<io::LakeOutput>& lakes = {}, const std::vector<io::GaugeOutput>& gauges = {});
 
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }

@@ -26,6 +26,7 @@
 #include "reachwise/run/Forcing.hpp"
 #include "reachwise/run/Network.hpp"
 #include "reachwise/run/Outputs.hpp"
+#include "reachwise/run/Gauges.hpp"
 #include "reachwise/run/RoutedLakes.hpp"
 
 namespace reachwise::run {
@@ -50,6 +51,9 @@ struct RouteRequest {
   double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;              ///< worker threads; 0 = all cores
   OutputRequest outputs;
+  /// Observed hydrographs (and a gauge layer) to compare the run with;
+  /// empty `observed`: none.
+  GaugeFiles gauges;
   /// How the run was asked for, recorded in run_info and the NetCDF
   /// history (the command line; empty: "reachwise library").
   std::string command_line;
@@ -86,6 +90,12 @@ struct RouteSummary {
   /// Every lake of the layer is routed (a lake that cannot be is an
   /// error), terminal lakes included.
   std::vector<LakeResult> lakes;
+  /// The gauges compared (RouteRequest::gauges), their records and skill
+  /// (`gauge_scores[g]` for `gauges.gauges[g]`), and each gauge's reach's
+  /// simulated outflow (`gauge_outflow[g]`).
+  BoundGauges gauges;
+  std::vector<gauges::SkillScores> gauge_scores;
+  std::vector<std::vector<double>> gauge_outflow;
   /// The lake of that id; nullptr when there is none.
   const LakeResult* lake(std::string_view lake_id) const;
 };
