@@ -5,6 +5,7 @@
 #include <exception>
 
 #include "CheckCommand.hpp"
+#include "CalibrateCommand.hpp"
 #include "PrepareCommand.hpp"
 #include "RouteCommand.hpp"
 #include "Subcommand.hpp"
@@ -25,6 +26,7 @@ int main(int argc, char** argv) {
   reachwise::cli::addDemoCommand(app, chosen, command_line);
   reachwise::cli::addSynthCommand(app, chosen);
   reachwise::cli::addPrepareCommand(app, chosen);
+  reachwise::cli::addCalibrateCommand(app, chosen);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {

@@ -199,7 +199,8 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
 
 void writePreparedGeoPackage(const std::string& path, bool overwrite, const ReachGraph& graph,
                              const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
-                             const network::ProblemList& problems) {
+                             const network::ProblemList& problems,
+                             const std::function<void(GDALDataset&, OGRSpatialReference*)>& extra) {
   REACHWISE_ASSERT(prepared.size() == graph.size());
   ensureGdal();
   CPLErrorReset();
@@ -213,6 +214,7 @@ void writePreparedGeoPackage(const std::string& path, bool overwrite, const Reac
     if (ds->StartTransaction() != OGRERR_NONE) fail(path, "cannot start writing");
     writeReaches(path, *ds, srs.get(), graph, config, prepared);
     addProblemsLayer(path, *ds, srs.get(), problems);
+    if (extra) extra(*ds, srs.get());
     if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
     ds.reset();  // closed and flushed before the rename
   });

@@ -11,6 +11,7 @@
 
 #include "GdalSupport.hpp"
 #include "ResultsTables.hpp"
+#include "TableLayer.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/Gdal.hpp"
@@ -387,21 +388,32 @@ void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
   lakes_written_ = true;
 }
 
+void results::writeRowsLayer(const fs::path& file, GDALDataset& ds, const std::string& name,
+                             OGRSpatialReference* srs, OGRwkbGeometryType geometry,
+                             const std::vector<Column>& columns, const std::vector<Row>& rows,
+                             const std::vector<std::pair<double, double>>& points, int utc_offset_min) {
+  OGRLayer* layer = createTable(file, ds, name, srs, geometry, columns);
+  OGRFeature f(layer->GetLayerDefn());
+  for (std::size_t r = 0; r < rows.size(); ++r) {
+    for (std::size_t c = 0; c < rows[r].size(); ++c) setValue(f, static_cast<int>(c), rows[r][c], utc_offset_min);
+    if (geometry == wkbPoint && r < points.size()) f.SetGeometryDirectly(new OGRPoint(points[r].first, points[r].second));
+    insert(file, *layer, f);
+  }
+}
+
 void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
-  const auto name = layerName("gauges");
-  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbPoint, results::gaugeColumns());
-  OGRFeature f(layer->GetLayerDefn());
+  std::vector<results::Row> rows;
+  std::vector<std::pair<double, double>> points;
   for (const auto& gauge : gauges) {
-    const auto row = results::gaugeRow(gauge);
-    for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
-    f.SetGeometryDirectly(new OGRPoint(gauge.x, gauge.y));
-    f.SetFID(OGRNullFID);
-    if (layer->CreateFeature(&f) != OGRERR_NONE) failAt(target_, "cannot write gauge " + gauge.gauge_id, name);
+    rows.push_back(results::gaugeRow(gauge));
+    points.emplace_back(gauge.x, gauge.y);
   }
+  results::writeRowsLayer(target_, *ds_, layerName("gauges"), srs.get(), wkbPoint, results::gaugeColumns(), rows,
+                          points, offset);
   const auto series_name = layerName("gauge_series");
   OGRLayer* series = createTable(target_, *ds_, series_name, nullptr, wkbNone, results::gaugeSeriesColumns());
   OGRFeature s(series->GetLayerDefn());

@@ -8,6 +8,7 @@
 #include <map>
 
 #include "reachwise/Error.hpp"
+#include "reachwise/io/CalibratedWriter.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/run/Route.hpp"
 
@@ -246,6 +247,56 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   out.scores = scoreGauges(gauges, router.route(), out.axis);
   out.evaluations = router.routings();
   return out;
+}
+
+void writeCalibrated(const std::string& path, bool overwrite, const CalibrationResult& result,
+                     const CalibrationSettings& settings) {
+  const LoadedNetwork& net = *result.network;
+  const network::ReachGraph& graph = *net.graph;
+  const network::NetworkPlan& plan = result.plan;
+  std::vector<double> by_record(graph.size(), 1.0);
+  for (std::size_t i = 0; i < plan.size(); ++i) by_record[plan.record[i]] = result.multiplier[i];
+  const bool roughness = settings.parameter == CalibrationParameter::Roughness;
+  std::vector<io::PreparedReach> prepared(graph.size());
+  for (network::ReachGraph::Vertex v = 0; v < graph.size(); ++v) {
+    const network::ReachRecord& r = graph.record(v);
+    io::PreparedReach& p = prepared[v];
+    p.slope = r.section.bed_slope;
+    p.slope_source = std::isnan(p.slope) ? "" : "field";
+    p.up_elevation_m = r.up_elevation_m;
+    p.down_elevation_m = r.down_elevation_m;
+    p.elevation_source = std::isnan(r.up_elevation_m) ? "" : "field";
+    p.section = r.section;
+    const double m = by_record[v];
+    const bool changed = m != 1.0;
+    if (roughness) {
+      p.section.manning_n *= m;
+      p.section.floodplain_n *= m;  // NaN stays NaN
+    } else if (p.section.shape == hydraulics::Shape::Circle) {
+      p.section.diameter_m *= m;
+    } else {
+      p.section.bottom_width_m *= m;
+    }
+    p.manning_n_source = roughness && changed ? "calibrated" : "field";
+    p.bottom_width_source = !roughness && changed ? "calibrated" : "field";
+    p.side_slope_source = "field";
+    if (p.section.shape == hydraulics::Shape::TwoStage) p.bank_depth_source = "field";
+  }
+  std::vector<io::CalibrationRow> rows;
+  for (const auto& sb : result.sub_basins)
+    rows.push_back({sb.gauge_id, sb.reach_id, std::string(parameterName(settings.parameter)),
+                    std::string(objectiveName(settings.objective)), sb.multiplier, settings.lower, settings.upper,
+                    sb.at_bound, sb.reaches.size(), sb.evaluations, sb.before, sb.after,
+                    objectiveScore(settings.objective, sb.before), objectiveScore(settings.objective, sb.after)});
+  std::vector<io::GaugeOutput> gauges;
+  const auto& bound = result.gauges.gauges;
+  for (std::size_t g = 0; g < bound.size(); ++g) {
+    const network::Point2 at = bound[g].point.value_or(plan.bottom[bound[g].reach]);
+    gauges.push_back({bound[g].gauge_id, bound[g].reach_id, at.x, at.y, bound[g].snap_distance_m, result.scores[g],
+                      nullptr, nullptr});
+  }
+  io::writeCalibratedGeoPackage(path, overwrite, graph, net.config, prepared, net.problems, rows, gauges,
+                                result.axis.utc_offset_min);
 }
 
 }  // namespace reachwise::run

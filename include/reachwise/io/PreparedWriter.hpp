@@ -5,12 +5,16 @@
 /// and to route (docs/formats.md, "Preparing a network").
 
 #include <cstddef>
+#include <functional>
 #include <string>
 #include <vector>
 
 #include "reachwise/io/NetworkConfig.hpp"
 #include "reachwise/network/Problem.hpp"
 #include "reachwise/network/ReachGraph.hpp"
+
+class GDALDataset;
+class OGRSpatialReference;
 
 namespace reachwise::io {
 
@@ -48,8 +52,11 @@ struct PreparedReach {
 /// name and renamed onto `path`: on failure nothing is left behind and
 /// InputError names `path`. An existing `path` is replaced only when
 /// `overwrite`.
+/// `extra`, when given, adds further layers to the same file inside the
+/// same transaction (before the rename).
 void writePreparedGeoPackage(const std::string& path, bool overwrite, const network::ReachGraph& graph,
                              const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
-                             const network::ProblemList& problems);
+                             const network::ProblemList& problems,
+                             const std::function<void(GDALDataset&, OGRSpatialReference*)>& extra = {});
 
 }  // namespace reachwise::io

@@ -87,6 +87,15 @@ struct CalibrationResult {
 /// InvalidParameter for bad settings.
 CalibrationResult calibrate(const CalibrateRequest& request);
 
+/// Writes the calibrated network to `path` (io::writeCalibratedGeoPackage):
+/// every reach with its attributes, Manning's n (or bottom width) times its
+/// sub-basin's multiplier (`manning_n_source` / `bottom_width_source`
+/// "calibrated" where it changed), the `calibration` table and the
+/// `gauges` layer. Throws InputError naming `path` when it exists without
+/// `overwrite` or cannot be written; nothing is left behind then.
+void writeCalibrated(const std::string& path, bool overwrite, const CalibrationResult& result,
+                     const CalibrationSettings& settings);
+
 /// The sub-basins of gauges at `gauge_reaches` (plan indices, any order):
 /// for each, in plan (upstream-first) order, the reaches upstream of it not
 /// held by a gauge above. Two gauges on one reach share it (the second gets

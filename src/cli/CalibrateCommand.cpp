@@ -1,0 +1,117 @@
+#include "CalibrateCommand.hpp"
+
+#include <fmt/format.h>
+#include <fmt/ostream.h>
+
+#include <iostream>
+#include <memory>
+
+#include "Common.hpp"
+#include "reachwise/io/OutputFiles.hpp"
+#include "reachwise/run/Calibrate.hpp"
+#include "reachwise/run/Route.hpp"
+
+namespace reachwise::cli {
+
+namespace {
+
+struct CalibrateOptions {
+  std::string network, layer, config, inflow, lateral, observed, gauges, gauges_layer, lakes, lakes_layer, out;
+  std::string method = "vpmc", parameter = "n", objective = "kge";
+  double gauge_snap_m = 100, lower = 0.5, upper = 2.0;
+  std::size_t max_evaluations = 60;
+  unsigned threads = 0;
+  bool overwrite = false;
+};
+
+int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
+  io::refuseExisting(o.out, o.overwrite);  // before any routing
+  run::CalibrateRequest request;
+  request.network = {o.network, o.layer, o.config, ""};
+  request.network.lakes = o.lakes;
+  request.network.lakes_layer = o.lakes_layer;
+  request.forcing.inflow = o.inflow;
+  request.forcing.lateral = o.lateral;
+  request.gauges = {o.observed, o.gauges, o.gauges_layer, o.gauge_snap_m};
+  request.method = *run::methodFromName(o.method);
+  request.threads = o.threads;
+  auto& s = request.settings;
+  s.parameter = o.parameter == "width" ? run::CalibrationParameter::Width : run::CalibrationParameter::Roughness;
+  s.objective = o.objective == "nse"        ? run::Objective::Nse
+                : o.objective == "nse_peak" ? run::Objective::PeakWeightedNse
+                                            : run::Objective::Kge;
+  s.lower = o.lower;
+  s.upper = o.upper;
+  s.max_evaluations = o.max_evaluations;
+  fmt::print(out, "calibrating a multiplier on {} per gauged sub-basin, upstream first ({} in [{}, {}], "
+                  "objective {}, at most {} routings each)\n",
+             o.parameter == "width" ? "the bottom width" : "Manning's n", o.parameter, o.lower, o.upper, o.objective,
+             o.max_evaluations);
+  request.on_sub_basin = [&](const run::SubBasinResult& sb) {
+    fmt::print(out, "  gauge {} on {}: {} reaches, multiplier {:.3f}{}; {} {:.3f} -> {:.3f} (NSE {:.3f} -> {:.3f}), "
+                    "{} routings\n",
+               sb.gauge_id, sb.reach_id, sb.reaches.size(), sb.multiplier, sb.at_bound ? " (at a bound)" : "",
+               o.objective, run::objectiveScore(s.objective, sb.before), run::objectiveScore(s.objective, sb.after),
+               sb.before.nse, sb.after.nse, sb.evaluations);
+  };
+  run::CalibrationResult result;
+  try {
+    result = run::calibrate(request);
+  } catch (const run::NetworkHasErrors& e) {
+    for (const auto& p : e.problems())
+      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p));
+    fmt::print(err, "calibrate refused: the network has errors (run `reachwise check` for details)\n");
+    return kExitInput;
+  }
+  for (const auto& why : result.left_out) fmt::print(out, "  left out: {}\n", why);
+  if (result.uncalibrated_reaches)
+    fmt::print(out, "  {} reach(es) below every calibrated gauge keep their {}\n", result.uncalibrated_reaches,
+               o.parameter == "width" ? "bottom width" : "Manning's n");
+  run::writeCalibrated(o.out, o.overwrite, result, s);
+  fmt::print(out, "{} routings in all; wrote {} (layers reaches, calibration, gauges, problems)\n",
+             result.evaluations, o.out);
+  for (const auto& w : result.gauges.warnings) fmt::print(err, "warning: {}\n", w);
+  fmt::print(out, "caution: {}\n", run::kResultsCaution);
+  return kExitOk;
+}
+
+}  // namespace
+
+void addCalibrateCommand(CLI::App& app, Runner& chosen) {
+  auto o = std::make_shared<CalibrateOptions>();
+  CLI::App* sub = app.add_subcommand(
+      "calibrate", "Fit a multiplier on Manning's n (or bottom width) per gauged sub-basin to observed hydrographs");
+  sub->add_option("NETWORK", o->network, "Network: any path or connection string GDAL opens as vector data")
+      ->required();
+  sub->add_option("--inflow", o->inflow, "CSV or NetCDF of discharge entering at the top of named reaches");
+  sub->add_option("--lateral", o->lateral, "CSV or NetCDF of lateral inflow along named reaches");
+  sub->add_option("--observed", o->observed,
+                  "CSV of observed discharge keyed by reach id, or by gauge id with --gauges")
+      ->required();
+  sub->add_option("--gauges", o->gauges, "Gauges: a point source with gauge_id and optional reach_id");
+  sub->add_option("--gauges-layer", o->gauges_layer, "Layer of the gauges (default: the only point layer)");
+  sub->add_option("--gauge-snap", o->gauge_snap_m, "Largest distance from a gauge to its reach, metres (default 100)")
+      ->check(CLI::PositiveNumber);
+  sub->add_option("--out", o->out, "GeoPackage to write: the calibrated network and what was fitted")->required();
+  sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
+  sub->add_option("--config", o->config, "TOML run file ([network] field mappings and settings)");
+  sub->add_option("--lakes", o->lakes, "Lakes and reservoirs: a polygon source");
+  sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
+  sub->add_option("--method", o->method, "Routing method (default vpmc)")
+      ->check(CLI::IsMember(run::methodNames()));
+  sub->add_option("--parameter", o->parameter, "What is multiplied: n (Manning's n, default) or width")
+      ->check(CLI::IsMember({"n", "width"}));
+  sub->add_option("--objective", o->objective, "kge (default), nse or nse_peak (peak-weighted NSE)")
+      ->check(CLI::IsMember({"kge", "nse", "nse_peak"}));
+  sub->add_option("--lower", o->lower, "Lowest multiplier (default 0.5)")->check(CLI::PositiveNumber);
+  sub->add_option("--upper", o->upper, "Highest multiplier (default 2)")->check(CLI::PositiveNumber);
+  sub->add_option("--max-evaluations", o->max_evaluations, "Routings per sub-basin (default 60)")
+      ->check(CLI::Range(4, 100000));
+  sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
+  sub->add_flag("--overwrite", o->overwrite, "Replace --out if it exists");
+  sub->callback([&chosen, o] {
+    chosen = [o] { return guarded(std::cerr, o->network, [&] { return calibrate(*o, std::cout, std::cerr); }); };
+  });
+}
+
+}  // namespace reachwise::cli

@@ -1,0 +1,106 @@
+// `reachwise calibrate`, end to end on the sample network: the written
+// network carries Manning's n times each sub-basin's multiplier, routing it
+// reproduces the scores the calibration reports, and an existing output is
+// refused before any routing. (Recovery of known multipliers: the twin
+// experiment in tests/run/CalibrateTest.cpp.)
+#include <gdal_priv.h>
+#include <gtest/gtest.h>
+#include <ogrsf_frmts.h>
+
+#include <cmath>
+#include <fstream>
+#include <map>
+#include <sstream>
+#include <string>
+
+#include "reachwise/io/Gdal.hpp"
+#include "support/Cli.hpp"
+#include "support/Scratch.hpp"
+
+namespace fs = std::filesystem;
+
+namespace {
+
+const std::string kSample = REACHWISE_SOURCE_DIR "/sample-network/";
+const std::string kForcing = " --inflow " + kSample + "inflow.csv --lateral " + kSample + "lateral.csv";
+
+GDALDatasetUniquePtr open(const fs::path& p) {
+  reachwise::io::ensureGdal();
+  return GDALDatasetUniquePtr(GDALDataset::Open(p.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+}
+
+std::map<std::string, double> fieldById(GDALDataset& ds, const char* layer, const char* id, const char* field) {
+  std::map<std::string, double> out;
+  OGRLayer* l = ds.GetLayerByName(layer);
+  if (!l) return out;
+  for (auto& f : *l) out[f->GetFieldAsString(id)] = f->GetFieldAsDouble(field);
+  return out;
+}
+
+}  // namespace
+
+TEST(CalibrateCommand, WritesARoutableCalibratedNetwork) {
+  testsupport::TempDir dir;
+  // Observations: the run's own outflow at R13 and R1, times 1.15 at R13.
+  const auto first = testsupport::runReachwise("route " + kSample + "network.gpkg" + kForcing + " --out " +
+                                               (dir.path() / "a.gpkg").string() + " --csv " +
+                                               (dir.path() / "csv").string() + " --hydrographs R13,R1 --quiet");
+  ASSERT_EQ(first.code, 0) << first.err;
+  {
+    std::ifstream in(dir.path() / "csv" / "hydrographs.csv");
+    std::ofstream obs(dir.path() / "obs.csv");
+    obs << "reach_id,time,discharge\n";
+    std::string line;
+    std::getline(in, line);
+    while (std::getline(in, line)) {
+      std::stringstream row(line);
+      std::string id, time, q;
+      std::getline(row, id, ',');
+      std::getline(row, time, ',');
+      std::getline(row, q, ',');
+      obs << id << "," << time << "," << std::stod(q) * (id == "R13" ? 1.15 : 1.0) << "\n";
+    }
+  }
+  const fs::path cal = dir.path() / "cal.gpkg";
+  const std::string args = "calibrate " + kSample + "network.gpkg" + kForcing + " --observed " +
+                           (dir.path() / "obs.csv").string() + " --out " + cal.string() + " --max-evaluations 30";
+  const auto run = testsupport::runReachwise(args);
+  ASSERT_EQ(run.code, 0) << run.err;
+  EXPECT_NE(run.out.find("gauge R13 on R13"), std::string::npos) << run.out;
+  EXPECT_NE(run.out.find("caution:"), std::string::npos);
+
+  auto out = open(cal);
+  ASSERT_TRUE(out);
+  const auto multiplier = fieldById(*out, "calibration", "gauge_id", "multiplier");
+  const auto kge_after = fieldById(*out, "calibration", "gauge_id", "kge_after");
+  ASSERT_EQ(multiplier.size(), 2u);
+  // n of every reach = original n × its sub-basin's multiplier; R13's
+  // sub-basin is the reaches whose n changed by R13's multiplier.
+  const auto n_before = fieldById(*open(kSample + "network.gpkg"), "reaches", "reach_id", "manning_n");
+  const auto n_after = fieldById(*out, "reaches", "reach_id", "manning_n");
+  ASSERT_EQ(n_before.size(), n_after.size());
+  std::size_t in_r13 = 0;
+  for (const auto& [id, n] : n_before) {
+    const double m = n_after.at(id) / n;
+    const bool up = std::abs(m - multiplier.at("R13")) < 1e-9, down = std::abs(m - multiplier.at("R1")) < 1e-9;
+    EXPECT_TRUE(up || down) << id << " multiplied by " << m;
+    in_r13 += up;
+  }
+  EXPECT_GE(in_r13, 1u);
+
+  // Routing the written network gives the scores the calibration reported.
+  const fs::path again = dir.path() / "again.gpkg";
+  const auto routed = testsupport::runReachwise("route " + cal.string() + kForcing + " --out " + again.string() +
+                                                " --observed " + (dir.path() / "obs.csv").string() + " --quiet");
+  ASSERT_EQ(routed.code, 0) << routed.err;
+  const auto kge_routed = fieldById(*open(again), "gauges", "gauge_id", "kge");
+  for (const auto& [id, kge] : kge_after) EXPECT_NEAR(kge_routed.at(id), kge, 1e-9) << id;
+
+  // An existing output is refused at once (nothing routed), and left alone.
+  const auto size = fs::file_size(cal);
+  const auto refused = testsupport::runReachwise(args);
+  EXPECT_NE(refused.code, 0);
+  EXPECT_NE(refused.err.find(cal.string()), std::string::npos) << refused.err;
+  EXPECT_EQ(refused.out.find("calibrating"), std::string::npos) << refused.out;
+  EXPECT_EQ(fs::file_size(cal), size);
+}
