@@ -26,10 +26,17 @@ struct LakeRecord {
   double area_m2 = 0;                       ///< of the polygon (prismatic level–storage)
   routing::OutflowRule rule;
   std::optional<double> initial_level_m;
-  double bottom_level_m = 0;                ///< the prismatic lake's empty level
+  double bottom_level_m = 0;                ///< the empty level (a table's first level)
+  /// A level–storage relation from a table (levels increasing, storage from
+  /// 0 and increasing); empty: prismatic over `area_m2`.
+  std::vector<double> storage_level_m, storage_m3;
 
-  /// The lake for level-pool routing (prismatic over `area_m2`). Throws
-  /// InvalidParameter naming the quantity and the lake.
+  /// The level at which the lake holds no storage: a table's first level;
+  /// for a prismatic lake, a weir's crest, else `bottom_level_m`.
+  double emptyLevel() const;
+  /// The lake for level-pool routing (the table's level–storage relation,
+  /// else prismatic over `area_m2`). Throws InvalidParameter naming the
+  /// quantity and the lake.
   routing::LevelPool levelPool() const;
 };
 
