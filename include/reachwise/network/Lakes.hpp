@@ -69,6 +69,9 @@ double distanceToRings(const std::vector<std::vector<Point2>>& rings, Point2 p);
 /// reach, `terminal_lake` for a lake without outflowing reach,
 /// `lake_without_inflow`, and `lake_overlap` for a reach end on two lakes
 /// (the first in table order is taken). One entry per lake, in table order.
+/// Each end is looked up in a grid over the lakes' boxes (LakeIndex), not
+/// tested against every lake: near O(reaches + lakes) for lakes spread
+/// over the map (0.2 s for 1M reaches and 10k lakes, docs/performance.md).
 std::vector<LakeLinks> linkLakes(const NetworkPlan& plan, const LakeTable& lakes, double tolerance,
                                  ProblemList& problems);
 
