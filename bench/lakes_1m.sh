@@ -3,9 +3,11 @@
 # route` on a synthetic network of REACHES reaches, without and with LAKES
 # lakes (the `lakes` layer `reachwise synth --lakes` writes into the same
 # GeoPackage; the reaches are the same file either way), under
-# /usr/bin/time -v (wall time, peak RSS). The runs alternate (without,
-# with, without, ...) so a change in the machine's load hits both; the
-# load average is printed before each run.
+# /usr/bin/time -v (wall time, CPU time user + system, peak RSS). The runs
+# alternate (without, with, without, ...) so a change in the machine's load
+# hits both; the load average is printed before each run. On a shared
+# machine the CPU time is the steadier figure (wall time grows with other
+# jobs' threads); route uses 2 threads.
 #
 # Usage: bench/lakes_1m.sh BUILD_DIR [WORK_DIR]
 # Environment (defaults in brackets):
@@ -44,12 +46,13 @@ measure() {
   local log; log="$(mktemp)"
   local load; load="$(cut -d' ' -f1-3 /proc/loadavg)"
   /usr/bin/time -v "$@" >"$log.out" 2>"$log" || { tail -n 20 "$log.out" "$log"; rm -f "$log" "$log.out"; return 1; }
-  local wall rss routing
+  local wall rss routing cpu
   wall=$(awk -F': ' '/Elapsed \(wall clock\)/ {n = split($2, p, ":"); s = 0; for (i = 1; i <= n; i++) s = s * 60 + p[i]; print s}' "$log")
+  cpu=$(awk -F': ' '/User time|System time/ {s += $2} END {printf "%.1f", s}' "$log")
   rss=$(awk '/Maximum resident set size/ {printf "%.0f", $NF / 1024}' "$log")
   routing=$(sed -n 's/.*routing took \([0-9.]*\) s.*/\1/p' "$log.out" "$log" | head -n1)
-  printf '%-22s wall %8s s   peak RSS %6s MB   routing %6s s   load before %s\n' "$label" "$wall" "$rss" \
-    "${routing:--}" "$load"
+  printf '%-16s wall %8s s   CPU %8s s   peak RSS %6s MB   routing %7s s   load before %s\n' "$label" "$wall" \
+    "$cpu" "$rss" "${routing:--}" "$load"
   rm -f "$log" "$log.out"
 }
 
