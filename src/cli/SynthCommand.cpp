@@ -37,18 +37,21 @@ int synth(const SynthOptions& o, std::ostream& out) {
     r.gpkg = o.out;
     r.reaches = o.reaches;
     r.outlets = o.outlets;
+    r.lakes = o.lakes;
     r.seed = o.seed;
     r.axis = axisOf(o);
     r.lateral_nc = o.lateral;
     r.inflow_csv = o.inflow;
     r.overwrite = o.overwrite;
-    r.history = fmt::format("reachwise synth --reaches {} --seed {} --steps {} --dt {}", o.reaches, o.seed,
-                            o.steps, o.dt_s);
+    r.history = fmt::format("reachwise synth --reaches {}{} --seed {} --steps {} --dt {}", o.reaches,
+                            o.lakes ? fmt::format(" --lakes {}", o.lakes) : std::string(), o.seed, o.steps, o.dt_s);
     const auto t0 = Clock::now();
     made.emplace(std::move(r));
     if (!o.quiet)
-      fmt::print(out, "generated      {} reaches, {} outlet{} in {:.2f} s\n", made->network().size(), o.outlets,
-                 o.outlets == 1 ? "" : "s", secondsSince(t0));
+      fmt::print(out, "generated      {} reaches, {} outlet{}{} in {:.2f} s\n", made->network().size(), o.outlets,
+                 o.outlets == 1 ? "" : "s",
+                 o.lakes ? fmt::format(", {} lake{}", o.lakes, o.lakes == 1 ? "" : "s") : std::string(),
+                 secondsSince(t0));
   } catch (const InvalidParameter& e) {
     fmt::print(std::cerr, "usage error: {}\n", e.what());
     return kExitUsage;
@@ -56,7 +59,9 @@ int synth(const SynthOptions& o, std::ostream& out) {
   const run::SyntheticCase& c = *made;
   auto t0 = Clock::now();
   c.writeNetwork();
-  if (!o.quiet) fmt::print(out, "wrote          {} (layer reaches) in {:.2f} s\n", o.out, secondsSince(t0));
+  if (!o.quiet)
+    fmt::print(out, "wrote          {} (layer reaches{}) in {:.2f} s\n", o.out, o.lakes ? ", layer lakes" : "",
+               secondsSince(t0));
   if (!o.lateral.empty()) {
     t0 = Clock::now();
     c.writeLateral();
@@ -85,6 +90,9 @@ void addSynthCommand(CLI::App& app, Runner& chosen) {
   sub->add_option("OUT", o->out, "GeoPackage to write")->required();
   sub->add_option("--reaches", o->reaches, "Number of reaches")->required()->check(CLI::PositiveNumber);
   sub->add_option("--outlets", o->outlets, "Number of basins (default 1)")->check(CLI::PositiveNumber);
+  sub->add_option("--lakes", o->lakes,
+                  "Also place this many lakes with a weir, each around a node with a reach flowing in "
+                  "(layer lakes of OUT; default 0)");
   sub->add_option("--steps", o->steps, "Forcing time steps (default 720)")->check(CLI::Range(2, 100000000));
   sub->add_option("--dt", o->dt_s, "Forcing time step, whole seconds (default 3600)")
       ->check(CLI::Range(1, 100000000))

@@ -17,6 +17,7 @@ struct SynthOptions {
   std::string out;                       ///< GeoPackage to write
   std::size_t reaches = 0;
   std::size_t outlets = 1;
+  std::size_t lakes = 0;                 ///< lakes to place (layer lakes), 0: none
   std::size_t steps = 720;
   double dt_s = 3600;
   std::uint64_t seed = 1;

@@ -11,7 +11,9 @@
 #include <filesystem>
 #include <fstream>
 #include <memory>
+#include <map>
 #include <set>
+#include <string_view>
 #include <sstream>
 
 #include "GdalSupport.hpp"
@@ -114,40 +116,129 @@ double geodesicRingArea(const OGRLinearRing& ring, const GeographicLib::Geodesic
 
 }  // namespace
 
-routing::OutflowRule readOutflowTable(const std::string& path) {
+namespace {
+
+/// A CSV of numbers under a header: one vector per column, the line of
+/// every row.
+struct NumberCsv {
+  std::vector<std::string> names;
+  std::vector<std::vector<double>> columns;
+  std::vector<std::int64_t> lines;
+  std::int64_t header_line = 0;
+};
+
+NumberCsv readNumberCsv(const std::string& path, const char* what) {
   InputLocation where;
   where.file = path;
   std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(where, "cannot open the outflow table");
+  if (!in) throw InputError(where, fmt::format("cannot open the {}", what));
   std::stringstream buf;
   buf << in.rdbuf();
   const auto records = parseCsvRecords(buf.str(), path);
-  if (records.empty()) throw InputError(where, "the outflow table is empty");
-  const auto& head = records.front();
-  where.line = head.line;
-  if (head.fields.size() != 2)
-    throw InputError(where, "expected two columns: level_m or storage_m3, then outflow_m3s");
-  const std::string first(trimCsvField(head.fields[0])), second(trimCsvField(head.fields[1]));
-  if ((first != "level_m" && first != "storage_m3") || second != "outflow_m3s")
-    throw InputError(where, fmt::format("header \"{},{}\": expected level_m,outflow_m3s or storage_m3,outflow_m3s",
-                                        first, second));
-  std::vector<double> x, q;
+  if (records.empty()) throw InputError(where, fmt::format("the {} is empty", what));
+  NumberCsv csv;
+  csv.header_line = records.front().line;
+  for (const auto& f : records.front().fields) csv.names.emplace_back(trimCsvField(f));
+  csv.columns.resize(csv.names.size());
   for (std::size_t r = 1; r < records.size(); ++r) {
     where.line = records[r].line;
-    if (records[r].fields.size() != 2) throw InputError(where, "expected two values");
-    for (std::size_t c = 0; c < 2; ++c) {
+    if (records[r].fields.size() != csv.names.size())
+      throw InputError(where, fmt::format("expected {} values, found {}", csv.names.size(), records[r].fields.size()));
+    for (std::size_t c = 0; c < csv.names.size(); ++c) {
       const std::string v(trimCsvField(records[r].fields[c]));
       char* end = nullptr;
       const double d = std::strtod(v.c_str(), &end);
       if (v.empty() || *end != '\0' || !std::isfinite(d)) {
-        where.field = c == 0 ? first : second;
+        where.field = csv.names[c];
         throw InputError(where, fmt::format("\"{}\" is not a number", v));
       }
-      (c == 0 ? x : q).push_back(d);
+      csv.columns[c].push_back(d);
+    }
+    csv.lines.push_back(records[r].line);
+  }
+  return csv;
+}
+
+/// The level–storage relation of column `level` and column `value` (storage
+/// in m^3, or surface area in m^2 when `area`), checked row by row: levels
+/// increasing, values not negative, storage 0 at the first level and
+/// increasing. Areas become storage by the trapezoidal rule, exact where
+/// the area is linear in level between rows (Chow, Maidment & Mays 1988,
+/// *Applied Hydrology* §8.2, builds the elevation–storage curve the same
+/// way from the areas of contours).
+void levelStorageColumns(const NumberCsv& csv, std::size_t level, std::size_t value, bool area,
+                         const std::string& path, std::vector<double>& level_m, std::vector<double>& storage_m3) {
+  InputLocation where;
+  where.file = path;
+  const auto& h = csv.columns[level];
+  const auto& v = csv.columns[value];
+  if (h.size() < 2) {
+    where.line = csv.header_line;
+    throw InputError(where, fmt::format("the level–{} relation needs at least two rows", area ? "area" : "storage"));
+  }
+  level_m.assign(h.begin(), h.end());
+  storage_m3.assign(h.size(), 0.0);
+  for (std::size_t i = 0; i < h.size(); ++i) {
+    where.line = csv.lines[i];
+    where.field = csv.names[value];
+    if (v[i] < 0) throw InputError(where, fmt::format("{} {} is negative", csv.names[value], v[i]));
+    if (i == 0) {
+      if (!area && v[0] != 0)
+        throw InputError(where, fmt::format("the first storage must be 0 (the empty lake's level), got {}", v[0]));
+      continue;
+    }
+    where.field = csv.names[level];
+    if (!(h[i] > h[i - 1]))
+      throw InputError(where, fmt::format("levels must increase: {} after {}", h[i], h[i - 1]));
+    storage_m3[i] = area ? storage_m3[i - 1] + 0.5 * (v[i - 1] + v[i]) * (h[i] - h[i - 1]) : v[i];
+    if (!(storage_m3[i] > storage_m3[i - 1])) {
+      where.field = csv.names[value];
+      throw InputError(where, area ? fmt::format("the area is 0 from level {} to {}: storage must increase",
+                                                 h[i - 1], h[i])
+                                   : fmt::format("storage must increase: {} after {}", v[i], v[i - 1]));
     }
   }
-  return first == "level_m" ? routing::OutflowRule::levelTable(std::move(x), std::move(q))
-                            : routing::OutflowRule::storageTable(std::move(x), std::move(q));
+}
+
+}  // namespace
+
+OutflowTableFile readOutflowTableFile(const std::string& path) {
+  const NumberCsv csv = readNumberCsv(path, "outflow table");
+  InputLocation where;
+  where.file = path;
+  where.line = csv.header_line;
+  const auto& n = csv.names;
+  const bool by_level = !n.empty() && n[0] == "level_m";
+  const bool header_ok = (n.size() == 2 || n.size() == 3) && (by_level || n[0] == "storage_m3") &&
+                         n[1] == "outflow_m3s" && (n.size() == 2 || (by_level && (n[2] == "area_m2" || n[2] == "storage_m3")));
+  if (!header_ok) {
+    std::string head;
+    for (const auto& name : n) head += (head.empty() ? "" : ",") + name;
+    throw InputError(where, fmt::format("header \"{}\": expected level_m,outflow_m3s or storage_m3,outflow_m3s, "
+                                        "optionally level_m,outflow_m3s,area_m2 or level_m,outflow_m3s,storage_m3",
+                                        head));
+  }
+  OutflowTableFile out;
+  out.rule = by_level ? routing::OutflowRule::levelTable(csv.columns[0], csv.columns[1])
+                      : routing::OutflowRule::storageTable(csv.columns[0], csv.columns[1]);
+  if (n.size() == 3) levelStorageColumns(csv, 0, 2, n[2] == "area_m2", path, out.level_m, out.storage_m3);
+  return out;
+}
+
+routing::OutflowRule readOutflowTable(const std::string& path) { return readOutflowTableFile(path).rule; }
+
+void readStorageTable(const std::string& path, std::vector<double>& level_m, std::vector<double>& storage_m3) {
+  const NumberCsv csv = readNumberCsv(path, "storage table");
+  const auto& n = csv.names;
+  if (n.size() != 2 || n[0] != "level_m" || (n[1] != "storage_m3" && n[1] != "area_m2")) {
+    InputLocation where;
+    where.file = path;
+    where.line = csv.header_line;
+    std::string head;
+    for (const auto& name : n) head += (head.empty() ? "" : ",") + name;
+    throw InputError(where, fmt::format("header \"{}\": expected level_m,storage_m3 or level_m,area_m2", head));
+  }
+  levelStorageColumns(csv, 0, 1, n[1] == "area_m2", path, level_m, storage_m3);
 }
 
 LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
@@ -197,25 +288,60 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
     lat_first = orient == OAO_North || orient == OAO_South;
     geod = std::make_unique<GeographicLib::Geodesic>(a, inv_f > 0 ? 1.0 / inv_f : 0.0);
   }
-  if (layer->GetLayerDefn()->GetFieldIndex("lake_id") < 0) {
-    where.field = "lake_id";
-    throw InputError(where, "the lakes layer has no lake_id field");
+  // Source field of each attribute ([network.lake_fields]) and its default.
+  std::map<std::string, FieldSpec, std::less<>> fields;
+  for (auto name : kLakeFieldNames) {
+    const auto it = options.fields.find(name);
+    FieldSpec spec = it != options.fields.end() ? it->second : FieldSpec{};
+    if (spec.name.empty()) spec.name = std::string(name);
+    const bool mapped = spec.name != name;
+    if (mapped && !spec.hasDefault() && layer->GetLayerDefn()->GetFieldIndex(spec.name.c_str()) < 0) {
+      InputLocation at = where;
+      at.field = spec.name;
+      throw InputError(at, fmt::format("the lakes layer has no field {} (network.lake_fields.{})", spec.name, name));
+    }
+    fields.emplace(std::string(name), std::move(spec));
+  }
+  const auto source_of = [&](std::string_view canonical) -> const std::string& {
+    return fields.find(canonical)->second.name;
+  };
+  const std::string& id_field = source_of("lake_id");
+  if (layer->GetLayerDefn()->GetFieldIndex(id_field.c_str()) < 0) {
+    where.field = id_field;
+    throw InputError(where, fmt::format("the lakes layer has no {} field", id_field));
   }
 
   std::set<std::string> seen;
   const auto dir = std::filesystem::path(source).parent_path();
+  const auto resolve = [&](const std::string& file) {
+    std::filesystem::path p(file);
+    if (p.is_relative()) p = dir / p;
+    return p.string();
+  };
   layer->ResetReading();
   for (auto& feature : *layer) {
     InputLocation at = where;
     at.fid = feature->GetFID();
-    const auto id = text(*feature, "lake_id");
+    // The feature's own value of an attribute, and the value with the default.
+    const auto own = [&](std::string_view canonical) { return number(*feature, source_of(canonical).c_str(), at); };
+    const auto ownText = [&](std::string_view canonical) {
+      auto v = text(*feature, source_of(canonical).c_str());
+      return v && !v->empty() ? v : std::nullopt;
+    };
+    const auto orDefault = [&](std::optional<double> v, std::string_view canonical) {
+      return v ? v : fields.find(canonical)->second.default_number;
+    };
+    const auto textOrDefault = [&](std::optional<std::string> v, std::string_view canonical) {
+      return v ? v : fields.find(canonical)->second.default_text;
+    };
+    const auto id = text(*feature, id_field.c_str());
     if (!id || id->empty()) {
-      at.field = "lake_id";
+      at.field = id_field;
       throw InputError(at, "the lake has no id");
     }
     at.lake_id = *id;
     if (!seen.insert(*id).second) {
-      at.field = "lake_id";
+      at.field = id_field;
       throw InputError(at, "the id of an earlier lake");
     }
     LakeRecord lake;
@@ -255,54 +381,97 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
     lake.area_m2 = area;
     lake.wkt = linear->exportToWkt();
 
-    // The outflow rule: exactly one of weir, table, linear reservoir.
-    const auto crest = number(*feature, "crest_level_m", at);
-    const auto length = number(*feature, "weir_length_m", at);
-    const auto coef = number(*feature, "weir_coefficient", at);
-    const auto k_h = number(*feature, "k_h", at);
-    const auto table_file = text(*feature, "outflow_table");
-    const int rules = (crest || length ? 1 : 0) + (k_h ? 1 : 0) + (table_file && !table_file->empty() ? 1 : 0);
+    // The outflow rule: exactly one of weir, table, linear reservoir. The
+    // lake's own fields choose it; defaults fill in the chosen rule, or give
+    // the whole rule when the lake's own fields name none.
+    auto crest = own("crest_level_m"), length = own("weir_length_m"), k_h = own("k_h");
+    auto table_file = ownText("outflow_table");
+    const bool own_weir = crest || length;
+    if (!own_weir && !k_h && !table_file) {
+      k_h = orDefault(k_h, "k_h");
+      table_file = textOrDefault(table_file, "outflow_table");
+    }
+    if (!k_h && !table_file) {
+      crest = orDefault(crest, "crest_level_m");
+      length = orDefault(length, "weir_length_m");
+    }
+    const auto coef = orDefault(own("weir_coefficient"), "weir_coefficient");
+    const int rules = (crest || length ? 1 : 0) + (k_h ? 1 : 0) + (table_file ? 1 : 0);
     if (rules == 0) {
-      at.field = "crest_level_m";
-      throw InputError(at, "no outflow rule: give crest_level_m and weir_length_m (a weir), outflow_table "
-                           "(a CSV of level_m or storage_m3 against outflow_m3s), or k_h (a linear reservoir)");
+      at.field = source_of("crest_level_m");
+      throw InputError(at, fmt::format("no outflow rule: give {} and {} (a weir), {} (a CSV of level_m or "
+                                       "storage_m3 against outflow_m3s), or {} (a linear reservoir)",
+                                       source_of("crest_level_m"), source_of("weir_length_m"),
+                                       source_of("outflow_table"), source_of("k_h")));
     }
     if (rules > 1) {
-      at.field = k_h ? "k_h" : "outflow_table";
-      throw InputError(at, "more than one outflow rule (a weir, outflow_table, k_h): give one");
+      at.field = source_of(k_h ? "k_h" : "outflow_table");
+      throw InputError(at, fmt::format("more than one outflow rule (a weir, {}, {}): give one",
+                                       source_of("outflow_table"), source_of("k_h")));
     }
+    std::vector<double> table_level, table_storage;  // a level–storage relation, if any
+    std::string storage_from;                         // the field that gave it
     if (k_h) {
       lake.rule = routing::OutflowRule::linear(*k_h * 3600.0);
-    } else if (table_file && !table_file->empty()) {
-      std::filesystem::path p(*table_file);
-      if (p.is_relative()) p = dir / p;
-      at.field = "outflow_table";
+    } else if (table_file) {
+      at.field = source_of("outflow_table");
       try {
-        lake.rule = readOutflowTable(p.string());
+        auto file = readOutflowTableFile(resolve(*table_file));
+        lake.rule = std::move(file.rule);
+        table_level = std::move(file.level_m);
+        table_storage = std::move(file.storage_m3);
       } catch (const InputError& e) {
         throw InputError(at, e.what());
       }
+      if (!table_level.empty()) storage_from = source_of("outflow_table");
       at.field.clear();
     } else {
       if (!crest || !length) {
-        at.field = crest ? "weir_length_m" : "crest_level_m";
-        throw InputError(at, "a weir needs both crest_level_m and weir_length_m");
+        at.field = source_of(crest ? "weir_length_m" : "crest_level_m");
+        throw InputError(at, fmt::format("a weir needs both {} and {}", source_of("crest_level_m"),
+                                         source_of("weir_length_m")));
       }
       lake.rule = routing::OutflowRule::weir(*crest, *length, coef.value_or(routing::kBroadCrestedWeirCoefficient));
     }
-    lake.initial_level_m = number(*feature, "initial_level_m", at);
-    lake.bottom_level_m = number(*feature, "bottom_level_m", at).value_or(0.0);
+    if (const auto storage_file = textOrDefault(ownText("storage_table"), "storage_table")) {
+      at.field = source_of("storage_table");
+      if (!storage_from.empty())
+        throw InputError(at, fmt::format("two level–storage relations: the third column of {} and {}; give one",
+                                         source_of("outflow_table"), source_of("storage_table")));
+      try {
+        readStorageTable(resolve(*storage_file), table_level, table_storage);
+      } catch (const InputError& e) {
+        throw InputError(at, e.what());
+      }
+      storage_from = source_of("storage_table");
+      at.field.clear();
+    }
+    lake.initial_level_m = orDefault(own("initial_level_m"), "initial_level_m");
+    const auto bottom_level = orDefault(own("bottom_level_m"), "bottom_level_m");
+    if (!table_level.empty()) {
+      if (bottom_level && *bottom_level != table_level.front()) {
+        at.field = source_of("bottom_level_m");
+        throw InputError(at, fmt::format("{} m is not the first level of the level–storage relation in {} "
+                                         "({} m), the lake's empty level; give one or make them agree",
+                                         *bottom_level, storage_from, table_level.front()));
+      }
+      lake.bottom_level_m = table_level.front();
+      lake.storage_level_m = std::move(table_level);
+      lake.storage_m3 = std::move(table_storage);
+    } else {
+      lake.bottom_level_m = bottom_level.value_or(0.0);
+    }
     try {
       (void)lake.levelPool();  // checks the rule against the lake
-      if (lake.initial_level_m) {
-        const double bottom = lake.rule.kind == routing::OutflowRule::Kind::Weir ? lake.rule.crest_level_m
-                                                                                 : lake.bottom_level_m;
-        if (*lake.initial_level_m < bottom)
-          throw InvalidParameter("initial_level_m", fmt::format("{} m lies below the lake's empty level {} m",
-                                                                *lake.initial_level_m, bottom));
-      }
+      if (lake.initial_level_m && *lake.initial_level_m < lake.emptyLevel())
+        throw InvalidParameter("initial_level_m", fmt::format("{} m lies below the lake's empty level {} m",
+                                                              *lake.initial_level_m, lake.emptyLevel()));
     } catch (const InvalidParameter& e) {
-      at.field = e.quantity() == "area_m2" ? "" : e.quantity();
+      const std::string& q = e.quantity();
+      if (q == "area_m2") at.field.clear();
+      else if (q == "level_storage") at.field = storage_from;
+      else if (fields.count(q)) at.field = source_of(q);
+      else at.field = q;
       throw InputError(at, e.what());
     }
     table.lakes.push_back(std::move(lake));

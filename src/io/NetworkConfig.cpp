@@ -56,6 +56,44 @@ void parseFields(const toml::table& fields, NetworkConfig& cfg) {
   }
 }
 
+bool isKnownLakeField(std::string_view name) {
+  for (auto f : kLakeFieldNames)
+    if (f == name) return true;
+  return false;
+}
+
+/// `[network.lake_fields]`: like `[network.fields]`, with the default's type
+/// checked against the attribute (text for lake_id, outflow_table and
+/// storage_table, a number for the others) and no default for lake_id.
+void parseLakeFields(const toml::table& fields, NetworkConfig& cfg) {
+  for (const auto& [k, v] : fields) {
+    const std::string name(k.str());
+    const std::string key = "network.lake_fields." + name;
+    if (!isKnownLakeField(name))
+      throw configError(cfg.origin, key,
+                        "unknown lake attribute (expected lake_id, crest_level_m, weir_length_m, "
+                        "weir_coefficient, outflow_table, storage_table, k_h, initial_level_m or "
+                        "bottom_level_m)");
+    FieldSpec& spec = cfg.lake_fields[name];
+    parseFieldSpec(v, spec, cfg.origin, key);
+    const std::string dkey = key + ".default";
+    if (name == "lake_id" && spec.hasDefault())
+      throw configError(cfg.origin, dkey, "a lake id cannot have a default (every lake needs its own)");
+    if (isTextLakeField(name)) {
+      if (spec.default_number) throw configError(cfg.origin, dkey, "expected a file name (text)");
+      if (spec.default_text) {
+        if (spec.default_text->empty()) throw configError(cfg.origin, dkey, "must not be empty");
+        // A table file named in the run file is taken from the run file's folder.
+        const std::filesystem::path p(*spec.default_text);
+        const std::filesystem::path base = std::filesystem::path(cfg.origin).parent_path();
+        if (p.is_relative() && !base.empty()) spec.default_text = (base / p).string();
+      }
+    } else if (spec.default_text) {
+      throw configError(cfg.origin, dkey, "expected a number");
+    }
+  }
+}
+
 units::System parseUnits(const std::string& s, const std::string& origin) {
   if (s == "si") return units::System::SI;
   if (s == "us") return units::System::USCustomary;
@@ -246,6 +284,10 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
       const auto* fields = v.as_table();
       if (!fields) throw configError(o, key, "expected a table");
       parseFields(*fields, cfg);
+    } else if (name == "lake_fields") {
+      const auto* fields = v.as_table();
+      if (!fields) throw configError(o, key, "expected a table");
+      parseLakeFields(*fields, cfg);
     } else {
       throw configError(o, key, "unknown key (see docs/formats.md)");
     }
@@ -261,12 +303,23 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
 
 NetworkConfig::NetworkConfig() {
   for (auto name : kFieldNames) fields[std::string(name)].name = std::string(name);
+  for (auto name : kLakeFieldNames) lake_fields[std::string(name)].name = std::string(name);
 }
 
 const FieldSpec& NetworkConfig::field(std::string_view canonical) const {
   auto it = fields.find(canonical);
   REACHWISE_ASSERT(it != fields.end());
   return it->second;
+}
+
+const FieldSpec& NetworkConfig::lakeField(std::string_view canonical) const {
+  auto it = lake_fields.find(canonical);
+  REACHWISE_ASSERT(it != lake_fields.end());
+  return it->second;
+}
+
+bool isTextLakeField(std::string_view canonical) {
+  return canonical == "lake_id" || canonical == "outflow_table" || canonical == "storage_table";
 }
 
 double metresPerUnit(const std::string& name, const std::string& origin) {

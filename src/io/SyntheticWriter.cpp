@@ -98,10 +98,31 @@ void writeFeatures(const fs::path& target, OGRLayer& layer, const network::Synth
   }
 }
 
+void writeLakeFeatures(const fs::path& target, OGRLayer& layer, const std::vector<network::SyntheticLake>& lakes) {
+  addField(target, layer, "lake_id", OFTString);
+  for (const char* name : {"crest_level_m", "weir_length_m"}) addField(target, layer, name, OFTReal);
+  OGRFeature feature(layer.GetLayerDefn());
+  for (std::size_t k = 0; k < lakes.size(); ++k) {
+    auto* ring = new OGRLinearRing;
+    for (const auto& p : lakes[k].ring) ring->addPoint(p.x, p.y);
+    ring->closeRings();
+    auto* polygon = new OGRPolygon;
+    polygon->addRingDirectly(ring);
+    feature.SetGeometryDirectly(polygon);
+    feature.SetFID(OGRNullFID);
+    const std::string id = network::SyntheticLake::id(k);
+    feature.SetField(0, id.c_str());
+    feature.SetField(1, lakes[k].crest_level_m);
+    feature.SetField(2, lakes[k].weir_length_m);
+    if (layer.CreateFeature(&feature) != OGRERR_NONE)
+      failAt(target, fmt::format("cannot write lake {}", id), layer.GetName());
+  }
+}
+
 }  // namespace
 
 void writeSyntheticGpkg(const fs::path& path, const network::SyntheticNetwork& net,
-                        const SyntheticGpkgOptions& options) {
+                        const SyntheticGpkgOptions& options, const std::vector<network::SyntheticLake>& lakes) {
   refuseExisting(path, options.overwrite);
   ensureGdal();
   CPLErrorReset();
@@ -117,8 +138,14 @@ void writeSyntheticGpkg(const fs::path& path, const network::SyntheticNetwork& n
     srs.SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
     OGRLayer* layer = ds->CreateLayer(options.layer.c_str(), &srs, wkbLineString, nullptr);
     if (!layer) failAt(path, "cannot create layer " + options.layer, options.layer);
+    OGRLayer* lake_layer = nullptr;
+    if (!lakes.empty()) {
+      lake_layer = ds->CreateLayer("lakes", &srs, wkbPolygon, nullptr);
+      if (!lake_layer) failAt(path, "cannot create layer lakes", "lakes");
+    }
     if (ds->StartTransaction() != OGRERR_NONE) failAt(path, "cannot start writing");
     writeFeatures(path, *layer, net);
+    if (lake_layer) writeLakeFeatures(path, *lake_layer, lakes);
     if (ds->CommitTransaction() != OGRERR_NONE) failAt(path, "cannot finish writing");
     ds.reset();  // closes and flushes (builds the spatial index) before the rename
     if (CPLGetLastErrorType() >= CE_Failure) failAt(path, "cannot close the output file");

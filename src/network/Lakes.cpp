@@ -6,14 +6,21 @@
 #include <cmath>
 #include <limits>
 
+#include "reachwise/network/LakeIndex.hpp"
+
 namespace reachwise::network {
 
+double LakeRecord::emptyLevel() const {
+  // A prismatic weir lake's storage counts from its crest (only water above
+  // the crest leaves); other lakes from `bottom_level_m` or the table.
+  if (!storage_level_m.empty()) return storage_level_m.front();
+  return rule.kind == routing::OutflowRule::Kind::Weir ? rule.crest_level_m : bottom_level_m;
+}
+
 routing::LevelPool LakeRecord::levelPool() const {
-  using Kind = routing::OutflowRule::Kind;
-  // A weir lake's storage counts from its crest (only water above the crest
-  // leaves); other lakes from `bottom_level_m`.
-  const double bottom = rule.kind == Kind::Weir ? rule.crest_level_m : bottom_level_m;
-  return routing::LevelPool(routing::LevelStorage::prismatic(area_m2, bottom), rule, "lake " + lake_id);
+  auto storage = storage_level_m.empty() ? routing::LevelStorage::prismatic(area_m2, emptyLevel())
+                                         : routing::LevelStorage::table(storage_level_m, storage_m3);
+  return routing::LevelPool(std::move(storage), rule, "lake " + lake_id);
 }
 
 bool insideRings(const std::vector<std::vector<Point2>>& rings, Point2 p) {
@@ -48,13 +55,10 @@ double distanceToRings(const std::vector<std::vector<Point2>>& rings, Point2 p) 
 
 namespace {
 
-/// The first lake (table order) an end lies on, or -1; `others` counts more.
-long lakeAt(const LakeTable& lakes, Point2 p, double tolerance, std::vector<std::size_t>& all) {
-  all.clear();
-  for (std::size_t l = 0; l < lakes.lakes.size(); ++l) {
-    const auto& rings = lakes.lakes[l].rings;
-    if (insideRings(rings, p) || distanceToRings(rings, p) <= tolerance) all.push_back(l);
-  }
+/// The first lake (table order) an end lies on, or -1; `all` gets every
+/// lake it lies on, in table order (a grid query, network/LakeIndex.hpp).
+long lakeAt(const LakeIndex& index, Point2 p, std::vector<std::size_t>& all) {
+  index.lakesAt(p, all);
   return all.empty() ? -1 : static_cast<long>(all.front());
 }
 
@@ -73,12 +77,13 @@ Problem placed(ProblemCode code, std::string message, Point2 at, const std::stri
 std::vector<LakeLinks> linkLakes(const NetworkPlan& plan, const LakeTable& lakes, double tolerance,
                                  ProblemList& problems) {
   std::vector<LakeLinks> links(lakes.lakes.size());
+  const LakeIndex index(lakes, tolerance);
   std::vector<std::size_t> at_top, at_bottom;
   for (std::size_t i = 0; i < plan.size(); ++i) {
     const auto r = static_cast<std::uint32_t>(i);
     const std::int64_t fid = i < plan.fid.size() ? plan.fid[i] : -1;
-    const long top = lakeAt(lakes, plan.top[i], tolerance, at_top);
-    const long bottom = lakeAt(lakes, plan.bottom[i], tolerance, at_bottom);
+    const long top = lakeAt(index, plan.top[i], at_top);
+    const long bottom = lakeAt(index, plan.bottom[i], at_bottom);
     const auto overlap = [&](const std::vector<std::size_t>& all, Point2 p, const char* end) {
       if (all.size() < 2) return;
       std::string names;

@@ -371,6 +371,51 @@ ReachTable toReachTable(const SyntheticNetwork& net) {
   return table;
 }
 
+// ---- lakes ----
+
+std::string SyntheticLake::id(std::size_t lake) { return "L" + std::to_string(lake); }
+
+std::vector<SyntheticLake> syntheticLakes(const SyntheticNetwork& net, std::size_t count, std::uint64_t seed) {
+  if (count == 0) return {};
+  const std::size_t n = net.size();
+  std::vector<char> has_inflow(n, 0);
+  for (std::uint32_t d : net.downstream)
+    if (d != kSyntheticOutlet) has_inflow[d] = 1;
+  std::vector<std::uint32_t> candidates;
+  for (std::size_t i = 0; i < n; ++i)
+    if (has_inflow[i]) candidates.push_back(static_cast<std::uint32_t>(i));
+  if (count > candidates.size())
+    throw InvalidParameter("lakes", "at most " + std::to_string(candidates.size()) +
+                                        " lakes fit this network (one per node with a reach flowing in)");
+  // The first `count` places of a Fisher–Yates shuffle (Knuth, TAOCP vol. 2,
+  // Algorithm 3.4.2 P) from a generator of its own, so the lakes do not
+  // change the network drawn from the same seed.
+  std::mt19937_64 gen(splitMix64(seed ^ 0x6C616B6573ull));
+  for (std::size_t k = 0; k < count; ++k) {
+    const std::size_t j = k + uniformBelow(gen, static_cast<std::uint32_t>(candidates.size() - k));
+    std::swap(candidates[k], candidates[j]);
+  }
+  candidates.resize(count);
+  std::sort(candidates.begin(), candidates.end());
+  constexpr int kSides = 12;
+  constexpr double kPi = 3.14159265358979323846;
+  std::vector<SyntheticLake> lakes(count);
+  for (std::size_t k = 0; k < count; ++k) {
+    SyntheticLake& lake = lakes[k];
+    lake.reach = candidates[k];
+    const Point2 node = net.line(lake.reach).front();
+    lake.radius_m = 80.0 + 120.0 * uniform01(gen);
+    const double turn = 2 * kPi * uniform01(gen) / kSides;
+    for (int v = 0; v < kSides; ++v) {
+      const double a = turn + 2 * kPi * v / kSides;
+      lake.ring.push_back({node.x + lake.radius_m * std::cos(a), node.y + lake.radius_m * std::sin(a)});
+    }
+    lake.crest_level_m = 100.0;
+    lake.weir_length_m = std::clamp(0.5 * net.bottom_width_m[lake.reach], 2.0, 50.0);
+  }
+  return lakes;
+}
+
 // ---- forcing ----
 
 namespace {

@@ -222,6 +222,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
     lake_options.layer = !source.lakes_layer.empty() ? source.lakes_layer : net->config.lakes_layer;
     lake_options.network_crs_wkt = net->table.crs_wkt;
     lake_options.length_unit_m = net->config.length_unit_m;
+    lake_options.fields = net->config.lake_fields;
     net->lakes = io::readLakes(lakes, lake_options);
     for (const auto& lake : net->lakes->lakes) net->lake_pools.push_back(lake.levelPool());
     net->lake_splits = takeLakeSplits(rules, net->table, *net->lakes);

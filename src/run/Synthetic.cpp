@@ -14,11 +14,12 @@ SyntheticCase::SyntheticCase(SyntheticRequest request) : request_(std::move(requ
   if (!r.lateral_nc.empty() || !r.inflow_csv.empty())  // throws InvalidParameter naming what is wrong
     (void)routing::TimeAxis::make(r.axis.start_unix_s, r.axis.dt_s, r.axis.steps, r.axis.utc_offset_min);
   net_ = network::generateSyntheticNetwork({r.reaches, r.outlets, r.seed});
+  lakes_ = network::syntheticLakes(net_, r.lakes, r.seed);
   storm_.seed = r.seed;
 }
 
 void SyntheticCase::writeNetwork() const {
-  io::writeSyntheticGpkg(request_.gpkg, net_, {"reaches", 32633, request_.overwrite});
+  io::writeSyntheticGpkg(request_.gpkg, net_, {"reaches", 32633, request_.overwrite}, lakes_);
 }
 
 void SyntheticCase::writeLateral() const {

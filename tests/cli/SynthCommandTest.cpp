@@ -86,3 +86,35 @@ TEST(SynthCommand, BadOptionsAreUsageErrors) {
   EXPECT_EQ(run(fmt::format("synth {} --reaches 100 --dt 0.5", net)).code, 2);
   EXPECT_FALSE(std::filesystem::exists(net));
 }
+
+// With --lakes: a `lakes` polygon layer that check attaches (every lake on
+// a node: one outflowing reach, no reach inside) and route routes, one
+// output feature per lake.
+TEST(SynthCommand, LakesAreWrittenAttachedAndRouted) {
+  const auto dir = testsupport::testScratchDir();
+  const std::string net = (dir / "lakes_net.gpkg").string(), nc = (dir / "lakes_lat.nc").string(),
+                    out = (dir / "lakes_out.gpkg").string();
+  const RunResult synth =
+      run(fmt::format("synth {} --reaches 3000 --lakes 40 --steps 72 --seed 6 --lateral {} --overwrite", net, nc));
+  ASSERT_EQ(synth.code, 0) << synth.err;
+  EXPECT_NE(synth.out.find("40 lakes"), std::string::npos) << synth.out;
+  const RunResult check = run(fmt::format("check {} --lakes {}", net, net));
+  ASSERT_EQ(check.code, 0) << check.err;
+  EXPECT_NE(check.out.find("0 errors, 0 warnings"), std::string::npos) << check.out;
+  std::size_t lake_lines = 0, pos = 0;
+  while ((pos = check.out.find("\nlake L", pos)) != std::string::npos) ++lake_lines, ++pos;
+  EXPECT_EQ(lake_lines, 40u) << check.out;
+  const RunResult route = run(fmt::format("route {} --lateral {} --lakes {} --out {} --overwrite --hydrographs outlets",
+                                          net, nc, net, out));
+  ASSERT_EQ(route.code, 0) << route.err;
+  GDALAllRegister();
+  GDALDatasetUniquePtr ds(GDALDataset::Open(out.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  ASSERT_TRUE(ds);
+  OGRLayer* lakes = ds->GetLayerByName("lakes");
+  ASSERT_NE(lakes, nullptr);
+  EXPECT_EQ(lakes->GetFeatureCount(), 40);
+  // More lakes than nodes with a reach flowing in: a usage error, nothing written.
+  const std::string none = (dir / "too_many.gpkg").string();
+  EXPECT_EQ(run(fmt::format("synth {} --reaches 10 --lakes 10", none)).code, 2);
+  EXPECT_FALSE(std::filesystem::exists(none));
+}

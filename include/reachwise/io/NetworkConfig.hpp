@@ -75,6 +75,11 @@ struct NetworkConfig {
   std::string lakes, lakes_layer;
   /// Keyed by the canonical attribute name (kFieldNames); every name is present.
   std::map<std::string, FieldSpec, std::less<>> fields;
+  /// `[network.lake_fields]`: the lakes layer's field names and defaults,
+  /// keyed by the canonical lake attribute name (kLakeFieldNames); every
+  /// name is present. A text default of `outflow_table` or `storage_table`
+  /// that is a relative path is taken from the run file's folder.
+  std::map<std::string, FieldSpec, std::less<>> lake_fields;
 
   /// Default field names (docs/formats.md, "Fields"), SI, automatic topology.
   NetworkConfig();
@@ -87,6 +92,8 @@ struct NetworkConfig {
 
   /// Throws InternalError for a name not in kFieldNames.
   const FieldSpec& field(std::string_view canonical) const;
+  /// Same for a lake attribute (kLakeFieldNames).
+  const FieldSpec& lakeField(std::string_view canonical) const;
 };
 
 /// The canonical attribute names, which are also the default source field names.
@@ -95,6 +102,15 @@ inline constexpr std::string_view kFieldNames[] = {
     "side_slope",   "length",         "shape",         "diameter",     "bank_depth",
     "floodplain_width", "floodplain_n", "muskingum_k_h", "muskingum_x", "split",
     "up_elevation", "down_elevation", "base_flow", "lake_id"};
+
+/// The canonical lake attribute names, which are also the default source
+/// field names of a lakes layer (docs/formats.md, "Lakes and reservoirs").
+inline constexpr std::string_view kLakeFieldNames[] = {
+    "lake_id",       "crest_level_m", "weir_length_m",   "weir_coefficient", "outflow_table",
+    "storage_table", "k_h",           "initial_level_m", "bottom_level_m"};
+
+/// Whether a lake attribute holds text (a default must then be text).
+bool isTextLakeField(std::string_view canonical);
 
 /// Parses a length unit name ("m", "ft", "us_ft", "km") or throws InputError.
 double metresPerUnit(const std::string& name, const std::string& origin);

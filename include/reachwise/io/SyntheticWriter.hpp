@@ -9,6 +9,7 @@
 
 #include <filesystem>
 #include <string>
+#include <vector>
 
 #include "reachwise/io/ForcingNetcdf.hpp"
 #include "reachwise/network/SyntheticNetwork.hpp"
@@ -26,8 +27,11 @@ struct SyntheticGpkgOptions {
 /// reach_id, to_reach (text; null at outlets), slope, manning_n,
 /// bottom_width, side_slope, length (the line's planar length, m). One
 /// transaction, one reused feature.
+/// With `lakes`, also a Polygon layer `lakes` in the same CRS: lake_id,
+/// crest_level_m, weir_length_m (the fields io::readLakes reads).
 void writeSyntheticGpkg(const std::filesystem::path& path, const network::SyntheticNetwork& net,
-                        const SyntheticGpkgOptions& options = {});
+                        const SyntheticGpkgOptions& options = {},
+                        const std::vector<network::SyntheticLake>& lakes = {});
 
 /// `lateral(time, reach)` for every reach, streamed reach by reach through
 /// NetcdfForcingWriter (memory: one series).

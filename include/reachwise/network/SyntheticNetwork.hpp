@@ -76,6 +76,32 @@ SyntheticNetwork generateSyntheticNetwork(const SyntheticOptions& options);
 /// lengths, trapezoid sections), for in-memory tests and benchmarks.
 ReachTable toReachTable(const SyntheticNetwork& net);
 
+/// A lake of a synthetic network: a small polygon around the node at the
+/// top of reach `reach` (a confluence, or the junction of a reach with the
+/// one it drains into), so the reaches ending there flow into it and
+/// `reach` carries its outflow; a weir rule. Lake ids are "L<k>", k the
+/// 0-based position (lakes ordered by `reach`).
+struct SyntheticLake {
+  std::uint32_t reach = 0;          ///< the outflowing reach
+  double radius_m = 0;              ///< of the polygon's vertices around the node
+  double crest_level_m = 0;
+  double weir_length_m = 0;
+  std::vector<Point2> ring;         ///< exterior ring, open (no repeated first vertex)
+  /// Text id of lake `lake`: "L" followed by its index.
+  static std::string id(std::size_t lake);
+};
+
+/// Places `count` lakes on distinct nodes that have at least one reach
+/// flowing in, chosen uniformly from the seed (SplitMix64 of the seed and
+/// a partial Fisher–Yates shuffle; the same lakes on any platform). Each
+/// polygon is a regular 12-gon of radius 80–200 m around the node: less
+/// than a third of the smallest distance between two nodes or a node and
+/// an outlet point (0.8 × 700 m), so a lake holds the ends of its own
+/// node's reaches and no other. Crest level 100 m; weir length half the
+/// outflowing reach's bottom width, within 2–50 m. Throws
+/// InvalidParameter("lakes") when the network has fewer such nodes.
+std::vector<SyntheticLake> syntheticLakes(const SyntheticNetwork& net, std::size_t count, std::uint64_t seed);
+
 /// A train of storms crossing the network from west to east over base flow.
 /// Each storm's lateral inflow on a reach is a gamma-shaped pulse
 /// q(τ) = peak (τ/tp)^(k-1) exp(-(k-1)(τ/tp - 1)) (peak 1 at τ = tp; the

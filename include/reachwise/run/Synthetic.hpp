@@ -8,6 +8,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <string>
+#include <vector>
 
 #include "reachwise/network/SyntheticNetwork.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
@@ -18,6 +19,7 @@ struct SyntheticRequest {
   std::string gpkg;                ///< the network GeoPackage (layer `reaches`, EPSG:32633)
   std::size_t reaches = 0;
   std::size_t outlets = 1;
+  std::size_t lakes = 0;           ///< lakes to place (layer `lakes` of the GeoPackage); 0: none
   std::uint64_t seed = 1;
   routing::TimeAxis axis;          ///< the forcing's time axis
   std::string lateral_nc;          ///< lateral inflow of every reach, CF-NetCDF; empty: none
@@ -37,6 +39,7 @@ public:
   explicit SyntheticCase(SyntheticRequest request);
 
   const network::SyntheticNetwork& network() const noexcept { return net_; }
+  const std::vector<network::SyntheticLake>& lakes() const noexcept { return lakes_; }
   const SyntheticRequest& request() const noexcept { return request_; }
 
   /// Each writes its file (under a temporary name, renamed when complete);
@@ -48,6 +51,7 @@ public:
 private:
   SyntheticRequest request_;
   network::SyntheticNetwork net_;
+  std::vector<network::SyntheticLake> lakes_;
   network::SyntheticStorm storm_;
 };
 
