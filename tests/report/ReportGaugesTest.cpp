@@ -333,7 +333,8 @@ TEST_F(ReportGaugesTest, UsCustomaryUnitsConvertTheGaugePeaks) {
 }
 
 // Twenty gauges made up in the test on the sample network's reaches: the
-// table lists every one, worst KGE first, and panels go to the twelve worst.
+// table lists every one, worst KGE first (one whose KGE cannot be formed
+// last), and panels go to the twelve worst.
 TEST_F(ReportGaugesTest, ManyGaugesAreRankedByKge) {
   const GaugeRun& run = gaugeRun();
   const std::size_t n = 20;
@@ -347,7 +348,8 @@ TEST_F(ReportGaugesTest, ManyGaugesAreRankedByKge) {
     g.reach_id = run.plan.reach_id[k];
     g.x = run.plan.bottom[k].x;
     g.y = run.plan.bottom[k].y;
-    g.skill.kge = 0.9 - 0.07 * static_cast<double>((k * 7) % n);  // all different
+    // All different; G05's cannot be formed (NaN).
+    g.skill.kge = k == 5 ? NAN : 0.9 - 0.07 * static_cast<double>((k * 7) % n);
     g.skill.n_obs = s.size();
     obs[k] = s;
     g.observed = &obs[k];
@@ -358,9 +360,15 @@ TEST_F(ReportGaugesTest, ManyGaugesAreRankedByKge) {
   const auto rows = tableRows(html, "gauges");
   ASSERT_EQ(rows.size(), n);
   std::vector<std::pair<double, std::string>> expected;
-  for (const auto& g : in.gauges) expected.emplace_back(g.skill.kge, g.gauge_id);
+  for (const auto& g : in.gauges) expected.emplace_back(std::isnan(g.skill.kge) ? INFINITY : g.skill.kge, g.gauge_id);
   std::sort(expected.begin(), expected.end());
+  ASSERT_EQ(expected.back().second, "G05");
   for (std::size_t k = 0; k < n; ++k) EXPECT_EQ(trim(rows[k][0]), expected[k].second) << "row " << k + 1;
+  EXPECT_EQ(trim(rows[n - 1][6]), "-");  // a score that cannot be formed is shown as "-"
+  // The key number is the median of the 19 KGEs that can be formed: the 10th smallest.
+  EXPECT_NE(html.find("<div class=\"k\">median KGE at the gauges</div><div class=\"v\">" +
+                      fmt::format("{:.2f}", expected[9].first) + "</div>"),
+            std::string::npos);
   std::size_t panels = 0;
   for (const auto& e : fs::directory_iterator(report()))
     panels += e.path().filename().string().rfind("gauge-", 0) == 0;
