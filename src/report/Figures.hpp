@@ -101,10 +101,19 @@ struct MapLake {
   std::string label;
 };
 
+/// A gauge: a small triangle, labelled with its id when `label` is set and
+/// a place is free (gauge labels give way to node labels, and to the
+/// labels of gauges listed before them; lake labels give way to them).
+struct MapGauge {
+  double x = 0, y = 0;      ///< CRS units
+  std::string label;
+};
+
 struct MapFigure {
   std::vector<MapLine> lines;
   std::vector<MapMarker> markers;
   std::vector<MapLake> lakes;
+  std::vector<MapGauge> gauges;
   std::string value_label;  ///< e.g. "peak discharge (m³/s)"
   /// Metres per CRS unit along x at the map's centre (for the scale bar);
   /// NaN when unknown (then the bar is labelled in CRS units).
@@ -165,6 +174,24 @@ struct LakeFigure {
 };
 
 void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig);
+
+// ---- gauges ----
+
+/// One gauge's panel: the observed discharge as points joined by a dashed
+/// line (broken where an observation is missing) and the simulated
+/// discharge as a line, both on one discharge axis.
+struct GaugeFigure {
+  std::string title;
+  std::vector<double> observed, simulated;   ///< one value per axis step (display unit); NaN: none
+  std::string observed_label, simulated_label;
+  std::int64_t start_unix_s = 0;
+  double dt_s = 3600;
+  std::size_t steps = 0;
+  int utc_offset_min = 0;
+  std::string q_unit;
+};
+
+void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig);
 
 // ---- confluence timing ----
 

@@ -17,6 +17,7 @@ namespace {
 // Water areas in a light blue under the rivers, outlined a shade darker,
 // labelled in a dark blue (common cartographic practice).
 constexpr Rgb kLakeFill{0.776, 0.878, 0.961}, kLakeEdge{0.38, 0.58, 0.78}, kLakeLabel{0.05, 0.25, 0.50};
+constexpr Rgb kGaugeFill{0.835, 0.369, 0.000}, kGaugeLabel{0.50, 0.20, 0.00};  // Okabe & Ito vermillion
 
 constexpr double kMargin = 10, kLegendRow = 84;
 constexpr double kMaxPlotWidth = 940, kMaxPlotHeight = 760, kMinPlotWidth = 540, kMinPlotHeight = 360;
@@ -173,7 +174,20 @@ void drawMarker(cairo_t* cr, MapMarker::Kind kind, double x, double y) {
   cairo_stroke(cr);
 }
 
-void drawMarkerLegend(cairo_t* cr, double x, double y, bool lakes) {
+/// A gauge: a small triangle pointing up, centred on (x, y).
+void drawGaugeMarker(cairo_t* cr, double x, double y) {
+  cairo_move_to(cr, x, y - 6);
+  cairo_line_to(cr, x + 5.5, y + 4);
+  cairo_line_to(cr, x - 5.5, y + 4);
+  cairo_close_path(cr);
+  setColour(cr, kGaugeFill);
+  cairo_fill_preserve(cr);
+  cairo_set_source_rgb(cr, 1, 1, 1);
+  cairo_set_line_width(cr, 1.2);
+  cairo_stroke(cr);
+}
+
+void drawMarkerLegend(cairo_t* cr, double x, double y, bool lakes, bool gauges) {
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
   drawText(cr, x, y, lakes ? "nodes and lakes" : "nodes", 12, Align::Left, true);
   const std::pair<MapMarker::Kind, const char*> items[] = {
@@ -187,15 +201,21 @@ void drawMarkerLegend(cairo_t* cr, double x, double y, bool lakes) {
     drawText(cr, x + 20, yy, text, 11);
     yy += 18;
   }
-  if (!lakes) return;
-  cairo_rectangle(cr, x + 1.5, yy - 9.5, 11, 10);
-  setColour(cr, kLakeFill);
-  cairo_fill_preserve(cr);
-  setColour(cr, kLakeEdge);
-  cairo_set_line_width(cr, 1);
-  cairo_stroke(cr);
+  if (lakes) {
+    cairo_rectangle(cr, x + 1.5, yy - 9.5, 11, 10);
+    setColour(cr, kLakeFill);
+    cairo_fill_preserve(cr);
+    setColour(cr, kLakeEdge);
+    cairo_set_line_width(cr, 1);
+    cairo_stroke(cr);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    drawText(cr, x + 20, yy, "lake or reservoir", 11);
+    yy += 18;
+  }
+  if (!gauges) return;
+  drawGaugeMarker(cr, x + 7, yy - 4);
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-  drawText(cr, x + 20, yy, "lake or reservoir", 11);
+  drawText(cr, x + 20, yy, "gauge (observed discharge)", 11);
 }
 
 /// Where a lake's label is tried first: the exterior ring's centroid when
@@ -250,6 +270,11 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
         xmin = std::min(xmin, p.x), xmax = std::max(xmax, p.x);
         ymin = std::min(ymin, p.y), ymax = std::max(ymax, p.y);
       }
+  for (const MapGauge& g : map.gauges)
+    if (std::isfinite(g.x) && std::isfinite(g.y)) {
+      xmin = std::min(xmin, g.x), xmax = std::max(xmax, g.x);
+      ymin = std::min(ymin, g.y), ymax = std::max(ymax, g.y);
+    }
   if (!(xmax >= xmin)) xmin = 0, xmax = 1, ymin = 0, ymax = 1;
   const double dx = std::max((xmax - xmin) * map.aspect_x, 1e-9), dy = std::max(ymax - ymin, 1e-9);
   // The map takes the network's shape within kMaxPlot; a tall network gets
@@ -269,8 +294,9 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
     bx[b] = cursor, by[b] = row_y;
     cursor += block_w[b] + 10;
   }
-  const bool lakes = !map.lakes.empty();
-  const double width = pw + 2 * kMargin, height = row_y + kLegendRow - 16 + (lakes ? 18 : 0);
+  const bool lakes = !map.lakes.empty(), gauges = !map.gauges.empty();
+  const double width = pw + 2 * kMargin,
+               height = row_y + kLegendRow - 16 + (lakes ? 18 : 0) + (gauges ? 18 : 0);
 
   Canvas canvas(file, width, height, format);
   cairo_t* cr = canvas.cr();
@@ -333,6 +359,11 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
       drawMarker(cr, kind, x, y);
       if (kind != MapMarker::Kind::Confluence) taken.push_back({x - 6, y - 6, x + 6, y + 6});
     }
+  for (const MapGauge& g : map.gauges) {
+    const double x = X(g.x), y = Y(g.y);
+    drawGaugeMarker(cr, x, y);
+    taken.push_back({x - 6, y - 7, x + 6, y + 5});
+  }
   const Box frame{kMargin, kMargin, kMargin + pw, kMargin + ph};
   for (const MapMarker& m : map.markers) {
     if (m.label.empty()) continue;
@@ -352,6 +383,25 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
     }
     taken.push_back(chosen);
     drawHaloText(cr, chosen.x0 + 1, chosen.y1 - 2, m.label, size, true);
+  }
+  // Gauge labels after the nodes', in the figure's order of priority; a
+  // label with no free place is left out (the gauge's panel and the
+  // table name it).
+  for (const MapGauge& g : map.gauges) {
+    if (g.label.empty()) continue;
+    const double x = X(g.x), y = Y(g.y), size = 11;
+    const double w = textWidth(cr, g.label, size, true), h = 12;
+    const std::pair<double, double> tries[] = {{9, 12},  {-9 - w, 12}, {9, -4},       {-9 - w, -4},
+                                               {-w / 2, -10}, {-w / 2, 20}, {14, 4}, {-14 - w, 4}};
+    for (const auto& [ox, oy] : tries) {
+      const Box b{x + ox - 1, y + oy - h, x + ox + w + 1, y + oy + 2};
+      const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
+      if (!inside || std::any_of(taken.begin(), taken.end(), [&](const Box& o) { return o.overlaps(b); }))
+        continue;
+      taken.push_back(b);
+      drawHaloText(cr, x + ox, y + oy, g.label, size, true, kGaugeLabel);
+      break;
+    }
   }
   // Lake labels after the nodes' (which they must not hide), in the
   // figure's order of priority: on the lake, else beside its outline; a
@@ -403,7 +453,7 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
 
   drawColourLegend(cr, map, vs, bx[0], by[0]);
   drawScaleBar(cr, map, s * map.aspect_x, bx[1], by[1]);
-  drawMarkerLegend(cr, bx[2], by[2], lakes);
+  drawMarkerLegend(cr, bx[2], by[2], lakes, gauges);
   canvas.finish();
   return width;
 }

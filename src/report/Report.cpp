@@ -6,6 +6,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <numeric>
 #include <cmath>
 #include <fstream>
 #include <system_error>
@@ -115,6 +116,14 @@ detail::ReportModel chooseContents(const ReportInputs& in, const ReportSeries& s
     const double x = m.lake_facts[a].inflow_peak_m3s, y = m.lake_facts[b].inflow_peak_m3s;
     return (std::isnan(x) ? -INFINITY : x) > (std::isnan(y) ? -INFINITY : y);
   });
+
+  // Gauges, the worst KGE first; a KGE that cannot be formed last.
+  m.shown_gauges.resize(in.gauges.size());
+  std::iota(m.shown_gauges.begin(), m.shown_gauges.end(), std::size_t{0});
+  std::stable_sort(m.shown_gauges.begin(), m.shown_gauges.end(), [&](std::size_t a, std::size_t b) {
+    const double x = in.gauges[a].skill.kge, y = in.gauges[b].skill.kge;
+    return (std::isnan(x) ? INFINITY : x) < (std::isnan(y) ? INFINITY : y);
+  });
   return m;
 }
 
@@ -168,6 +177,7 @@ void writeReport(const fs::path& dir, const ReportInputs& in, const ReportSeries
   REACHWISE_ASSERT(in.results.reaches.size() == in.plan.size());
   REACHWISE_ASSERT(in.plan.record.size() == in.plan.size());
   for (const auto& lake : in.lakes) REACHWISE_ASSERT(lake.lake && lake.routing);
+  for (const auto& g : in.gauges) REACHWISE_ASSERT(g.observed && g.simulated);
   fs::path target = dir.lexically_normal();
   if (target.has_filename() == false) target = target.parent_path();
   if (target.empty() || target.filename() == "." || target.filename() == "..")

@@ -82,6 +82,14 @@ MapFigure mapFigure(const ReportInputs& in, const ReportModel& m) {
     const bool label = in.lakes.size() <= kLabelAllLakes || k < kShownLakes;
     map.lakes.push_back({&lake->rings, label ? lake->lake_id : std::string()});
   }
+  // Every gauge; labels by priority (the worst KGE first), all of them
+  // while they stay legible, else those with a panel.
+  for (std::size_t k = 0; k < m.shown_gauges.size(); ++k) {
+    const io::GaugeOutput& g = in.gauges[m.shown_gauges[k]];
+    if (!std::isfinite(g.x) || !std::isfinite(g.y)) continue;
+    const bool label = in.gauges.size() <= kLabelAllGauges || k < kShownGauges;
+    map.gauges.push_back({g.x, g.y, label ? g.gauge_id : std::string()});
+  }
   return map;
 }
 
@@ -227,6 +235,28 @@ LakeFigure lakeFigure(const ReportInputs& in, const ReportModel& m, std::size_t 
   return fig;
 }
 
+/// "KGE 0.87" with two decimals, "KGE –" when it cannot be formed.
+std::string score(const char* name, double v) {
+  return std::isfinite(v) ? fmt::format("{} {:.2f}", name, v) : fmt::format("{} -", name);
+}
+
+GaugeFigure gaugeFigure(const ReportInputs& in, const ReportModel& m, std::size_t gi) {
+  const io::GaugeOutput& g = in.gauges[gi];
+  GaugeFigure fig;
+  fig.title = fmt::format("Gauge {} on reach {}: {}, {}", g.gauge_id, g.reach_id, score("KGE", g.skill.kge),
+                          score("NSE", g.skill.nse));
+  fig.observed = scaled(*g.observed, m.units);
+  fig.simulated = scaled(*g.simulated, m.units);
+  fig.observed_label = fmt::format("observed ({} samples compared)", g.skill.n_obs);
+  fig.simulated_label = "simulated outflow of reach " + g.reach_id;
+  fig.start_unix_s = in.results.axis.start_unix_s;
+  fig.dt_s = in.results.axis.dt_s;
+  fig.steps = in.results.axis.steps;
+  fig.utc_offset_min = m.utc_offset_min;
+  fig.q_unit = m.units.q_unit();
+  return fig;
+}
+
 }  // namespace
 
 void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, const ReportSeries& series,
@@ -236,7 +266,8 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
            fmt::format("Reaches coloured and widened by peak discharge ({}); node labels are the ids of the "
                        "GeoPackage's nodes layer{}.",
                        m.units.q_unit(),
-                       in.lakes.empty() ? "" : "; lakes and reservoirs in light blue, labelled with their ids"),
+                       std::string(in.lakes.empty() ? "" : "; lakes and reservoirs in light blue, labelled with their ids") +
+                           (in.gauges.empty() ? "" : "; gauges as triangles, labelled with their ids")),
            0, true};
   m.map.width_px = drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
 
@@ -258,6 +289,12 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
     FigureFile f{fmt::format("lake-{}.svg", k + 1), "Lake " + in.lakes[l].lake->lake_id, 620};
     drawLakeChart(folder / f.file, lakeFigure(in, m, l));
     m.lake_figures.push_back(std::move(f));
+  }
+  for (std::size_t k = 0; k < std::min(m.shown_gauges.size(), kShownGauges); ++k) {
+    const std::size_t gi = m.shown_gauges[k];
+    FigureFile f{fmt::format("gauge-{}.svg", k + 1), "Gauge " + in.gauges[gi].gauge_id, 620};
+    drawGaugeChart(folder / f.file, gaugeFigure(in, m, gi));
+    m.gauge_figures.push_back(std::move(f));
   }
   if (m.timing_confluences.empty()) return;  // the page says there are none
   m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960, true};

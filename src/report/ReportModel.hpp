@@ -61,6 +61,10 @@ struct ReportModel {
   std::vector<LakeFacts> lake_facts;
   std::vector<std::size_t> shown_lakes;
   std::vector<FigureFile> lake_figures;
+  /// Indexes into ReportInputs::gauges, the worst KGE first (a KGE that
+  /// cannot be formed last); the first kShownGauges have a panel.
+  std::vector<std::size_t> shown_gauges;
+  std::vector<FigureFile> gauge_figures;
 };
 
 /// Branch peaks closer than this count as coinciding (the report's rule).
@@ -75,6 +79,10 @@ inline constexpr std::size_t kLakeTableRows = 50;
 /// Lakes labelled on the map: all of them up to this many, else only those
 /// with a panel.
 inline constexpr std::size_t kLabelAllLakes = 50;
+inline constexpr std::size_t kShownGauges = 12;
+/// Gauges labelled on the map: all of them up to this many, else only
+/// those with a panel.
+inline constexpr std::size_t kLabelAllGauges = 50;
 
 /// `YYYY-MM-DD HH:MM` in the run's offset, rounded to the minute; "-" for NaN.
 std::string displayTime(double unix_s, int utc_offset_min);

@@ -9,6 +9,7 @@
 #include <numeric>
 #include <set>
 #include <sstream>
+#include <utility>
 
 #include "ReportModel.hpp"
 #include "reachwise/Error.hpp"
@@ -121,7 +122,8 @@ private:
     out_ << "<p class=\"sub\">" << count(in_.plan.size(), "reach", "reaches") << ", "
          << count(m_.confluence_count, "confluence", "confluences") << ", "
          << count(m_.outlet_count, "outlet", "outlets")
-         << (in_.lakes.empty() ? "" : ", " + count(in_.lakes.size(), "lake", "lakes")) << " &middot; method <b>"
+         << (in_.lakes.empty() ? "" : ", " + count(in_.lakes.size(), "lake", "lakes"))
+         << (in_.gauges.empty() ? "" : ", " + count(in_.gauges.size(), "gauge", "gauges")) << " &middot; method <b>"
          << esc(in_.info.method) << "</b> &middot; " << esc(time(static_cast<double>(axis.start_unix_s)))
          << " to " << esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0)))) << " ("
          << esc(offset()) << "), " << axis.steps << " steps of " << num(axis.dt_s, 0) << " s</p>\n";
@@ -147,6 +149,7 @@ private:
     card("confluences with branch peaks within 1 h", std::to_string(close),
          fmt::format("of {} confluences", m_.confluence_count));
     lakeCard();
+    gaugeCard();
     const routing::VolumeBalance& v = in_.results.volume;
     card("volume balance error", num(v.error_pct, 3) + " %",
          volume(u_.vol(v.inflow_m3 + v.lateral_m3)) + " " + u_.vol_unit() + " in, " +
@@ -168,6 +171,27 @@ private:
     card(in_.lakes.size() > 1 ? "largest lake attenuation" : "lake attenuation", num(f.attenuation_pct, 1) + " %",
          "lake " + in_.lakes[*best].lake->lake_id + ": peak " + num(u_.q(f.inflow_peak_m3s), 2) + " → " +
              num(u_.q(f.outflow_peak_m3s), 2) + " " + u_.q_unit() + ", " + num(f.lag_h, 1) + " h later");
+  }
+
+  /// The median KGE over the gauges where it can be formed, and the worst gauge.
+  void gaugeCard() {
+    std::vector<double> kge;
+    for (const auto& g : in_.gauges)
+      if (std::isfinite(g.skill.kge)) kge.push_back(g.skill.kge);
+    if (in_.gauges.empty()) return;
+    if (kge.empty()) {
+      card("gauges", std::to_string(in_.gauges.size()), "no KGE could be formed (see the gauge table)");
+      return;
+    }
+    std::sort(kge.begin(), kge.end());
+    const std::size_t n = kge.size();
+    const double median = n % 2 ? kge[n / 2] : (kge[n / 2 - 1] + kge[n / 2]) / 2;
+    const io::GaugeOutput& worst = in_.gauges[m_.shown_gauges.front()];
+    card(in_.gauges.size() > 1 ? "median KGE at the gauges" : "KGE at the gauge", num(median, 2),
+         in_.gauges.size() > 1 ? fmt::format("{} gauges; worst {} on reach {}: KGE {}", in_.gauges.size(),
+                                             worst.gauge_id, worst.reach_id, num(worst.skill.kge, 2))
+                               : fmt::format("gauge {} on reach {}; 1 is a perfect fit", worst.gauge_id,
+                                             worst.reach_id));
   }
 
   void figure(const FigureFile& f, const std::string& alt) {
@@ -200,6 +224,7 @@ private:
       out_ << "</div>\n";
     }
     lakes();
+    gauges();
     out_ << "<h2>Hydrographs at the major confluences</h2>\n";
     if (m_.confluence_figures.empty()) {
       out_ << "<p>The network has no confluences.</p>\n";
@@ -256,6 +281,64 @@ private:
       out_ << "<p>Panels for the " << m_.lake_figures.size() << " lakes with the largest inflow peak.</p>\n";
     out_ << "<div class=\"grid\">\n";
     for (const auto& f : m_.lake_figures) figure(f, "Inflow, outflow and level of " + f.caption);
+    out_ << "</div>\n";
+  }
+
+  /// The highest observed and simulated values over the compared samples
+  /// (where both are present), as the peak error takes them
+  /// (gauges::SkillScores::peak_error_pct); NaN when none are compared.
+  static std::pair<double, double> comparedPeaks(const io::GaugeOutput& g) {
+    double o = NAN, s = NAN;
+    const std::size_t n = std::min(g.observed->size(), g.simulated->size());
+    for (std::size_t k = 0; k < n; ++k) {
+      const double ok = (*g.observed)[k], sk = (*g.simulated)[k];
+      if (!std::isfinite(ok) || !std::isfinite(sk)) continue;
+      o = std::isnan(o) ? ok : std::max(o, ok);
+      s = std::isnan(s) ? sk : std::max(s, sk);
+    }
+    return {o, s};
+  }
+
+  /// Every gauge: its skill scores in a table and a panel per gauge, the
+  /// worst KGE first.
+  void gauges() {
+    if (in_.gauges.empty()) return;
+    out_ << "<h2>Gauges: observed and simulated discharge</h2>\n<p>Each gauge's observations compared with "
+            "the simulated outflow of its reach over the times both have values (docs/methods.md, \"Skill "
+            "scores\"). The Nash&ndash;Sutcliffe efficiency (NSE; Nash &amp; Sutcliffe 1970) compares the "
+            "squared errors with the observations' own variance: 1 is a perfect fit, 0 is no better than "
+            "the observed mean, and it can be negative. The Kling&ndash;Gupta efficiency (KGE; Gupta et al. "
+            "2009) combines the correlation r, the ratio of spreads &alpha; (simulated over observed) and "
+            "the ratio of means &beta;; each component is 1 and KGE is 1 for a perfect fit. Percent bias and "
+            "peak error are positive where the run carries too much water; peak timing is positive where "
+            "the simulated peak comes late.</p>\n<p class=\"note\">A score says how close the run is to "
+            "these records over this period; gauge records carry their own errors (rating curves are least "
+            "certain at flood peaks), and a good score at one gauge says little about ungauged reaches.</p>\n";
+    out_ << "<table id=\"gauges\">\n<thead><tr><th>gauge</th><th>reach</th><th class=\"num\">n_obs</th>"
+            "<th class=\"num\">observed peak (" << u_.q_unit() << ")</th><th class=\"num\">simulated peak ("
+         << u_.q_unit() << ")</th><th class=\"num\">NSE</th><th class=\"num\">KGE</th><th class=\"num\">r</th>"
+            "<th class=\"num\">&alpha;</th><th class=\"num\">&beta;</th><th class=\"num\">percent bias (%)"
+            "</th><th class=\"num\">peak error (%)</th><th class=\"num\">peak timing (h)</th></tr></thead>"
+            "\n<tbody>\n";
+    for (const std::size_t gi : m_.shown_gauges) {
+      const io::GaugeOutput& g = in_.gauges[gi];
+      const auto& k = g.skill;
+      const std::pair<double, double> peaks = comparedPeaks(g);
+      out_ << "<tr><td>" << esc(g.gauge_id) << "</td><td>" << esc(g.reach_id) << "</td><td class=\"num\">"
+           << k.n_obs << "</td><td class=\"num\">" << num(u_.q(peaks.first), 2) << "</td><td class=\"num\">"
+           << num(u_.q(peaks.second), 2) << "</td><td class=\"num\">" << num(k.nse, 3) << "</td><td class=\"num\">"
+           << num(k.kge, 3) << "</td><td class=\"num\">" << num(k.kge_r, 3) << "</td><td class=\"num\">"
+           << num(k.kge_alpha, 3) << "</td><td class=\"num\">" << num(k.kge_beta, 3)
+           << "</td><td class=\"num\">" << num(k.pbias_pct, 1) << "</td><td class=\"num\">"
+           << num(k.peak_error_pct, 1) << "</td><td class=\"num\">" << num(k.peak_timing_h, 2)
+           << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
+    if (m_.gauge_figures.size() < m_.shown_gauges.size())
+      out_ << "<p>Panels for the " << m_.gauge_figures.size() << " gauges with the lowest KGE of "
+           << m_.shown_gauges.size() << ".</p>\n";
+    out_ << "<div class=\"grid\">\n";
+    for (const auto& f : m_.gauge_figures) figure(f, "Observed and simulated discharge at " + f.caption);
     out_ << "</div>\n";
   }
 

@@ -146,6 +146,7 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
   if (w_->report) {
     report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
     ri.lakes = lakes;
+    ri.gauges = gauges;
     report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
   }
   if (w_->csv) {

@@ -6,7 +6,9 @@
 /// outlets and at the confluences with the largest combined peaks, a chart
 /// of how far apart the branch peaks of those confluences arrive, each
 /// routed lake (its outline on the map, a panel with inflow, outflow and
-/// level, a table of its peaks), and tables of the run, the top reaches
+/// level, a table of its peaks), each gauge compared with the run (a
+/// symbol on the map, a panel of observed and simulated discharge, a table
+/// of skill scores), and tables of the run, the top reaches
 /// and the coinciding confluences.
 ///
 /// Use: build a ReportSeries from the plan before routing, let it receive
@@ -94,6 +96,12 @@ struct ReportInputs {
   /// inflow, outflow and level series, one value per axis step. An empty
   /// `outflow_reach` is shown as a terminal lake.
   std::vector<io::LakeOutput> lakes = {};
+  /// The gauges compared with the run (run::RouteSummary::gauges; empty:
+  /// none), as the GeoPackage's `gauges` layer gives them: id, reach, place
+  /// (network CRS), skill scores, and the observed (NaN: missing) and
+  /// simulated series, one value per axis step. The series must outlive
+  /// writeReport().
+  std::vector<io::GaugeOutput> gauges = {};
 };
 
 /// Name of the marker file every report folder holds; writeReport() only
