@@ -7,6 +7,8 @@
 #include <memory>
 
 #include "Common.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/io/CalibrateConfig.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/run/Calibrate.hpp"
 #include "reachwise/run/Route.hpp"
@@ -18,11 +20,43 @@ namespace {
 struct CalibrateOptions {
   std::string network, layer, config, inflow, lateral, observed, gauges, gauges_layer, lakes, lakes_layer, out;
   std::string method = "vpmc", parameter = "n", objective = "kge";
-  double gauge_snap_m = 100, lower = 0.5, upper = 2.0;
-  std::size_t max_evaluations = 60;
+  double gauge_snap_m = 100, lower = 0.5, upper = 2.0, tolerance = 1e-3;
+  std::size_t max_evaluations = 60, min_observations = 10;
+  /// Where the bounds came from, for an error naming them: a flag or the run file's key.
+  std::string lower_from = "--lower", upper_from = "--upper";
   unsigned threads = 0;
   bool overwrite = false;
 };
+
+/// Fills what the command line left unset from the run file's
+/// `[calibrate]` table (flags win), then checks the bounds as merged.
+void applyRunFile(const CLI::App& sub, CalibrateOptions& o) {
+  if (!o.config.empty()) {
+    run::requireExisting(o.config);
+    const io::CalibrateConfig c = io::CalibrateConfig::fromFile(o.config);
+    auto take = [&](const char* flag, auto& field, const auto& value) {
+      if (value && sub.count(flag) == 0) {
+        field = *value;
+        return true;
+      }
+      return false;
+    };
+    take("--parameter", o.parameter, c.parameter);
+    take("--objective", o.objective, c.objective);
+    if (take("--lower", o.lower, c.lower)) o.lower_from = "calibrate.lower";
+    if (take("--upper", o.upper, c.upper)) o.upper_from = "calibrate.upper";
+    take("--max-evaluations", o.max_evaluations, c.max_evaluations);
+    take("--tolerance", o.tolerance, c.tolerance);
+    take("--min-observations", o.min_observations, c.min_observations);
+  }
+  if (!(o.lower < o.upper)) {
+    InputLocation where;
+    if (o.lower_from != "--lower" || o.upper_from != "--upper") where.file = o.config;
+    where.field = o.lower_from;
+    throw InputError(where, fmt::format("the lower bound {} ({}) must be below the upper bound {} ({})", o.lower,
+                                        o.lower_from, o.upper, o.upper_from));
+  }
+}
 
 int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   io::refuseExisting(o.out, o.overwrite);  // before any routing
@@ -43,6 +77,8 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   s.lower = o.lower;
   s.upper = o.upper;
   s.max_evaluations = o.max_evaluations;
+  s.tolerance = o.tolerance;
+  s.min_observations = o.min_observations;
   fmt::print(out, "calibrating a multiplier on {} per gauged sub-basin, upstream first ({} in [{}, {}], "
                   "objective {}, at most {} routings each)\n",
              o.parameter == "width" ? "the bottom width" : "Manning's n", o.parameter, o.lower, o.upper, o.objective,
@@ -86,7 +122,7 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
   sub->add_option("--inflow", o->inflow, "CSV or NetCDF of discharge entering at the top of named reaches");
   sub->add_option("--lateral", o->lateral, "CSV or NetCDF of lateral inflow along named reaches");
   sub->add_option("--observed", o->observed,
-                  "CSV of observed discharge keyed by reach id, or by gauge id with --gauges")
+                  "CSV or NetCDF of observed discharge keyed by reach id, or by gauge id with --gauges")
       ->required();
   sub->add_option("--gauges", o->gauges, "Gauges: a point source with gauge_id and optional reach_id");
   sub->add_option("--gauges-layer", o->gauges_layer, "Layer of the gauges (default: the only point layer)");
@@ -94,7 +130,8 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
       ->check(CLI::PositiveNumber);
   sub->add_option("--out", o->out, "GeoPackage to write: the calibrated network and what was fitted")->required();
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
-  sub->add_option("--config", o->config, "TOML run file ([network] field mappings and settings)");
+  sub->add_option("--config", o->config,
+                  "TOML run file ([network] field mappings and settings, [calibrate] settings; flags win)");
   sub->add_option("--lakes", o->lakes, "Lakes and reservoirs: a polygon source");
   sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
   sub->add_option("--method", o->method, "Routing method (default vpmc)")
@@ -107,10 +144,23 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
   sub->add_option("--upper", o->upper, "Highest multiplier (default 2)")->check(CLI::PositiveNumber);
   sub->add_option("--max-evaluations", o->max_evaluations, "Routings per sub-basin (default 60)")
       ->check(CLI::Range(4, 100000));
+  sub->add_option("--tolerance", o->tolerance,
+                  "Step in log multiplier at which the search stops (default 0.001)")
+      ->check(CLI::PositiveNumber);
+  sub->add_option("--min-observations", o->min_observations,
+                  "Fewest observations within the run for a gauge to be calibrated (default 10)")
+      ->check(CLI::Range(1, 1000000000));
   sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
   sub->add_flag("--overwrite", o->overwrite, "Replace --out if it exists");
-  sub->callback([&chosen, o] {
-    chosen = [o] { return guarded(std::cerr, o->network, [&] { return calibrate(*o, std::cout, std::cerr); }); };
+  sub->callback([&chosen, o, sub] {
+    chosen = [o, sub] {
+      const int loaded = guarded(std::cerr, o->config, [&] {
+        applyRunFile(*sub, *o);
+        return kExitOk;
+      });
+      if (loaded != kExitOk) return loaded;
+      return guarded(std::cerr, o->network, [&] { return calibrate(*o, std::cout, std::cerr); });
+    };
   });
 }
 

@@ -255,7 +255,7 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
                   "Lakes and reservoirs: a polygon source (fields in docs/formats.md, \"Lakes\")");
   sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
   sub->add_option("--observed", o->observed,
-                  "CSV of observed discharge (gauge records) keyed by reach id, or by gauge id with --gauges; "
+                  "CSV or NetCDF of observed discharge (gauge records) keyed by reach id, or by gauge id with --gauges; "
                   "scores in the gauges layer");
   sub->add_option("--gauges", o->gauges, "Gauges: a point source with gauge_id and optional reach_id");
   sub->add_option("--gauges-layer", o->gauges_layer, "Layer of the gauges (default: the only point layer)");

@@ -159,6 +159,48 @@ double dischargeFactor(const std::optional<std::string>& units, const std::files
   throw InputError(where, fmt::format("units '{}' are not a discharge (expected \"m3 s-1\")", *units));
 }
 
+
+/// The ids along dimension `dim` held by `var` (NC_STRING, or a 2-D char
+/// array), trimmed; an empty or repeated id is an InputError naming it.
+std::vector<std::string> stationIds(int ncid, const std::filesystem::path& path, const std::string& dim_name,
+                                    const std::string& var_name) {
+  int dim = 0, var = 0, ndims = 0;
+  nc_type type = NC_NAT;
+  std::vector<std::string> ids;
+  detail::check(nc_inq_dimid(ncid, dim_name.c_str(), &dim), path, "finding dimension '" + dim_name + "'");
+  detail::check(nc_inq_varid(ncid, var_name.c_str(), &var), path, "finding variable '" + var_name + "'");
+  std::size_t n = 0;
+  detail::check(nc_inq_dimlen(ncid, dim, &n), path, "reading the length of '" + dim_name + "'");
+  detail::check(nc_inq_var(ncid, var, nullptr, &type, &ndims, nullptr, nullptr), path,
+                "inspecting '" + var_name + "'");
+  const InputLocation where = located(path, var_name);
+  if (type == NC_STRING && ndims == 1) {
+    std::vector<char*> raw(n, nullptr);
+    detail::check(nc_get_var_string(ncid, var, raw.data()), path, "reading '" + var_name + "'");
+    for (char* s : raw) ids.push_back(trim(s ? s : ""));
+    nc_free_string(n, raw.data());
+  } else if (type == NC_CHAR && ndims == 2) {
+    int dims[2] = {0, 0};
+    std::size_t len = 0;
+    detail::check(nc_inq_vardimid(ncid, var, dims), path, "inspecting '" + var_name + "'");
+    detail::check(nc_inq_dimlen(ncid, dims[1], &len), path, "inspecting '" + var_name + "'");
+    std::string raw(n * len, '\0');
+    detail::check(nc_get_var_text(ncid, var, raw.data()), path, "reading '" + var_name + "'");
+    for (std::size_t r = 0; r < n; ++r) ids.push_back(trim(raw.substr(r * len, len)));
+  } else {
+    throw InputError(where, "'" + var_name + "' must be strings (NC_STRING) or a 2-D char array");
+  }
+  if (ids.size() != n) throw InputError(where, "'" + var_name + "' does not run along '" + dim_name + "'");
+  std::set<std::string> seen;
+  for (std::size_t r = 0; r < n; ++r) {
+    InputLocation at = where;
+    (dim_name == "gauge" ? at.gauge_id : at.reach_id) = ids[r];
+    if (ids[r].empty()) throw InputError(at, fmt::format("{} index {} has an empty id", dim_name, r));
+    if (!seen.insert(ids[r]).second) throw InputError(at, fmt::format("the {} id appears twice", dim_name));
+  }
+  return ids;
+}
+
 }  // namespace
 
 NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path) : path_(std::move(path)) {
@@ -235,38 +277,8 @@ void NetcdfForcingSource::readAxis() {
 }
 
 void NetcdfForcingSource::readIds() {
-  int dim = 0, var = 0, ndims = 0;
-  nc_type type = NC_NAT;
-  detail::check(nc_inq_dimid(ncid_, "reach", &dim), path_, "finding dimension 'reach'");
-  detail::check(nc_inq_varid(ncid_, "reach_id", &var), path_, "finding variable 'reach_id'");
-  std::size_t n = 0;
-  detail::check(nc_inq_dimlen(ncid_, dim, &n), path_, "reading the length of 'reach'");
-  detail::check(nc_inq_var(ncid_, var, nullptr, &type, &ndims, nullptr, nullptr), path_,
-                "inspecting 'reach_id'");
-  const InputLocation where = located(path_, "reach_id");
-  if (type == NC_STRING && ndims == 1) {
-    std::vector<char*> raw(n, nullptr);
-    detail::check(nc_get_var_string(ncid_, var, raw.data()), path_, "reading 'reach_id'");
-    for (char* s : raw) ids_.push_back(trim(s ? s : ""));
-    nc_free_string(n, raw.data());
-  } else if (type == NC_CHAR && ndims == 2) {
-    int dims[2] = {0, 0};
-    std::size_t len = 0;
-    detail::check(nc_inq_vardimid(ncid_, var, dims), path_, "inspecting 'reach_id'");
-    detail::check(nc_inq_dimlen(ncid_, dims[1], &len), path_, "inspecting 'reach_id'");
-    std::string raw(n * len, '\0');
-    detail::check(nc_get_var_text(ncid_, var, raw.data()), path_, "reading 'reach_id'");
-    for (std::size_t r = 0; r < n; ++r) ids_.push_back(trim(raw.substr(r * len, len)));
-  } else {
-    throw InputError(where, "'reach_id' must be strings (NC_STRING) or a 2-D char array");
-  }
-  if (ids_.size() != n) throw InputError(where, "'reach_id' does not run along 'reach'");
-  for (std::size_t r = 0; r < n; ++r) {
-    InputLocation at = where;
-    at.reach_id = ids_[r];
-    if (ids_[r].empty()) throw InputError(at, fmt::format("reach index {} has an empty id", r));
-    if (!index_.emplace(ids_[r], r).second) throw InputError(at, "the reach id appears twice");
-  }
+  ids_ = stationIds(ncid_, path_, "reach", "reach_id");
+  for (std::size_t r = 0; r < ids_.size(); ++r) index_.emplace(ids_[r], r);
 }
 
 void NetcdfForcingSource::openVariable(ForcingKind kind) {
@@ -340,6 +352,97 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
     }
   }
   return true;
+}
+
+RawForcing readObservedNetcdf(const std::filesystem::path& path) {
+  const std::lock_guard lock(detail::netcdfMutex());
+  int ncid = -1;
+  detail::check(nc_open(path.c_str(), NC_NOWRITE, &ncid), path, "opening the file");
+  struct Closer {
+    int id;
+    ~Closer() { nc_close(id); }
+  } closer{ncid};
+
+  // Times: any increasing instants (observations need no uniform step).
+  int time_dim = 0, time_var = 0, ndims = 0;
+  detail::check(nc_inq_dimid(ncid, "time", &time_dim), path, "finding dimension 'time'");
+  detail::check(nc_inq_varid(ncid, "time", &time_var), path, "finding variable 'time'");
+  std::size_t steps = 0;
+  detail::check(nc_inq_dimlen(ncid, time_dim, &steps), path, "reading the length of 'time'");
+  detail::check(nc_inq_varndims(ncid, time_var, &ndims), path, "inspecting 'time'");
+  const InputLocation at_time = located(path, "time");
+  if (ndims != 1) throw InputError(at_time, "'time' must be one-dimensional");
+  const auto units = textAttribute(ncid, time_var, "units");
+  if (!units) throw InputError(at_time, "'time' has no units attribute");
+  const auto [factor, reference] = parseTimeUnits(*units, path);
+  if (const auto calendar = textAttribute(ncid, time_var, "calendar")) {
+    const std::string c = lower(*calendar);
+    if (c != "standard" && c != "gregorian" && c != "proleptic_gregorian")
+      throw InputError(at_time, fmt::format("calendar '{}' is not supported (use \"standard\")", *calendar));
+  }
+  std::vector<double> t(steps);
+  if (steps > 0) detail::check(nc_get_var_double(ncid, time_var, t.data()), path, "reading 'time'");
+  for (std::size_t k = 0; k < steps; ++k) {
+    t[k] = reference + t[k] * factor;
+    if (!std::isfinite(t[k]) || (k > 0 && !(t[k] > t[k - 1]))) {
+      InputLocation at = at_time;
+      if (std::isfinite(t[k])) at.time = formatIsoTime(t[k], 0, 3);
+      throw InputError(at, fmt::format("time index {} does not come after the one before", k));
+    }
+  }
+
+  // Stations: gauges (`gauge`, `gauge_id`) when the file has them, else reaches.
+  int probe = 0;
+  const bool gauges = nc_inq_dimid(ncid, "gauge", &probe) == NC_NOERR && nc_inq_varid(ncid, "gauge_id", &probe) == NC_NOERR;
+  const std::string dim_name = gauges ? "gauge" : "reach";
+  const std::vector<std::string> ids = stationIds(ncid, path, dim_name, dim_name + "_id");
+  int station_dim = 0;
+  nc_inq_dimid(ncid, dim_name.c_str(), &station_dim);
+
+  // The values: `discharge` on (time, station) or (station, time).
+  const std::string name = kObservedNetcdfVariable;
+  const InputLocation where = located(path, name);
+  int var = 0, dims[NC_MAX_VAR_DIMS] = {};
+  nc_type type = NC_NAT;
+  if (nc_inq_varid(ncid, name.c_str(), &var) != NC_NOERR)
+    throw InputError(where, fmt::format("the file has no '{}' variable (observed discharge on (time, {}))", name,
+                                        dim_name));
+  detail::check(nc_inq_var(ncid, var, nullptr, &type, &ndims, dims, nullptr), path, "inspecting " + name);
+  if (ndims != 2 || !((dims[0] == time_dim && dims[1] == station_dim) ||
+                      (dims[0] == station_dim && dims[1] == time_dim)))
+    throw InputError(where, fmt::format("the variable must have dimensions (time, {})", dim_name));
+  if (type != NC_DOUBLE && type != NC_FLOAT) throw InputError(where, "the variable must be float or double");
+  const bool time_first = dims[0] == time_dim;
+  const double to_m3s = dischargeFactor(textAttribute(ncid, var, "units"), path, name);
+  const double fill = numberAttribute(ncid, var, "_FillValue")
+                          .value_or(type == NC_DOUBLE ? NC_FILL_DOUBLE : static_cast<double>(NC_FILL_FLOAT));
+  const double scale = numberAttribute(ncid, var, "scale_factor").value_or(1.0) * to_m3s;
+  const double offset = numberAttribute(ncid, var, "add_offset").value_or(0.0) * to_m3s;
+  std::vector<double> values(steps * ids.size());
+  if (!values.empty()) detail::check(nc_get_var_double(ncid, var, values.data()), path, "reading " + name);
+
+  RawForcing raw;
+  raw.file = path.string();
+  raw.utc_offset_min = static_cast<int>(numberAttribute(ncid, time_var, "utc_offset_minutes").value_or(0.0));
+  for (std::size_t r = 0; r < ids.size(); ++r) {
+    RawSeries series;  // every station, also one with no value (it is reported by name)
+    for (std::size_t k = 0; k < steps; ++k) {
+      const double v = values[time_first ? k * ids.size() + r : r * steps + k];
+      if (std::isnan(v) || v == fill) continue;  // missing: skipped, as an empty CSV cell
+      const double q = v * scale + offset;
+      if (!std::isfinite(q) || q < 0) {
+        InputLocation at = where;
+        (gauges ? at.gauge_id : at.reach_id) = ids[r];
+        at.time = formatIsoTime(t[k], raw.utc_offset_min, 0);
+        throw InputError(at, fmt::format("discharge {} is not finite and >= 0", q));
+      }
+      series.t_s.push_back(t[k]);
+      series.q_m3s.push_back(q);
+      series.line.push_back(0);  // no line in a NetCDF file
+    }
+    raw.series.emplace(ids[r], std::move(series));
+  }
+  return raw;
 }
 
 Forcing readForcingNetcdf(const std::filesystem::path& path) {

@@ -7,6 +7,8 @@
 #include <limits>
 
 #include "reachwise/io/ForcingCsv.hpp"
+#include "reachwise/io/ForcingFiles.hpp"
+#include "reachwise/io/ForcingNetcdf.hpp"
 
 namespace reachwise::io {
 
@@ -30,13 +32,15 @@ std::vector<double> observedOnAxis(const RawSeries& series, const routing::TimeA
 
 Observations readObservations(const std::filesystem::path& path, const routing::TimeAxis& axis,
                               units::System unit) {
-  const CsvForcingFile raw = readForcingCsvFile(path, unit, CsvValues::Observed);
+  // A NetCDF file carries its own units; `unit` is for CSV.
+  const RawForcing raw = isNetcdfFile(path) ? readObservedNetcdf(path)
+                                            : static_cast<RawForcing>(readForcingCsvFile(path, unit, CsvValues::Observed));
   Observations obs;
   obs.file = raw.file;
   for (const auto& [id, series] : raw.series) {
     auto values = observedOnAxis(series, axis);
     if (std::none_of(values.begin(), values.end(), [](double v) { return !std::isnan(v); }))
-      obs.warnings.push_back(fmt::format("{}: the observations of reach {} have no value within the run "
+      obs.warnings.push_back(fmt::format("{}: the observations of {} have no value within the run "
                                          "(none at or within one step of a run time)",
                                          obs.file, id));
     obs.values.emplace(id, std::move(values));

@@ -129,7 +129,7 @@ void writeRow(std::ostream& out, const results::Row& row, int offset) {
 
 void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTable& table,
                     const network::NetworkPlan& plan, const routing::NetworkResults& results,
-                    const RunInfo& info, const CsvLakes& csv_lakes) {
+                    const RunInfo& info, const CsvLakes& csv_lakes, const std::vector<GaugeOutput>* gauges) {
   REACHWISE_ASSERT(results.reaches.size() == plan.size());
   prepareDirectory(dir);
   const int offset = results.axis.utc_offset_min;
@@ -142,6 +142,11 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
   if (csv_lakes.lakes) {
     lakes = std::make_unique<Stream>(dir, kCsvLakeFiles[0], overwrite);
     lake_series = std::make_unique<Stream>(dir, kCsvLakeFiles[1], overwrite);
+  }
+  std::unique_ptr<Stream> gauge_table, gauge_series;
+  if (gauges) {
+    gauge_table = std::make_unique<Stream>(dir, kCsvGaugeFiles[0], overwrite);
+    gauge_series = std::make_unique<Stream>(dir, kCsvGaugeFiles[1], overwrite);
   }
 
   header(reaches.out, results::reachColumns());
@@ -190,6 +195,29 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
     }
   }
 
+  if (gauges) {
+    // The `gauges` layer's fields and the point as x, y; the series as the
+    // `gauge_series` table holds them (NaN, no record: empty).
+    const routing::TimeAxis& axis = results.axis;
+    header(gauge_table->out, results::gaugeColumns());
+    gauge_table->out << ",x,y\n";
+    header(gauge_series->out, results::gaugeSeriesColumns());
+    gauge_series->out << '\n';
+    const int series_offset = results::writableOffsetMin(axis.utc_offset_min);
+    const int digits = seriesFractionDigits(axis);
+    const auto at = [](const std::vector<double>* v, std::size_t k) {
+      return v && k < v->size() ? real((*v)[k]) : std::string();
+    };
+    for (const GaugeOutput& gauge : *gauges) {
+      writeRow(gauge_table->out, results::gaugeRow(gauge), offset);
+      gauge_table->out << ',' << real(gauge.x) << ',' << real(gauge.y) << '\n';
+      const auto id = quoted(gauge.gauge_id);
+      for (std::size_t k = 0; k < axis.steps; ++k)
+        gauge_series->out << id << ',' << formatIsoTime(axis.at(static_cast<double>(k)), series_offset, digits)
+                          << ',' << at(gauge.observed, k) << ',' << at(gauge.simulated, k) << '\n';
+    }
+  }
+
   reaches.commit();
   nodes.commit();
   branches.commit();
@@ -197,6 +225,10 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
   if (lakes) {
     lakes->commit();
     lake_series->commit();
+  }
+  if (gauge_table) {
+    gauge_table->commit();
+    gauge_series->commit();
   }
 }
 

@@ -1,6 +1,9 @@
 #include "reachwise/io/SeriesNetcdf.hpp"
 
 #include <fmt/format.h>
+#include <netcdf.h>
+
+#include <cmath>
 
 #include "NetcdfSeriesFile.hpp"
 #include "reachwise/Error.hpp"
@@ -39,6 +42,14 @@ NetcdfSeriesWriter::NetcdfSeriesWriter(std::filesystem::path path, const routing
                      {"lake_storage", "m3", "water volume stored in the lake above its empty level", ""},
                      {"lake_inflow", "m3 s-1", "discharge flowing into the lake", ""},
                      {"lake_outflow", "m3 s-1", "discharge flowing out of the lake", ""}}});
+  }
+  if (!options.gauge_ids.empty()) {
+    gauge_var_ = static_cast<int>(vars.size()) + (lake_var_ >= 0 ? 4 : 0);
+    gauge_ids_ = options.gauge_ids;
+    gauge_written_.assign(gauge_ids_.size(), false);
+    more.push_back({"gauge", "gauge_id", "gauge id", gauge_ids_,
+                    {{"observed_q", "m3 s-1", "observed discharge at the gauge (on the run's time axis)", ""},
+                     {"simulated_q", "m3 s-1", "routed discharge at the downstream end of the gauge's reach", ""}}});
   }
   file_ = std::make_unique<detail::SeriesFile>(std::move(path), axis, reach_ids_, std::move(vars),
                                                file_options, std::move(more));
@@ -83,7 +94,30 @@ void NetcdfSeriesWriter::writeLake(std::size_t lake, std::span<const double> lev
   lake_written_[lake] = true;
 }
 
+void NetcdfSeriesWriter::writeGauge(std::size_t gauge, std::span<const double> observed_m3s,
+                                    std::span<const double> simulated_m3s) {
+  if (gauge >= gauge_written_.size())
+    throw InternalError(fmt::format("gauge index {} beyond the {} gauges of {}", gauge, gauge_written_.size(),
+                                    file_->path().string()));
+  if (gauge_written_[gauge])
+    throw InternalError(fmt::format("gauge {} written twice to {}", gauge_ids_[gauge], file_->path().string()));
+  // A missing observation is the variable's _FillValue (CF conventions §2.5.1).
+  const auto filled = [](std::span<const double> v) {
+    std::vector<double> out(v.begin(), v.end());
+    for (double& x : out)
+      if (std::isnan(x)) x = NC_FILL_DOUBLE;
+    return out;
+  };
+  const auto first = static_cast<std::size_t>(gauge_var_);
+  file_->write(first, gauge, filled(observed_m3s));
+  file_->write(first + 1, gauge, filled(simulated_m3s));
+  gauge_written_[gauge] = true;
+}
+
 void NetcdfSeriesWriter::finish() {
+  for (std::size_t k = 0; k < gauge_written_.size(); ++k)
+    if (!gauge_written_[k])
+      throw InternalError(fmt::format("gauge {} never written to {}", gauge_ids_[k], file_->path().string()));
   for (std::size_t k = 0; k < lake_written_.size(); ++k)
     if (!lake_written_[k])
       throw InternalError(fmt::format("lake {} never written to {}", lake_ids_[k], file_->path().string()));

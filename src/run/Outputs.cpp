@@ -67,8 +67,8 @@ struct Outputs::Writers {
 
 Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const network::NetworkPlan& plan,
                  const routing::TimeAxis& axis, const std::string& history,
-                 std::vector<routing::SeriesSink*> extra)
-    : request_(request), net_(net), plan_(plan), w_(std::make_unique<Writers>()) {
+                 std::vector<routing::SeriesSink*> extra, std::vector<std::string> gauge_ids)
+    : request_(request), net_(net), plan_(plan), gauge_ids_(std::move(gauge_ids)), w_(std::make_unique<Writers>()) {
   const OutputRequest& o = request_;
   const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
   std::vector<routing::SeriesSink*> sinks = std::move(extra);
@@ -103,6 +103,8 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection);
     if (has_lakes_)  // refused now rather than after routing
       for (const char* name : io::kCsvLakeFiles) io::refuseExisting(fs::path(o.csv_dir) / name, o.overwrite);
+    if (!gauge_ids_.empty())  // likewise
+      for (const char* name : io::kCsvGaugeFiles) io::refuseExisting(fs::path(o.csv_dir) / name, o.overwrite);
     sinks.push_back(w_->csv.get());
   }
   if (!o.series_nc.empty()) {
@@ -115,6 +117,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
     so.history = history;
     if (lake_series_) so.lake_ids = lake_ids_;
+    so.gauge_ids = gauge_ids_;
     w_->netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
     w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
     sinks.push_back(w_->netcdf_selected.get());
@@ -138,6 +141,10 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
   for (std::size_t k = 0; same && k < lakes.size(); ++k)
     same = lakes[k].lake && lakes[k].routing && lakes[k].lake->lake_id == lake_ids_[k];
   if (!same) throw InternalError("the lakes given to Outputs::commit are not the lakes the run routes");
+  same = gauges.size() == gauge_ids_.size();
+  for (std::size_t g = 0; same && g < gauges.size(); ++g)
+    same = gauges[g].gauge_id == gauge_ids_[g] && gauges[g].observed && gauges[g].simulated;
+  if (!same) throw InternalError("the gauges given to Outputs::commit are not the gauges the outputs were opened for");
   if (w_->gpkg) {
     w_->gpkg->writeSummaries(results, info);
     if (has_lakes_) w_->gpkg->writeLakes(lakes);
@@ -152,7 +159,8 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
   if (w_->csv) {
     io::CsvLakes csv_lakes;
     if (has_lakes_) csv_lakes = {&lakes, lake_series_};
-    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes);
+    io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes,
+                       gauges.empty() ? nullptr : &gauges);
     w_->csv->commit();
   }
   if (w_->netcdf) {
@@ -160,6 +168,8 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
       const auto& r = *lakes[k].routing;
       w_->netcdf->writeLake(k, r.result.level_m, r.result.storage_m3, r.inflow_m3s, r.result.outflow_m3s);
     }
+    for (std::size_t g = 0; g < gauges.size(); ++g)
+      w_->netcdf->writeGauge(g, *gauges[g].observed, *gauges[g].simulated);
     w_->netcdf->finish();
   }
   if (w_->gpkg) w_->gpkg->commit();

@@ -83,7 +83,9 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   OutflowCapture capture(plan.size(), gauged);
   std::vector<routing::SeriesSink*> sinks = request.sinks;
   if (!gauged.empty()) sinks.push_back(&capture);
-  Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), sinks);
+  std::vector<std::string> gauge_ids;
+  for (const auto& g : summary.gauges.gauges) gauge_ids.push_back(g.gauge_id);
+  Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), sinks, std::move(gauge_ids));
 
   tell.stage("routing");
   routing::NetworkRouteOptions ro =

@@ -22,6 +22,7 @@
 #include <vector>
 
 #include "reachwise/io/Forcing.hpp"
+#include "reachwise/io/ForcingAxis.hpp"
 
 namespace reachwise::io {
 
@@ -107,6 +108,20 @@ private:
   std::unordered_map<std::string, std::size_t> index_;
   Variable vars_[2];
 };
+
+/// The variable of observed discharge in a NetCDF observations file.
+inline constexpr const char* kObservedNetcdfVariable = "discharge";
+
+/// Reads observed discharges (gauge records, docs/formats.md "Observed
+/// hydrographs"): `discharge` on (time, reach) keyed by `reach_id`, or on
+/// (time, gauge) keyed by `gauge_id` when the file has those; (station,
+/// time) is read too. `time` as for forcing, but any strictly increasing
+/// times (no uniform step). _FillValue and NaN are missing values and are
+/// skipped; other values must be finite and >= 0 after `scale_factor`,
+/// `add_offset` and the unit (m3 s-1 or ft3 s-1, from `units`). Every
+/// station is listed, also one without a value. Throws InputError naming
+/// the file, variable, id and time.
+RawForcing readObservedNetcdf(const std::filesystem::path& path);
 
 /// Reads a whole forcing file into memory (small files, tests). Reaches
 /// whose series of a kind is all _FillValue have no series of that kind.

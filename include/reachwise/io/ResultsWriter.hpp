@@ -200,16 +200,21 @@ struct CsvLakes {
 /// Writes `reaches.csv` (with a WKT `geometry` column), `nodes.csv` (x, y),
 /// `confluence_branches.csv` and `run_info.csv` into `dir` (created when
 /// missing), and with lakes `lakes.csv` (a WKT `geometry` column) and
-/// `lake_series.csv`, each under a temporary name renamed on success. Throws
-/// InputError naming the file when one exists and `overwrite` is false.
+/// `lake_series.csv`, with gauges (`gauges` not null) `gauges.csv` (the
+/// fields of the `gauges` layer, then x, y) and `gauge_series.csv`
+/// (gauge_id, time, observed_q, simulated_q), each under a temporary name
+/// renamed on success. Throws InputError naming the file when one exists
+/// and `overwrite` is false.
 /// Text is quoted when it holds a comma, quote or line break; NaN is empty.
 void writeCsvTables(const std::filesystem::path& dir, bool overwrite,
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::NetworkResults& results, const RunInfo& info,
-                    const CsvLakes& lakes = {});
+                    const CsvLakes& lakes = {}, const std::vector<GaugeOutput>* gauges = nullptr);
 
 /// The names of the lake files writeCsvTables writes.
 inline constexpr const char* kCsvLakeFiles[] = {"lakes.csv", "lake_series.csv"};
+/// The names of the gauge files writeCsvTables writes.
+inline constexpr const char* kCsvGaugeFiles[] = {"gauges.csv", "gauge_series.csv"};
 
 /// Streams `hydrographs.csv` (reach_id, time, q, depth, velocity) into
 /// `dir`; the file appears under its name in commit().

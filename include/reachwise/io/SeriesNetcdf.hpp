@@ -5,7 +5,9 @@
 /// (time, reach), written reach by reach in whatever order the scheduler
 /// finishes them; for a run with lakes also `lake_level` (m),
 /// `lake_storage` (m3), `lake_inflow` and `lake_outflow` (m3 s-1) on
-/// (time, lake), written once routing is done.
+/// (time, lake), written once routing is done; for a run compared with
+/// gauges also `gauge_id`, `observed_q` and `simulated_q` (m3 s-1) on
+/// (time, gauge), written once routing is done.
 ///
 /// The file is built under a temporary name beside the output
 /// (`.OUT.partial-<pid>`, io/OutputFiles.hpp) and appears under its own name only when
@@ -39,6 +41,9 @@ struct SeriesNetcdfOptions {
   /// The lakes whose series the file holds (a `lake` dimension and the
   /// `lake_*` variables); empty: none.
   std::vector<std::string> lake_ids;
+  /// The gauges whose observed and simulated discharges the file holds (a
+  /// `gauge` dimension, `observed_q` and `simulated_q`); empty: none.
+  std::vector<std::string> gauge_ids;
 };
 
 class NetcdfSeriesWriter final : public routing::SeriesSink {
@@ -61,8 +66,14 @@ public:
   void writeLake(std::size_t lake, std::span<const double> level_m, std::span<const double> storage_m3,
                  std::span<const double> inflow_m3s, std::span<const double> outflow_m3s);
 
+  /// Writes gauge `gauge` (an index into `options.gauge_ids`): its observed
+  /// discharge on the run's axis (NaN: no record, written as _FillValue)
+  /// and the simulated discharge of its reach (m^3/s), each axis.steps
+  /// values. Writing a gauge twice is an InternalError.
+  void writeGauge(std::size_t gauge, std::span<const double> observed_m3s, std::span<const double> simulated_m3s);
+
   /// Closes the file and gives it its final name. Throws InternalError when
-  /// some reach or lake was never written (the file would look complete but
+  /// some reach, lake or gauge was never written (the file would look complete but
   /// is not).
   void finish();
 
@@ -79,6 +90,9 @@ private:
   int lake_var_ = -1;                  ///< the first lake variable
   std::vector<std::string> lake_ids_;
   std::vector<bool> lake_written_;
+  int gauge_var_ = -1;                 ///< the first gauge variable
+  std::vector<std::string> gauge_ids_;
+  std::vector<bool> gauge_written_;
 };
 
 }  // namespace reachwise::io

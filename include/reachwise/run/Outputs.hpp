@@ -51,9 +51,12 @@ public:
   /// cannot be created. `history` goes into the NetCDF `history` attribute.
   /// `extra` sinks (owned by the caller, may be empty) receive every series
   /// beside the files. `net` and `plan` must outlive the object.
+  /// `gauge_ids`: the gauges the run is compared with (their tables in the
+  /// CSV folder and their series in the NetCDF file), in the order commit()
+  /// gets them.
   Outputs(const OutputRequest& request, const LoadedNetwork& net, const network::NetworkPlan& plan,
           const routing::TimeAxis& axis, const std::string& history,
-          std::vector<routing::SeriesSink*> extra = {});
+          std::vector<routing::SeriesSink*> extra = {}, std::vector<std::string> gauge_ids = {});
   ~Outputs();
   Outputs(const Outputs&) = delete;
   Outputs& operator=(const Outputs&) = delete;
@@ -61,7 +64,7 @@ public:
   /// Where the router sends each finished series.
   routing::SeriesSink& sink();
 
-  /// Writes the summaries, the gauges (GeoPackage only), the lakes (`lakes`: routedLakes() with their
+  /// Writes the summaries, the gauges (the ones given to the constructor, in that order), the lakes (`lakes`: routedLakes() with their
   /// routing, every lake the run routes) and the report, then commits every
   /// file; the report comes first so that a failing report leaves no output
   /// behind.
@@ -80,6 +83,7 @@ private:
   bool has_lakes_ = false;             ///< the network has lakes: lake tables in every output
   bool lake_series_ = false;           ///< the lakes' series are written (hydrographs are)
   std::vector<std::string> lake_ids_;  ///< the lakes the run routes, in order
+  std::vector<std::string> gauge_ids_; ///< the gauges the run is compared with, in order
   std::unique_ptr<Writers> w_;
 };
 
