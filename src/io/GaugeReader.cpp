@@ -122,17 +122,7 @@ GaugeTable readGauges(const std::string& source, const GaugeReadOptions& options
   table.source = source;
   table.layer = layer->GetName();
 
-  const OGRSpatialReference* srs = layer->GetSpatialRef();
-  const std::string srs_name = srs && srs->GetName() ? srs->GetName() : "";
-  if (srs_name.rfind("Undefined ", 0) == 0) srs = nullptr;
-  if (srs && !options.network_crs_wkt.empty()) {
-    OGRSpatialReference net;
-    net.importFromWkt(options.network_crs_wkt.c_str());
-    const char* const same[] = {"IGNORE_DATA_AXIS_TO_SRS_AXIS_MAPPING=YES", "CRITERION=EQUIVALENT", nullptr};
-    if (!srs->IsSame(&net, same))
-      throw InputError(where, fmt::format("the gauges' CRS ({}) is not the network's ({}); reproject the gauges",
-                                          srs_name, net.GetName() ? net.GetName() : "?"));
-  }
+  const OGRSpatialReference* srs = layerCrsMatching(*layer, options.network_crs_wkt, where, "the gauges");
   if (!srs) {
     if (!options.length_unit_m)
       throw InputError(where, "the gauges layer has no coordinate reference system; set network.length_unit");

@@ -3,6 +3,7 @@
 #include "GdalSupport.hpp"
 
 #include <cpl_error.h>
+#include <fmt/format.h>
 #include <gdal.h>
 #include <ogr_api.h>
 #include <ogr_spatialref.h>
@@ -38,6 +39,22 @@ void addLayerField(const std::string& path, OGRLayer& layer, const char* name, O
   OGRFieldDefn defn(name, type);
   defn.SetSubType(subtype);
   if (layer.CreateField(&defn) != OGRERR_NONE) throwWithGdalMessage(path, std::string("cannot add field ") + name);
+}
+
+const OGRSpatialReference* layerCrsMatching(OGRLayer& layer, const std::string& network_crs_wkt,
+                                            const InputLocation& where, const std::string& what) {
+  const OGRSpatialReference* srs = layer.GetSpatialRef();
+  const std::string name = srs && srs->GetName() ? srs->GetName() : "";
+  if (name.rfind("Undefined ", 0) == 0) return nullptr;
+  if (srs && !network_crs_wkt.empty()) {
+    OGRSpatialReference net;
+    net.importFromWkt(network_crs_wkt.c_str());
+    const char* const same[] = {"IGNORE_DATA_AXIS_TO_SRS_AXIS_MAPPING=YES", "CRITERION=EQUIVALENT", nullptr};
+    if (!srs->IsSame(&net, same))
+      throw InputError(where, fmt::format("{}' CRS ({}) is not the network's ({}); reproject {}", what, name,
+                                          net.GetName() ? net.GetName() : "?", what));
+  }
+  return srs;
 }
 
 std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt) {

@@ -27,6 +27,14 @@ namespace reachwise::io {
 /// longitude as the reader stored them; null for an empty or unreadable WKT.
 std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& crs_wkt);
 
+/// The CRS of `layer`, or null when it has none (GDAL's "Undefined ..."
+/// included). Throws InputError at `where` when it is set and is not the
+/// network's (`network_crs_wkt`; empty: no check), telling the user to
+/// reproject `what` ("the lakes", "the gauges"). Axis order and WKT dialect
+/// do not count as a difference.
+const OGRSpatialReference* layerCrsMatching(OGRLayer& layer, const std::string& network_crs_wkt,
+                                            const InputLocation& where, const std::string& what);
+
 /// Adds a field to `layer`; throws InputError naming `path` when GDAL refuses.
 void addLayerField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
                    OGRFieldSubType subtype = OFSTNone);

@@ -256,16 +256,7 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
   table.layer = layer->GetName();
 
   // The CRS: the network's, and the unit of areas.
-  const OGRSpatialReference* srs = layer->GetSpatialRef();
-  const std::string srs_name = srs && srs->GetName() ? srs->GetName() : "";
-  if (srs_name.rfind("Undefined ", 0) == 0) srs = nullptr;
-  if (srs && !options.network_crs_wkt.empty()) {
-    OGRSpatialReference net;
-    net.importFromWkt(options.network_crs_wkt.c_str());
-    if (!srs->IsSame(&net))
-      throw InputError(where, fmt::format("the lakes' CRS ({}) is not the network's ({}); reproject the lakes",
-                                          srs_name, net.GetName() ? net.GetName() : "?"));
-  }
+  const OGRSpatialReference* srs = layerCrsMatching(*layer, options.network_crs_wkt, where, "the lakes");
   bool geographic = false;
   double deg = 1;
   bool lat_first = false;
