@@ -3,7 +3,10 @@
 #include <fmt/format.h>
 #include <fmt/ostream.h>
 
+#include <filesystem>
+#include <fstream>
 #include <iostream>
+#include <toml++/toml.h>
 #include <memory>
 
 #include "Common.hpp"
@@ -16,6 +19,8 @@
 namespace reachwise::cli {
 
 namespace {
+
+namespace fs = std::filesystem;
 
 struct CalibrateOptions {
   std::string network, layer, config, inflow, lateral, observed, gauges, gauges_layer, lakes, lakes_layer, out;
@@ -58,8 +63,39 @@ void applyRunFile(const CLI::App& sub, CalibrateOptions& o) {
   }
 }
 
+/// The run file beside the output that routes the calibrated network as
+/// calibrate routed it: `OUT.toml` for `OUT.gpkg`.
+fs::path runFileFor(const std::string& out) { return fs::path(out).replace_extension(".toml"); }
+
+/// Writes the run file (absolute paths; TOML quoting by toml++).
+void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& result) {
+  const auto absolute = [](const std::string& p) { return p.empty() ? p : fs::absolute(p).string(); };
+  toml::table route;
+  if (!o.inflow.empty()) route.insert("inflow", absolute(o.inflow));
+  if (!o.lateral.empty()) route.insert("lateral", absolute(o.lateral));
+  route.insert("method", o.method);
+  toml::table file{{"route", route}};
+  if (const auto& lakes = result.network->lakes) {
+    toml::table network{{"lakes", absolute(lakes->source)}, {"lakes_layer", lakes->layer}};
+    file.insert("network", network);
+  }
+  io::writeThenRename(runFileFor(o.out), ".toml", [&](const fs::path& partial) {
+    std::ofstream f(partial);
+    f << "# Routes the calibrated network as `reachwise calibrate` routed it:\n"
+      << "#   reachwise route " << fs::absolute(o.out).string() << " --config " << fs::absolute(runFileFor(o.out)).string()
+      << "\n\n"
+      << file << "\n";
+    if (!f) {
+      InputLocation at;
+      at.file = runFileFor(o.out).string();
+      throw InputError(at, "cannot write the run file");
+    }
+  });
+}
+
 int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   io::refuseExisting(o.out, o.overwrite);  // before any routing
+  io::refuseExisting(runFileFor(o.out), o.overwrite);
   run::CalibrateRequest request;
   request.network = {o.network, o.layer, o.config, ""};
   request.network.lakes = o.lakes;
@@ -104,8 +140,10 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
     fmt::print(out, "  {} reach(es) below every calibrated gauge keep their {}\n", result.uncalibrated_reaches,
                o.parameter == "width" ? "bottom width" : "Manning's n");
   run::writeCalibrated(o.out, o.overwrite, result, s);
+  writeRunFile(o, result);
   fmt::print(out, "{} routings in all; wrote {} (layers reaches, calibration, gauges, problems)\n",
              result.evaluations, o.out);
+  fmt::print(out, "route it as calibrated: reachwise route {} --config {}\n", o.out, runFileFor(o.out).string());
   for (const auto& w : result.gauges.warnings) fmt::print(err, "warning: {}\n", w);
   fmt::print(out, "caution: {}\n", run::kResultsCaution);
   return kExitOk;

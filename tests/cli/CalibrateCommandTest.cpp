@@ -89,10 +89,15 @@ TEST(CalibrateCommand, WritesARoutableCalibratedNetwork) {
   }
   EXPECT_GE(in_r13, 1u);
 
-  // Routing the written network gives the scores the calibration reported.
+  // Routing the written network with the written run file (it names the
+  // forcing and method) gives the scores the calibration reported.
+  const fs::path run_file = dir.path() / "cal.toml";
+  ASSERT_TRUE(fs::exists(run_file));
+  EXPECT_NE(run.out.find("--config " + run_file.string()), std::string::npos) << run.out;
   const fs::path again = dir.path() / "again.gpkg";
-  const auto routed = testsupport::runReachwise("route " + cal.string() + kForcing + " --out " + again.string() +
-                                                " --observed " + (dir.path() / "obs.csv").string() + " --quiet");
+  const auto routed = testsupport::runReachwise("route " + cal.string() + " --config " + run_file.string() +
+                                                " --out " + again.string() + " --observed " +
+                                                (dir.path() / "obs.csv").string() + " --quiet");
   ASSERT_EQ(routed.code, 0) << routed.err;
   const auto kge_routed = fieldById(*open(again), "gauges", "gauge_id", "kge");
   for (const auto& [id, kge] : kge_after) EXPECT_NEAR(kge_routed.at(id), kge, 1e-9) << id;
