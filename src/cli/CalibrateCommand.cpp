@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 #include <fmt/ostream.h>
 
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <iostream>
@@ -93,6 +94,13 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
   });
 }
 
+/// What the multiplier multiplies, for the console.
+std::string what(const std::string& parameter) {
+  if (parameter == "width") return "the bottom width";
+  if (parameter == "kx") return "Muskingum K (and X fitted itself)";
+  return "Manning's n";
+}
+
 int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   io::refuseExisting(o.out, o.overwrite);  // before any routing
   io::refuseExisting(runFileFor(o.out), o.overwrite);
@@ -106,7 +114,9 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   request.method = *run::methodFromName(o.method);
   request.threads = o.threads;
   auto& s = request.settings;
-  s.parameter = o.parameter == "width" ? run::CalibrationParameter::Width : run::CalibrationParameter::Roughness;
+  s.parameter = o.parameter == "width" ? run::CalibrationParameter::Width
+                : o.parameter == "kx"  ? run::CalibrationParameter::MuskingumKX
+                                       : run::CalibrationParameter::Roughness;
   s.objective = o.objective == "nse"        ? run::Objective::Nse
                 : o.objective == "nse_peak" ? run::Objective::PeakWeightedNse
                                             : run::Objective::Kge;
@@ -117,12 +127,14 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   s.min_observations = o.min_observations;
   fmt::print(out, "calibrating a multiplier on {} per gauged sub-basin, upstream first ({} in [{}, {}], "
                   "objective {}, at most {} routings each)\n",
-             o.parameter == "width" ? "the bottom width" : "Manning's n", o.parameter, o.lower, o.upper, o.objective,
+             what(o.parameter), o.parameter, o.lower, o.upper, o.objective,
              o.max_evaluations);
   request.on_sub_basin = [&](const run::SubBasinResult& sb) {
-    fmt::print(out, "  gauge {} on {}: {} reaches, multiplier {:.3f}{}; {} {:.3f} -> {:.3f} (NSE {:.3f} -> {:.3f}), "
+    fmt::print(out, "  gauge {} on {}: {} reaches, multiplier {:.3f}{}{}; {} {:.3f} -> {:.3f} (NSE {:.3f} -> {:.3f}), "
                     "{} routings\n",
-               sb.gauge_id, sb.reach_id, sb.reaches.size(), sb.multiplier, sb.at_bound ? " (at a bound)" : "",
+               sb.gauge_id, sb.reach_id, sb.reaches.size(), sb.multiplier,
+               std::isnan(sb.muskingum_x) ? std::string() : fmt::format(", X {:.3f}", sb.muskingum_x),
+               sb.at_bound ? " (at a bound)" : "",
                o.objective, run::objectiveScore(s.objective, sb.before), run::objectiveScore(s.objective, sb.after),
                sb.before.nse, sb.after.nse, sb.evaluations);
   };
@@ -138,7 +150,7 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   for (const auto& why : result.left_out) fmt::print(out, "  left out: {}\n", why);
   if (result.uncalibrated_reaches)
     fmt::print(out, "  {} reach(es) below every calibrated gauge keep their {}\n", result.uncalibrated_reaches,
-               o.parameter == "width" ? "bottom width" : "Manning's n");
+               what(o.parameter));
   run::writeCalibrated(o.out, o.overwrite, result, s);
   writeRunFile(o, result);
   fmt::print(out, "{} routings in all; wrote {} (layers reaches, calibration, gauges, problems)\n",
@@ -174,8 +186,8 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
   sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
   sub->add_option("--method", o->method, "Routing method (default vpmc)")
       ->check(CLI::IsMember(run::methodNames()));
-  sub->add_option("--parameter", o->parameter, "What is multiplied: n (Manning's n, default) or width")
-      ->check(CLI::IsMember({"n", "width"}));
+  sub->add_option("--parameter", o->parameter, "What is fitted: n (Manning's n, default), width, or kx (Muskingum K and X, with --method muskingum)")
+      ->check(CLI::IsMember({"n", "width", "kx"}));
   sub->add_option("--objective", o->objective, "kge (default), nse or nse_peak (peak-weighted NSE)")
       ->check(CLI::IsMember({"kge", "nse", "nse_peak"}));
   sub->add_option("--lower", o->lower, "Lowest multiplier (default 0.5)")->check(CLI::PositiveNumber);

@@ -43,8 +43,8 @@ CalibrateConfig CalibrateConfig::fromString(const std::string& text, const std::
     const std::string key(k.str());
     if (key == "parameter") {
       c.parameter = text_of(v, key);
-      if (*c.parameter != "n" && *c.parameter != "width")
-        throw keyError(origin, key, "expected \"n\" or \"width\", got \"" + *c.parameter + "\"");
+      if (*c.parameter != "n" && *c.parameter != "width" && *c.parameter != "kx")
+        throw keyError(origin, key, "expected \"n\", \"width\" or \"kx\", got \"" + *c.parameter + "\"");
     } else if (key == "objective") {
       c.objective = text_of(v, key);
       if (*c.objective != "kge" && *c.objective != "nse" && *c.objective != "nse_peak")

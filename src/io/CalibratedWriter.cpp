@@ -19,7 +19,7 @@ const std::vector<Column>& calibrationColumns() {
       {"upper", CT::Real},             {"at_bound", CT::Boolean},      {"objective", CT::Text},
       {"objective_before", CT::Real},  {"objective_after", CT::Real},  {"nse_before", CT::Real},
       {"nse_after", CT::Real},         {"kge_before", CT::Real},       {"kge_after", CT::Real},
-      {"evaluations", CT::Integer64},
+      {"evaluations", CT::Integer64}, {"muskingum_x", CT::Real},
   };
   return columns;
 }
@@ -42,7 +42,7 @@ void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const ne
                                                results::Value{static_cast<std::int64_t>(r.at_bound)}, r.objective,
                                                real(r.objective_before), real(r.objective_after),
                                                real(r.before.nse), real(r.after.nse), real(r.before.kge),
-                                               real(r.after.kge), count(r.evaluations)});
+                                               real(r.after.kge), count(r.evaluations), real(r.muskingum_x)});
                             results::writeRowsLayer(path, ds, "calibration", nullptr, wkbNone, calibrationColumns(),
                                                     table, {}, utc_offset_min);
                             std::vector<results::Row> gauge_rows;

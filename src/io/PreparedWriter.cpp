@@ -171,6 +171,8 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
     setNumber(f, "down_elevation", p.down_elevation_m);
     network::ReachRecord written = r;  // the attributes as prepared
     written.section = p.section;
+    if (!std::isnan(p.muskingum_k_h)) written.muskingum_k_h = p.muskingum_k_h;
+    if (!std::isnan(p.muskingum_x)) written.muskingum_x = p.muskingum_x;
     f.SetField("shape", p.section.shape == hydraulics::Shape::Circle ? "circle" : "trapezoid");
     for (const auto& a : kNumeric) setNumber(f, a.name, a.get(written));
     if (source.has_length) setNumber(f, "length", r.length_m);

@@ -15,7 +15,15 @@
 namespace reachwise::run {
 
 std::string_view parameterName(CalibrationParameter p) {
-  return p == CalibrationParameter::Roughness ? "n" : "width";
+  switch (p) {
+    case CalibrationParameter::Width:
+      return "width";
+    case CalibrationParameter::MuskingumKX:
+      return "kx";
+    case CalibrationParameter::Roughness:
+      break;
+  }
+  return "n";
 }
 
 std::string_view objectiveName(Objective o) {
@@ -158,11 +166,26 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   }
   const auto basins = subBasins(plan, used_reaches);
 
+  const bool kx = settings.parameter == CalibrationParameter::MuskingumKX;
+  if (kx && request.method != routing::Method::Muskingum)
+    throw InvalidParameter("calibrate.parameter", "kx (Muskingum K and X) needs the muskingum method");
   const std::vector<hydraulics::Section> base = plan.section;
+  const std::vector<double> base_k = plan.muskingum_k_s;
   out.multiplier.assign(plan.size(), 1.0);
-  const auto scaled = [&](std::uint32_t r, double m) {
-    return settings.parameter == CalibrationParameter::Roughness ? base[r].withRoughnessScaled(m)
-                                                                  : base[r].withWidthScaled(m);
+  out.muskingum_x.assign(plan.size(), std::numeric_limits<double>::quiet_NaN());
+  // The parameters: y[0] = log(multiplier), so that a ratio up weighs the
+  // same as the ratio down; with kx also y[1] = X.
+  const auto apply = [&](const std::vector<std::uint32_t>& reaches, const std::vector<double>& y) {
+    const double m = std::exp(y[0]);
+    for (const auto r : reaches) {
+      if (kx) {
+        plan.muskingum_k_s[r] = base_k[r] * m;
+        plan.muskingum_x[r] = y[1];
+      } else {
+        plan.section[r] = settings.parameter == CalibrationParameter::Roughness ? base[r].withRoughnessScaled(m)
+                                                                              : base[r].withWidthScaled(m);
+      }
+    }
   };
   Router router(request, net, plan, forcing, all_reaches);
 
@@ -176,40 +199,49 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
     sb.gauge_id = gauge.gauge_id;
     sb.reach_id = gauge.reach_id;
     sb.reaches = basins[k];
-    const auto apply = [&](double m) {
-      for (const auto r : sb.reaches) plan.section[r] = scaled(r, m);
-    };
-    const auto score = [&](double m) {
-      apply(m);
+    const auto score = [&](const std::vector<double>& y) {
+      apply(sb.reaches, y);
       const auto& capture = router.route();
       ++sb.evaluations;
       return gauges::skill(gauge.observed, capture.outflow(gauge.reach), out.axis.dt_s);
     };
-    sb.before = score(1.0);
+    std::vector<double> lo{std::log(settings.lower)}, hi{std::log(settings.upper)}, start{0.0};
+    if (kx) {
+      // X between 0 and 0.5 (Muskingum's range); the start is the reaches' mean X.
+      double x = 0;
+      for (const auto r : sb.reaches) x += plan.muskingum_x[r] / static_cast<double>(sb.reaches.size());
+      lo.push_back(0.0);
+      hi.push_back(0.5);
+      start.push_back(std::isfinite(x) ? std::clamp(x, 0.0, 0.5) : 0.2);
+      sb.before = score(start);
+    } else {
+      sb.before = score(start);
+    }
+    for (std::size_t d = 0; d < start.size(); ++d) start[d] = std::clamp(start[d], lo[d], hi[d]);
 
-    // Search in log(multiplier): a ratio of 2 up weighs the same as one down.
-    const double lo = std::log(settings.lower), hi = std::log(settings.upper);
-    double best_y = std::clamp(0.0, lo, hi), best_f = std::numeric_limits<double>::infinity();
+    std::vector<double> best = start;
+    double best_f = std::numeric_limits<double>::infinity();
     auto f = [&](const std::vector<double>& y, std::vector<double>&, void*) {
-      const double value = 1.0 - objectiveScore(settings.objective, score(std::exp(y[0])));
+      const double value = 1.0 - objectiveScore(settings.objective, score(y));
       const double v = std::isfinite(value) ? value : std::numeric_limits<double>::max();
-      if (v < best_f) best_f = v, best_y = y[0];
+      if (v < best_f) best_f = v, best = y;
       return v;
     };
     using Fn = decltype(f);
     const auto call = [](const std::vector<double>& x, std::vector<double>& g, void* data) {
       return (*static_cast<Fn*>(data))(x, g, nullptr);
     };
+    const auto dims = static_cast<unsigned>(start.size());
     const std::size_t global = std::max<std::size_t>(2, settings.max_evaluations * 2 / 3);
     // Global: DIRECT-L (Gablonsky & Kelley 2001, as implemented by NLopt):
     // deterministic, bounded, no start point needed.
-    nlopt::opt direct(nlopt::GN_DIRECT_L, 1);
-    direct.set_lower_bounds({lo});
-    direct.set_upper_bounds({hi});
+    nlopt::opt direct(nlopt::GN_DIRECT_L, dims);
+    direct.set_lower_bounds(lo);
+    direct.set_upper_bounds(hi);
     direct.set_min_objective(call, static_cast<void*>(&f));
     direct.set_maxeval(static_cast<int>(global));
     direct.set_xtol_abs(settings.tolerance);
-    std::vector<double> y{best_y};
+    std::vector<double> y = start;
     double fy = 0;
     try {
       direct.optimize(y, fy);
@@ -218,23 +250,30 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
     // Local polish: COBYLA (Powell 1994, as implemented by NLopt) from the best point.
     const std::size_t left = settings.max_evaluations > sb.evaluations ? settings.max_evaluations - sb.evaluations : 0;
     if (left >= 2) {
-      nlopt::opt local(nlopt::LN_COBYLA, 1);
-      local.set_lower_bounds({lo});
-      local.set_upper_bounds({hi});
+      nlopt::opt local(nlopt::LN_COBYLA, dims);
+      local.set_lower_bounds(lo);
+      local.set_upper_bounds(hi);
       local.set_min_objective(call, static_cast<void*>(&f));
       local.set_maxeval(static_cast<int>(left));
       local.set_xtol_abs(settings.tolerance);
-      local.set_initial_step(std::max(settings.tolerance * 10, (hi - lo) / 20));
-      y = {best_y};
+      std::vector<double> step;
+      for (std::size_t d = 0; d < dims; ++d) step.push_back(std::max(settings.tolerance * 10, (hi[d] - lo[d]) / 20));
+      local.set_initial_step(step);
+      y = best;
       try {
         local.optimize(y, fy);
       } catch (const nlopt::roundoff_limited&) {
       }
     }
-    sb.multiplier = std::exp(best_y);
-    sb.at_bound = best_y - lo <= settings.tolerance || hi - best_y <= settings.tolerance;
-    sb.after = score(sb.multiplier);  // leaves the sub-basin at its result
-    for (const auto r : sb.reaches) out.multiplier[r] = sb.multiplier;
+    sb.multiplier = std::exp(best[0]);
+    if (kx) sb.muskingum_x = best[1];
+    for (std::size_t d = 0; d < dims; ++d)
+      sb.at_bound = sb.at_bound || best[d] - lo[d] <= settings.tolerance || hi[d] - best[d] <= settings.tolerance;
+    sb.after = score(best);  // leaves the sub-basin at its result
+    for (const auto r : sb.reaches) {
+      out.multiplier[r] = sb.multiplier;
+      out.muskingum_x[r] = sb.muskingum_x;
+    }
     if (request.on_sub_basin) request.on_sub_basin(sb);
     out.sub_basins.push_back(std::move(sb));
   }
@@ -255,7 +294,11 @@ void writeCalibrated(const std::string& path, bool overwrite, const CalibrationR
   const network::ReachGraph& graph = *net.graph;
   const network::NetworkPlan& plan = result.plan;
   std::vector<double> by_record(graph.size(), 1.0);
-  for (std::size_t i = 0; i < plan.size(); ++i) by_record[plan.record[i]] = result.multiplier[i];
+  std::vector<double> by_record_x(graph.size(), std::numeric_limits<double>::quiet_NaN());
+  for (std::size_t i = 0; i < plan.size(); ++i) {
+    by_record[plan.record[i]] = result.multiplier[i];
+    by_record_x[plan.record[i]] = result.muskingum_x[i];
+  }
   const bool roughness = settings.parameter == CalibrationParameter::Roughness;
   std::vector<io::PreparedReach> prepared(graph.size());
   for (network::ReachGraph::Vertex v = 0; v < graph.size(); ++v) {
@@ -272,10 +315,16 @@ void writeCalibrated(const std::string& path, bool overwrite, const CalibrationR
     if (roughness) {
       p.section.manning_n *= m;
       p.section.floodplain_n *= m;  // NaN stays NaN
+    } else if (settings.parameter == CalibrationParameter::MuskingumKX) {
     } else if (p.section.shape == hydraulics::Shape::Circle) {
       p.section.diameter_m *= m;
     } else {
       p.section.bottom_width_m *= m;
+    }
+    if (settings.parameter == CalibrationParameter::MuskingumKX) {
+      p.section = r.section;  // the section is not what kx fits
+      p.muskingum_k_h = r.muskingum_k_h * m;
+      p.muskingum_x = std::isnan(by_record_x[v]) ? r.muskingum_x : by_record_x[v];
     }
     p.manning_n_source = roughness && changed ? "calibrated" : "field";
     p.bottom_width_source = !roughness && changed ? "calibrated" : "field";
@@ -287,7 +336,8 @@ void writeCalibrated(const std::string& path, bool overwrite, const CalibrationR
     rows.push_back({sb.gauge_id, sb.reach_id, std::string(parameterName(settings.parameter)),
                     std::string(objectiveName(settings.objective)), sb.multiplier, settings.lower, settings.upper,
                     sb.at_bound, sb.reaches.size(), sb.evaluations, sb.before, sb.after,
-                    objectiveScore(settings.objective, sb.before), objectiveScore(settings.objective, sb.after)});
+                    objectiveScore(settings.objective, sb.before), objectiveScore(settings.objective, sb.after),
+                    sb.muskingum_x});
   std::vector<io::GaugeOutput> gauges;
   const auto& bound = result.gauges.gauges;
   for (std::size_t g = 0; g < bound.size(); ++g) {

@@ -4,6 +4,7 @@
 /// calibrated attributes, ready to route, and what the calibration did
 /// (docs/formats.md, "Calibration").
 
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -23,6 +24,7 @@ struct CalibrationRow {
   std::size_t reaches = 0, evaluations = 0;
   gauges::SkillScores before, after;
   double objective_before = 0, objective_after = 0;
+  double muskingum_x = std::numeric_limits<double>::quiet_NaN();  ///< fitted X (kx); NaN otherwise
 };
 
 /// Writes `path` (temporary name, then renamed; refused when it exists

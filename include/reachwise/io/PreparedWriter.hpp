@@ -20,6 +20,9 @@ namespace reachwise::io {
 
 /// The derived values of one reach (a vertex of the graph).
 struct PreparedReach {
+  /// Muskingum K (h) and X to write instead of the record's; NaN: the record's.
+  double muskingum_k_h = network::ReachRecord::kUnset;
+  double muskingum_x = network::ReachRecord::kUnset;
   double slope = network::ReachRecord::kUnset;
   std::string slope_source;        ///< "field", "dem", "default", "" = none
   double up_elevation_m = network::ReachRecord::kUnset;

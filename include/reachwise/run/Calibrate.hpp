@@ -28,10 +28,13 @@
 
 namespace reachwise::run {
 
-enum class CalibrationParameter { Roughness, Width };
+/// What a sub-basin's fit varies: a multiplier on Manning's n, on the
+/// bottom width, or (with the muskingum method) a multiplier on K and X
+/// itself, X in [0, 0.5], the same for every reach of the sub-basin.
+enum class CalibrationParameter { Roughness, Width, MuskingumKX };
 enum class Objective { Kge, Nse, PeakWeightedNse };
 
-/// `n` / `width`; `kge` / `nse` / `nse_peak`.
+/// `n` / `width` / `kx`; `kge` / `nse` / `nse_peak`.
 std::string_view parameterName(CalibrationParameter p);
 std::string_view objectiveName(Objective o);
 /// The objective's score (higher is better, 1 is a perfect fit).
@@ -63,7 +66,8 @@ struct CalibrateRequest {
 struct SubBasinResult {
   std::string gauge_id, reach_id;
   std::vector<std::uint32_t> reaches;   ///< plan indices of the sub-basin
-  double multiplier = 1;
+  double multiplier = 1;                ///< on n, width or Muskingum K
+  double muskingum_x = std::numeric_limits<double>::quiet_NaN();  ///< the fitted X (kx only)
   gauges::SkillScores before, after;    ///< at multiplier 1 (upstream calibrated) and at the result
   std::size_t evaluations = 0;
   bool at_bound = false;                ///< the result lies on a bound (within the tolerance)
@@ -76,6 +80,7 @@ struct CalibrationResult {
   BoundGauges gauges;
   std::vector<SubBasinResult> sub_basins;   ///< upstream first
   std::vector<double> multiplier;           ///< per plan reach; 1 where not calibrated
+  std::vector<double> muskingum_x;          ///< per plan reach, the fitted X; NaN where not fitted
   std::vector<gauges::SkillScores> scores;  ///< every gauge, routed with every multiplier
   std::vector<std::string> left_out;        ///< gauges not calibrated, with the reason
   std::size_t uncalibrated_reaches = 0;     ///< reaches below every calibrated gauge
