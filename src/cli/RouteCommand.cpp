@@ -99,9 +99,11 @@ void printLakes(std::ostream& out, const std::vector<io::LakeOutput>& lakes, con
     fmt::print(out, "  ... and {} more lake(s), all in the lakes layer\n", lines.size() - kLakesListed);
 }
 
-void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
-                      const routing::NetworkResults& r, const std::vector<io::LakeOutput>& lakes,
-                      const std::string& gpkg, const std::string& report_dir) {
+void printDemoSummary(std::ostream& out, const run::RouteSummary& s, const std::vector<io::LakeOutput>& lakes,
+                      const std::string& report_dir) {
+  const network::NetworkPlan& plan = s.plan;
+  const routing::NetworkResults& r = s.results;
+  const std::string& gpkg = s.gpkg;
   const int off = r.axis.utc_offset_min;
   fmt::print(out, "reachwise demo: {} reaches, {} steps of {} s from {}\n", plan.size(), r.axis.steps,
              r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off));
@@ -131,6 +133,7 @@ void printDemoSummary(std::ostream& out, const network::NetworkPlan& plan,
                hours(s.travel_time_s));
   }
   printLakes(out, lakes, r.axis);
+  printGauges(out, s);
   const routing::VolumeBalance& v = r.volume;
   fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} % of all inflow",
              v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
@@ -197,7 +200,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
 
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
   if (o.demo) {
-    printDemoSummary(out, s.plan, results, lakes, s.gpkg, o.report);
+    printDemoSummary(out, s, lakes, o.report);
   } else if (!o.quiet) {
     fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", s.plan.size(), results.axis.steps,
                o.method, s.gpkg, o.series_nc.empty() ? "" : " and " + o.series_nc,
@@ -313,6 +316,8 @@ void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_li
       o.inflow = (sample / "inflow.csv").string();
       o.lateral = (sample / "lateral.csv").string();
       o.lakes = (sample / "lakes.gpkg").string();  // the reservoir RES1 on the tributary R13-R17
+      o.observed = (sample / "observed.csv").string();  // invented records at three gauges
+      o.gauges = (sample / "gauges.gpkg").string();
       o.demo = true;
       o.overwrite = true;  // the demo folder is ours to refresh
       o.command_line = command_line;

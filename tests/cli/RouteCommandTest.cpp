@@ -6,6 +6,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <iterator>
 #include <memory>
 #include <string>
@@ -56,6 +57,13 @@ TEST(RouteCommand, DemoWritesGeoPackageWithTheContractLayers) {
   EXPECT_STREQ(lake->GetFieldAsString("lake_id"), "RES1");
   EXPECT_STREQ(lake->GetFieldAsString("reach_id"), "R13");
   EXPECT_TRUE(fs::exists(dir / "report" / "lake-1.svg"));
+  // The demo compares the run with its three invented gauges
+  // (sample-network/make_observed.sh), each on the reach it names.
+  OGRLayer* gauges = ds->GetLayerByName("gauges");
+  ASSERT_NE(gauges, nullptr);
+  std::map<std::string, std::string> on;
+  for (auto& g : *gauges) on[g->GetFieldAsString("gauge_id")] = g->GetFieldAsString("reach_id");
+  EXPECT_EQ(on, (std::map<std::string, std::string>{{"G1-outlet", "R1"}, {"G2-below-dam", "R13"}, {"G3-upper", "R5"}}));
   std::ifstream page(dir / "report" / "index.html");
   const std::string html((std::istreambuf_iterator<char>(page)), std::istreambuf_iterator<char>());
   EXPECT_NE(html.find("<table id=\"lakes\">"), std::string::npos);
