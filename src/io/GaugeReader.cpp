@@ -25,34 +25,7 @@ bool isPointType(OGRwkbGeometryType t) {
   return flat == wkbPoint || flat == wkbMultiPoint;
 }
 
-OGRLayer* chooseGaugeLayer(GDALDataset& ds, const std::string& wanted, const InputLocation& where) {
-  std::string all, points;
-  std::vector<OGRLayer*> found;
-  for (OGRLayer* layer : ds.GetLayers()) {
-    all += (all.empty() ? "" : ", ") + std::string(layer->GetName());
-    if (isPointType(layer->GetGeomType())) {
-      found.push_back(layer);
-      points += (points.empty() ? "" : ", ") + std::string(layer->GetName());
-    }
-  }
-  if (!wanted.empty()) {
-    if (OGRLayer* layer = ds.GetLayerByName(wanted.c_str())) return layer;
-    throw InputError(where, fmt::format("no layer named {}; layers: {}", wanted, all.empty() ? "(none)" : all));
-  }
-  if (found.size() == 1) return found.front();
-  if (found.size() > 1)
-    throw InputError(where, fmt::format("several point layers ({}); choose one (gauges_layer)", points));
-  if (ds.GetLayerCount() == 1 && wkbFlatten(ds.GetLayer(0)->GetGeomType()) == wkbUnknown) return ds.GetLayer(0);
-  throw InputError(where, fmt::format("no point layer; layers: {}", all.empty() ? "(none)" : all));
-}
-
-std::string textField(OGRFeature& f, const char* name) {
-  const int i = f.GetFieldIndex(name);
-  if (i < 0 || !f.IsFieldSetAndNotNull(i)) return {};
-  std::string v = f.GetFieldAsString(i);
-  const auto b = v.find_first_not_of(" \t"), e = v.find_last_not_of(" \t");
-  return b == std::string::npos ? std::string() : v.substr(b, e - b + 1);
-}
+std::string textField(OGRFeature& f, const char* name) { return trimmedText(f, name).value_or(""); }
 
 /// Local metres about a gauge: planar CRS units scaled, or longitude and
 /// latitude on a local equirectangular grid (for finding the nearest line;
@@ -116,7 +89,7 @@ GaugeTable readGauges(const std::string& source, const GaugeReadOptions& options
   CPLErrorReset();
   GDALDatasetUniquePtr ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
   if (!ds) throwWithGdalMessage(where, "cannot open the gauges as vector data");
-  OGRLayer* layer = chooseGaugeLayer(*ds, options.layer, where);
+  OGRLayer* layer = chooseLayer(*ds, options.layer, where, isPointType, "point", "gauges_layer");
   where.layer = layer->GetName();
   GaugeTable table;
   table.source = source;

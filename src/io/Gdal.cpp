@@ -41,6 +41,36 @@ void addLayerField(const std::string& path, OGRLayer& layer, const char* name, O
   if (layer.CreateField(&defn) != OGRERR_NONE) throwWithGdalMessage(path, std::string("cannot add field ") + name);
 }
 
+OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const InputLocation& where,
+                      bool (*fits)(OGRwkbGeometryType), const std::string& kind, const std::string& config_key) {
+  std::string all, matching;
+  std::vector<OGRLayer*> found;
+  for (OGRLayer* layer : ds.GetLayers()) {
+    all += (all.empty() ? "" : ", ") + std::string(layer->GetName());
+    if (fits(layer->GetGeomType())) {
+      found.push_back(layer);
+      matching += (matching.empty() ? "" : ", ") + std::string(layer->GetName());
+    }
+  }
+  if (!wanted.empty()) {
+    if (OGRLayer* layer = ds.GetLayerByName(wanted.c_str())) return layer;
+    throw InputError(where, fmt::format("no layer named {}; layers: {}", wanted, all.empty() ? "(none)" : all));
+  }
+  if (found.size() == 1) return found.front();
+  if (found.size() > 1)
+    throw InputError(where, fmt::format("several {} layers ({}); choose one ({})", kind, matching, config_key));
+  if (ds.GetLayerCount() == 1 && wkbFlatten(ds.GetLayer(0)->GetGeomType()) == wkbUnknown) return ds.GetLayer(0);
+  throw InputError(where, fmt::format("no {} layer; layers: {}", kind, all.empty() ? "(none)" : all));
+}
+
+std::optional<std::string> trimmedText(OGRFeature& f, const char* name) {
+  const int i = f.GetFieldIndex(name);
+  if (i < 0 || !f.IsFieldSetAndNotNull(i)) return std::nullopt;
+  const std::string v = f.GetFieldAsString(i);
+  const auto b = v.find_first_not_of(" \t"), e = v.find_last_not_of(" \t");
+  return b == std::string::npos ? std::string() : v.substr(b, e - b + 1);
+}
+
 const OGRSpatialReference* layerCrsMatching(OGRLayer& layer, const std::string& network_crs_wkt,
                                             const InputLocation& where, const std::string& what) {
   const OGRSpatialReference* srs = layer.GetSpatialRef();

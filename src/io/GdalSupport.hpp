@@ -4,6 +4,7 @@
 #include <ogrsf_frmts.h>
 
 #include <memory>
+#include <optional>
 #include <string>
 
 #include "reachwise/Error.hpp"
@@ -34,6 +35,17 @@ std::unique_ptr<OGRSpatialReference> spatialReferenceFromWkt(const std::string& 
 /// do not count as a difference.
 const OGRSpatialReference* layerCrsMatching(OGRLayer& layer, const std::string& network_crs_wkt,
                                             const InputLocation& where, const std::string& what);
+
+/// The layer to read from `ds`: `wanted` when given (else an InputError at
+/// `where` listing the layers), else the only layer whose geometry type
+/// `fits` (several: an InputError naming them and the `config_key` to
+/// choose with; a lone layer of unknown type is taken). `kind` names the
+/// geometry in messages ("polygon", "point").
+OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const InputLocation& where,
+                      bool (*fits)(OGRwkbGeometryType), const std::string& kind, const std::string& config_key);
+
+/// A text field of `f`, blanks trimmed; unset when the field is absent or null.
+std::optional<std::string> trimmedText(OGRFeature& f, const char* name);
 
 /// Adds a field to `layer`; throws InputError naming `path` when GDAL refuses.
 void addLayerField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,

@@ -40,27 +40,6 @@ bool isPolygonType(OGRwkbGeometryType t) {
   }
 }
 
-OGRLayer* chooseLakeLayer(GDALDataset& ds, const std::string& wanted, const InputLocation& where) {
-  std::string all, polygons;
-  std::vector<OGRLayer*> found;
-  for (OGRLayer* layer : ds.GetLayers()) {
-    all += (all.empty() ? "" : ", ") + std::string(layer->GetName());
-    if (isPolygonType(layer->GetGeomType())) {
-      found.push_back(layer);
-      polygons += (polygons.empty() ? "" : ", ") + std::string(layer->GetName());
-    }
-  }
-  if (!wanted.empty()) {
-    if (OGRLayer* layer = ds.GetLayerByName(wanted.c_str())) return layer;
-    throw InputError(where, fmt::format("no layer named {}; layers: {}", wanted, all.empty() ? "(none)" : all));
-  }
-  if (found.size() == 1) return found.front();
-  if (found.size() > 1)
-    throw InputError(where, fmt::format("several polygon layers ({}); choose one (lakes_layer)", polygons));
-  if (ds.GetLayerCount() == 1 && wkbFlatten(ds.GetLayer(0)->GetGeomType()) == wkbUnknown) return ds.GetLayer(0);
-  throw InputError(where, fmt::format("no polygon layer; layers: {}", all.empty() ? "(none)" : all));
-}
-
 /// A number field of the feature: unset when the field is absent or null.
 /// Text that is not a number is an InputError at `where` (field set).
 std::optional<double> number(OGRFeature& f, const char* name, InputLocation where) {
@@ -82,14 +61,7 @@ std::optional<double> number(OGRFeature& f, const char* name, InputLocation wher
   return v;
 }
 
-std::optional<std::string> text(OGRFeature& f, const char* name) {
-  const int i = f.GetFieldIndex(name);
-  if (i < 0 || !f.IsFieldSetAndNotNull(i)) return std::nullopt;
-  std::string v = f.GetFieldAsString(i);
-  const auto b = v.find_first_not_of(" \t"), e = v.find_last_not_of(" \t");
-  if (b == std::string::npos) return std::string();
-  return v.substr(b, e - b + 1);
-}
+std::optional<std::string> text(OGRFeature& f, const char* name) { return trimmedText(f, name); }
 
 void addRing(const OGRLinearRing& ring, std::vector<std::vector<Point2>>& rings) {
   std::vector<Point2> pts;
@@ -248,7 +220,7 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
   CPLErrorReset();
   GDALDatasetUniquePtr ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
   if (!ds) throwWithGdalMessage(where, "cannot open the lakes as vector data");
-  OGRLayer* layer = chooseLakeLayer(*ds, options.layer, where);
+  OGRLayer* layer = chooseLayer(*ds, options.layer, where, isPolygonType, "polygon", "lakes_layer");
   where.layer = layer->GetName();
 
   LakeTable table;
