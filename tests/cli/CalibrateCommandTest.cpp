@@ -16,6 +16,7 @@
 
 #include "reachwise/io/Gdal.hpp"
 #include "support/Cli.hpp"
+#include "support/Observed.hpp"
 #include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
@@ -43,25 +44,10 @@ std::map<std::string, double> fieldById(GDALDataset& ds, const char* layer, cons
 TEST(CalibrateCommand, WritesARoutableCalibratedNetwork) {
   testsupport::TempDir dir;
   // Observations: the run's own outflow at R13 and R1, times 1.15 at R13.
-  const auto first = testsupport::runReachwise("route " + kSample + "network.gpkg" + kForcing + " --out " +
-                                               (dir.path() / "a.gpkg").string() + " --csv " +
-                                               (dir.path() / "csv").string() + " --hydrographs R13,R1 --quiet");
+  const auto first = testsupport::routeSampleHydrographs(dir.path(), "R13,R1");
   ASSERT_EQ(first.code, 0) << first.err;
-  {
-    std::ifstream in(dir.path() / "csv" / "hydrographs.csv");
-    std::ofstream obs(dir.path() / "obs.csv");
-    obs << "reach_id,time,discharge\n";
-    std::string line;
-    std::getline(in, line);
-    while (std::getline(in, line)) {
-      std::stringstream row(line);
-      std::string id, time, q;
-      std::getline(row, id, ',');
-      std::getline(row, time, ',');
-      std::getline(row, q, ',');
-      obs << id << "," << time << "," << std::stod(q) * (id == "R13" ? 1.15 : 1.0) << "\n";
-    }
-  }
+  testsupport::writeObserved(dir.path() / "csv" / "hydrographs.csv", dir.path() / "obs.csv",
+                             [](const std::string& id) { return id == "R13" ? 1.15 : 1.0; });
   const fs::path cal = dir.path() / "cal.gpkg";
   const std::string args = "calibrate " + kSample + "network.gpkg" + kForcing + " --observed " +
                            (dir.path() / "obs.csv").string() + " --out " + cal.string() + " --max-evaluations 30";
@@ -113,25 +99,10 @@ TEST(CalibrateCommand, WritesARoutableCalibratedNetwork) {
 
 TEST(CalibrateCommand, TakesItsSettingsFromTheRunFileAndFlagsWin) {
   testsupport::TempDir dir;
-  const auto first = testsupport::runReachwise("route " + kSample + "network.gpkg" + kForcing + " --out " +
-                                               (dir.path() / "a.gpkg").string() + " --csv " +
-                                               (dir.path() / "csv").string() + " --hydrographs R13 --quiet");
+  const auto first = testsupport::routeSampleHydrographs(dir.path(), "R13");
   ASSERT_EQ(first.code, 0) << first.err;
-  {
-    std::ifstream in(dir.path() / "csv" / "hydrographs.csv");
-    std::ofstream obs(dir.path() / "obs.csv");
-    obs << "reach_id,time,discharge\n";
-    std::string line;
-    std::getline(in, line);
-    while (std::getline(in, line)) {
-      std::stringstream row(line);
-      std::string id, time, q;
-      std::getline(row, id, ',');
-      std::getline(row, time, ',');
-      std::getline(row, q, ',');
-      obs << id << "," << time << "," << std::stod(q) * 1.1 << "\n";
-    }
-  }
+  testsupport::writeObserved(dir.path() / "csv" / "hydrographs.csv", dir.path() / "obs.csv",
+                             [](const std::string&) { return 1.1; });
   const fs::path toml = dir.path() / "run.toml";
   std::ofstream(toml) << "[calibrate]\nparameter = \"width\"\nobjective = \"nse\"\nlower = 0.8\nupper = 1.25\n"
                          "max_evaluations = 8\nmin_observations = 5\n";

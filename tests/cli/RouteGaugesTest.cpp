@@ -15,6 +15,7 @@
 
 #include "reachwise/io/Gdal.hpp"
 #include "support/Cli.hpp"
+#include "support/Observed.hpp"
 #include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
@@ -24,36 +25,17 @@ namespace {
 const std::string kSample = REACHWISE_SOURCE_DIR "/sample-network/";
 const std::string kForcing = " --inflow " + kSample + "inflow.csv --lateral " + kSample + "lateral.csv";
 
-/// hydrographs.csv (reach_id,time,q,...) as long-form observations × 1.25,
-/// every seventh value NA; keyed by `key` in place of the reach id when given.
+/// hydrographs.csv as observations × 1.25, every seventh value NA, keyed by
+/// `key` in place of the reach id when given.
 std::size_t writeObserved(const fs::path& hydrographs, const fs::path& out, const std::string& key = {}) {
-  std::ifstream in(hydrographs);
-  std::ofstream obs(out);
-  obs << "reach_id,time,discharge\n";
-  std::string line;
-  std::getline(in, line);
-  std::size_t n = 0, present = 0;
-  while (std::getline(in, line)) {
-    std::stringstream row(line);
-    std::string id, time, q;
-    std::getline(row, id, ',');
-    std::getline(row, time, ',');
-    std::getline(row, q, ',');
-    const bool missing = n++ % 7 == 3;
-    present += !missing;
-    obs << (key.empty() ? id : key) << "," << time << "," << (missing ? std::string("NA") : std::to_string(std::stod(q) * 1.25))
-        << "\n";
-  }
-  return present;
+  return testsupport::writeObserved(hydrographs, out, [](const std::string&) { return 1.25; }, 7, key);
 }
 
 }  // namespace
 
 TEST(RouteGauges, ScoresFollowFromTheDefinitions) {
   testsupport::TempDir dir;
-  const auto first = testsupport::runReachwise("route " + kSample + "network.gpkg" + kForcing + " --out " +
-                                               (dir.path() / "a.gpkg").string() + " --csv " +
-                                               (dir.path() / "csv").string() + " --hydrographs R13 --quiet");
+  const auto first = testsupport::routeSampleHydrographs(dir.path(), "R13");
   ASSERT_EQ(first.code, 0) << first.err;
   const std::size_t present = writeObserved(dir.path() / "csv" / "hydrographs.csv", dir.path() / "obs.csv");
   const std::string gpkg = (dir.path() / "b.gpkg").string();
@@ -96,9 +78,7 @@ TEST(RouteGauges, ScoresFollowFromTheDefinitions) {
 
 TEST(RouteGauges, AGaugeLayerIsSnappedAndUnknownIdsAreRefused) {
   testsupport::TempDir dir;
-  const auto first = testsupport::runReachwise("route " + kSample + "network.gpkg" + kForcing + " --out " +
-                                               (dir.path() / "a.gpkg").string() + " --csv " +
-                                               (dir.path() / "csv").string() + " --hydrographs R13 --quiet");
+  const auto first = testsupport::routeSampleHydrographs(dir.path(), "R13");
   ASSERT_EQ(first.code, 0) << first.err;
   writeObserved(dir.path() / "csv" / "hydrographs.csv", dir.path() / "obs.csv", "Weir-A");
 
