@@ -11,6 +11,7 @@
 #include <memory>
 
 #include "Common.hpp"
+#include "Progress.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/CalibrateConfig.hpp"
 #include "reachwise/io/OutputFiles.hpp"
@@ -129,7 +130,10 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
                   "objective {}, at most {} routings each)\n",
              what(o.parameter), o.parameter, o.lower, o.upper, o.objective,
              o.max_evaluations);
+  ProgressBar bar("calibrating", true);
+  request.on_routing = [&bar](std::size_t done, std::size_t most) { bar.update(done, most); };
   request.on_sub_basin = [&](const run::SubBasinResult& sb) {
+    bar.finish();
     fmt::print(out, "  gauge {} on {}: {} reaches, multiplier {:.3f}{}{}; {} {:.3f} -> {:.3f} (NSE {:.3f} -> {:.3f}), "
                     "{} routings\n",
                sb.gauge_id, sb.reach_id, sb.reaches.size(), sb.multiplier,
@@ -141,7 +145,9 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   run::CalibrationResult result;
   try {
     result = run::calibrate(request);
+    bar.finish();
   } catch (const run::NetworkHasErrors& e) {
+    bar.finish();
     for (const auto& p : e.problems())
       if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p));
     fmt::print(err, "calibrate refused: the network has errors (run `reachwise check` for details)\n");

@@ -104,7 +104,13 @@ public:
   const OutflowCapture& route() {
     (void)routing::routeNetwork(plan_, forcing_.axis(), forcing_.provider(), options_, &capture_);
     ++routings_;
+    if (on_routing_) on_routing_(routings_, most_);
     return capture_;
+  }
+  /// Reports each routing to `tell` against `most` routings in all.
+  void report(std::function<void(std::size_t, std::size_t)> tell, std::size_t most) {
+    on_routing_ = std::move(tell);
+    most_ = most;
   }
   std::size_t routings() const { return routings_; }
 
@@ -113,7 +119,8 @@ private:
   const RunForcing& forcing_;
   routing::NetworkRouteOptions options_;
   OutflowCapture capture_;
-  std::size_t routings_ = 0;
+  std::size_t routings_ = 0, most_ = 0;
+  std::function<void(std::size_t, std::size_t)> on_routing_;
 };
 
 }  // namespace
@@ -188,6 +195,8 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
     }
   };
   Router router(request, net, plan, forcing, all_reaches);
+  // Per sub-basin: the search budget, the start and the final routing; then one for all gauges.
+  router.report(request.on_routing, used.size() * (settings.max_evaluations + 2) + 1);
 
   // Upstream first: plan order of the gauges' reaches.
   std::vector<std::size_t> order(used.size());

@@ -95,7 +95,15 @@ TEST(Calibrate, TwinExperimentRecoversKnownRoughnessMultipliers) {
   }
 
   auto request = sampleRequest(observed);
+  std::size_t told = 0, most = 0;
+  request.on_routing = [&](std::size_t done, std::size_t of) {
+    EXPECT_EQ(done, told + 1);  // every routing, in order
+    told = done;
+    most = of;
+  };
   const run::CalibrationResult result = run::calibrate(request);
+  EXPECT_EQ(told, result.evaluations);
+  EXPECT_LE(told, most);  // the progress never passes its end
   ASSERT_EQ(result.sub_basins.size(), 2u);
   const auto& up = result.sub_basins[0];
   const auto& down = result.sub_basins[1];

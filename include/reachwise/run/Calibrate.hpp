@@ -61,6 +61,9 @@ struct CalibrateRequest {
   CalibrationSettings settings;
   /// Told of each sub-basin when done (upstream first); may be empty.
   std::function<void(const struct SubBasinResult&)> on_sub_basin;
+  /// Told after every routing: routings so far and the most the run may
+  /// take (sub-basins × (max_evaluations + 2) + 1); may be empty.
+  std::function<void(std::size_t done, std::size_t most)> on_routing;
 };
 
 struct SubBasinResult {
