@@ -96,25 +96,13 @@ GaugeTable readGauges(const std::string& source, const GaugeReadOptions& options
   table.layer = layer->GetName();
 
   const OGRSpatialReference* srs = layerCrsMatching(*layer, options.network_crs_wkt, where, "the gauges");
-  if (!srs) {
-    if (!options.length_unit_m)
-      throw InputError(where, "the gauges layer has no coordinate reference system; set network.length_unit");
-    table.metres_per_unit = *options.length_unit_m;
-  } else if (!srs->IsGeographic()) {
-    table.metres_per_unit = srs->GetLinearUnits(nullptr);
-  } else {
-    table.geographic = true;
-    table.metres_per_unit = kMetresPerDegree;
-    OGRErr err = OGRERR_NONE;
-    table.semi_major_m = srs->GetSemiMajor(&err);
-    const double inv_f = srs->GetInvFlattening(&err);
-    table.flattening = inv_f > 0 ? 1.0 / inv_f : 0.0;
-    table.degrees_per_unit = srs->GetAngularUnits(nullptr) * 180.0 / M_PI;
-    const auto& mapping = srs->GetDataAxisToSRSAxisMapping();
-    OGRAxisOrientation orient = OAO_East;
-    srs->GetAxis(nullptr, (mapping.empty() ? 1 : std::abs(mapping.front())) - 1, &orient);
-    table.lat_first = orient == OAO_North || orient == OAO_South;
-  }
+  const LayerMetric metric = layerMetric(srs, options.length_unit_m, where, "the gauges layer");
+  table.geographic = metric.geographic;
+  table.metres_per_unit = metric.metres_per_unit;
+  table.semi_major_m = metric.semi_major_m;
+  table.flattening = metric.flattening;
+  table.degrees_per_unit = metric.degrees_per_unit;
+  table.lat_first = metric.lat_first;
   if (layer->GetLayerDefn()->GetFieldIndex("gauge_id") < 0) {
     where.field = "gauge_id";
     throw InputError(where, "the gauges layer has no gauge_id field");

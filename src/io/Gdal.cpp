@@ -8,6 +8,7 @@
 #include <ogr_api.h>
 #include <ogr_spatialref.h>
 
+#include <cmath>
 #include <mutex>
 
 namespace reachwise::io {
@@ -61,6 +62,31 @@ OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const InputLoc
     throw InputError(where, fmt::format("several {} layers ({}); choose one ({})", kind, matching, config_key));
   if (ds.GetLayerCount() == 1 && wkbFlatten(ds.GetLayer(0)->GetGeomType()) == wkbUnknown) return ds.GetLayer(0);
   throw InputError(where, fmt::format("no {} layer; layers: {}", kind, all.empty() ? "(none)" : all));
+}
+
+LayerMetric layerMetric(const OGRSpatialReference* srs, std::optional<double> length_unit_m,
+                        const InputLocation& where, const std::string& what) {
+  LayerMetric m;
+  if (!srs) {
+    if (!length_unit_m)
+      throw InputError(where, what + " has no coordinate reference system; set network.length_unit");
+    m.metres_per_unit = *length_unit_m;
+  } else if (!srs->IsGeographic()) {
+    m.metres_per_unit = srs->GetLinearUnits(nullptr);
+  } else {
+    m.geographic = true;
+    m.metres_per_unit = 111320.0;
+    OGRErr err = OGRERR_NONE;
+    m.semi_major_m = srs->GetSemiMajor(&err);
+    const double inv_f = srs->GetInvFlattening(&err);
+    m.flattening = inv_f > 0 ? 1.0 / inv_f : 0.0;
+    m.degrees_per_unit = srs->GetAngularUnits(nullptr) * 180.0 / M_PI;
+    const auto& mapping = srs->GetDataAxisToSRSAxisMapping();
+    OGRAxisOrientation orient = OAO_East;
+    srs->GetAxis(nullptr, (mapping.empty() ? 1 : std::abs(mapping.front())) - 1, &orient);
+    m.lat_first = orient == OAO_North || orient == OAO_South;
+  }
+  return m;
 }
 
 std::optional<std::string> trimmedText(OGRFeature& f, const char* name) {

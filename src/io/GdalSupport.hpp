@@ -47,6 +47,23 @@ OGRLayer* chooseLayer(GDALDataset& ds, const std::string& wanted, const InputLoc
 /// A text field of `f`, blanks trimmed; unset when the field is absent or null.
 std::optional<std::string> trimmedText(OGRFeature& f, const char* name);
 
+/// How a layer's CRS units become metres: planar (`metres_per_unit`), or on
+/// the ellipsoid (semi-major axis, flattening, degrees per unit, latitude
+/// first) for a geographic CRS, where `metres_per_unit` is a nominal
+/// 111 320 m per degree (for tolerances; LineLength::metresPerUnit).
+struct LayerMetric {
+  bool geographic = false;
+  double metres_per_unit = 1.0;
+  double semi_major_m = 0, flattening = 0, degrees_per_unit = 1;
+  bool lat_first = false;
+};
+
+/// The metric of `srs` (layerCrsMatching); without a CRS, `length_unit_m`
+/// (network.length_unit), else an InputError at `where` naming `what`
+/// ("the lakes layer").
+LayerMetric layerMetric(const OGRSpatialReference* srs, std::optional<double> length_unit_m,
+                        const InputLocation& where, const std::string& what);
+
 /// Adds a field to `layer`; throws InputError naming `path` when GDAL refuses.
 void addLayerField(const std::string& path, OGRLayer& layer, const char* name, OGRFieldType type,
                    OGRFieldSubType subtype = OFSTNone);

@@ -229,28 +229,12 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
 
   // The CRS: the network's, and the unit of areas.
   const OGRSpatialReference* srs = layerCrsMatching(*layer, options.network_crs_wkt, where, "the lakes");
-  bool geographic = false;
-  double deg = 1;
-  bool lat_first = false;
+  const LayerMetric metric = layerMetric(srs, options.length_unit_m, where, "the lakes layer");
+  table.metres_per_unit = metric.metres_per_unit;
+  const bool geographic = metric.geographic, lat_first = metric.lat_first;
+  const double deg = metric.degrees_per_unit;
   std::unique_ptr<GeographicLib::Geodesic> geod;
-  if (!srs) {
-    if (!options.length_unit_m)
-      throw InputError(where, "the lakes layer has no coordinate reference system; set network.length_unit");
-    table.metres_per_unit = *options.length_unit_m;
-  } else if (!srs->IsGeographic()) {
-    table.metres_per_unit = srs->GetLinearUnits(nullptr);
-  } else {
-    geographic = true;
-    table.metres_per_unit = 111320.0;  // nominal, for tolerances (LineLength::metresPerUnit)
-    OGRErr err = OGRERR_NONE;
-    const double a = srs->GetSemiMajor(&err), inv_f = srs->GetInvFlattening(&err);
-    deg = srs->GetAngularUnits(nullptr) * 180.0 / M_PI;
-    const auto& mapping = srs->GetDataAxisToSRSAxisMapping();
-    OGRAxisOrientation orient = OAO_East;
-    srs->GetAxis(nullptr, (mapping.empty() ? 1 : std::abs(mapping.front())) - 1, &orient);
-    lat_first = orient == OAO_North || orient == OAO_South;
-    geod = std::make_unique<GeographicLib::Geodesic>(a, inv_f > 0 ? 1.0 / inv_f : 0.0);
-  }
+  if (geographic) geod = std::make_unique<GeographicLib::Geodesic>(metric.semi_major_m, metric.flattening);
   // Source field of each attribute ([network.lake_fields]) and its default.
   std::map<std::string, FieldSpec, std::less<>> fields;
   for (auto name : kLakeFieldNames) {
