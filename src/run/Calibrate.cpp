@@ -6,10 +6,15 @@
 #include <algorithm>
 #include <cmath>
 #include <map>
+#include <mutex>
+
+#include <tbb/parallel_for_each.h>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/io/CalibratedWriter.hpp"
+#include "reachwise/network/PlanPart.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
+#include "reachwise/routing/PartForcing.hpp"
 #include "reachwise/run/Route.hpp"
 
 namespace reachwise::run {
@@ -92,36 +97,58 @@ void checkSettings(const CalibrationSettings& s) {
     throw InvalidParameter("calibrate.tolerance", fmt::format("must lie in (0, 1), got {}", s.tolerance));
 }
 
-/// Routes the plan as it stands and keeps the gauges' outflow.
-class Router {
+/// Counts the routings of a calibration, from any thread, and tells the
+/// caller after each one (one call at a time).
+class RoutingCount {
 public:
-  Router(const CalibrateRequest& request, const LoadedNetwork& net, network::NetworkPlan& plan,
-         const RunForcing& forcing, const std::vector<std::uint32_t>& gauge_reaches)
-      : plan_(plan),
-        forcing_(forcing),
-        options_(networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads)),
-        capture_(plan.size(), gauge_reaches) {}
-  const OutflowCapture& route() {
-    (void)routing::routeNetwork(plan_, forcing_.axis(), forcing_.provider(), options_, &capture_);
-    ++routings_;
-    if (on_routing_) on_routing_(routings_, most_);
-    return capture_;
+  RoutingCount(std::function<void(std::size_t, std::size_t)> tell, std::size_t most)
+      : tell_(std::move(tell)), most_(most) {}
+  void add() {
+    std::lock_guard lock(mutex_);
+    ++done_;
+    if (tell_) tell_(done_, most_);
   }
-  /// Reports each routing to `tell` against `most` routings in all.
-  void report(std::function<void(std::size_t, std::size_t)> tell, std::size_t most) {
-    on_routing_ = std::move(tell);
-    most_ = most;
+  std::size_t done() const {
+    std::lock_guard lock(mutex_);
+    return done_;
   }
-  std::size_t routings() const { return routings_; }
+  /// Runs `f` one call at a time with the reports after each routing.
+  template <class F>
+  void serialised(F&& f) {
+    std::lock_guard lock(mutex_);
+    f();
+  }
 
 private:
-  network::NetworkPlan& plan_;
-  const RunForcing& forcing_;
-  routing::NetworkRouteOptions options_;
-  OutflowCapture capture_;
-  std::size_t routings_ = 0, most_ = 0;
-  std::function<void(std::size_t, std::size_t)> on_routing_;
+  std::function<void(std::size_t, std::size_t)> tell_;
+  std::size_t most_ = 0, done_ = 0;
+  mutable std::mutex mutex_;
 };
+
+/// The lakes of `whole` that `part` routes: those whose outflowing reaches
+/// all lie in it, renumbered. False when a lake has some of its outflowing
+/// reaches in the part and some outside (the part cannot route it alone).
+/// Terminal lakes take nothing a reach's outflow depends on; left out.
+bool partLakes(const std::vector<routing::NetworkLake>& whole, const network::PlanPart& part,
+               std::vector<routing::NetworkLake>& out) {
+  const auto local = [&](std::uint32_t r) -> long {
+    const auto it = std::lower_bound(part.whole.begin(), part.whole.end(), r);
+    return it != part.whole.end() && *it == r ? it - part.whole.begin() : -1;
+  };
+  for (const routing::NetworkLake& lake : whole) {
+    std::size_t inside = 0;
+    for (const auto o : lake.outflow_reaches) inside += local(o) >= 0;
+    if (inside == 0) continue;
+    if (inside < lake.outflow_reaches.size()) return false;
+    routing::NetworkLake l = lake;
+    for (auto& o : l.outflow_reaches) o = static_cast<std::uint32_t>(local(o));
+    l.inflow_reaches.clear();
+    for (const auto u : lake.inflow_reaches)
+      if (const long k = local(u); k >= 0) l.inflow_reaches.push_back(static_cast<std::uint32_t>(k));
+    out.push_back(std::move(l));
+  }
+  return true;
+}
 
 }  // namespace
 
@@ -171,61 +198,139 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
     throw InputError(at, fmt::format("no gauge has {} or more observations within the run; nothing to calibrate",
                                      settings.min_observations));
   }
-  const auto basins = subBasins(plan, used_reaches);
-
   const bool kx = settings.parameter == CalibrationParameter::MuskingumKX;
   if (kx && request.method != routing::Method::Muskingum)
     throw InvalidParameter("calibrate.parameter", "kx (Muskingum K and X) needs the muskingum method");
-  const std::vector<hydraulics::Section> base = plan.section;
-  const std::vector<double> base_k = plan.muskingum_k_s;
-  out.multiplier.assign(plan.size(), 1.0);
-  out.muskingum_x.assign(plan.size(), std::numeric_limits<double>::quiet_NaN());
-  // The parameters: y[0] = log(multiplier), so that a ratio up weighs the
-  // same as the ratio down; with kx also y[1] = X.
-  const auto apply = [&](const std::vector<std::uint32_t>& reaches, const std::vector<double>& y) {
-    const double m = std::exp(y[0]);
-    for (const auto r : reaches) {
-      if (kx) {
-        plan.muskingum_k_s[r] = base_k[r] * m;
-        plan.muskingum_x[r] = y[1];
-      } else {
-        plan.section[r] = settings.parameter == CalibrationParameter::Roughness ? base[r].withRoughnessScaled(m)
-                                                                              : base[r].withWidthScaled(m);
-      }
-    }
-  };
-  Router router(request, net, plan, forcing, all_reaches);
-  // Per sub-basin: the search budget, the start and the final routing; then one for all gauges.
-  router.report(request.on_routing, used.size() * (settings.max_evaluations + 2) + 1);
 
+  const auto basins = subBasins(plan, used_reaches);
   // Upstream first: plan order of the gauges' reaches.
   std::vector<std::size_t> order(used.size());
   for (std::size_t k = 0; k < order.size(); ++k) order[k] = k;
   std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return used_reaches[a] < used_reaches[b]; });
-  for (const std::size_t k : order) {
+
+  const routing::NetworkRouteOptions whole_options =
+      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
+  // Per sub-basin: the search budget, the start and the final routing;
+  // then the whole network before and after.
+  RoutingCount count(request.on_routing, used.size() * (settings.max_evaluations + 2) + 2);
+  const auto routeWhole = [&]() {
+    OutflowCapture capture(plan.size(), all_reaches);
+    (void)routing::routeNetwork(plan, out.axis, forcing.provider(), whole_options, &capture);
+    count.add();
+    return capture;
+  };
+  {
+    const OutflowCapture before = routeWhole();
+    out.scores_before = scoreGauges(gauges, before, out.axis);
+    for (const auto& g : gauges) out.outflow_before.push_back(before.outflow(g.reach));
+  }
+
+  // Which sub-basin holds each reach, and the reaches whose calibrated
+  // outflow a sub-basin below takes at its boundary.
+  std::vector<long> owner(plan.size(), -1);
+  for (std::size_t k = 0; k < basins.size(); ++k)
+    for (const auto r : basins[k]) owner[r] = static_cast<long>(k);
+  std::vector<std::vector<double>> fixed_outflow(plan.size());
+  std::vector<char> handed_on(plan.size(), 0);
+  std::vector<std::vector<std::size_t>> needs(basins.size());
+  std::vector<char> alone(basins.size(), 1);  // routed as a part of its own
+  for (std::size_t k = 0; k < basins.size(); ++k) {
+    const network::PlanPart part = network::planPart(plan, basins[k]);
+    std::vector<routing::NetworkLake> lakes;
+    bool ok = partLakes(whole_options.lakes, part, lakes);
+    for (const auto& b : part.boundary) {
+      const long o = owner[b.from];
+      if (o < 0) ok = false;  // not held by a gauge above: cannot be fixed
+      else needs[k].push_back(static_cast<std::size_t>(o)), handed_on[b.from] = 1;
+    }
+    if (!ok) {
+      // Routed with the whole network, after every sub-basin above it.
+      alone[k] = 0;
+      needs[k].clear();
+      for (const std::size_t j : order) {
+        if (j == k) break;
+        needs[k].push_back(j);
+      }
+    }
+  }
+
+  out.multiplier.assign(plan.size(), 1.0);
+  out.muskingum_x.assign(plan.size(), std::numeric_limits<double>::quiet_NaN());
+  out.sub_basins.resize(basins.size());
+  struct Fitted {
+    std::uint32_t reach;  // whole plan
+    hydraulics::Section section;
+    double muskingum_k_s, muskingum_x;
+  };
+  std::vector<std::vector<Fitted>> fitted(basins.size());
+
+  // Fits sub-basin k on its own part of the plan as it stands (every
+  // sub-basin it needs already calibrated and applied).
+  const auto fit = [&](std::size_t k) {
     const Gauge& gauge = gauges[used[k]];
-    SubBasinResult sb;
+    SubBasinResult& sb = out.sub_basins[k];
     sb.gauge_id = gauge.gauge_id;
     sb.reach_id = gauge.reach_id;
     sb.reaches = basins[k];
+    std::vector<std::uint32_t> everything;
+    if (!alone[k]) {
+      everything.resize(plan.size());
+      for (std::uint32_t r = 0; r < plan.size(); ++r) everything[r] = r;
+    }
+    network::PlanPart part = network::planPart(plan, alone[k] ? basins[k] : everything);
+    network::NetworkPlan& p = part.plan;
+    routing::NetworkRouteOptions options = whole_options;
+    options.lakes.clear();
+    (void)partLakes(whole_options.lakes, part, options.lakes);
+    options.base_flow_m3s = baseFlows(p);
+    const routing::PartForcing part_forcing(forcing.provider(), part,
+                                            [&](std::uint32_t from) -> const std::vector<double>& {
+                                              return fixed_outflow[from];
+                                            });
+    // The reaches the fit varies (part indices), the gauge's, and those
+    // whose outflow sub-basins below take.
+    std::vector<std::uint32_t> varied, kept;
+    std::uint32_t at_gauge = 0;
+    for (std::uint32_t r = 0; r < p.size(); ++r) {
+      const std::uint32_t w = part.whole[r];
+      if (owner[w] == static_cast<long>(k)) varied.push_back(r);
+      if (w == gauge.reach) at_gauge = r, kept.push_back(r);
+      else if (handed_on[w] && owner[w] == static_cast<long>(k)) kept.push_back(r);
+    }
+    const std::vector<hydraulics::Section> base = p.section;
+    const std::vector<double> base_k = p.muskingum_k_s;
+    // The parameters: y[0] = log(multiplier), so that a ratio up weighs the
+    // same as the ratio down; with kx also y[1] = X.
+    const auto apply = [&](const std::vector<double>& y) {
+      const double m = std::exp(y[0]);
+      for (const auto r : varied) {
+        if (kx) {
+          p.muskingum_k_s[r] = base_k[r] * m;
+          p.muskingum_x[r] = y[1];
+        } else {
+          p.section[r] = settings.parameter == CalibrationParameter::Roughness ? base[r].withRoughnessScaled(m)
+                                                                                : base[r].withWidthScaled(m);
+        }
+      }
+    };
+    OutflowCapture capture(p.size(), kept);
     const auto score = [&](const std::vector<double>& y) {
-      apply(sb.reaches, y);
-      const auto& capture = router.route();
+      apply(y);
+      (void)routing::routeNetwork(p, out.axis, part_forcing, options, &capture);
+      count.add();
       ++sb.evaluations;
-      return gauges::skill(gauge.observed, capture.outflow(gauge.reach), out.axis.dt_s);
+      return gauges::skill(gauge.observed, capture.outflow(at_gauge), out.axis.dt_s);
     };
     std::vector<double> lo{std::log(settings.lower)}, hi{std::log(settings.upper)}, start{0.0};
     if (kx) {
       // X between 0 and 0.5 (Muskingum's range); the start is the reaches' mean X.
       double x = 0;
-      for (const auto r : sb.reaches) x += plan.muskingum_x[r] / static_cast<double>(sb.reaches.size());
+      for (const auto r : varied) x += p.muskingum_x[r] / static_cast<double>(varied.size());
       lo.push_back(0.0);
       hi.push_back(0.5);
       start.push_back(std::isfinite(x) ? std::clamp(x, 0.0, 0.5) : 0.2);
-      sb.before = score(start);
-    } else {
-      sb.before = score(start);
     }
+    sb.before = score(start);
     for (std::size_t d = 0; d < start.size(); ++d) start[d] = std::clamp(start[d], lo[d], hi[d]);
 
     std::vector<double> best = start;
@@ -278,22 +383,52 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
     if (kx) sb.muskingum_x = best[1];
     for (std::size_t d = 0; d < dims; ++d)
       sb.at_bound = sb.at_bound || best[d] - lo[d] <= settings.tolerance || hi[d] - best[d] <= settings.tolerance;
-    sb.after = score(best);  // leaves the sub-basin at its result
-    for (const auto r : sb.reaches) {
-      out.multiplier[r] = sb.multiplier;
-      out.muskingum_x[r] = sb.muskingum_x;
+    sb.after = score(best);  // leaves the part at its result
+    for (const auto r : kept)
+      if (part.whole[r] != gauge.reach || handed_on[gauge.reach]) fixed_outflow[part.whole[r]] = capture.outflow(r);
+    // For the whole plan once every fit running beside this one is done.
+    for (const auto r : varied) fitted[k].push_back({part.whole[r], p.section[r], p.muskingum_k_s[r], p.muskingum_x[r]});
+    if (request.on_sub_basin) count.serialised([&] { request.on_sub_basin(sb); });
+  };
+
+  // Sub-basins whose needs are met are fitted side by side (each routes
+  // its own part; the routing inside uses the threads as well).
+  std::vector<char> done(basins.size(), 0);
+  for (std::size_t n_done = 0; n_done < basins.size();) {
+    std::vector<std::size_t> ready;
+    for (const std::size_t k : order)
+      if (!done[k] && std::all_of(needs[k].begin(), needs[k].end(), [&](std::size_t j) { return done[j] != 0; }))
+        ready.push_back(k);
+    REACHWISE_ASSERT(!ready.empty());
+    tbb::parallel_for_each(ready.begin(), ready.end(), fit);
+    for (const std::size_t k : ready) {
+      done[k] = 1;
+      const SubBasinResult& sb = out.sub_basins[k];
+      for (const Fitted& f : fitted[k]) {
+        plan.section[f.reach] = f.section;
+        plan.muskingum_k_s[f.reach] = f.muskingum_k_s;
+        plan.muskingum_x[f.reach] = f.muskingum_x;
+        out.multiplier[f.reach] = sb.multiplier;
+        out.muskingum_x[f.reach] = sb.muskingum_x;
+      }
     }
-    if (request.on_sub_basin) request.on_sub_basin(sb);
-    out.sub_basins.push_back(std::move(sb));
+    n_done += ready.size();
   }
+  // Upstream first, as the gauges lie in the plan.
+  std::vector<SubBasinResult> ordered;
+  for (const std::size_t k : order) ordered.push_back(std::move(out.sub_basins[k]));
+  out.sub_basins = std::move(ordered);
+
   std::vector<char> calibrated(plan.size(), 0);
   for (const auto& sb : out.sub_basins)
     for (const auto r : sb.reaches) calibrated[r] = 1;
   out.uncalibrated_reaches = static_cast<std::size_t>(std::count(calibrated.begin(), calibrated.end(), 0));
 
   // Every gauge on the calibrated network.
-  out.scores = scoreGauges(gauges, router.route(), out.axis);
-  out.evaluations = router.routings();
+  const OutflowCapture after = routeWhole();
+  out.scores = scoreGauges(gauges, after, out.axis);
+  for (const auto& g : gauges) out.outflow_after.push_back(after.outflow(g.reach));
+  out.evaluations = count.done();
   return out;
 }
 

@@ -206,3 +206,42 @@ TEST(Calibrate, FitsMuskingumKAndXOnOneReach) {
   request.method = routing::Method::VariableParameter;
   EXPECT_THROW((void)run::calibrate(request), InvalidParameter);
 }
+
+// Sub-basins routed alone, side by side: the demo's three gauges (two on
+// separate branches, one at the outlet below both). Checked against the
+// whole network routed at the end with the calibrated values: each
+// sub-basin's last fit score is what the whole network gives at its gauge
+// (to round-off: the boundary sums are taken in another order), and the
+// result does not depend on the number of threads.
+TEST(Calibrate, SubBasinsRoutedAloneAgreeWithTheWholeNetwork) {
+  auto request = sampleRequest(kSample + "observed.csv");
+  request.gauges.gauges = kSample + "gauges.gpkg";
+  request.network.lakes = kSample + "lakes.gpkg";
+  request.settings.max_evaluations = 20;
+  const run::CalibrationResult one = run::calibrate(request);
+  request.threads = 2;
+  const run::CalibrationResult two = run::calibrate(request);
+  ASSERT_EQ(one.sub_basins.size(), 3u);
+  ASSERT_EQ(two.sub_basins.size(), 3u);
+  for (std::size_t k = 0; k < 3; ++k) {
+    EXPECT_EQ(one.sub_basins[k].gauge_id, two.sub_basins[k].gauge_id);
+    EXPECT_EQ(one.sub_basins[k].multiplier, two.sub_basins[k].multiplier) << one.sub_basins[k].gauge_id;
+    EXPECT_EQ(one.sub_basins[k].after.kge, two.sub_basins[k].after.kge) << one.sub_basins[k].gauge_id;
+  }
+  EXPECT_EQ(one.evaluations, two.evaluations);
+  const auto& gauges = one.gauges.gauges;
+  for (const auto& sb : one.sub_basins) {
+    const auto g = static_cast<std::size_t>(
+        std::find_if(gauges.begin(), gauges.end(), [&](const run::Gauge& x) { return x.gauge_id == sb.gauge_id; }) -
+        gauges.begin());
+    ASSERT_LT(g, gauges.size());
+    EXPECT_NEAR(sb.after.kge, one.scores[g].kge, 1e-12) << sb.gauge_id;
+    EXPECT_NEAR(sb.after.nse, one.scores[g].nse, 1e-12) << sb.gauge_id;
+    // Before: the whole network with no multiplier at all, kept for the report.
+    ASSERT_EQ(one.outflow_before[g].size(), one.axis.steps);
+    ASSERT_EQ(one.outflow_after[g].size(), one.axis.steps);
+    // The search starts from multiplier 1 and keeps its best point.
+    EXPECT_GE(sb.after.kge, sb.before.kge) << sb.gauge_id;
+    EXPECT_TRUE(std::isfinite(one.scores_before[g].kge)) << sb.gauge_id;
+  }
+}

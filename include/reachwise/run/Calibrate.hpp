@@ -10,6 +10,14 @@
 /// no gauge above it already holds, and its multiplier is chosen with the
 /// multipliers above it fixed at their calibrated values. Reaches below
 /// every gauge keep their roughness (multiplier 1).
+///
+/// Each evaluation routes the sub-basin alone (network::PlanPart), with
+/// the calibrated outflow of the sub-basins above handed in at its
+/// boundary; sub-basins that do not depend on each other are fitted at
+/// the same time. A sub-basin that cannot be cut out on its own (a lake
+/// with outflowing reaches both inside and outside it) is routed with the
+/// whole network after every sub-basin above it. The result does not
+/// depend on the number of threads.
 
 #include <cstddef>
 #include <functional>
@@ -59,10 +67,13 @@ struct CalibrateRequest {
   double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;
   CalibrationSettings settings;
-  /// Told of each sub-basin when done (upstream first); may be empty.
+  /// Told of each sub-basin when done (one call at a time, from any
+  /// thread; sub-basins fitted side by side in the order they finish);
+  /// may be empty.
   std::function<void(const struct SubBasinResult&)> on_sub_basin;
-  /// Told after every routing: routings so far and the most the run may
-  /// take (sub-basins × (max_evaluations + 2) + 1); may be empty.
+  /// Told after every routing (one call at a time, from any thread):
+  /// routings so far and the most the run may take (sub-basins ×
+  /// (max_evaluations + 2) + 2); may be empty.
   std::function<void(std::size_t done, std::size_t most)> on_routing;
 };
 
@@ -85,6 +96,10 @@ struct CalibrationResult {
   std::vector<double> multiplier;           ///< per plan reach; 1 where not calibrated
   std::vector<double> muskingum_x;          ///< per plan reach, the fitted X; NaN where not fitted
   std::vector<gauges::SkillScores> scores;  ///< every gauge, routed with every multiplier
+  std::vector<gauges::SkillScores> scores_before;  ///< every gauge, routed before calibration
+  /// Every gauge's simulated outflow (m^3/s, on `axis`), before and after
+  /// calibration, in the order of `gauges.gauges`.
+  std::vector<std::vector<double>> outflow_before, outflow_after;
   std::vector<std::string> left_out;        ///< gauges not calibrated, with the reason
   std::size_t uncalibrated_reaches = 0;     ///< reaches below every calibrated gauge
   std::size_t evaluations = 0;
