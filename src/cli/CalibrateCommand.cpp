@@ -15,6 +15,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/CalibrateConfig.hpp"
 #include "reachwise/io/OutputFiles.hpp"
+#include "reachwise/report/Report.hpp"
 #include "reachwise/run/Calibrate.hpp"
 #include "reachwise/run/Route.hpp"
 
@@ -25,7 +26,7 @@ namespace {
 namespace fs = std::filesystem;
 
 struct CalibrateOptions {
-  std::string network, layer, config, inflow, lateral, observed, gauges, gauges_layer, lakes, lakes_layer, out;
+  std::string network, layer, config, inflow, lateral, observed, gauges, gauges_layer, lakes, lakes_layer, out, report;
   std::string method = "vpmc", parameter = "n", objective = "kge";
   double gauge_snap_m = 100, lower = 0.5, upper = 2.0, tolerance = 1e-3;
   std::size_t max_evaluations = 60, min_observations = 10;
@@ -102,9 +103,39 @@ std::string what(const std::string& parameter) {
   return "Manning's n";
 }
 
+/// Routes the calibrated network as its run file says, with the report
+/// (and nothing else) as output; the report compares before and after.
+void writeCalibrationReport(const CalibrateOptions& o, const run::CalibrateRequest& request,
+                            const run::CalibrationResult& result) {
+  report::CalibrationComparison c;
+  c.what = what(o.parameter);
+  c.rows = run::calibrationRows(result, request.settings);
+  c.left_out = result.left_out;
+  const auto& gauges = result.gauges.gauges;
+  for (std::size_t g = 0; g < gauges.size(); ++g) {
+    c.gauge_ids.push_back(gauges[g].gauge_id);
+    c.before.push_back(result.scores_before[g]);
+    c.outflow_before.push_back(result.outflow_before[g]);
+  }
+  run::RouteRequest route;
+  route.network = {o.out, "", runFileFor(o.out).string(), ""};
+  route.forcing = request.forcing;
+  route.method = request.method;
+  route.diffusion_below_ponce = request.diffusion_below_ponce;
+  route.threads = request.threads;
+  route.gauges = request.gauges;
+  route.outputs.report_dir = o.report;
+  route.outputs.overwrite = o.overwrite;
+  route.outputs.calibration = &c;
+  route.command_line = fmt::format("reachwise route {} --config {} (the run `reachwise calibrate` wrote)", o.out,
+                                   runFileFor(o.out).string());
+  (void)run::route(route);
+}
+
 int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   io::refuseExisting(o.out, o.overwrite);  // before any routing
   io::refuseExisting(runFileFor(o.out), o.overwrite);
+  if (!o.report.empty()) io::refuseExisting(o.report, o.overwrite);
   run::CalibrateRequest request;
   request.network = {o.network, o.layer, o.config, ""};
   request.network.lakes = o.lakes;
@@ -161,6 +192,11 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   writeRunFile(o, result);
   fmt::print(out, "{} routings in all; wrote {} (layers reaches, calibration, gauges, problems)\n",
              result.evaluations, o.out);
+  if (!o.report.empty()) {
+    writeCalibrationReport(o, request, result);
+    fmt::print(out, "wrote the report of the calibrated run, before and after: {}\n",
+               (fs::path(o.report) / "index.html").string());
+  }
   fmt::print(out, "route it as calibrated: reachwise route {} --config {}\n", o.out, runFileFor(o.out).string());
   for (const auto& w : result.gauges.warnings) fmt::print(err, "warning: {}\n", w);
   fmt::print(out, "caution: {}\n", run::kResultsCaution);
@@ -207,7 +243,9 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
                   "Fewest observations within the run for a gauge to be calibrated (default 10)")
       ->check(CLI::Range(1, 1000000000));
   sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
-  sub->add_flag("--overwrite", o->overwrite, "Replace --out if it exists");
+  sub->add_option("--report", o->report,
+                  "Folder for an HTML report of the calibrated run, comparing the gauges before and after");
+  sub->add_flag("--overwrite", o->overwrite, "Replace --out (and --report) if they exist");
   sub->callback([&chosen, o, sub] {
     chosen = [o, sub] {
       const int loaded = guarded(std::cerr, o->config, [&] {

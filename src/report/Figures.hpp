@@ -184,6 +184,10 @@ struct GaugeFigure {
   std::string title;
   std::vector<double> observed, simulated;   ///< one value per axis step (display unit); NaN: none
   std::string observed_label, simulated_label;
+  /// A second simulated series drawn under the first (e.g. before
+  /// calibration); empty: none.
+  std::vector<double> earlier;
+  std::string earlier_label;
   std::int64_t start_unix_s = 0;
   double dt_s = 3600;
   std::size_t steps = 0;

@@ -1,5 +1,6 @@
 // One gauge's panel: observed discharge (points joined by a dashed line,
-// broken where observations are missing) and simulated discharge (a line)
+// broken where observations are missing), simulated discharge (a line) and
+// optionally an earlier simulation (a grey line, e.g. before calibration)
 // on one discharge axis against time, with a legend below.
 #include <fmt/format.h>
 
@@ -18,6 +19,7 @@ constexpr double kLegendRow = 18;
 
 constexpr Rgb kObservedColour{0.835, 0.369, 0.000};  // Okabe & Ito vermillion
 constexpr Rgb kSimulatedColour{0.08, 0.11, 0.35};    // as the outlet hydrographs' outflow
+constexpr Rgb kEarlierColour{0.62, 0.62, 0.62};      // a grey the other two stand out against
 
 /// Above this many observations in the plot the points are left out (they
 /// would merge into a band); the dashed line still shows every sample.
@@ -26,7 +28,7 @@ constexpr std::size_t kMaxPoints = 400;
 }  // namespace
 
 void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
-  const double height = kTop + kPlotHeight + 58 + kLegendRow * 2 + 8;
+  const double height = kTop + kPlotHeight + 58 + kLegendRow * (fig.earlier.empty() ? 2 : 3) + 8;
   Canvas canvas(file, kWidth, height, ImageFormat::Svg);
   cairo_t* cr = canvas.cr();
 
@@ -39,8 +41,9 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
   const TimeScale ts{t0, t1, kLeft, x1, fig.utc_offset_min};
   double top = 0;
   std::size_t n_points = 0;
-  for (const double v : fig.simulated)
-    if (std::isfinite(v)) top = std::max(top, v);
+  for (const auto* series : {&fig.simulated, &fig.earlier})
+    for (const double v : *series)
+      if (std::isfinite(v)) top = std::max(top, v);
   for (const double v : fig.observed)
     if (std::isfinite(v)) top = std::max(top, v), ++n_points;
   if (!(top > 0)) top = 1;
@@ -72,6 +75,13 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
   cairo_rectangle(cr, kLeft, kTop, x1 - kLeft, kPlotHeight);
   cairo_clip(cr);
   cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
+  // The earlier run under the simulated one, thinner.
+  if (!fig.earlier.empty()) {
+    tracePath(cr, fig.earlier, ts, t0, fig.dt_s, qpix);
+    setColour(cr, kEarlierColour);
+    cairo_set_line_width(cr, 1.6);
+    cairo_stroke(cr);
+  }
   // Simulated: one line (the run's outflow has no gaps).
   if (!fig.simulated.empty()) {
     tracePath(cr, fig.simulated, ts, t0, fig.dt_s, qpix);
@@ -111,9 +121,9 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
 
   // Legend.
   double y = y0 + 58 + 10;
-  const auto legend = [&](const std::string& label, Rgb colour, bool observed) {
+  const auto legend = [&](const std::string& label, Rgb colour, bool observed, double width = 2.0) {
     setColour(cr, colour);
-    cairo_set_line_width(cr, observed ? 1.4 : 2.0);
+    cairo_set_line_width(cr, observed ? 1.4 : width);
     if (observed) cairo_set_dash(cr, dash, 2, 0);
     cairo_move_to(cr, kLeft, y - 4);
     cairo_line_to(cr, kLeft + 26, y - 4);
@@ -129,6 +139,7 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
   };
   legend(fig.observed_label, kObservedColour, true);
   legend(fig.simulated_label, kSimulatedColour, false);
+  if (!fig.earlier.empty()) legend(fig.earlier_label, kEarlierColour, false, 1.6);
   canvas.finish();
 }
 

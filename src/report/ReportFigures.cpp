@@ -249,6 +249,15 @@ GaugeFigure gaugeFigure(const ReportInputs& in, const ReportModel& m, std::size_
   fig.simulated = scaled(*g.simulated, m.units);
   fig.observed_label = fmt::format("observed ({} samples compared)", g.skill.n_obs);
   fig.simulated_label = "simulated outflow of reach " + g.reach_id;
+  if (const CalibrationComparison* c = in.calibration) {
+    const auto it = std::find(c->gauge_ids.begin(), c->gauge_ids.end(), g.gauge_id);
+    if (it != c->gauge_ids.end()) {
+      const auto k = static_cast<std::size_t>(it - c->gauge_ids.begin());
+      fig.earlier = scaled(c->outflow_before[k], m.units);
+      fig.simulated_label += " (calibrated)";
+      fig.earlier_label = "simulated before calibration (" + score("KGE", c->before[k].kge) + ")";
+    }
+  }
   fig.start_unix_s = in.results.axis.start_unix_s;
   fig.dt_s = in.results.axis.dt_s;
   fig.steps = in.results.axis.steps;

@@ -224,6 +224,7 @@ private:
       out_ << "</div>\n";
     }
     lakes();
+    calibration();
     gauges();
     out_ << "<h2>Hydrographs at the major confluences</h2>\n";
     if (m_.confluence_figures.empty()) {
@@ -297,6 +298,57 @@ private:
       s = std::isnan(s) ? sk : std::max(s, sk);
     }
     return {o, s};
+  }
+
+  /// What calibration changed: the fitted sub-basins, then every gauge's
+  /// scores before and after (the whole network routed each way).
+  void calibration() {
+    const CalibrationComparison* c = in_.calibration;
+    if (!c) return;
+    const std::string objective = c->rows.empty() ? std::string("kge") : c->rows.front().objective;
+    out_ << "<h2>Calibration: before and after</h2>\n<p>This run routes the network as <code>reachwise "
+            "calibrate</code> fitted it: one multiplier on "
+         << esc(c->what) << " per gauged sub-basin (every reach above the gauge that no gauge above it holds), "
+            "chosen upstream first to maximise "
+         << esc(objective)
+         << " at the gauge (docs/methods.md, \"Calibration\"). Each gauge's panel below shows the outflow "
+            "before calibration as a grey line.</p>\n<p class=\"note\">A multiplier at a bound, or one far "
+            "from 1, says the records ask for more than the parameter can honestly give: check the "
+            "observations, the forcing and the sections before trusting it. Calibrated values fit these "
+            "records over this period; test them on another flood before using them for design.</p>\n";
+    out_ << "<table id=\"calibration\">\n<thead><tr><th>gauge</th><th>reach</th><th class=\"num\">reaches"
+            "</th><th class=\"num\">multiplier</th><th class=\"num\">bounds</th><th class=\"num\">"
+         << esc(objective) << " in the fit, before</th><th class=\"num\">after</th><th class=\"num\">"
+            "routings</th></tr></thead>\n<tbody>\n";
+    for (const io::CalibrationRow& r : c->rows)
+      out_ << "<tr><td>" << esc(r.gauge_id) << "</td><td>" << esc(r.reach_id) << "</td><td class=\"num\">"
+           << r.reaches << "</td><td class=\"num\">" << num(r.multiplier, 3)
+           << (std::isnan(r.muskingum_x) ? std::string() : ", X " + num(r.muskingum_x, 3))
+           << (r.at_bound ? " (at a bound)" : "") << "</td><td class=\"num\">" << num(r.lower, 2) << "&ndash;"
+           << num(r.upper, 2) << "</td><td class=\"num\">" << num(r.objective_before, 3)
+           << "</td><td class=\"num\">" << num(r.objective_after, 3) << "</td><td class=\"num\">"
+           << r.evaluations << "</td></tr>\n";
+    out_ << "</tbody>\n</table>\n";
+    for (const auto& why : c->left_out) out_ << "<p class=\"note\">Left out: " << esc(why) << "</p>\n";
+    out_ << "<table id=\"calibration-gauges\">\n<thead><tr><th>gauge</th><th class=\"num\">KGE before</th>"
+            "<th class=\"num\">KGE after</th><th class=\"num\">NSE before</th><th class=\"num\">NSE after"
+            "</th><th class=\"num\">percent bias before (%)</th><th class=\"num\">after (%)</th>"
+            "<th class=\"num\">peak error before (%)</th><th class=\"num\">after (%)</th></tr></thead>\n"
+            "<tbody>\n";
+    for (const std::size_t gi : m_.shown_gauges) {
+      const io::GaugeOutput& g = in_.gauges[gi];
+      const auto it = std::find(c->gauge_ids.begin(), c->gauge_ids.end(), g.gauge_id);
+      if (it == c->gauge_ids.end()) continue;
+      const gauges::SkillScores& b = c->before[static_cast<std::size_t>(it - c->gauge_ids.begin())];
+      const gauges::SkillScores& a = g.skill;
+      out_ << "<tr><td>" << esc(g.gauge_id) << "</td><td class=\"num\">" << num(b.kge, 3)
+           << "</td><td class=\"num\">" << num(a.kge, 3) << "</td><td class=\"num\">" << num(b.nse, 3)
+           << "</td><td class=\"num\">" << num(a.nse, 3) << "</td><td class=\"num\">" << num(b.pbias_pct, 1)
+           << "</td><td class=\"num\">" << num(a.pbias_pct, 1) << "</td><td class=\"num\">"
+           << num(b.peak_error_pct, 1) << "</td><td class=\"num\">" << num(a.peak_error_pct, 1)
+           << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
   }
 
   /// Every gauge: its skill scores in a table and a panel per gauge, the

@@ -432,6 +432,17 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   return out;
 }
 
+std::vector<io::CalibrationRow> calibrationRows(const CalibrationResult& result, const CalibrationSettings& settings) {
+  std::vector<io::CalibrationRow> rows;
+  for (const auto& sb : result.sub_basins)
+    rows.push_back({sb.gauge_id, sb.reach_id, std::string(parameterName(settings.parameter)),
+                    std::string(objectiveName(settings.objective)), sb.multiplier, settings.lower, settings.upper,
+                    sb.at_bound, sb.reaches.size(), sb.evaluations, sb.before, sb.after,
+                    objectiveScore(settings.objective, sb.before), objectiveScore(settings.objective, sb.after),
+                    sb.muskingum_x});
+  return rows;
+}
+
 void writeCalibrated(const std::string& path, bool overwrite, const CalibrationResult& result,
                      const CalibrationSettings& settings) {
   const LoadedNetwork& net = *result.network;
@@ -475,13 +486,7 @@ void writeCalibrated(const std::string& path, bool overwrite, const CalibrationR
     p.side_slope_source = "field";
     if (p.section.shape == hydraulics::Shape::TwoStage) p.bank_depth_source = "field";
   }
-  std::vector<io::CalibrationRow> rows;
-  for (const auto& sb : result.sub_basins)
-    rows.push_back({sb.gauge_id, sb.reach_id, std::string(parameterName(settings.parameter)),
-                    std::string(objectiveName(settings.objective)), sb.multiplier, settings.lower, settings.upper,
-                    sb.at_bound, sb.reaches.size(), sb.evaluations, sb.before, sb.after,
-                    objectiveScore(settings.objective, sb.before), objectiveScore(settings.objective, sb.after),
-                    sb.muskingum_x});
+  const std::vector<io::CalibrationRow> rows = calibrationRows(result, settings);
   std::vector<io::GaugeOutput> gauges;
   const auto& bound = result.gauges.gauges;
   for (std::size_t g = 0; g < bound.size(); ++g) {

@@ -154,6 +154,7 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
     ri.lakes = lakes;
     ri.gauges = gauges;
+    ri.calibration = request_.calibration;
     report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
   }
   if (w_->csv) {

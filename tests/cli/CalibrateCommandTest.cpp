@@ -3,6 +3,7 @@
 // reproduces the scores the calibration reports, and an existing output is
 // refused before any routing. (Recovery of known multipliers: the twin
 // experiment in tests/run/CalibrateTest.cpp.)
+#include <fmt/format.h>
 #include <gdal_priv.h>
 #include <gtest/gtest.h>
 #include <ogrsf_frmts.h>
@@ -171,4 +172,51 @@ TEST(CalibrateCommand, TheDemoRecordsCallForRougherChannels) {
   EXPECT_GT(multiplier.at("G3-upper"), 1.1);
   EXPECT_LT(multiplier.at("G3-upper"), 1.5);
   EXPECT_GT(after.at("G3-upper"), before.at("G3-upper"));
+}
+
+// The report of the calibrated run compares every gauge before and after.
+// Checked against two separate `route` runs: the original network (before)
+// and the calibrated network with its run file (after), whose `gauges`
+// layers give the KGE the report's table must show (3 decimals, as shown).
+TEST(CalibrateCommand, ReportComparesTheGaugesBeforeAndAfter) {
+  testsupport::TempDir dir;
+  const fs::path cal = dir.path() / "cal.gpkg", rep = dir.path() / "rep";
+  const std::string gauges = " --lakes " + kSample + "lakes.gpkg --observed " + kSample + "observed.csv --gauges " +
+                             kSample + "gauges.gpkg";
+  const auto run = testsupport::runReachwise("calibrate " + kSample + "network.gpkg" + kForcing + gauges +
+                                             " --max-evaluations 12 --out " + cal.string() + " --report " +
+                                             rep.string());
+  ASSERT_EQ(run.code, 0) << run.err;
+  const fs::path before_gpkg = dir.path() / "before.gpkg", after_gpkg = dir.path() / "after.gpkg";
+  ASSERT_EQ(testsupport::runReachwise("route " + kSample + "network.gpkg" + kForcing + gauges + " --out " +
+                                      before_gpkg.string()).code, 0);
+  ASSERT_EQ(testsupport::runReachwise("route " + cal.string() + " --config " + (dir.path() / "cal.toml").string() +
+                                      " --observed " + kSample + "observed.csv --gauges " + kSample +
+                                      "gauges.gpkg --out " + after_gpkg.string()).code, 0);
+  auto b = open(before_gpkg), a = open(after_gpkg);
+  ASSERT_TRUE(b && a);
+  const auto kge_before = fieldById(*b, "gauges", "gauge_id", "kge");
+  const auto kge_after = fieldById(*a, "gauges", "gauge_id", "kge");
+  ASSERT_EQ(kge_before.size(), 3u);
+
+  std::ifstream in(rep / "index.html");
+  ASSERT_TRUE(in) << "no report";
+  std::stringstream html;
+  html << in.rdbuf();
+  const std::string page = html.str();
+  const auto table = page.find("<table id=\"calibration-gauges\">");
+  ASSERT_NE(table, std::string::npos);
+  ASSERT_NE(page.find("<table id=\"calibration\">"), std::string::npos);
+  for (const auto& [id, kb] : kge_before) {
+    const std::string row = "<tr><td>" + id + "</td><td class=\"num\">" + fmt::format("{:.3f}", kb) +
+                            "</td><td class=\"num\">" + fmt::format("{:.3f}", kge_after.at(id)) + "</td>";
+    EXPECT_NE(page.find(row, table), std::string::npos) << row;
+  }
+  // Refused before any routing when the report folder exists.
+  const auto again = testsupport::runReachwise("calibrate " + kSample + "network.gpkg" + kForcing + gauges +
+                                               " --out " + (dir.path() / "other.gpkg").string() + " --report " +
+                                               rep.string());
+  EXPECT_NE(again.code, 0);
+  EXPECT_NE(again.err.find(rep.string()), std::string::npos) << again.err;
+  EXPECT_FALSE(fs::exists(dir.path() / "other.gpkg"));
 }

@@ -24,6 +24,7 @@
 #include <unordered_map>
 #include <vector>
 
+#include "reachwise/io/CalibratedWriter.hpp"
 #include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
@@ -81,6 +82,20 @@ private:
   mutable std::mutex mutex_;
 };
 
+/// What a calibration changed, for the report of the calibrated run
+/// (`reachwise calibrate --report`): the fitted sub-basins and every
+/// gauge's scores and simulated outflow before calibration.
+struct CalibrationComparison {
+  std::string what;                       ///< what the multiplier scales, e.g. "Manning's n"
+  std::vector<io::CalibrationRow> rows;   ///< one per fitted sub-basin, upstream first
+  std::vector<std::string> left_out;      ///< gauges not fitted, with the reason
+  /// Per gauge id (as ReportInputs::gauges name them): the whole network's
+  /// scores and outflow (m^3/s, one value per axis step) before calibration.
+  std::vector<std::string> gauge_ids;
+  std::vector<gauges::SkillScores> before;
+  std::vector<std::vector<double>> outflow_before;
+};
+
 struct ReportInputs {
   const network::ReachTable& table;      ///< attributes + geometry as the reader gives them
   const network::NetworkPlan& plan;
@@ -102,6 +117,10 @@ struct ReportInputs {
   /// simulated series, one value per axis step. The series must outlive
   /// writeReport().
   std::vector<io::GaugeOutput> gauges = {};
+  /// The calibration this run comes from (null: none): a section comparing
+  /// the gauges' scores before and after, and the outflow before
+  /// calibration in each gauge's panel. Must outlive writeReport().
+  const CalibrationComparison* calibration = nullptr;
 };
 
 /// Name of the marker file every report folder holds; writeReport() only

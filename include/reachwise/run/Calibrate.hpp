@@ -28,6 +28,7 @@
 #include <vector>
 
 #include "reachwise/gauges/Skill.hpp"
+#include "reachwise/io/CalibratedWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/routing/ReachRouter.hpp"
 #include "reachwise/run/Forcing.hpp"
@@ -109,6 +110,10 @@ struct CalibrationResult {
 /// observed file when no gauge has enough observations, and
 /// InvalidParameter for bad settings.
 CalibrationResult calibrate(const CalibrateRequest& request);
+
+/// One row per fitted sub-basin, upstream first, as the `calibration`
+/// table holds them.
+std::vector<io::CalibrationRow> calibrationRows(const CalibrationResult& result, const CalibrationSettings& settings);
 
 /// Writes the calibrated network to `path` (io::writeCalibratedGeoPackage):
 /// every reach with its attributes, Manning's n (or bottom width) times its

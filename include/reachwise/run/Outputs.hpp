@@ -19,6 +19,10 @@
 #include "reachwise/routing/TimeAxis.hpp"
 #include "reachwise/run/RoutedLakes.hpp"
 
+namespace reachwise::report {
+struct CalibrationComparison;
+}
+
 namespace reachwise::run {
 
 struct LoadedNetwork;
@@ -33,6 +37,9 @@ struct OutputRequest {
   std::string report_dir;   ///< the HTML run report into this folder
   std::string hydrographs = "auto";   ///< which reaches' hydrographs: see chooseSeries()
   bool overwrite = false;   ///< replace existing outputs (else an existing one is an InputError naming it)
+  /// The calibration the run comes from, for the report (null: none; must
+  /// outlive the run).
+  const report::CalibrationComparison* calibration = nullptr;
 };
 
 /// The prefix of written-back layers (`rw_reaches`, ...).
