@@ -99,27 +99,110 @@ void printLakes(std::ostream& out, const std::vector<io::LakeOutput>& lakes, con
     fmt::print(out, "  ... and {} more lake(s), all in the lakes layer\n", lines.size() - kLakesListed);
 }
 
-void printDemoSummary(std::ostream& out, const run::RouteSummary& s, const std::vector<io::LakeOutput>& lakes,
-                      const std::string& report_dir) {
+/// Outlets and coinciding confluences listed by name; the rest are counted.
+constexpr std::size_t kNodesListed = 10;
+/// Examples printed per kind of warning.
+constexpr std::size_t kWarningExamples = 1;
+
+/// The outlets, largest peak first, at most kNodesListed, then how many more.
+void printOutlets(std::ostream& out, const run::RouteSummary& s) {
   const network::NetworkPlan& plan = s.plan;
   const routing::NetworkResults& r = s.results;
-  const std::string& gpkg = s.gpkg;
-  const int off = r.axis.utc_offset_min;
-  fmt::print(out, "reachwise demo: {} reaches, {} steps of {} s from {}\n", plan.size(), r.axis.steps,
-             r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off));
+  std::vector<std::uint32_t> outlets;
   for (std::uint32_t i = 0; i < plan.size(); ++i)
-    if (plan.isOutlet(i))
-      fmt::print(out, "outlet {}: peak {:.2f} m3/s at {}\n", plan.reach_id[i], r.reaches[i].peak_q_m3s,
-                 io::formatIsoTime(r.reaches[i].peak_time_s, off));
-  fmt::print(out, "confluences where branch peaks arrive within one hour of each other:\n");
-  int close = 0;
-  for (const auto& n : r.nodes) {
-    if (n.kind != routing::NodeKind::Confluence || !(n.branch_spread_s <= 3600)) continue;
-    ++close;
-    fmt::print(out, "  {} (spread {}, combined peak {:.2f} m3/s, coincidence {:.2f})\n", n.node_id,
-               hours(n.branch_spread_s), n.peak_q_m3s, n.coincidence_ratio);
+    if (plan.isOutlet(i)) outlets.push_back(i);
+  std::stable_sort(outlets.begin(), outlets.end(), [&](std::uint32_t a, std::uint32_t b) {
+    return r.reaches[a].peak_q_m3s > r.reaches[b].peak_q_m3s;
+  });
+  if (outlets.size() > 1) fmt::print(out, "outlets: {}, largest peak first:\n", outlets.size());
+  const int off = r.axis.utc_offset_min;
+  for (std::size_t k = 0; k < outlets.size() && k < kNodesListed; ++k)
+    fmt::print(out, "{}outlet {}: peak {:.2f} m3/s at {}\n", outlets.size() > 1 ? "  " : "",
+               plan.reach_id[outlets[k]], r.reaches[outlets[k]].peak_q_m3s,
+               io::formatIsoTime(r.reaches[outlets[k]].peak_time_s, off));
+  if (outlets.size() > kNodesListed)
+    fmt::print(out, "  ... and {} more outlet(s), all in the nodes layer\n", outlets.size() - kNodesListed);
+}
+
+/// Confluences whose branch peaks arrive within one hour of each other,
+/// largest combined peak first, at most kNodesListed, then how many more.
+void printCoinciding(std::ostream& out, const routing::NetworkResults& r) {
+  std::vector<const routing::NodeSummary*> close;
+  for (const auto& n : r.nodes)
+    if (n.kind == routing::NodeKind::Confluence && n.branch_spread_s <= 3600) close.push_back(&n);
+  std::stable_sort(close.begin(), close.end(), [](const auto* a, const auto* b) { return a->peak_q_m3s > b->peak_q_m3s; });
+  fmt::print(out, "confluences where branch peaks arrive within one hour of each other: {}\n",
+             close.empty() ? std::string("none") : std::to_string(close.size()) + ", largest combined peak first");
+  for (std::size_t k = 0; k < close.size() && k < kNodesListed; ++k)
+    fmt::print(out, "  {} (spread {}, combined peak {:.2f} m3/s, coincidence {:.2f})\n", close[k]->node_id,
+               hours(close[k]->branch_spread_s), close[k]->peak_q_m3s, close[k]->coincidence_ratio);
+  if (close.size() > kNodesListed)
+    fmt::print(out, "  ... and {} more, all in the nodes layer (branch_spread_h)\n", close.size() - kNodesListed);
+}
+
+void printVolume(std::ostream& out, const routing::VolumeBalance& v) {
+  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} % of all inflow",
+             v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
+  if (std::isnan(v.event_error_pct)) fmt::print(out, " (no volume above the initial flow)\n");
+  else fmt::print(out, ", {:.3f} % of the event volume above the initial flow\n", v.event_error_pct);
+}
+
+/// The kind of a warning: its leading code (`split_line R7: ...`,
+/// `cut_line_forcing L3: ...`), else the warning itself (a run-wide
+/// warning is a kind of its own).
+std::string_view warningKind(std::string_view w) {
+  const auto space = w.find(' ');
+  if (space == std::string_view::npos || space == 0) return w;
+  const std::string_view head = w.substr(0, space);
+  const bool code = head.find('_') != std::string_view::npos &&
+                    std::all_of(head.begin(), head.end(), [](char c) { return (c >= 'a' && c <= 'z') || c == '_' || (c >= '0' && c <= '9'); });
+  return code ? head : w;
+}
+
+/// Warnings grouped by kind, the most frequent first (then in the order
+/// first met): a kind met once is printed whole; a kind met several times
+/// as its count and one example. Every warning stays in run_info.
+void printWarnings(std::ostream& out, const std::vector<std::string>& warnings, const char* prefix) {
+  struct Kind {
+    std::string_view name;
+    std::vector<const std::string*> items;
+  };
+  std::vector<Kind> kinds;
+  for (const auto& w : warnings) {
+    const std::string_view k = warningKind(w);
+    auto it = std::find_if(kinds.begin(), kinds.end(), [&](const Kind& x) { return x.name == k; });
+    if (it == kinds.end()) it = kinds.insert(kinds.end(), Kind{k, {}});
+    it->items.push_back(&w);
   }
-  if (!close) fmt::print(out, "  none\n");
+  std::stable_sort(kinds.begin(), kinds.end(), [](const Kind& a, const Kind& b) { return a.items.size() > b.items.size(); });
+  for (const Kind& k : kinds) {
+    if (k.items.size() == 1) {
+      fmt::print(out, "{}{}\n", prefix, *k.items.front());
+      continue;
+    }
+    fmt::print(out, "{}{} x {}, e.g.:\n", prefix, k.items.size(), k.name);
+    for (std::size_t e = 0; e < kWarningExamples; ++e) fmt::print(out, "{}  {}\n", prefix, *k.items[e]);
+  }
+  if (kinds.size() < warnings.size())
+    fmt::print(out, "{}all {} warnings are in the run_info table{}\n", prefix, warnings.size(),
+               "; the network's also with `reachwise check NETWORK --problems FILE`");
+}
+
+/// What a run did, for a person: outlet peaks, coinciding confluences,
+/// attenuation, lakes, gauges, the volume balance and the warnings by kind.
+void printRunSummary(std::ostream& out, std::ostream& err, const run::RouteSummary& s,
+                     const std::vector<io::LakeOutput>& lakes, const RouteOptions& o) {
+  const network::NetworkPlan& plan = s.plan;
+  const routing::NetworkResults& r = s.results;
+  const int off = r.axis.utc_offset_min;
+  fmt::print(out, "{} {} reaches over {} steps of {} s from {} ({})\n", o.demo ? "reachwise demo:" : "routed",
+             plan.size(), r.axis.steps, r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off), o.method);
+  if (!o.demo)
+    fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
+               "series held at once\n",
+               s.routing_s, r.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, r.threads, r.peak_live_series);
+  printOutlets(out, s);
+  printCoinciding(out, r);
   std::vector<std::uint32_t> order(plan.size());
   for (std::uint32_t i = 0; i < plan.size(); ++i) order[i] = i;
   std::sort(order.begin(), order.end(), [&](auto a, auto b) {
@@ -128,22 +211,23 @@ void printDemoSummary(std::ostream& out, const run::RouteSummary& s, const std::
   });
   fmt::print(out, "largest attenuation:\n");
   for (std::size_t k = 0; k < std::min<std::size_t>(5, order.size()); ++k) {
-    const auto& s = r.reaches[order[k]];
-    fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], s.attenuation_pct,
-               hours(s.travel_time_s));
+    const auto& a = r.reaches[order[k]];
+    fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], a.attenuation_pct,
+               hours(a.travel_time_s));
   }
   printLakes(out, lakes, r.axis);
   printGauges(out, s);
-  const routing::VolumeBalance& v = r.volume;
-  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} % of all inflow",
-             v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
-  if (std::isnan(v.event_error_pct)) fmt::print(out, " (no volume above the initial flow)\n");
-  else fmt::print(out, ", {:.3f} % of the event volume above the initial flow\n", v.event_error_pct);
-  fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
-  for (const auto& w : r.warnings) fmt::print(out, "  {}\n", w);
-  fmt::print(out, "open in a GIS: {}\n", gpkg);
-  if (!report_dir.empty())
-    fmt::print(out, "run report (open in a web browser): {}\n", (fs::path(report_dir) / "index.html").string());
+  printVolume(out, r.volume);
+  if (o.demo) {
+    fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
+    printWarnings(out, r.warnings, "  ");
+  } else {
+    printWarnings(err, r.warnings, "warning: ");
+  }
+  fmt::print(out, "{}{}{}\n", o.demo ? "open in a GIS: " : "wrote ", s.gpkg,
+             o.series_nc.empty() ? "" : " and " + o.series_nc);
+  if (!o.report.empty())
+    fmt::print(out, "run report (open in a web browser): {}\n", (fs::path(o.report) / "index.html").string());
   fmt::print(out, "caution: {}\n", run::kResultsCaution);
 }
 
@@ -196,23 +280,9 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     return kExitInput;
   }
   progress.finish();
-  const routing::NetworkResults& results = s.results;
 
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
-  if (o.demo) {
-    printDemoSummary(out, s, lakes, o.report);
-  } else if (!o.quiet) {
-    fmt::print(out, "routed {} reaches over {} steps ({}); wrote {}{}{}\n", s.plan.size(), results.axis.steps,
-               o.method, s.gpkg, o.series_nc.empty() ? "" : " and " + o.series_nc,
-               o.report.empty() ? "" : "; report " + (fs::path(o.report) / "index.html").string());
-    fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
-               "series held at once\n",
-               s.routing_s, results.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, results.threads,
-               results.peak_live_series);
-    printLakes(out, lakes, results.axis);
-    printGauges(out, s);
-    for (const auto& w : results.warnings) fmt::print(err, "warning: {}\n", w);
-  }
+  if (o.demo || !o.quiet) printRunSummary(out, err, s, lakes, o);
   return kExitOk;
 }
 

@@ -32,9 +32,9 @@ int main(int argc, char** argv) {
   } catch (const CLI::ParseError& e) {
     return app.exit(e) == 0 ? 0 : reachwise::cli::kExitUsage;
   }
-  if (!chosen) {
-    fmt::print("{}", app.help());
-    return 0;
+  if (!chosen) {  // no command: the help, on stderr, as a usage error
+    fmt::print(stderr, "{}", app.help());
+    return reachwise::cli::kExitUsage;
   }
   try {
     return chosen();

@@ -1,9 +1,13 @@
 // End-to-end: `reachwise demo` on the shipped sample network, read back with GDAL.
 #include <gtest/gtest.h>
 
+#include <gdal_priv.h>
 #include <ogrsf_frmts.h>
 
+#include <algorithm>
 #include <cstdlib>
+#include <sstream>
+#include <vector>
 #include <filesystem>
 #include <fstream>
 #include <map>
@@ -83,4 +87,61 @@ TEST(RouteCommand, BadForcingLeavesNoOutput) {
             1);
   EXPECT_FALSE(fs::exists(out));
   for (const auto& e : fs::directory_iterator(dir)) EXPECT_EQ(e.path().extension(), ".csv") << e.path();
+}
+
+// The console summary of `route` on a network of 14 basins whose 200
+// reaches all carry an implausible Manning's n (0.35, above the 0.3 the
+// check warns at): the outlets largest peak first, ten by name then a
+// count; the warnings grouped by kind (200 lines of one kind become a count
+// and one example), and every one kept in run_info. The outlet peaks are
+// checked against the nodes layer the same run wrote.
+TEST(RouteCommand, SummaryRanksOutletsAndGroupsWarningsByKind) {
+  testsupport::TempDir dir;
+  const fs::path net = dir.path() / "net.gpkg", lat = dir.path() / "lat.nc", out = dir.path() / "out.gpkg";
+  ASSERT_EQ(run("synth " + net.string() + " --reaches 200 --outlets 14 --steps 48 --quiet --lateral " + lat.string()), 0);
+  {
+    reachwise::io::ensureGdal();
+    GDALDatasetUniquePtr ds(GDALDataset::Open(net.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
+    ASSERT_TRUE(ds);
+    ds->ExecuteSQL("UPDATE reaches SET manning_n = 0.35", nullptr, nullptr);
+  }
+  const auto r = testsupport::runReachwise("route " + net.string() + " --lateral " + lat.string() + " --out " +
+                                           out.string());
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.out.find("outlets: 14, largest peak first:"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("... and 4 more outlet(s)"), std::string::npos) << r.out;
+  // The listed peaks, in order.
+  std::vector<double> listed;
+  std::istringstream lines(r.out);
+  for (std::string line; std::getline(lines, line);)
+    if (line.rfind("  outlet ", 0) == 0) listed.push_back(std::stod(line.substr(line.find("peak ") + 5)));
+  ASSERT_EQ(listed.size(), 10u);
+  EXPECT_TRUE(std::is_sorted(listed.rbegin(), listed.rend()));
+  std::vector<double> outlet_peaks;
+  {
+    GDALDatasetUniquePtr ds(GDALDataset::Open(out.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+    ASSERT_TRUE(ds);
+    for (auto& f : *ds->GetLayerByName("nodes"))
+      if (std::string(f->GetFieldAsString("kind")) == "outlet") outlet_peaks.push_back(f->GetFieldAsDouble("peak_q"));
+    std::size_t kept = 0;
+    for (auto& f : *ds->GetLayerByName("run_info"))
+      if (std::string(f->GetFieldAsString("key")) == "warning" &&
+          std::string(f->GetFieldAsString("value")).rfind("implausible_attribute ", 0) == 0)
+        ++kept;
+    EXPECT_EQ(kept, 200u);  // every warning stays in run_info
+  }
+  ASSERT_EQ(outlet_peaks.size(), 14u);
+  std::sort(outlet_peaks.rbegin(), outlet_peaks.rend());
+  for (std::size_t k = 0; k < 10; ++k) EXPECT_NEAR(listed[k], outlet_peaks[k], 0.006) << k;  // printed to 2 decimals
+  EXPECT_NE(r.err.find("warning: 200 x implausible_attribute, e.g.:"), std::string::npos) << r.err;
+  const auto warning_lines = static_cast<std::size_t>(std::count(r.err.begin(), r.err.end(), '\n'));
+  EXPECT_LT(warning_lines, 10u) << r.err;
+}
+
+// `reachwise` with no command prints the help on stderr and exits 2 (a
+// usage error, common practice for command-line tools).
+TEST(RouteCommand, NoCommandPrintsTheHelpAndExitsTwo) {
+  const auto r = testsupport::runReachwise("");
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("Subcommands:"), std::string::npos) << r.err;
 }

@@ -104,7 +104,7 @@ TEST(RouteOptions, TheTimeStepComesFromTheFlagOrTheRunFileOrTheForcing) {
   const auto steps = [&](const std::string& args) {
     const Outcome r = run("route " + kNetwork + " --out " + tmp.file("o.gpkg") + " --overwrite" + args);
     EXPECT_EQ(r.code, 0) << r.err;
-    const auto at = r.out.find(" steps (");
+    const auto at = r.out.find(" steps of ");
     const auto from = r.out.rfind(' ', at - 1);
     return at == std::string::npos ? std::string() : r.out.substr(from + 1, at - from - 1);
   };
