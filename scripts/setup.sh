@@ -8,7 +8,7 @@ build="${1:-$here/build}"
 
 packages=(
   build-essential cmake pkg-config git
-  libgdal-dev gdal-bin libgeos-dev libgeographiclib-dev
+  libgdal-dev gdal-bin python3-gdal libgeos-dev libgeographiclib-dev
   libboost-graph-dev libtbb-dev libeigen3-dev
   libtomlplusplus-dev libcli11-dev libfmt-dev libnetcdf-dev netcdf-bin
   libcairo2-dev libnlopt-cxx-dev

@@ -1,5 +1,7 @@
 #include "reachwise/io/ResultsWriter.hpp"
 
+#include "reachwise/io/DataColumns.hpp"
+
 #include <cpl_conv.h>
 #include <fmt/format.h>
 #include <gdal_priv.h>
@@ -438,6 +440,10 @@ void GpkgResultsWriter::commit() {
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
   if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
+  // What each column means, for a GIS (gpkg_data_columns): SQL after the
+  // transaction, as SQL within it would make GDAL finish the deferred
+  // spatial indexes there (openSeriesTable()); still before the rename.
+  for (const char* t : kTables) describeColumns(*ds_, target_.string(), layerName(t));
   series_feature_.reset();
   ds_.reset();  // closes and flushes the file before it is renamed
   if (!write_back_) {
