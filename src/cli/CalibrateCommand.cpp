@@ -180,7 +180,7 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   } catch (const run::NetworkHasErrors& e) {
     bar.finish();
     for (const auto& p : e.problems())
-      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p));
+      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
     fmt::print(err, "calibrate refused: the network has errors (run `reachwise check` for details)\n");
     return kExitInput;
   }

@@ -110,7 +110,7 @@ int check(const CheckOptions& options, std::ostream& out, std::ostream& err) {
   const auto net = run::loadNetwork(source);
   printSummary(out, net->table, network::summarize(*net->graph), net->read, net->problems);
   if (net->lakes) printLakes(out, *net);
-  for (const auto& p : net->problems) fmt::print(err, "{}\n", run::problemLine(p));
+  for (const auto& p : net->problems) fmt::print(err, "{}\n", run::problemLine(p, net->table.geographic));
   if (!options.problems.empty()) {
     run::writeProblems(options.problems, *net);
     fmt::print(out, "wrote          {}\n", options.problems);

@@ -61,13 +61,13 @@ int prepare(const PrepareOptions& options, std::ostream& out, std::ostream& err)
   try {
     s = run::prepare(request);
   } catch (const run::NetworkHasErrors& e) {
-    for (const auto& p : e.problems()) fmt::print(err, "{}\n", run::problemLine(p));
+    for (const auto& p : e.problems()) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
     fmt::print(err, "error: {}; nothing written\n", e.what());
     return kExitInput;
   }
   printSummary(out, options, s);
   for (const auto& p : s.problems)
-    if (p.severity != network::Severity::Info) fmt::print(err, "{}\n", run::problemLine(p));
+    if (p.severity != network::Severity::Info) fmt::print(err, "{}\n", run::problemLine(p, s.geographic));
   fmt::print(out, "wrote          {}\n", options.out);
   return s.hasErrors() ? kExitInput : kExitOk;
 }

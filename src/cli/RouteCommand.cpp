@@ -275,7 +275,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   } catch (const run::NetworkHasErrors& e) {
     progress.finish();
     for (const auto& p : e.problems())
-      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p));
+      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
     fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
     return kExitInput;
   }

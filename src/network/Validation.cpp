@@ -238,7 +238,7 @@ void reportBasins(const ReachGraph& graph, ProblemList& out) {
         o.empty() ? std::string("no outlet (it contains a cycle)")
                   : fmt::format("outlet{} {}", o.size() > 1 ? "s" : "", listIds(graph, o));
     out.push_back(at(graph, where, graph.bottom(where), ProblemCode::Basin,
-                     fmt::format("Basin {} of {}: {} reach{}, {}.", b + 1, comps.count, reaches[b],
+                     fmt::format("Basin {} (of {}, numbered from 0 as the results' `basin` field): {} reach{}, {}.", b, comps.count, reaches[b],
                                  reaches[b] == 1 ? "" : "es", drains)));
   }
 }

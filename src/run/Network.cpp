@@ -18,7 +18,11 @@ namespace reachwise::run {
 
 namespace {
 
-std::string coordinate(double v) { return std::isfinite(v) ? fmt::format("{}", v) : "-"; }
+/// A coordinate to about a centimetre: 2 decimals in metres or feet, 7 in
+/// degrees (1e-7 degree is 1.1 cm at the equator); common practice.
+std::string coordinate(double v, bool geographic) {
+  return std::isfinite(v) ? fmt::format("{:.{}f}", v, geographic ? 7 : 2) : "-";
+}
 
 std::size_t countErrors(const network::ProblemList& problems) {
   std::size_t n = 0;
@@ -185,9 +189,9 @@ std::vector<network::LakeLinks> linkAll(const LoadedNetwork& net, network::Probl
 
 }  // namespace
 
-NetworkHasErrors::NetworkHasErrors(network::ProblemList problems)
+NetworkHasErrors::NetworkHasErrors(network::ProblemList problems, bool geographic)
     : Error(fmt::format("the network has {} error(s), so it cannot be routed", countErrors(problems))),
-      problems_(std::move(problems)) {}
+      problems_(std::move(problems)), geographic_(geographic) {}
 
 void requireExisting(const std::string& source) {
   const bool plain_path = source.find(':') == std::string::npos && source.rfind("/vsi", 0) != 0;
@@ -270,11 +274,11 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source) {
   return net;
 }
 
-std::string problemLine(const network::Problem& p) {
+std::string problemLine(const network::Problem& p, bool geographic) {
   return fmt::format("{} {} {} {} ({}, {}): {}", io::severityName(p.severity), p.codeName(),
                      p.reach_id.empty() ? "-" : p.reach_id,
-                     p.fid < 0 ? std::string("-") : std::to_string(p.fid), coordinate(p.x),
-                     coordinate(p.y), p.message);
+                     p.fid < 0 ? std::string("-") : std::to_string(p.fid), coordinate(p.x, geographic),
+                     coordinate(p.y, geographic), p.message);
 }
 
 void writeProblems(const std::string& out, const LoadedNetwork& net) {
@@ -286,7 +290,7 @@ void writeProblems(const std::string& out, const LoadedNetwork& net) {
 }
 
 network::NetworkPlan routablePlan(const LoadedNetwork& net) {
-  if (net.hasErrors()) throw NetworkHasErrors(net.problems);
+  if (net.hasErrors()) throw NetworkHasErrors(net.problems, net.table.geographic);
   return net.graph->freeze();
 }
 

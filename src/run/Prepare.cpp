@@ -18,11 +18,12 @@ PrepareSummary prepare(const PrepareRequest& request) {
     at.field = "network.lakes";
     throw InputError(at, "prepare writes the lines as they are; give the lakes to route on the prepared layer");
   }
-  if (!net->derived) throw NetworkHasErrors(net->problems);  // a cycle: no flow order
+  if (!net->derived) throw NetworkHasErrors(net->problems, net->table.geographic);  // a cycle: no flow order
   PrepareSummary s;
   static_cast<DerivationSummary&>(s) = net->derived->summary;
   s.reaches = net->graph->size();
   s.problems = net->problems;
+  s.geographic = net->table.geographic;
   io::writePreparedGeoPackage(request.out, request.overwrite, *net->graph, net->config, net->derived->reaches,
                               s.problems);
   return s;

@@ -70,11 +70,14 @@ struct LoadedNetwork {
 /// every problem found (the errors among them say why).
 class NetworkHasErrors : public Error {
 public:
-  explicit NetworkHasErrors(network::ProblemList problems);
+  /// `geographic`: the layer's CRS is geographic (for problemLine()).
+  explicit NetworkHasErrors(network::ProblemList problems, bool geographic = false);
   const network::ProblemList& problems() const noexcept { return problems_; }
+  bool geographic() const noexcept { return geographic_; }
 
 private:
   network::ProblemList problems_;
+  bool geographic_ = false;
 };
 
 /// A plain path (not a connection string such as "PG:..." nor a GDAL
@@ -98,7 +101,7 @@ std::unique_ptr<LoadedNetwork> loadNetwork(const NetworkSource& source);
 
 /// `severity code reach_id fid (x, y): sentence`, the one-line form of a
 /// problem (docs/formats.md).
-std::string problemLine(const network::Problem& p);
+std::string problemLine(const network::Problem& p, bool geographic = false);
 
 /// Writes `out`: a GeoPackage with the problems (points) and the network
 /// as built (lines), for a GIS. Throws InputError naming `out` when it

@@ -25,6 +25,7 @@ struct PrepareRequest {
 struct PrepareSummary : DerivationSummary {
   std::size_t reaches = 0;
   network::ProblemList problems;     ///< the reader's, the graph's and the derivation's
+  bool geographic = false;           ///< the layer's CRS is geographic (for run::problemLine)
   bool hasErrors() const { return network::hasErrors(problems); }
 };
 

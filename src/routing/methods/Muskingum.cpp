@@ -3,6 +3,7 @@
 // sub-reaches and sub-steps that keeps them non-negative where one exists.
 
 #include <cmath>
+#include <string>
 
 #include "Methods.hpp"
 #include "reachwise/Error.hpp"
@@ -25,6 +26,14 @@ Grid muskingumGrid(const RouteOptions& o, double k_s, double x, double dt) {
 
 void muskingum(RouteContext& ctx) {
   const double k_s = ctx.reach.muskingum_k_s, x = ctx.reach.muskingum_x;
+  // Absent (NaN) is told apart from out of range: the fix differs.
+  const auto absent = [](const std::string& field, const std::string& what) {
+    return InvalidParameter(field, "is absent: the muskingum method needs " + what +
+                                       " on every reach (a layer field `" + field + "`, or `[network.fields] " +
+                                       field + " = { default = ... }` in the run file), or choose another --method");
+  };
+  if (std::isnan(k_s)) throw absent("muskingum_k_h", "Muskingum K in hours");
+  if (std::isnan(x)) throw absent("muskingum_x", "Muskingum X");
   if (!(k_s > 0) || !std::isfinite(k_s)) throw InvalidParameter("muskingum_k_h", "must be > 0");
   if (!(x >= 0 && x <= 0.5)) throw InvalidParameter("muskingum_x", "must lie in [0, 0.5]");
   const Grid g = muskingumGrid(ctx.options, k_s, x, ctx.dt_s);
