@@ -8,6 +8,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdlib>
 #include <filesystem>
 #include <iostream>
 #include <memory>
@@ -374,13 +375,43 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   });
 }
 
+/// Where the demo's data lies, relative to the program itself: an
+/// installed program's PREFIX/share/reachwise/sample-network, or the copy
+/// the build puts beside it (BUILD/share/...); REACHWISE_SAMPLE_DIR in the
+/// environment wins. InputError when none holds the network.
+fs::path sampleDir() {
+  std::vector<fs::path> candidates;
+  if (const char* env = std::getenv("REACHWISE_SAMPLE_DIR"); env && *env) candidates.emplace_back(env);
+  std::error_code ec;
+  const fs::path exe = fs::read_symlink("/proc/self/exe", ec);
+  if (!ec) {
+    const fs::path dir = exe.parent_path();
+    candidates.push_back(dir / "share/reachwise/sample-network");
+    candidates.push_back(dir.parent_path() / "share/reachwise/sample-network");
+  }
+  for (const auto& c : candidates)
+    if (fs::exists(c / "network.gpkg", ec)) return c;
+  std::string looked;
+  for (const auto& c : candidates) looked += (looked.empty() ? "" : ", ") + c.string();
+  InputLocation at;
+  at.file = "network.gpkg";
+  throw InputError(at, "cannot find the demo's sample network (looked in " + looked +
+                           "); set REACHWISE_SAMPLE_DIR to the sample-network folder");
+}
+
 void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
   auto dir = std::make_shared<std::string>("reachwise-demo");
   CLI::App* sub = app.add_subcommand("demo", "Route the shipped sample network (with its reservoir) and storm scenario");
   sub->add_option("--out", *dir, "Output folder (default reachwise-demo)");
   sub->callback([&chosen, dir, command_line] {
     chosen = [dir, command_line] {
-      const fs::path sample = REACHWISE_SAMPLE_DIR;
+      fs::path sample;
+      if (const int found = guarded(std::cerr, "demo", [&] {
+            sample = sampleDir();
+            return kExitOk;
+          });
+          found != kExitOk)
+        return found;
       RouteOptions o;
       o.network = (sample / "network.gpkg").string();
       o.inflow = (sample / "inflow.csv").string();
