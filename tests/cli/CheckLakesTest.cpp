@@ -43,7 +43,7 @@ TEST(CheckLakes, PrintsEachLakeWithItsReaches) {
   EXPECT_TRUE(has(r.out, "lakes          2 (layer lakes of " + lakes.string() + ")")) << r.out;
   EXPECT_TRUE(has(r.out, "lake Upper  area 0.04 km2, in: R2; out: R1\n")) << r.out;
   EXPECT_TRUE(has(r.out, "lake Sink  area 0.04 km2, in: R1; out: - (terminal sink)\n")) << r.out;
-  EXPECT_TRUE(has(r.err, "info terminal_lake - 1 (511900, 5179900): lake Sink has no outflowing reach")) << r.err;
+  EXPECT_TRUE(has(r.err, "info terminal_lake - 1 (511900.00, 5179900.00): lake Sink has no outflowing reach")) << r.err;
 
   // The same lakes from the run file, the path relative to it.
   {
