@@ -422,11 +422,12 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
   where.reach_id = std::string(id);
   for (std::size_t k = 0; k < out.size(); ++k) {
     const double raw = out[k];
-    out[k] = raw * v.scale + v.offset;
-    if (missing(raw) || !std::isfinite(out[k]) || out[k] < 0) {
+    const double q = raw * v.scale + v.offset;
+    out[k] = readableDischarge(q);
+    if (missing(raw) || std::isnan(out[k])) {
       where.time = formatIsoTime(axis_.at(static_cast<double>(k)), axis_.utc_offset_min, 0);
       throw InputError(where, missing(raw) ? std::string("missing value (_FillValue) inside the series")
-                                           : fmt::format("discharge {} is not finite and >= 0", out[k]));
+                                           : dischargeProblem(q));
     }
   }
   return true;
@@ -496,12 +497,12 @@ RawForcing readObservedNetcdf(const std::filesystem::path& path) {
     for (std::size_t k = 0; k < steps; ++k) {
       const double v = values[time_first ? k * ids.size() + r : r * steps + k];
       if (std::isnan(v) || v == fill) continue;  // missing: skipped, as an empty CSV cell
-      const double q = v * scale + offset;
-      if (!std::isfinite(q) || q < 0) {
+      const double q = readableDischarge(v * scale + offset);
+      if (std::isnan(q)) {
         InputLocation at = where;
         (gauges ? at.gauge_id : at.reach_id) = ids[r];
         at.time = formatIsoTime(t[k], raw.utc_offset_min, 0);
-        throw InputError(at, fmt::format("discharge {} is not finite and >= 0", q));
+        throw InputError(at, dischargeProblem(v * scale + offset));
       }
       series.t_s.push_back(t[k]);
       series.q_m3s.push_back(q);

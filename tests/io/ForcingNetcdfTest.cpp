@@ -261,7 +261,7 @@ TEST_F(ForcingNetcdfTest, BadFilesNameTheFile) {
   variant([](HandFile& h) { h.utc_offset_minutes = 19 * 60; }, "±18:00");
   variant([](HandFile& h) { h.ids = {"A", "A"}; }, "twice");
   variant([](HandFile& h) { h.values[5] = -9999.0f; }, "missing value");
-  variant([](HandFile& h) { h.values[2] = -1.0f; }, "not finite and >= 0");
+  variant([](HandFile& h) { h.values[2] = -1.0f; }, "is negative");
   const fs::path text = dir_ / "not.nc";
   std::ofstream(text) << "time,R1\n";
   expectInputErrorNaming([&] { NetcdfForcingSource source(text); }, text, "netCDF");
