@@ -491,7 +491,13 @@ RawForcing readObservedNetcdf(const std::filesystem::path& path) {
 
   RawForcing raw;
   raw.file = path.string();
-  raw.utc_offset_min = static_cast<int>(numberAttribute(ncid, time_var, "utc_offset_minutes").value_or(0.0));
+  const double offset_min = numberAttribute(ncid, time_var, "utc_offset_minutes").value_or(0.0);
+  try {
+    routing::TimeAxis::requireUtcOffset(offset_min);  // before it is made an integer
+  } catch (const InvalidParameter& e) {
+    throw InputError(at_time, e.what());
+  }
+  raw.utc_offset_min = static_cast<int>(offset_min);
   for (std::size_t r = 0; r < ids.size(); ++r) {
     RawSeries series;  // every station, also one with no value (it is reported by name)
     for (std::size_t k = 0; k < steps; ++k) {

@@ -352,6 +352,23 @@ TEST_F(NetcdfHostileTest, ObservedOfHostileShapeIsRefused) {
   p = make("obs_far.nc", h);
   expectRefused([&] { readObservedNetcdf(p); }, p, "time", "outside the years");
 
+  // A UTC offset of 1e30 minutes (was converted to int: undefined).
+  File o = validObserved();
+  o.vars[0].text_atts.clear();
+  p = make("obs_offset.nc", o);
+  {
+    int nc = 0, var = 0;
+    ASSERT_EQ(nc_open(p.c_str(), NC_WRITE, &nc), NC_NOERR);
+    ASSERT_EQ(nc_inq_varid(nc, "time", &var), NC_NOERR);
+    nc_redef(nc);
+    const std::string units = "hours since 2026-05-01T00:00:00Z";
+    nc_put_att_text(nc, var, "units", units.size(), units.c_str());
+    const double offset = 1e30;
+    nc_put_att_double(nc, var, "utc_offset_minutes", NC_DOUBLE, 1, &offset);
+    ASSERT_EQ(nc_close(nc), NC_NOERR);
+  }
+  expectRefused([&] { readObservedNetcdf(p); }, p, "time", "utc_offset");
+
   File n = validObserved();
   var(n, "time").values = {0, std::numeric_limits<double>::quiet_NaN(), 2};
   p = make("obs_nan.nc", n);
