@@ -33,6 +33,8 @@ struct CalibrateOptions {
   /// Where the bounds came from, for an error naming them: a flag or the run file's key.
   std::string lower_from = "--lower", upper_from = "--upper";
   unsigned threads = 0;
+  std::optional<double> dt_s;   ///< unset: the forcing's own step
+  std::size_t max_steps = io::kDefaultMaxSteps;
   bool overwrite = false;
 };
 
@@ -56,6 +58,7 @@ void applyRunFile(const CLI::App& sub, CalibrateOptions& o) {
     take("--max-evaluations", o.max_evaluations, c.max_evaluations);
     take("--tolerance", o.tolerance, c.tolerance);
     take("--min-observations", o.min_observations, c.min_observations);
+    take("--max-steps", o.max_steps, c.max_steps);
   }
   if (!(o.lower < o.upper)) {
     InputLocation where;
@@ -77,6 +80,7 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
   if (!o.inflow.empty()) route.insert("inflow", absolute(o.inflow));
   if (!o.lateral.empty()) route.insert("lateral", absolute(o.lateral));
   route.insert("method", o.method);
+  if (o.dt_s) route.insert("dt", *o.dt_s);
   toml::table file{{"route", route}};
   if (const auto& lakes = result.network->lakes) {
     toml::table network{{"lakes", absolute(lakes->source)}, {"lakes_layer", lakes->layer}};
@@ -142,6 +146,8 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   request.network.lakes_layer = o.lakes_layer;
   request.forcing.inflow = o.inflow;
   request.forcing.lateral = o.lateral;
+  request.forcing.dt_s = o.dt_s;
+  request.forcing.max_steps = o.max_steps;
   request.gauges = {o.observed, o.gauges, o.gauges_layer, o.gauge_snap_m};
   request.method = *run::methodFromName(o.method);
   request.threads = o.threads;
@@ -242,7 +248,12 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
   sub->add_option("--min-observations", o->min_observations,
                   "Fewest observations within the run for a gauge to be calibrated (default 10)")
       ->check(CLI::Range(1, 1000000000));
-  sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
+  sub->add_option("--dt", o->dt_s, "Time step to resample CSV forcing to, s (default: the inflow file's)")
+      ->check(timeStepCheck());
+  sub->add_option("--max-steps", o->max_steps,
+                  fmt::format("Most time steps the run may have (default {})", io::kDefaultMaxSteps))
+      ->check(CLI::Range(std::size_t{2}, kMostSteps));
+  sub->add_option("--threads", o->threads, threadsHelp())->check(CLI::Range(1u, kMostThreads));
   sub->add_option("--report", o->report,
                   "Folder for an HTML report of the calibrated run, comparing the gauges before and after");
   sub->add_flag("--overwrite", o->overwrite, "Replace --out (and --report) if they exist");

@@ -3,13 +3,36 @@
 #include <fmt/format.h>
 #include <fmt/ostream.h>
 
+#include <cmath>
 #include <new>
 #include <ostream>
 
 #include "Subcommand.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::cli {
+
+CLI::Validator timeStepCheck() {
+  return CLI::Validator(
+      [](std::string& text) -> std::string {
+        double dt = 0;
+        try {
+          std::size_t used = 0;
+          dt = std::stod(text, &used);
+          if (used != text.size()) return "'" + text + "' is not a number of seconds";
+        } catch (const std::exception&) {
+          return "'" + text + "' is not a number of seconds";
+        }
+        if (!std::isfinite(dt) || !(dt >= routing::TimeAxis::kMinStep_s))
+          return fmt::format("the time step must be a finite number of seconds, at least {} s (got {})",
+                             routing::TimeAxis::kMinStep_s, text);
+        return {};
+      },
+      "SECONDS");
+}
+
+std::string threadsHelp() { return fmt::format("Worker threads, 1 to {} (default: all cores)", kMostThreads); }
 
 int guarded(std::ostream& err, const std::string& subject, const std::function<int()>& body) {
   try {

@@ -36,6 +36,8 @@ struct RouteOptions {
   std::optional<double> dt_s;   ///< unset: the forcing's own step
   double diffusion_below = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;
+  std::size_t max_steps = io::kDefaultMaxSteps;
+  std::size_t max_hydrograph_rows = run::kDefaultMaxHydrographRows;
   bool write_back = false, overwrite = false, quiet = false, demo = false;
   std::string command_line;
 };
@@ -253,6 +255,8 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
   r.forcing.dt_s = o.dt_s;
+  r.forcing.max_steps = o.max_steps;
+  r.max_hydrograph_rows = o.max_hydrograph_rows;
   r.method = *run::methodFromName(o.method);  // CLI11 and the run file admit only the method names
   r.diffusion_below_ponce = o.diffusion_below;
   r.threads = o.threads;
@@ -310,6 +314,8 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--report", o.report, c.report);
   take("--hydrographs", o.hydrographs, c.hydrographs);
   take("--threads", o.threads, c.threads);
+  take("--max-steps", o.max_steps, c.max_steps);
+  take("--max-hydrograph-rows", o.max_hydrograph_rows, c.max_hydrograph_rows);
   take("--write-back", o.write_back, c.write_back);
   take("--overwrite", o.overwrite, c.overwrite);
   take("--quiet", o.quiet, c.quiet);
@@ -344,7 +350,14 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--diffusion-below", o->diffusion_below,
                   "vpmc routes reaches whose Ponce number is below this with the diffusion wave (default 30; 0: never)")
       ->check(CLI::NonNegativeNumber);
-  sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(CLI::PositiveNumber);
+  sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(timeStepCheck());
+  sub->add_option("--max-steps", o->max_steps,
+                  fmt::format("Most time steps the run may have (default {})", io::kDefaultMaxSteps))
+      ->check(CLI::Range(std::size_t{2}, kMostSteps));
+  sub->add_option("--max-hydrograph-rows", o->max_hydrograph_rows,
+                  fmt::format("Most hydrograph rows (reaches x steps) the run may write (default {})",
+                              run::kDefaultMaxHydrographRows))
+      ->check(CLI::PositiveNumber);
   sub->add_option("--out", o->out, "Output GeoPackage (default reachwise-results.gpkg)");
   sub->add_option("--csv", o->csv, "Also write the tables as CSV files into this folder");
   sub->add_flag("--write-back", o->write_back, "Write the result layers into the input GeoPackage (prefix rw_)");
@@ -355,7 +368,7 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--series", o->series_nc,
                   "Write the chosen hydrographs to this NetCDF file instead of the GeoPackage table");
   sub->add_option("--report", o->report, "Write an HTML run report with figures into this folder");
-  sub->add_option("--threads", o->threads, "Worker threads (default: all cores)")->check(CLI::PositiveNumber);
+  sub->add_option("--threads", o->threads, threadsHelp())->check(CLI::Range(1u, kMostThreads));
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
   sub->callback([&chosen, o, sub, command_line] {
     o->command_line = command_line;

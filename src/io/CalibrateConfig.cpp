@@ -61,6 +61,8 @@ CalibrateConfig CalibrateConfig::fromString(const std::string& text, const std::
       c.max_evaluations = count(v, origin, key, 4);
     } else if (key == "min_observations") {
       c.min_observations = count(v, origin, key, 1);
+    } else if (key == "max_steps") {
+      c.max_steps = count(v, origin, key, 2);
     } else {
       throw keyError(origin, key, "unknown key (see docs/formats.md, \"Calibration\")");
     }

@@ -13,6 +13,14 @@ std::string_view kindName(ForcingKind kind) {
   return kind == ForcingKind::Inflow ? "inflow" : "lateral";
 }
 
+std::string dischargeProblem(double q_m3s) {
+  if (!std::isfinite(q_m3s)) return fmt::format("discharge {} is not finite", q_m3s);
+  if (q_m3s < 0) return fmt::format("discharge {} is negative", q_m3s);
+  return fmt::format("discharge {:g} m3/s is above the largest this program reads, {:g} m3/s (a unit or typing "
+                     "error?)",
+                     q_m3s, kMaxDischarge_m3s);
+}
+
 std::vector<std::string> ForcingSource::ids() const {
   std::vector<std::string> all = ids(ForcingKind::Inflow);
   const std::vector<std::string> lat = ids(ForcingKind::Lateral);
@@ -24,15 +32,17 @@ std::vector<std::string> ForcingSource::ids() const {
 
 MemoryForcingSource::MemoryForcingSource(Forcing forcing) : forcing_(std::move(forcing)) {
   for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
-    for (const auto& [id, values] : forcing_.series(kind)) {
+    for (auto& [id, values] : forcing_.series(kind)) {
       if (values.size() != forcing_.axis.steps)
         throw InvalidParameter(std::string(kindName(kind)),
                                fmt::format("reach {}: {} values on an axis of {} steps", id,
                                            values.size(), forcing_.axis.steps));
-      for (double q : values)
-        if (!std::isfinite(q) || q < 0)
-          throw InvalidParameter(std::string(kindName(kind)),
-                                 fmt::format("reach {}: discharge {} is not finite and >= 0", id, q));
+      for (double& q : values) {
+        const double readable = readableDischarge(q);
+        if (std::isnan(readable))
+          throw InvalidParameter(std::string(kindName(kind)), fmt::format("reach {}: {}", id, dischargeProblem(q)));
+        q = readable;
+      }
     }
   }
 }

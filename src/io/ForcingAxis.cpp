@@ -34,7 +34,7 @@ double fileStep(const RawForcing& file, bool require) {
       where.reach_id = id;
       where.field = "time";
       throw InputError(where, fmt::format("a step of {} s from the previous sample, where the "
-                                          "file's step is {} s; give a time step to resample",
+                                          "file's step is {} s; give a time step (--dt) to resample",
                                           d, step));
     }
   }
@@ -54,13 +54,13 @@ double chooseStep(const RawForcing* inflow, const RawForcing* lateral,
     InputLocation where;
     where.file = lateral->file;
     throw InputError(where, fmt::format("its step of {} s differs from the inflow file's {} s; "
-                                        "give a time step to resample both", lat, in));
+                                        "give a time step (--dt) to resample both", lat, in));
   }
   if (!std::isnan(in)) return in;
   if (!std::isnan(lat)) return lat;
   InputLocation where;
   where.file = (inflow ? inflow : lateral)->file;
-  throw InputError(where, "no reach has two samples, so the time step is unknown; give one");
+  throw InputError(where, "no reach has two samples, so the time step is unknown; give one (--dt)");
 }
 
 struct Span {
@@ -92,7 +92,7 @@ std::vector<double> placeOnGrid(const RawSeries& s, const routing::TimeAxis& axi
       where.reach_id = id;
       where.field = "time";
       throw InputError(where, fmt::format("the time is not on the run's grid ({} + k × {} s); "
-                                          "give a time step to resample",
+                                          "give a time step (--dt) to resample",
                                           formatIsoTime(axis.start_unix_s, axis.utc_offset_min),
                                           axis.dt_s));
     }
@@ -159,6 +159,10 @@ void noteHolds(const RawForcing& file, ForcingKind kind, const routing::TimeAxis
 
 }  // namespace
 
+std::string maxStepsAdvice(double needed) {
+  return fmt::format("give --max-steps {:.0f} (or max_steps = {:.0f} in the run file) to allow it", needed, needed);
+}
+
 routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* lateral,
                                     const AxisRequest& request) {
   if (!inflow && !lateral) throw InvalidParameter("forcing", "neither an inflow nor a lateral file");
@@ -176,13 +180,30 @@ routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* 
   const Span data = dataSpan(inflow, lateral);
   const double start = request.start_unix_s ? static_cast<double>(*request.start_unix_s) : data.first;
   const double end = request.end_unix_s ? static_cast<double>(*request.end_unix_s) : data.last;
+  // Checked before the instants are formatted or made integers.
+  try {
+    routing::TimeAxis::requireInRange("start", start);
+    routing::TimeAxis::requireInRange("end", end);
+  } catch (const InvalidParameter& e) {
+    if (request.start_unix_s && request.end_unix_s) throw;
+    throw InputError(where, e.what());
+  }
   if (start != std::floor(start))
-    throw InputError(where, fmt::format("the run would start at {}, not on a whole second; give a start",
+    throw InputError(where, fmt::format("the run would start at its earliest sample, {}, which is not on a whole "
+                                        "second; put the times on whole seconds",
                                         formatIsoTime(start, offset, 6)));
   if (end < start)
     throw InvalidParameter("end", fmt::format("the run end {} is before its start {}",
                                               formatIsoTime(end, offset, 3), formatIsoTime(start, offset, 3)));
   const double intervals = std::round((end - start) / dt);
+  if (!(intervals + 1 <= static_cast<double>(request.max_steps))) {
+    InputLocation at = where;
+    if (inflow && lateral) at.file = inflow->file + " and " + lateral->file;
+    throw InputError(at, fmt::format("the run from {} to {} at a step of {} s would have {:.0f} time steps, more "
+                                     "than the {} allowed; {}, or choose a longer time step",
+                                     formatIsoTime(start, offset, 3), formatIsoTime(end, offset, 3), dt,
+                                     intervals + 1, request.max_steps, maxStepsAdvice(intervals + 1)));
+  }
   if (std::abs(end - start - intervals * dt) > kSameInstant_s)
     throw InputError(where, fmt::format("the run from {} to {} ({} s) is not a whole number of "
                                         "{} s steps; choose a time step that divides it",

@@ -55,7 +55,10 @@ double parseDischarge(std::string_view raw, const InputLocation& where, units::S
   if (!std::isfinite(value))
     throw InputError(where, fmt::format("discharge '{}' is not finite", trimCsvField(raw)));
   if (value < 0) throw InputError(where, fmt::format("discharge {} is negative", trimCsvField(raw)));
-  return unit == units::System::USCustomary ? units::cfsToM3s(value) : value;
+  const double q = unit == units::System::USCustomary ? units::cfsToM3s(value) : value;
+  const double readable = readableDischarge(q);
+  if (std::isnan(readable)) throw InputError(where, dischargeProblem(q));
+  return readable;
 }
 
 IsoTime parseTime(std::string_view raw, InputLocation where) {
@@ -154,6 +157,7 @@ void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units:
       if (values == CsvValues::Observed && isMissing(rec.fields[c])) continue;
       InputLocation qwhere = where;
       qwhere.reach_id = ids[c - 1];
+      qwhere.field = "discharge";
       const double q = parseDischarge(rec.fields[c], qwhere, unit);
       append(out.series[ids[c - 1]], t.seconds(), q, qwhere, "the time");
     }

@@ -51,8 +51,8 @@ private:
   std::unique_ptr<ForcingSource> inflow_, lateral_;
 };
 
-std::unique_ptr<NetcdfForcingSource> openNetcdf(const fs::path& path, ForcingKind kind) {
-  auto source = std::make_unique<NetcdfForcingSource>(path);
+std::unique_ptr<NetcdfForcingSource> openNetcdf(const fs::path& path, ForcingKind kind, std::size_t max_steps) {
+  auto source = std::make_unique<NetcdfForcingSource>(path, max_steps);
   if (source->ids(kind).empty())
     throw fileError(path, fmt::format("given as {} forcing but has no `{}` variable (docs/formats.md, "
                                       "\"NetCDF layout\")",
@@ -112,8 +112,8 @@ OpenedForcing openForcing(const std::optional<fs::path>& inflow, const std::opti
   }
 
   std::unique_ptr<ForcingSource> in_src, lat_src;
-  if (nc_inflow) in_src = openNetcdf(*inflow, ForcingKind::Inflow);
-  if (nc_lateral) lat_src = openNetcdf(*lateral, ForcingKind::Lateral);
+  if (nc_inflow) in_src = openNetcdf(*inflow, ForcingKind::Inflow, options.max_steps);
+  if (nc_lateral) lat_src = openNetcdf(*lateral, ForcingKind::Lateral, options.max_steps);
   const fs::path& nc_file = nc_inflow ? *inflow : *lateral;
   const routing::TimeAxis axis = (in_src ? in_src : lat_src)->axis();
   requireCompatible(nc_file, axis, options);
@@ -125,6 +125,7 @@ OpenedForcing openForcing(const std::optional<fs::path>& inflow, const std::opti
   CsvForcingOptions beside;
   beside.unit = options.unit;
   beside.on_axis = axis;
+  beside.max_steps = options.max_steps;
   auto readCsv = [&](const fs::path& path, bool as_inflow) {
     Forcing f = as_inflow ? readForcingCsv(path, std::nullopt, beside)
                           : readForcingCsv(std::nullopt, path, beside);

@@ -160,37 +160,69 @@ double dischargeFactor(const std::optional<std::string>& units, const std::files
 }
 
 
-/// The ids along dimension `dim` held by `var` (NC_STRING, or a 2-D char
-/// array), trimmed; an empty or repeated id is an InputError naming it.
+/// Most times, and values, an observations file may hold (1e8 times is
+/// three millennia at one a second; 5e8 values take 4 GB).
+constexpr std::size_t kMaxObservedTimes = 100'000'000;
+constexpr std::size_t kMaxObservedValues = 500'000'000;
+
+/// Largest text of station ids read from one variable, bytes (1 GiB): far
+/// beyond any network, small enough to allocate.
+constexpr std::size_t kMaxIdBytes = std::size_t{1} << 30;
+
+/// The dimension ids of variable `var` and their lengths.
+struct Shape {
+  nc_type type = NC_NAT;
+  std::vector<int> dims;
+  std::vector<std::size_t> lengths;
+};
+
+Shape shapeOf(int ncid, int var, const std::filesystem::path& path, const std::string& name) {
+  Shape shape;
+  int ndims = 0;
+  detail::check(nc_inq_var(ncid, var, nullptr, &shape.type, &ndims, nullptr, nullptr), path, "inspecting '" + name + "'");
+  shape.dims.resize(static_cast<std::size_t>(ndims));
+  shape.lengths.resize(shape.dims.size());
+  if (ndims > 0) detail::check(nc_inq_vardimid(ncid, var, shape.dims.data()), path, "inspecting '" + name + "'");
+  for (std::size_t d = 0; d < shape.dims.size(); ++d)
+    detail::check(nc_inq_dimlen(ncid, shape.dims[d], &shape.lengths[d]), path, "inspecting '" + name + "'");
+  return shape;
+}
+
+/// The ids along dimension `dim_name` held by `var_name` (NC_STRING on
+/// that dimension, or a 2-D char array whose first dimension it is),
+/// trimmed; a variable of another shape, an empty or a repeated id is an
+/// InputError naming it. Buffers are sized from the variable's own shape.
 std::vector<std::string> stationIds(int ncid, const std::filesystem::path& path, const std::string& dim_name,
                                     const std::string& var_name) {
-  int dim = 0, var = 0, ndims = 0;
-  nc_type type = NC_NAT;
+  int dim = 0, var = 0;
   std::vector<std::string> ids;
   detail::check(nc_inq_dimid(ncid, dim_name.c_str(), &dim), path, "finding dimension '" + dim_name + "'");
   detail::check(nc_inq_varid(ncid, var_name.c_str(), &var), path, "finding variable '" + var_name + "'");
-  std::size_t n = 0;
-  detail::check(nc_inq_dimlen(ncid, dim, &n), path, "reading the length of '" + dim_name + "'");
-  detail::check(nc_inq_var(ncid, var, nullptr, &type, &ndims, nullptr, nullptr), path,
-                "inspecting '" + var_name + "'");
+  const Shape shape = shapeOf(ncid, var, path, var_name);
   const InputLocation where = located(path, var_name);
-  if (type == NC_STRING && ndims == 1) {
+  const bool strings = shape.type == NC_STRING && shape.dims.size() == 1;
+  const bool chars = shape.type == NC_CHAR && shape.dims.size() == 2;
+  if (!strings && !chars)
+    throw InputError(where, "'" + var_name + "' must be strings (NC_STRING) on '" + dim_name +
+                                "' or a char array on ('" + dim_name + "', <id length>)");
+  if (shape.dims[0] != dim || (chars && shape.dims[1] == dim))
+    throw InputError(where, "'" + var_name + "' does not run along the dimension '" + dim_name + "'");
+  const std::size_t n = shape.lengths[0];
+  if (strings) {
+    if (n > kMaxIdBytes / sizeof(char*))
+      throw InputError(where, fmt::format("{} ids are more than this program reads", n));
     std::vector<char*> raw(n, nullptr);
-    detail::check(nc_get_var_string(ncid, var, raw.data()), path, "reading '" + var_name + "'");
+    if (n > 0) detail::check(nc_get_var_string(ncid, var, raw.data()), path, "reading '" + var_name + "'");
     for (char* s : raw) ids.push_back(trim(s ? s : ""));
-    nc_free_string(n, raw.data());
-  } else if (type == NC_CHAR && ndims == 2) {
-    int dims[2] = {0, 0};
-    std::size_t len = 0;
-    detail::check(nc_inq_vardimid(ncid, var, dims), path, "inspecting '" + var_name + "'");
-    detail::check(nc_inq_dimlen(ncid, dims[1], &len), path, "inspecting '" + var_name + "'");
-    std::string raw(n * len, '\0');
-    detail::check(nc_get_var_text(ncid, var, raw.data()), path, "reading '" + var_name + "'");
-    for (std::size_t r = 0; r < n; ++r) ids.push_back(trim(raw.substr(r * len, len)));
+    if (n > 0) nc_free_string(n, raw.data());
   } else {
-    throw InputError(where, "'" + var_name + "' must be strings (NC_STRING) or a 2-D char array");
+    const std::size_t len = shape.lengths[1];
+    if (len > 0 && n > kMaxIdBytes / len)
+      throw InputError(where, fmt::format("{} ids of {} characters are more than this program reads", n, len));
+    std::string raw(n * len, '\0');
+    if (!raw.empty()) detail::check(nc_get_var_text(ncid, var, raw.data()), path, "reading '" + var_name + "'");
+    for (std::size_t r = 0; r < n; ++r) ids.push_back(trim(raw.substr(r * len, len)));
   }
-  if (ids.size() != n) throw InputError(where, "'" + var_name + "' does not run along '" + dim_name + "'");
   std::set<std::string> seen;
   for (std::size_t r = 0; r < n; ++r) {
     InputLocation at = where;
@@ -201,9 +233,69 @@ std::vector<std::string> stationIds(int ncid, const std::filesystem::path& path,
   return ids;
 }
 
+/// The times of the `time` coordinate, s since the epoch: `time` must be a
+/// numeric variable on the dimension `time` (its length from the variable,
+/// at most `max_steps`), its units "<unit> since <date-time>", its
+/// calendar standard, without packing attributes; every time finite and
+/// within the years TimeAxis allows. InputError naming the file and `time`
+/// otherwise.
+struct TimeCoordinate {
+  std::vector<double> seconds;
+  std::vector<double> offsets;   ///< seconds after the reference time (steps are taken from these: exact)
+  int time_dim = -1;
+  int time_var = -1;
+};
+
+TimeCoordinate readTimes(int ncid, const std::filesystem::path& path, std::size_t max_steps, bool forcing) {
+  TimeCoordinate out;
+  const InputLocation where = located(path, "time");
+  detail::check(nc_inq_dimid(ncid, "time", &out.time_dim), path, "finding dimension 'time'");
+  detail::check(nc_inq_varid(ncid, "time", &out.time_var), path, "finding variable 'time'");
+  const Shape shape = shapeOf(ncid, out.time_var, path, "time");
+  if (shape.dims.size() != 1 || shape.dims[0] != out.time_dim)
+    throw InputError(where, "'time' must be one-dimensional, on the dimension 'time'");
+  if (shape.type == NC_CHAR || shape.type == NC_STRING)
+    throw InputError(where, "'time' must be numbers (offsets from the reference time of its units)");
+  const std::size_t steps = shape.lengths[0];
+  if (steps > max_steps)
+    throw InputError(where, fmt::format("{} times, more than the {} allowed{}", steps, max_steps,
+                                        forcing ? "; " + maxStepsAdvice(static_cast<double>(steps)) : ""));
+  for (const char* packing : {"scale_factor", "add_offset"}) {
+    std::size_t len = 0;
+    if (nc_inq_attlen(ncid, out.time_var, packing, &len) == NC_NOERR)
+      throw InputError(where, fmt::format("'time' has a {} attribute; store the times unpacked", packing));
+  }
+  const auto units = textAttribute(ncid, out.time_var, "units");
+  if (!units) throw InputError(where, "'time' has no units attribute");
+  const auto [factor, reference] = parseTimeUnits(*units, path);
+  if (const auto calendar = textAttribute(ncid, out.time_var, "calendar")) {
+    const std::string c = lower(*calendar);
+    if (c != "standard" && c != "gregorian" && c != "proleptic_gregorian")
+      throw InputError(where, fmt::format("calendar '{}' is not supported (use \"standard\")", *calendar));
+  }
+  std::vector<double> raw(steps);
+  if (steps > 0) detail::check(nc_get_var_double(ncid, out.time_var, raw.data()), path, "reading 'time'");
+  out.seconds.resize(steps);
+  out.offsets.resize(steps);
+  for (std::size_t k = 0; k < steps; ++k) {
+    const double t = reference + raw[k] * factor;
+    try {
+      if (!std::isfinite(raw[k])) throw InvalidParameter("time", fmt::format("{} is not a finite number", raw[k]));
+      routing::TimeAxis::requireInRange("time", t);
+    } catch (const InvalidParameter& e) {
+      throw InputError(where, fmt::format("time index {} ({} in units '{}'): {}", k, raw[k], *units,
+                                          std::string(e.what()).substr(6)));  // past "time: "
+    }
+    out.seconds[k] = t;
+    out.offsets[k] = raw[k] * factor;
+  }
+  return out;
+}
+
 }  // namespace
 
-NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path) : path_(std::move(path)) {
+NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path, std::size_t max_steps)
+    : path_(std::move(path)), max_steps_(max_steps) {
   const std::lock_guard lock(detail::netcdfMutex());
   detail::check(nc_open(path_.c_str(), NC_NOWRITE, &ncid_), path_, "opening the file");
   try {
@@ -227,50 +319,36 @@ NetcdfForcingSource::~NetcdfForcingSource() {
 }
 
 void NetcdfForcingSource::readAxis() {
-  int dim = 0, var = 0, ndims = 0;
-  detail::check(nc_inq_dimid(ncid_, "time", &dim), path_, "finding dimension 'time'");
-  detail::check(nc_inq_varid(ncid_, "time", &var), path_, "finding variable 'time'");
-  std::size_t steps = 0;
-  detail::check(nc_inq_dimlen(ncid_, dim, &steps), path_, "reading the length of 'time'");
-  detail::check(nc_inq_varndims(ncid_, var, &ndims), path_, "inspecting 'time'");
   const InputLocation where = located(path_, "time");
-  if (ndims != 1) throw InputError(where, "'time' must be one-dimensional");
+  const TimeCoordinate times = readTimes(ncid_, path_, max_steps_, true);
+  const std::vector<double>& t = times.seconds;
+  const std::size_t steps = t.size();
   if (steps < 2) throw InputError(where, fmt::format("{} time step(s); at least 2 are needed", steps));
-  const auto units = textAttribute(ncid_, var, "units");
-  if (!units) throw InputError(where, "'time' has no units attribute");
-  const auto [factor, reference] = parseTimeUnits(*units, path_);
-  if (const auto calendar = textAttribute(ncid_, var, "calendar")) {
-    const std::string c = lower(*calendar);
-    if (c != "standard" && c != "gregorian" && c != "proleptic_gregorian")
-      throw InputError(where, fmt::format("calendar '{}' is not supported (use \"standard\")", *calendar));
-  }
-  std::vector<double> raw(steps);
-  detail::check(nc_get_var_double(ncid_, var, raw.data()), path_, "reading 'time'");
-  const auto seconds = [&](std::size_t k) { return reference + raw[k] * factor; };
-  // Sub-millisecond slack for times stored as fractional hours or days.
-  constexpr double kTolerance_s = 1e-3;
-  const double dt = seconds(1) - seconds(0);
+  const std::vector<double>& rel = times.offsets;
+  const double dt = rel[1] - rel[0];
   if (!(dt > 0)) throw InputError(where, "times do not increase");
+  // Sub-millisecond slack for times stored as fractional hours or days
+  // (and a thousandth of the step for steps shorter than a second).
+  const double tolerance_s = std::min(1e-3, 1e-3 * dt);
   for (std::size_t k = 1; k < steps; ++k) {
-    if (std::abs(seconds(k) - seconds(k - 1) - dt) > kTolerance_s) {
+    if (std::abs(rel[k] - rel[k - 1] - dt) > tolerance_s) {
       InputLocation at = where;
-      at.time = formatIsoTime(seconds(k), 0, 3);
+      at.time = formatIsoTime(t[k], 0, 3);
       throw InputError(at, fmt::format("the step before it is {} s where the first is {} s; "
                                        "forcing must be on one uniform step",
-                                       seconds(k) - seconds(k - 1), dt));
+                                       rel[k] - rel[k - 1], dt));
     }
   }
-  const double start = std::round(seconds(0));
-  if (std::abs(start - seconds(0)) > kTolerance_s)
+  const double start = std::round(t[0]);
+  if (std::abs(start - t[0]) > 1e-3)
     throw InputError(where, "the first time is not on a whole second");
-  const double offset = numberAttribute(ncid_, var, "utc_offset_minutes").value_or(0.0);
+  // A step within a millisecond of a whole number of seconds is that number.
+  const double whole = std::round(dt);
+  const double step = whole >= 1 && std::abs(dt - whole) <= 1e-3 ? whole : dt;
+  const double offset = numberAttribute(ncid_, times.time_var, "utc_offset_minutes").value_or(0.0);
   try {
-    // Checked before they are made integers; the axis checks the rest.
-    routing::TimeAxis::requireInRange("start", start);
     routing::TimeAxis::requireUtcOffset(offset);
-    axis_ = routing::TimeAxis::make(static_cast<std::int64_t>(start),
-                                    std::abs(dt - std::round(dt)) <= kTolerance_s ? std::round(dt) : dt, steps,
-                                    static_cast<int>(offset));
+    axis_ = routing::TimeAxis::make(static_cast<std::int64_t>(start), step, steps, static_cast<int>(offset));
   } catch (const InvalidParameter& e) {
     throw InputError(where, e.what());
   }
@@ -344,11 +422,12 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
   where.reach_id = std::string(id);
   for (std::size_t k = 0; k < out.size(); ++k) {
     const double raw = out[k];
-    out[k] = raw * v.scale + v.offset;
-    if (missing(raw) || !std::isfinite(out[k]) || out[k] < 0) {
+    const double q = raw * v.scale + v.offset;
+    out[k] = readableDischarge(q);
+    if (missing(raw) || std::isnan(out[k])) {
       where.time = formatIsoTime(axis_.at(static_cast<double>(k)), axis_.utc_offset_min, 0);
       throw InputError(where, missing(raw) ? std::string("missing value (_FillValue) inside the series")
-                                           : fmt::format("discharge {} is not finite and >= 0", out[k]));
+                                           : dischargeProblem(q));
     }
   }
   return true;
@@ -364,29 +443,15 @@ RawForcing readObservedNetcdf(const std::filesystem::path& path) {
   } closer{ncid};
 
   // Times: any increasing instants (observations need no uniform step).
-  int time_dim = 0, time_var = 0, ndims = 0;
-  detail::check(nc_inq_dimid(ncid, "time", &time_dim), path, "finding dimension 'time'");
-  detail::check(nc_inq_varid(ncid, "time", &time_var), path, "finding variable 'time'");
-  std::size_t steps = 0;
-  detail::check(nc_inq_dimlen(ncid, time_dim, &steps), path, "reading the length of 'time'");
-  detail::check(nc_inq_varndims(ncid, time_var, &ndims), path, "inspecting 'time'");
+  const TimeCoordinate times = readTimes(ncid, path, kMaxObservedTimes, false);
+  const std::vector<double>& t = times.seconds;
+  const std::size_t steps = t.size();
+  const int time_dim = times.time_dim, time_var = times.time_var;
   const InputLocation at_time = located(path, "time");
-  if (ndims != 1) throw InputError(at_time, "'time' must be one-dimensional");
-  const auto units = textAttribute(ncid, time_var, "units");
-  if (!units) throw InputError(at_time, "'time' has no units attribute");
-  const auto [factor, reference] = parseTimeUnits(*units, path);
-  if (const auto calendar = textAttribute(ncid, time_var, "calendar")) {
-    const std::string c = lower(*calendar);
-    if (c != "standard" && c != "gregorian" && c != "proleptic_gregorian")
-      throw InputError(at_time, fmt::format("calendar '{}' is not supported (use \"standard\")", *calendar));
-  }
-  std::vector<double> t(steps);
-  if (steps > 0) detail::check(nc_get_var_double(ncid, time_var, t.data()), path, "reading 'time'");
-  for (std::size_t k = 0; k < steps; ++k) {
-    t[k] = reference + t[k] * factor;
-    if (!std::isfinite(t[k]) || (k > 0 && !(t[k] > t[k - 1]))) {
+  for (std::size_t k = 1; k < steps; ++k) {
+    if (!(t[k] > t[k - 1])) {
       InputLocation at = at_time;
-      if (std::isfinite(t[k])) at.time = formatIsoTime(t[k], 0, 3);
+      at.time = formatIsoTime(t[k], 0, 3);
       throw InputError(at, fmt::format("time index {} does not come after the one before", k));
     }
   }
@@ -402,7 +467,7 @@ RawForcing readObservedNetcdf(const std::filesystem::path& path) {
   // The values: `discharge` on (time, station) or (station, time).
   const std::string name = kObservedNetcdfVariable;
   const InputLocation where = located(path, name);
-  int var = 0, dims[NC_MAX_VAR_DIMS] = {};
+  int var = 0, ndims = 0, dims[NC_MAX_VAR_DIMS] = {};
   nc_type type = NC_NAT;
   if (nc_inq_varid(ncid, name.c_str(), &var) != NC_NOERR)
     throw InputError(where, fmt::format("the file has no '{}' variable (observed discharge on (time, {}))", name,
@@ -418,23 +483,32 @@ RawForcing readObservedNetcdf(const std::filesystem::path& path) {
                           .value_or(type == NC_DOUBLE ? NC_FILL_DOUBLE : static_cast<double>(NC_FILL_FLOAT));
   const double scale = numberAttribute(ncid, var, "scale_factor").value_or(1.0) * to_m3s;
   const double offset = numberAttribute(ncid, var, "add_offset").value_or(0.0) * to_m3s;
+  if (!ids.empty() && steps > kMaxObservedValues / ids.size())
+    throw InputError(where, fmt::format("{} times × {} stations are more values than this program reads", steps,
+                                        ids.size()));
   std::vector<double> values(steps * ids.size());
   if (!values.empty()) detail::check(nc_get_var_double(ncid, var, values.data()), path, "reading " + name);
 
   RawForcing raw;
   raw.file = path.string();
-  raw.utc_offset_min = static_cast<int>(numberAttribute(ncid, time_var, "utc_offset_minutes").value_or(0.0));
+  const double offset_min = numberAttribute(ncid, time_var, "utc_offset_minutes").value_or(0.0);
+  try {
+    routing::TimeAxis::requireUtcOffset(offset_min);  // before it is made an integer
+  } catch (const InvalidParameter& e) {
+    throw InputError(at_time, e.what());
+  }
+  raw.utc_offset_min = static_cast<int>(offset_min);
   for (std::size_t r = 0; r < ids.size(); ++r) {
     RawSeries series;  // every station, also one with no value (it is reported by name)
     for (std::size_t k = 0; k < steps; ++k) {
       const double v = values[time_first ? k * ids.size() + r : r * steps + k];
       if (std::isnan(v) || v == fill) continue;  // missing: skipped, as an empty CSV cell
-      const double q = v * scale + offset;
-      if (!std::isfinite(q) || q < 0) {
+      const double q = readableDischarge(v * scale + offset);
+      if (std::isnan(q)) {
         InputLocation at = where;
         (gauges ? at.gauge_id : at.reach_id) = ids[r];
         at.time = formatIsoTime(t[k], raw.utc_offset_min, 0);
-        throw InputError(at, fmt::format("discharge {} is not finite and >= 0", q));
+        throw InputError(at, dischargeProblem(v * scale + offset));
       }
       series.t_s.push_back(t[k]);
       series.q_m3s.push_back(q);

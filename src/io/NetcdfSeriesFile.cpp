@@ -1,6 +1,10 @@
 #include "NetcdfSeriesFile.hpp"
 
+#include <fcntl.h>
 #include <netcdf.h>
+#include <sys/stat.h>
+#include <sys/statvfs.h>
+#include <unistd.h>
 
 #include <system_error>
 
@@ -31,7 +35,54 @@ void putText(int ncid, int varid, const char* name, const std::string& value,
         fmt::format("writing attribute {}", name));
 }
 
+/// Points every descriptor of this process open on the file (`dev`, `ino`)
+/// at /dev/null.
+void redirectToNull(dev_t dev, ino_t ino) noexcept {
+  const int null_fd = ::open("/dev/null", O_WRONLY | O_CLOEXEC);
+  if (null_fd < 0) return;
+  const auto redirect = [&](int fd) {
+    struct stat st {};
+    if (fd != null_fd && ::fstat(fd, &st) == 0 && S_ISREG(st.st_mode) && st.st_dev == dev && st.st_ino == ino)
+      ::dup2(null_fd, fd);
+  };
+  std::error_code ec;
+  std::filesystem::directory_iterator fds("/proc/self/fd", ec);
+  if (!ec) {
+    std::vector<int> open_fds;  // listed first: the listing itself holds a descriptor
+    for (const auto& entry : fds) open_fds.push_back(std::atoi(entry.path().filename().c_str()));
+    for (int fd : open_fds) redirect(fd);
+  } else {
+    for (int fd = 0; fd < 4096; ++fd) redirect(fd);
+  }
+  ::close(null_fd);
+}
+
+/// " (no space left on the file system)" when the folder of `file` has no
+/// free block left, else "".
+std::string spaceNote(const std::filesystem::path& file) {
+  struct statvfs fs {};
+  const std::filesystem::path dir = file.has_parent_path() ? file.parent_path() : std::filesystem::path(".");
+  if (::statvfs(dir.c_str(), &fs) == 0 && fs.f_bavail == 0) return " (no space left on the file system)";
+  return "";
+}
+
 }  // namespace
+
+int SeriesFile::closeOrDiscard() noexcept {
+  const int status = nc_close(ncid_);
+  if (status != NC_NOERR && have_identity_) {
+    // HDF5 keeps a file open when the flush at its close fails (a full disk,
+    // a file size limit): netCDF reports the error but leaves the file and
+    // its datasets open, and HDF5's exit handler crashes when it closes
+    // them at process exit. The file is discarded anyway, so what is left
+    // to write goes to /dev/null and the file is closed again, which
+    // releases everything.
+    redirectToNull(dev_, ino_);
+    if (nc_close(ncid_) != NC_NOERR) nc_abort(ncid_);
+  }
+  ncid_ = -1;
+  return status;
+}
 
 SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis,
                        const std::vector<std::string>& reach_ids,
@@ -48,6 +99,11 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
   temp_ = partialPath(path_);
   const std::lock_guard lock(netcdfMutex());
   check(nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_), temp_, "creating the file");
+  if (struct stat st {}; ::stat(temp_.c_str(), &st) == 0) {
+    dev_ = st.st_dev;
+    ino_ = st.st_ino;
+    have_identity_ = true;
+  }
   try {
     define(axis, reach_ids, options, more);
   } catch (...) {
@@ -140,17 +196,17 @@ void SeriesFile::write(std::size_t variable, std::size_t reach, std::span<const 
   const std::size_t start[2] = {0, reach};
   const std::size_t count[2] = {steps_, 1};
   const std::lock_guard lock(netcdfMutex());
-  check(nc_put_vara_double(ncid_, varids_[variable], start, count, values.data()), temp_,
-        "writing " + variables_[variable].name);
+  const int status = nc_put_vara_double(ncid_, varids_[variable], start, count, values.data());
+  if (status != NC_NOERR) check(status, path_, "writing " + variables_[variable].name + spaceNote(temp_));
 }
 
 void SeriesFile::finish() {
   if (finished_) return;
   {
     const std::lock_guard lock(netcdfMutex());
-    const int status = nc_close(ncid_);
-    ncid_ = -1;
-    check(status, temp_, "closing the file");
+    const int status = closeOrDiscard();
+    // (The destructor removes the temporary file.)
+    if (status != NC_NOERR) check(status, path_, "closing the file" + spaceNote(temp_));
   }
   std::error_code ec;
   std::filesystem::rename(temp_, path_, ec);
@@ -163,10 +219,7 @@ void SeriesFile::finish() {
 }
 
 void SeriesFile::abandon() noexcept {
-  if (ncid_ >= 0) {
-    nc_close(ncid_);
-    ncid_ = -1;
-  }
+  if (ncid_ >= 0) closeOrDiscard();
   std::error_code ec;
   std::filesystem::remove(temp_, ec);
 }

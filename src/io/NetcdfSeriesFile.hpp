@@ -7,6 +7,7 @@
 #include <cstddef>
 #include <filesystem>
 #include <mutex>
+#include <sys/types.h>
 #include <span>
 #include <string>
 #include <vector>
@@ -88,6 +89,10 @@ private:
   void define(const routing::TimeAxis& axis, const std::vector<std::string>& reach_ids,
               const SeriesFileOptions& options, const std::vector<SeriesStations>& more);
   void abandon() noexcept;
+  /// nc_close; when it fails, the file's descriptors are pointed at
+  /// /dev/null and it is closed again, so that nothing of it stays open in
+  /// HDF5. Returns the first nc_close's status; `ncid_` is -1 after.
+  int closeOrDiscard() noexcept;
 
   std::filesystem::path path_;
   std::filesystem::path temp_;
@@ -98,6 +103,10 @@ private:
   std::size_t steps_ = 0;
   int ncid_ = -1;
   bool finished_ = false;
+  /// The temporary file's device and inode, to find its descriptors.
+  dev_t dev_ = 0;
+  ino_t ino_ = 0;
+  bool have_identity_ = false;
 };
 
 }  // namespace reachwise::io::detail

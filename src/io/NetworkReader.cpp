@@ -217,6 +217,11 @@ void readFeatures(OGRLayer& layer, const detail::ReachAttributes& attrs, const L
             ProblemCode::InvalidGeometry, r,
             "coordinates are not valid latitude/longitude for the geographic CRS; feature skipped"));
         keep = false;
+      } else if (std::isinf(r.geometry_length_m)) {
+        problems.push_back(reachProblem(ProblemCode::NonFiniteLength, r,
+                                        "the line's length is not a finite number (its coordinates are too far "
+                                        "apart); feature skipped"));
+        keep = false;
       } else if (!(r.geometry_length_m > 0))
         problems.push_back(reachProblem(ProblemCode::ZeroLength, r,
                                                  "the line has zero length"));

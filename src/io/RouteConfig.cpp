@@ -2,10 +2,14 @@
 
 #include <toml++/toml.h>
 
+#include <cmath>
 #include <filesystem>
+
+#include <fmt/format.h>
 
 #include "RunFile.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::io {
 
@@ -75,7 +79,13 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
         throw keyError(origin, key, "expected \"vpmc\", \"mc\" or \"muskingum\", got \"" + *c.method + "\"");
     } else if (key == "dt") {
       c.dt_s = required<double>(v, origin, key, "a number of seconds");
-      if (!(*c.dt_s > 0)) throw keyError(origin, key, "must be positive");
+      if (!std::isfinite(*c.dt_s) || !(*c.dt_s >= routing::TimeAxis::kMinStep_s))
+        throw keyError(origin, key, fmt::format("must be a finite number of seconds, at least {} s",
+                                                routing::TimeAxis::kMinStep_s));
+    } else if (key == "max_steps" || key == "max_hydrograph_rows") {
+      const auto n = required<std::int64_t>(v, origin, key, "a whole number");
+      if (n < 2) throw keyError(origin, key, "must be at least 2");
+      (key == "max_steps" ? c.max_steps : c.max_hydrograph_rows) = static_cast<std::size_t>(n);
     } else if (key == "threads") {
       const auto t = required<std::int64_t>(v, origin, key, "a whole number");
       if (t < 1 || t > 4096) throw keyError(origin, key, "must be between 1 and 4096");

@@ -23,6 +23,7 @@ constexpr std::array<ProblemKind, kProblemCodeCount> kKinds{{
   {ImplausibleAttribute,    "implausible_attribute",     W, true,  "a value in range but unlikely (n or slope above 0.3)"},
   {ZeroLength,              "zero_length",               E, false, "the reach length (field or geometry) is not > 0"},
   {LengthMismatch,          "length_mismatch",           W, false, "the length field and the geometry differ by > 10 %"},
+  {NonFiniteLength,         "non_finite_length",         E, false, "the reach length (field or geometry) is not a finite number"},
   {SplitLine,               "split_line",                W, false, "a line was cut where a tributary joins mid-line"},
   {FlippedLine,             "flipped_line",              W, false, "a line was reversed by the orientation step"},
   {ProbableGap,             "probable_gap",              E, false, "an unconnected end close to another line"},

@@ -110,9 +110,14 @@ void checkLengths(const ReachGraph& graph, ProblemList& out) {
   for (Vertex v = 0; v < graph.size(); ++v) {
     const double length_m = graph.lengthM(v);
     if (length_m > 0 && std::isfinite(length_m)) continue;
-    out.push_back(at(graph, v, graph.top(v), ProblemCode::ZeroLength,
-                     fmt::format("Reach {} has length {} m; a reach needs a positive length.",
-                                 graph.id(v), length_m)));
+    if (length_m > 0 || std::isnan(length_m))  // infinite (coordinates or a field too large), or NaN
+      out.push_back(at(graph, v, graph.top(v), ProblemCode::NonFiniteLength,
+                       fmt::format("Reach {} has length {} m; a reach needs a finite length.", graph.id(v),
+                                   length_m)));
+    else
+      out.push_back(at(graph, v, graph.top(v), ProblemCode::ZeroLength,
+                       fmt::format("Reach {} has length {} m; a reach needs a positive length.",
+                                   graph.id(v), length_m)));
   }
 }
 

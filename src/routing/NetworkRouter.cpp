@@ -2,6 +2,7 @@
 
 #include <tbb/enumerable_thread_specific.h>
 #include <tbb/parallel_for_each.h>
+#include <tbb/info.h>
 #include <tbb/task_arena.h>
 
 #include <algorithm>
@@ -112,7 +113,12 @@ public:
       }
     };
     if (options_.threads > 0) {
-      tbb::task_arena arena(static_cast<int>(options_.threads));
+      // No more threads than the machine runs at once: the results do not
+      // depend on the count, and the threading library warns (on stderr)
+      // of a larger request, which it would not honour anyway.
+      const int threads = std::min(static_cast<int>(std::min<unsigned>(options_.threads, 1u << 20)),
+                                   tbb::info::default_concurrency());
+      tbb::task_arena arena(std::max(threads, 1));
       results_.threads = static_cast<unsigned>(arena.max_concurrency());
       arena.execute([&] { tbb::parallel_for_each(roots.begin(), roots.end(), body); });
     } else {

@@ -20,6 +20,7 @@ io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkP
     throw InvalidParameter("forcing", "neither an inflow nor a lateral inflow file is named");
   io::CsvForcingOptions options;
   options.dt_s = files.dt_s;
+  options.max_steps = files.max_steps;
   options.unit = unit;
   auto path = [](const std::string& p) {
     if (p.empty()) return std::optional<std::filesystem::path>();

@@ -77,6 +77,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
 
   tell.stage("reading the forcing");
   const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
+  requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
   summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.units);
   std::vector<std::uint32_t> gauged;
   for (const auto& g : summary.gauges.gauges) gauged.push_back(g.reach);

@@ -3,6 +3,8 @@
 #include <fmt/format.h>
 #include <fmt/ranges.h>
 
+#include <cctype>
+#include <algorithm>
 #include <map>
 #include <string>
 
@@ -48,7 +50,9 @@ io::SeriesSelection chooseSeries(std::string_view spec, const network::NetworkPl
   while (start <= spec.size()) {
     std::size_t end = spec.find(',', start);
     if (end == std::string_view::npos) end = spec.size();
-    const std::string_view token = spec.substr(start, end - start);
+    std::string_view token = spec.substr(start, end - start);
+    while (!token.empty() && std::isspace(static_cast<unsigned char>(token.front()))) token.remove_prefix(1);
+    while (!token.empty() && std::isspace(static_cast<unsigned char>(token.back()))) token.remove_suffix(1);
     start = end + 1;
     if (token.empty() || token == "none") continue;
     if (token == "all" || (token == "auto" && n < kAutoAllBelowReaches)) {
@@ -80,6 +84,21 @@ io::SeriesSelection chooseSeries(std::string_view spec, const network::NetworkPl
   for (std::uint32_t i = 0; i < n; ++i)
     if (pick[i]) chosen.push_back(i);
   return chosen.size() == n ? io::SeriesSelection::all() : io::SeriesSelection::of(std::move(chosen));
+}
+
+void requireHydrographRows(std::string_view spec, const network::NetworkPlan& plan, std::size_t steps,
+                           std::size_t max_rows) {
+  const std::vector<bool> mask = chooseSeries(spec, plan).mask(plan.size());
+  const auto reaches = static_cast<std::size_t>(std::count(mask.begin(), mask.end(), true));
+  const double rows = static_cast<double>(reaches) * static_cast<double>(steps);
+  if (rows <= static_cast<double>(max_rows)) return;
+  InputLocation at;
+  at.field = "hydrographs";
+  throw InputError(at, fmt::format("{} reaches × {} time steps would write {:.0f} hydrograph rows, more than the {} "
+                                   "allowed; choose fewer reaches (--hydrographs outlets, or none), or give "
+                                   "--max-hydrograph-rows {:.0f} (or max_hydrograph_rows = {:.0f} in the run file) "
+                                   "to allow them",
+                                   reaches, steps, rows, max_rows, rows, rows));
 }
 
 }  // namespace reachwise::run

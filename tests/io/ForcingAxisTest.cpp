@@ -107,3 +107,38 @@ TEST(ForcingAxis, TimesOutsideWhatAnAxisMayCoverAreRefused) {
   window.dt_s = 3600;
   EXPECT_THROW(chooseForcingAxis(&inflow, nullptr, window), InvalidParameter);
 }
+
+TEST(ForcingAxis, AFirstSampleOffTheWholeSecondSaysToPutTimesOnWholeSeconds) {
+  // The run starts at the earliest sample; there is no start option to
+  // give, so the message asks for whole-second times instead.
+  RawForcing f = hourlySamples();
+  for (double& t : f.series["R1"].t_s) t += 0.5;
+  try {
+    chooseForcingAxis(&f, nullptr, {});
+    ADD_FAILURE() << "a start at half a second was accepted";
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    EXPECT_EQ(what.find("give a start"), std::string::npos) << what;
+    EXPECT_NE(what.find("whole second"), std::string::npos) << what;
+  }
+}
+
+TEST(ForcingAxis, AnAxisLongerThanAllowedIsRefusedBeforeItIsMade) {
+  // Three hourly samples make three steps: allowed with max_steps 3, not 2.
+  const RawForcing f = hourlySamples();
+  AxisRequest request;
+  request.max_steps = 3;
+  EXPECT_EQ(chooseForcingAxis(&f, nullptr, request).steps, 3u);
+  request.max_steps = 2;
+  try {
+    chooseForcingAxis(&f, nullptr, request);
+    ADD_FAILURE() << "three steps were allowed under a limit of two";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("--max-steps 3"), std::string::npos) << e.what();
+  }
+  // 1e-16 s over two hours is 7.2e19 intervals, beyond size_t: refused, not
+  // converted (undefined behaviour).
+  AxisRequest tiny;
+  tiny.dt_s = 1e-16;
+  EXPECT_THROW(chooseForcingAxis(&f, nullptr, tiny), InvalidParameter);
+}

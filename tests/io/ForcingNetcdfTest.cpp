@@ -256,12 +256,14 @@ TEST_F(ForcingNetcdfTest, BadFilesNameTheFile) {
   variant([](HandFile& h) { h.time_units = "fortnights since 2026-05-01"; }, "time unit");
   variant([](HandFile& h) { h.time_units = "hours since 2026-13-01"; }, "month 13");
   // Times outside what an axis may cover (1678-2261), an offset beyond ±18:00.
-  variant([](HandFile& h) { h.time_units = "hours since 1500-05-01"; }, "start: ");
-  variant([](HandFile& h) { h.time_units = "days since 2261-12-30"; }, "end: ");
+  // Each time is checked as it is read: the first one out of range is named.
+  variant([](HandFile& h) { h.time_units = "hours since 1500-05-01"; }, "time index 0 (0 in units");
+  variant([](HandFile& h) { h.time_units = "days since 2261-12-30"; }, "time index 2 (2 in units");
+  variant([](HandFile& h) { h.time_units = "days since 2261-12-30"; }, "outside the years 1678-2261");
   variant([](HandFile& h) { h.utc_offset_minutes = 19 * 60; }, "±18:00");
   variant([](HandFile& h) { h.ids = {"A", "A"}; }, "twice");
   variant([](HandFile& h) { h.values[5] = -9999.0f; }, "missing value");
-  variant([](HandFile& h) { h.values[2] = -1.0f; }, "not finite and >= 0");
+  variant([](HandFile& h) { h.values[2] = -1.0f; }, "is negative");
   const fs::path text = dir_ / "not.nc";
   std::ofstream(text) << "time,R1\n";
   expectInputErrorNaming([&] { NetcdfForcingSource source(text); }, text, "netCDF");

@@ -1,3 +1,5 @@
+#include <cmath>
+
 #include <gtest/gtest.h>
 
 #include <algorithm>
@@ -147,6 +149,23 @@ TEST(Validation, SplitOnAnOrdinaryReachIsAWarning) {
   ASSERT_EQ(found.size(), 1u);
   EXPECT_EQ(found[0].severity, Severity::Warning);
   EXPECT_FALSE(hasErrors(problems));
+}
+
+TEST(Validation, InfiniteLengthIsNotCalledZeroLength) {
+  // A line from -1e300 to 1e300 is 2e300 m long, whose square (in the
+  // length's hypotenuse) overflows to infinity: a length that is not
+  // finite, reported as such and not as a zero length.
+  const auto table = TableBuilder()
+                         .reach("A", "B", {-1e300, 0}, {1e300, 0})
+                         .reach("B", std::nullopt, {5, 5}, {100, 5})
+                         .build();
+  ASSERT_TRUE(std::isinf(table.reaches[0].geometry_length_m));
+  const auto problems = validate(ReachGraph(table));
+  EXPECT_TRUE(withCode(problems, ProblemCode::ZeroLength).empty());
+  const auto found = withCode(problems, ProblemCode::NonFiniteLength);
+  ASSERT_EQ(found.size(), 1u);
+  EXPECT_EQ(found[0].reach_id, "A");
+  EXPECT_EQ(found[0].severity, Severity::Error);
 }
 
 TEST(Validation, ZeroLengthIsAnError) {

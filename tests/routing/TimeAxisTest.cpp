@@ -62,8 +62,11 @@ TEST(TimeAxis, AGoodAxisRoundTrips) {
 }
 
 TEST(TimeAxis, EachBadValueIsRefusedByName) {
-  for (double dt : {0.0, -60.0, std::nan(""), std::numeric_limits<double>::infinity()})
+  // Below a millisecond (times are written to the millisecond), 1e-15 and
+  // 1e-16 among them, is no step either.
+  for (double dt : {0.0, -60.0, std::nan(""), std::numeric_limits<double>::infinity(), 1e-15, 1e-16, 0.0009})
     expectRefused([&] { TimeAxis::make(k2026, dt, 10); }, "dt");
+  EXPECT_NO_THROW(TimeAxis::make(k2026, 0.001, 10));
   expectRefused([] { TimeAxis::make(k2026, 3600, 0); }, "steps");
   expectRefused([] { TimeAxis::make(TimeAxis::kEarliest_unix_s - 1, 3600, 10); }, "start");
   expectRefused([] { TimeAxis::make(TimeAxis::kLatest_unix_s + 1, 3600, 1); }, "start");

@@ -16,6 +16,7 @@ struct CalibrateConfig {
   std::optional<std::string> objective;   ///< "kge", "nse" or "nse_peak"
   std::optional<double> lower, upper;     ///< bounds of the multiplier
   std::optional<std::size_t> max_evaluations, min_observations;
+  std::optional<std::size_t> max_steps;   ///< longest time axis allowed (io/ForcingAxis.hpp)
   std::optional<double> tolerance;        ///< step in log multiplier at which to stop
 
   /// Parses the `[calibrate]` table of `path` (absent table = all unset).

@@ -9,6 +9,7 @@
 /// small and read whole into a `Forcing`, served by `MemoryForcingSource`.
 
 #include <functional>
+#include <limits>
 #include <map>
 #include <set>
 #include <span>
@@ -24,6 +25,30 @@ enum class ForcingKind { Inflow, Lateral };
 
 /// "inflow" or "lateral" (also the NetCDF variable names).
 std::string_view kindName(ForcingKind kind);
+
+/// Largest discharge a forcing or observation value may have, m^3/s
+/// (1e8): about ten times the largest floods known, the outbursts of
+/// ice-age lakes (of the order of 1e7 m^3/s, from memory). A larger value
+/// is a unit or typing error, refused where it is read (file, line or
+/// reach and time) rather than failing later in a reach's hydraulics.
+inline constexpr double kMaxDischarge_m3s = 1e8;
+
+/// Smallest positive discharge read as itself, m^3/s (1e-9, a microlitre
+/// a second): below it a value is read as 0 (no flow), so that a tiny or
+/// subnormal number (4.9e-324) does not reach the hydraulics, whose tables
+/// are built down to a fraction of the smallest inflow.
+inline constexpr double kMinDischarge_m3s = 1e-9;
+
+/// `q_m3s` with values below kMinDischarge_m3s read as 0; NaN when it is
+/// not a discharge this program reads (negative, not finite, or above
+/// kMaxDischarge_m3s), for the caller to refuse naming where it was read.
+inline double readableDischarge(double q_m3s) {
+  if (!(q_m3s >= 0) || !(q_m3s <= kMaxDischarge_m3s)) return std::numeric_limits<double>::quiet_NaN();
+  return q_m3s < kMinDischarge_m3s ? 0.0 : q_m3s;
+}
+
+/// Why `q_m3s` is not readable (readableDischarge is NaN), for messages.
+std::string dischargeProblem(double q_m3s);
 
 /// Reach id → series on the axis, m^3/s. Ordered so that output and error
 /// listings are deterministic; `std::less<>` allows lookup by string_view.

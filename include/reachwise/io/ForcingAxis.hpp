@@ -21,6 +21,7 @@
 /// Any violation is an InputError naming the file and, where one exists,
 /// the line.
 
+#include <cstddef>
 #include <cstdint>
 #include <map>
 #include <optional>
@@ -31,6 +32,18 @@
 #include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::io {
+
+/// Most time steps a run's axis may have unless the caller allows more
+/// (AxisRequest::max_steps; `--max-steps` / `max_steps` in the run file):
+/// a million steps is a year at 32 s, or 114 years hourly. Checked before
+/// anything of that length is allocated, so that a typo (a lateral file a
+/// century after the inflow, `--dt 0.001`) is an error, not hours of
+/// routing or a run out of memory.
+inline constexpr std::size_t kDefaultMaxSteps = 1'000'000;
+
+/// How to allow `needed` steps, for messages: "give --max-steps N (or
+/// max_steps = N in the run file) to allow it".
+std::string maxStepsAdvice(double needed);
 
 /// Times of forcing samples closer than this are the same instant, s
 /// (fractional seconds are carried as doubles).
@@ -63,6 +76,8 @@ struct AxisRequest {
   /// beside), and every series is resampled onto it as with `dt_s`.
   /// Excludes `dt_s`, `start_unix_s` and `end_unix_s` (InvalidParameter).
   std::optional<routing::TimeAxis> on_axis;
+  /// An axis longer than this is an InputError saying how to allow it.
+  std::size_t max_steps = kDefaultMaxSteps;
 };
 
 /// The run's axis for one or two files by the rule above. Either pointer

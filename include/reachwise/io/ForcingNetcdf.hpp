@@ -67,10 +67,15 @@ void writeForcingNetcdf(const std::filesystem::path& path, const Forcing& forcin
 /// (netCDF calls are serialised by one process-wide lock).
 class NetcdfForcingSource final : public ForcingSource {
 public:
-  /// Opens and checks the file: dimensions, `time` units, calendar and a
-  /// uniform step of whole-second start, unique reach ids, variable units.
+  /// Opens and checks the file: every variable's shape (buffers are sized
+  /// from it, never from a dimension's name), `time` units, calendar,
+  /// finite times within the years TimeAxis allows and a uniform step (of
+  /// at least TimeAxis::kMinStep_s) from a whole-second start, unique
+  /// reach ids, variable units.
   /// Throws InputError naming the file (and variable) on any problem.
-  explicit NetcdfForcingSource(std::filesystem::path path);
+  /// A file of more than `max_steps` times is refused before they are
+  /// read (saying how to allow more).
+  explicit NetcdfForcingSource(std::filesystem::path path, std::size_t max_steps = kDefaultMaxSteps);
   ~NetcdfForcingSource() override;
   NetcdfForcingSource(const NetcdfForcingSource&) = delete;
   NetcdfForcingSource& operator=(const NetcdfForcingSource&) = delete;
@@ -102,6 +107,7 @@ private:
   void readIds();
 
   std::filesystem::path path_;
+  std::size_t max_steps_ = kDefaultMaxSteps;
   int ncid_ = -1;
   routing::TimeAxis axis_;
   std::vector<std::string> ids_;

@@ -5,6 +5,7 @@
 /// given on the command line override it. Relative paths are taken from
 /// the run file's folder.
 
+#include <cstddef>
 #include <optional>
 #include <string>
 
@@ -14,6 +15,7 @@ struct RouteConfig {
   std::optional<std::string> inflow, lateral, method, out, csv, series, hydrographs, report;
   std::optional<double> dt_s;
   std::optional<unsigned> threads;
+  std::optional<std::size_t> max_steps, max_hydrograph_rows;
   std::optional<bool> write_back, overwrite, quiet;
 
   /// Parses the `[route]` table of `path` (absent table = all unset).

@@ -35,6 +35,7 @@ enum class ProblemCode : std::uint8_t {
   ImplausibleAttribute,
   ZeroLength,
   LengthMismatch,
+  NonFiniteLength,
   // topology from geometry (geos::buildTopologyFromGeometry)
   SplitLine,
   FlippedLine,

@@ -12,6 +12,7 @@
 ///   duplicate_id               error    an id used by more than one record
 ///   unknown_to_reach           error    `to_reach` names no reach
 ///   zero_length                error    reach length (field or geometry) not > 0
+///   non_finite_length          error    reach length (field or geometry) not finite
 ///   self_loop                  error    a reach drains into itself
 ///   cycle                      error    reaches that drain into each other (ids listed)
 ///   bifurcation_split_missing  error    a branch of a bifurcation has no `split` (some

@@ -72,7 +72,7 @@ struct NetworkLake {
 
 struct NetworkRouteOptions {
   RouteOptions reach;            ///< method, scheme, forced grid (applies to every reach)
-  unsigned threads = 0;          ///< 0 = all cores
+  unsigned threads = 0;          ///< 0 = all cores; more than the cores: as many as the cores
   /// Constant base flow per reach (m^3/s, by plan index), added to its
   /// lateral inflow; empty = none. The steady initial state accumulates it
   /// down the network.

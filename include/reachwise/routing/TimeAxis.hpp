@@ -3,7 +3,8 @@
 /// A uniform time axis: the output/forcing grid of a run.
 ///
 /// An axis built from input goes through `TimeAxis::make`, which refuses
-/// what no run can have (a step that is not a positive number, no samples,
+/// what no run can have (a step that is not a positive number or is below
+/// a millisecond, no samples,
 /// times outside the years 1678–2261, an offset beyond ±18:00). A
 /// default-constructed axis has no step (NaN) until one is set.
 
@@ -29,6 +30,10 @@ struct TimeAxis {
   /// Largest UTC offset, minutes (real zones lie within −12:00..+14:00;
   /// ±18:00 leaves room, common practice, as io/IsoTime reads offsets).
   static constexpr int kMaxUtcOffset_min = 18 * 60;
+  /// Shortest step, s: outputs write times to the millisecond, so a
+  /// shorter step would write one time stamp twice (and no river wave
+  /// needs it).
+  static constexpr double kMinStep_s = 1e-3;
 
   std::int64_t start_unix_s = 0;   ///< first sample, seconds since 1970-01-01T00:00:00Z
   double dt_s = std::numeric_limits<double>::quiet_NaN();   ///< step, s; NaN: not set
@@ -53,10 +58,14 @@ struct TimeAxis {
     return axis;
   }
 
-  /// Throws InvalidParameter ("dt") unless `dt_s` is finite and > 0.
+  /// Throws InvalidParameter ("dt") unless `dt_s` is finite and at least
+  /// kMinStep_s.
   static void requireStep(double dt_s) {
     if (!std::isfinite(dt_s) || dt_s <= 0)
       throw InvalidParameter("dt", numberText(dt_s) + " s is not a positive time step");
+    if (dt_s < kMinStep_s)
+      throw InvalidParameter("dt", numberText(dt_s) + " s is shorter than the shortest time step, " +
+                                       numberText(kMinStep_s) + " s (times are written to the millisecond)");
   }
   /// Throws InvalidParameter naming `quantity` unless the instant `unix_s`
   /// lies in [kEarliest_unix_s, kLatest_unix_s] (NaN does not).

@@ -25,6 +25,7 @@ struct ForcingFiles {
   std::string inflow;            ///< discharge entering at the top of named reaches
   std::string lateral;           ///< discharge entering along named reaches
   std::optional<double> dt_s;    ///< resample CSV forcing to this step, s; unset: the file's own
+  std::size_t max_steps = io::kDefaultMaxSteps;   ///< longest time axis allowed (io/ForcingAxis.hpp)
 };
 
 /// A forcing source bound to a plan: what the router pulls from, by plan

@@ -26,6 +26,7 @@
 #include "reachwise/run/Forcing.hpp"
 #include "reachwise/run/Network.hpp"
 #include "reachwise/run/Outputs.hpp"
+#include "reachwise/run/SeriesChoice.hpp"
 #include "reachwise/run/Gauges.hpp"
 #include "reachwise/run/RoutedLakes.hpp"
 
@@ -51,6 +52,9 @@ struct RouteRequest {
   double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
   unsigned threads = 0;              ///< worker threads; 0 = all cores
   OutputRequest outputs;
+  /// Most hydrograph rows (chosen reaches × steps) the run may write
+  /// (requireHydrographRows, checked before routing).
+  std::size_t max_hydrograph_rows = kDefaultMaxHydrographRows;
   /// Observed hydrographs (and a gauge layer) to compare the run with;
   /// empty `observed`: none.
   GaugeFiles gauges;

@@ -18,10 +18,24 @@ inline constexpr std::size_t kAutoAllBelowReaches = 10000;
 /// meet at some confluence).
 inline constexpr std::size_t kAutoConfluences = 1000;
 
+/// Most hydrograph rows (reaches chosen × time steps) a run writes unless
+/// the caller allows more (RouteRequest::max_hydrograph_rows;
+/// `--max-hydrograph-rows` / `max_hydrograph_rows` in the run file): 20
+/// million rows, about 1 GB of GeoPackage table (a year of hourly steps
+/// at 2,000 reaches).
+inline constexpr std::size_t kDefaultMaxHydrographRows = 20'000'000;
+
 /// The reaches named by `spec`: comma-separated `all`, `none`, `outlets`,
 /// `confluences` (every reach whose outflow meets another at a
-/// confluence), `auto` (see the constants above) and reach ids. Unknown
-/// ids are one InputError listing them all.
+/// confluence), `auto` (see the constants above) and reach ids; blanks
+/// around each item are ignored. Unknown ids are one InputError listing
+/// them all.
 io::SeriesSelection chooseSeries(std::string_view spec, const network::NetworkPlan& plan);
+
+/// Throws InputError (field `hydrographs`) when `spec` chooses more than
+/// `max_rows` rows (reaches × `steps`), saying how many and how to allow
+/// them. Called before routing.
+void requireHydrographRows(std::string_view spec, const network::NetworkPlan& plan, std::size_t steps,
+                           std::size_t max_rows);
 
 }  // namespace reachwise::run
