@@ -92,7 +92,7 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
       at.file = runFileFor(o.out).string();
       throw InputError(at, "cannot write the run file");
     }
-  });
+  }, o.overwrite);
 }
 
 /// What the multiplier multiplies, for the console.
@@ -103,7 +103,14 @@ std::string what(const std::string& parameter) {
 }
 
 int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
-  io::refuseExisting(o.out, o.overwrite);  // before any routing
+  // Before any routing: neither output replaces an input, nor an existing
+  // file without --overwrite.
+  io::refuseOutputOverInput({{"--out", o.out}, {"--out (its run file)", runFileFor(o.out)}},
+                            {{"NETWORK", o.network}, {"--config", o.config}, {"--inflow", o.inflow},
+                             {"--lateral", o.lateral}, {"--observed", o.observed}, {"--gauges", o.gauges},
+                             {"--lakes", o.lakes}});
+  io::refuseExisting(o.out, o.overwrite);
+  io::requireParentFolder(o.out);
   io::refuseExisting(runFileFor(o.out), o.overwrite);
   run::CalibrateRequest request;
   request.network = {o.network, o.layer, o.config, ""};

@@ -196,6 +196,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     return kExitInput;
   }
   progress.finish();
+  for (const auto& note : s.notes) fmt::print(err, "{}\n", note);
   const routing::NetworkResults& results = s.results;
 
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);

@@ -45,9 +45,17 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
   if (reaches_ == 0) throw InvalidParameter("reach_id", "no reaches to write");
   if (options.reach_chunk == 0) throw InvalidParameter("reach_chunk", "must be at least 1");
   // Same directory, so that the final rename stays on one file system.
+  requireParentFolder(path_);
   temp_ = partialPath(path_);
   const std::lock_guard lock(netcdfMutex());
-  check(nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_), temp_, "creating the file");
+  const int created = nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_);
+  if (created != NC_NOERR) {
+    // HDF5 may have made the file before failing: nothing may stay behind.
+    ncid_ = -1;
+    std::error_code ec;
+    std::filesystem::remove(temp_, ec);
+    check(created, path_, "creating the file");
+  }
   try {
     define(axis, reach_ids, options, more);
   } catch (...) {
@@ -144,7 +152,7 @@ void SeriesFile::write(std::size_t variable, std::size_t reach, std::span<const 
         "writing " + variables_[variable].name);
 }
 
-void SeriesFile::finish() {
+void SeriesFile::finish(OutputCommit* into) {
   if (finished_) return;
   {
     const std::lock_guard lock(netcdfMutex());
@@ -152,14 +160,14 @@ void SeriesFile::finish() {
     ncid_ = -1;
     check(status, temp_, "closing the file");
   }
-  std::error_code ec;
-  std::filesystem::rename(temp_, path_, ec);
-  if (ec) {
-    InputLocation where;
-    where.file = path_.string();
-    throw InputError(where, "cannot move the finished file into place: " + ec.message());
+  finished_ = true;  // from here on the OutputCommit owns the file
+  if (into) {
+    into->add(temp_, path_);
+  } else {
+    OutputCommit own(true);
+    own.add(temp_, path_);
+    own.commit();
   }
-  finished_ = true;
 }
 
 void SeriesFile::abandon() noexcept {

@@ -13,6 +13,10 @@
 
 #include "reachwise/routing/TimeAxis.hpp"
 
+namespace reachwise::io {
+class OutputCommit;
+}
+
 namespace reachwise::io::detail {
 
 /// netCDF-C documents no thread safety (its shared state spans files), so
@@ -77,7 +81,7 @@ public:
 
   /// Closes the file and renames it to its final name (replacing a file
   /// already there: whether that is allowed is the caller's decision).
-  void finish();
+  void finish(OutputCommit* into = nullptr);
 
   const std::filesystem::path& path() const noexcept { return path_; }
   const std::filesystem::path& temporaryPath() const noexcept { return temp_; }

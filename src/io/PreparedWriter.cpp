@@ -219,7 +219,7 @@ void writePreparedGeoPackage(const std::string& path, bool overwrite, const Reac
     if (extra) extra(*ds, srs.get());
     if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
     ds.reset();  // closed and flushed before the rename
-  });
+  }, overwrite);
 }
 
 }  // namespace reachwise::io
