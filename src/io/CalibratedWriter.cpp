@@ -32,7 +32,7 @@ results::Value count(std::size_t n) { return results::Value{static_cast<std::int
 void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const network::ReachGraph& graph,
                                const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
                                const network::ProblemList& problems, const std::vector<CalibrationRow>& rows,
-                               const std::vector<GaugeOutput>& gauges, int utc_offset_min) {
+                               const std::vector<GaugeOutput>& gauges, int utc_offset_min, OutputCommit* into) {
   writePreparedGeoPackage(path, overwrite, graph, config, prepared, problems,
                           [&](GDALDataset& ds, OGRSpatialReference* srs) {
                             std::vector<results::Row> table;
@@ -42,7 +42,7 @@ void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const ne
                                                results::Value{static_cast<std::int64_t>(r.at_bound)}, r.objective,
                                                real(r.objective_before), real(r.objective_after),
                                                real(r.before.nse), real(r.after.nse), real(r.before.kge),
-                                               real(r.after.kge), count(r.evaluations), real(r.muskingum_x)});
+                                               real(r.after.kge), count(r.evaluations), real(r.muskingum_x)}, into);
                             results::writeRowsLayer(path, ds, "calibration", nullptr, wkbNone, calibrationColumns(),
                                                     table, {}, utc_offset_min);
                             std::vector<results::Row> gauge_rows;

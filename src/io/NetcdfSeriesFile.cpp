@@ -2,6 +2,7 @@
 
 #include <netcdf.h>
 
+#include <cerrno>
 #include <system_error>
 
 #include <fmt/format.h>
@@ -24,6 +25,18 @@ void check(int status, const std::filesystem::path& file, const std::string& doi
 }
 
 namespace {
+
+/// check() for a call that writes to the disk: netCDF reports a failed
+/// write of HDF5 as a generic error (a full disk reads "Permission
+/// denied"), so the system's reason, `error` (errno read right after the
+/// call, cleared right before it), is given instead when there is one.
+void checkWrite(int status, int error, const std::filesystem::path& file, const std::string& doing) {
+  if (status == NC_NOERR) return;
+  if (error == 0) check(status, file, doing);
+  InputLocation where;
+  where.file = file.string();
+  throw InputError(where, fmt::format("netCDF: {}: {}", doing, std::generic_category().message(error)));
+}
 
 void putText(int ncid, int varid, const char* name, const std::string& value,
              const std::filesystem::path& file) {
@@ -48,13 +61,15 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
   requireParentFolder(path_);
   temp_ = partialPath(path_);
   const std::lock_guard lock(netcdfMutex());
+  errno = 0;
   const int created = nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_);
+  const int error = errno;
   if (created != NC_NOERR) {
     // HDF5 may have made the file before failing: nothing may stay behind.
     ncid_ = -1;
     std::error_code ec;
     std::filesystem::remove(temp_, ec);
-    check(created, path_, "creating the file");
+    checkWrite(created, error, path_, "creating the file");
   }
   try {
     define(axis, reach_ids, options, more);
@@ -120,7 +135,9 @@ void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::st
   putText(ncid_, NC_GLOBAL, "title", options.title, temp_);
   putText(ncid_, NC_GLOBAL, "source", options.source, temp_);
   if (!options.history.empty()) putText(ncid_, NC_GLOBAL, "history", options.history, temp_);
-  check(nc_enddef(ncid_), temp_, "ending definitions");
+  errno = 0;
+  const int ended = nc_enddef(ncid_);
+  checkWrite(ended, errno, path_, "ending definitions");
 
   std::vector<double> times(steps_);
   for (std::size_t k = 0; k < steps_; ++k) times[k] = axis.at(static_cast<double>(k));
@@ -148,17 +165,20 @@ void SeriesFile::write(std::size_t variable, std::size_t reach, std::span<const 
   const std::size_t start[2] = {0, reach};
   const std::size_t count[2] = {steps_, 1};
   const std::lock_guard lock(netcdfMutex());
-  check(nc_put_vara_double(ncid_, varids_[variable], start, count, values.data()), temp_,
-        "writing " + variables_[variable].name);
+  errno = 0;
+  const int written = nc_put_vara_double(ncid_, varids_[variable], start, count, values.data());
+  checkWrite(written, errno, path_, "writing " + variables_[variable].name);
 }
 
 void SeriesFile::finish(OutputCommit* into) {
   if (finished_) return;
   {
     const std::lock_guard lock(netcdfMutex());
+    errno = 0;
     const int status = nc_close(ncid_);
+    const int error = errno;
     ncid_ = -1;
-    check(status, temp_, "closing the file");
+    checkWrite(status, error, path_, "closing the file");
   }
   finished_ = true;  // from here on the OutputCommit owns the file
   if (into) {

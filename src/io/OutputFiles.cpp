@@ -150,6 +150,10 @@ public:
     while (::flock(fd_, LOCK_EX) != 0) {
       const int e = errno;
       if (e == EINTR) continue;
+      // A file system without locks (some network mounts): the renames
+      // still never replace without overwriting, but two runs' commits
+      // are not kept apart there.
+      if (e == ENOLCK || e == EOPNOTSUPP || e == EINVAL) break;
       ::close(fd_);
       throwSystemError(folder, "cannot lock the output folder", e);
     }

@@ -1,7 +1,9 @@
 #include <fmt/format.h>
 #include <ogr_geometry.h>
 
+#include <cctype>
 #include <cmath>
+#include <cstdlib>
 #include <fstream>
 #include <memory>
 #include <optional>
@@ -34,13 +36,26 @@ void prepareDirectory(const fs::path& dir) {
   if (ec || !fs::is_directory(dir)) failAt(dir, "cannot create the output directory");
 }
 
-/// RFC 4180 quoting, only when the text needs it; and text that a
-/// spreadsheet would run as a formula (it begins with `=`, `+`, `-`, `@`, a
-/// tab or a carriage return) gets a leading apostrophe and quotes, the
-/// common defence against CSV formula injection (OWASP, "CSV Injection",
-/// from memory). docs/formats.md, "CSV", states the rule for reading ids back.
+/// Text a spreadsheet would run as a formula: it begins with `=`, `+`, `-`,
+/// `@`, a tab or a carriage return, and is not a plain number (`-12`, `+1.5e3`
+/// are harmless and stay as they are).
+bool formulaLike(const std::string& text) {
+  if (text.empty() || std::string_view("=+-@\t\r").find(text.front()) == std::string_view::npos) return false;
+  if (text.front() != '+' && text.front() != '-') return true;
+  const char* begin = text.c_str();
+  char* end = nullptr;
+  errno = 0;
+  (void)std::strtod(begin, &end);
+  const bool number = end == begin + text.size() && std::isdigit(static_cast<unsigned char>(text[1]));
+  return !number;
+}
+
+/// RFC 4180 quoting, only when the text needs it; and formula-like text
+/// gets quotes and a leading apostrophe, the common defence against CSV
+/// formula injection (OWASP, "CSV Injection", from memory).
+/// docs/formats.md, "CSV", states the rule for reading ids back.
 std::string quoted(const std::string& text) {
-  const bool formula = !text.empty() && std::string_view("=+-@\t\r").find(text.front()) != std::string_view::npos;
+  const bool formula = formulaLike(text);
   if (!formula && text.find_first_of(",\"\r\n") == std::string::npos) return text;
   std::string out = formula ? "\"'" : "\"";
   for (const char c : text) {

@@ -1,0 +1,131 @@
+// End-to-end: outputs never replace inputs, a failed run leaves nothing
+// behind, and a GeoPackage a killed writer left with a rollback journal is
+// recovered on open.
+#include <gtest/gtest.h>
+
+#include <gdal_priv.h>
+#include <ogrsf_frmts.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <csignal>
+#include <filesystem>
+#include <memory>
+#include <string>
+
+#include "reachwise/io/Gdal.hpp"
+#include "support/Cli.hpp"
+#include "support/Scratch.hpp"
+
+namespace fs = std::filesystem;
+
+namespace {
+
+const fs::path kSamples = REACHWISE_SOURCE_DIR "/sample-network";
+
+testsupport::CliRun run(const std::string& args) { return testsupport::runReachwise(args); }
+
+/// A copy of the sample network and forcing in `dir`.
+void copySample(const fs::path& dir) {
+  for (const char* f : {"network.gpkg", "inflow.csv", "lateral.csv"}) fs::copy_file(kSamples / f, dir / f);
+}
+
+}  // namespace
+
+TEST(OutputSafety, AnOutputNeverReplacesAnInput) {
+  const testsupport::TempDir tmp;
+  const fs::path d = tmp.path();
+  copySample(d);
+  const std::string network = testsupport::slurp(d / "network.gpkg");
+  const std::string inflow = testsupport::slurp(d / "inflow.csv");
+  // check --problems onto the network it reads (also spelled differently).
+  auto r = run("check " + (d / "network.gpkg").string() + " --problems " + (d / "." / "network.gpkg").string());
+  EXPECT_EQ(r.code, 1);
+  EXPECT_NE(r.err.find("NETWORK"), std::string::npos) << r.err;
+  // route --out, --series, --csv onto an input, even with --overwrite.
+  const std::string base = "route " + (d / "network.gpkg").string() + " --inflow " + (d / "inflow.csv").string() +
+                           " --quiet --overwrite ";
+  r = run(base + "--out " + (d / "inflow.csv").string());
+  EXPECT_EQ(r.code, 1);
+  EXPECT_NE(r.err.find("--inflow"), std::string::npos) << r.err;
+  r = run(base + "--out " + (d / "r.gpkg").string() + " --series " + (d / "network.gpkg").string());
+  EXPECT_EQ(r.code, 1);
+  fs::copy_file(d / "inflow.csv", d / "hydrographs.csv");
+  r = run("route " + (d / "network.gpkg").string() + " --inflow " + (d / "hydrographs.csv").string() +
+          " --quiet --overwrite --out " + (d / "r.gpkg").string() + " --csv " + d.string());
+  EXPECT_EQ(r.code, 1);
+  EXPECT_NE(r.err.find("--csv"), std::string::npos) << r.err;
+  r = run(base + "--out " + (d / "r.gpkg").string() + " --report " + d.string());
+  EXPECT_EQ(r.code, 1);
+  EXPECT_EQ(testsupport::slurp(d / "network.gpkg"), network);
+  EXPECT_EQ(testsupport::slurp(d / "inflow.csv"), inflow);
+  EXPECT_FALSE(fs::exists(d / "r.gpkg"));
+  // Write-back adds layers to the network itself: still allowed.
+  r = run("route " + (d / "network.gpkg").string() + " --inflow " + (d / "inflow.csv").string() +
+          " --quiet --write-back");
+  EXPECT_EQ(r.code, 0) << r.err;
+}
+
+TEST(OutputSafety, AFailedRunLeavesNothingBehind) {
+  const testsupport::TempDir tmp;
+  const fs::path d = tmp.path();
+  copySample(d);
+  // The NetCDF's folder does not exist: the message names the path given,
+  // not a temporary name, and the CSV folder made for the run goes again.
+  auto r = run("route " + (d / "network.gpkg").string() + " --inflow " + (d / "inflow.csv").string() +
+               " --quiet --out " + (d / "r.gpkg").string() + " --csv " + (d / "made" / "csv").string() +
+               " --series " + (d / "nodir" / "s.nc").string());
+  EXPECT_EQ(r.code, 1);
+  EXPECT_NE(r.err.find("does not exist"), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("partial"), std::string::npos) << r.err;
+  EXPECT_FALSE(fs::exists(d / "made"));
+  EXPECT_FALSE(fs::exists(d / "r.gpkg"));
+  r = run("route " + (d / "network.gpkg").string() + " --inflow " + (d / "inflow.csv").string() +
+          " --quiet --out " + (d / "nodir" / "x.gpkg").string());
+  EXPECT_EQ(r.code, 1);
+  EXPECT_NE(r.err.find("the folder " + (d / "nodir").string() + " does not exist"), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("partial"), std::string::npos) << r.err;
+  EXPECT_EQ(r.err.find("sqlite"), std::string::npos) << r.err;
+  // synth: its GeoPackage does not stay when its NetCDF fails.
+  r = run("synth " + (d / "s.gpkg").string() + " --reaches 50 --quiet --lateral " +
+          (d / "nodir" / "l.nc").string());
+  EXPECT_NE(r.code, 0);
+  EXPECT_FALSE(fs::exists(d / "s.gpkg"));
+  for (const auto& e : fs::directory_iterator(d))
+    EXPECT_NE(e.path().filename().string()[0], '.') << "left behind: " << e.path();
+}
+
+// A writer killed inside a transaction (as a `--write-back` killed with
+// SIGKILL) leaves SQLite's rollback journal; reading the file read-only
+// then fails until the journal is rolled back (sqlite.org, "Atomic Commit
+// In SQLite", hot journals, from memory). check and route roll it back.
+TEST(OutputSafety, AHotJournalIsRolledBackOnOpen) {
+  const testsupport::TempDir tmp;
+  const fs::path gpkg = tmp.path() / "network.gpkg";
+  fs::copy_file(kSamples / "network.gpkg", gpkg);
+  const pid_t child = ::fork();
+  ASSERT_GE(child, 0);
+  if (child == 0) {
+    reachwise::io::ensureGdal();
+    std::unique_ptr<GDALDataset> ds(GDALDataset::Open(gpkg.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
+    if (!ds) ::_exit(2);
+    const std::string layer = ds->GetLayer(0)->GetName();
+    ds->ExecuteSQL("PRAGMA cache_size = 1", nullptr, nullptr);  // spill the changes to the file at once
+    ds->StartTransaction();
+    ds->ExecuteSQL(("DELETE FROM \"" + layer + "\"").c_str(), nullptr, nullptr);
+    ds->ExecuteSQL("CREATE TABLE filler (x BLOB)", nullptr, nullptr);
+    for (int k = 0; k < 200; ++k)
+      ds->ExecuteSQL("INSERT INTO filler VALUES (zeroblob(10000))", nullptr, nullptr);
+    ::raise(SIGKILL);
+  }
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  ASSERT_TRUE(WIFSIGNALED(status)) << "the writer did not die as planned";
+  ASSERT_TRUE(fs::exists(gpkg.string() + "-journal")) << "no journal to recover";
+  const auto r = run("check " + gpkg.string());
+  EXPECT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.err.find("rolled back"), std::string::npos) << r.err;
+  EXPECT_FALSE(fs::exists(gpkg.string() + "-journal"));
+  // The 41 reaches of the sample (sample-network/README.md) are all there again.
+  EXPECT_NE(r.out.find("41"), std::string::npos) << r.out;
+}
