@@ -42,7 +42,7 @@ void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const ne
                                                results::Value{static_cast<std::int64_t>(r.at_bound)}, r.objective,
                                                real(r.objective_before), real(r.objective_after),
                                                real(r.before.nse), real(r.after.nse), real(r.before.kge),
-                                               real(r.after.kge), count(r.evaluations), real(r.muskingum_x)}, into);
+                                               real(r.after.kge), count(r.evaluations), real(r.muskingum_x)});
                             results::writeRowsLayer(path, ds, "calibration", nullptr, wkbNone, calibrationColumns(),
                                                     table, {}, utc_offset_min);
                             std::vector<results::Row> gauge_rows;
@@ -53,7 +53,8 @@ void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const ne
                             }
                             results::writeRowsLayer(path, ds, "gauges", srs, wkbPoint, results::gaugeColumns(),
                                                     gauge_rows, points, utc_offset_min);
-                          });
+                          },
+                          into);
 }
 
 }  // namespace reachwise::io

@@ -211,11 +211,20 @@ void removeQuietly(const fs::path& p) {
   fs::remove_all(p, ec);
 }
 
-/// A journal: NUL-separated fields, three per entry (staged, target, old),
-/// then one line per journal copy after a `\0\0` separator.
+/// What a path is now: `device:inode:mtime` (lstat), or `-` when absent.
+std::string identity(const fs::path& p) {
+  struct stat st {};
+  if (::lstat(p.c_str(), &st) != 0) return "-";
+  return fmt::format("{}:{}:{}.{}", st.st_dev, st.st_ino, st.st_mtim.tv_sec, st.st_mtim.tv_nsec);
+}
+
+/// A journal: NUL-separated fields, four per entry (staged, target, old,
+/// and the target's identity() when the journal was written), then one
+/// field per journal copy after an empty field.
 struct Journal {
   struct Line {
     fs::path staged, target, backup;
+    std::string before;
   };
   std::vector<Line> lines;
   std::vector<fs::path> copies;
@@ -223,8 +232,10 @@ struct Journal {
 
 std::string encode(const Journal& j) {
   std::string s;
-  for (const auto& l : j.lines)
+  for (const auto& l : j.lines) {
     for (const fs::path* p : {&l.staged, &l.target, &l.backup}) s += p->string() + '\0';
+    s += l.before + '\0';
+  }
   s += '\0';
   for (const auto& c : j.copies) s += c.string() + '\0';
   return s;
@@ -250,8 +261,8 @@ std::optional<Journal> decode(const std::string& s) {
       continue;
     }
     entry.push_back(field);
-    if (entry.size() == 3) {
-      j.lines.push_back({entry[0], entry[1], entry[2]});
+    if (entry.size() == 4) {
+      j.lines.push_back({entry[0], entry[1], entry[2], entry[3]});
       entry.clear();
     }
   }
@@ -290,17 +301,30 @@ void writeDurably(const fs::path& path, const std::string& content) {
 
 /// Rolls one journal forward: every staged output still there goes onto
 /// its target (the old one moved aside first), then the old ones and the
-/// journal's copies are removed.
+/// journal's copies are removed. A target that changed since the journal
+/// was written (another program wrote it) is left alone and the staged
+/// output dropped.
 std::string rollForward(const fs::path& file, const Journal& j) {
-  std::vector<std::string> placed;
+  std::vector<std::string> placed, changed;
   for (const auto& l : j.lines) {
     if (!present(l.staged)) continue;
+    const bool as_before = identity(l.target) == l.before ||
+                           (!present(l.target) && identity(l.backup) == l.before);
+    if (!as_before) {
+      changed.push_back(l.target.string());
+      removeQuietly(l.staged);
+      continue;
+    }
     if (present(l.target) && !present(l.backup)) renamePlain(l.target, l.backup);
     if (renamePlain(l.staged, l.target) == 0) placed.push_back(l.target.string());
   }
   for (const auto& l : j.lines) removeQuietly(l.backup);
   for (const auto& c : j.copies) removeQuietly(c);
   removeQuietly(file);
+  if (!changed.empty())
+    return fmt::format("warning: an interrupted run's outputs were not all put in place ({}); changed since by "
+                       "another program, left as they are: {}",
+                       file.string(), fmt::join(changed, ", "));
   return placed.empty()
              ? fmt::format("note: removed the journal {} of an interrupted run whose outputs were all in place",
                            file.string())
@@ -382,7 +406,8 @@ void OutputCommit::commit() {
   // The journal, one copy in each folder: from here on the next commit in
   // any of these folders finishes the set if this process dies.
   Journal journal;
-  for (const auto& e : entries_) journal.lines.push_back({normalised(e.staged), normalised(e.target), normalised(e.backup)});
+  for (const auto& e : entries_)
+    journal.lines.push_back({normalised(e.staged), normalised(e.target), normalised(e.backup), identity(e.target)});
   const std::string name = fmt::format("{}{}", kJournalPrefix, ::getpid());
   for (const auto& f : folders) journal.copies.push_back(f / name);
   const std::string content = encode(journal);
