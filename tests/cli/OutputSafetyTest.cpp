@@ -9,6 +9,7 @@
 #include <unistd.h>
 
 #include <csignal>
+#include <cstdlib>
 #include <filesystem>
 #include <memory>
 #include <string>
@@ -128,4 +129,41 @@ TEST(OutputSafety, AHotJournalIsRolledBackOnOpen) {
   EXPECT_FALSE(fs::exists(gpkg.string() + "-journal"));
   // The 41 reaches of the sample (sample-network/README.md) are all there again.
   EXPECT_NE(r.out.find("41"), std::string::npos) << r.out;
+}
+
+// Two processes routing into the same outputs at once: without
+// --overwrite exactly one succeeds and the other is refused (never both
+// exit 0 with one silently replacing the other); with --overwrite both
+// succeed, one after the other (that the two sets never mix is checked with
+// distinguishable contents in OutputCommit.ConcurrentCommitsNeverMixOrSilentlyReplace).
+TEST(OutputSafety, TwoRunsOnTheSameOutputs) {
+  const testsupport::TempDir tmp;
+  const fs::path d = tmp.path();
+  copySample(d);
+  const std::string route = std::string(REACHWISE_BINARY_DIR) + "/reachwise route " + (d / "network.gpkg").string() +
+                            " --inflow " + (d / "inflow.csv").string() + " --quiet --out " +
+                            (d / "r.gpkg").string() + " --csv " + (d / "csv").string();
+  for (const bool overwrite : {false, true}) {
+    std::error_code ec;
+    fs::remove(d / "r.gpkg", ec);
+    fs::remove_all(d / "csv", ec);
+    const std::string one = route + (overwrite ? " --overwrite" : "");
+    const std::string both = "(" + one + " 2> " + (d / "e1").string() + "; echo $? > " + (d / "x1").string() +
+                             ") & (" + one + " 2> " + (d / "e2").string() + "; echo $? > " + (d / "x2").string() +
+                             ") & wait";
+    ASSERT_EQ(std::system(("sh -c '" + both + "'").c_str()), 0);
+    const int x1 = std::stoi(testsupport::slurp(d / "x1")), x2 = std::stoi(testsupport::slurp(d / "x2"));
+    if (overwrite) {
+      EXPECT_EQ(x1, 0) << testsupport::slurp(d / "e1");
+      EXPECT_EQ(x2, 0) << testsupport::slurp(d / "e2");
+    } else {
+      EXPECT_EQ(x1 + x2, 1) << testsupport::slurp(d / "e1") << testsupport::slurp(d / "e2");
+      const std::string refused = testsupport::slurp(d / (x1 ? "e1" : "e2"));
+      EXPECT_NE(refused.find("overwriting is allowed"), std::string::npos) << refused;
+    }
+    EXPECT_TRUE(fs::exists(d / "r.gpkg"));
+    EXPECT_TRUE(fs::exists(d / "csv" / "hydrographs.csv"));
+    for (const auto& e : fs::directory_iterator(d / "csv"))
+      EXPECT_NE(e.path().filename().string()[0], '.') << "left behind: " << e.path();
+  }
 }
