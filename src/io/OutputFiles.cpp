@@ -124,10 +124,17 @@ void refuseOutputOverInput(const std::vector<NamedPath>& outputs, const std::vec
         if (samePath(file, in.path)) clash(out, file, in, true);
     }
     for (std::size_t j = 0; j < k; ++j) {
-      if (outputs[j].path.empty()) continue;
+      const NamedPath& other = outputs[j];
+      if (other.path.empty()) continue;
+      // A folder replaced whole holds no other output (it may lie in a
+      // CSV folder: `--csv OUT --report OUT/report`).
+      const auto within = [](const NamedPath& whole, const NamedPath& part) {
+        return whole.folder && whole.names.empty() && inside(normalised(part.path), normalised(whole.path));
+      };
+      if (within(out, other) || within(other, out)) clash(out, out.path, other, false);
       for (const fs::path& a : written(out))
-        for (const fs::path& b : written(outputs[j]))
-          if (samePath(a, b)) clash(out, a, outputs[j], false);
+        for (const fs::path& b : written(other))
+          if (samePath(a, b)) clash(out, a, other, false);
     }
   }
 }

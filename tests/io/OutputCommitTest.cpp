@@ -77,6 +77,18 @@ TEST(OutputFiles, AnOutputOverAnInputIsRefusedNamingBoth) {
   // Two outputs on one file.
   EXPECT_THROW(io::refuseOutputOverInput({{"--out", tmp.path() / "r.x"}, {"--series", tmp.path() / "r.x"}}, {}),
                InputError);
+  // A report folder replaced whole holds no other output.
+  EXPECT_THROW(io::refuseOutputOverInput({{"--csv", tmp.path() / "o", true, {"reaches.csv"}},
+                                          {"--report", tmp.path() / "o", true, {}}},
+                                         {}),
+               InputError);
+  EXPECT_THROW(io::refuseOutputOverInput({{"--report", tmp.path() / "o", true, {}}, {"--out", tmp.path() / "o" / "r.gpkg"}},
+                                         {}),
+               InputError);
+  EXPECT_NO_THROW(io::refuseOutputOverInput({{"--report", tmp.path() / "o" / "report", true, {}},
+                                             {"--out", tmp.path() / "o" / "r.gpkg"},
+                                             {"--csv", tmp.path() / "o", true, {"reaches.csv"}}},
+                                            {}));
   EXPECT_NO_THROW(io::refuseOutputOverInput({{"--out", tmp.path() / "r.gpkg"}}, inputs));
 }
 
