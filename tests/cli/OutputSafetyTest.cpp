@@ -139,10 +139,14 @@ TEST(OutputSafety, AHotJournalIsRolledBackOnOpen) {
 TEST(OutputSafety, TwoRunsOnTheSameOutputs) {
   const testsupport::TempDir tmp;
   const fs::path d = tmp.path();
-  copySample(d);
-  const std::string route = std::string(REACHWISE_BINARY_DIR) + "/reachwise route " + (d / "network.gpkg").string() +
-                            " --inflow " + (d / "inflow.csv").string() + " --quiet --out " +
-                            (d / "r.gpkg").string() + " --csv " + (d / "csv").string();
+  // A network large enough that routing takes a second or two, so that the
+  // two runs overlap (both find the outputs missing when they start).
+  const auto made = run("synth " + (d / "big.gpkg").string() + " --reaches 4000 --steps 48 --quiet --lateral " +
+                        (d / "big.nc").string());
+  ASSERT_EQ(made.code, 0) << made.err;
+  const std::string route = std::string(REACHWISE_BINARY_DIR) + "/reachwise route " + (d / "big.gpkg").string() +
+                            " --lateral " + (d / "big.nc").string() + " --quiet --out " + (d / "r.gpkg").string() +
+                            " --csv " + (d / "csv").string();
   for (const bool overwrite : {false, true}) {
     std::error_code ec;
     fs::remove(d / "r.gpkg", ec);
