@@ -96,14 +96,11 @@ TEST(OutputSafety, AFailedRunLeavesNothingBehind) {
     EXPECT_NE(e.path().filename().string()[0], '.') << "left behind: " << e.path();
 }
 
-// A writer killed inside a transaction (as a `--write-back` killed with
-// SIGKILL) leaves SQLite's rollback journal; reading the file read-only
-// then fails until the journal is rolled back (sqlite.org, "Atomic Commit
-// In SQLite", hot journals, from memory). check and route roll it back.
-TEST(OutputSafety, AHotJournalIsRolledBackOnOpen) {
-  const testsupport::TempDir tmp;
-  const fs::path gpkg = tmp.path() / "network.gpkg";
-  fs::copy_file(kSamples / "network.gpkg", gpkg);
+namespace {
+
+/// Kills a writer inside a transaction on `gpkg` (as a `--write-back`
+/// killed with SIGKILL), leaving SQLite's rollback journal beside it.
+void killWriterMidTransaction(const fs::path& gpkg) {
   const pid_t child = ::fork();
   ASSERT_GE(child, 0);
   if (child == 0) {
@@ -123,12 +120,57 @@ TEST(OutputSafety, AHotJournalIsRolledBackOnOpen) {
   ::waitpid(child, &status, 0);
   ASSERT_TRUE(WIFSIGNALED(status)) << "the writer did not die as planned";
   ASSERT_TRUE(fs::exists(gpkg.string() + "-journal")) << "no journal to recover";
+}
+
+}  // namespace
+
+// The journal makes a read-only open fail until it is rolled back
+// (sqlite.org, "Atomic Commit In SQLite", hot journals, from memory).
+// check and route roll it back when they may write the file.
+TEST(OutputSafety, AHotJournalIsRolledBackOnOpen) {
+  const testsupport::TempDir tmp;
+  const fs::path gpkg = tmp.path() / "network.gpkg";
+  fs::copy_file(kSamples / "network.gpkg", gpkg);
+  killWriterMidTransaction(gpkg);
   const auto r = run("check " + gpkg.string());
   EXPECT_EQ(r.code, 0) << r.err;
   EXPECT_NE(r.err.find("rolled back"), std::string::npos) << r.err;
   EXPECT_FALSE(fs::exists(gpkg.string() + "-journal"));
   // The 41 reaches of the sample (sample-network/README.md) are all there again.
   EXPECT_NE(r.out.find("41"), std::string::npos) << r.out;
+}
+
+// When the file may not be written, the error says what to do, and the
+// journal (which holds the old pages) is left. Run as a user without write
+// access: `nobody` through setpriv(1) when the tests run as root, else the
+// file and its folder made read-only.
+TEST(OutputSafety, AHotJournalOnAReadOnlyFileIsExplained) {
+  const testsupport::TempDir tmp;
+  const fs::path dir = tmp.path() / "ro";
+  fs::create_directories(dir);
+  const fs::path gpkg = dir / "network.gpkg";
+  fs::copy_file(kSamples / "network.gpkg", gpkg);
+  killWriterMidTransaction(gpkg);
+  testsupport::CliRun r;
+  if (::geteuid() == 0) {
+    fs::permissions(tmp.path(), fs::perms::all, fs::perm_options::add);  // nobody may enter, not write in ro/
+    fs::permissions(dir, fs::perms::others_read | fs::perms::others_exec, fs::perm_options::add);
+    const std::string err = (tmp.path() / "err.txt").string();
+    const std::string cmd = "setpriv --reuid=65534 --regid=65534 --clear-groups " REACHWISE_BINARY_DIR
+                            "/reachwise check " + gpkg.string() + " > /dev/null 2> " + err;
+    const int status = std::system(cmd.c_str());
+    r.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+    r.err = testsupport::slurp(err);
+  } else {
+    fs::permissions(gpkg, fs::perms::owner_write, fs::perm_options::remove);
+    fs::permissions(dir, fs::perms::owner_write, fs::perm_options::remove);
+    r = run("check " + gpkg.string());
+    fs::permissions(dir, fs::perms::owner_write, fs::perm_options::add);
+  }
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_NE(r.err.find("write access"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("-journal"), std::string::npos) << r.err;
+  EXPECT_TRUE(fs::exists(gpkg.string() + "-journal"));
 }
 
 // Two processes routing into the same outputs at once: without
