@@ -8,8 +8,9 @@
 ///
 /// Every writer builds its output where a failure cannot leave something
 /// that looks complete: a new GeoPackage or CSV file is written under a
-/// temporary name and renamed in `commit()`; a write-back runs in one
-/// transaction that `commit()` ends. Destroying a writer without `commit()`
+/// temporary name and renamed in `commit()` (or handed to an OutputCommit
+/// that puts a run's outputs in place together); a write-back runs in one
+/// transaction that `commit()` (or that OutputCommit, last) ends. Destroying a writer without `commit()`
 /// (an exception, a cancelled run) removes or rolls back what it wrote.
 
 #include <cstddef>
