@@ -74,7 +74,7 @@ void applyRunFile(const CLI::App& sub, CalibrateOptions& o) {
 fs::path runFileFor(const std::string& out) { return fs::path(out).replace_extension(".toml"); }
 
 /// Writes the run file (absolute paths; TOML quoting by toml++).
-void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& result) {
+void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& result, io::OutputCommit& into) {
   const auto absolute = [](const std::string& p) { return p.empty() ? p : fs::absolute(p).string(); };
   toml::table route;
   if (!o.inflow.empty()) route.insert("inflow", absolute(o.inflow));
@@ -86,7 +86,7 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
     toml::table network{{"lakes", absolute(lakes->source)}, {"lakes_layer", lakes->layer}};
     file.insert("network", network);
   }
-  io::writeThenRename(runFileFor(o.out), ".toml", [&](const fs::path& partial) {
+  io::writeStaged(runFileFor(o.out), ".toml", [&](const fs::path& partial) {
     std::ofstream f(partial);
     f << "# Routes the calibrated network as `reachwise calibrate` routed it:\n"
       << "#   reachwise route " << fs::absolute(o.out).string() << " --config " << fs::absolute(runFileFor(o.out)).string()
@@ -97,7 +97,7 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
       at.file = runFileFor(o.out).string();
       throw InputError(at, "cannot write the run file");
     }
-  });
+  }, into);
 }
 
 /// What the multiplier multiplies, for the console.
@@ -137,7 +137,16 @@ void writeCalibrationReport(const CalibrateOptions& o, const run::CalibrateReque
 }
 
 int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
-  io::refuseExisting(o.out, o.overwrite);  // before any routing
+  // Before any routing: neither output replaces an input, nor an existing
+  // file without --overwrite.
+  io::refuseOutputOverInput({{"--out", o.out},
+                             {"--out (its run file)", runFileFor(o.out)},
+                             {"--report", o.report, true}},
+                            {{"NETWORK", o.network}, {"--config", o.config}, {"--inflow", o.inflow},
+                             {"--lateral", o.lateral}, {"--observed", o.observed}, {"--gauges", o.gauges},
+                             {"--lakes", o.lakes}});
+  io::refuseExisting(o.out, o.overwrite);
+  io::requireParentFolder(o.out);
   io::refuseExisting(runFileFor(o.out), o.overwrite);
   if (!o.report.empty()) io::refuseExisting(o.report, o.overwrite);
   run::CalibrateRequest request;
@@ -194,8 +203,12 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   if (result.uncalibrated_reaches)
     fmt::print(out, "  {} reach(es) below every calibrated gauge keep their {}\n", result.uncalibrated_reaches,
                what(o.parameter));
-  run::writeCalibrated(o.out, o.overwrite, result, s);
-  writeRunFile(o, result);
+  // The calibrated network and its run file appear together or not at all.
+  io::OutputCommit both(o.overwrite);
+  run::writeCalibrated(o.out, o.overwrite, result, s, &both);
+  writeRunFile(o, result, both);
+  both.commit();
+  for (const auto& note : both.recoveredNotes()) fmt::print(err, "{}\n", note);
   fmt::print(out, "{} routings in all; wrote {} (layers reaches, calibration, gauges, problems)\n",
              result.evaluations, o.out);
   if (!o.report.empty()) {

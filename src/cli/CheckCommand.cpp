@@ -8,6 +8,7 @@
 #include <memory>
 
 #include "Common.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/network/NetworkSummary.hpp"
 #include "reachwise/run/Network.hpp"
@@ -107,7 +108,13 @@ int check(const CheckOptions& options, std::ostream& out, std::ostream& err) {
   run::NetworkSource source{options.network, options.layer, options.config, ""};
   source.lakes = options.lakes;
   source.lakes_layer = options.lakes_layer;
+  // The problems file never replaces what check reads.
+  const std::vector<io::NamedPath> written = {{"--problems", options.problems}};
+  io::refuseOutputOverInput(written, {{"NETWORK", options.network}, {"--config", options.config},
+                                      {"--lakes", options.lakes}});
   const auto net = run::loadNetwork(source);
+  if (net->lakes) io::refuseOutputOverInput(written, {{"[network] lakes", net->lakes->source}});
+  if (!options.problems.empty()) io::requireParentFolder(options.problems);
   printSummary(out, net->table, network::summarize(*net->graph), net->read, net->problems);
   if (net->lakes) printLakes(out, *net);
   for (const auto& p : net->problems) fmt::print(err, "{}\n", run::problemLine(p, net->table.geographic));

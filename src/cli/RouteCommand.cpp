@@ -285,6 +285,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     return kExitInput;
   }
   progress.finish();
+  for (const auto& note : s.notes) fmt::print(err, "{}\n", note);
 
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
   if (o.demo || !o.quiet) printRunSummary(out, err, s, lakes, o);

@@ -12,6 +12,7 @@
 #include "Common.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/run/Synthetic.hpp"
 
 namespace reachwise::cli {
@@ -58,22 +59,25 @@ int synth(const SynthOptions& o, std::ostream& out) {
   }
   const run::SyntheticCase& c = *made;
   auto t0 = Clock::now();
-  c.writeNetwork();
+  io::OutputCommit commit(o.overwrite);  // the files appear together or not at all
+  c.writeNetwork(&commit);
   if (!o.quiet)
     fmt::print(out, "wrote          {} (layer reaches{}) in {:.2f} s\n", o.out, o.lakes ? ", layer lakes" : "",
                secondsSince(t0));
   if (!o.lateral.empty()) {
     t0 = Clock::now();
-    c.writeLateral();
+    c.writeLateral(&commit);
     if (!o.quiet)
       fmt::print(out, "wrote          {} ({} reaches x {} steps) in {:.2f} s\n", o.lateral, c.network().size(),
                  o.steps, secondsSince(t0));
   }
   if (!o.inflow.empty()) {
     t0 = Clock::now();
-    c.writeInflow();
+    c.writeInflow(&commit);
     if (!o.quiet) fmt::print(out, "wrote          {} in {:.2f} s\n", o.inflow, secondsSince(t0));
   }
+  commit.commit();
+  for (const auto& note : commit.recoveredNotes()) fmt::print(std::cerr, "{}\n", note);
   return kExitOk;
 }
 

@@ -32,7 +32,7 @@ results::Value count(std::size_t n) { return results::Value{static_cast<std::int
 void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const network::ReachGraph& graph,
                                const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
                                const network::ProblemList& problems, const std::vector<CalibrationRow>& rows,
-                               const std::vector<GaugeOutput>& gauges, int utc_offset_min) {
+                               const std::vector<GaugeOutput>& gauges, int utc_offset_min, OutputCommit* into) {
   writePreparedGeoPackage(path, overwrite, graph, config, prepared, problems,
                           [&](GDALDataset& ds, OGRSpatialReference* srs) {
                             std::vector<results::Row> table;
@@ -53,7 +53,8 @@ void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const ne
                             }
                             results::writeRowsLayer(path, ds, "gauges", srs, wkbPoint, results::gaugeColumns(),
                                                     gauge_rows, points, utc_offset_min);
-                          });
+                          },
+                          into);
 }
 
 }  // namespace reachwise::io

@@ -55,7 +55,7 @@ void NetcdfForcingWriter::write(ForcingKind kind, std::size_t reach, std::span<c
   file_->write(static_cast<std::size_t>(var), reach, values);
 }
 
-void NetcdfForcingWriter::finish() { file_->finish(); }
+void NetcdfForcingWriter::finish(OutputCommit* into) { file_->finish(into); }
 
 void writeForcingNetcdf(const std::filesystem::path& path, const Forcing& forcing,
                         const ForcingNetcdfOptions& options) {

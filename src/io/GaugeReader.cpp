@@ -87,6 +87,8 @@ GaugeTable readGauges(const std::string& source, const GaugeReadOptions& options
   InputLocation where;
   where.file = source;
   CPLErrorReset();
+  recoverHotJournal(source);  // a killed writer's journal would make the open fail
+  CPLErrorReset();
   GDALDatasetUniquePtr ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
   if (!ds) throwWithGdalMessage(where, "cannot open the gauges as vector data");
   OGRLayer* layer = chooseLayer(*ds, options.layer, where, isPointType, "point", "gauges_layer");

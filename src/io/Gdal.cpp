@@ -8,7 +8,13 @@
 #include <ogr_api.h>
 #include <ogr_spatialref.h>
 
+#include <gdal_priv.h>
+#include <unistd.h>
+
 #include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <memory>
 #include <mutex>
 
 namespace reachwise::io {
@@ -29,6 +35,35 @@ void ensureGdal() {
 }
 
 std::string gdalVersion() { return GDALVersionInfo("RELEASE_NAME"); }
+
+void recoverHotJournal(const std::string& source) {
+  namespace fs = std::filesystem;
+  std::error_code ec;
+  const fs::path journal = source + "-journal";
+  if (source.empty() || !fs::is_regular_file(source, ec) || !fs::is_regular_file(journal, ec) ||
+      fs::file_size(journal, ec) == 0 || ec)
+    return;
+  const fs::path folder = fs::path(source).has_parent_path() ? fs::path(source).parent_path() : fs::path(".");
+  InputLocation where;
+  where.file = source;
+  if (::access(source.c_str(), W_OK) != 0 || ::access(folder.c_str(), W_OK) != 0)
+    throw InputError(where, fmt::format("an interrupted writer left its unfinished changes in {}; they must be "
+                                        "rolled back before the file can be read, which needs write access to "
+                                        "the file and its folder: make both writable (or run once as their "
+                                        "owner) and try again; do not delete the journal",
+                                        journal.string()));
+  ensureGdal();
+  CPLErrorReset();
+  // Opening read-write and reading the catalogue makes SQLite roll the
+  // journal back (sqlite.org, "Atomic Commit In SQLite" §4.2, hot
+  // journals, from memory); a writer still at work keeps its journal.
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
+  if (ds) (void)ds->GetLayerCount();
+  ds.reset();
+  if (!fs::exists(journal, ec))
+    fmt::print(stderr, "note: {}: rolled back the unfinished changes of an interrupted writer ({}); the "
+                       "file is as it was before them\n", source, journal.string());
+}
 
 void throwWithGdalMessage(const InputLocation& where, const std::string& what) {
   const std::string gdal = CPLGetLastErrorMsg();

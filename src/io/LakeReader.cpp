@@ -218,6 +218,8 @@ LakeTable readLakes(const std::string& source, const LakeReadOptions& options) {
   InputLocation where;
   where.file = source;
   CPLErrorReset();
+  recoverHotJournal(source);  // a killed writer's journal would make the open fail
+  CPLErrorReset();
   GDALDatasetUniquePtr ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
   if (!ds) throwWithGdalMessage(where, "cannot open the lakes as vector data");
   OGRLayer* layer = chooseLayer(*ds, options.layer, where, isPolygonType, "polygon", "lakes_layer");

@@ -6,6 +6,7 @@
 #include <sys/statvfs.h>
 #include <unistd.h>
 
+#include <cerrno>
 #include <system_error>
 
 #include <fmt/format.h>
@@ -28,6 +29,18 @@ void check(int status, const std::filesystem::path& file, const std::string& doi
 }
 
 namespace {
+
+/// check() for a call that writes to the disk: netCDF reports a failed
+/// write of HDF5 as a generic error (a full disk reads "Permission
+/// denied"), so the system's reason, `error` (errno read right after the
+/// call, cleared right before it), is given instead when there is one.
+void checkWrite(int status, int error, const std::filesystem::path& file, const std::string& doing) {
+  if (status == NC_NOERR) return;
+  if (error == 0) check(status, file, doing);
+  InputLocation where;
+  where.file = file.string();
+  throw InputError(where, fmt::format("netCDF: {}: {}", doing, std::generic_category().message(error)));
+}
 
 void putText(int ncid, int varid, const char* name, const std::string& value,
              const std::filesystem::path& file) {
@@ -68,8 +81,10 @@ std::string spaceNote(const std::filesystem::path& file) {
 
 }  // namespace
 
-int SeriesFile::closeOrDiscard() noexcept {
+int SeriesFile::closeOrDiscard(int* error) noexcept {
+  errno = 0;
   const int status = nc_close(ncid_);
+  if (error) *error = errno;  // read at once: what follows may change it
   if (status != NC_NOERR && have_identity_) {
     // HDF5 keeps a file open when the flush at its close fails (a full disk,
     // a file size limit): netCDF reports the error but leaves the file and
@@ -96,9 +111,19 @@ SeriesFile::SeriesFile(std::filesystem::path path, const routing::TimeAxis& axis
   if (reaches_ == 0) throw InvalidParameter("reach_id", "no reaches to write");
   if (options.reach_chunk == 0) throw InvalidParameter("reach_chunk", "must be at least 1");
   // Same directory, so that the final rename stays on one file system.
+  requireParentFolder(path_);
   temp_ = partialPath(path_);
   const std::lock_guard lock(netcdfMutex());
-  check(nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_), temp_, "creating the file");
+  errno = 0;
+  const int created = nc_create(temp_.c_str(), NC_NETCDF4 | NC_CLOBBER, &ncid_);
+  const int error = errno;
+  if (created != NC_NOERR) {
+    // HDF5 may have made the file before failing: nothing may stay behind.
+    ncid_ = -1;
+    std::error_code ec;
+    std::filesystem::remove(temp_, ec);
+    checkWrite(created, error, path_, "creating the file");
+  }
   if (struct stat st {}; ::stat(temp_.c_str(), &st) == 0) {
     dev_ = st.st_dev;
     ino_ = st.st_ino;
@@ -168,7 +193,9 @@ void SeriesFile::define(const routing::TimeAxis& axis, const std::vector<std::st
   putText(ncid_, NC_GLOBAL, "title", options.title, temp_);
   putText(ncid_, NC_GLOBAL, "source", options.source, temp_);
   if (!options.history.empty()) putText(ncid_, NC_GLOBAL, "history", options.history, temp_);
-  check(nc_enddef(ncid_), temp_, "ending definitions");
+  errno = 0;
+  const int ended = nc_enddef(ncid_);
+  checkWrite(ended, errno, path_, "ending definitions");
 
   std::vector<double> times(steps_);
   for (std::size_t k = 0; k < steps_; ++k) times[k] = axis.at(static_cast<double>(k));
@@ -196,26 +223,30 @@ void SeriesFile::write(std::size_t variable, std::size_t reach, std::span<const 
   const std::size_t start[2] = {0, reach};
   const std::size_t count[2] = {steps_, 1};
   const std::lock_guard lock(netcdfMutex());
-  const int status = nc_put_vara_double(ncid_, varids_[variable], start, count, values.data());
-  if (status != NC_NOERR) check(status, path_, "writing " + variables_[variable].name + spaceNote(temp_));
+  errno = 0;
+  const int written = nc_put_vara_double(ncid_, varids_[variable], start, count, values.data());
+  const int error = errno;
+  if (written != NC_NOERR)
+    checkWrite(written, error, path_, "writing " + variables_[variable].name + spaceNote(temp_));
 }
 
-void SeriesFile::finish() {
+void SeriesFile::finish(OutputCommit* into) {
   if (finished_) return;
   {
     const std::lock_guard lock(netcdfMutex());
-    const int status = closeOrDiscard();
+    int error = 0;
+    const int status = closeOrDiscard(&error);
     // (The destructor removes the temporary file.)
-    if (status != NC_NOERR) check(status, path_, "closing the file" + spaceNote(temp_));
+    if (status != NC_NOERR) checkWrite(status, error, path_, "closing the file" + spaceNote(temp_));
   }
-  std::error_code ec;
-  std::filesystem::rename(temp_, path_, ec);
-  if (ec) {
-    InputLocation where;
-    where.file = path_.string();
-    throw InputError(where, "cannot move the finished file into place: " + ec.message());
+  finished_ = true;  // from here on the OutputCommit owns the file
+  if (into) {
+    into->add(temp_, path_);
+  } else {
+    OutputCommit own(true);
+    own.add(temp_, path_);
+    own.commit();
   }
-  finished_ = true;
 }
 
 void SeriesFile::abandon() noexcept {

@@ -14,6 +14,10 @@
 
 #include "reachwise/routing/TimeAxis.hpp"
 
+namespace reachwise::io {
+class OutputCommit;
+}
+
 namespace reachwise::io::detail {
 
 /// netCDF-C documents no thread safety (its shared state spans files), so
@@ -78,7 +82,7 @@ public:
 
   /// Closes the file and renames it to its final name (replacing a file
   /// already there: whether that is allowed is the caller's decision).
-  void finish();
+  void finish(OutputCommit* into = nullptr);
 
   const std::filesystem::path& path() const noexcept { return path_; }
   const std::filesystem::path& temporaryPath() const noexcept { return temp_; }
@@ -92,7 +96,8 @@ private:
   /// nc_close; when it fails, the file's descriptors are pointed at
   /// /dev/null and it is closed again, so that nothing of it stays open in
   /// HDF5. Returns the first nc_close's status; `ncid_` is -1 after.
-  int closeOrDiscard() noexcept;
+  /// `error` (may be null): errno as the first close left it.
+  int closeOrDiscard(int* error = nullptr) noexcept;
 
   std::filesystem::path path_;
   std::filesystem::path temp_;

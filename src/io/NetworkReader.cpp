@@ -29,6 +29,8 @@ namespace {
 GDALDatasetUniquePtr openSource(const std::string& source) {
   ensureGdal();
   CPLErrorReset();
+  recoverHotJournal(source);  // a killed writer's journal would make the open fail
+  CPLErrorReset();
   GDALDatasetUniquePtr ds(GDALDataset::Open(source.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
   if (!ds) {
     InputLocation where;

@@ -202,12 +202,13 @@ void writeReaches(const std::string& path, GDALDataset& ds, OGRSpatialReference*
 void writePreparedGeoPackage(const std::string& path, bool overwrite, const ReachGraph& graph,
                              const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
                              const network::ProblemList& problems,
-                             const std::function<void(GDALDataset&, OGRSpatialReference*)>& extra) {
+                             const std::function<void(GDALDataset&, OGRSpatialReference*)>& extra,
+                             OutputCommit* into) {
   REACHWISE_ASSERT(prepared.size() == graph.size());
   ensureGdal();
   CPLErrorReset();
   refuseExisting(path, overwrite);
-  writeThenRename(path, ".gpkg", [&](const std::filesystem::path& tmp) {
+  const auto write = [&](const std::filesystem::path& tmp) {
     GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
     if (!driver) fail(path, "GDAL has no GeoPackage driver");
     std::unique_ptr<GDALDataset> ds(driver->Create(tmp.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
@@ -219,7 +220,9 @@ void writePreparedGeoPackage(const std::string& path, bool overwrite, const Reac
     if (extra) extra(*ds, srs.get());
     if (ds->CommitTransaction() != OGRERR_NONE) fail(path, "cannot finish writing");
     ds.reset();  // closed and flushed before the rename
-  });
+  };
+  if (into) writeStaged(path, ".gpkg", write, *into);
+  else writeThenRename(path, ".gpkg", write, overwrite);
 }
 
 }  // namespace reachwise::io

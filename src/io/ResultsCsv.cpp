@@ -1,9 +1,13 @@
 #include <fmt/format.h>
 #include <ogr_geometry.h>
 
+#include <cctype>
 #include <cmath>
+#include <cstdlib>
 #include <fstream>
 #include <memory>
+#include <optional>
+#include <cerrno>
 #include <system_error>
 
 
@@ -32,10 +36,28 @@ void prepareDirectory(const fs::path& dir) {
   if (ec || !fs::is_directory(dir)) failAt(dir, "cannot create the output directory");
 }
 
-/// RFC 4180 quoting: only when the text needs it.
+/// Text a spreadsheet would run as a formula: it begins with `=`, `+`, `-`,
+/// `@`, a tab or a carriage return, and is not a plain number (`-12`, `+1.5e3`
+/// are harmless and stay as they are).
+bool formulaLike(const std::string& text) {
+  if (text.empty() || std::string_view("=+-@\t\r").find(text.front()) == std::string_view::npos) return false;
+  if (text.front() != '+' && text.front() != '-') return true;
+  const char* begin = text.c_str();
+  char* end = nullptr;
+  errno = 0;
+  (void)std::strtod(begin, &end);
+  const bool number = end == begin + text.size() && std::isdigit(static_cast<unsigned char>(text[1]));
+  return !number;
+}
+
+/// RFC 4180 quoting, only when the text needs it; and formula-like text
+/// gets quotes and a leading apostrophe, the common defence against CSV
+/// formula injection (OWASP, "CSV Injection", from memory).
+/// docs/formats.md, "CSV", states the rule for reading ids back.
 std::string quoted(const std::string& text) {
-  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
-  std::string out = "\"";
+  const bool formula = formulaLike(text);
+  if (!formula && text.find_first_of(",\"\r\n") == std::string::npos) return text;
+  std::string out = formula ? "\"'" : "\"";
   for (const char c : text) {
     if (c == '"') out += '"';
     out += c;
@@ -86,8 +108,9 @@ struct TextFileOutput {
   TextFileOutput(const fs::path& dir, const std::string& name, bool overwrite)
       : target(dir / name), tmp(partialPath(target)) {
     refuseExisting(target, overwrite);
+    errno = 0;
     out.open(tmp, std::ios::binary | std::ios::trunc);
-    if (!out) failAt(target, "cannot create the output file");
+    if (!out) failWithErrno("cannot create the output file");
   }
   ~TextFileOutput() {
     if (committed) return;
@@ -98,13 +121,29 @@ struct TextFileOutput {
   TextFileOutput(const TextFileOutput&) = delete;
   TextFileOutput& operator=(const TextFileOutput&) = delete;
 
-  void commit() {
+  /// The error of the last write, with the system's reason when it left one
+  /// (errno read at once, before anything else can change it).
+  [[noreturn]] void failWithErrno(const std::string& what) const {
+    const int e = errno;
+    if (e != 0) throwSystemError(target, what, e);
+    failAt(target, what);
+  }
+
+  /// Closes the file and hands it to `into` (or renames it in place alone).
+  void commit(OutputCommit* into = nullptr) {
+    errno = 0;
+    out.flush();
+    if (!out) failWithErrno("cannot write the output file");
     out.close();
-    if (!out) failAt(target, "cannot write the output file");
-    std::error_code ec;
-    fs::rename(tmp, target, ec);
-    if (ec) failAt(target, "cannot put the output in place: " + ec.message());
-    committed = true;
+    if (!out) failWithErrno("cannot write the output file");
+    committed = true;  // from here on the OutputCommit owns the file
+    if (into) {
+      into->add(tmp, target);
+    } else {
+      OutputCommit own(true);
+      own.add(tmp, target);
+      own.commit();
+    }
   }
 
   fs::path target, tmp;
@@ -129,7 +168,8 @@ void writeRow(std::ostream& out, const results::Row& row, int offset) {
 
 void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTable& table,
                     const network::NetworkPlan& plan, const routing::NetworkResults& results,
-                    const RunInfo& info, const CsvLakes& csv_lakes, const std::vector<GaugeOutput>* gauges) {
+                    const RunInfo& info, const CsvLakes& csv_lakes, const std::vector<GaugeOutput>* gauges,
+                    OutputCommit* into) {
   REACHWISE_ASSERT(results.reaches.size() == plan.size());
   prepareDirectory(dir);
   const int offset = results.axis.utc_offset_min;
@@ -218,18 +258,13 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
     }
   }
 
-  reaches.commit();
-  nodes.commit();
-  branches.commit();
-  run_info.commit();
-  if (lakes) {
-    lakes->commit();
-    lake_series->commit();
-  }
-  if (gauge_table) {
-    gauge_table->commit();
-    gauge_series->commit();
-  }
+  // Handed over together: the caller's OutputCommit, or one of their own.
+  std::optional<OutputCommit> own;
+  if (!into) into = &own.emplace(overwrite);
+  for (Stream* s : {&reaches, &nodes, &branches, &run_info, lakes.get(), lake_series.get(), gauge_table.get(),
+                    gauge_series.get()})
+    if (s) s->commit(into);
+  if (own) own->commit();
 }
 
 CsvSeriesWriter::CsvSeriesWriter(const fs::path& dir, bool overwrite,
@@ -260,12 +295,12 @@ void CsvSeriesWriter::write(std::uint32_t reach, std::span<const double> q_m3s,
         << ',' << real(q_m3s[k]) << ',' << (depth_m.empty() ? std::string() : real(depth_m[k]))
         << ',' << (velocity_ms.empty() ? std::string() : real(velocity_ms[k])) << '\n';
   }
-  if (!out) failAt(out_->target, "cannot write the output file");
+  if (!out) out_->failWithErrno("cannot write the output file");
 }
 
-void CsvSeriesWriter::commit() {
+void CsvSeriesWriter::commit(OutputCommit* into) {
   REACHWISE_ASSERT(out_ && !out_->committed);
-  out_->commit();
+  out_->commit(into);
 }
 
 }  // namespace reachwise::io

@@ -102,6 +102,7 @@ GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& ta
   CPLErrorReset();
   selected_ = options_.series.mask(plan_.size());
   refuseExisting(target_, options_.overwrite);
+  requireParentFolder(target_);
   std::error_code ec;
   working_ = partialPath(target_, ".gpkg");
   fs::remove(working_, ec);
@@ -434,27 +435,45 @@ void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
   }
 }
 
-void GpkgResultsWriter::commit() {
+void GpkgResultsWriter::describeTables() {
+  // What each column means, for a GIS (gpkg_data_columns): SQL after the
+  // transaction, as SQL within it would make GDAL finish the deferred
+  // spatial indexes there (openSeriesTable()); still before the file is
+  // put in place.
+  for (const char* t : kTables) describeColumns(*ds_, target_.string(), layerName(t));
+}
+
+void GpkgResultsWriter::commit(OutputCommit* into) {
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
+  if (write_back_ && into) {
+    // The transaction ends after every other output is in place, so that a
+    // failure there puts them back (OutputCommit::addFinal).
+    into->addFinal([this] {
+      if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
+      describeTables();
+      series_feature_.reset();
+      ds_.reset();
+      committed_ = true;
+    });
+    return;
+  }
   if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
-  // What each column means, for a GIS (gpkg_data_columns): SQL after the
-  // transaction, as SQL within it would make GDAL finish the deferred
-  // spatial indexes there (openSeriesTable()); still before the rename.
-  for (const char* t : kTables) describeColumns(*ds_, target_.string(), layerName(t));
+  describeTables();
   series_feature_.reset();
   ds_.reset();  // closes and flushes the file before it is renamed
   if (!write_back_) {
-    std::error_code ec;
-    fs::rename(working_, target_, ec);
-    if (ec) {
-      fs::remove(working_, ec);
-      InputLocation at;
-      at.file = target_.string();
-      throw InputError(at, "cannot put the output in place: " + ec.message());
+    committed_ = true;  // from here on the OutputCommit owns the file
+    if (into) {
+      into->add(working_, target_);
+    } else {
+      OutputCommit own(options_.overwrite);
+      own.add(working_, target_);
+      own.commit();
     }
+    return;
   }
   committed_ = true;
 }

@@ -114,7 +114,7 @@ void NetcdfSeriesWriter::writeGauge(std::size_t gauge, std::span<const double> o
   gauge_written_[gauge] = true;
 }
 
-void NetcdfSeriesWriter::finish() {
+void NetcdfSeriesWriter::finish(OutputCommit* into) {
   for (std::size_t k = 0; k < gauge_written_.size(); ++k)
     if (!gauge_written_[k])
       throw InternalError(fmt::format("gauge {} never written to {}", gauge_ids_[k], file_->path().string()));
@@ -129,7 +129,7 @@ void NetcdfSeriesWriter::finish() {
                                     written_.size() - written_count_, written_.size(),
                                     file_->path().string(), fmt::join(missing, ", ")));
   }
-  file_->finish();
+  file_->finish(into);
 }
 
 }  // namespace reachwise::io

@@ -41,16 +41,18 @@ public:
   TemporaryFile(const TemporaryFile&) = delete;
   TemporaryFile& operator=(const TemporaryFile&) = delete;
   const fs::path& path() const { return path_; }
-  /// Renames onto `target` and stops owning the file.
-  void commit(const fs::path& target) {
-    std::error_code ec;
-    fs::rename(path_, target, ec);
-    if (ec) {
-      InputLocation at;
-      at.file = target.string();
-      throw InputError(at, "cannot move the finished file into place: " + ec.message());
-    }
+  /// Hands the file to `into` (or renames it onto `target` alone) and
+  /// stops owning it.
+  void commit(const fs::path& target, OutputCommit* into, bool overwrite) {
+    const fs::path done = path_;
     path_.clear();
+    if (into) {
+      into->add(done, target);
+      return;
+    }
+    OutputCommit own(overwrite);
+    own.add(done, target);
+    own.commit();
   }
 
 private:
@@ -122,8 +124,10 @@ void writeLakeFeatures(const fs::path& target, OGRLayer& layer, const std::vecto
 }  // namespace
 
 void writeSyntheticGpkg(const fs::path& path, const network::SyntheticNetwork& net,
-                        const SyntheticGpkgOptions& options, const std::vector<network::SyntheticLake>& lakes) {
+                        const SyntheticGpkgOptions& options, const std::vector<network::SyntheticLake>& lakes,
+                        OutputCommit* into) {
   refuseExisting(path, options.overwrite);
+  requireParentFolder(path);
   ensureGdal();
   CPLErrorReset();
   TemporaryFile tmp(partialPath(path, ".gpkg"));
@@ -150,12 +154,12 @@ void writeSyntheticGpkg(const fs::path& path, const network::SyntheticNetwork& n
     ds.reset();  // closes and flushes (builds the spatial index) before the rename
     if (CPLGetLastErrorType() >= CE_Failure) failAt(path, "cannot close the output file");
   }
-  tmp.commit(path);
+  tmp.commit(path, into, options.overwrite);
 }
 
 void writeSyntheticLateralNetcdf(const fs::path& path, const network::SyntheticNetwork& net,
                                  const network::SyntheticStorm& storm, const routing::TimeAxis& axis,
-                                 bool overwrite, const ForcingNetcdfOptions& options) {
+                                 bool overwrite, const ForcingNetcdfOptions& options, OutputCommit* into) {
   refuseExisting(path, overwrite);
   std::vector<std::string> ids(net.size());
   for (std::size_t i = 0; i < net.size(); ++i) ids[i] = network::SyntheticNetwork::id(i);
@@ -165,13 +169,14 @@ void writeSyntheticLateralNetcdf(const fs::path& path, const network::SyntheticN
     network::syntheticLateral(net, i, storm, axis, series);
     writer.write(ForcingKind::Lateral, i, series);
   }
-  writer.finish();
+  writer.finish(into);
 }
 
 void writeSyntheticInflowCsv(const fs::path& path, const network::SyntheticNetwork& net,
                              const network::SyntheticStorm& storm, const routing::TimeAxis& axis,
-                             bool overwrite) {
+                             bool overwrite, OutputCommit* into) {
   refuseExisting(path, overwrite);
+  requireParentFolder(path);
   const auto inflows = network::syntheticInflow(net, storm, axis);
   TemporaryFile tmp(partialPath(path, ".csv"));
   {
@@ -191,7 +196,7 @@ void writeSyntheticInflowCsv(const fs::path& path, const network::SyntheticNetwo
     if (std::ferror(file.get()) || std::fclose(file.release()) != 0)
       throw InputError(at, "cannot write the file");
   }
-  tmp.commit(path);
+  tmp.commit(path, into, overwrite);
 }
 
 }  // namespace reachwise::io

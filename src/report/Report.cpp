@@ -172,7 +172,8 @@ void writeMarker(const fs::path& folder) {
 
 }  // namespace
 
-void writeReport(const fs::path& dir, const ReportInputs& in, const ReportSeries& series, bool overwrite) {
+void writeReport(const fs::path& dir, const ReportInputs& in, const ReportSeries& series, bool overwrite,
+                 io::OutputCommit* into) {
   REACHWISE_ASSERT(&series.plan() == &in.plan);
   REACHWISE_ASSERT(in.results.reaches.size() == in.plan.size());
   REACHWISE_ASSERT(in.plan.record.size() == in.plan.size());
@@ -196,6 +197,11 @@ void writeReport(const fs::path& dir, const ReportInputs& in, const ReportSeries
   detail::writePage(work.path(), in, model);
   writeMarker(work.path());
 
+  if (into) {  // put in place with the run's other outputs
+    into->add(work.path(), target);
+    work.release();
+    return;
+  }
   if (replace) {
     // Move the old report aside first, so that a failed rename leaves it.
     const fs::path old = parent / fmt::format(".{}.old-{}", name, ::getpid());

@@ -444,7 +444,7 @@ std::vector<io::CalibrationRow> calibrationRows(const CalibrationResult& result,
 }
 
 void writeCalibrated(const std::string& path, bool overwrite, const CalibrationResult& result,
-                     const CalibrationSettings& settings) {
+                     const CalibrationSettings& settings, io::OutputCommit* into) {
   const LoadedNetwork& net = *result.network;
   const network::ReachGraph& graph = *net.graph;
   const network::NetworkPlan& plan = result.plan;
@@ -495,7 +495,7 @@ void writeCalibrated(const std::string& path, bool overwrite, const CalibrationR
                       nullptr, nullptr});
   }
   io::writeCalibratedGeoPackage(path, overwrite, graph, net.config, prepared, net.problems, rows, gauges,
-                                result.axis.utc_offset_min);
+                                result.axis.utc_offset_min, into);
 }
 
 }  // namespace reachwise::run

@@ -98,7 +98,14 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   }
   if (w_->gpkg) sinks.push_back(w_->gpkg.get());
   if (!o.csv_dir.empty()) {
+    // A folder made for this run is removed again when the run fails.
     std::error_code ec;
+    made_csv_.inner = fs::absolute(o.csv_dir, ec).lexically_normal();
+    if (!made_csv_.inner.has_filename()) made_csv_.inner = made_csv_.inner.parent_path();
+    for (fs::path p = made_csv_.inner; !p.empty() && !fs::exists(p, ec); p = p.parent_path()) {
+      made_csv_.outer = p;
+      if (p == p.parent_path()) break;
+    }
     fs::create_directories(o.csv_dir, ec);
     w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection);
     if (has_lakes_)  // refused now rather than after routing
@@ -132,6 +139,32 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
 
 Outputs::~Outputs() = default;
 
+Outputs::MadeFolder::~MadeFolder() {
+  if (keep || outer.empty()) return;
+  // The folders this run made, innermost first, as long as they are empty
+  // (the writers, destroyed before, have removed their temporary files).
+  std::error_code ec;
+  for (fs::path p = inner;; p = p.parent_path()) {
+    if (!fs::is_directory(p, ec) || !fs::is_empty(p, ec) || !fs::remove(p, ec)) break;
+    if (p == outer || p == p.parent_path()) break;
+  }
+}
+
+std::vector<io::NamedPath> outputPaths(const OutputRequest& o) {
+  std::vector<io::NamedPath> out;
+  if (!o.gpkg.empty() && !o.write_back) out.push_back({"--out", o.gpkg});
+  if (!o.series_nc.empty()) out.push_back({"--series", o.series_nc});
+  if (!o.csv_dir.empty()) {
+    io::NamedPath csv{"--csv", o.csv_dir, true, {"reaches.csv", "nodes.csv", "confluence_branches.csv",
+                                                  "run_info.csv", "hydrographs.csv"}};
+    for (const char* name : io::kCsvLakeFiles) csv.names.emplace_back(name);
+    for (const char* name : io::kCsvGaugeFiles) csv.names.emplace_back(name);
+    out.push_back(std::move(csv));
+  }
+  if (!o.report_dir.empty()) out.push_back({"--report", o.report_dir, true, {}});
+  return out;
+}
+
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
 void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
@@ -150,19 +183,22 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     if (has_lakes_) w_->gpkg->writeLakes(lakes);
     if (!gauges.empty()) w_->gpkg->writeGauges(gauges);
   }
+  // Every output is finished under its temporary name and handed to one
+  // OutputCommit, which puts them all in place at the end, or none.
+  io::OutputCommit all(request_.overwrite);
   if (w_->report) {
     report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
     ri.lakes = lakes;
     ri.gauges = gauges;
     ri.calibration = request_.calibration;
-    report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite);
+    report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite, &all);
   }
   if (w_->csv) {
     io::CsvLakes csv_lakes;
     if (has_lakes_) csv_lakes = {&lakes, lake_series_};
     io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes,
-                       gauges.empty() ? nullptr : &gauges);
-    w_->csv->commit();
+                       gauges.empty() ? nullptr : &gauges, &all);
+    w_->csv->commit(&all);
   }
   if (w_->netcdf) {
     for (std::size_t k = 0; k < lakes.size() && lake_series_; ++k) {
@@ -171,9 +207,12 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     }
     for (std::size_t g = 0; g < gauges.size(); ++g)
       w_->netcdf->writeGauge(g, *gauges[g].observed, *gauges[g].simulated);
-    w_->netcdf->finish();
+    w_->netcdf->finish(&all);
   }
-  if (w_->gpkg) w_->gpkg->commit();
+  if (w_->gpkg) w_->gpkg->commit(&all);
+  all.commit();
+  notes_ = all.recoveredNotes();
+  made_csv_.keep = true;
 }
 
 }  // namespace reachwise::run

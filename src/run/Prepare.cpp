@@ -7,7 +7,11 @@ namespace reachwise::run {
 
 PrepareSummary prepare(const PrepareRequest& request) {
   requireExisting(request.dem);
+  io::refuseOutputOverInput({{"--out", request.out}}, {{"NETWORK", request.network.path},
+                                                      {"--config", request.network.config},
+                                                      {"--dem", request.dem}});
   io::refuseExisting(request.out, request.overwrite);
+  io::requireParentFolder(request.out);
   NetworkSource source = request.network;
   source.dem = request.dem;
   const auto net = loadNetwork(source);

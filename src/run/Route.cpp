@@ -65,13 +65,28 @@ routing::NetworkRouteOptions networkRouteOptions(const LoadedNetwork& net, const
   return ro;
 }
 
+std::vector<io::NamedPath> inputPaths(const RouteRequest& request, const LoadedNetwork* net) {
+  std::vector<io::NamedPath> in = {{"NETWORK", request.network.path},       {"--config", request.network.config},
+                                   {"--dem", request.network.dem},          {"--lakes", request.network.lakes},
+                                   {"--inflow", request.forcing.inflow},    {"--lateral", request.forcing.lateral},
+                                   {"--observed", request.gauges.observed}, {"--gauges", request.gauges.gauges}};
+  if (net && net->lakes) in.push_back({"[network] lakes", net->lakes->source});
+  if (net) in.push_back({"[network] dem", net->config.dem});
+  return in;
+}
+
 RouteSummary route(const RouteRequest& request, Progress* progress) {
   Progress silent;
   Progress& tell = progress ? *progress : silent;
   RouteSummary summary;
+  // An output never replaces an input (write-back adds layers beside the
+  // network and is not an output path here).
+  const std::vector<io::NamedPath> outputs_named = outputPaths(request.outputs);
+  io::refuseOutputOverInput(outputs_named, inputPaths(request, nullptr));
   tell.stage("reading " + request.network.path);
   summary.network = loadNetwork(request.network);
   const LoadedNetwork& net = *summary.network;
+  io::refuseOutputOverInput(outputs_named, inputPaths(request, &net));
   summary.plan = routablePlan(net);
   const network::NetworkPlan& plan = summary.plan;
 
@@ -122,6 +137,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   markLakeNodes(summary.results, summary.lakes);
   outputs.commit(summary.results, summary.info, lakes, gauge_rows);
   summary.gpkg = outputs.geopackage();
+  summary.notes = outputs.notes();
   return summary;
 }
 

@@ -8,6 +8,7 @@ namespace reachwise::run {
 
 SyntheticCase::SyntheticCase(SyntheticRequest request) : request_(std::move(request)) {
   const SyntheticRequest& r = request_;
+  io::refuseOutputOverInput({{"OUT", r.gpkg}, {"--lateral", r.lateral_nc}, {"--inflow", r.inflow_csv}}, {});
   io::refuseExisting(r.gpkg, r.overwrite);
   if (!r.lateral_nc.empty()) io::refuseExisting(r.lateral_nc, r.overwrite);
   if (!r.inflow_csv.empty()) io::refuseExisting(r.inflow_csv, r.overwrite);
@@ -18,23 +19,23 @@ SyntheticCase::SyntheticCase(SyntheticRequest request) : request_(std::move(requ
   storm_.seed = r.seed;
 }
 
-void SyntheticCase::writeNetwork() const {
-  io::writeSyntheticGpkg(request_.gpkg, net_, {"reaches", 32633, request_.overwrite}, lakes_);
+void SyntheticCase::writeNetwork(io::OutputCommit* into) const {
+  io::writeSyntheticGpkg(request_.gpkg, net_, {"reaches", 32633, request_.overwrite}, lakes_, into);
 }
 
-void SyntheticCase::writeLateral() const {
+void SyntheticCase::writeLateral(io::OutputCommit* into) const {
   if (request_.lateral_nc.empty()) return;
   io::ForcingNetcdfOptions nc;
   nc.title = "reachwise synthetic lateral inflow";
   nc.source = std::string("reachwise ") + kVersion + " (" + kGitHash + ")";
   nc.history = request_.history;
   nc.single_precision = true;  // 7 digits are ample for a made-up storm; half the bytes to read
-  io::writeSyntheticLateralNetcdf(request_.lateral_nc, net_, storm_, request_.axis, request_.overwrite, nc);
+  io::writeSyntheticLateralNetcdf(request_.lateral_nc, net_, storm_, request_.axis, request_.overwrite, nc, into);
 }
 
-void SyntheticCase::writeInflow() const {
+void SyntheticCase::writeInflow(io::OutputCommit* into) const {
   if (request_.inflow_csv.empty()) return;
-  io::writeSyntheticInflowCsv(request_.inflow_csv, net_, storm_, request_.axis, request_.overwrite);
+  io::writeSyntheticInflowCsv(request_.inflow_csv, net_, storm_, request_.axis, request_.overwrite, into);
 }
 
 }  // namespace reachwise::run

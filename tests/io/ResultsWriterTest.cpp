@@ -5,7 +5,14 @@
 #include <gtest/gtest.h>
 #include <ogrsf_frmts.h>
 
+#include <sys/resource.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <csignal>
 #include <cmath>
+#include <cstdio>
+#include <iterator>
 #include <ctime>
 #include <filesystem>
 #include <fstream>
@@ -627,3 +634,72 @@ TEST(CsvResults, RefusesExistingFilesAndLeavesNothingHalfWritten) {
 }
 
 }  // namespace
+
+// A text cell a spreadsheet would run as a formula (it begins with =, +, -,
+// @, tab or CR) is written quoted with a leading apostrophe, the common
+// defence against CSV formula injection (OWASP "CSV Injection", from
+// memory); other text stays as it was.
+TEST(CsvResults, FormulaLikeTextGetsALeadingApostrophe) {
+  fixtures::TempDir dir;
+  Network net;
+  net.plan.reach_id[0] = "=HYPERLINK(\"http://x\")";
+  net.plan.reach_id[1] = "-12";  // a plain number: harmless, written as it is
+  const fs::path out = dir.file("csv");
+  {
+    io::CsvSeriesWriter series(out, false, net.plan, net.axis);
+    net.stream(series);
+    series.commit();
+  }
+  std::ifstream in(out / "hydrographs.csv");
+  std::set<std::string> ids;
+  std::string line;
+  std::getline(in, line);  // header
+  while (std::getline(in, line)) {
+    // The id is everything before the comma that follows its closing quote.
+    const std::size_t end = line[0] == '"' ? line.find("\",") + 1 : line.find(',');
+    ids.insert(line.substr(0, end));
+  }
+  EXPECT_TRUE(ids.count("\"'=HYPERLINK(\"\"http://x\"\")\"")) << *ids.begin();
+  EXPECT_TRUE(ids.count("-12"));
+  EXPECT_TRUE(ids.count(net.plan.reach_id[2]) || ids.count('"' + net.plan.reach_id[2] + '"'));
+  for (const auto& id : ids) EXPECT_NE(id.front(), '=') << id;
+}
+
+// A failed write names the system's reason, read at once (before the
+// clean-up can change errno): here the file-size limit (EFBIG, "File too
+// large"; POSIX setrlimit RLIMIT_FSIZE), in a child process so that the
+// limit does not reach the rest of the tests.
+TEST(CsvResults, AFailedWriteKeepsTheSystemReason) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("csv");
+  fs::create_directories(out);
+  const fs::path message = dir.file("message.txt");
+  const pid_t child = ::fork();
+  ASSERT_GE(child, 0);
+  if (child == 0) {
+    ::signal(SIGXFSZ, SIG_IGN);
+    const rlimit limit{100, 100};
+    ::setrlimit(RLIMIT_FSIZE, &limit);
+    std::string what = "no error";
+    try {
+      io::writeCsvTables(out, false, net.table, net.plan, net.results, net.info);
+    } catch (const std::exception& e) {
+      what = e.what();
+    }
+    std::FILE* f = std::fopen(message.c_str(), "w");  // the end of the message fits the limit
+    if (f) {
+      std::fputs(what.substr(what.size() > 60 ? what.size() - 60 : 0).c_str(), f);
+      std::fclose(f);
+    }
+    ::_exit(0);
+  }
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  std::ifstream in(message);
+  std::string what((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  EXPECT_NE(what.find("File too large"), std::string::npos) << what;
+  EXPECT_EQ(what.find("Success"), std::string::npos) << what;
+  // Nothing of the failed set is left, not even its temporary files.
+  for (const auto& e : fs::directory_iterator(out)) ADD_FAILURE() << "left behind: " << e.path();
+}

@@ -2,7 +2,14 @@
 #include "reachwise/io/SeriesNetcdf.hpp"
 
 #include <netcdf.h>
+#include <sys/resource.h>
+#include <sys/wait.h>
 #include <unistd.h>
+
+#include <csignal>
+#include <cstdio>
+#include <fstream>
+#include <iterator>
 
 #include <algorithm>
 #include <numeric>
@@ -228,4 +235,40 @@ TEST_F(SeriesNetcdfTest, LakeSeriesOnTheirOwnDimension) {
   EXPECT_EQ(textAtt(nc, v, "units"), "m3");  // UDUNITS (CF-1.8 §3.1)
   EXPECT_EQ(textAtt(nc, v, "coordinates"), "lake_id");
   nc_close(nc);
+}
+
+// A file that cannot be created (here: the file-size limit, POSIX setrlimit
+// RLIMIT_FSIZE, standing for a full disk) leaves no temporary file, and the
+// message gives the system's reason, not netCDF's generic one. In a child
+// process, so that the limit reaches no other test.
+TEST_F(SeriesNetcdfTest, AFailedCreationLeavesNothingAndSaysWhy) {
+  const fs::path p = dir_ / "full.nc";
+  const fs::path message = dir_.string() + ".message";  // beside the folder, which must stay empty
+  const pid_t child = ::fork();
+  ASSERT_GE(child, 0);
+  if (child == 0) {
+    std::string what = "no error";
+    {
+      ::signal(SIGXFSZ, SIG_IGN);
+      const rlimit limit{1, RLIM_INFINITY};  // the soft limit only, so that it can be raised again
+      ::setrlimit(RLIMIT_FSIZE, &limit);
+      try {
+        NetcdfSeriesWriter writer(p, axis_, ids(3));
+      } catch (const std::exception& e) {
+        what = e.what();
+      }
+      const rlimit none{RLIM_INFINITY, RLIM_INFINITY};
+      ::setrlimit(RLIMIT_FSIZE, &none);  // raising the soft limit back up to the hard one
+    }
+    std::ofstream(message) << what;
+    ::_exit(0);
+  }
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  std::ifstream in(message);
+  const std::string what((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  EXPECT_NE(what.find("File too large"), std::string::npos) << what;
+  EXPECT_EQ(what.find("Permission denied"), std::string::npos) << what;
+  EXPECT_EQ(filesInDir(), 0u);
+  fs::remove(message);
 }

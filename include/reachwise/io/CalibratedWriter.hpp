@@ -16,6 +16,8 @@
 
 namespace reachwise::io {
 
+class OutputCommit;
+
 /// One calibrated sub-basin.
 struct CalibrationRow {
   std::string gauge_id, reach_id, parameter, objective;
@@ -35,6 +37,7 @@ struct CalibrationRow {
 void writeCalibratedGeoPackage(const std::string& path, bool overwrite, const network::ReachGraph& graph,
                                const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
                                const network::ProblemList& problems, const std::vector<CalibrationRow>& rows,
-                               const std::vector<GaugeOutput>& gauges, int utc_offset_min);
+                               const std::vector<GaugeOutput>& gauges, int utc_offset_min,
+                               OutputCommit* into = nullptr);
 
 }  // namespace reachwise::io

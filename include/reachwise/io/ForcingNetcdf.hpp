@@ -26,6 +26,8 @@
 
 namespace reachwise::io {
 
+class OutputCommit;
+
 namespace detail {
 class SeriesFile;
 }
@@ -51,7 +53,8 @@ public:
 
   /// `values_m3s.size()` must be axis.steps; values finite and >= 0.
   void write(ForcingKind kind, std::size_t reach, std::span<const double> values_m3s);
-  void finish();
+  /// Closes the file and renames it in place (with `into`: hands it over).
+  void finish(OutputCommit* into = nullptr);
 
 private:
   std::unique_ptr<detail::SeriesFile> file_;

@@ -18,6 +18,8 @@ class OGRSpatialReference;
 
 namespace reachwise::io {
 
+class OutputCommit;
+
 /// The derived values of one reach (a vertex of the graph).
 struct PreparedReach {
   /// Muskingum K (h) and X to write instead of the record's; NaN: the record's.
@@ -56,10 +58,12 @@ struct PreparedReach {
 /// InputError names `path`. An existing `path` is replaced only when
 /// `overwrite`.
 /// `extra`, when given, adds further layers to the same file inside the
-/// same transaction (before the rename).
+/// same transaction (before the rename). With `into`, the finished file is
+/// handed to it instead of renamed (put in place with other outputs).
 void writePreparedGeoPackage(const std::string& path, bool overwrite, const network::ReachGraph& graph,
                              const NetworkConfig& config, const std::vector<PreparedReach>& prepared,
                              const network::ProblemList& problems,
-                             const std::function<void(GDALDataset&, OGRSpatialReference*)>& extra = {});
+                             const std::function<void(GDALDataset&, OGRSpatialReference*)>& extra = {},
+                             OutputCommit* into = nullptr);
 
 }  // namespace reachwise::io

@@ -8,8 +8,9 @@
 ///
 /// Every writer builds its output where a failure cannot leave something
 /// that looks complete: a new GeoPackage or CSV file is written under a
-/// temporary name and renamed in `commit()`; a write-back runs in one
-/// transaction that `commit()` ends. Destroying a writer without `commit()`
+/// temporary name and renamed in `commit()` (or handed to an OutputCommit
+/// that puts a run's outputs in place together); a write-back runs in one
+/// transaction that `commit()` (or that OutputCommit, last) ends. Destroying a writer without `commit()`
 /// (an exception, a cancelled run) removes or rolls back what it wrote.
 
 #include <cstddef>
@@ -33,6 +34,8 @@ class OGRLayer;
 class OGRFeature;
 
 namespace reachwise::io {
+
+class OutputCommit;
 
 namespace detail {
 struct TextFileOutput;
@@ -151,8 +154,10 @@ public:
   /// `gauge_series` (observed and simulated discharge per gauge and time).
   void writeGauges(const std::vector<GaugeOutput>& gauges);
 
-  /// Ends the writing: commits, closes, and (new file) renames onto the target.
-  void commit();
+  /// Ends the writing: commits, closes, and (new file) renames onto the
+  /// target. With `into`, the finished file is handed to it instead (a
+  /// write-back's transaction then ends as its last step).
+  void commit(OutputCommit* into = nullptr);
 
   /// Where rows go until commit(): the temporary file, or the input itself.
   const std::filesystem::path& workingPath() const noexcept { return working_; }
@@ -164,6 +169,8 @@ private:
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::TimeAxis& axis, GpkgWriterOptions options);
   void openSeriesTable();
+  /// Records what every column means (gpkg_data_columns, io::describeColumns).
+  void describeTables();
   void openLakeSeriesTable();
   void rowWritten();
   void countRow();
@@ -203,13 +210,15 @@ struct CsvLakes {
 /// `lake_series.csv`, with gauges (`gauges` not null) `gauges.csv` (the
 /// fields of the `gauges` layer, then x, y) and `gauge_series.csv`
 /// (gauge_id, time, observed_q, simulated_q), each under a temporary name
-/// renamed on success. Throws InputError naming the file when one exists
+/// renamed on success (with `into`: handed to it, put in place with the
+/// run's other outputs). Throws InputError naming the file when one exists
 /// and `overwrite` is false.
 /// Text is quoted when it holds a comma, quote or line break; NaN is empty.
 void writeCsvTables(const std::filesystem::path& dir, bool overwrite,
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::NetworkResults& results, const RunInfo& info,
-                    const CsvLakes& lakes = {}, const std::vector<GaugeOutput>* gauges = nullptr);
+                    const CsvLakes& lakes = {}, const std::vector<GaugeOutput>* gauges = nullptr,
+                    OutputCommit* into = nullptr);
 
 /// The names of the lake files writeCsvTables writes.
 inline constexpr const char* kCsvLakeFiles[] = {"lakes.csv", "lake_series.csv"};
@@ -229,7 +238,8 @@ public:
 
   void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
              std::span<const double> velocity_ms) override;
-  void commit();
+  /// Finishes the file and puts it in place (with `into`: hands it over).
+  void commit(OutputCommit* into = nullptr);
 
 private:
   std::unique_ptr<detail::TextFileOutput> out_;

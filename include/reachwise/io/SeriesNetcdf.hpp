@@ -27,6 +27,8 @@
 
 namespace reachwise::io {
 
+class OutputCommit;
+
 namespace detail {
 class SeriesFile;
 }
@@ -75,7 +77,7 @@ public:
   /// Closes the file and gives it its final name. Throws InternalError when
   /// some reach, lake or gauge was never written (the file would look complete but
   /// is not).
-  void finish();
+  void finish(OutputCommit* into = nullptr);
 
   std::size_t written() const noexcept { return written_count_; }
   const std::filesystem::path& temporaryPath() const noexcept;

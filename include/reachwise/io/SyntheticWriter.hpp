@@ -17,6 +17,8 @@
 
 namespace reachwise::io {
 
+class OutputCommit;  // reachwise/io/OutputFiles.hpp: with one, the file is handed to it
+
 struct SyntheticGpkgOptions {
   std::string layer = "reaches";
   int epsg = 32633;              ///< projected CRS of the coordinates (metres)
@@ -31,17 +33,18 @@ struct SyntheticGpkgOptions {
 /// crest_level_m, weir_length_m (the fields io::readLakes reads).
 void writeSyntheticGpkg(const std::filesystem::path& path, const network::SyntheticNetwork& net,
                         const SyntheticGpkgOptions& options = {},
-                        const std::vector<network::SyntheticLake>& lakes = {});
+                        const std::vector<network::SyntheticLake>& lakes = {}, OutputCommit* into = nullptr);
 
 /// `lateral(time, reach)` for every reach, streamed reach by reach through
 /// NetcdfForcingWriter (memory: one series).
 void writeSyntheticLateralNetcdf(const std::filesystem::path& path, const network::SyntheticNetwork& net,
                                  const network::SyntheticStorm& storm, const routing::TimeAxis& axis,
-                                 bool overwrite, const ForcingNetcdfOptions& options = {});
+                                 bool overwrite, const ForcingNetcdfOptions& options = {},
+                                 OutputCommit* into = nullptr);
 
 /// Long-form CSV `reach_id,time,discharge` of network::syntheticInflow.
 void writeSyntheticInflowCsv(const std::filesystem::path& path, const network::SyntheticNetwork& net,
                              const network::SyntheticStorm& storm, const routing::TimeAxis& axis,
-                             bool overwrite);
+                             bool overwrite, OutputCommit* into = nullptr);
 
 }  // namespace reachwise::io

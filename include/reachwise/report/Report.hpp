@@ -32,6 +32,10 @@
 #include "reachwise/routing/Results.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
+namespace reachwise::io {
+class OutputCommit;
+}
+
 namespace reachwise::report {
 
 /// Captures, while routing runs, the series the report draws: outlets, and
@@ -137,8 +141,9 @@ inline constexpr const char* kReportMarker = ".reachwise-report";
 /// is refused, so that other files are never deleted. Missing parent
 /// folders are created. Throws InputError naming the file for any file
 /// that cannot be written, InternalError when `series` was built for
-/// another plan.
+/// another plan. With `into`, the finished temporary folder is handed to
+/// it (put in place with the run's other outputs) instead of renamed.
 void writeReport(const std::filesystem::path& dir, const ReportInputs& in, const ReportSeries& series,
-                 bool overwrite);
+                 bool overwrite, io::OutputCommit* into = nullptr);
 
 }  // namespace reachwise::report

@@ -35,6 +35,10 @@
 #include "reachwise/run/Gauges.hpp"
 #include "reachwise/run/Network.hpp"
 
+namespace reachwise::io {
+class OutputCommit;
+}
+
 namespace reachwise::run {
 
 /// What a sub-basin's fit varies: a multiplier on Manning's n, on the
@@ -121,8 +125,10 @@ std::vector<io::CalibrationRow> calibrationRows(const CalibrationResult& result,
 /// "calibrated" where it changed), the `calibration` table and the
 /// `gauges` layer. Throws InputError naming `path` when it exists without
 /// `overwrite` or cannot be written; nothing is left behind then.
+/// With `into`, the finished file is handed to it (put in place with the
+/// run file).
 void writeCalibrated(const std::string& path, bool overwrite, const CalibrationResult& result,
-                     const CalibrationSettings& settings);
+                     const CalibrationSettings& settings, io::OutputCommit* into = nullptr);
 
 /// The sub-basins of gauges at `gauge_reaches` (plan indices, any order):
 /// for each, in plan (upstream-first) order, the reaches upstream of it not

@@ -7,11 +7,13 @@
 /// the same outputs (`lakes`, `lake_series`), before the commit like every
 /// other table.
 
+#include <filesystem>
 #include <memory>
 #include <string>
 #include <vector>
 
 #include "reachwise/io/LakesWriter.hpp"
+#include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
@@ -71,15 +73,19 @@ public:
   /// Where the router sends each finished series.
   routing::SeriesSink& sink();
 
-  /// Writes the summaries, the gauges (the ones given to the constructor, in that order), the lakes (`lakes`: routedLakes() with their
-  /// routing, every lake the run routes) and the report, then commits every
-  /// file; the report comes first so that a failing report leaves no output
-  /// behind.
+  /// Writes the summaries, the gauges (the ones given to the constructor, in
+  /// that order), the lakes (`lakes`: routedLakes() with their routing,
+  /// every lake the run routes) and the report, each under a temporary
+  /// name, then puts them all in place with one io::OutputCommit: all
+  /// appear or none (docs/formats.md, "Putting the outputs in place").
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
               const std::vector<io::LakeOutput>& lakes = {}, const std::vector<io::GaugeOutput>& gauges = {});
 
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }
+
+  /// Notes from commit(): interrupted commits of earlier runs it finished.
+  const std::vector<std::string>& notes() const noexcept { return notes_; }
 
 private:
   struct Writers;
@@ -91,7 +97,21 @@ private:
   bool lake_series_ = false;           ///< the lakes' series are written (hydrographs are)
   std::vector<std::string> lake_ids_;  ///< the lakes the run routes, in order
   std::vector<std::string> gauge_ids_; ///< the gauges the run is compared with, in order
+  /// The CSV folder when this run made it (`outer`: the outermost folder
+  /// made): removed again, when empty, unless the outputs were committed.
+  struct MadeFolder {
+    std::filesystem::path inner, outer;
+    bool keep = false;
+    ~MadeFolder();
+  };
+  MadeFolder made_csv_;               ///< destroyed after the writers
   std::unique_ptr<Writers> w_;
+  std::vector<std::string> notes_;
 };
+
+/// Every output path `request` names, with its option, for
+/// io::refuseOutputOverInput (the CSV folder as the files written into it,
+/// the report folder as a whole).
+std::vector<io::NamedPath> outputPaths(const OutputRequest& request);
 
 }  // namespace reachwise::run

@@ -78,6 +78,10 @@ public:
   virtual void routed(std::size_t /*done*/, std::size_t /*total*/) {}
 };
 
+/// Every input path `request` names (and, once read, `net`'s lakes source
+/// from the run file), with its option, for io::refuseOutputOverInput.
+std::vector<io::NamedPath> inputPaths(const RouteRequest& request, const LoadedNetwork* net);
+
 /// One lake as a run routed it (RouteSummary::lakes).
 
 struct RouteSummary {
@@ -88,6 +92,9 @@ struct RouteSummary {
   routing::NetworkResults results;
   io::RunInfo info;                         ///< what run_info records
   std::string gpkg;                         ///< the GeoPackage written, or empty
+  /// Notes for the user from putting the outputs in place (an interrupted
+  /// earlier run's outputs finished; io::OutputCommit).
+  std::vector<std::string> notes;
   double routing_s = 0;                     ///< wall time of the routing alone (threads: results.threads)
   /// Every lake, in the lakes layer's order (`lakes[k].lake == k`; empty
   /// when no lakes were given): where it sits in the plan and its routing.

@@ -13,6 +13,10 @@
 #include "reachwise/network/SyntheticNetwork.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
+namespace reachwise::io {
+class OutputCommit;
+}
+
 namespace reachwise::run {
 
 struct SyntheticRequest {
@@ -42,11 +46,13 @@ public:
   const std::vector<network::SyntheticLake>& lakes() const noexcept { return lakes_; }
   const SyntheticRequest& request() const noexcept { return request_; }
 
-  /// Each writes its file (under a temporary name, renamed when complete);
-  /// the forcing writers do nothing when their file was not asked for.
-  void writeNetwork() const;
-  void writeLateral() const;
-  void writeInflow() const;
+  /// Each writes its file under a temporary name and hands it to `into`
+  /// (without one: renames it in place when complete); the forcing writers
+  /// do nothing when their file was not asked for. With one OutputCommit
+  /// for all three, the files appear together or not at all.
+  void writeNetwork(io::OutputCommit* into = nullptr) const;
+  void writeLateral(io::OutputCommit* into = nullptr) const;
+  void writeInflow(io::OutputCommit* into = nullptr) const;
 
 private:
   SyntheticRequest request_;
