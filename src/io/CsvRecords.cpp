@@ -19,17 +19,20 @@ std::string_view trimCsvField(std::string_view s) {
   return s;
 }
 
-std::vector<CsvRecord> parseCsvRecords(std::string_view text, const std::string& file) {
+void forEachCsvRecord(std::string_view text, const std::string& file,
+                      const std::function<void(const CsvRecord&)>& each) {
   if (text.starts_with("\xEF\xBB\xBF")) text.remove_prefix(3);
-  std::vector<CsvRecord> out;
+  CsvRecord record;
   std::int64_t line = 1;
   std::size_t i = 0;
   const std::size_t n = text.size();
   while (i < n) {
-    CsvRecord record;
     record.line = line;
+    std::size_t used = 0;  // fields of this record; the strings beyond are kept for reuse
     for (;;) {
-      std::string field;
+      if (used == record.fields.size()) record.fields.emplace_back();
+      std::string& field = record.fields[used++];
+      field.clear();
       std::size_t j = i;
       while (j < n && isBlank(text[j])) ++j;
       if (j < n && text[j] == '"') {
@@ -60,7 +63,6 @@ std::vector<CsvRecord> parseCsvRecords(std::string_view text, const std::string&
           field += text[i];
         }
       }
-      record.fields.push_back(std::move(field));
       if (i < n && text[i] == ',') {
         ++i;
         continue;
@@ -70,9 +72,15 @@ std::vector<CsvRecord> parseCsvRecords(std::string_view text, const std::string&
       ++line;
       break;
     }
-    const bool blank = record.fields.size() == 1 && trimCsvField(record.fields[0]).empty();
-    if (!blank) out.push_back(std::move(record));
+    record.fields.resize(used);
+    const bool blank = used == 1 && trimCsvField(record.fields[0]).empty();
+    if (!blank) each(record);
   }
+}
+
+std::vector<CsvRecord> parseCsvRecords(std::string_view text, const std::string& file) {
+  std::vector<CsvRecord> out;
+  forEachCsvRecord(text, file, [&](const CsvRecord& r) { out.push_back(r); });
   return out;
 }
 

@@ -4,6 +4,7 @@
 #include <charconv>
 #include <cmath>
 #include <fstream>
+#include <memory>
 #include <set>
 #include <sstream>
 
@@ -91,84 +92,118 @@ void checkFieldCount(const CsvRecord& record, std::size_t expected, const std::s
                      fmt::format("{} fields where the header has {}", record.fields.size(), expected));
 }
 
-void readLong(const std::vector<CsvRecord>& records, CsvForcingFile& out, units::System unit,
-              CsvValues values) {
-  const auto& header = records.front().fields;
-  std::size_t col_id = 0, col_time = 0, col_q = 0;
-  for (std::size_t c = 0; c < header.size(); ++c) {
-    const std::string name = lower(trimCsvField(header[c]));
-    (name == "reach_id" ? col_id : name == "time" ? col_time : col_q) = c;
+/// Rows of a file, one at a time, after its header.
+class RowReader {
+public:
+  virtual ~RowReader() = default;
+  virtual void row(const CsvRecord& rec) = 0;
+  virtual void finish() {}
+};
+
+/// `reach_id,time,discharge`, the columns in any order.
+class LongReader final : public RowReader {
+public:
+  LongReader(const CsvRecord& header, CsvForcingFile& out, units::System unit, CsvValues values)
+      : out_(out), unit_(unit), values_(values), columns_(header.fields.size()) {
+    for (std::size_t c = 0; c < header.fields.size(); ++c) {
+      const std::string name = lower(trimCsvField(header.fields[c]));
+      (name == "reach_id" ? col_id_ : name == "time" ? col_time_ : col_q_) = c;
+    }
   }
-  for (std::size_t r = 1; r < records.size(); ++r) {
-    const CsvRecord& rec = records[r];
-    checkFieldCount(rec, header.size(), out.file);
-    InputLocation where = textLocation(out.file, rec.line);
-    const std::string id(trimCsvField(rec.fields[col_id]));
+  void row(const CsvRecord& rec) override {
+    checkFieldCount(rec, columns_, out_.file);
+    InputLocation where = textLocation(out_.file, rec.line);
+    const std::string_view id = trimCsvField(rec.fields[col_id_]);
     if (id.empty()) {
       where.field = "reach_id";
       throw InputError(where, "the reach id is empty");
     }
-    where.reach_id = id;
-    const IsoTime t = parseTime(rec.fields[col_time], where);
-    if (out.series.empty()) out.utc_offset_min = t.utc_offset_min;
-    where.time = std::string(trimCsvField(rec.fields[col_time]));
-    if (values == CsvValues::Observed && isMissing(rec.fields[col_q])) continue;
+    where.reach_id = std::string(id);
+    const IsoTime t = parseTime(rec.fields[col_time_], where);
+    if (out_.series.empty()) out_.utc_offset_min = t.utc_offset_min;
+    where.time = std::string(trimCsvField(rec.fields[col_time_]));
+    if (values_ == CsvValues::Observed && isMissing(rec.fields[col_q_])) return;
     InputLocation qwhere = where;
     qwhere.field = "discharge";
-    const double q = parseDischarge(rec.fields[col_q], qwhere, unit);
+    const double q = parseDischarge(rec.fields[col_q_], qwhere, unit_);
     where.field = "time";
-    append(out.series[id], t.seconds(), q, where, "this reach's time");
+    // Rows of one reach usually follow each other: the last series found is tried first.
+    if (!last_ || last_id_ != id) {
+      last_ = &out_.series[where.reach_id];
+      last_id_ = where.reach_id;
+    }
+    append(*last_, t.seconds(), q, where, "this reach's time");
   }
-}
 
-void readWide(const std::vector<CsvRecord>& records, CsvForcingFile& out, units::System unit,
-              CsvValues values) {
-  const CsvRecord& header = records.front();
-  std::vector<std::string> ids;
-  std::set<std::string, std::less<>> seen;
-  for (std::size_t c = 1; c < header.fields.size(); ++c) {
-    std::string id(trimCsvField(header.fields[c]));
-    InputLocation where = textLocation(out.file, header.line);
-    if (id.empty()) throw InputError(where, fmt::format("column {} has no reach id in the header", c + 1));
-    where.reach_id = id;
-    if (!seen.insert(id).second) throw InputError(where, "the reach id appears in two columns");
-    ids.push_back(std::move(id));
+private:
+  CsvForcingFile& out_;
+  units::System unit_;
+  CsvValues values_;
+  std::size_t columns_, col_id_ = 0, col_time_ = 0, col_q_ = 0;
+  std::string last_id_;
+  RawSeries* last_ = nullptr;
+};
+
+/// `time,<reach id>,<reach id>,...`.
+class WideReader final : public RowReader {
+public:
+  WideReader(const CsvRecord& header, CsvForcingFile& out, units::System unit, CsvValues values)
+      : out_(out), unit_(unit), values_(values), columns_(header.fields.size()), header_line_(header.line) {
+    std::set<std::string, std::less<>> seen;
+    for (std::size_t c = 1; c < header.fields.size(); ++c) {
+      std::string id(trimCsvField(header.fields[c]));
+      InputLocation where = textLocation(out.file, header.line);
+      if (id.empty()) throw InputError(where, fmt::format("column {} has no reach id in the header", c + 1));
+      where.reach_id = id;
+      if (!seen.insert(id).second) throw InputError(where, "the reach id appears in two columns");
+      ids_.push_back(std::move(id));
+    }
   }
-  double previous = 0;
-  std::int64_t previous_line = 0;
-  for (std::size_t r = 1; r < records.size(); ++r) {
-    const CsvRecord& rec = records[r];
-    checkFieldCount(rec, header.fields.size(), out.file);
-    InputLocation where = textLocation(out.file, rec.line);
+  void row(const CsvRecord& rec) override {
+    checkFieldCount(rec, columns_, out_.file);
+    InputLocation where = textLocation(out_.file, rec.line);
     const IsoTime t = parseTime(rec.fields[0], where);
     where.time = std::string(trimCsvField(rec.fields[0]));
-    if (r == 1) out.utc_offset_min = t.utc_offset_min;
-    if (r > 1 && t.seconds() <= previous + kSameInstant_s) {
+    if (rows_++ == 0) out_.utc_offset_min = t.utc_offset_min;
+    if (rows_ > 1 && t.seconds() <= previous_ + kSameInstant_s) {
       where.field = "time";
-      const bool same = std::abs(t.seconds() - previous) <= kSameInstant_s;
+      const bool same = std::abs(t.seconds() - previous_) <= kSameInstant_s;
       throw InputError(where, fmt::format("the time {} line {}",
                                           same ? "repeats the time on" : "is earlier than the time on",
-                                          previous_line));
+                                          previous_line_));
     }
-    previous = t.seconds();
-    previous_line = rec.line;
+    previous_ = t.seconds();
+    previous_line_ = rec.line;
     for (std::size_t c = 1; c < rec.fields.size(); ++c) {
       if (trimCsvField(rec.fields[c]).empty()) continue;  // no sample of this reach at this time
-      if (values == CsvValues::Observed && isMissing(rec.fields[c])) continue;
+      if (values_ == CsvValues::Observed && isMissing(rec.fields[c])) continue;
       InputLocation qwhere = where;
-      qwhere.reach_id = ids[c - 1];
+      qwhere.reach_id = ids_[c - 1];
       qwhere.field = "discharge";
-      const double q = parseDischarge(rec.fields[c], qwhere, unit);
-      append(out.series[ids[c - 1]], t.seconds(), q, qwhere, "the time");
+      const double q = parseDischarge(rec.fields[c], qwhere, unit_);
+      append(out_.series[ids_[c - 1]], t.seconds(), q, qwhere, "the time");
     }
   }
-  for (const std::string& id : ids) {
-    if (out.series.contains(id)) continue;
-    InputLocation where = textLocation(out.file, header.line);
-    where.reach_id = id;
-    throw InputError(where, "the column has no values");
+  void finish() override {
+    for (const std::string& id : ids_) {
+      if (out_.series.contains(id)) continue;
+      InputLocation where = textLocation(out_.file, header_line_);
+      where.reach_id = id;
+      throw InputError(where, "the column has no values");
+    }
   }
-}
+
+private:
+  CsvForcingFile& out_;
+  units::System unit_;
+  CsvValues values_;
+  std::size_t columns_;
+  std::int64_t header_line_;
+  std::vector<std::string> ids_;
+  std::size_t rows_ = 0;
+  double previous_ = 0;
+  std::int64_t previous_line_ = 0;
+};
 
 CsvLayout detectLayout(const CsvRecord& header, const std::string& file) {
   std::multiset<std::string> names;
@@ -187,16 +222,24 @@ CsvLayout detectLayout(const CsvRecord& header, const std::string& file) {
 CsvForcingFile readForcingCsvFile(const std::filesystem::path& path, units::System unit, CsvValues values) {
   CsvForcingFile out;
   out.file = path.string();
-  const std::vector<CsvRecord> records = parseCsvRecords(readWhole(path), out.file);
-  if (records.empty())
-    throw InputError(textLocation(out.file, 1), "the file is empty (expected a header line)");
-  out.layout = detectLayout(records.front(), out.file);
-  if (records.size() == 1)
-    throw InputError(textLocation(out.file, records.front().line + 1), "no data rows after the header");
-  if (out.layout == CsvLayout::Long)
-    readLong(records, out, unit, values);
-  else
-    readWide(records, out, unit, values);
+  // One record at a time: the text is held once, never a copy of every field.
+  std::unique_ptr<RowReader> reader;
+  std::int64_t header_line = 0;
+  std::size_t rows = 0;
+  forEachCsvRecord(readWhole(path), out.file, [&](const CsvRecord& rec) {
+    if (!reader) {
+      header_line = rec.line;
+      out.layout = detectLayout(rec, out.file);
+      if (out.layout == CsvLayout::Long) reader = std::make_unique<LongReader>(rec, out, unit, values);
+      else reader = std::make_unique<WideReader>(rec, out, unit, values);
+      return;
+    }
+    ++rows;
+    reader->row(rec);
+  });
+  if (!reader) throw InputError(textLocation(out.file, 1), "the file is empty (expected a header line)");
+  if (rows == 0) throw InputError(textLocation(out.file, header_line + 1), "no data rows after the header");
+  reader->finish();
   return out;
 }
 
