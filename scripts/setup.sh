@@ -4,6 +4,7 @@
 #   scripts/setup.sh [BUILD_DIR]                  (default: build)
 #   scripts/setup.sh --sanitize [BUILD_DIR]       the sanitizer build (CMake type
 #       Asan, default build-asan), and clang with libFuzzer for fuzz/ (docs/testing.md)
+#   SETUP_TARGET=NAME scripts/setup.sh ...        build only that target (default: all)
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 type=Release
@@ -43,5 +44,5 @@ if ((${#missing[@]})); then
 fi
 
 cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE="$type" >/dev/null
-cmake --build "$build" --parallel "$(nproc)"
+cmake --build "$build" --parallel "$(nproc)" ${SETUP_TARGET:+--target "$SETUP_TARGET"}
 echo "setup: built in $build"

@@ -246,7 +246,10 @@ void NetcdfForcingSource::readAxis() {
   }
   std::vector<double> raw(steps);
   detail::check(nc_get_var_double(ncid_, var, raw.data()), path_, "reading 'time'");
-  const auto seconds = [&](std::size_t k) { return reference + raw[k] * factor; };
+  // Bindings captured by copy: clang before 16 cannot capture structured bindings.
+  const auto seconds = [&raw, reference = reference, factor = factor](std::size_t k) {
+    return reference + raw[k] * factor;
+  };
   // Sub-millisecond slack for times stored as fractional hours or days.
   constexpr double kTolerance_s = 1e-3;
   const double dt = seconds(1) - seconds(0);
