@@ -4,7 +4,8 @@
 #   scripts/test.sh --sanitize          built with ASan + UBSan + leak checking
 #                                       (build-asan/): the readers, the routers
 #                                       and a whole run (CTest label sanitize_fast);
-#                                       then every fuzz target for 60 s (FUZZ_SECONDS)
+#                                       then every fuzz target for 60 s
+#                                       (FUZZ_SECONDS=N; 0: no fuzzing)
 #   scripts/test.sh --sanitize --full   the same with the whole suite
 # docs/testing.md has the details and the times.
 set -euo pipefail
@@ -19,7 +20,7 @@ if [[ "${1:-}" == --sanitize ]]; then
   source "$here/tests/sanitize/env.sh"
   SETUP_TARGET="$target" "$here/scripts/setup.sh" --sanitize "$build"
   ctest --test-dir "$build" "${only[@]}" --output-on-failure --parallel "$(nproc)" --timeout 1800
-  "$here/scripts/fuzz.sh" "${FUZZ_SECONDS:-60}"
+  if [[ ${FUZZ_SECONDS:-60} != 0 ]]; then "$here/scripts/fuzz.sh" "${FUZZ_SECONDS:-60}"; fi
   exit
 fi
 build="${BUILD_DIR:-$here/build}"
