@@ -52,8 +52,11 @@ for t in "${targets[@]}"; do
   findings="$build/fuzz-findings/$t"
   work="$build/fuzz-corpus/$t"          # the seeds plus what the fuzzer adds; the tree stays as committed
   mkdir -p "$findings" "$work"
-  cp -n "$here/fuzz/corpus/$t/"* "$work/"
-  if [[ $t == network_gpkg ]]; then cp -n "$here"/sample-network/*.gpkg "$work/"; fi
+  seeds=("$here/fuzz/corpus/$t/"*)
+  if [[ $t == network_gpkg ]]; then seeds+=("$here"/sample-network/*.gpkg); fi
+  for f in "${seeds[@]}"; do
+    if [[ ! -e "$work/$(basename "$f")" ]]; then cp "$f" "$work/"; fi
+  done
   regressions=("$here/fuzz/regressions/$t/"*)
   if [[ -e ${regressions[0]} ]]; then
     echo "fuzz: $t: replaying ${#regressions[@]} regression input(s)"
