@@ -1,10 +1,18 @@
 #!/usr/bin/env bash
 # Install every Debian package reachwise needs (only what is missing) and
 # build it with CMake in Release. Safe to run again: it does nothing twice.
-#   scripts/setup.sh [BUILD_DIR]      (default: build)
+#   scripts/setup.sh [BUILD_DIR]                  (default: build)
+#   scripts/setup.sh --sanitize [BUILD_DIR]       the sanitizer build (CMake type
+#       Asan, default build-asan), and clang with libFuzzer for fuzz/ (docs/testing.md)
+#   SETUP_TARGET=NAME scripts/setup.sh ...        build only that target (default: all)
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
-build="${1:-$here/build}"
+type=Release
+if [[ "${1:-}" == --sanitize ]]; then
+  type=Asan
+  shift
+fi
+if [[ $type == Asan ]]; then build="${1:-$here/build-asan}"; else build="${1:-$here/build}"; fi
 
 packages=(
   build-essential cmake pkg-config git
@@ -14,6 +22,8 @@ packages=(
   libcairo2-dev libnlopt-cxx-dev
   libgtest-dev libgmock-dev libbenchmark-dev
 )
+# The fuzz targets (scripts/fuzz.sh) need clang and libFuzzer's runtime.
+if [[ $type == Asan ]]; then packages+=(clang libclang-rt-dev); fi
 
 missing=()
 for p in "${packages[@]}"; do
@@ -33,6 +43,6 @@ if ((${#missing[@]})); then
   DEBIAN_FRONTEND=noninteractive "${sudo_cmd[@]}" apt-get install -y -qq --no-install-recommends "${missing[@]}"
 fi
 
-cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release >/dev/null
-cmake --build "$build" --parallel "$(nproc)"
+cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE="$type" >/dev/null
+cmake --build "$build" --parallel "$(nproc)" ${SETUP_TARGET:+--target "$SETUP_TARGET"}
 echo "setup: built in $build"
