@@ -5,6 +5,7 @@
 // their lake (`lake_id`) on a `to_reach` network, and forcing that names a
 // reach lying inside a lake. Small invented layers in UTM 33N, written here
 // with GDAL.
+#include <fmt/format.h>
 #include <gdal_priv.h>
 #include <gtest/gtest.h>
 #include <ogrsf_frmts.h>
@@ -23,6 +24,7 @@
 #include <vector>
 
 #include "reachwise/Error.hpp"
+#include "reachwise/run/Calibrate.hpp"
 #include "reachwise/run/Route.hpp"
 #include "support/Scratch.hpp"
 
@@ -485,4 +487,61 @@ TEST(LakeTopology, LakeWithoutInflowSharesByTheRuleToo) {
   EXPECT_NEAR(s.results.reaches[c].volume.inflow_m3 / out, 20.0 / 30.0, 1e-12);
   EXPECT_NEAR(s.results.reaches[d].volume.inflow_m3 / out, 10.0 / 30.0, 1e-12);
   EXPECT_LT(std::abs(s.results.volume.error_pct), 0.01) << s.results.volume.error_pct;
+}
+
+// Calibration where a gauge's sub-basin cannot be cut out alone: the gauge
+// on C, one of the two channels leaving lake L, whose other channel D lies
+// outside C's sub-basin (the lake takes both channels' top inflow, so the
+// part {A, B, C} cannot route it). That sub-basin is routed with the whole
+// network (docs/methods.md, "Calibration"). A twin experiment (common
+// practice): observations routed with n × 1.3 on every reach are fitted
+// from the layer's n, and the fit's final score equals the whole network's
+// at the gauge (the same routing, so to round-off).
+TEST(LakeTopology, CalibrationAtAChannelLeavingATwoOutflowLake) {
+  testsupport::TempDir dir;
+  const auto at = [&](const char* name) { return (dir.path() / name).string(); };
+  writeNetwork(at("net.gpkg"),
+               {{"A", {}, {}, 0, 10000, 0, 5000},
+                {"B", {}, {}, 3000, 8000, 0, 5000},
+                {"C", {}, {}, 0, 5000, -2000, 0, 20},
+                {"D", {}, {}, 0, 5000, 2000, 0, 10}},
+               false);
+  writeLakes(at("lakes.gpkg"), {{"L", 0, 5000, 200, {{"crest_level_m", 100}, {"weir_length_m", 15}}}});
+  writeInflow(at("inflow.csv"), {"A", "B"});
+  run::NetworkSource source{at("net.gpkg"), "", "", ""};
+  source.lakes = at("lakes.gpkg");
+  const auto net = run::loadNetwork(source);
+  network::NetworkPlan plan = run::routablePlan(*net);
+  for (auto& s : plan.section) s = s.withRoughnessScaled(1.3);
+  const run::RunForcing forcing({at("inflow.csv"), "", {}}, plan);
+  const routing::NetworkRouteOptions options =
+      run::networkRouteOptions(*net, plan, routing::Method::VariableParameter, routing::kDiffusionWaveMinPonce, 1);
+  ASSERT_EQ(options.lakes.size(), 1u);
+  Keep truth;
+  (void)routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options, &truth);
+  const std::uint32_t c = indexOf(plan, "C");
+  {
+    std::ofstream csv(at("observed.csv"));
+    csv << "time,C\n";
+    for (std::size_t n = 0; n < forcing.axis().steps; ++n) {
+      char t[40];
+      std::snprintf(t, sizeof t, "2026-05-%02zuT%02zu:00:00Z", 1 + n / 24, n % 24);
+      csv << t << "," << fmt::format("{:.17g}", truth.q.at(c)[n]) << "\n";
+    }
+  }
+  run::CalibrateRequest request;
+  request.network = source;
+  request.forcing.inflow = at("inflow.csv");
+  request.gauges.observed = at("observed.csv");
+  request.threads = 1;
+  const run::CalibrationResult result = run::calibrate(request);
+  ASSERT_EQ(result.sub_basins.size(), 1u);
+  const run::SubBasinResult& sb = result.sub_basins[0];
+  EXPECT_EQ(ids(result.plan, sb.reaches), (std::set<std::string>{"A", "B", "C"}));
+  // The optimiser stops at 1e-3 in log(multiplier); 1 % leaves room for
+  // the flat top of the objective behind a weir lake.
+  EXPECT_NEAR(sb.multiplier, 1.3, 0.013);
+  EXPECT_GT(sb.after.kge, 0.999);
+  ASSERT_EQ(result.scores.size(), 1u);
+  EXPECT_NEAR(sb.after.kge, result.scores[0].kge, 1e-12);
 }
