@@ -28,7 +28,7 @@ namespace {
 namespace fs = std::filesystem;
 
 struct RouteOptions {
-  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report;
+  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report, report_reaches;
   std::string hydrographs = "auto";
   std::string lakes, lakes_layer;
   std::string observed, gauges, gauges_layer;
@@ -267,6 +267,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   out.csv_dir = o.csv;
   out.series_nc = o.series_nc;
   out.report_dir = o.report;
+  out.report_reaches = o.report_reaches;
   out.hydrographs = o.hydrographs;
   out.overwrite = o.overwrite;
   return r;
@@ -313,6 +314,7 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--csv", o.csv, c.csv);
   take("--series", o.series_nc, c.series);
   take("--report", o.report, c.report);
+  take("--report-reaches", o.report_reaches, c.report_reaches);
   take("--hydrographs", o.hydrographs, c.hydrographs);
   take("--threads", o.threads, c.threads);
   take("--max-steps", o.max_steps, c.max_steps);
@@ -369,6 +371,8 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--series", o->series_nc,
                   "Write the chosen hydrographs to this NetCDF file instead of the GeoPackage table");
   sub->add_option("--report", o->report, "Write an HTML run report with figures into this folder");
+  sub->add_option("--report-reaches", o->report_reaches,
+                  "Reach ids (comma-separated, at most 24) drawn in hydrograph panels of their own in the report");
   sub->add_option("--threads", o->threads, threadsHelp())->check(CLI::Range(1u, kMostThreads));
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
   sub->callback([&chosen, o, sub, command_line] {

@@ -30,11 +30,12 @@ T required(const toml::node& node, const std::string& origin, const std::string&
   throw keyError(origin, key, std::string("expected ") + what);
 }
 
-/// `hydrographs` may be one text ("outlets,R12") or an array of texts.
-std::string hydrographList(const toml::node& node, const std::string& origin) {
+/// `hydrographs` (and `report_reaches`) may be one text ("outlets,R12") or
+/// an array of texts.
+std::string hydrographList(const toml::node& node, const std::string& origin, const std::string& key) {
   if (auto s = node.value<std::string>()) return *s;
   const auto* arr = node.as_array();
-  if (!arr) throw keyError(origin, "hydrographs", "expected a text or an array of texts");
+  if (!arr) throw keyError(origin, key, "expected a text or an array of texts");
   std::string out;
   for (const auto& item : *arr) {
     std::string v;
@@ -43,7 +44,7 @@ std::string hydrographList(const toml::node& node, const std::string& origin) {
     else if (auto i = item.value<std::int64_t>())
       v = std::to_string(*i);
     else
-      throw keyError(origin, "hydrographs", "expected texts (or integer reach ids)");
+      throw keyError(origin, key, "expected texts (or integer reach ids)");
     out += (out.empty() ? "" : ",") + v;
   }
   return out;
@@ -72,7 +73,8 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
     else if (key == "csv") c.csv = path(v, key);
     else if (key == "series") c.series = path(v, key);
     else if (key == "report") c.report = path(v, key);
-    else if (key == "hydrographs") c.hydrographs = hydrographList(v, origin);
+    else if (key == "hydrographs") c.hydrographs = hydrographList(v, origin, key);
+    else if (key == "report_reaches") c.report_reaches = hydrographList(v, origin, key);
     else if (key == "method") {
       c.method = required<std::string>(v, origin, key, "a text");
       if (*c.method != "vpmc" && *c.method != "mc" && *c.method != "muskingum")

@@ -110,10 +110,11 @@ HydrographFigure emptyFigure(const ReportInputs& in, const ReportModel& m, std::
   return fig;
 }
 
-HydrographFigure outletFigure(const ReportInputs& in, const ReportSeries& series, const ReportModel& m,
-                              std::uint32_t reach) {
+/// A reach's outflow, its peak, and its inflow's peak; `title` names it.
+HydrographFigure reachFigure(const ReportInputs& in, const ReportSeries& series, const ReportModel& m,
+                             std::uint32_t reach, const std::string& title) {
   const auto& s = in.results.reaches[reach];
-  HydrographFigure fig = emptyFigure(in, m, "Outlet O:" + in.plan.reach_id[reach]);
+  HydrographFigure fig = emptyFigure(in, m, title);
   Curve c;
   c.label = "outflow of " + in.plan.reach_id[reach];
   c.q = scaled(series.series(reach), m.units);
@@ -284,8 +285,15 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
     const std::uint32_t o = m.hydrograph_outlets[k];
     if (!series.has(o)) continue;
     FigureFile f{fmt::format("outlet-{}.svg", k + 1), "Outlet O:" + in.plan.reach_id[o], 620};
-    drawHydrograph(folder / f.file, outletFigure(in, series, m, o));
+    drawHydrograph(folder / f.file, reachFigure(in, series, m, o, f.caption));
     m.outlet_figures.push_back(std::move(f));
+  }
+  for (std::size_t k = 0; k < series.named().size(); ++k) {
+    const std::uint32_t r = series.named()[k];
+    if (!series.has(r)) continue;
+    FigureFile f{fmt::format("reach-{}.svg", k + 1), "Reach " + in.plan.reach_id[r], 620};
+    drawHydrograph(folder / f.file, reachFigure(in, series, m, r, f.caption));
+    m.reach_figures.push_back(std::move(f));
   }
   for (std::size_t k = 0; k < m.hydrograph_confluences.size(); ++k) {
     const auto& node = in.results.nodes[m.hydrograph_confluences[k]];

@@ -55,6 +55,8 @@ struct ReportModel {
   std::size_t outlet_count = 0, confluence_count = 0;
   FigureFile map, timing;
   std::vector<FigureFile> outlet_figures, confluence_figures;
+  /// The reaches the user named (ReportSeries::named), in that order.
+  std::vector<FigureFile> reach_figures;
   /// One entry per lake of ReportInputs::lakes; `shown_lakes` indexes them,
   /// largest inflow peak first (the table shows kLakeTableRows, the panels
   /// the first kShownLakes of them).

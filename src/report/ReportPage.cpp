@@ -223,6 +223,7 @@ private:
       outletFigures();
       out_ << "</div>\n";
     }
+    namedReaches();
     lakes();
     calibration();
     gauges();
@@ -409,6 +410,16 @@ private:
            << "</td></tr>\n";
     }
     out_ << "</tbody>\n</table>\n";
+  }
+
+  /// The reaches the user named (`--report-reaches`), in that order.
+  void namedReaches() {
+    if (m_.reach_figures.empty()) return;
+    out_ << "<h2>Hydrographs at the reaches asked for</h2>\n<p>The outflow at the downstream end of each reach "
+            "named with <code>--report-reaches</code>, its peak, and the peak of everything that entered it "
+            "(top and lateral inflow).</p>\n<div class=\"grid\">\n";
+    for (const auto& f : m_.reach_figures) figure(f, "Hydrograph at " + f.caption);
+    out_ << "</div>\n";
   }
 
   void outletFigures() {

@@ -10,8 +10,10 @@
 namespace reachwise::report {
 
 
-ReportSeries::ReportSeries(const network::NetworkPlan& plan, const routing::TimeAxis& axis)
-    : plan_(plan), axis_(axis), written_(plan.size(), false) {
+ReportSeries::ReportSeries(const network::NetworkPlan& plan, const routing::TimeAxis& axis,
+                           std::vector<std::uint32_t> named)
+    : plan_(plan), axis_(axis), named_(std::move(named)), written_(plan.size(), false) {
+  for (const std::uint32_t r : named_) REACHWISE_ASSERT(r < plan.size());
   REACHWISE_ASSERT(plan.up_offset.size() == plan.size() + 1);
   const std::vector<double> size = network::upstreamSize(plan);
   std::vector<std::uint32_t> outlets;
@@ -21,6 +23,7 @@ ReportSeries::ReportSeries(const network::NetworkPlan& plan, const routing::Time
   outlets_ = network::largestFirst(std::move(outlets), size, kMaxOutlets);
   confluences_ = network::largestFirst(network::confluenceReaches(plan), size, kMaxCandidateConfluences);
   for (const std::uint32_t o : outlets_) q_[o];
+  for (const std::uint32_t r : named_) q_[r];
   for (const std::uint32_t c : confluences_) {
     q_[c];
     for (std::uint32_t k = plan.up_offset[c]; k < plan.up_offset[c + 1]; ++k) q_[plan.up_reach[k]];

@@ -129,9 +129,14 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
     sinks.push_back(w_->netcdf_selected.get());
   }
+  if (!o.report_reaches.empty() && o.report_dir.empty()) {
+    InputLocation at;
+    at.field = "report_reaches";
+    throw InputError(at, "names reaches to draw in the report, but no report is asked for (--report DIR)");
+  }
   if (!o.report_dir.empty()) {
     io::refuseExisting(o.report_dir, o.overwrite);
-    w_->report = std::make_unique<report::ReportSeries>(plan, axis);
+    w_->report = std::make_unique<report::ReportSeries>(plan, axis, namedReaches(o.report_reaches, plan, "report_reaches"));
     sinks.push_back(w_->report.get());
   }
   w_->fan_out = std::make_unique<io::SeriesFanOut>(std::move(sinks));

@@ -101,4 +101,33 @@ void requireHydrographRows(std::string_view spec, const network::NetworkPlan& pl
                                    reaches, steps, rows, max_rows, rows, rows));
 }
 
+std::vector<std::uint32_t> namedReaches(std::string_view ids, const network::NetworkPlan& plan,
+                                        const std::string& field) {
+  std::map<std::string_view, std::uint32_t> by_id;
+  for (std::uint32_t i = 0; i < plan.size(); ++i) by_id.emplace(plan.reach_id[i], i);
+  std::vector<std::uint32_t> out;
+  std::vector<std::string> unknown;
+  std::size_t start = 0;
+  while (start <= ids.size()) {
+    std::size_t end = ids.find(',', start);
+    if (end == std::string_view::npos) end = ids.size();
+    std::string_view token = ids.substr(start, end - start);
+    while (!token.empty() && std::isspace(static_cast<unsigned char>(token.front()))) token.remove_prefix(1);
+    while (!token.empty() && std::isspace(static_cast<unsigned char>(token.back()))) token.remove_suffix(1);
+    start = end + 1;
+    if (token.empty()) continue;
+    const auto it = by_id.find(token);
+    if (it == by_id.end()) unknown.emplace_back(token);
+    else if (std::find(out.begin(), out.end(), it->second) == out.end()) out.push_back(it->second);
+  }
+  InputLocation at;
+  at.field = field;
+  if (!unknown.empty()) throw InputError(at, fmt::format("reach ids not in the network: {}", fmt::join(unknown, ", ")));
+  if (out.size() > kMostReportReaches)
+    throw InputError(at, fmt::format("{} reaches named; at most {} get a panel (the GeoPackage's hydrographs "
+                                     "table holds any number: --hydrographs)",
+                                     out.size(), kMostReportReaches));
+  return out;
+}
+
 }  // namespace reachwise::run

@@ -49,7 +49,10 @@ public:
   static constexpr std::size_t kMaxOutlets = 48;
   static constexpr std::size_t kMaxCandidateConfluences = 40;
 
-  ReportSeries(const network::NetworkPlan& plan, const routing::TimeAxis& axis);
+  /// `named`: reaches (plan indices) the user asked to see, each drawn in
+  /// a panel of its own (`--report-reaches`), in that order.
+  ReportSeries(const network::NetworkPlan& plan, const routing::TimeAxis& axis,
+               std::vector<std::uint32_t> named = {});
 
   /// Keeps `q_m3s` of a chosen reach (ignores the others and the depth and
   /// velocity series). Thread-safe.
@@ -64,6 +67,8 @@ public:
   /// Plan indices of the reaches that leave the candidate confluences (the
   /// confluence is the node at the top of that reach, `N:<reach_id>`).
   const std::vector<std::uint32_t>& confluences() const noexcept { return confluences_; }
+  /// The reaches the user named, in the order given.
+  const std::vector<std::uint32_t>& named() const noexcept { return named_; }
   /// Number of outlets in the plan (may exceed outlets().size()).
   std::size_t outletCount() const noexcept { return outlet_count_; }
 
@@ -79,7 +84,7 @@ public:
 private:
   const network::NetworkPlan& plan_;
   routing::TimeAxis axis_;
-  std::vector<std::uint32_t> outlets_, confluences_;
+  std::vector<std::uint32_t> outlets_, confluences_, named_;
   std::size_t outlet_count_ = 0;
   std::unordered_map<std::uint32_t, std::vector<double>> q_;   ///< chosen reaches; filled by write()
   std::vector<bool> written_;                                  ///< by plan index of a chosen reach

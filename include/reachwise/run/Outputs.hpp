@@ -37,6 +37,9 @@ struct OutputRequest {
   std::string csv_dir;      ///< the tables and hydrographs as CSV files into this folder
   std::string series_nc;    ///< the chosen hydrographs as CF-NetCDF instead of the GeoPackage table
   std::string report_dir;   ///< the HTML run report into this folder
+  /// Reach ids (comma-separated) drawn in panels of their own in the
+  /// report (namedReaches(); needs `report_dir`); empty: none.
+  std::string report_reaches;
   std::string hydrographs = "auto";   ///< which reaches' hydrographs: see chooseSeries()
   bool overwrite = false;   ///< replace existing outputs (else an existing one is an InputError naming it)
   /// The calibration the run comes from, for the report (null: none; must

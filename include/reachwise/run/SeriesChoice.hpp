@@ -3,7 +3,10 @@
 /// Which reaches' hydrographs a run writes (`OutputRequest::hydrographs`).
 
 #include <cstddef>
+#include <cstdint>
+#include <string>
 #include <string_view>
+#include <vector>
 
 #include "reachwise/io/ResultsWriter.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
@@ -37,5 +40,15 @@ io::SeriesSelection chooseSeries(std::string_view spec, const network::NetworkPl
 /// them. Called before routing.
 void requireHydrographRows(std::string_view spec, const network::NetworkPlan& plan, std::size_t steps,
                            std::size_t max_rows);
+
+/// Most reaches `--report-reaches` may name (each gets a panel).
+inline constexpr std::size_t kMostReportReaches = 24;
+
+/// The reaches `ids` names (comma-separated reach ids, blanks around each
+/// ignored, a repeat dropped), in the order given, as plan indices. Unknown
+/// ids are one InputError (field `field`) listing them all; so are more
+/// than kMostReportReaches ids.
+std::vector<std::uint32_t> namedReaches(std::string_view ids, const network::NetworkPlan& plan,
+                                        const std::string& field);
 
 }  // namespace reachwise::run
