@@ -208,12 +208,14 @@ void printRunSummary(std::ostream& out, std::ostream& err, const run::RouteSumma
   printCoinciding(out, r);
   std::vector<std::uint32_t> order(plan.size());
   for (std::uint32_t i = 0; i < plan.size(); ++i) order[i] = i;
-  std::sort(order.begin(), order.end(), [&](auto a, auto b) {
-    const double x = r.reaches[a].attenuation_pct, y = r.reaches[b].attenuation_pct;
-    return (std::isnan(y) ? -1e300 : y) < (std::isnan(x) ? -1e300 : x);
-  });
+  const std::size_t shown = std::min<std::size_t>(5, order.size());  // only these need ordering
+  std::partial_sort(order.begin(), order.begin() + static_cast<std::ptrdiff_t>(shown), order.end(),
+                    [&](auto a, auto b) {
+                      const double x = r.reaches[a].attenuation_pct, y = r.reaches[b].attenuation_pct;
+                      return (std::isnan(y) ? -1e300 : y) < (std::isnan(x) ? -1e300 : x);
+                    });
   fmt::print(out, "largest attenuation:\n");
-  for (std::size_t k = 0; k < std::min<std::size_t>(5, order.size()); ++k) {
+  for (std::size_t k = 0; k < shown; ++k) {
     const auto& a = r.reaches[order[k]];
     fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], a.attenuation_pct,
                hours(a.travel_time_s));

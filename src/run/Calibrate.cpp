@@ -235,14 +235,21 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   std::vector<std::vector<std::size_t>> needs(basins.size());
   std::vector<char> alone(basins.size(), 1);  // routed as a part of its own
   for (std::size_t k = 0; k < basins.size(); ++k) {
-    const network::PlanPart part = network::planPart(plan, basins[k]);
-    std::vector<routing::NetworkLake> lakes;
-    bool ok = partLakes(whole_options.lakes, part, lakes);
-    for (const auto& b : part.boundary) {
-      const long o = owner[b.from];
-      if (o < 0) ok = false;  // not held by a gauge above: cannot be fixed
-      else needs[k].push_back(static_cast<std::size_t>(o)), handed_on[b.from] = 1;
-    }
+    const auto held = [&](std::uint32_t r) { return owner[r] == static_cast<long>(k); };
+    // A lake with outflowing reaches on both sides of the cut (partLakes).
+    bool ok = std::none_of(whole_options.lakes.begin(), whole_options.lakes.end(), [&](const routing::NetworkLake& l) {
+      const auto inside = std::count_if(l.outflow_reaches.begin(), l.outflow_reaches.end(), held);
+      return inside > 0 && static_cast<std::size_t>(inside) < l.outflow_reaches.size();
+    });
+    // The boundary: links into the sub-basin from reaches outside it.
+    for (const auto r : basins[k])
+      for (std::uint32_t u = plan.up_offset[r]; u < plan.up_offset[r + 1]; ++u) {
+        const std::uint32_t from = plan.up_reach[u];
+        if (held(from)) continue;
+        const long o = owner[from];
+        if (o < 0) ok = false;  // not held by a gauge above: cannot be fixed
+        else needs[k].push_back(static_cast<std::size_t>(o)), handed_on[from] = 1;
+      }
     if (!ok) {
       // Routed with the whole network, after every sub-basin above it.
       alone[k] = 0;

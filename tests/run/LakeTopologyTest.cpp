@@ -13,6 +13,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <filesystem>
 #include <fstream>
 #include <functional>
 #include <map>
@@ -139,6 +140,21 @@ void writeInflow(const std::string& path, const std::vector<std::string>& ids) {
   }
 }
 
+/// Two rivers (A, B) meeting in lake L, which two channels leave (C, 20 m
+/// wide, and D, 10 m): net.gpkg, lakes.gpkg and a storm on A and B in
+/// inflow.csv, in `dir`.
+void writeTwoChannelLake(const std::filesystem::path& dir) {
+  const auto at = [&](const char* name) { return (dir / name).string(); };
+  writeNetwork(at("net.gpkg"),
+               {{"A", {}, {}, 0, 10000, 0, 5000},
+                {"B", {}, {}, 3000, 8000, 0, 5000},
+                {"C", {}, {}, 0, 5000, -2000, 0, 20},
+                {"D", {}, {}, 0, 5000, 2000, 0, 10}},
+               false);
+  writeLakes(at("lakes.gpkg"), {{"L", 0, 5000, 200, {{"crest_level_m", 100}, {"weir_length_m", 15}}}});
+  writeInflow(at("inflow.csv"), {"A", "B"});
+}
+
 /// Keeps every reach's outflow series, by plan index.
 struct Keep : routing::SeriesSink {
   std::map<std::uint32_t, std::vector<double>> q;
@@ -186,14 +202,7 @@ bool contains(const std::string& s, const std::string& part) { return s.find(par
 TEST(LakeTopology, LakeWithTwoOutflowingReachesSharesItsOutflow) {
   testsupport::TempDir dir;
   const auto at = [&](const char* name) { return (dir.path() / name).string(); };
-  writeNetwork(at("net.gpkg"),
-               {{"A", {}, {}, 0, 10000, 0, 5000},
-                {"B", {}, {}, 3000, 8000, 0, 5000},
-                {"C", {}, {}, 0, 5000, -2000, 0, 20},
-                {"D", {}, {}, 0, 5000, 2000, 0, 10}},
-               false);
-  writeLakes(at("lakes.gpkg"), {{"L", 0, 5000, 200, {{"crest_level_m", 100}, {"weir_length_m", 15}}}});
-  writeInflow(at("inflow.csv"), {"A", "B"});
+  writeTwoChannelLake(dir.path());
   run::RouteRequest request;
   request.network.path = at("net.gpkg");
   request.network.lakes = at("lakes.gpkg");
@@ -500,14 +509,7 @@ TEST(LakeTopology, LakeWithoutInflowSharesByTheRuleToo) {
 TEST(LakeTopology, CalibrationAtAChannelLeavingATwoOutflowLake) {
   testsupport::TempDir dir;
   const auto at = [&](const char* name) { return (dir.path() / name).string(); };
-  writeNetwork(at("net.gpkg"),
-               {{"A", {}, {}, 0, 10000, 0, 5000},
-                {"B", {}, {}, 3000, 8000, 0, 5000},
-                {"C", {}, {}, 0, 5000, -2000, 0, 20},
-                {"D", {}, {}, 0, 5000, 2000, 0, 10}},
-               false);
-  writeLakes(at("lakes.gpkg"), {{"L", 0, 5000, 200, {{"crest_level_m", 100}, {"weir_length_m", 15}}}});
-  writeInflow(at("inflow.csv"), {"A", "B"});
+  writeTwoChannelLake(dir.path());
   run::NetworkSource source{at("net.gpkg"), "", "", ""};
   source.lakes = at("lakes.gpkg");
   const auto net = run::loadNetwork(source);
