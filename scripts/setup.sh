@@ -21,27 +21,34 @@ packages=(
   libtomlplusplus-dev libcli11-dev libfmt-dev libnetcdf-dev netcdf-bin
   libcairo2-dev libnlopt-cxx-dev
   libgtest-dev libgmock-dev libbenchmark-dev
+  postgresql postgresql-client
 )
 # The fuzz targets (scripts/fuzz.sh) need clang and libFuzzer's runtime.
 if [[ $type == Asan ]]; then packages+=(clang libclang-rt-dev); fi
 
-missing=()
-for p in "${packages[@]}"; do
-  if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then
-    missing+=("$p")
-  fi
-done
-
-if ((${#missing[@]})); then
+# Installs those of the given packages that are missing.
+install_missing() {
+  local missing=() p
+  for p in "$@"; do
+    if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then
+      missing+=("$p")
+    fi
+  done
+  if ((${#missing[@]} == 0)); then return; fi
   echo "setup: installing ${missing[*]}"
-  sudo_cmd=()
+  local sudo_cmd=()
   if [[ $(id -u) -ne 0 ]]; then sudo_cmd=(sudo); fi
   # Refresh the package lists when they are missing or older than a day.
   if [[ -z "$(find /var/lib/apt/lists -maxdepth 1 -name '*Packages*' -mtime -1 2>/dev/null | head -1)" ]]; then
     "${sudo_cmd[@]}" apt-get update -qq
   fi
   DEBIAN_FRONTEND=noninteractive "${sudo_cmd[@]}" apt-get install -y -qq --no-install-recommends "${missing[@]}"
-fi
+}
+install_missing "${packages[@]}"
+# PostGIS for the PostgreSQL server the distribution installed (the database
+# tests start a throwaway server: scripts/pg-server.sh).
+pg_major="$(ls /usr/lib/postgresql 2>/dev/null | sort -V | tail -1)"
+install_missing "postgresql-${pg_major:?setup: no PostgreSQL server under /usr/lib/postgresql}-postgis-3"
 
 cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE="$type" >/dev/null
 cmake --build "$build" --parallel "$(nproc)" ${SETUP_TARGET:+--target "$SETUP_TARGET"}
