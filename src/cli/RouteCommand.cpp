@@ -17,6 +17,7 @@
 #include "Common.hpp"
 #include "Progress.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/io/Database.hpp"
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/RouteConfig.hpp"
 #include "reachwise/run/Route.hpp"
@@ -39,6 +40,7 @@ struct RouteOptions {
   std::size_t max_steps = io::kDefaultMaxSteps;
   std::size_t max_hydrograph_rows = run::kDefaultMaxHydrographRows;
   bool write_back = false, overwrite = false, quiet = false, demo = false;
+  std::string schema;           ///< of results in a database (--out PG:...)
   std::string command_line;
 };
 
@@ -266,6 +268,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   run::OutputRequest& out = r.outputs;
   out.write_back = o.write_back;
   if (!o.write_back) out.gpkg = o.out.empty() ? "reachwise-results.gpkg" : o.out;
+  out.schema = o.schema;
   out.csv_dir = o.csv;
   out.series_nc = o.series_nc;
   out.report_dir = o.report;
@@ -313,6 +316,7 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--method", o.method, c.method);
   take("--dt", o.dt_s, c.dt_s);
   take("--out", o.out, c.out);
+  take("--schema", o.schema, c.schema);
   take("--csv", o.csv, c.csv);
   take("--series", o.series_nc, c.series);
   take("--report", o.report, c.report);
@@ -363,9 +367,16 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
                   fmt::format("Most hydrograph rows (reaches x steps) the run may write (default {})",
                               run::kDefaultMaxHydrographRows))
       ->check(CLI::PositiveNumber);
-  sub->add_option("--out", o->out, "Output GeoPackage (default reachwise-results.gpkg)");
+  sub->add_option("--out", o->out,
+                  "Output GeoPackage (default reachwise-results.gpkg), or a PostgreSQL/PostGIS database "
+                  "(PG:\"dbname=... host=...\" or PG:service=NAME)");
+  sub->add_option("--schema", o->schema,
+                  fmt::format("Schema of the results in a database given by --out PG:... (default {}; "
+                              "created when missing)", io::kDefaultSchema));
   sub->add_option("--csv", o->csv, "Also write the tables as CSV files into this folder");
-  sub->add_flag("--write-back", o->write_back, "Write the result layers into the input GeoPackage (prefix rw_)");
+  sub->add_flag("--write-back", o->write_back,
+                "Write the result layers into the input GeoPackage, or beside the network table in its "
+                "database schema (prefix rw_)");
   sub->add_flag("--overwrite", o->overwrite, "Replace existing outputs");
   sub->add_option("--hydrographs", o->hydrographs,
                   "Reaches whose hydrographs are written: comma-separated all, none, outlets, confluences, "

@@ -15,6 +15,7 @@
 #include "ResultsTables.hpp"
 #include "TableLayer.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/io/Database.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/Gdal.hpp"
 
@@ -67,10 +68,22 @@ void setValue(OGRFeature& f, int index, const Value& value, int utc_offset_min) 
   }
 }
 
+/// Creates layer `name` (GDAL's name; in a PostgreSQL database `schema.table`,
+/// created in `schema`) with `columns`.
 OGRLayer* createTable(const fs::path& file, GDALDataset& ds, const std::string& name,
                       OGRSpatialReference* srs, OGRwkbGeometryType geometry,
-                      const std::vector<Column>& columns) {
-  OGRLayer* layer = ds.CreateLayer(name.c_str(), geometry == wkbNone ? nullptr : srs, geometry, nullptr);
+                      const std::vector<Column>& columns, const std::string& schema = {}) {
+  CPLStringList options;
+  std::string table = name;
+  if (!schema.empty()) {
+    // The schema as an option, never parsed out of the name (either may hold dots).
+    table = name.substr(schema.size() + 1);
+    options.SetNameValue("SCHEMA", schema.c_str());
+    options.SetNameValue("LAUNDER", "NO");    // names as given
+    options.SetNameValue("GEOMETRY_NAME", "geom");  // the names a GeoPackage has
+    options.SetNameValue("FID", "fid");
+  }
+  OGRLayer* layer = ds.CreateLayer(table.c_str(), geometry == wkbNone ? nullptr : srs, geometry, options.List());
   if (!layer) failAt(file, "cannot create layer " + name, name);
   for (const auto& c : columns) addField(file, *layer, c);
   return layer;
@@ -121,13 +134,6 @@ GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& ta
   }
 }
 
-std::unique_ptr<GpkgResultsWriter> GpkgResultsWriter::writeBack(
-    fs::path input, std::string prefix, const network::ReachTable& table,
-    const network::NetworkPlan& plan, const routing::TimeAxis& axis, GpkgWriterOptions options) {
-  return std::unique_ptr<GpkgResultsWriter>(new GpkgResultsWriter(
-      WriteBackTag{}, std::move(input), std::move(prefix), table, plan, axis, std::move(options)));
-}
-
 namespace {
 
 /// Opens `input` for update after checking that it is a writable GeoPackage.
@@ -150,6 +156,56 @@ std::unique_ptr<GDALDataset> openForWriteBack(const fs::path& input) {
   return ds;
 }
 
+/// Opens the PostgreSQL database `connection` for writing; `shown` names it in messages.
+std::unique_ptr<GDALDataset> openDatabase(const std::string& connection, const fs::path& shown) {
+  // Every table is a layer, the non-spatial ones (hydrographs, run_info)
+  // too, so that earlier results are found whatever their kind.
+  CPLConfigOptionSetter all_tables("PG_LIST_ALL_TABLES", "YES", false);
+  std::unique_ptr<GDALDataset> ds(GDALDataset::Open(connection.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
+  if (!ds) failAt(shown, "cannot be opened for writing (is the server running, and may this user connect?)");
+  const char* driver = ds->GetDriver() ? ds->GetDriver()->GetDescription() : "";
+  if (std::string(driver) != "PostgreSQL")
+    failAt(shown, fmt::format("is read by GDAL's {} driver, not as a PostgreSQL database", driver));
+  return ds;
+}
+
+/// Runs SQL that returns no rows; throws naming `shown` and `table` when the server refuses.
+void executeSql(GDALDataset& ds, const fs::path& shown, const std::string& sql, const std::string& what,
+                const std::string& table) {
+  CPLErrorReset();
+  if (OGRLayer* result = ds.ExecuteSQL(sql.c_str(), nullptr, nullptr)) ds.ReleaseResultSet(result);
+  if (CPLGetLastErrorType() >= CE_Failure) failAt(shown, what, table);
+}
+
+/// Whether the database has table `table` in schema `schema`.
+bool hasTable(GDALDataset& ds, const std::string& schema, const std::string& table) {
+  CPLErrorReset();
+  OGRLayer* result = ds.ExecuteSQL(
+      ("SELECT 1 FROM information_schema.tables WHERE table_schema = " + quotedLiteral(schema) +
+       " AND table_name = " + quotedLiteral(table)).c_str(), nullptr, nullptr);
+  if (!result) return false;
+  const bool found = result->GetFeatureCount() > 0;
+  ds.ReleaseResultSet(result);
+  return found;
+}
+
+/// The schema of GDAL's layer `layer` of a PostgreSQL database: GDAL names
+/// a table outside the active schema `schema.table`, and both may hold
+/// dots, so each split is looked up; a name without one is in the current
+/// schema.
+std::string schemaOfLayer(GDALDataset& ds, const fs::path& shown, const std::string& layer) {
+  for (std::size_t dot = layer.find('.'); dot != std::string::npos; dot = layer.find('.', dot + 1))
+    if (hasTable(ds, layer.substr(0, dot), layer.substr(dot + 1))) return layer.substr(0, dot);
+  OGRLayer* result = ds.ExecuteSQL("SELECT current_schema()", nullptr, nullptr);
+  std::string schema;
+  if (result) {
+    if (auto f = std::unique_ptr<OGRFeature>(result->GetNextFeature())) schema = f->GetFieldAsString(0);
+    ds.ReleaseResultSet(result);
+  }
+  if (schema.empty()) failAt(shown, "cannot find the schema of the network table", layer);
+  return schema;
+}
+
 int layerIndex(GDALDataset& ds, const std::string& name) {
   for (int i = 0; i < ds.GetLayerCount(); ++i)
     if (EQUAL(ds.GetLayer(i)->GetName(), name.c_str())) return i;
@@ -158,31 +214,72 @@ int layerIndex(GDALDataset& ds, const std::string& name) {
 
 }  // namespace
 
-GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string prefix,
+std::unique_ptr<GpkgResultsWriter> GpkgResultsWriter::writeBack(
+    fs::path input, std::string prefix, const network::ReachTable& table,
+    const network::NetworkPlan& plan, const routing::TimeAxis& axis, GpkgWriterOptions options) {
+  std::string schema;
+  if (isDatabaseSource(input.string())) {
+    ensureGdal();
+    const std::string connection = input.string();
+    const fs::path shown = redactedConnection(connection);
+    schema = schemaOfLayer(*openDatabase(connection, shown), shown, table.layer);
+  }
+  return std::unique_ptr<GpkgResultsWriter>(new GpkgResultsWriter(
+      WriteBackTag{}, std::move(input), std::move(schema), std::move(prefix), table, plan, axis, std::move(options)));
+}
+
+std::unique_ptr<GpkgResultsWriter> GpkgResultsWriter::intoDatabase(std::string connection, std::string schema,
+                                                                   const network::ReachTable& table,
+                                                                   const network::NetworkPlan& plan,
+                                                                   const routing::TimeAxis& axis,
+                                                                   GpkgWriterOptions options) {
+  // PostgreSQL cuts longer names to 63 bytes, which could make two names one.
+  if (schema.empty() || schema.size() > 63 || schema.find('\0') != std::string::npos)
+    throw InvalidParameter("--schema", "must be 1 to 63 bytes long, without NUL characters");
+  return std::unique_ptr<GpkgResultsWriter>(new GpkgResultsWriter(
+      WriteBackTag{}, std::move(connection), std::move(schema), "", table, plan, axis, std::move(options)));
+}
+
+GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string schema, std::string prefix,
                                      const network::ReachTable& table,
                                      const network::NetworkPlan& plan, const routing::TimeAxis& axis,
                                      GpkgWriterOptions options)
-    : target_(std::move(input)), working_(target_), prefix_(std::move(prefix)), write_back_(true),
-      table_(table), plan_(plan), axis_(axis), options_(std::move(options)) {
+    : target_(std::move(input)), working_(target_), prefix_(std::move(prefix)), schema_(std::move(schema)),
+      write_back_(true), table_(table), plan_(plan), axis_(axis), options_(std::move(options)) {
   ensureGdal();
   CPLErrorReset();
   // An empty prefix would put results under the plain names, where they
-  // could replace the user's own layers.
-  if (prefix_.empty()) throw InvalidParameter("write-back prefix", "must not be empty");
+  // could replace the user's own layers; a schema of their own may hold them.
+  if (prefix_.empty() && schema_.empty()) throw InvalidParameter("write-back prefix", "must not be empty");
   selected_ = options_.series.mask(plan_.size());
-  ds_ = openForWriteBack(target_);
+  std::string connection;
+  if (!schema_.empty()) {
+    connection = target_.string();
+    target_ = redactedConnection(connection);  // messages never show a password
+    working_ = target_;
+    ds_ = openDatabase(connection, target_);
+  } else {
+    ds_ = openForWriteBack(target_);
+  }
   std::vector<std::string> existing;
-  for (const char* base : kTables) {
-    const auto name = layerName(base);
-    if (EQUAL(name.c_str(), table_.layer.c_str()))
-      failAt(target_, "the network layer itself is named " + name + "; choose another prefix", name);
-    if (layerIndex(*ds_, name) >= 0) existing.push_back(name);
+  {
+    CPLConfigOptionSetter all_tables("PG_LIST_ALL_TABLES", "YES", false);
+    for (const char* base : kTables) {
+      const auto name = layerName(base);
+      if (EQUAL(name.c_str(), table_.layer.c_str()))
+        failAt(target_, "the network layer itself is named " + name + "; choose another " +
+                            (schema_.empty() || !prefix_.empty() ? "prefix" : "schema"), name);
+      if (layerIndex(*ds_, name) >= 0) existing.push_back(name);
+    }
   }
   if (!existing.empty() && !options_.overwrite)
-    failAt(target_, fmt::format("already holds the layer {}; it is replaced only when overwriting is allowed",
-                                existing.front()),
+    failAt(target_, fmt::format("already holds the {} {}; it is replaced only when overwriting is allowed",
+                                schema_.empty() ? "layer" : "table", existing.front()),
            existing.front());
   if (ds_->StartTransaction() != OGRERR_NONE) failAt(target_, "cannot start a transaction");
+  if (!schema_.empty())
+    executeSql(*ds_, target_, "CREATE SCHEMA IF NOT EXISTS " + quotedIdentifier(schema_),
+               "cannot create the schema " + schema_ + " (may this user create schemas in the database?)", schema_);
   for (const auto& name : existing)
     if (ds_->DeleteLayer(layerIndex(*ds_, name)) != OGRERR_NONE)
       failAt(target_, "cannot delete the old layer " + name, name);
@@ -215,8 +312,9 @@ void GpkgResultsWriter::openSeriesTable() {
     columns.push_back({"velocity", ColumnType::Real});
   }
   const auto series = layerName("hydrographs");
-  series_layer_ = createTable(target_, *ds_, series, nullptr, wkbNone, columns);
+  series_layer_ = createTable(target_, *ds_, series, nullptr, wkbNone, columns, schema_);
   series_feature_ = std::make_unique<OGRFeature>(series_layer_->GetLayerDefn());
+  if (!schema_.empty()) return;  // a database indexes it after loading (finishDatabaseTables())
   // GIS users pick one reach's hydrograph; an index keeps that fast. It is
   // made now, before any layer holds rows: SQL run later inside the open
   // transaction would make GDAL finish the deferred spatial index of a large
@@ -230,7 +328,8 @@ void GpkgResultsWriter::openSeriesTable() {
 void GpkgResultsWriter::openLakeSeriesTable() {
   if (!options_.lakes) return;
   const auto name = layerName("lake_series");
-  lake_series_layer_ = createTable(target_, *ds_, name, nullptr, wkbNone, results::lakeSeriesColumns());
+  lake_series_layer_ = createTable(target_, *ds_, name, nullptr, wkbNone, results::lakeSeriesColumns(), schema_);
+  if (!schema_.empty()) return;  // as in openSeriesTable()
   // Indexed now, before any layer holds rows, for the reason given in openSeriesTable().
   CPLErrorReset();
   ds_->ExecuteSQL(fmt::format("CREATE INDEX \"idx_{0}_lake_id\" ON \"{0}\" (lake_id)", name).c_str(), nullptr,
@@ -299,7 +398,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
 
   OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
-                                  results::reachColumns());
+                                  results::reachColumns(), schema_);
   {
     OGRFeature f(reaches->GetLayerDefn());
     for (std::size_t i = 0; i < plan_.size(); ++i) {
@@ -317,9 +416,9 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   }
 
   OGRLayer* nodes =
-      createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint, results::nodeColumns());
+      createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint, results::nodeColumns(), schema_);
   OGRLayer* branches = createTable(target_, *ds_, layerName("confluence_branches"), nullptr, wkbNone,
-                                   results::branchColumns());
+                                   results::branchColumns(), schema_);
   {
     OGRFeature f(nodes->GetLayerDefn());
     OGRFeature b(branches->GetLayerDefn());
@@ -342,7 +441,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   }
 
   OGRLayer* run_info = createTable(target_, *ds_, layerName("run_info"), nullptr, wkbNone,
-                                   {{"key", ColumnType::Text}, {"value", ColumnType::Text}});
+                                   {{"key", ColumnType::Text}, {"value", ColumnType::Text}}, schema_);
   OGRFeature f(run_info->GetLayerDefn());
   for (const auto& [key, value] : results::runInfoRows(results, info)) {
     f.SetField(0, key.c_str());
@@ -359,7 +458,7 @@ void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   const auto name = layerName("lakes");
-  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbMultiPolygon, results::lakeColumns());
+  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbMultiPolygon, results::lakeColumns(), schema_);
   OGRFeature f(layer->GetLayerDefn());
   for (const auto& lake : lakes) {
     const auto row = results::lakeRow(axis_, lake);
@@ -394,8 +493,9 @@ void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
 void results::writeRowsLayer(const fs::path& file, GDALDataset& ds, const std::string& name,
                              OGRSpatialReference* srs, OGRwkbGeometryType geometry,
                              const std::vector<Column>& columns, const std::vector<Row>& rows,
-                             const std::vector<std::pair<double, double>>& points, int utc_offset_min) {
-  OGRLayer* layer = createTable(file, ds, name, srs, geometry, columns);
+                             const std::vector<std::pair<double, double>>& points, int utc_offset_min,
+                             const std::string& schema) {
+  OGRLayer* layer = createTable(file, ds, name, srs, geometry, columns, schema);
   OGRFeature f(layer->GetLayerDefn());
   for (std::size_t r = 0; r < rows.size(); ++r) {
     for (std::size_t c = 0; c < rows[r].size(); ++c) setValue(f, static_cast<int>(c), rows[r][c], utc_offset_min);
@@ -416,9 +516,9 @@ void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
     points.emplace_back(gauge.x, gauge.y);
   }
   results::writeRowsLayer(target_, *ds_, layerName("gauges"), srs.get(), wkbPoint, results::gaugeColumns(), rows,
-                          points, offset);
+                          points, offset, schema_);
   const auto series_name = layerName("gauge_series");
-  OGRLayer* series = createTable(target_, *ds_, series_name, nullptr, wkbNone, results::gaugeSeriesColumns());
+  OGRLayer* series = createTable(target_, *ds_, series_name, nullptr, wkbNone, results::gaugeSeriesColumns(), schema_);
   OGRFeature s(series->GetLayerDefn());
   const auto at = [](const std::vector<double>* v, std::size_t k) {
     return v && k < v->size() && !std::isnan((*v)[k]) ? Value{(*v)[k]} : Value{};
@@ -435,7 +535,44 @@ void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
   }
 }
 
+std::string GpkgResultsWriter::sqlTable(const char* base) const {
+  const std::string table = prefix_ + base;
+  return schema_.empty() ? quotedIdentifier(table) : quotedIdentifier(schema_) + "." + quotedIdentifier(table);
+}
+
+void GpkgResultsWriter::finishDatabaseTables() {
+  // The series tables are read one reach (lake, gauge) at a time, in time
+  // order: one B-tree on (id, time) each, built once after loading, which
+  // PostgreSQL does faster than keeping it up row by row.
+  const std::pair<const char*, const char*> series[] = {
+      {"hydrographs", "reach_id"}, {"lake_series", "lake_id"}, {"gauge_series", "gauge_id"}};
+  CPLConfigOptionSetter all_tables("PG_LIST_ALL_TABLES", "YES", false);
+  for (const auto& [base, id] : series) {
+    if (layerIndex(*ds_, layerName(base)) < 0) continue;
+    executeSql(*ds_, target_,
+               "CREATE INDEX ON " + sqlTable(base) + " (" + quotedIdentifier(id) + ", " + quotedIdentifier("time") + ")",
+               std::string("cannot index ") + base, layerName(base));
+  }
+  // What each column means, as the database's own column comments (what
+  // gpkg_data_columns holds in a GeoPackage).
+  for (const char* base : kTables) {
+    const int index = layerIndex(*ds_, layerName(base));
+    if (index < 0) continue;
+    OGRFeatureDefn* defn = ds_->GetLayer(index)->GetLayerDefn();
+    for (int i = 0; i < defn->GetFieldCount(); ++i) {
+      const std::string column = defn->GetFieldDefn(i)->GetNameRef();
+      const ColumnMeaning* meaning = columnMeaning(column);
+      if (!meaning) continue;
+      executeSql(*ds_, target_,
+                 "COMMENT ON COLUMN " + sqlTable(base) + "." + quotedIdentifier(column) + " IS " +
+                     quotedLiteral(std::string(meaning->title) + ": " + std::string(meaning->description)),
+                 "cannot describe column " + column, layerName(base));
+    }
+  }
+}
+
 void GpkgResultsWriter::describeTables() {
+  if (!schema_.empty()) return;  // done by finishDatabaseTables(), inside the transaction
   // What each column means, for a GIS (gpkg_data_columns): SQL after the
   // transaction, as SQL within it would make GDAL finish the deferred
   // spatial indexes there (openSeriesTable()); still before the file is
@@ -448,6 +585,7 @@ void GpkgResultsWriter::commit(OutputCommit* into) {
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
+  if (!schema_.empty()) finishDatabaseTables();
   if (write_back_ && into) {
     // The transaction ends after every other output is in place, so that a
     // failure there puts them back (OutputCommit::addFinal).

@@ -1,5 +1,7 @@
 #include "reachwise/io/RouteConfig.hpp"
 
+#include "reachwise/io/Database.hpp"
+
 #include <toml++/toml.h>
 
 #include <cmath>
@@ -69,7 +71,11 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
     const std::string key(k.str());
     if (key == "inflow") c.inflow = path(v, key);
     else if (key == "lateral") c.lateral = path(v, key);
-    else if (key == "out") c.out = path(v, key);
+    else if (key == "out") {
+      // A database (`PG:...`) is a connection, not a path beside the run file.
+      const auto text = required<std::string>(v, origin, key, "a file path or a PG: connection");
+      c.out = isDatabaseSource(text) ? text : path(v, key);
+    } else if (key == "schema") c.schema = required<std::string>(v, origin, key, "a schema name");
     else if (key == "csv") c.csv = path(v, key);
     else if (key == "series") c.series = path(v, key);
     else if (key == "report") c.report = path(v, key);

@@ -6,6 +6,7 @@
 #include <filesystem>
 
 #include "reachwise/Error.hpp"
+#include "reachwise/io/Database.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/SeriesNetcdf.hpp"
 #include "reachwise/report/Report.hpp"
@@ -92,6 +93,11 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   if (o.write_back) {
     w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
     gpkg_target_ = net.source.path;
+  } else if (io::isDatabaseSource(o.gpkg)) {
+    w_->gpkg = io::GpkgResultsWriter::intoDatabase(o.gpkg, o.schema.empty() ? io::kDefaultSchema : o.schema,
+                                                   net.table, plan, axis, wo);
+    gpkg_target_ = fmt::format("{} (schema {})", io::redactedConnection(o.gpkg),
+                               o.schema.empty() ? io::kDefaultSchema : o.schema);
   } else if (!o.gpkg.empty()) {
     w_->gpkg = std::make_unique<io::GpkgResultsWriter>(o.gpkg, net.table, plan, axis, wo);
     gpkg_target_ = o.gpkg;
@@ -157,7 +163,7 @@ Outputs::MadeFolder::~MadeFolder() {
 
 std::vector<io::NamedPath> outputPaths(const OutputRequest& o) {
   std::vector<io::NamedPath> out;
-  if (!o.gpkg.empty() && !o.write_back) out.push_back({"--out", o.gpkg});
+  if (!o.gpkg.empty() && !o.write_back && !io::isDatabaseSource(o.gpkg)) out.push_back({"--out", o.gpkg});
   if (!o.series_nc.empty()) out.push_back({"--series", o.series_nc});
   if (!o.csv_dir.empty()) {
     io::NamedPath csv{"--csv", o.csv_dir, true, {"reaches.csv", "nodes.csv", "confluence_branches.csv",

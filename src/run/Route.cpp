@@ -3,6 +3,7 @@
 #include <chrono>
 #include <cmath>
 
+#include "reachwise/io/Database.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -42,12 +43,16 @@ const LakeResult* RouteSummary::lake(std::string_view lake_id) const {
 
 io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& results) {
   io::RunInfo info;
-  info.inputs = {request.network.path};
+  // A database connection is recorded without its password.
+  const auto shown = [](const std::string& source) {
+    return io::isDatabaseSource(source) ? io::redactedConnection(source) : source;
+  };
+  info.inputs = {shown(request.network.path)};
   for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config,
                                &request.network.lakes, &request.gauges.observed, &request.gauges.gauges})
-    if (!f->empty()) info.inputs.push_back(*f);
+    if (!f->empty()) info.inputs.push_back(shown(*f));
   info.method = routing::methodName(request.method);
-  info.command_line = provenance(request);
+  info.command_line = io::redactedConnection(provenance(request));
   info.warnings = results.warnings;
   info.series_file = request.outputs.series_nc;
   return info;

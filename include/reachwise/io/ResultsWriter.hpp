@@ -119,7 +119,9 @@ public:
                     GpkgWriterOptions options = {});
 
   /// Adds the layers, named `prefix` + name (e.g. `rw_reaches`), to the
-  /// existing GeoPackage `input`, leaving its other layers untouched. All
+  /// existing GeoPackage `input`, leaving its other layers untouched; when
+  /// `input` is a PostgreSQL database (`PG:...`), as tables in the schema
+  /// of the network layer `table.layer`, as intoDatabase() does. All
   /// writes form one transaction. Throws InputError naming `input` when it
   /// is not a GeoPackage, cannot be opened for update, or already holds a
   /// prefixed layer and `options.overwrite` is false (with it, those layers
@@ -131,6 +133,20 @@ public:
                                                       const routing::TimeAxis& axis,
                                                       GpkgWriterOptions options = {});
 
+  /// Writes the layers and tables into schema `schema` of the PostgreSQL/
+  /// PostGIS database `connection` (GDAL's `PG:` syntax), creating the
+  /// schema when missing. Everything, the schema and the replacement of
+  /// earlier results included, is one transaction that commit() (or the
+  /// OutputCommit, last) ends, so a failed run leaves the database as it
+  /// was. Throws InputError naming the server (without its password) and
+  /// the table when the database cannot be opened for writing, the schema
+  /// already holds a results table and `options.overwrite` is false, or a
+  /// table would be the network layer itself. `schema` must be 1–63 bytes
+  /// without NUL.
+  static std::unique_ptr<GpkgResultsWriter> intoDatabase(std::string connection, std::string schema,
+                                                         const network::ReachTable& table,
+                                                         const network::NetworkPlan& plan,
+                                                         const routing::TimeAxis& axis, GpkgWriterOptions options);
   ~GpkgResultsWriter() override;
   GpkgResultsWriter(const GpkgResultsWriter&) = delete;
   GpkgResultsWriter& operator=(const GpkgResultsWriter&) = delete;
@@ -165,23 +181,33 @@ public:
 
 private:
   struct WriteBackTag {};
-  GpkgResultsWriter(WriteBackTag, std::filesystem::path input, std::string prefix,
+  /// Into an existing data source: a GeoPackage (`schema` empty) or a
+  /// PostgreSQL database (`schema` the target schema).
+  GpkgResultsWriter(WriteBackTag, std::filesystem::path input, std::string schema, std::string prefix,
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::TimeAxis& axis, GpkgWriterOptions options);
+  /// The table `base` in SQL: quoted, with its schema in a database.
+  std::string sqlTable(const char* base) const;
+  /// In a database: indexes the series tables and comments every column.
+  void finishDatabaseTables();
   void openSeriesTable();
   /// Records what every column means (gpkg_data_columns, io::describeColumns).
   void describeTables();
   void openLakeSeriesTable();
   void rowWritten();
   void countRow();
-  std::string layerName(const char* base) const { return prefix_ + base; }
+  /// GDAL's name of table `base`: `prefix` + base, after `schema.` in a database.
+  std::string layerName(const char* base) const {
+    return schema_.empty() ? prefix_ + base : schema_ + "." + prefix_ + base;
+  }
   [[noreturn]] void fail(const std::string& what) const;
   int timeOffsetMin(int run_offset_min) const { return options_.local_offset_times ? run_offset_min : 0; }
 
   std::filesystem::path target_;    ///< what the user named
   std::filesystem::path working_;   ///< where GDAL writes
   std::string prefix_;
-  bool write_back_ = false;
+  std::string schema_;              ///< in a PostgreSQL database: the target schema; else empty
+  bool write_back_ = false;         ///< into an existing data source, in one transaction
   const network::ReachTable& table_;
   const network::NetworkPlan& plan_;
   routing::TimeAxis axis_;

@@ -32,7 +32,9 @@ struct LoadedNetwork;
 /// What a run writes. Everything empty/false: nothing (the results stay
 /// in memory, e.g. for a calibration loop).
 struct OutputRequest {
-  std::string gpkg;         ///< a new results GeoPackage (written under a temporary name, renamed at the end)
+  std::string gpkg;         ///< a new results GeoPackage (written under a temporary name, renamed at the end),
+                            ///< or a PostgreSQL database (`PG:...`): the tables go into `schema`
+  std::string schema;       ///< the schema of results in a database (empty: io::kDefaultSchema)
   bool write_back = false;  ///< instead: the result layers into the network's own GeoPackage, prefixed `rw_`
   std::string csv_dir;      ///< the tables and hydrographs as CSV files into this folder
   std::string series_nc;    ///< the chosen hydrographs as CF-NetCDF instead of the GeoPackage table
