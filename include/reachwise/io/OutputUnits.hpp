@@ -29,7 +29,7 @@ std::optional<units::System> unitSystemFromName(std::string_view name);
 
 /// An SI value of `quantity` in `system` (unchanged for SI and for
 /// Quantity::None), converted with the exact foot (Units.hpp).
-double toOutputUnits(units::System system, Quantity quantity, double si_value);
+double toOutputUnits(units::System system, Quantity quantity, double value);
 
 /// The unit of `quantity` for people: "m³/s", "ft³/s", "m", "ft", "m³",
 /// "ft³", "m/s", "ft/s" (empty for Quantity::None).
