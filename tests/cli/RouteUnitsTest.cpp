@@ -265,8 +265,9 @@ protected:
              (d / (name + ".nc")).string() + " --hydrographs all";
     };
     // SI input, SI outputs (default) and US customary outputs.
-    runs_["si"] = testsupport::runReachwise("route " + si_in + outputs("si"));
-    runs_["si-to-us"] = testsupport::runReachwise("route " + si_in + outputs("si-to-us") + " --units us");
+    runs_["si"] = testsupport::runReachwise("route " + si_in + outputs("si") + " --report " + (d / "si-report").string());
+    runs_["si-to-us"] = testsupport::runReachwise("route " + si_in + outputs("si-to-us") + " --units us --report " +
+                                                  (d / "si-to-us-report").string());
     // US customary input: default (US customary), and SI asked for in the run file.
     runs_["us"] = testsupport::runReachwise("route " + us_in + " --config " + (us / "us.toml").string() + outputs("us"));
     runs_["us-to-si"] = testsupport::runReachwise("route " + us_in + " --config " +
@@ -444,6 +445,17 @@ TEST_F(RouteUnits, TheSummaryNamesTheUnits) {
   EXPECT_NE(run("us").out.find(" ft3 in, "), std::string::npos) << run("us").out;  // the volume balance
   EXPECT_EQ(run("us").out.find("m3/s"), std::string::npos) << run("us").out;
   EXPECT_EQ(run("si").out.find("ft3"), std::string::npos) << run("si").out;
+}
+
+TEST_F(RouteUnits, TheReportUsesTheSameUnits) {
+  const std::string si = testsupport::slurp(path("si-report") / "index.html");
+  const std::string us = testsupport::slurp(path("si-to-us-report") / "index.html");
+  ASSERT_FALSE(si.empty());
+  ASSERT_FALSE(us.empty());
+  EXPECT_NE(si.find("m³/s"), std::string::npos);
+  EXPECT_EQ(si.find("cfs"), std::string::npos);
+  EXPECT_NE(us.find("cfs"), std::string::npos);
+  EXPECT_EQ(us.find("m³/s"), std::string::npos);
 }
 
 TEST_F(RouteUnits, WriteBackFollowsTheSourcesUnitsByDefault) {
