@@ -21,6 +21,7 @@ packages=(
   libtomlplusplus-dev libcli11-dev libfmt-dev libnetcdf-dev netcdf-bin
   libcairo2-dev libnlopt-cxx-dev
   libgtest-dev libgmock-dev libbenchmark-dev
+  libudunits2-dev
   postgresql postgresql-client
 )
 # The fuzz targets (scripts/fuzz.sh) need clang and libFuzzer's runtime.

@@ -81,6 +81,9 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
   if (!o.lateral.empty()) route.insert("lateral", absolute(o.lateral));
   route.insert("method", o.method);
   if (o.dt_s) route.insert("dt", *o.dt_s);
+  // The calibrated network is SI (a prepared network); its run's outputs
+  // stay in the units of the network calibrated.
+  if (result.network->config.units == units::System::USCustomary) route.insert("units", "us");
   toml::table file{{"route", route}};
   if (const auto& lakes = result.network->lakes) {
     toml::table network{{"lakes", absolute(lakes->source)}, {"lakes_layer", lakes->layer}};
@@ -129,6 +132,7 @@ void writeCalibrationReport(const CalibrateOptions& o, const run::CalibrateReque
   route.threads = request.threads;
   route.gauges = request.gauges;
   route.outputs.report_dir = o.report;
+  route.outputs.units = result.network->config.units;  // as the run file routes it (writeRunFile)
   route.outputs.overwrite = o.overwrite;
   route.outputs.calibration = &c;
   route.command_line = fmt::format("reachwise route {} --config {} (the run `reachwise calibrate` wrote)", o.out,

@@ -19,6 +19,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Database.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/OutputUnits.hpp"
 #include "reachwise/io/RouteConfig.hpp"
 #include "reachwise/run/Route.hpp"
 
@@ -31,6 +32,7 @@ namespace fs = std::filesystem;
 struct RouteOptions {
   std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report, report_reaches;
   std::string hydrographs = "auto";
+  std::string units;   ///< "si" or "us"; empty: the network's input units
   std::string lakes, lakes_layer;
   std::string observed, gauges, gauges_layer;
   double gauge_snap_m = 100;
@@ -45,6 +47,17 @@ struct RouteOptions {
 };
 
 std::string hours(double s) { return fmt::format("{:.1f} h", s / 3600.0); }
+
+/// An SI value in the run's output units, and that unit for the console.
+struct ConsoleUnits {
+  units::System system = units::System::SI;
+  double q(double m3s) const { return io::toOutputUnits(system, io::Quantity::Discharge, m3s); }
+  double len(double m) const { return io::toOutputUnits(system, io::Quantity::Length, m); }
+  double vol(double m3) const { return io::toOutputUnits(system, io::Quantity::Volume, m3); }
+  std::string_view q_unit() const { return io::unitAscii(system, io::Quantity::Discharge); }
+  std::string_view len_unit() const { return io::unitAscii(system, io::Quantity::Length); }
+  std::string_view vol_unit() const { return io::unitAscii(system, io::Quantity::Volume); }
+};
 
 /// Gauges listed by name in the console summary; the rest are counted.
 constexpr std::size_t kGaugesListed = 10;
@@ -79,7 +92,8 @@ constexpr std::size_t kLakesListed = 10;
 
 /// One line per routed lake, largest attenuation first (ties and lakes
 /// without inflow: by id), at most kLakesListed, then how many more.
-void printLakes(std::ostream& out, const std::vector<io::LakeOutput>& lakes, const routing::TimeAxis& axis) {
+void printLakes(std::ostream& out, const std::vector<io::LakeOutput>& lakes, const routing::TimeAxis& axis,
+                const ConsoleUnits& u) {
   if (lakes.empty()) return;
   struct Line {
     const std::string* id;
@@ -97,8 +111,9 @@ void printLakes(std::ostream& out, const std::vector<io::LakeOutput>& lakes, con
     const io::LakeFigures& f = lines[k].f;
     const std::string attenuation =
         std::isnan(f.attenuation_pct) ? std::string("no inflow") : fmt::format("attenuation {:.1f} %", f.attenuation_pct);
-    fmt::print(out, "  lake {}: peak {:.2f} -> {:.2f} m3/s, {}, lag {}, peak level {:.2f} m\n", *lines[k].id,
-               f.inflow_peak_m3s, f.outflow_peak_m3s, attenuation, hours(f.lag_s), f.peak_level_m);
+    fmt::print(out, "  lake {}: peak {:.2f} -> {:.2f} {}, {}, lag {}, peak level {:.2f} {}\n", *lines[k].id,
+               u.q(f.inflow_peak_m3s), u.q(f.outflow_peak_m3s), u.q_unit(), attenuation, hours(f.lag_s),
+               u.len(f.peak_level_m), u.len_unit());
   }
   if (lines.size() > kLakesListed)
     fmt::print(out, "  ... and {} more lake(s), all in the lakes layer\n", lines.size() - kLakesListed);
@@ -110,7 +125,7 @@ constexpr std::size_t kNodesListed = 10;
 constexpr std::size_t kWarningExamples = 1;
 
 /// The outlets, largest peak first, at most kNodesListed, then how many more.
-void printOutlets(std::ostream& out, const run::RouteSummary& s) {
+void printOutlets(std::ostream& out, const run::RouteSummary& s, const ConsoleUnits& u) {
   const network::NetworkPlan& plan = s.plan;
   const routing::NetworkResults& r = s.results;
   std::vector<std::uint32_t> outlets;
@@ -122,8 +137,8 @@ void printOutlets(std::ostream& out, const run::RouteSummary& s) {
   if (outlets.size() > 1) fmt::print(out, "outlets: {}, largest peak first:\n", outlets.size());
   const int off = r.axis.utc_offset_min;
   for (std::size_t k = 0; k < outlets.size() && k < kNodesListed; ++k)
-    fmt::print(out, "{}outlet {}: peak {:.2f} m3/s at {}\n", outlets.size() > 1 ? "  " : "",
-               plan.reach_id[outlets[k]], r.reaches[outlets[k]].peak_q_m3s,
+    fmt::print(out, "{}outlet {}: peak {:.2f} {} at {}\n", outlets.size() > 1 ? "  " : "",
+               plan.reach_id[outlets[k]], u.q(r.reaches[outlets[k]].peak_q_m3s), u.q_unit(),
                io::formatIsoTime(r.reaches[outlets[k]].peak_time_s, off));
   if (outlets.size() > kNodesListed)
     fmt::print(out, "  ... and {} more outlet(s), all in the nodes layer\n", outlets.size() - kNodesListed);
@@ -131,7 +146,7 @@ void printOutlets(std::ostream& out, const run::RouteSummary& s) {
 
 /// Confluences whose branch peaks arrive within one hour of each other,
 /// largest combined peak first, at most kNodesListed, then how many more.
-void printCoinciding(std::ostream& out, const routing::NetworkResults& r) {
+void printCoinciding(std::ostream& out, const routing::NetworkResults& r, const ConsoleUnits& u) {
   std::vector<const routing::NodeSummary*> close;
   for (const auto& n : r.nodes)
     if (n.kind == routing::NodeKind::Confluence && n.branch_spread_s <= 3600) close.push_back(&n);
@@ -139,15 +154,16 @@ void printCoinciding(std::ostream& out, const routing::NetworkResults& r) {
   fmt::print(out, "confluences where branch peaks arrive within one hour of each other: {}\n",
              close.empty() ? std::string("none") : std::to_string(close.size()) + ", largest combined peak first");
   for (std::size_t k = 0; k < close.size() && k < kNodesListed; ++k)
-    fmt::print(out, "  {} (spread {}, combined peak {:.2f} m3/s, coincidence {:.2f})\n", close[k]->node_id,
-               hours(close[k]->branch_spread_s), close[k]->peak_q_m3s, close[k]->coincidence_ratio);
+    fmt::print(out, "  {} (spread {}, combined peak {:.2f} {}, coincidence {:.2f})\n", close[k]->node_id,
+               hours(close[k]->branch_spread_s), u.q(close[k]->peak_q_m3s), u.q_unit(), close[k]->coincidence_ratio);
   if (close.size() > kNodesListed)
     fmt::print(out, "  ... and {} more, all in the nodes layer (branch_spread_h)\n", close.size() - kNodesListed);
 }
 
-void printVolume(std::ostream& out, const routing::VolumeBalance& v) {
-  fmt::print(out, "volume: {:.0f} m3 in, {:.0f} m3 out, {:.0f} m3 still stored, balance error {:.3f} % of all inflow",
-             v.inflow_m3 + v.lateral_m3, v.outflow_m3, v.storage_change_m3, v.error_pct);
+void printVolume(std::ostream& out, const routing::VolumeBalance& v, const ConsoleUnits& u) {
+  fmt::print(out, "volume: {:.0f} {} in, {:.0f} {} out, {:.0f} {} still stored, balance error {:.3f} % of all inflow",
+             u.vol(v.inflow_m3 + v.lateral_m3), u.vol_unit(), u.vol(v.outflow_m3), u.vol_unit(),
+             u.vol(v.storage_change_m3), u.vol_unit(), v.error_pct);
   if (std::isnan(v.event_error_pct)) fmt::print(out, " (no volume above the initial flow)\n");
   else fmt::print(out, ", {:.3f} % of the event volume above the initial flow\n", v.event_error_pct);
 }
@@ -200,14 +216,18 @@ void printRunSummary(std::ostream& out, std::ostream& err, const run::RouteSumma
   const network::NetworkPlan& plan = s.plan;
   const routing::NetworkResults& r = s.results;
   const int off = r.axis.utc_offset_min;
+  const ConsoleUnits u{s.info.units};
   fmt::print(out, "{} {} reaches over {} steps of {} s from {} ({})\n", o.demo ? "reachwise demo:" : "routed",
              plan.size(), r.axis.steps, r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off), o.method);
+  fmt::print(out, "output units: {} (discharge {}, lengths {}, volumes {}), in every output\n",
+             s.info.units == units::System::USCustomary ? "us, US customary" : "si, SI", u.q_unit(), u.len_unit(),
+             u.vol_unit());
   if (!o.demo)
     fmt::print(out, "routing took {:.2f} s: {:.1f} M cell updates/s on {} thread(s); at most {} routed "
                "series held at once\n",
                s.routing_s, r.cell_updates / std::max(s.routing_s, 1e-9) / 1e6, r.threads, r.peak_live_series);
-  printOutlets(out, s);
-  printCoinciding(out, r);
+  printOutlets(out, s, u);
+  printCoinciding(out, r, u);
   std::vector<std::uint32_t> order(plan.size());
   for (std::uint32_t i = 0; i < plan.size(); ++i) order[i] = i;
   const std::size_t shown = std::min<std::size_t>(5, order.size());  // only these need ordering
@@ -222,9 +242,9 @@ void printRunSummary(std::ostream& out, std::ostream& err, const run::RouteSumma
     fmt::print(out, "  {} {:.1f} % (peak travel time {})\n", plan.reach_id[order[k]], a.attenuation_pct,
                hours(a.travel_time_s));
   }
-  printLakes(out, lakes, r.axis);
+  printLakes(out, lakes, r.axis, u);
   printGauges(out, s);
-  printVolume(out, r.volume);
+  printVolume(out, r.volume, u);
   if (o.demo) {
     fmt::print(out, "warnings: {}\n", r.warnings.empty() ? "none" : std::to_string(r.warnings.size()));
     printWarnings(out, r.warnings, "  ");
@@ -275,6 +295,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   out.report_reaches = o.report_reaches;
   out.hydrographs = o.hydrographs;
   out.overwrite = o.overwrite;
+  if (!o.units.empty()) out.units = io::unitSystemFromName(o.units);  // CLI11 and the run file admit only si, us
   return r;
 }
 
@@ -328,6 +349,7 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--write-back", o.write_back, c.write_back);
   take("--overwrite", o.overwrite, c.overwrite);
   take("--quiet", o.quiet, c.quiet);
+  take("--units", o.units, c.units);
 }
 
 }  // namespace
@@ -386,6 +408,10 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--report", o->report, "Write an HTML run report with figures into this folder");
   sub->add_option("--report-reaches", o->report_reaches,
                   "Reach ids (comma-separated, at most 24) drawn in hydrograph panels of their own in the report");
+  sub->add_option("--units", o->units,
+                  "Units of every output and of the summary: si or us (US customary: ft, ft3/s); "
+                  "default: the network's input units")
+      ->check(CLI::IsMember({"si", "us"}));
   sub->add_option("--threads", o->threads, threadsHelp())->check(CLI::Range(1u, kMostThreads));
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
   sub->callback([&chosen, o, sub, command_line] {

@@ -10,6 +10,7 @@
 #include <utility>
 
 #include "reachwise/Error.hpp"
+#include "reachwise/io/OutputUnits.hpp"
 
 namespace reachwise::io {
 
@@ -17,7 +18,8 @@ namespace {
 
 using Entry = std::pair<std::string_view, ColumnMeaning>;
 
-// By name. Units are those the writers use.
+// By SI name, with the SI unit in the title (titleIn() gives it in the
+// run's output units).
 constexpr std::array kMeanings = {
     Entry{"amplitude_ratio", {"amplitude ratio (-)", "Ponce's convergence ratio R1 of the grid for the event's wave (Ponce 1989): the scheme's amplitude over the exact one, 1 for an exact scheme."}},
     Entry{"attenuation_pct", {"peak attenuation (%)", "How much lower the outflow peak is than the peak of everything that entered (top and lateral inflow), in percent of the latter."}},
@@ -122,6 +124,18 @@ void execute(GDALDataset& ds, const std::string& file, const std::string& table,
   }
 }
 
+/// `title` with its unit in `system`: "(m³/s)", "(m³)", "(m)", "(m/s)" as
+/// io::unitSymbol gives them.
+std::string titleIn(std::string_view title, units::System system) {
+  std::string out(title);
+  for (const Quantity q : {Quantity::Discharge, Quantity::Volume, Quantity::Length, Quantity::Velocity}) {
+    const std::string si = fmt::format("({})", unitSymbol(units::System::SI, q));
+    if (const auto at = out.rfind(si); at != std::string::npos && at + si.size() == out.size())
+      return out.replace(at, si.size(), fmt::format("({})", unitSymbol(system, q)));
+  }
+  return out;
+}
+
 }  // namespace
 
 const ColumnMeaning* columnMeaning(std::string_view column) {
@@ -129,7 +143,12 @@ const ColumnMeaning* columnMeaning(std::string_view column) {
   return it != kMeanings.end() ? &it->second : nullptr;
 }
 
-void describeColumns(GDALDataset& ds, const std::string& file, const std::string& table) {
+std::string columnTitle(std::string_view column, units::System system) {
+  const ColumnMeaning* m = columnMeaning(siFieldName(column));
+  return m ? titleIn(m->title, system) : std::string();
+}
+
+void describeColumns(GDALDataset& ds, const std::string& file, const std::string& table, units::System system) {
   OGRLayer* layer = ds.GetLayerByName(table.c_str());
   if (!layer) return;
   // The tables and extension rows of the schema extension, as the
@@ -159,10 +178,10 @@ void describeColumns(GDALDataset& ds, const std::string& file, const std::string
   std::string rows;
   for (int i = 0; i < defn->GetFieldCount(); ++i) {
     const std::string column = defn->GetFieldDefn(i)->GetNameRef();
-    const ColumnMeaning* m = columnMeaning(column);
+    const ColumnMeaning* m = columnMeaning(siFieldName(column));
     if (!m) continue;
     rows += fmt::format("{}({}, {}, {}, {}, {})", rows.empty() ? "" : ", ", literal(table), literal(column),
-                        literal(column), literal(m->title), literal(m->description));
+                        literal(column), literal(titleIn(m->title, system)), literal(m->description));
   }
   if (rows.empty()) return;
   execute(ds, file, table,

@@ -164,12 +164,24 @@ void writeRow(std::ostream& out, const results::Row& row, int offset) {
   for (std::size_t c = 0; c < row.size(); ++c) out << (c ? "," : "") << cell(row[c], offset);
 }
 
+/// `row` (SI, for `columns`) in `system`, then written.
+void writeRow(std::ostream& out, results::Row row, const std::vector<results::Column>& columns, int offset,
+              units::System system) {
+  results::convertRow(row, columns, system);
+  writeRow(out, row, offset);
+}
+
+/// `v` (SI) in `system`, written (NaN: empty).
+std::string real(double v, units::System system, Quantity quantity) {
+  return real(toOutputUnits(system, quantity, v));
+}
+
 }  // namespace
 
 void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTable& table,
                     const network::NetworkPlan& plan, const routing::NetworkResults& results,
                     const RunInfo& info, const CsvLakes& csv_lakes, const std::vector<GaugeOutput>* gauges,
-                    OutputCommit* into) {
+                    OutputCommit* into, units::System u) {
   REACHWISE_ASSERT(results.reaches.size() == plan.size());
   prepareDirectory(dir);
   const int offset = results.axis.utc_offset_min;
@@ -189,22 +201,22 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
     gauge_series = std::make_unique<Stream>(dir, kCsvGaugeFiles[1], overwrite);
   }
 
-  header(reaches.out, results::reachColumns());
+  header(reaches.out, results::inUnits(results::reachColumns(), u));
   reaches.out << ",geometry\n";
   for (std::size_t i = 0; i < plan.size(); ++i) {
-    writeRow(reaches.out, results::reachRow(plan, results.reaches[i], i), offset);
+    writeRow(reaches.out, results::reachRow(plan, results.reaches[i], i), results::reachColumns(), offset, u);
     reaches.out << ',' << wkt(results::flowLine(table, plan, i)) << '\n';
   }
 
-  header(nodes.out, results::nodeColumns());
+  header(nodes.out, results::inUnits(results::nodeColumns(), u));
   nodes.out << ",x,y\n";
-  header(branches.out, results::branchColumns());
+  header(branches.out, results::inUnits(results::branchColumns(), u));
   branches.out << '\n';
   for (const auto& node : results.nodes) {
-    writeRow(nodes.out, results::nodeRow(plan, node), offset);
+    writeRow(nodes.out, results::nodeRow(plan, node), results::nodeColumns(), offset, u);
     nodes.out << ',' << real(node.x) << ',' << real(node.y) << '\n';
     for (const auto& branch : node.branches) {
-      writeRow(branches.out, results::branchRow(plan, node, branch), offset);
+      writeRow(branches.out, results::branchRow(plan, node, branch), results::branchColumns(), offset, u);
       branches.out << '\n';
     }
   }
@@ -215,21 +227,22 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
 
   if (csv_lakes.lakes) {
     const routing::TimeAxis& axis = results.axis;
-    header(lakes->out, results::lakeColumns());
+    header(lakes->out, results::inUnits(results::lakeColumns(), u));
     lakes->out << ",geometry\n";
-    header(lake_series->out, results::lakeSeriesColumns());
+    header(lake_series->out, results::inUnits(results::lakeSeriesColumns(), u));
     lake_series->out << '\n';
     const int series_offset = results::writableOffsetMin(axis.utc_offset_min);
     const int digits = seriesFractionDigits(axis);
     for (const LakeOutput& lake : *csv_lakes.lakes) {
-      writeRow(lakes->out, results::lakeRow(axis, lake), offset);
+      writeRow(lakes->out, results::lakeRow(axis, lake), results::lakeColumns(), offset, u);
       lakes->out << ',' << lakeWkt(lake.lake->wkt) << '\n';
       if (!csv_lakes.series) continue;
       const auto series = results::lakeSeries(lake, axis.steps);
       const auto id = quoted(lake.lake->lake_id);
       for (std::size_t k = 0; k < axis.steps; ++k) {
         lake_series->out << id << ',' << formatIsoTime(axis.at(static_cast<double>(k)), series_offset, digits);
-        for (const auto& s : series) lake_series->out << ',' << real(s[k]);
+        for (std::size_t v = 0; v < series.size(); ++v)
+          lake_series->out << ',' << real(series[v][k], u, results::kLakeSeriesQuantities[v]);
         lake_series->out << '\n';
       }
     }
@@ -239,17 +252,17 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
     // The `gauges` layer's fields and the point as x, y; the series as the
     // `gauge_series` table holds them (NaN, no record: empty).
     const routing::TimeAxis& axis = results.axis;
-    header(gauge_table->out, results::gaugeColumns());
+    header(gauge_table->out, results::inUnits(results::gaugeColumns(), u));
     gauge_table->out << ",x,y\n";
-    header(gauge_series->out, results::gaugeSeriesColumns());
+    header(gauge_series->out, results::inUnits(results::gaugeSeriesColumns(), u));
     gauge_series->out << '\n';
     const int series_offset = results::writableOffsetMin(axis.utc_offset_min);
     const int digits = seriesFractionDigits(axis);
-    const auto at = [](const std::vector<double>* v, std::size_t k) {
-      return v && k < v->size() ? real((*v)[k]) : std::string();
+    const auto at = [u](const std::vector<double>* v, std::size_t k) {
+      return v && k < v->size() ? real((*v)[k], u, Quantity::Discharge) : std::string();
     };
     for (const GaugeOutput& gauge : *gauges) {
-      writeRow(gauge_table->out, results::gaugeRow(gauge), offset);
+      writeRow(gauge_table->out, results::gaugeRow(gauge), results::gaugeColumns(), offset, u);
       gauge_table->out << ',' << real(gauge.x) << ',' << real(gauge.y) << '\n';
       const auto id = quoted(gauge.gauge_id);
       for (std::size_t k = 0; k < axis.steps; ++k)
@@ -269,8 +282,8 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
 
 CsvSeriesWriter::CsvSeriesWriter(const fs::path& dir, bool overwrite,
                                  const network::NetworkPlan& plan, const routing::TimeAxis& axis,
-                                 SeriesSelection selection)
-    : plan_(plan), axis_(axis), selected_(selection.mask(plan.size())) {
+                                 SeriesSelection selection, units::System system)
+    : plan_(plan), axis_(axis), selected_(selection.mask(plan.size())), units_(system) {
   prepareDirectory(dir);
   out_ = std::make_unique<Stream>(dir, "hydrographs.csv", overwrite);
   fraction_digits_ = seriesFractionDigits(axis_);
@@ -292,8 +305,9 @@ void CsvSeriesWriter::write(std::uint32_t reach, std::span<const double> q_m3s,
   auto& out = out_->out;
   for (std::size_t k = 0; k < axis_.steps; ++k) {
     out << id << ',' << formatIsoTime(axis_.at(static_cast<double>(k)), offset, fraction_digits_)
-        << ',' << real(q_m3s[k]) << ',' << (depth_m.empty() ? std::string() : real(depth_m[k]))
-        << ',' << (velocity_ms.empty() ? std::string() : real(velocity_ms[k])) << '\n';
+        << ',' << real(q_m3s[k], units_, Quantity::Discharge) << ','
+        << (depth_m.empty() ? std::string() : real(depth_m[k], units_, Quantity::Length)) << ','
+        << (velocity_ms.empty() ? std::string() : real(velocity_ms[k], units_, Quantity::Velocity)) << '\n';
   }
   if (!out) out_->failWithErrno("cannot write the output file");
 }

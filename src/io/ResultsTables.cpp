@@ -5,6 +5,9 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <deque>
+#include <map>
+#include <mutex>
 #include <unordered_set>
 
 #include "reachwise/Error.hpp"
@@ -43,19 +46,46 @@ Value hours(double s) { return std::isnan(s) ? Value{} : Value{s / 3600.0}; }
 
 }  // namespace
 
+const std::vector<Column>& inUnits(const std::vector<Column>& columns, units::System system) {
+  if (system == units::System::SI) return columns;
+  // Built once per list and kept for the program's life (the names are
+  // `const char*` into `names`).
+  static std::mutex mutex;
+  static std::map<const std::vector<Column>*, std::vector<Column>> lists;
+  static std::deque<std::string> names;
+  const std::lock_guard lock(mutex);
+  auto it = lists.find(&columns);
+  if (it == lists.end()) {
+    std::vector<Column> renamed = columns;
+    for (Column& c : renamed) {
+      std::string name = fieldName(c.name, system);
+      if (name != c.name) c.name = names.emplace_back(std::move(name)).c_str();
+    }
+    it = lists.emplace(&columns, std::move(renamed)).first;
+  }
+  return it->second;
+}
+
+void convertRow(Row& row, const std::vector<Column>& columns, units::System system) {
+  REACHWISE_ASSERT(row.size() == columns.size());
+  for (std::size_t c = 0; c < row.size(); ++c)
+    if (auto* d = std::get_if<double>(&row[c]); d && columns[c].quantity != Quantity::None)
+      *d = toOutputUnits(system, columns[c].quantity, *d);
+}
+
 const std::vector<Column>& reachColumns() {
   static const std::vector<Column> columns = {
-      {"reach_id", CT::Text},          {"peak_q", CT::Real},
-      {"peak_time", CT::DateTime},     {"peak_depth", CT::Real},
-      {"peak_velocity", CT::Real},     {"inflow_peak_q", CT::Real},
+      {"reach_id", CT::Text},          {"peak_q", CT::Real, Quantity::Discharge},
+      {"peak_time", CT::DateTime},     {"peak_depth", CT::Real, Quantity::Length},
+      {"peak_velocity", CT::Real, Quantity::Velocity},     {"inflow_peak_q", CT::Real, Quantity::Discharge},
       {"inflow_peak_time", CT::DateTime}, {"attenuation_pct", CT::Real},
-      {"travel_time_h", CT::Real},     {"volume_in_m3", CT::Real},
-      {"volume_lateral_m3", CT::Real}, {"volume_out_m3", CT::Real},
-      {"storage_change_m3", CT::Real}, {"volume_error_pct", CT::Real},
+      {"travel_time_h", CT::Real},     {"volume_in_m3", CT::Real, Quantity::Volume},
+      {"volume_lateral_m3", CT::Real, Quantity::Volume}, {"volume_out_m3", CT::Real, Quantity::Volume},
+      {"storage_change_m3", CT::Real, Quantity::Volume}, {"volume_error_pct", CT::Real},
       {"subreaches", CT::Integer},     {"substeps", CT::Integer},
-      {"dx_m", CT::Real},              {"dt_sub_s", CT::Real},
+      {"dx_m", CT::Real, Quantity::Length},              {"dt_sub_s", CT::Real},
       {"courant", CT::Real},           {"x", CT::Real},
-      {"cell_reynolds", CT::Real},     {"reference_q", CT::Real},
+      {"cell_reynolds", CT::Real},     {"reference_q", CT::Real, Quantity::Discharge},
       {"amplitude_ratio", CT::Real},   {"phase_ratio", CT::Real},
       {"negative_clamps", CT::Integer64}, {"x_clamps", CT::Integer64},
       {"surcharge_cells", CT::Integer64}, {"grid_compromise", CT::Boolean},
@@ -132,7 +162,7 @@ const char* nodeKindName(routing::NodeKind kind) {
 const std::vector<Column>& nodeColumns() {
   static const std::vector<Column> columns = {
       {"node_id", CT::Text},          {"kind", CT::Text},
-      {"peak_q", CT::Real},           {"peak_time", CT::DateTime},
+      {"peak_q", CT::Real, Quantity::Discharge},           {"peak_time", CT::DateTime},
       {"branch_count", CT::Integer},  {"branch_spread_h", CT::Real},
       {"coincidence_ratio", CT::Real}, {"branches", CT::Text},
       {"lake_id", CT::Text},
@@ -168,7 +198,7 @@ const std::vector<Column>& branchColumns() {
   static const std::vector<Column> columns = {
       {"node_id", CT::Text},
       {"branch_reach_id", CT::Text},
-      {"branch_peak_q", CT::Real},
+      {"branch_peak_q", CT::Real, Quantity::Discharge},
       {"branch_peak_time", CT::DateTime},
   };
   return columns;
@@ -187,10 +217,10 @@ Row branchRow(const network::NetworkPlan& plan, const routing::NodeSummary& node
 
 const std::vector<Column>& gaugeColumns() {
   static const std::vector<Column> columns = {
-      {"gauge_id", CT::Text},        {"reach_id", CT::Text},         {"snap_distance_m", CT::Real},
+      {"gauge_id", CT::Text},        {"reach_id", CT::Text},         {"snap_distance_m", CT::Real, Quantity::Length},
       {"n_obs", CT::Integer64},      {"nse", CT::Real},              {"nse_peak_weighted", CT::Real},
       {"kge", CT::Real},             {"kge_r", CT::Real},            {"kge_alpha", CT::Real},
-      {"kge_beta", CT::Real},        {"pbias_pct", CT::Real},        {"volume_error_m3", CT::Real},
+      {"kge_beta", CT::Real},        {"pbias_pct", CT::Real},        {"volume_error_m3", CT::Real, Quantity::Volume},
       {"peak_error_pct", CT::Real},  {"peak_timing_h", CT::Real},
   };
   return columns;
@@ -209,19 +239,19 @@ Row gaugeRow(const GaugeOutput& gauge) {
 
 const std::vector<Column>& gaugeSeriesColumns() {
   static const std::vector<Column> columns = {
-      {"gauge_id", CT::Text}, {"time", CT::DateTime}, {"observed_q", CT::Real}, {"simulated_q", CT::Real}};
+      {"gauge_id", CT::Text}, {"time", CT::DateTime}, {"observed_q", CT::Real, Quantity::Discharge}, {"simulated_q", CT::Real, Quantity::Discharge}};
   return columns;
 }
 
 const std::vector<Column>& lakeColumns() {
   static const std::vector<Column> columns = {
       {"lake_id", CT::Text},           {"reach_id", CT::Text},
-      {"inflow_peak_m3s", CT::Real},   {"inflow_peak_time", CT::DateTime},
-      {"outflow_peak_m3s", CT::Real},  {"outflow_peak_time", CT::DateTime},
+      {"inflow_peak_m3s", CT::Real, Quantity::Discharge},   {"inflow_peak_time", CT::DateTime},
+      {"outflow_peak_m3s", CT::Real, Quantity::Discharge},  {"outflow_peak_time", CT::DateTime},
       {"attenuation_pct", CT::Real},   {"lag_h", CT::Real},
-      {"peak_level_m", CT::Real},      {"peak_storage_m3", CT::Real},
-      {"volume_in_m3", CT::Real},      {"volume_out_m3", CT::Real},
-      {"storage_change_m3", CT::Real}, {"volume_error_m3", CT::Real},
+      {"peak_level_m", CT::Real, Quantity::Length},      {"peak_storage_m3", CT::Real, Quantity::Volume},
+      {"volume_in_m3", CT::Real, Quantity::Volume},      {"volume_out_m3", CT::Real, Quantity::Volume},
+      {"storage_change_m3", CT::Real, Quantity::Volume}, {"volume_error_m3", CT::Real, Quantity::Volume},
       {"substeps", CT::Integer},
   };
   return columns;
@@ -257,8 +287,8 @@ Row lakeRow(const routing::TimeAxis& axis, const LakeOutput& lake) {
 
 const std::vector<Column>& lakeSeriesColumns() {
   static const std::vector<Column> columns = {
-      {"lake_id", CT::Text},     {"time", CT::DateTime},    {"level_m", CT::Real},
-      {"storage_m3", CT::Real},  {"inflow_m3s", CT::Real},  {"outflow_m3s", CT::Real},
+      {"lake_id", CT::Text},     {"time", CT::DateTime},    {"level_m", CT::Real, Quantity::Length},
+      {"storage_m3", CT::Real, Quantity::Volume},  {"inflow_m3s", CT::Real, Quantity::Discharge},  {"outflow_m3s", CT::Real, Quantity::Discharge},
   };
   return columns;
 }
@@ -288,6 +318,7 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
   std::vector<std::pair<std::string, std::string>> rows;
   for (const auto& input : info.inputs) rows.emplace_back("input", input);
   rows.emplace_back("method", info.method);
+  rows.emplace_back("units", std::string(unitSystemName(info.units)));
   rows.emplace_back("dt_s", fmt::format("{}", axis.dt_s));
   rows.emplace_back("steps", fmt::format("{}", axis.steps));
   rows.emplace_back("start", formatIsoTime(axis.start_unix_s, offset));

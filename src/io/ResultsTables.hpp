@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "reachwise/io/LakesWriter.hpp"
+#include "reachwise/io/OutputUnits.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
 
 namespace reachwise::io::results {
@@ -21,7 +22,14 @@ enum class ColumnType { Text, Real, Integer, Integer64, Boolean, DateTime };
 struct Column {
   const char* name;
   ColumnType type;
+  Quantity quantity = Quantity::None;   ///< what its unit is (None: dimensionless, a time or text)
 };
+
+/// `columns` (one of the lists below, SI) under their names in `system`
+/// (io::fieldName: unit suffixes follow the system); the same list for SI.
+const std::vector<Column>& inUnits(const std::vector<Column>& columns, units::System system);
+
+
 
 /// An instant, seconds since the epoch (written as a date-time).
 struct Instant {
@@ -31,6 +39,10 @@ struct Instant {
 /// monostate = NULL (NaN reals become NULL too).
 using Value = std::variant<std::monostate, double, std::int64_t, std::string, Instant>;
 using Row = std::vector<Value>;
+
+/// Converts the values of `row` (SI, built for `columns`) that have a unit
+/// into `system` (io::toOutputUnits).
+void convertRow(Row& row, const std::vector<Column>& columns, units::System system);
 
 const std::vector<Column>& reachColumns();
 Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& summary, std::size_t i);
@@ -54,7 +66,10 @@ Row lakeRow(const routing::TimeAxis& axis, const LakeOutput& lake);
 const std::vector<Column>& lakeSeriesColumns();
 /// A routed lake's level (m), storage (m^3), inflow and outflow (m^3/s),
 /// in the order of their columns; each `steps` long.
+/// (The quantities of the four, in that order: kLakeSeriesQuantities.)
 std::array<std::span<const double>, 4> lakeSeries(const LakeOutput& lake, std::size_t steps);
+inline constexpr std::array<Quantity, 4> kLakeSeriesQuantities = {Quantity::Length, Quantity::Volume,
+                                                                  Quantity::Discharge, Quantity::Discharge};
 
 /// key/value rows of `run_info`, in order.
 std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::NetworkResults& results,

@@ -328,7 +328,8 @@ void GpkgResultsWriter::openSeriesTable() {
 void GpkgResultsWriter::openLakeSeriesTable() {
   if (!options_.lakes) return;
   const auto name = layerName("lake_series");
-  lake_series_layer_ = createTable(target_, *ds_, name, nullptr, wkbNone, results::lakeSeriesColumns(), schema_);
+  lake_series_layer_ = createTable(target_, *ds_, name, nullptr, wkbNone,
+                                   results::inUnits(results::lakeSeriesColumns(), options_.units), schema_);
   if (!schema_.empty()) return;  // as in openSeriesTable()
   // Indexed now, before any layer holds rows, for the reason given in openSeriesTable().
   CPLErrorReset();
@@ -361,15 +362,15 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
   REACHWISE_ASSERT(velocity_ms.empty() || velocity_ms.size() == axis_.steps);
   OGRFeature& f = *series_feature_;
   f.SetField(0, plan_.reach_id[reach].c_str());
-  const auto value = [](std::span<const double> s, std::size_t k) {
-    return s.empty() || std::isnan(s[k]) ? Value{} : Value{s[k]};
+  const auto value = [this](std::span<const double> s, std::size_t k, Quantity quantity) {
+    return s.empty() || std::isnan(s[k]) ? Value{} : Value{toOutputUnits(options_.units, quantity, s[k])};
   };
   for (std::size_t k = 0; k < axis_.steps; ++k) {
     setDateTime(f, 1, axis_.at(static_cast<double>(k)), timeOffsetMin(axis_.utc_offset_min));
-    setValue(f, 2, value(q_m3s, k), 0);
+    setValue(f, 2, value(q_m3s, k, Quantity::Discharge), 0);
     if (options_.depth_velocity) {
-      setValue(f, 3, value(depth_m, k), 0);
-      setValue(f, 4, value(velocity_ms, k), 0);
+      setValue(f, 3, value(depth_m, k, Quantity::Length), 0);
+      setValue(f, 4, value(velocity_ms, k, Quantity::Velocity), 0);
     }
     insert(target_, *series_layer_, f);
     countRow();
@@ -397,12 +398,14 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   const int offset = timeOffsetMin(results.axis.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
 
+  const units::System u = options_.units;
   OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
-                                  results::reachColumns(), schema_);
+                                  results::inUnits(results::reachColumns(), u), schema_);
   {
     OGRFeature f(reaches->GetLayerDefn());
     for (std::size_t i = 0; i < plan_.size(); ++i) {
-      const auto row = results::reachRow(plan_, results.reaches[i], i);
+      auto row = results::reachRow(plan_, results.reaches[i], i);
+      results::convertRow(row, results::reachColumns(), u);
       for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
       const auto vertices = results::flowLine(table_, plan_, i);
       if (vertices.size() >= 2) {
@@ -415,15 +418,16 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
     }
   }
 
-  OGRLayer* nodes =
-      createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint, results::nodeColumns(), schema_);
+  OGRLayer* nodes = createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint,
+                                results::inUnits(results::nodeColumns(), u), schema_);
   OGRLayer* branches = createTable(target_, *ds_, layerName("confluence_branches"), nullptr, wkbNone,
-                                   results::branchColumns(), schema_);
+                                   results::inUnits(results::branchColumns(), u), schema_);
   {
     OGRFeature f(nodes->GetLayerDefn());
     OGRFeature b(branches->GetLayerDefn());
     for (const auto& node : results.nodes) {
-      const auto row = results::nodeRow(plan_, node);
+      auto row = results::nodeRow(plan_, node);
+      results::convertRow(row, results::nodeColumns(), u);
       for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
       if (std::isfinite(node.x) && std::isfinite(node.y)) {
         OGRPoint point(node.x, node.y);
@@ -433,7 +437,8 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
       }
       insert(target_, *nodes, f);
       for (const auto& branch : node.branches) {
-        const auto brow = results::branchRow(plan_, node, branch);
+        auto brow = results::branchRow(plan_, node, branch);
+        results::convertRow(brow, results::branchColumns(), u);
         for (std::size_t c = 0; c < brow.size(); ++c) setValue(b, static_cast<int>(c), brow[c], offset);
         insert(target_, *branches, b);
       }
@@ -458,10 +463,12 @@ void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   const auto name = layerName("lakes");
-  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbMultiPolygon, results::lakeColumns(), schema_);
+  OGRLayer* layer = createTable(target_, *ds_, name, srs.get(), wkbMultiPolygon,
+                                results::inUnits(results::lakeColumns(), options_.units), schema_);
   OGRFeature f(layer->GetLayerDefn());
   for (const auto& lake : lakes) {
-    const auto row = results::lakeRow(axis_, lake);
+    auto row = results::lakeRow(axis_, lake);
+    results::convertRow(row, results::lakeColumns(), options_.units);
     for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
     OGRGeometry* g = nullptr;
     if (!lake.lake->wkt.empty() &&
@@ -481,7 +488,11 @@ void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
       for (std::size_t k = 0; k < axis_.steps; ++k) {
         setDateTime(s, 1, axis_.at(static_cast<double>(k)), offset);
         for (std::size_t v = 0; v < series.size(); ++v)
-          setValue(s, static_cast<int>(2 + v), std::isnan(series[v][k]) ? Value{} : Value{series[v][k]}, 0);
+          setValue(s, static_cast<int>(2 + v),
+                   std::isnan(series[v][k])
+                       ? Value{}
+                       : Value{toOutputUnits(options_.units, results::kLakeSeriesQuantities[v], series[v][k])},
+                   0);
         insert(target_, *lake_series_layer_, s);
         rowWritten();
       }
@@ -511,17 +522,21 @@ void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   std::vector<results::Row> rows;
   std::vector<std::pair<double, double>> points;
+  const units::System u = options_.units;
   for (const auto& gauge : gauges) {
     rows.push_back(results::gaugeRow(gauge));
+    results::convertRow(rows.back(), results::gaugeColumns(), u);
     points.emplace_back(gauge.x, gauge.y);
   }
-  results::writeRowsLayer(target_, *ds_, layerName("gauges"), srs.get(), wkbPoint, results::gaugeColumns(), rows,
-                          points, offset, schema_);
+  results::writeRowsLayer(target_, *ds_, layerName("gauges"), srs.get(), wkbPoint,
+                          results::inUnits(results::gaugeColumns(), u), rows, points, offset, schema_);
   const auto series_name = layerName("gauge_series");
-  OGRLayer* series = createTable(target_, *ds_, series_name, nullptr, wkbNone, results::gaugeSeriesColumns(), schema_);
+  OGRLayer* series = createTable(target_, *ds_, series_name, nullptr, wkbNone,
+                                 results::inUnits(results::gaugeSeriesColumns(), u), schema_);
   OGRFeature s(series->GetLayerDefn());
-  const auto at = [](const std::vector<double>* v, std::size_t k) {
-    return v && k < v->size() && !std::isnan((*v)[k]) ? Value{(*v)[k]} : Value{};
+  const auto at = [u](const std::vector<double>* v, std::size_t k) {
+    return v && k < v->size() && !std::isnan((*v)[k]) ? Value{toOutputUnits(u, Quantity::Discharge, (*v)[k])}
+                                                       : Value{};
   };
   for (const auto& gauge : gauges) {
     s.SetField(0, gauge.gauge_id.c_str());
@@ -561,11 +576,12 @@ void GpkgResultsWriter::finishDatabaseTables() {
     OGRFeatureDefn* defn = ds_->GetLayer(index)->GetLayerDefn();
     for (int i = 0; i < defn->GetFieldCount(); ++i) {
       const std::string column = defn->GetFieldDefn(i)->GetNameRef();
-      const ColumnMeaning* meaning = columnMeaning(column);
-      if (!meaning) continue;
+      const std::string title = columnTitle(column, options_.units);
+      const ColumnMeaning* meaning = columnMeaning(siFieldName(column));
+      if (title.empty() || !meaning) continue;
       executeSql(*ds_, target_,
                  "COMMENT ON COLUMN " + sqlTable(base) + "." + quotedIdentifier(column) + " IS " +
-                     quotedLiteral(std::string(meaning->title) + ": " + std::string(meaning->description)),
+                     quotedLiteral(title + ": " + std::string(meaning->description)),
                  "cannot describe column " + column, layerName(base));
     }
   }
@@ -577,7 +593,7 @@ void GpkgResultsWriter::describeTables() {
   // transaction, as SQL within it would make GDAL finish the deferred
   // spatial indexes there (openSeriesTable()); still before the file is
   // put in place.
-  for (const char* t : kTables) describeColumns(*ds_, target_.string(), layerName(t));
+  for (const char* t : kTables) describeColumns(*ds_, target_.string(), layerName(t), options_.units);
 }
 
 void GpkgResultsWriter::commit(OutputCommit* into) {

@@ -85,6 +85,10 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
       c.method = required<std::string>(v, origin, key, "a text");
       if (*c.method != "vpmc" && *c.method != "mc" && *c.method != "muskingum")
         throw keyError(origin, key, "expected \"vpmc\", \"mc\" or \"muskingum\", got \"" + *c.method + "\"");
+    } else if (key == "units") {
+      c.units = required<std::string>(v, origin, key, "a text");
+      if (*c.units != "si" && *c.units != "us")
+        throw keyError(origin, key, "expected \"si\" or \"us\", got \"" + *c.units + "\"");
     } else if (key == "dt") {
       c.dt_s = required<double>(v, origin, key, "a number of seconds");
       if (!std::isfinite(*c.dt_s) || !(*c.dt_s >= routing::TimeAxis::kMinStep_s))

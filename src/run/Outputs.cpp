@@ -69,7 +69,8 @@ struct Outputs::Writers {
 Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const network::NetworkPlan& plan,
                  const routing::TimeAxis& axis, const std::string& history,
                  std::vector<routing::SeriesSink*> extra, std::vector<std::string> gauge_ids)
-    : request_(request), net_(net), plan_(plan), gauge_ids_(std::move(gauge_ids)), w_(std::make_unique<Writers>()) {
+    : request_(request), net_(net), plan_(plan), units_(request.units.value_or(net.config.units)),
+      gauge_ids_(std::move(gauge_ids)), w_(std::make_unique<Writers>()) {
   const OutputRequest& o = request_;
   const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
   std::vector<routing::SeriesSink*> sinks = std::move(extra);
@@ -90,6 +91,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   wo.series = o.series_nc.empty() ? selection : io::SeriesSelection::none();
   wo.lakes = has_lakes_;
   wo.lake_series = lake_series_ && o.series_nc.empty();
+  wo.units = units_;
   if (o.write_back) {
     w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
     gpkg_target_ = net.source.path;
@@ -113,7 +115,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
       if (p == p.parent_path()) break;
     }
     fs::create_directories(o.csv_dir, ec);
-    w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection);
+    w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection, units_);
     if (has_lakes_)  // refused now rather than after routing
       for (const char* name : io::kCsvLakeFiles) io::refuseExisting(fs::path(o.csv_dir) / name, o.overwrite);
     if (!gauge_ids_.empty())  // likewise
@@ -131,6 +133,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     so.history = history;
     if (lake_series_) so.lake_ids = lake_ids_;
     so.gauge_ids = gauge_ids_;
+    so.units = units_;
     w_->netcdf = std::make_unique<io::NetcdfSeriesWriter>(o.series_nc, axis, std::move(ids), so);
     w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
     sinks.push_back(w_->netcdf_selected.get());
@@ -198,7 +201,7 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
   // OutputCommit, which puts them all in place at the end, or none.
   io::OutputCommit all(request_.overwrite);
   if (w_->report) {
-    report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, net_.usUnits()};
+    report::ReportInputs ri{net_.table, plan_, results, info, gpkg_target_, units_ == units::System::USCustomary};
     ri.lakes = lakes;
     ri.gauges = gauges;
     ri.calibration = request_.calibration;
@@ -208,7 +211,7 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     io::CsvLakes csv_lakes;
     if (has_lakes_) csv_lakes = {&lakes, lake_series_};
     io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes,
-                       gauges.empty() ? nullptr : &gauges, &all);
+                       gauges.empty() ? nullptr : &gauges, &all, units_);
     w_->csv->commit(&all);
   }
   if (w_->netcdf) {

@@ -138,6 +138,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
+  summary.info.units = outputs.units();
   const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
   markLakeNodes(summary.results, summary.lakes);
   outputs.commit(summary.results, summary.info, lakes, gauge_rows);

@@ -56,7 +56,7 @@ void expectEveryColumnDescribed(const fs::path& file, const std::string& prefix)
     }
   }
   EXPECT_EQ(tables, 9u);
-  // Units in the titles (the GeoPackage holds SI values: docs/formats.md).
+  // Units in the titles (an SI network: SI outputs by default, docs/formats.md "Output units").
   EXPECT_EQ(described.at(prefix + "reaches").at("peak_q"), "peak discharge (m³/s)");
   EXPECT_EQ(described.at(prefix + "reaches").at("peak_depth"), "peak depth (m)");
 }

@@ -25,6 +25,7 @@ threads = 2
 write_back = false
 overwrite = true
 quiet = true
+units = "us"
 )",
                                                 "/runs/a/run.toml");
   EXPECT_EQ(*c.inflow, "/runs/a/forcing/in.csv");
@@ -40,6 +41,7 @@ quiet = true
   EXPECT_FALSE(*c.write_back);
   EXPECT_TRUE(*c.overwrite);
   EXPECT_TRUE(*c.quiet);
+  EXPECT_EQ(*c.units, "us");
 }
 
 TEST(RouteConfig, AbsentTableLeavesEverythingUnset) {
@@ -62,5 +64,7 @@ TEST(RouteConfig, BadValuesNameTheFileAndKey) {
   EXPECT_NE(message("[route]\nthreads = 0\n").find("route.threads"), std::string::npos);
   EXPECT_NE(message("[route]\nquiet = \"yes\"\n").find("route.quiet"), std::string::npos);
   EXPECT_NE(message("[route]\ninflow = 3\n").find("route.inflow"), std::string::npos);
+  EXPECT_NE(message("[route]\nunits = \"feet\"\n").find("route.units"), std::string::npos);
+  EXPECT_NE(message("[route]\nunits = 1\n").find("route.units"), std::string::npos);
   EXPECT_NE(message("[route\n").find("run.toml"), std::string::npos);
 }

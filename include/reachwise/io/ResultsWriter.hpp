@@ -24,6 +24,7 @@
 
 #include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/gauges/Skill.hpp"
+#include "reachwise/hydraulics/Units.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
 #include "reachwise/routing/Results.hpp"
@@ -50,6 +51,8 @@ struct RunInfo {
   std::string command_line;
   std::vector<std::string> warnings; ///< one `warning` row each
   std::string series_file;           ///< NetCDF file holding the hydrographs instead (`series` row), if any
+  /// The unit system of the run's outputs (`units` row: `si` or `us`).
+  units::System units = units::System::SI;
 };
 
 /// The caution every run_info table carries.
@@ -91,6 +94,9 @@ struct GpkgWriterOptions {
   /// Fill `lake_series` (else it stays empty, as `hydrographs` does when the
   /// series go to a NetCDF file).
   bool lake_series = true;
+  /// The unit system of every value written (io/OutputUnits.hpp: values
+  /// converted, unit-suffixed field names and column titles follow).
+  units::System units = units::System::SI;
 };
 
 /// Writes results into a GeoPackage. Use: construct, let the scheduler
@@ -240,23 +246,26 @@ struct CsvLakes {
 /// run's other outputs). Throws InputError naming the file when one exists
 /// and `overwrite` is false.
 /// Text is quoted when it holds a comma, quote or line break; NaN is empty.
+/// Values are written in `units` (io/OutputUnits.hpp; unit-suffixed column
+/// names follow; `run_info.csv` records the system).
 void writeCsvTables(const std::filesystem::path& dir, bool overwrite,
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::NetworkResults& results, const RunInfo& info,
                     const CsvLakes& lakes = {}, const std::vector<GaugeOutput>* gauges = nullptr,
-                    OutputCommit* into = nullptr);
+                    OutputCommit* into = nullptr, units::System units = units::System::SI);
 
 /// The names of the lake files writeCsvTables writes.
 inline constexpr const char* kCsvLakeFiles[] = {"lakes.csv", "lake_series.csv"};
 /// The names of the gauge files writeCsvTables writes.
 inline constexpr const char* kCsvGaugeFiles[] = {"gauges.csv", "gauge_series.csv"};
 
-/// Streams `hydrographs.csv` (reach_id, time, q, depth, velocity) into
-/// `dir`; the file appears under its name in commit().
+/// Streams `hydrographs.csv` (reach_id, time, q, depth, velocity; values in
+/// `system`) into `dir`; the file appears under its name in commit().
 class CsvSeriesWriter final : public routing::SeriesSink {
 public:
   CsvSeriesWriter(const std::filesystem::path& dir, bool overwrite, const network::NetworkPlan& plan,
-                  const routing::TimeAxis& axis, SeriesSelection selection = SeriesSelection::all());
+                  const routing::TimeAxis& axis, SeriesSelection selection = SeriesSelection::all(),
+                  units::System system = units::System::SI);
   ~CsvSeriesWriter() override;
   bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
   CsvSeriesWriter(const CsvSeriesWriter&) = delete;
@@ -272,6 +281,7 @@ private:
   const network::NetworkPlan& plan_;
   routing::TimeAxis axis_;
   std::vector<bool> selected_;
+  units::System units_;
   int fraction_digits_ = 0;
 };
 

@@ -7,7 +7,9 @@
 /// `lake_storage` (m3), `lake_inflow` and `lake_outflow` (m3 s-1) on
 /// (time, lake), written once routing is done; for a run compared with
 /// gauges also `gauge_id`, `observed_q` and `simulated_q` (m3 s-1) on
-/// (time, gauge), written once routing is done.
+/// (time, gauge), written once routing is done. With US customary output
+/// units (`SeriesNetcdfOptions::units`) the values are converted as they are
+/// written and the `units` attributes are `ft3 s-1`, `ft`, `ft s-1`, `ft3`.
 ///
 /// The file is built under a temporary name beside the output
 /// (`.OUT.partial-<pid>`, io/OutputFiles.hpp) and appears under its own name only when
@@ -22,6 +24,7 @@
 #include <string>
 #include <vector>
 
+#include "reachwise/hydraulics/Units.hpp"
 #include "reachwise/routing/Results.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
@@ -46,6 +49,8 @@ struct SeriesNetcdfOptions {
   /// The gauges whose observed and simulated discharges the file holds (a
   /// `gauge` dimension, `observed_q` and `simulated_q`); empty: none.
   std::vector<std::string> gauge_ids;
+  /// The unit system of the values written (the arguments stay SI).
+  units::System units = units::System::SI;
 };
 
 class NetcdfSeriesWriter final : public routing::SeriesSink {
@@ -95,6 +100,7 @@ private:
   int gauge_var_ = -1;                 ///< the first gauge variable
   std::vector<std::string> gauge_ids_;
   std::vector<bool> gauge_written_;
+  units::System units_ = units::System::SI;
 };
 
 }  // namespace reachwise::io

@@ -9,6 +9,7 @@
 
 #include <filesystem>
 #include <memory>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -44,6 +45,10 @@ struct OutputRequest {
   std::string report_reaches;
   std::string hydrographs = "auto";   ///< which reaches' hydrographs: see chooseSeries()
   bool overwrite = false;   ///< replace existing outputs (else an existing one is an InputError naming it)
+  /// The unit system of every output (GeoPackage, CSV, NetCDF, report;
+  /// io/OutputUnits.hpp); unset: the network's input units
+  /// (`[network] units`). Routing stays SI either way.
+  std::optional<units::System> units;
   /// The calibration the run comes from, for the report (null: none; must
   /// outlive the run).
   const report::CalibrationComparison* calibration = nullptr;
@@ -86,6 +91,10 @@ public:
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
               const std::vector<io::LakeOutput>& lakes = {}, const std::vector<io::GaugeOutput>& gauges = {});
 
+  /// The unit system the outputs are written in (OutputRequest::units, or
+  /// the network's).
+  units::System units() const noexcept { return units_; }
+
   /// The GeoPackage written (the network itself with write-back), or empty.
   const std::string& geopackage() const noexcept { return gpkg_target_; }
 
@@ -98,6 +107,7 @@ private:
   const LoadedNetwork& net_;
   const network::NetworkPlan& plan_;
   std::string gpkg_target_;
+  units::System units_ = units::System::SI;
   bool has_lakes_ = false;             ///< the network has lakes: lake tables in every output
   bool lake_series_ = false;           ///< the lakes' series are written (hydrographs are)
   std::vector<std::string> lake_ids_;  ///< the lakes the run routes, in order
