@@ -3,8 +3,10 @@
 # the layout by eye and for the docs). Chromium is not part of the build:
 # install it by hand where you need it (Debian: apt-get install chromium).
 #   scripts/report_screenshot.sh REPORT_DIR OUT.png [WIDTHxHEIGHT]
-# WIDTHxHEIGHT is the browser window (default 1280x2400); the PNG is
-# optimised losslessly with optipng when it is installed.
+# WIDTHxHEIGHT is the browser window (default 1280x2400). The PNG is made
+# smaller with pngquant (a 256-colour palette; fine for a page of flat
+# colours) and optipng (lossless) where they are installed (Debian
+# packages pngquant, optipng).
 set -euo pipefail
 if (($# < 2)); then
   echo "usage: $0 REPORT_DIR OUT.png [WIDTHxHEIGHT]" >&2
@@ -44,5 +46,6 @@ if [[ ! -s "$out_abs" ]]; then
   echo "$0: $browser wrote no screenshot to $out_abs" >&2
   exit 1
 fi
+if command -v pngquant > /dev/null; then pngquant --quality=60-95 --speed 1 --force --output "$out_abs" -- "$out_abs" || true; fi
 if command -v optipng > /dev/null; then optipng -quiet -o2 "$out_abs"; fi
 echo "$out_abs"

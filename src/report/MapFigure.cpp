@@ -327,7 +327,7 @@ MapDrawn drawMap(const std::filesystem::path& file, const MapFigure& map, ImageF
 
   // Legend blocks flow left to right and wrap below the map; the symbol
   // legend, the tallest, comes last.
-  const double block_w[] = {300, 200, 230};
+  const double block_w[] = {290, 160, 230};
   double bx[3], by[3], cursor = kMargin + 10, row_y = top + ph + 28;
   for (int b = 0; b < 3; ++b) {
     if (cursor + block_w[b] > kMargin + pw && cursor > kMargin + 10) cursor = kMargin + 10, row_y += kLegendRow;

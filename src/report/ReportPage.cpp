@@ -211,7 +211,7 @@ private:
     // A narrow map (a tall network) leaves room beside it: for one or two
     // outlets their panels, else the outlet table. A wide map takes the
     // page's width and everything else goes below it.
-    constexpr double kNarrowMap = 760;
+    constexpr double kNarrowMap = 780;  // leaves at least 414 px of the 1212 for the side column
     const bool narrow = m_.map.width_px <= kNarrowMap;
     const bool panels_beside = narrow && m_.outlet_count <= 2;
     const bool table_beside = narrow && !panels_beside;
