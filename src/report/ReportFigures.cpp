@@ -308,6 +308,7 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
                              q_unit, when)};
     drawHydrograph(folder / f.file, reachFigure(in, series, m, o, f.caption));
     m.outlet_figures.push_back(std::move(f));
+    m.outlet_figure_reaches.push_back(o);
   }
   for (std::size_t k = 0; k < series.named().size(); ++k) {
     const std::uint32_t r = series.named()[k];

@@ -64,6 +64,8 @@ struct ReportModel {
   std::set<std::string> map_labels;
   FigureFile map, timing;
   std::vector<FigureFile> outlet_figures, confluence_figures;
+  /// The outlet (plan index) of each of outlet_figures.
+  std::vector<std::uint32_t> outlet_figure_reaches;
   /// The reaches the user named (ReportSeries::named), in that order.
   std::vector<FigureFile> reach_figures;
   /// One entry per lake of ReportInputs::lakes; `shown_lakes` indexes them,

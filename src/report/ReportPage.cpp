@@ -292,8 +292,8 @@ private:
 
   /// Every outlet (up to kOutletTableRows), largest peak first.
   void outletTable() {
-    std::map<std::uint32_t, std::size_t> panel;
-    for (std::size_t k = 0; k < m_.hydrograph_outlets.size(); ++k) panel[m_.hydrograph_outlets[k]] = k + 1;
+    std::map<std::uint32_t, std::size_t> panel;  // outlet -> its panel's number
+    for (std::size_t k = 0; k < m_.outlet_figure_reaches.size(); ++k) panel[m_.outlet_figure_reaches[k]] = k + 1;
     out_ << "<table id=\"outlets\">\n<thead><tr><th class=\"num\">#</th><th>outlet reach</th><th class=\"num\">"
             "peak (" << u_.q_unit() << ")</th><th>peak time</th><th class=\"num\">panel</th><th>on map</th>"
             "</tr></thead>\n<tbody>\n";
@@ -301,7 +301,7 @@ private:
     for (const std::uint32_t o : m_.ranked_outlets) {
       const auto& r = in_.results.reaches[o];
       const auto it = panel.find(o);
-      const bool has_panel = it != panel.end() && it->second <= m_.outlet_figures.size();
+      const bool has_panel = it != panel.end();
       out_ << "<tr><td class=\"num\">" << ++rank << "</td><td>" << esc(id(o)) << "</td><td class=\"num\">"
            << num(u_.q(r.peak_q_m3s), 2) << "</td><td>" << esc(time(r.peak_time_s)) << "</td><td class=\"num\">"
            << (has_panel ? std::to_string(it->second) : std::string("-")) << "</td><td>"
