@@ -36,11 +36,13 @@ if [[ -z "$browser" ]]; then
 fi
 page="file://$(cd "$report" && pwd)/index.html"
 out_abs="$(cd "$(dirname "$out")" && pwd)/$(basename "$out")"
+rm -f "$out_abs"  # an old picture must not pass for a new one
 profile="$(mktemp -d)"
 trap 'rm -rf "$profile"' EXIT
 # --no-sandbox: the sandbox needs user namespaces that containers and root
 # shells often lack; the page is a local file the run wrote.
-"$browser" --headless --no-sandbox --disable-gpu --hide-scrollbars --user-data-dir="$profile" \
+"$browser" --headless --no-sandbox --disable-gpu --hide-scrollbars --virtual-time-budget=5000 \
+  --user-data-dir="$profile" \
   --window-size="${size/x/,}" --screenshot="$out_abs" "$page" > /dev/null 2>&1 || true
 if [[ ! -s "$out_abs" ]]; then
   echo "$0: $browser wrote no screenshot to $out_abs" >&2
