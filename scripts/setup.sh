@@ -19,7 +19,7 @@ packages=(
   libgdal-dev gdal-bin python3-gdal libgeos-dev libgeographiclib-dev
   libboost-graph-dev libtbb-dev libeigen3-dev
   libtomlplusplus-dev libcli11-dev libfmt-dev libnetcdf-dev netcdf-bin
-  libcairo2-dev libnlopt-cxx-dev
+  libcairo2-dev libnlopt-cxx-dev libxml2-dev
   libgtest-dev libgmock-dev libbenchmark-dev
   libudunits2-dev
   postgresql postgresql-client

@@ -10,6 +10,7 @@
 #include "Figures.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
+#include "reachwise/report/Layout.hpp"
 
 namespace reachwise::report::detail {
 
@@ -136,6 +137,23 @@ void drawText(cairo_t* cr, double x, double y, std::string_view text, double siz
   cairo_new_path(cr);
 }
 
+void drawTitle(cairo_t* cr, std::string_view text, double figure_width) {
+  const double room = figure_width - 24;
+  double size = 14;
+  while (size > 10 && textWidth(cr, text, size, true) > room) size -= 0.5;
+  std::string s(text);
+  if (textWidth(cr, s, size, true) > room) {
+    // Cut at a character boundary (UTF-8 continuation bytes are 10xxxxxx).
+    while (!s.empty() && textWidth(cr, s + "\u2026", size, true) > room) {
+      while (!s.empty() && (static_cast<unsigned char>(s.back()) & 0xC0) == 0x80) s.pop_back();
+      if (!s.empty()) s.pop_back();  // the character's first byte
+    }
+    s += "\u2026";
+  }
+  cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+  drawText(cr, 12, 22, s, size, Align::Left, true);
+}
+
 void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold, Rgb colour) {
   selectFont(cr, size, bold);
   const std::string s(text);
@@ -175,27 +193,17 @@ std::string offsetName(int utc_offset_min) {
   return fmt::format("UTC{}{:02d}:{:02d}", utc_offset_min < 0 ? '-' : '+', a / 60, a % 60);
 }
 
-void drawTimeAxis(cairo_t* cr, const TimeScale& s, double y, double y_top) {
-  // Steps a reader counts in: minutes, hours, days, weeks.
-  static constexpr std::array<double, 13> steps = {600,   900,   1800,  3600,   7200,   10800,  21600,
-                                                   43200, 86400, 172800, 345600, 604800, 1209600};
-  const double span = s.t1 - s.t0;
-  const double max_ticks = std::max(2.0, (s.x1 - s.x0) / 75.0);
-  // Beyond two weeks: whole days (runs of months or years).
-  double step = std::ceil(span / max_ticks / 86400.0) * 86400.0;
-  for (const double c : steps)
-    if (span / c <= max_ticks) {
-      step = c;
-      break;
-    }
-  const bool whole_days = step >= 86400;
-  const double offset_s = s.utc_offset_min * 60.0;
-  // Ticks at whole local steps (local midnight for days).
-  double t = std::ceil((s.t0 + offset_s) / step) * step - offset_s;
-  std::string last_date;
+void drawTimeAxis(cairo_t* cr, const TimeScale& s, double y, double y_top, double figure_width) {
+  layout::TimeAxisSpec spec;
+  spec.t0 = s.t0, spec.t1 = s.t1, spec.x0 = s.x0, spec.x1 = s.x1;
+  spec.utc_offset_min = s.utc_offset_min;
+  spec.y = y;
+  spec.figure_x0 = 0, spec.figure_x1 = figure_width;
+  const layout::TimeAxisLayout axis =
+      layout::layoutTimeAxis(spec, [&](std::string_view text, double size) { return textWidth(cr, text, size); });
   cairo_set_line_width(cr, 1.0);
-  for (; t <= s.t1 + 1e-6; t += step) {
-    const double x = std::round(s.x(t)) + 0.5;
+  for (const double tx : axis.tick_x) {
+    const double x = std::round(tx) + 0.5;
     if (y_top < y) {
       cairo_set_source_rgb(cr, 0.9, 0.9, 0.9);
       cairo_move_to(cr, x, y_top);
@@ -206,18 +214,14 @@ void drawTimeAxis(cairo_t* cr, const TimeScale& s, double y, double y_top) {
     cairo_move_to(cr, x, y);
     cairo_line_to(cr, x, y + 4);
     cairo_stroke(cr);
-    const std::string iso = io::formatIsoTime(t, s.utc_offset_min, 0);
-    const std::string date = iso.substr(0, 10), clock = iso.substr(11, 5);
-    if (whole_days) {
-      drawText(cr, x, y + 16, date, 10.5, Align::Centre);  // the clock would read 00:00 at every tick
-      continue;
-    }
-    drawText(cr, x, y + 16, clock, 11, Align::Centre);
-    if (date != last_date) {
-      drawText(cr, x, y + 30, date, 10.5, Align::Centre);
-      last_date = date;
-    }
   }
+  for (const layout::AxisLabel& l : axis.labels) drawText(cr, l.x, l.baseline, l.text, l.size);
+}
+
+double valueLabelWidth(cairo_t* cr, double lo, double hi, double step) {
+  double w = 0;
+  for (double v = lo; v <= hi + step * 1e-6; v += step) w = std::max(w, textWidth(cr, tickLabel(v, step), 11));
+  return w;
 }
 
 }  // namespace reachwise::report::detail

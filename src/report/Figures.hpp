@@ -4,6 +4,7 @@
 
 #include <cairo.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <filesystem>
@@ -14,6 +15,7 @@
 
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/network/ReachTable.hpp"
+#include "reachwise/report/Layout.hpp"
 
 namespace reachwise::report::detail {
 
@@ -57,6 +59,10 @@ enum class Align { Left, Centre, Right };
 void drawText(cairo_t* cr, double x, double y, std::string_view text, double size, Align align = Align::Left,
               bool bold = false);
 double textWidth(cairo_t* cr, std::string_view text, double size, bool bold = false);
+/// A figure's title, bold, its baseline at y = 22 from x = 12: 14 px, or
+/// smaller (down to 10 px) when that is too wide for the figure, cut with
+/// "…" when even that is.
+void drawTitle(cairo_t* cr, std::string_view text, double figure_width);
 /// Text drawn over a white halo, readable on top of lines.
 void drawHaloText(cairo_t* cr, double x, double y, std::string_view text, double size, bool bold = false,
                   Rgb colour = {0.1, 0.1, 0.1});
@@ -73,9 +79,14 @@ struct TimeScale {
   int utc_offset_min = 0;
   double x(double t) const { return x0 + (t - t0) / (t1 - t0) * (x1 - x0); }
 };
-/// Ticks and labels (HH:MM, the date under the first tick and at each new
-/// day) below the line y; grid lines up to y_top when y_top < y.
-void drawTimeAxis(cairo_t* cr, const TimeScale& scale, double y, double y_top);
+/// Ticks and labels below the line y (layout::layoutTimeAxis: every label
+/// within [0, figure_width]); grid lines up to y_top when y_top < y.
+void drawTimeAxis(cairo_t* cr, const TimeScale& scale, double y, double y_top, double figure_width);
+/// The widest value-axis label (tickLabel, 11 px) from lo to hi in `step`s.
+double valueLabelWidth(cairo_t* cr, double lo, double hi, double step);
+/// Left edge of a plot whose value labels are `label_width` wide, right of
+/// a rotated axis title at x = 16: at least `least`.
+inline double plotLeft(double label_width, double least = 64) { return std::max(least, 26 + label_width + 6); }
 /// "UTC", "UTC+01:00", ...
 std::string offsetName(int utc_offset_min);
 
@@ -87,10 +98,13 @@ struct MapLine {
 };
 
 struct MapMarker {
-  enum class Kind { Confluence, MajorConfluence, Outlet };
+  enum class Kind { Confluence, MajorConfluence, Outlet, Bifurcation };
   double x = 0, y = 0;
   Kind kind = Kind::Confluence;
   std::string label;        ///< empty = no label
+  /// Labels are placed in order of priority, highest first; a label with
+  /// no free place is left out (layout::LabelPlacer).
+  double priority = 0;
 };
 
 /// A lake's outline, filled; labelled with its id when `label` is set and
@@ -110,6 +124,7 @@ struct MapGauge {
 };
 
 struct MapFigure {
+  std::string title;        ///< drawn above the map
   std::vector<MapLine> lines;
   std::vector<MapMarker> markers;
   std::vector<MapLake> lakes;
@@ -123,8 +138,14 @@ struct MapFigure {
   bool feet = false;        ///< scale bar in ft / mi
 };
 
-/// Returns the figure's layout width (px).
-double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format);
+/// What drawMap drew: the figure's layout size (px) and the labels placed.
+struct MapDrawn {
+  double width = 0, height = 0;
+  std::vector<std::string> labels;        ///< texts of the node labels drawn
+  std::vector<layout::Box> label_boxes;   ///< every label drawn (nodes, gauges, lakes), in layout px
+};
+
+MapDrawn drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format);
 
 // ---- hydrographs ----
 

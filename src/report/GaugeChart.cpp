@@ -14,7 +14,7 @@ namespace reachwise::report::detail {
 
 namespace {
 
-constexpr double kWidth = 620, kLeft = 64, kRight = 20, kTop = 40, kPlotHeight = 220;
+constexpr double kWidth = 620, kLeastLeft = 64, kRight = 20, kTop = 40, kPlotHeight = 220;
 constexpr double kLegendRow = 18;
 
 constexpr Rgb kObservedColour{0.835, 0.369, 0.000};  // Okabe & Ito vermillion
@@ -33,12 +33,11 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
   cairo_t* cr = canvas.cr();
 
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-  drawText(cr, 12, 22, fig.title, 14, Align::Left, true);
+  drawTitle(cr, fig.title, kWidth);
 
   const double x1 = kWidth - kRight, y0 = kTop + kPlotHeight;
   const double t0 = static_cast<double>(fig.start_unix_s);
   const double t1 = t0 + static_cast<double>(fig.steps > 1 ? fig.steps - 1 : 1) * fig.dt_s;
-  const TimeScale ts{t0, t1, kLeft, x1, fig.utc_offset_min};
   double top = 0;
   std::size_t n_points = 0;
   for (const auto* series : {&fig.simulated, &fig.earlier})
@@ -48,23 +47,25 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
     if (std::isfinite(v)) top = std::max(top, v), ++n_points;
   if (!(top > 0)) top = 1;
   const double step = niceStep(top * 1.05, 5), hi = std::ceil(top * 1.05 / step) * step;
+  const double left = plotLeft(valueLabelWidth(cr, 0, hi, step), kLeastLeft);
+  const TimeScale ts{t0, t1, left, x1, fig.utc_offset_min};
   const auto qpix = [&](double q) { return y0 - q / hi * kPlotHeight; };
 
   cairo_set_line_width(cr, 1.0);
   for (double q = 0; q <= hi + step * 1e-6; q += step) {
     const double y = std::round(qpix(q)) + 0.5;
     cairo_set_source_rgb(cr, 0.9, 0.9, 0.9);
-    cairo_move_to(cr, kLeft, y);
+    cairo_move_to(cr, left, y);
     cairo_line_to(cr, x1, y);
     cairo_stroke(cr);
     cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
-    drawText(cr, kLeft - 6, y + 4, tickLabel(q, step), 11, Align::Right);
+    drawText(cr, left - 6, y + 4, tickLabel(q, step), 11, Align::Right);
   }
-  drawTimeAxis(cr, ts, y0, kTop);
+  drawTimeAxis(cr, ts, y0, kTop, kWidth);
   cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
-  cairo_rectangle(cr, kLeft + 0.5, kTop + 0.5, x1 - kLeft - 1, kPlotHeight - 1);
+  cairo_rectangle(cr, left + 0.5, kTop + 0.5, x1 - left - 1, kPlotHeight - 1);
   cairo_stroke(cr);
-  drawText(cr, (kLeft + x1) / 2, y0 + 48, "time (" + offsetName(fig.utc_offset_min) + ")", 11, Align::Centre);
+  drawText(cr, (left + x1) / 2, y0 + 48, "time (" + offsetName(fig.utc_offset_min) + ")", 11, Align::Centre);
   cairo_save(cr);
   cairo_translate(cr, 16, kTop + kPlotHeight / 2);
   cairo_rotate(cr, -M_PI / 2);
@@ -72,7 +73,7 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
   cairo_restore(cr);
 
   cairo_save(cr);
-  cairo_rectangle(cr, kLeft, kTop, x1 - kLeft, kPlotHeight);
+  cairo_rectangle(cr, left, kTop, x1 - left, kPlotHeight);
   cairo_clip(cr);
   cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
   // The earlier run under the simulated one, thinner.
@@ -125,16 +126,16 @@ void drawGaugeChart(const std::filesystem::path& file, const GaugeFigure& fig) {
     setColour(cr, colour);
     cairo_set_line_width(cr, observed ? 1.4 : width);
     if (observed) cairo_set_dash(cr, dash, 2, 0);
-    cairo_move_to(cr, kLeft, y - 4);
-    cairo_line_to(cr, kLeft + 26, y - 4);
+    cairo_move_to(cr, left, y - 4);
+    cairo_line_to(cr, left + 26, y - 4);
     cairo_stroke(cr);
     cairo_set_dash(cr, nullptr, 0, 0);
     if (observed) {
-      cairo_arc(cr, kLeft + 13, y - 4, 2.4, 0, 2 * M_PI);
+      cairo_arc(cr, left + 13, y - 4, 2.4, 0, 2 * M_PI);
       cairo_fill(cr);
     }
     cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-    drawText(cr, kLeft + 34, y, label, 11.5);
+    drawText(cr, left + 34, y, label, 11.5);
     y += kLegendRow;
   };
   legend(fig.observed_label, kObservedColour, true);

@@ -12,7 +12,7 @@ namespace reachwise::report::detail {
 
 namespace {
 
-constexpr double kWidth = 620, kLeft = 64, kRight = 18, kTop = 40, kPlotHeight = 220;
+constexpr double kWidth = 620, kLeastLeft = 64, kRight = 18, kTop = 40, kPlotHeight = 220;
 constexpr double kLegendRow = 18;
 
 std::string localMinute(double t, int offset_min) {
@@ -59,7 +59,7 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   cairo_t* cr = canvas.cr();
 
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-  drawText(cr, 12, 22, fig.title, 14, Align::Left, true);
+  drawTitle(cr, fig.title, kWidth);
 
   const std::size_t steps = fig.steps;
   double q_max = 0;
@@ -71,10 +71,11 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   if (!(q_max > 0)) q_max = 1;
   const double q_step = niceStep(q_max * 1.05, 5);
   const double q_top = std::ceil(q_max * 1.05 / q_step) * q_step;
+  const double left = plotLeft(valueLabelWidth(cr, 0, q_top, q_step), kLeastLeft);
 
   const double t0 = static_cast<double>(fig.start_unix_s);
   const double t1 = t0 + static_cast<double>(steps > 1 ? steps - 1 : 1) * fig.dt_s;
-  const TimeScale ts{t0, t1, kLeft, kWidth - kRight, fig.utc_offset_min};
+  const TimeScale ts{t0, t1, left, kWidth - kRight, fig.utc_offset_min};
   const double y0 = kTop + kPlotHeight;
   const auto ypix = [&](double q) { return y0 - q / q_top * kPlotHeight; };
 
@@ -83,17 +84,17 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   for (double q = 0; q <= q_top + q_step * 1e-6; q += q_step) {
     const double y = std::round(ypix(q)) + 0.5;
     cairo_set_source_rgb(cr, 0.9, 0.9, 0.9);
-    cairo_move_to(cr, kLeft, y);
+    cairo_move_to(cr, left, y);
     cairo_line_to(cr, kWidth - kRight, y);
     cairo_stroke(cr);
     cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
-    drawText(cr, kLeft - 6, y + 4, tickLabel(q, q_step), 11, Align::Right);
+    drawText(cr, left - 6, y + 4, tickLabel(q, q_step), 11, Align::Right);
   }
-  drawTimeAxis(cr, ts, y0, kTop);
+  drawTimeAxis(cr, ts, y0, kTop, kWidth);
   cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
-  cairo_rectangle(cr, kLeft + 0.5, kTop + 0.5, kWidth - kRight - kLeft - 1, kPlotHeight - 1);
+  cairo_rectangle(cr, left + 0.5, kTop + 0.5, kWidth - kRight - left - 1, kPlotHeight - 1);
   cairo_stroke(cr);
-  drawText(cr, (kLeft + kWidth - kRight) / 2, y0 + 48, "time (" + offsetName(fig.utc_offset_min) + ")", 11,
+  drawText(cr, (left + kWidth - kRight) / 2, y0 + 48, "time (" + offsetName(fig.utc_offset_min) + ")", 11,
            Align::Centre);
   cairo_save(cr);
   cairo_translate(cr, 16, kTop + kPlotHeight / 2);
@@ -103,7 +104,7 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
 
   // Curves, then the peak markers on top of every curve.
   cairo_save(cr);
-  cairo_rectangle(cr, kLeft, kTop, kWidth - kRight - kLeft, kPlotHeight);
+  cairo_rectangle(cr, left, kTop, kWidth - kRight - left, kPlotHeight);
   cairo_clip(cr);
   cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
   for (const Curve& c : fig.curves) {
@@ -144,25 +145,25 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
     setColour(cr, c.colour);
     if (c.q.empty()) {
       // A peak without a drawn series: the legend shows its marker only.
-      cairo_arc(cr, kLeft + 13, y - 4, 4.2, 0, 2 * M_PI);
+      cairo_arc(cr, left + 13, y - 4, 4.2, 0, 2 * M_PI);
       cairo_fill(cr);
     } else {
       cairo_set_line_width(cr, c.line_width + 0.4);
       const double dash[] = {5.0, 3.0};
       cairo_set_dash(cr, dash, c.dashed ? 2 : 0, 0);
-      cairo_move_to(cr, kLeft, y - 4);
-      cairo_line_to(cr, kLeft + 26, y - 4);
+      cairo_move_to(cr, left, y - 4);
+      cairo_line_to(cr, left + 26, y - 4);
       cairo_stroke(cr);
       cairo_set_dash(cr, nullptr, 0, 0);
     }
     cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-    drawText(cr, kLeft + 34, y, c.label, 11.5, Align::Left, true);
+    drawText(cr, left + 34, y, c.label, 11.5, Align::Left, true);
     const std::string peak =
         std::isfinite(c.peak_q) && std::isfinite(c.peak_t)
             ? fmt::format("peak {:.2f} {} at {}", c.peak_q, fig.q_unit, localMinute(c.peak_t, fig.utc_offset_min))
             : std::string("no peak");
     cairo_set_source_rgb(cr, 0.25, 0.25, 0.25);
-    drawText(cr, kLeft + 34 + label_w, y, peak, 11.5);
+    drawText(cr, left + 34 + label_w, y, peak, 11.5);
     y += kLegendRow;
   }
   canvas.finish();

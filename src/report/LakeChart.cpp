@@ -13,7 +13,7 @@ namespace reachwise::report::detail {
 
 namespace {
 
-constexpr double kWidth = 620, kLeft = 64, kRight = 64, kTop = 40, kPlotHeight = 220;
+constexpr double kWidth = 620, kLeastLeft = 64, kLeastRight = 64, kTop = 40, kPlotHeight = 220;
 constexpr double kLegendRow = 18;
 
 constexpr Rgb kInflowColour{0.902, 0.624, 0.000};   // the hydrographs' first series colour (Okabe & Ito)
@@ -99,13 +99,16 @@ void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig) {
   cairo_t* cr = canvas.cr();
 
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-  drawText(cr, 12, 22, fig.title, 14, Align::Left, true);
+  drawTitle(cr, fig.title, kWidth);
 
-  const double x1 = kWidth - kRight, y0 = kTop + kPlotHeight;
+  const Axis qa = dischargeAxis(fig), la = levelAxis(fig);
+  // Room for the widest tick label of each axis beside its rotated title.
+  const double left = plotLeft(valueLabelWidth(cr, qa.lo, qa.hi, qa.step), kLeastLeft);
+  const double right = std::max(kLeastRight, 7 + valueLabelWidth(cr, la.lo, la.hi, la.step) + 6 + 22);
+  const double x1 = kWidth - right, y0 = kTop + kPlotHeight;
   const double t0 = static_cast<double>(fig.start_unix_s);
   const double t1 = t0 + static_cast<double>(fig.steps > 1 ? fig.steps - 1 : 1) * fig.dt_s;
-  const TimeScale ts{t0, t1, kLeft, x1, fig.utc_offset_min};
-  const Axis qa = dischargeAxis(fig), la = levelAxis(fig);
+  const TimeScale ts{t0, t1, left, x1, fig.utc_offset_min};
   const auto qpix = [&](double q) { return y0 - (q - qa.lo) / (qa.hi - qa.lo) * kPlotHeight; };
   const auto lpix = [&](double h) { return y0 - (h - la.lo) / (la.hi - la.lo) * kPlotHeight; };
 
@@ -114,11 +117,11 @@ void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig) {
   for (double q = qa.lo; q <= qa.hi + qa.step * 1e-6; q += qa.step) {
     const double y = std::round(qpix(q)) + 0.5;
     cairo_set_source_rgb(cr, 0.9, 0.9, 0.9);
-    cairo_move_to(cr, kLeft, y);
+    cairo_move_to(cr, left, y);
     cairo_line_to(cr, x1, y);
     cairo_stroke(cr);
     cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
-    drawText(cr, kLeft - 6, y + 4, tickLabel(q, qa.step), 11, Align::Right);
+    drawText(cr, left - 6, y + 4, tickLabel(q, qa.step), 11, Align::Right);
   }
   for (double h = la.lo; h <= la.hi + la.step * 1e-6; h += la.step) {
     const double y = std::round(lpix(h)) + 0.5;
@@ -128,11 +131,11 @@ void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig) {
     cairo_stroke(cr);
     drawText(cr, x1 + 7, y + 4, tickLabel(h, la.step), 11, Align::Left);
   }
-  drawTimeAxis(cr, ts, y0, kTop);
+  drawTimeAxis(cr, ts, y0, kTop, kWidth);
   cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
-  cairo_rectangle(cr, kLeft + 0.5, kTop + 0.5, x1 - kLeft - 1, kPlotHeight - 1);
+  cairo_rectangle(cr, left + 0.5, kTop + 0.5, x1 - left - 1, kPlotHeight - 1);
   cairo_stroke(cr);
-  drawText(cr, (kLeft + x1) / 2, y0 + 48, "time (" + offsetName(fig.utc_offset_min) + ")", 11, Align::Centre);
+  drawText(cr, (left + x1) / 2, y0 + 48, "time (" + offsetName(fig.utc_offset_min) + ")", 11, Align::Centre);
   cairo_save(cr);
   cairo_translate(cr, 16, kTop + kPlotHeight / 2);
   cairo_rotate(cr, -M_PI / 2);
@@ -147,7 +150,7 @@ void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig) {
 
   // The crest, then the series, then the peaks on top.
   cairo_save(cr);
-  cairo_rectangle(cr, kLeft, kTop, x1 - kLeft, kPlotHeight);
+  cairo_rectangle(cr, left, kTop, x1 - left, kPlotHeight);
   cairo_clip(cr);
   if (crest) {
     const double y = lpix(fig.crest_level);
@@ -155,7 +158,7 @@ void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig) {
     cairo_set_line_width(cr, 1.2);
     const double dots[] = {2.0, 2.0};
     cairo_set_dash(cr, dots, 2, 0);
-    cairo_move_to(cr, kLeft, y);
+    cairo_move_to(cr, left, y);
     cairo_line_to(cr, x1, y);
     cairo_stroke(cr);
     cairo_set_dash(cr, nullptr, 0, 0);
@@ -209,11 +212,11 @@ void drawLakeChart(const std::filesystem::path& file, const LakeFigure& fig) {
   for (const Row& r : legend) label_w = std::max(label_w, textWidth(cr, r.label, 11.5, true) + 12);
   double y = y0 + 58 + 10;
   for (const Row& r : legend) {
-    legendLine(cr, kLeft, y, r.colour, r.width + 0.4, r.dashed, r.dotted);
+    legendLine(cr, left, y, r.colour, r.width + 0.4, r.dashed, r.dotted);
     cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-    drawText(cr, kLeft + 34, y, r.label, 11.5, Align::Left, true);
+    drawText(cr, left + 34, y, r.label, 11.5, Align::Left, true);
     cairo_set_source_rgb(cr, 0.25, 0.25, 0.25);
-    drawText(cr, kLeft + 34 + label_w, y, r.value, 11.5);
+    drawText(cr, left + 34 + label_w, y, r.value, 11.5);
     y += kLegendRow;
   }
   canvas.finish();

@@ -22,10 +22,21 @@ constexpr Rgb kGaugeFill{0.835, 0.369, 0.000}, kGaugeLabel{0.50, 0.20, 0.00};  /
 constexpr double kMargin = 10, kLegendRow = 84;
 constexpr double kMaxPlotWidth = 940, kMaxPlotHeight = 760, kMinPlotWidth = 540, kMinPlotHeight = 360;
 
-struct Box {
-  double x0, y0, x1, y1;
-  bool overlaps(const Box& o) const { return x0 < o.x1 && o.x0 < x1 && y0 < o.y1 && o.y0 < y1; }
-};
+using layout::Box;
+
+constexpr Rgb kBifurcationFill{0.800, 0.475, 0.655};  // Okabe & Ito reddish purple
+constexpr double kTitle = 26;       // the title's strip above the map
+constexpr double kSmallLake = 8;    // px: a lake smaller than this both ways also gets a dot
+
+/// The box of a label (text plus its halo) whose text starts at x with
+/// its baseline at y, and back.
+Box haloBox(double x, double baseline, double width, double size) {
+  const Box t = layout::textBox(x, baseline, width, size);
+  return {t.x0 - 1.5, t.y0 - 1.5, t.x1 + 1.5, t.y1 + 1.5};
+}
+void drawInBox(cairo_t* cr, const Box& b, std::string_view text, double size, Rgb colour) {
+  drawHaloText(cr, b.x0 + 1.5, b.y1 - 1.5 - 0.25 * size, text, size, true, colour);
+}
 
 /// Position in [0, 1] of a value on the colour scale.
 struct ValueScale {
@@ -170,6 +181,16 @@ void drawMarker(cairo_t* cr, MapMarker::Kind kind, double x, double y) {
       cairo_fill_preserve(cr);
       cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
       break;
+    case MapMarker::Kind::Bifurcation:  // a diamond: one reach splits
+      cairo_move_to(cr, x, y - 6);
+      cairo_line_to(cr, x + 6, y);
+      cairo_line_to(cr, x, y + 6);
+      cairo_line_to(cr, x - 6, y);
+      cairo_close_path(cr);
+      setColour(cr, kBifurcationFill);
+      cairo_fill_preserve(cr);
+      cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+      break;
   }
   cairo_stroke(cr);
 }
@@ -187,13 +208,29 @@ void drawGaugeMarker(cairo_t* cr, double x, double y) {
   cairo_stroke(cr);
 }
 
-void drawMarkerLegend(cairo_t* cr, double x, double y, bool lakes, bool gauges) {
+/// A lake too small to see at the map's scale: a dot in the lakes' colours.
+void drawLakeDot(cairo_t* cr, double x, double y) {
+  cairo_arc(cr, x, y, 4.5, 0, 2 * M_PI);
+  setColour(cr, kLakeFill);
+  cairo_fill_preserve(cr);
+  setColour(cr, kLakeEdge);
+  cairo_set_line_width(cr, 1.4);
+  cairo_stroke(cr);
+}
+
+/// Rows of the symbol legend (its height is 18 px a row below its heading).
+int markerLegendRows(bool bifurcations, bool lakes, bool gauges) {
+  return 3 + (bifurcations ? 1 : 0) + (lakes ? 1 : 0) + (gauges ? 1 : 0);
+}
+
+void drawMarkerLegend(cairo_t* cr, double x, double y, bool bifurcations, bool lakes, bool gauges) {
   cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
   drawText(cr, x, y, lakes ? "nodes and lakes" : "nodes", 12, Align::Left, true);
-  const std::pair<MapMarker::Kind, const char*> items[] = {
+  std::vector<std::pair<MapMarker::Kind, const char*>> items = {
       {MapMarker::Kind::Outlet, "outlet"},
       {MapMarker::Kind::MajorConfluence, "confluence with hydrograph"},
       {MapMarker::Kind::Confluence, "other confluence"}};
+  if (bifurcations) items.push_back({MapMarker::Kind::Bifurcation, "bifurcation (the flow splits)"});
   double yy = y + 18;
   for (const auto& [kind, text] : items) {
     drawMarker(cr, kind, x + 7, yy - 4);
@@ -202,14 +239,15 @@ void drawMarkerLegend(cairo_t* cr, double x, double y, bool lakes, bool gauges) 
     yy += 18;
   }
   if (lakes) {
-    cairo_rectangle(cr, x + 1.5, yy - 9.5, 11, 10);
+    cairo_rectangle(cr, x - 1.5, yy - 9.5, 9, 10);
     setColour(cr, kLakeFill);
     cairo_fill_preserve(cr);
     setColour(cr, kLakeEdge);
     cairo_set_line_width(cr, 1);
     cairo_stroke(cr);
+    drawLakeDot(cr, x + 13, yy - 4.5);
     cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
-    drawText(cr, x + 20, yy, "lake or reservoir", 11);
+    drawText(cr, x + 24, yy, "lake or reservoir (a dot when small)", 11);
     yy += 18;
   }
   if (!gauges) return;
@@ -257,7 +295,7 @@ void drawNorthArrow(cairo_t* cr, double x, double y) {
 
 }  // namespace
 
-double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format) {
+MapDrawn drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFormat format) {
   double xmin = INFINITY, xmax = -INFINITY, ymin = INFINITY, ymax = -INFINITY;
   for (const MapLine& l : map.lines)
     for (const auto& p : *l.line) {
@@ -278,44 +316,54 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
   if (!(xmax >= xmin)) xmin = 0, xmax = 1, ymin = 0, ymax = 1;
   const double dx = std::max((xmax - xmin) * map.aspect_x, 1e-9), dy = std::max(ymax - ymin, 1e-9);
   // The map takes the network's shape within kMaxPlot; a tall network gets
-  // a narrow map, so that the page can put the outlet hydrograph beside it.
+  // a narrow map, so that the page can put the outlets beside it.
   const double pad = 28;  // room for markers and labels at the edge
   const double s = std::min((kMaxPlotWidth - 2 * pad) / dx, (kMaxPlotHeight - 2 * pad) / dy);
   const double pw = std::max(dx * s + 2 * pad, kMinPlotWidth), ph = std::max(dy * s + 2 * pad, kMinPlotHeight);
+  const double top = kMargin + kTitle;
   const double cx = (xmin + xmax) / 2, cy = (ymin + ymax) / 2;
   const auto X = [&](double x) { return kMargin + pw / 2 + (x - cx) * map.aspect_x * s; };
-  const auto Y = [&](double y) { return kMargin + ph / 2 - (y - cy) * s; };
+  const auto Y = [&](double y) { return top + ph / 2 - (y - cy) * s; };
 
-  // Legend blocks flow left to right and wrap below the map.
-  const double block_w[] = {300, 200, 230};
-  double bx[3], by[3], cursor = kMargin + 10, row_y = kMargin + ph + 28;
+  // Legend blocks flow left to right and wrap below the map; the symbol
+  // legend, the tallest, comes last.
+  const double block_w[] = {290, 160, 230};
+  double bx[3], by[3], cursor = kMargin + 10, row_y = top + ph + 28;
   for (int b = 0; b < 3; ++b) {
     if (cursor + block_w[b] > kMargin + pw && cursor > kMargin + 10) cursor = kMargin + 10, row_y += kLegendRow;
     bx[b] = cursor, by[b] = row_y;
     cursor += block_w[b] + 10;
   }
   const bool lakes = !map.lakes.empty(), gauges = !map.gauges.empty();
+  const bool bifurcations = std::any_of(map.markers.begin(), map.markers.end(),
+                                        [](const MapMarker& m) { return m.kind == MapMarker::Kind::Bifurcation; });
   const double width = pw + 2 * kMargin,
-               height = row_y + kLegendRow - 16 + (lakes ? 18 : 0) + (gauges ? 18 : 0);
+               height = row_y + std::max(44.0, 18.0 * markerLegendRows(bifurcations, lakes, gauges)) + 12;
 
   Canvas canvas(file, width, height, format);
   cairo_t* cr = canvas.cr();
+  drawTitle(cr, map.title, width);
   cairo_set_source_rgb(cr, 0.975, 0.975, 0.965);
-  cairo_rectangle(cr, kMargin, kMargin, pw, ph);
+  cairo_rectangle(cr, kMargin, top, pw, ph);
   cairo_fill(cr);
 
   // Lakes under the rivers (a reach may run into a reservoir's outline).
   cairo_set_fill_rule(cr, CAIRO_FILL_RULE_EVEN_ODD);  // holes stay open
+  std::vector<Box> lake_box;
   for (const MapLake& l : map.lakes) {
+    Box b{INFINITY, INFINITY, -INFINITY, -INFINITY};
     for (const auto& ring : *l.rings) {
       if (ring.size() < 3) continue;
       bool first = true;
       for (const auto& p : ring) {
         (first ? cairo_move_to : cairo_line_to)(cr, X(p.x), Y(p.y));
         first = false;
+        b.x0 = std::min(b.x0, X(p.x)), b.x1 = std::max(b.x1, X(p.x));
+        b.y0 = std::min(b.y0, Y(p.y)), b.y1 = std::max(b.y1, Y(p.y));
       }
       cairo_close_path(cr);
     }
+    lake_box.push_back(b);
     setColour(cr, kLakeFill);
     cairo_fill_preserve(cr);
     setColour(cr, kLakeEdge);
@@ -349,113 +397,105 @@ double drawMap(const std::filesystem::path& file, const MapFigure& map, ImageFor
     cairo_stroke(cr);
   }
 
-  // Markers (minor first), then labels placed where they collide with no
-  // marker and no other label.
-  std::vector<Box> taken;
-  for (const auto kind : {MapMarker::Kind::Confluence, MapMarker::Kind::MajorConfluence, MapMarker::Kind::Outlet})
+  // Symbols (minor first), each but the minor confluences an obstacle to
+  // every label; a lake too small to see gets a dot on top of the rivers.
+  const Box frame{kMargin, top, kMargin + pw, top + ph};
+  layout::LabelPlacer placer(frame);
+  placer.block({kMargin + pw - 36, top + 6, kMargin + pw - 12, top + 56});  // the north arrow
+  std::vector<network::Point2> lake_anchor;
+  for (std::size_t i = 0; i < map.lakes.size(); ++i) {
+    lake_anchor.push_back(lakeAnchor(*map.lakes[i].rings));
+    const Box& b = lake_box[i];
+    if (!std::isfinite(lake_anchor[i].x) || !(b.x1 - b.x0 < kSmallLake && b.y1 - b.y0 < kSmallLake)) continue;
+    const double x = X(lake_anchor[i].x), y = Y(lake_anchor[i].y);
+    drawLakeDot(cr, x, y);
+    lake_box[i] = {std::min(b.x0, x - 5), std::min(b.y0, y - 5), std::max(b.x1, x + 5), std::max(b.y1, y + 5)};
+    placer.block(lake_box[i]);
+  }
+  for (const auto kind : {MapMarker::Kind::Confluence, MapMarker::Kind::Bifurcation,
+                          MapMarker::Kind::MajorConfluence, MapMarker::Kind::Outlet})
     for (const MapMarker& m : map.markers) {
       if (m.kind != kind) continue;
       const double x = X(m.x), y = Y(m.y);
       drawMarker(cr, kind, x, y);
-      if (kind != MapMarker::Kind::Confluence) taken.push_back({x - 6, y - 6, x + 6, y + 6});
+      if (kind != MapMarker::Kind::Confluence) placer.block({x - 6, y - 6, x + 6, y + 6});
     }
   for (const MapGauge& g : map.gauges) {
     const double x = X(g.x), y = Y(g.y);
     drawGaugeMarker(cr, x, y);
-    taken.push_back({x - 6, y - 7, x + 6, y + 5});
+    placer.block({x - 6, y - 7, x + 6, y + 5});
   }
-  const Box frame{kMargin, kMargin, kMargin + pw, kMargin + ph};
-  for (const MapMarker& m : map.markers) {
-    if (m.label.empty()) continue;
-    const double x = X(m.x), y = Y(m.y), size = 11.5;
-    const double w = textWidth(cr, m.label, size, true), h = 12;
-    const std::pair<double, double> tries[] = {{9, 4},          {-9 - w, 4},      {-w / 2, -10},    {-w / 2, 18},
-                                               {9, -8},         {9, 16},          {-9 - w, -8},     {-9 - w, 16},
-                                               {16, 4},         {-16 - w, 4},     {-w / 2, -20},    {-w / 2, 28}};
-    Box chosen{x + 9, y + 4 - h, x + 9 + w, y + 4};
-    for (const auto& [ox, oy] : tries) {
-      const Box b{x + ox - 1, y + oy - h, x + ox + w + 1, y + oy + 2};
-      const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
-      if (!inside || std::any_of(taken.begin(), taken.end(), [&](const Box& o) { return o.overlaps(b); }))
-        continue;
-      chosen = b;
-      break;
+
+  // Node labels by priority, highest first: each takes the first free
+  // place around its symbol, or is left out (the page's tables list them).
+  MapDrawn drawn;
+  std::vector<const MapMarker*> labelled;
+  for (const MapMarker& m : map.markers)
+    if (!m.label.empty()) labelled.push_back(&m);
+  std::stable_sort(labelled.begin(), labelled.end(),
+                   [](const MapMarker* a, const MapMarker* b) { return a->priority > b->priority; });
+  for (const MapMarker* m : labelled) {
+    constexpr double size = 11.5;
+    const double w = textWidth(cr, m->label, size, true);
+    const Box shape = haloBox(0, 0, w, size);
+    const auto tries = layout::pointLabelCandidates(X(m->x), Y(m->y), shape.x1 - shape.x0, shape.y1 - shape.y0, 7);
+    if (const auto b = placer.place(tries)) {
+      drawInBox(cr, *b, m->label, size, {0.1, 0.1, 0.1});
+      drawn.labels.push_back(m->label);
     }
-    taken.push_back(chosen);
-    drawHaloText(cr, chosen.x0 + 1, chosen.y1 - 2, m.label, size, true);
   }
   // Gauge labels after the nodes', in the figure's order of priority; a
   // label with no free place is left out (the gauge's panel and the
   // table name it).
   for (const MapGauge& g : map.gauges) {
     if (g.label.empty()) continue;
-    const double x = X(g.x), y = Y(g.y), size = 11;
-    const double w = textWidth(cr, g.label, size, true), h = 12;
-    const std::pair<double, double> tries[] = {{9, 12},  {-9 - w, 12}, {9, -4},       {-9 - w, -4},
-                                               {-w / 2, -10}, {-w / 2, 20}, {14, 4}, {-14 - w, 4}};
-    for (const auto& [ox, oy] : tries) {
-      const Box b{x + ox - 1, y + oy - h, x + ox + w + 1, y + oy + 2};
-      const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
-      if (!inside || std::any_of(taken.begin(), taken.end(), [&](const Box& o) { return o.overlaps(b); }))
-        continue;
-      taken.push_back(b);
-      drawHaloText(cr, x + ox, y + oy, g.label, size, true, kGaugeLabel);
-      break;
-    }
+    constexpr double size = 11;
+    const double w = textWidth(cr, g.label, size, true);
+    const Box shape = haloBox(0, 0, w, size);
+    const auto tries = layout::pointLabelCandidates(X(g.x), Y(g.y), shape.x1 - shape.x0, shape.y1 - shape.y0, 7);
+    if (const auto b = placer.place(tries)) drawInBox(cr, *b, g.label, size, kGaugeLabel);
   }
   // Lake labels after the nodes' (which they must not hide), in the
   // figure's order of priority: on the lake, else beside its outline; a
   // label with no free place is left out (the lake's panel names it).
   // A label covers no other lake either (the outlines' boxes, in pixels).
-  std::vector<Box> lake_box;
-  for (const MapLake& l : map.lakes) {
-    Box b{INFINITY, INFINITY, -INFINITY, -INFINITY};
-    for (const auto& ring : *l.rings)
-      for (const auto& p : ring) {
-        b.x0 = std::min(b.x0, X(p.x)), b.x1 = std::max(b.x1, X(p.x));
-        b.y0 = std::min(b.y0, Y(p.y)), b.y1 = std::max(b.y1, Y(p.y));
-      }
-    lake_box.push_back(b);
-  }
   for (std::size_t i = 0; i < map.lakes.size(); ++i) {
     const MapLake& l = map.lakes[i];
-    if (l.label.empty()) continue;
-    const network::Point2 a = lakeAnchor(*l.rings);
-    if (!std::isfinite(a.x)) continue;
+    if (l.label.empty() || !std::isfinite(lake_anchor[i].x)) continue;
     const double bx0 = lake_box[i].x0, bx1 = lake_box[i].x1, by0 = lake_box[i].y0, by1 = lake_box[i].y1;
-    const double size = 11.5, w = textWidth(cr, l.label, size, true), h = 12;
-    const double ax = X(a.x), ay = Y(a.y);
+    constexpr double size = 11.5;
+    const double w = textWidth(cr, l.label, size, true);
+    const double ax = X(lake_anchor[i].x), ay = Y(lake_anchor[i].y);
     // Left x and baseline y of each place tried: on the lake when the label
     // fits inside its outline's box, else beside the outline (a label on a
     // small lake would hide it).
-    const bool fits = w + 4 <= bx1 - bx0 && h + 4 <= by1 - by0;
-    const std::pair<double, double> tries[] = {{ax - w / 2, ay + 4},   {bx1 + 5, ay + 4},     {bx0 - 5 - w, ay + 4},
-                                               {ax - w / 2, by0 - 5},  {ax - w / 2, by1 + 14}, {bx1 + 5, by0 - 3},
-                                               {bx0 - 5 - w, by0 - 3}, {bx1 + 5, by1 + 12},   {bx0 - 5 - w, by1 + 12}};
-    for (std::size_t t = fits ? 0 : 1; t < std::size(tries); ++t) {
-      const auto [lx, ly] = tries[t];
-      const Box b{lx - 1, ly - h, lx + w + 1, ly + 2};
-      const bool inside = b.x0 >= frame.x0 && b.x1 <= frame.x1 && b.y0 >= frame.y0 && b.y1 <= frame.y1;
-      const auto hits = [&](const Box& o) { return o.overlaps(b); };
-      bool free = inside && std::none_of(taken.begin(), taken.end(), hits);
-      for (std::size_t j = 0; free && j < lake_box.size(); ++j) free = j == i || !hits(lake_box[j]);
-      if (!free) continue;
-      taken.push_back(b);
-      drawHaloText(cr, lx, ly, l.label, size, true, kLakeLabel);
-      break;
-    }
+    const bool fits = w + 4 <= bx1 - bx0 && size + 4 <= by1 - by0;
+    const std::pair<double, double> places[] = {
+        {ax - w / 2, ay + 4},   {bx1 + 5, ay + 4},      {bx0 - 5 - w, ay + 4},  {ax - w / 2, by0 - 5},
+        {ax - w / 2, by1 + 14}, {bx1 + 5, by0 - 3},     {bx0 - 5 - w, by0 - 3}, {bx1 + 5, by1 + 12},
+        {bx0 - 5 - w, by1 + 12}};
+    std::vector<Box> tries;
+    for (std::size_t t = fits ? 0 : 1; t < std::size(places); ++t)
+      tries.push_back(haloBox(places[t].first, places[t].second, w, size));
+    std::vector<Box> others;
+    for (std::size_t j = 0; j < lake_box.size(); ++j)
+      if (j != i) others.push_back(lake_box[j]);
+    if (const auto b = placer.place(tries, others)) drawInBox(cr, *b, l.label, size, kLakeLabel);
   }
-  drawNorthArrow(cr, kMargin + pw - 24, kMargin + 12);
+  drawn.label_boxes = placer.placed();
+  drawNorthArrow(cr, kMargin + pw - 24, top + 12);
   cairo_set_source_rgb(cr, 0.55, 0.55, 0.55);
   cairo_set_line_width(cr, 1);
-  cairo_rectangle(cr, kMargin + 0.5, kMargin + 0.5, pw - 1, ph - 1);
+  cairo_rectangle(cr, kMargin + 0.5, top + 0.5, pw - 1, ph - 1);
   cairo_stroke(cr);
 
   drawColourLegend(cr, map, vs, bx[0], by[0]);
   drawScaleBar(cr, map, s * map.aspect_x, bx[1], by[1]);
-  drawMarkerLegend(cr, bx[2], by[2], lakes, gauges);
+  drawMarkerLegend(cr, bx[2], by[2], bifurcations, lakes, gauges);
   canvas.finish();
-  return width;
+  drawn.width = width;
+  drawn.height = height;
+  return drawn;
 }
 
 }  // namespace reachwise::report::detail

@@ -83,8 +83,10 @@ detail::ReportModel chooseContents(const ReportInputs& in, const ReportSeries& s
   m.units.us = in.us_units;
   m.utc_offset_min = in.results.axis.utc_offset_min;
   m.outlet_count = series.outletCount();
-  for (const auto& n : in.results.nodes)
+  for (const auto& n : in.results.nodes) {
     if (n.kind == routing::NodeKind::Confluence) ++m.confluence_count;
+    if (n.kind == routing::NodeKind::Bifurcation) ++m.bifurcation_count;
+  }
 
   // The captured confluences, found by node id, ranked by combined peak.
   std::unordered_map<std::string, std::uint32_t> wanted;
@@ -106,6 +108,16 @@ detail::ReportModel chooseContents(const ReportInputs& in, const ReportSeries& s
     return (std::isnan(x) ? -INFINITY : x) > (std::isnan(y) ? -INFINITY : y);
   });
   if (m.hydrograph_outlets.size() > detail::kShownOutlets) m.hydrograph_outlets.resize(detail::kShownOutlets);
+  // Every outlet for the table, by peak (ties by plan order).
+  for (std::uint32_t i = 0; i < in.plan.size(); ++i)
+    if (in.plan.isOutlet(i)) m.ranked_outlets.push_back(i);
+  const auto peak = [&](std::uint32_t i) {
+    const double q = in.results.reaches[i].peak_q_m3s;
+    return std::isnan(q) ? -INFINITY : q;
+  };
+  std::stable_sort(m.ranked_outlets.begin(), m.ranked_outlets.end(),
+                   [&](std::uint32_t a, std::uint32_t b) { return peak(a) > peak(b); });
+  if (m.ranked_outlets.size() > detail::kOutletTableRows) m.ranked_outlets.resize(detail::kOutletTableRows);
 
   // Lakes, the largest inflow peak first.
   for (std::size_t l = 0; l < in.lakes.size(); ++l) {

@@ -42,6 +42,7 @@ void crsScale(const network::ReachTable& table, double mid_lat, MapFigure& map) 
 
 MapFigure mapFigure(const ReportInputs& in, const ReportModel& m) {
   MapFigure map;
+  map.title = fmt::format("Peak discharge along the network ({})", m.units.q_unit());
   map.value_label = fmt::format("peak discharge ({})", m.units.q_unit());
   map.feet = m.units.us;
   const auto& plan = in.plan;
@@ -54,26 +55,36 @@ MapFigure mapFigure(const ReportInputs& in, const ReportModel& m) {
   }
   crsScale(in.table, std::isfinite(ymin) ? (ymin + ymax) / 2 : 0.0, map);
 
-  // Every confluence and outlet while they stay legible; on very large
-  // networks only those the report draws hydrographs for.
+  // Every confluence, bifurcation and outlet while they stay legible; on
+  // very large networks only those the report draws hydrographs for.
+  // Labels (outlets and the confluences with hydrographs) are placed by
+  // peak discharge, largest first; a label with no free place is left out
+  // and the page's tables say which are on the map.
   constexpr std::size_t kMaxMarkers = 5000;
   std::vector<bool> major(in.results.nodes.size(), false);
   for (const std::size_t k : m.hydrograph_confluences) major[k] = true;
   std::vector<bool> shown_outlet(plan.size(), false);
   for (const std::uint32_t o : m.hydrograph_outlets) shown_outlet[o] = true;
   const bool all_confluences = m.confluence_count <= kMaxMarkers;
+  const bool all_bifurcations = m.bifurcation_count <= kMaxMarkers;
   const bool all_outlets = m.outlet_count <= kMaxMarkers;
+  const bool label_all_outlets = m.outlet_count <= kLabelAllOutlets;
+  const auto priority = [](double q) { return std::isfinite(q) ? q : -INFINITY; };
   for (std::size_t k = 0; k < in.results.nodes.size(); ++k) {
     const auto& n = in.results.nodes[k];
     if (!std::isfinite(n.x) || !std::isfinite(n.y)) continue;
     if (n.kind == routing::NodeKind::Confluence && (major[k] || all_confluences))
       map.markers.push_back({n.x, n.y, major[k] ? MapMarker::Kind::MajorConfluence : MapMarker::Kind::Confluence,
-                             major[k] ? n.node_id : std::string()});
+                             major[k] ? n.node_id : std::string(), priority(m.units.q(n.peak_q_m3s))});
+    if (n.kind == routing::NodeKind::Bifurcation && all_bifurcations)
+      map.markers.push_back({n.x, n.y, MapMarker::Kind::Bifurcation, std::string(), 0});
   }
   for (std::uint32_t i = 0; i < plan.size(); ++i) {
     if (!plan.isOutlet(i) || !(shown_outlet[i] || all_outlets)) continue;
+    const bool label = shown_outlet[i] || label_all_outlets;
     map.markers.push_back({plan.bottom[i].x, plan.bottom[i].y, MapMarker::Kind::Outlet,
-                           shown_outlet[i] ? "O:" + plan.reach_id[i] : std::string()});
+                           label ? "O:" + plan.reach_id[i] : std::string(),
+                           priority(m.units.q(in.results.reaches[i].peak_q_m3s))});
   }
   // Every lake's outline; labels by priority (the largest inflow first),
   // all of them while they stay legible, else those with a panel.
@@ -272,49 +283,70 @@ GaugeFigure gaugeFigure(const ReportInputs& in, const ReportModel& m, std::size_
 void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, const ReportSeries& series,
                  ReportModel& m) {
   const bool png = in.plan.size() > in.svg_map_max_reaches;
-  m.map = {png ? "map.png" : "map.svg",
-           fmt::format("Reaches coloured and widened by peak discharge ({}); node labels are the ids of the "
-                       "GeoPackage's nodes layer{}.",
-                       m.units.q_unit(),
-                       std::string(in.lakes.empty() ? "" : "; lakes and reservoirs in light blue, labelled with their ids") +
-                           (in.gauges.empty() ? "" : "; gauges as triangles, labelled with their ids")),
-           0, true};
-  m.map.width_px = drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
+  const std::string q_unit = m.units.q_unit(), when = "time in " + offsetName(m.utc_offset_min);
+  m.map.file = png ? "map.png" : "map.svg";
+  m.map.caption = "Peak discharge along the network";
+  m.map.note = fmt::format(
+      "Reaches coloured and widened by peak discharge ({}); outlets as squares, confluences as circles{}{}{}. "
+      "Labels are placed by peak discharge, largest first, where they cover no symbol and no other label; the "
+      "tables list every outlet and major confluence and say which the map labels. Node labels are the ids of "
+      "the GeoPackage's nodes layer.",
+      q_unit, m.bifurcation_count ? ", bifurcations as diamonds" : "",
+      in.lakes.empty() ? "" : "; lakes and reservoirs in light blue (a dot where too small to see), labelled with "
+                              "their ids",
+      in.gauges.empty() ? "" : "; gauges as triangles, labelled with their ids");
+  const MapDrawn drawn = drawMap(folder / m.map.file, mapFigure(in, m), png ? ImageFormat::Png : ImageFormat::Svg);
+  m.map.width_px = drawn.width;
+  m.map.height_px = drawn.height;
+  m.map_labels.insert(drawn.labels.begin(), drawn.labels.end());
 
   for (std::size_t k = 0; k < m.hydrograph_outlets.size(); ++k) {
     const std::uint32_t o = m.hydrograph_outlets[k];
     if (!series.has(o)) continue;
-    FigureFile f{fmt::format("outlet-{}.svg", k + 1), "Outlet O:" + in.plan.reach_id[o], 620};
+    FigureFile f{fmt::format("outlet-{}.svg", k + 1), "Outlet O:" + in.plan.reach_id[o], 620,
+                 fmt::format("Outflow of reach {} and its inflow peak; discharge in {}, {}.", in.plan.reach_id[o],
+                             q_unit, when)};
     drawHydrograph(folder / f.file, reachFigure(in, series, m, o, f.caption));
     m.outlet_figures.push_back(std::move(f));
+    m.outlet_figure_reaches.push_back(o);
   }
   for (std::size_t k = 0; k < series.named().size(); ++k) {
     const std::uint32_t r = series.named()[k];
     if (!series.has(r)) continue;
-    FigureFile f{fmt::format("reach-{}.svg", k + 1), "Reach " + in.plan.reach_id[r], 620};
+    FigureFile f{fmt::format("reach-{}.svg", k + 1), "Reach " + in.plan.reach_id[r], 620,
+                 fmt::format("Outflow of reach {} and its inflow peak; discharge in {}, {}.", in.plan.reach_id[r],
+                             q_unit, when)};
     drawHydrograph(folder / f.file, reachFigure(in, series, m, r, f.caption));
     m.reach_figures.push_back(std::move(f));
   }
   for (std::size_t k = 0; k < m.hydrograph_confluences.size(); ++k) {
     const auto& node = in.results.nodes[m.hydrograph_confluences[k]];
-    FigureFile f{fmt::format("confluence-{}.svg", k + 1), "Confluence " + node.node_id, 620};
+    FigureFile f{fmt::format("confluence-{}.svg", k + 1), "Confluence " + node.node_id, 620,
+                 fmt::format("Each incoming branch, their sum and the outflow below; discharge in {}, {}.", q_unit,
+                             when)};
     drawHydrograph(folder / f.file, confluenceFigure(in, series, m, node, leavingReach(series, node.node_id)));
     m.confluence_figures.push_back(std::move(f));
   }
   for (std::size_t k = 0; k < std::min(m.shown_lakes.size(), kShownLakes); ++k) {
     const std::size_t l = m.shown_lakes[k];
-    FigureFile f{fmt::format("lake-{}.svg", k + 1), "Lake " + in.lakes[l].lake->lake_id, 620};
+    FigureFile f{fmt::format("lake-{}.svg", k + 1), "Lake " + in.lakes[l].lake->lake_id, 620,
+                 fmt::format("Inflow and outflow in {} (left axis), level in {} (right axis), {}.", q_unit,
+                             m.units.len_unit(), when)};
     drawLakeChart(folder / f.file, lakeFigure(in, m, l));
     m.lake_figures.push_back(std::move(f));
   }
   for (std::size_t k = 0; k < std::min(m.shown_gauges.size(), kShownGauges); ++k) {
     const std::size_t gi = m.shown_gauges[k];
-    FigureFile f{fmt::format("gauge-{}.svg", k + 1), "Gauge " + in.gauges[gi].gauge_id, 620};
+    FigureFile f{fmt::format("gauge-{}.svg", k + 1), "Gauge " + in.gauges[gi].gauge_id, 620,
+                 fmt::format("Observed and simulated discharge in {}, {}.", q_unit, when)};
     drawGaugeChart(folder / f.file, gaugeFigure(in, m, gi));
     m.gauge_figures.push_back(std::move(f));
   }
   if (m.timing_confluences.empty()) return;  // the page says there are none
-  m.timing = {"timing.svg", "Branch peak times at the confluences with the largest combined peaks.", 960, true};
+  m.timing = {"timing.svg", "Branch peak times at the major confluences", 960,
+              fmt::format("Each branch's peak time ({}) at the confluences with the largest combined peaks; "
+                          "combined peaks in {}.",
+                          offsetName(m.utc_offset_min), q_unit)};
   drawTiming(folder / m.timing.file, timingFigure(in, m));
 }
 

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdint>
 #include <filesystem>
+#include <set>
 #include <string>
 #include <vector>
 
@@ -29,9 +30,11 @@ struct DisplayUnits {
 /// A figure file of the report and what it shows.
 struct FigureFile {
   std::string file;      ///< name inside the report folder
-  std::string caption;
+  std::string caption;   ///< the figure's title (also drawn in the image)
   double width_px = 0;   ///< layout width (the HTML shows it at most this wide)
-  bool show_caption = false;  ///< else the caption is only the image's alt text
+  /// What the figure shows and in which units, under the title.
+  std::string note;
+  double height_px = 0;  ///< layout height, where known
 };
 
 /// One routed lake's numbers, as the `lakes` layer of the GeoPackage
@@ -52,9 +55,17 @@ struct ReportModel {
   std::vector<std::size_t> hydrograph_confluences, timing_confluences;
   /// Outlet reaches (plan index) drawn as hydrographs, by peak, largest first.
   std::vector<std::uint32_t> hydrograph_outlets;
-  std::size_t outlet_count = 0, confluence_count = 0;
+  /// Every outlet (plan index) by peak, largest first, at most
+  /// kOutletTableRows: the outlet table's rows.
+  std::vector<std::uint32_t> ranked_outlets;
+  std::size_t outlet_count = 0, confluence_count = 0, bifurcation_count = 0;
+  /// Texts of the node labels the map could place ("O:<reach>" for an
+  /// outlet, the node id for a confluence).
+  std::set<std::string> map_labels;
   FigureFile map, timing;
   std::vector<FigureFile> outlet_figures, confluence_figures;
+  /// The outlet (plan index) of each of outlet_figures.
+  std::vector<std::uint32_t> outlet_figure_reaches;
   /// The reaches the user named (ReportSeries::named), in that order.
   std::vector<FigureFile> reach_figures;
   /// One entry per lake of ReportInputs::lakes; `shown_lakes` indexes them,
@@ -74,6 +85,10 @@ inline constexpr double kCoincidenceS = 3600;
 inline constexpr std::size_t kShownConfluences = 6;
 inline constexpr std::size_t kTimingConfluences = 12;
 inline constexpr std::size_t kShownOutlets = 12;
+/// Outlets labelled on the map (by priority, where a place is free): all
+/// of them up to this many, else only those with a panel.
+inline constexpr std::size_t kLabelAllOutlets = 200;
+inline constexpr std::size_t kOutletTableRows = 500;
 inline constexpr std::size_t kTableRows = 10;
 inline constexpr std::size_t kWorstVolumeRows = 5;
 inline constexpr std::size_t kShownLakes = 12;

@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cmath>
 #include <fstream>
+#include <map>
 #include <numeric>
 #include <set>
 #include <sstream>
@@ -63,10 +64,13 @@ figure img{width:100%;height:auto;border:1px solid #e3e3e3}
 figcaption{color:#555;font-size:13px}
 .row{display:flex;flex-wrap:wrap;gap:0 18px;align-items:flex-start}
 h3{font-size:16px;margin:8px 0 4px}
-.side{flex:1 1 540px;min-width:0;max-width:660px}
+.side{flex:1 1 380px;min-width:0;max-width:660px}
 .side table{font-size:13px}
 .side th,.side td{padding:3px 7px}
-.grid{display:grid;grid-template-columns:repeat(auto-fit,minmax(520px,1fr));gap:6px 18px}
+.grid{display:grid;grid-template-columns:repeat(auto-fill,minmax(min(100%,480px),1fr));gap:6px 18px}
+.scroll{overflow-y:auto;border:1px solid #e3e6ea}
+.scroll table{margin:0;width:100%}
+.scroll thead th{position:sticky;top:0}
 .grid figure{width:auto!important}
 table{border-collapse:collapse;font-size:14px;margin:6px 0 10px}
 th,td{border-bottom:1px solid #e3e6ea;padding:4px 10px;text-align:left;vertical-align:top}
@@ -194,34 +198,56 @@ private:
                                              worst.reach_id));
   }
 
-  void figure(const FigureFile& f, const std::string& alt) {
-    // The figure is as wide as its image (at most the page); the caption wraps under it.
-    out_ << "<figure style=\"width:" << num(f.width_px, 0) << "px\"><img src=\"" << esc(f.file) << "\" alt=\""
-         << esc(alt) << "\">";
-    if (f.show_caption && !f.caption.empty()) out_ << "<figcaption>" << esc(f.caption) << "</figcaption>";
-    out_ << "</figure>\n";
+  /// A figure with its title and what it shows (units) under it; `wide`:
+  /// as wide as the page (an SVG scales), else at most its own width.
+  void figure(const FigureFile& f, const std::string& alt, bool wide = false, const std::string& id = "") {
+    out_ << "<figure" << (id.empty() ? "" : " id=\"" + esc(id) + "\"") << " style=\"width:"
+         << (wide ? std::string("100%") : num(f.width_px, 0) + "px") << "\"><img src=\"" << esc(f.file)
+         << "\" alt=\"" << esc(alt) << "\"><figcaption><b>" << esc(f.caption) << "</b>"
+         << (f.note.empty() ? "" : ". " + esc(f.note)) << "</figcaption></figure>\n";
   }
 
   void figures() {
-    // A few outlets sit beside the map (a tall network leaves room there);
-    // many get their own grid below it.
-    const bool beside = m_.outlet_figures.size() <= 2;
+    // A narrow map (a tall network) leaves room beside it: for one or two
+    // outlets their panels, else the outlet table. A wide map takes the
+    // page's width and everything else goes below it.
+    constexpr double kNarrowMap = 780;  // leaves at least 414 px of the 1212 for the side column
+    const bool narrow = m_.map.width_px <= kNarrowMap;
+    const bool panels_beside = narrow && m_.outlet_count <= 2;
+    const bool table_beside = narrow && !panels_beside;
     const char* outlet_title = m_.outlet_count == 1 ? "Hydrograph at the outlet" : "Hydrographs at the outlets";
-    out_ << "<h2>Network" << (beside ? (m_.outlet_count == 1 ? " and outlet" : " and outlets") : "") << "</h2>\n";
+    out_ << "<h2>Network" << (panels_beside ? (m_.outlet_count == 1 ? " and outlet" : " and outlets") : "")
+         << "</h2>\n";
     out_ << "<div class=\"row\">\n";
-    figure(m_.map, "Map of the network coloured by peak discharge");
-    if (beside) {
-      out_ << "<div class=\"side\">\n<h3>" << outlet_title << "</h3>\n";
+    figure(m_.map, "Map of the network coloured by peak discharge", !narrow);
+    if (panels_beside) {
+      out_ << "<div class=\"side\">\n<h3>" << outlet_title << "</h3>\n<div id=\"outlet-panels\">\n";
       outletFigures();
+      out_ << "</div>\n";
+      outletTable();
       majorConfluences();
       out_ << "</div>\n";
+    } else if (table_beside) {
+      out_ << "<div class=\"side\">\n<h3>Outlets, largest peak first</h3>\n<div class=\"scroll\" style=\"max-height:"
+           << num(std::max(320.0, m_.map.height_px - 40), 0) << "px\">\n";
+      outletTable();
+      out_ << "</div>\n</div>\n";
     }
     out_ << "</div>\n";
-    if (!beside) majorConfluences();
-    if (!beside) {
-      out_ << "<h2>" << outlet_title << "</h2>\n<div class=\"grid\">\n";
+    if (!panels_beside) {
+      majorConfluences();
+      out_ << "<h2>" << outlet_title << "</h2>\n";
+      outletRanking(table_beside);
+      out_ << "<div class=\"grid\" id=\"outlet-panels\">\n";
       outletFigures();
       out_ << "</div>\n";
+      if (!table_beside) {
+        // A long list scrolls in a box as wide as the page.
+        const bool box = m_.ranked_outlets.size() > 20;
+        if (box) out_ << "<div class=\"scroll\" style=\"max-height:520px\">\n";
+        outletTable();
+        if (box) out_ << "</div>\n";
+      }
     }
     namedReaches();
     lakes();
@@ -243,6 +269,45 @@ private:
             "before the tributary's arrives.</p>\n";
     if (m_.timing.file.empty()) out_ << "<p>The network has no confluences.</p>\n";
     else figure(m_.timing, "Chart of branch peak times at the major confluences");
+  }
+
+  /// How the outlet panels and the outlet table are chosen and ordered.
+  void outletRanking(bool table_above) {
+    out_ << "<p>Outlets are ranked by peak discharge, largest first. ";
+    if (m_.outlet_figures.size() < m_.outlet_count)
+      out_ << "Panels for the " << m_.outlet_figures.size() << " with the largest peaks"
+           << (m_.outlet_count > ReportSeries::kMaxOutlets
+                   ? fmt::format(" among the {} with the largest upstream networks", ReportSeries::kMaxOutlets)
+                   : std::string())
+           << ", of " << m_.outlet_count << " outlets";
+    else
+      out_ << "A panel for each of the " << m_.outlet_count << " outlets";
+    out_ << "; the table " << (table_above ? "beside the map" : "below") << " lists "
+         << (m_.ranked_outlets.size() < m_.outlet_count
+                 ? fmt::format("the {} with the largest peaks", m_.ranked_outlets.size())
+                 : std::string("every outlet"))
+         << " with its peak, whether it has a panel and whether the map labels it; every outlet is in the "
+            "GeoPackage's <code>reaches</code> layer.</p>\n";
+  }
+
+  /// Every outlet (up to kOutletTableRows), largest peak first.
+  void outletTable() {
+    std::map<std::uint32_t, std::size_t> panel;  // outlet -> its panel's number
+    for (std::size_t k = 0; k < m_.outlet_figure_reaches.size(); ++k) panel[m_.outlet_figure_reaches[k]] = k + 1;
+    out_ << "<table id=\"outlets\">\n<thead><tr><th class=\"num\">#</th><th>outlet reach</th><th class=\"num\">"
+            "peak (" << u_.q_unit() << ")</th><th>peak time</th><th class=\"num\">panel</th><th>on map</th>"
+            "</tr></thead>\n<tbody>\n";
+    std::size_t rank = 0;
+    for (const std::uint32_t o : m_.ranked_outlets) {
+      const auto& r = in_.results.reaches[o];
+      const auto it = panel.find(o);
+      const bool has_panel = it != panel.end();
+      out_ << "<tr><td class=\"num\">" << ++rank << "</td><td>" << esc(id(o)) << "</td><td class=\"num\">"
+           << num(u_.q(r.peak_q_m3s), 2) << "</td><td>" << esc(time(r.peak_time_s)) << "</td><td class=\"num\">"
+           << (has_panel ? std::to_string(it->second) : std::string("-")) << "</td><td>"
+           << (m_.map_labels.count("O:" + id(o)) ? "labelled" : "symbol only") << "</td></tr>\n";
+    }
+    out_ << "</tbody>\n</table>\n";
   }
 
   /// Every routed lake: a table of its peaks and a panel per lake.
@@ -398,16 +463,16 @@ private:
   /// The confluences labelled on the map, with the numbers behind them.
   void majorConfluences() {
     if (m_.hydrograph_confluences.empty()) return;
-    out_ << "<h3>Major confluences (labelled on the map)</h3>\n<table id=\"major-confluences\">\n<thead><tr>"
+    out_ << "<h3>Major confluences (labelled on the map where there is room)</h3>\n<table id=\"major-confluences\">\n<thead><tr>"
          << "<th>confluence</th><th class=\"num\">combined peak (" << u_.q_unit()
          << ")</th><th>peak time</th><th class=\"num\">branch spread (h)</th><th class=\"num\">coincidence</th>"
-            "</tr></thead>\n<tbody>\n";
+            "<th>on map</th></tr></thead>\n<tbody>\n";
     for (const std::size_t k : m_.hydrograph_confluences) {
       const auto& n = in_.results.nodes[k];
       out_ << "<tr><td>" << esc(n.node_id) << "</td><td class=\"num\">" << num(u_.q(n.peak_q_m3s), 2)
            << "</td><td>" << esc(time(n.peak_time_s)) << "</td><td class=\"num\">"
            << num(n.branch_spread_s / 3600, 2) << "</td><td class=\"num\">" << num(n.coincidence_ratio, 2)
-           << "</td></tr>\n";
+           << "</td><td>" << (m_.map_labels.count(n.node_id) ? "labelled" : "symbol only") << "</td></tr>\n";
     }
     out_ << "</tbody>\n</table>\n";
   }
@@ -423,10 +488,9 @@ private:
   }
 
   void outletFigures() {
-    if (m_.outlet_figures.size() < m_.outlet_count)
-      out_ << "<p>The " << m_.outlet_figures.size() << " outlets with the largest peaks of " << m_.outlet_count
-           << "; every outlet is in the GeoPackage's <code>reaches</code> layer.</p>\n";
-    for (const auto& f : m_.outlet_figures) figure(f, "Hydrograph at " + f.caption);
+    for (std::size_t k = 0; k < m_.outlet_figures.size(); ++k)
+      figure(m_.outlet_figures[k], "Hydrograph at " + m_.outlet_figures[k].caption, false,
+             fmt::format("outlet-panel-{}", k + 1));
   }
 
   std::vector<std::string> warnings() const {

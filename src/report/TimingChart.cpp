@@ -15,7 +15,7 @@ namespace reachwise::report::detail {
 
 namespace {
 
-constexpr double kWidth = 960, kLeft = 190, kRight = 120, kTop = 58, kRow = 48;
+constexpr double kWidth = 960, kLeft = 190, kRight = 120, kTop = 80, kRow = 48;
 constexpr Rgb kCoincident{0.84, 0.37, 0.0};
 constexpr Rgb kApart{0.55, 0.62, 0.70};
 
@@ -29,7 +29,7 @@ void diamond(cairo_t* cr, double x, double y, double r) {
 
 void drawLegend(cairo_t* cr, const TimingFigure& fig) {
   double x = kLeft;
-  const double y = 22;
+  const double y = 46;
   cairo_set_line_width(cr, 1);
   cairo_arc(cr, x + 6, y - 4, 5, 0, 2 * M_PI);
   setColour(cr, seriesColour(1));
@@ -78,6 +78,8 @@ void drawTiming(const std::filesystem::path& file, const TimingFigure& fig) {
   const TimeScale ts{t0 - pad, t1 + pad, kLeft, kWidth - kRight, fig.utc_offset_min};
   const double y_axis = kTop + plot_h;
 
+  drawTitle(cr, fmt::format("Branch peak times at the {} confluences with the largest combined peaks",
+                            fig.rows.size()), kWidth);
   drawLegend(cr, fig);
   for (std::size_t i = 0; i < fig.rows.size(); ++i) {
     const double y_top = kTop + kRow * static_cast<double>(i);
@@ -87,7 +89,7 @@ void drawTiming(const std::filesystem::path& file, const TimingFigure& fig) {
       cairo_fill(cr);
     }
   }
-  drawTimeAxis(cr, ts, y_axis, kTop);
+  drawTimeAxis(cr, ts, y_axis, kTop, kWidth);
   cairo_set_source_rgb(cr, 0.3, 0.3, 0.3);
   cairo_set_line_width(cr, 1);
   cairo_move_to(cr, kLeft, y_axis + 0.5);

@@ -730,3 +730,17 @@ TEST_F(ReportTest, SideArmReturnIsLeftOutOfTheConfluenceCountsAndRanking) {
   EXPECT_EQ(trim(major[0][0]), "N:E");
   EXPECT_NE(html.find(" 1 confluence,"), std::string::npos);
 }
+
+// The braid's bifurcation (U splits into M and S) gets the map's
+// bifurcation symbol, and the map's caption names it; the sample network,
+// which has none, does not mention bifurcations.
+TEST_F(ReportTest, BifurcationsGetAMapSymbolNamedInTheCaption) {
+  const Braid braid(tmp.path() / "braid");
+  std::size_t bifurcations = 0;
+  for (const auto& n : braid.results.nodes) bifurcations += n.kind == routing::NodeKind::Bifurcation;
+  ASSERT_EQ(bifurcations, 1u);
+  report::writeReport(report(), braid.inputs(), *braid.series, false);
+  EXPECT_NE(readText(report() / "index.html").find("bifurcations as diamonds"), std::string::npos);
+  fs::remove_all(report());
+  EXPECT_EQ(writeAndRead().find("bifurcation"), std::string::npos);
+}

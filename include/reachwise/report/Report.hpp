@@ -2,8 +2,10 @@
 /// \file
 /// The run report: one self-contained folder (index.html plus figure files
 /// drawn with cairo) that a practitioner opens in any browser. It shows a
-/// map of the network coloured by peak discharge, hydrographs at the
-/// outlets and at the confluences with the largest combined peaks, a chart
+/// map of the network coloured by peak discharge (labels placed by
+/// priority without overlap, report/Layout.hpp), a table of every outlet
+/// and hydrographs at the largest outlets (in a grid, ranked by peak) and
+/// at the confluences with the largest combined peaks, a chart
 /// of how far apart the branch peaks of those confluences arrive, each
 /// routed lake (its outline on the map, a panel with inflow, outflow and
 /// level, a table of its peaks), each gauge compared with the run (a
