@@ -203,13 +203,14 @@ TEST_F(ReportManyOutletsTest, UsCustomaryUnitsLabelEveryFigureAndTheOutletTable)
   const auto head = page.nodes("//table[@id='outlets']/thead/tr/th");
   ASSERT_GE(head.size(), 3u);
   EXPECT_EQ(trim(HtmlPage::text(head[2])), "peak (cfs)");
-  // The table converts the nodes layer's m³/s (1 ft = 0.3048 m exactly,
-  // NIST SP 811): the top row's peak.
+  // The GeoPackage of a US-customary network is in its units too (route's
+  // output units follow the input's): the table's top row shows the
+  // nodes layer's peak in cfs.
   const auto peaks = outletPeaks(path("us.gpkg"));
   const auto top = page.nodes("//table[@id='outlets']/tbody/tr[1]/td");
   ASSERT_GE(top.size(), 3u);
-  const double m3s = peaks.at("O:" + trim(HtmlPage::text(top[1])));
-  EXPECT_NEAR(std::stod(HtmlPage::text(top[2])), m3s / std::pow(0.3048, 3), 0.006);  // printed with 2 decimals
+  const double cfs = peaks.at("O:" + trim(HtmlPage::text(top[1])));
+  EXPECT_NEAR(std::stod(HtmlPage::text(top[2])), cfs, 0.006);  // printed with 2 decimals
 }
 
 TEST_F(ReportManyOutletsTest, OutletTableListsEveryOutletOfTheNodesLayerLargestPeakFirst) {
