@@ -3,8 +3,10 @@
 # build it with CMake in Release. Safe to run again: it does nothing twice.
 #   scripts/setup.sh [BUILD_DIR]                  (default: build)
 #   scripts/setup.sh --sanitize [BUILD_DIR]       the sanitizer build (CMake type
-#       Asan, default build-asan), and clang with libFuzzer for fuzz/ (docs/testing.md)
-#   SETUP_TARGET=NAME scripts/setup.sh ...        build only that target (default: all)
+#       Asan, default build-asan) with clang and libFuzzer, so that the same
+#       build holds the tests and the fuzz targets of fuzz/ (docs/testing.md);
+#       with GCC (no fuzz targets) when clang cannot link libFuzzer
+#   SETUP_TARGET="A B" scripts/setup.sh ...       build only those targets (default: all)
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 type=Release
@@ -51,6 +53,11 @@ install_missing "${packages[@]}"
 pg_major="$(ls /usr/lib/postgresql 2>/dev/null | sort -V | tail -1)"
 install_missing "postgresql-${pg_major:?setup: no PostgreSQL server under /usr/lib/postgresql}-postgis-3"
 
-cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE="$type" >/dev/null
-cmake --build "$build" --parallel "$(nproc)" ${SETUP_TARGET:+--target "$SETUP_TARGET"}
+configure=(-DCMAKE_BUILD_TYPE="$type")
+if [[ $type == Asan ]] && cxx="$("$here/scripts/libfuzzer-clang.sh")"; then
+  configure+=(-DCMAKE_CXX_COMPILER="$cxx" -DCMAKE_C_COMPILER="${cxx/clang++/clang}" -DREACHWISE_FUZZ=ON)
+fi
+cmake -S "$here" -B "$build" "${configure[@]}" >/dev/null
+# shellcheck disable=SC2086 # SETUP_TARGET is a list of target names
+cmake --build "$build" --parallel "$(nproc)" ${SETUP_TARGET:+--target $SETUP_TARGET}
 echo "setup: built in $build"

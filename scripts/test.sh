@@ -20,7 +20,8 @@ if [[ "${1:-}" == --sanitize ]]; then
   source "$here/tests/sanitize/env.sh"
   SETUP_TARGET="$target" "$here/scripts/setup.sh" --sanitize "$build"
   ctest --test-dir "$build" "${only[@]}" --output-on-failure --parallel "$(nproc)" --timeout 1800
-  if [[ ${FUZZ_SECONDS:-60} != 0 ]]; then "$here/scripts/fuzz.sh" "${FUZZ_SECONDS:-60}"; fi
+  # The same build holds the fuzz targets (clang; docs/testing.md).
+  if [[ ${FUZZ_SECONDS:-60} != 0 ]]; then FUZZ_BUILD_DIR="$build" "$here/scripts/fuzz.sh" "${FUZZ_SECONDS:-60}"; fi
   exit
 fi
 build="${BUILD_DIR:-$here/build}"
