@@ -34,11 +34,7 @@ namespace {
 
 const fs::path kSample = fs::path(REACHWISE_SOURCE_DIR) / "sample-network";
 
-std::string shellQuoted(const std::string& s) {
-  std::string q = "'";
-  for (char c : s) q += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return q + "'";
-}
+using testsupport::shellQuoted;
 
 /// Loads LAYER of the GeoPackage FILE into SCHEMA.TABLE of the database with ogr2ogr.
 void load(const TestDatabase& db, const fs::path& file, const std::string& schema, const std::string& table) {

@@ -33,11 +33,7 @@ namespace {
 
 const fs::path kSample = fs::path(REACHWISE_SOURCE_DIR) / "sample-network";
 
-std::string shellQuoted(const std::string& s) {
-  std::string q = "'";
-  for (char c : s) q += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return q + "'";
-}
+using testsupport::shellQuoted;
 
 const char* const kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "lakes",
                                "lake_series", "gauges", "gauge_series"};

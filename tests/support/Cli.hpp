@@ -27,15 +27,13 @@ inline std::string slurp(const std::filesystem::path& p) {
   return s.str();
 }
 
-/// Runs `reachwise ARGS` (ARGS as a shell would split them). The captured
-/// output goes to files beside, not inside, the test's scratch folder, so
-/// a TempDir of the same name is left alone.
-inline CliRun runReachwise(const std::string& args) {
+/// Runs a shell command and captures what it prints. The captured output
+/// goes to files beside, not inside, the test's scratch folder, so a
+/// TempDir of the same name is left alone.
+inline CliRun runShell(const std::string& cmd) {
   const std::string base = (std::filesystem::temp_directory_path() / uniqueTestName()).string();
   const std::filesystem::path out = base + ".stdout", err = base + ".stderr";
-  const std::string cmd = std::string(REACHWISE_BINARY_DIR) + "/reachwise " + args + " > " + out.string() +
-                          " 2> " + err.string();
-  const int status = std::system(cmd.c_str());
+  const int status = std::system((cmd + " > " + out.string() + " 2> " + err.string()).c_str());
   CliRun r;
   r.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
   r.out = slurp(out);
@@ -43,6 +41,18 @@ inline CliRun runReachwise(const std::string& args) {
   std::filesystem::remove(out);
   std::filesystem::remove(err);
   return r;
+}
+
+/// Runs `reachwise ARGS` (ARGS as a shell would split them).
+inline CliRun runReachwise(const std::string& args) {
+  return runShell(std::string(REACHWISE_BINARY_DIR) + "/reachwise " + args);
+}
+
+/// `s` in single quotes for the shell, inner single quotes kept.
+inline std::string shellQuoted(const std::string& s) {
+  std::string q = "'";
+  for (char c : s) q += c == '\'' ? std::string("'\\''") : std::string(1, c);
+  return q + "'";
 }
 
 /// The value of one row of a command's summary on stdout (`key   value`),

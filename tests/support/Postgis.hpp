@@ -6,8 +6,6 @@
 // options of a role that may create databases).
 
 #include <gtest/gtest.h>
-#include <sys/wait.h>
-#include <unistd.h>
 
 #include <cstdlib>
 #include <filesystem>
@@ -28,20 +26,6 @@ inline std::string testServerConninfo() {
   std::string line;
   std::getline(in, line);
   return line;
-}
-
-/// Runs a shell command; returns its exit status and what it printed (both streams).
-inline CliRun runShell(const std::string& cmd) {
-  const std::string base = (std::filesystem::temp_directory_path() / uniqueTestName()).string() + ".sh";
-  const std::filesystem::path out = base + ".stdout", err = base + ".stderr";
-  const int status = std::system((cmd + " > " + out.string() + " 2> " + err.string()).c_str());
-  CliRun r;
-  r.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  r.out = slurp(out);
-  r.err = slurp(err);
-  std::filesystem::remove(out);
-  std::filesystem::remove(err);
-  return r;
 }
 
 /// An SQL identifier in double quotes (the test's own SQL; reachwise quotes its own).
@@ -81,18 +65,13 @@ public:
   std::string sql(const std::string& statement) const { return runOn(conninfo_, statement); }
 
 private:
-  static std::string quoted(const std::string& s) {
-    std::string q = "'";
-    for (char c : s) q += c == '\'' ? std::string("'\\''") : std::string(1, c);
-    return q + "'";
-  }
   static std::string runOn(const std::string& conninfo, const std::string& statement) {
-    const CliRun r = runShell("psql " + quoted(conninfo) + " -X -A -t -q -v ON_ERROR_STOP=1 -c " + quoted(statement));
+    const CliRun r = runShell("psql " + shellQuoted(conninfo) + " -X -A -t -q -v ON_ERROR_STOP=1 -c " + shellQuoted(statement));
     if (r.code != 0) throw std::runtime_error("psql failed on `" + statement + "`: " + r.err);
     return r.out;
   }
   void dropQuietly() const {
-    runShell("psql " + quoted(server_) + " -X -q -c " + quoted("drop database if exists \"" + name_ + "\" with (force)"));
+    runShell("psql " + shellQuoted(server_) + " -X -q -c " + shellQuoted("drop database if exists \"" + name_ + "\" with (force)"));
   }
 
   std::string server_, name_, conninfo_;
