@@ -195,10 +195,13 @@ private:
     try {
       const ReachSpec spec{plan_.section[i], plan_.length_m[i],
                            plan_.muskingum_k_s[i], plan_.muskingum_x[i]};
+      const ReachState* start =
+          options_.initial_states && i < options_.initial_states->size() ? &(*options_.initial_states)[i] : nullptr;
       run = ws.router.route(spec, ws.inflow,
                             (has_lateral || base != 0) ? std::span<const double>(ws.lateral)
                                                        : std::span<const double>(),
-                            axis_.dt_s, options_.reach, *out);
+                            axis_.dt_s, options_.reach, *out, start);
+      if (options_.final_states) (*options_.final_states)[i] = ws.router.endState(run);  // this reach's slot only
       const hydraulics::RatingTable* table = ws.router.lastTable() ? &*ws.router.lastTable() : nullptr;
       if (send) depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
       summarise(i, run, *out, spec.section, table);
@@ -224,6 +227,7 @@ private:
   void setUpLakes() {
     const auto& lakes = options_.lakes;
     if (options_.lake_results) options_.lake_results->assign(lakes.size(), LakeRouting{});
+    if (options_.final_states) options_.final_states->assign(n_, ReachState{});
     if (lakes.empty()) return;
     lake_at_top_.assign(n_, -1);
     share_at_top_.assign(n_, 0.0);
@@ -276,6 +280,8 @@ private:
     const NetworkLake& lake = options_.lakes[l];
     LevelPoolOptions lake_options;
     if (std::isfinite(lake.initial_level_m)) lake_options.initial_level_m = lake.initial_level_m;
+    lake_options.initial_storage_m3 = lake.initial_storage_m3;
+    lake_options.substeps = lake.substeps;
     try {
       LevelPoolResult r = lake.pool->route(inflow, axis_.dt_s, lake_options);
       lake_volume_[l] = {true, r.volume_in_m3, r.volume_out_m3, r.storage_change_m3};
