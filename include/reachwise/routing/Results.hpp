@@ -84,6 +84,11 @@ struct ReachNumerics {
   /// rise; 0 inside it, NaN when the inflow does not vary.
   double envelope_excursion_pct = kNaN;
   bool grid_compromise = false;     ///< no (subreaches, substeps) met every bound; the closest was used
+  /// The reach continued a saved state (ReachState) whose reference flow
+  /// is more than a factor 2 from the one this run's own inflow gives: it
+  /// is routed with numerics chosen for other flows (docs/formats.md,
+  /// "Saved state").
+  bool saved_numerics_apart = false;
 };
 
 /// Volume accounting of one reach over the run (m^3).
