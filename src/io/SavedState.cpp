@@ -115,7 +115,9 @@ void writeInto(const fs::path& file, const SavedState& st, const StateFileOption
   putText(nc.id, NC_GLOBAL, "method", st.method, file);
   check(nc_put_att_double(nc.id, NC_GLOBAL, "time_step_s", NC_DOUBLE, 1, &st.dt_s), file,
         "writing attribute time_step_s");
-  putText(nc.id, NC_GLOBAL, "end_time", formatIsoTime(st.time_unix_s, st.utc_offset_min, 3), file);
+  putText(nc.id, NC_GLOBAL, "end_time",
+          formatIsoTime(st.time_unix_s, st.utc_offset_min, st.time_unix_s == std::floor(st.time_unix_s) ? 0 : 3),
+          file);
   check(nc_enddef(nc.id), file, "ending definitions");
 
   check(nc_put_var_double(nc.id, v_time, &st.time_unix_s), file, "writing time");
