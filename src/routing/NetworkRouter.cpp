@@ -551,7 +551,7 @@ void Scheduler::summariseWarnings() {
   for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
     const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
-    if (m.saved_numerics_apart && apart_r++ == 0) apart_at = i;
+    if (m.above_saved_flows && apart_r++ == 0) apart_at = i;
     if (m.negative_clamps) neg += m.negative_clamps, ++neg_r;
     if (m.x_clamps) {
       const auto c = static_cast<std::size_t>(m.x_clamp_cause);
@@ -610,9 +610,9 @@ void Scheduler::summariseWarnings() {
   }
   if (apart_r)
     w.push_back(reaches(apart_r) + " (e.g. " + plan_.reach_id[apart_at] +
-                ") continue a saved state whose reference flow is more than a factor 2 from this run's own: they keep "
-                "the saved grid and parameters, chosen for other flows, so the run agrees less closely with one "
-                "unbroken run (docs/formats.md, \"Saved state\")");
+                ") continue a saved state and carry flows above any the saving run saw (above twice its reference "
+                "flow): they keep the saved grid and parameters, chosen for lower flows, so the run agrees less "
+                "closely with one unbroken run (docs/formats.md, \"Saved state\")");
   if (vol_r)
     w.push_back(reaches(vol_r) + " with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
                 percent(vol_worst) + " at reach " + plan_.reach_id[vol_at]);

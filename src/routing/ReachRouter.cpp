@@ -174,10 +174,8 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   run.rise_s = riseSamples(total_) * dt;
   const double q_ref = std::isnan(opt.reference_q_m3s) ? q_base + 0.5 * (q_peak - q_base)
                                                        : opt.reference_q_m3s;
-  if (start && start->method != Method::Muskingum) {  // muskingum's numerics do not depend on the flow
-    const double own = std::isnan(opt_in.reference_q_m3s) ? q_base + 0.5 * (q_peak - q_base) : opt_in.reference_q_m3s;
-    run.numerics.saved_numerics_apart = own > 2.0 * q_ref || own < 0.5 * q_ref;
-  }
+  // Flows above any the saving run saw (muskingum's numerics do not depend on the flow).
+  if (start && start->method != Method::Muskingum) run.numerics.above_saved_flows = q_peak > 2.0 * q_ref;
   out.assign(n_steps, 0.0);
   ReachNumerics& num = run.numerics;
   num.reference_q_m3s = q_ref;

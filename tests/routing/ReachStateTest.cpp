@@ -77,7 +77,7 @@ TEST(ReachState, PiecesEqualAWholeRunWithTheSavedNumerics) {
     EXPECT_EQ(s.numerics.reference_q_m3s, saved.reference_q_m3s);
     EXPECT_EQ(second.front(), first.back());
     // The continued reach says its numerics were chosen for other flows.
-    EXPECT_EQ(s.numerics.saved_numerics_apart, method != Method::Muskingum);
+    EXPECT_EQ(s.numerics.above_saved_flows, method != Method::Muskingum);
     // vpmc's table is widened to this run's flows (the saved one ends
     // below the storm's peak).
     if (method == Method::VariableParameter) {

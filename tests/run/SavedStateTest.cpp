@@ -203,3 +203,20 @@ TEST_F(SavedState, AStateThatDoesNotFitTheRunIsRefused) {
   EXPECT_TRUE(contains(e, "diffusion") && contains(e, "save_state")) << e;
   EXPECT_FALSE(std::filesystem::exists(at("diffusion.nc")));
 }
+
+// A flood arriving after a quiet first piece: the first piece's numerics
+// were chosen for base flow, and the continued run says so (a warning
+// naming a reach) rather than pass for an unbroken run.
+TEST_F(SavedState, AContinuationOutsideTheSavedFlowsIsWarnedAbout) {
+  testsupport::writeStateInflow(at("late-first.csv"), 0, 36, true);
+  testsupport::writeStateInflow(at("late-second.csv"), 36, 71, true);
+  route(routing::Method::ConstantParameter, "late-first.csv", "late.nc");
+  const Piece second = route(routing::Method::ConstantParameter, "late-second.csv", "", "late.nc");
+  std::size_t warned = 0;
+  for (const auto& w : second.summary.results.warnings)
+    if (contains(w, "continue a saved state") && contains(w, "above any the saving run saw")) ++warned;
+  EXPECT_EQ(warned, 1u);
+  std::size_t apart = 0;
+  for (const auto& r : second.summary.results.reaches) apart += r.numerics.above_saved_flows ? 1 : 0;
+  EXPECT_GE(apart, 3u);  // at least the head reaches E, F and B, whose inflow is the storm itself
+}
