@@ -97,6 +97,7 @@ public:
       pending_[i] = plan.up_offset[i + 1] - plan.up_offset[i];
       consumers_[i] = plan.down_offset[i + 1] - plan.down_offset[i];
     }
+    if (options.final_states) options.final_states->assign(n_, ReachState{});  // one slot per reach, filled by its worker
     setUpLakes();
   }
 
@@ -227,7 +228,6 @@ private:
   void setUpLakes() {
     const auto& lakes = options_.lakes;
     if (options_.lake_results) options_.lake_results->assign(lakes.size(), LakeRouting{});
-    if (options_.final_states) options_.final_states->assign(n_, ReachState{});
     if (lakes.empty()) return;
     lake_at_top_.assign(n_, -1);
     share_at_top_.assign(n_, 0.0);
