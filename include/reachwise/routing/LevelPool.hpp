@@ -87,7 +87,7 @@ struct LevelPoolOptions {
   std::optional<double> initial_level_m;
   /// Initial storage (m^3), e.g. from a saved state; wins over
   /// `initial_level_m`.
-  std::optional<double> initial_storage_m3;
+  std::optional<double> initial_storage_m3 = std::nullopt;
   /// Sub-steps per step, e.g. a saved state's (the grid of the run that
   /// saved it); 0: chosen as route() describes.
   std::size_t substeps = 0;

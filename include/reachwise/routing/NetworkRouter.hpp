@@ -70,7 +70,7 @@ struct NetworkLake {
   /// Level at the start; NaN: the steady state of the first inflow.
   double initial_level_m = std::numeric_limits<double>::quiet_NaN();
   /// Storage at the start (m^3), e.g. a saved state's; wins over the level.
-  std::optional<double> initial_storage_m3;
+  std::optional<double> initial_storage_m3 = std::nullopt;
   /// Sub-steps per step (a saved state's); 0: chosen by LevelPool::route.
   std::size_t substeps = 0;
 };
