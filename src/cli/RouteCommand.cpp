@@ -34,6 +34,7 @@ struct RouteOptions {
   std::string hydrographs = "auto";
   std::string units;   ///< "si" or "us"; empty: the network's input units
   std::string lakes, lakes_layer;
+  std::string save_state, initial_state;
   std::string observed, gauges, gauges_layer;
   double gauge_snap_m = 100;
   std::optional<double> dt_s;   ///< unset: the forcing's own step
@@ -251,8 +252,9 @@ void printRunSummary(std::ostream& out, std::ostream& err, const run::RouteSumma
   } else {
     printWarnings(err, r.warnings, "warning: ");
   }
-  fmt::print(out, "{}{}{}\n", o.demo ? "open in a GIS: " : "wrote ", s.gpkg,
-             o.series_nc.empty() ? "" : " and " + o.series_nc);
+  fmt::print(out, "{}{}{}{}\n", o.demo ? "open in a GIS: " : "wrote ", s.gpkg,
+             o.series_nc.empty() ? "" : " and " + o.series_nc,
+             o.save_state.empty() ? "" : "; the end state to " + o.save_state);
   if (!o.report.empty())
     fmt::print(out, "run report (open in a web browser): {}\n", (fs::path(o.report) / "index.html").string());
   fmt::print(out, "caution: {}\n", run::kResultsCaution);
@@ -285,7 +287,9 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.diffusion_below_ponce = o.diffusion_below;
   r.threads = o.threads;
   r.command_line = o.command_line;
+  r.initial_state = o.initial_state;
   run::OutputRequest& out = r.outputs;
+  out.state_nc = o.save_state;
   out.write_back = o.write_back;
   if (!o.write_back) out.gpkg = o.out.empty() ? "reachwise-results.gpkg" : o.out;
   out.schema = o.schema;
@@ -341,6 +345,8 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--csv", o.csv, c.csv);
   take("--series", o.series_nc, c.series);
   take("--report", o.report, c.report);
+  take("--save-state", o.save_state, c.save_state);
+  take("--initial-state", o.initial_state, c.initial_state);
   take("--report-reaches", o.report_reaches, c.report_reaches);
   take("--hydrographs", o.hydrographs, c.hydrographs);
   take("--threads", o.threads, c.threads);
@@ -405,6 +411,11 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
                   "auto (default: all below 10,000 reaches, else outlets and confluences) or reach ids");
   sub->add_option("--series", o->series_nc,
                   "Write the chosen hydrographs to this NetCDF file instead of the GeoPackage table");
+  sub->add_option("--save-state", o->save_state,
+                  "Write every reach's and lake's state at the end time to this NetCDF file, for --initial-state");
+  sub->add_option("--initial-state", o->initial_state,
+                  "Start from a state saved by --save-state (same network, method and step; the forcing starts at "
+                  "the state's time) instead of the steady state");
   sub->add_option("--report", o->report, "Write an HTML run report with figures into this folder");
   sub->add_option("--report-reaches", o->report_reaches,
                   "Reach ids (comma-separated, at most 24) drawn in hydrograph panels of their own in the report");

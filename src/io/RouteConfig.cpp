@@ -79,6 +79,8 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
     else if (key == "csv") c.csv = path(v, key);
     else if (key == "series") c.series = path(v, key);
     else if (key == "report") c.report = path(v, key);
+    else if (key == "save_state") c.save_state = path(v, key);
+    else if (key == "initial_state") c.initial_state = path(v, key);
     else if (key == "hydrographs") c.hydrographs = hydrographList(v, origin, key);
     else if (key == "report_reaches") c.report_reaches = hydrographList(v, origin, key);
     else if (key == "method") {

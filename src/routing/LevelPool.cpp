@@ -373,7 +373,11 @@ LevelPoolResult LevelPool::route(const std::vector<double>& inflow, double dt, c
     throw InvalidParameter("max_step_over_response", who + "must be > 0");
 
   double s = 0;
-  if (options.initial_level_m) {
+  if (options.initial_storage_m3) {
+    s = *options.initial_storage_m3;
+    if (!finite(s) || s < 0)
+      throw InvalidParameter("initial_storage_m3", who + "must be finite and >= 0 (got " + fmtNum(s) + ")");
+  } else if (options.initial_level_m) {
     const double h0 = *options.initial_level_m;
     if (!finite(h0) || h0 < storage_.bottomLevel())
       throw InvalidParameter("initial_level_m", who + "must be finite and at or above the bottom level " +
@@ -398,11 +402,17 @@ LevelPoolResult LevelPool::route(const std::vector<double>& inflow, double dt, c
   }
   r.response_time_min_s = shortestResponseTime(s_cap);
   const double k_real = std::ceil(dt / (options.max_step_over_response * r.response_time_min_s));
-  if (k_real > static_cast<double>(options.max_substeps))
+  if (options.substeps == 0 && k_real > static_cast<double>(options.max_substeps))
     throw Error(who + "level-pool routing would need more than " + std::to_string(options.max_substeps) +
                 " sub-steps per step (shortest response time " + fmtNum(r.response_time_min_s) +
                 " s against a step of " + fmtNum(dt) + " s)");
-  r.substeps = std::max<std::size_t>(1, static_cast<std::size_t>(k_real));
+  if (options.substeps > 0) {  // a saved state's grid
+    if (options.substeps > options.max_substeps)
+      throw InvalidParameter("substeps", who + "more than " + std::to_string(options.max_substeps) + " sub-steps");
+    r.substeps = options.substeps;
+  } else {
+    r.substeps = std::max<std::size_t>(1, static_cast<std::size_t>(k_real));
+  }
 
   const auto outflow = [this](double x) { return outflowAtStorage(x); };
   const auto slope = [this](double x) { return outflowSlope(x); };

@@ -97,6 +97,7 @@ public:
       pending_[i] = plan.up_offset[i + 1] - plan.up_offset[i];
       consumers_[i] = plan.down_offset[i + 1] - plan.down_offset[i];
     }
+    if (options.final_states) options.final_states->assign(n_, ReachState{});  // one slot per reach, filled by its worker
     setUpLakes();
   }
 
@@ -195,10 +196,13 @@ private:
     try {
       const ReachSpec spec{plan_.section[i], plan_.length_m[i],
                            plan_.muskingum_k_s[i], plan_.muskingum_x[i]};
+      const ReachState* start =
+          options_.initial_states && i < options_.initial_states->size() ? &(*options_.initial_states)[i] : nullptr;
       run = ws.router.route(spec, ws.inflow,
                             (has_lateral || base != 0) ? std::span<const double>(ws.lateral)
                                                        : std::span<const double>(),
-                            axis_.dt_s, options_.reach, *out);
+                            axis_.dt_s, options_.reach, *out, start);
+      if (options_.final_states) (*options_.final_states)[i] = ws.router.endState(run);  // this reach's slot only
       const hydraulics::RatingTable* table = ws.router.lastTable() ? &*ws.router.lastTable() : nullptr;
       if (send) depthAndVelocity(spec.section, table, *out, ws.depth, ws.velocity);
       summarise(i, run, *out, spec.section, table);
@@ -276,6 +280,8 @@ private:
     const NetworkLake& lake = options_.lakes[l];
     LevelPoolOptions lake_options;
     if (std::isfinite(lake.initial_level_m)) lake_options.initial_level_m = lake.initial_level_m;
+    lake_options.initial_storage_m3 = lake.initial_storage_m3;
+    lake_options.substeps = lake.substeps;
     try {
       LevelPoolResult r = lake.pool->route(inflow, axis_.dt_s, lake_options);
       lake_volume_[l] = {true, r.volume_in_m3, r.volume_out_m3, r.storage_change_m3};
@@ -541,9 +547,11 @@ void Scheduler::summariseWarnings() {
   std::size_t env_r = 0, env_at = 0;
   double env_worst = 0;
   std::size_t ponce_r = 0, ponce_at = 0;
+  std::size_t apart_r = 0, apart_at = 0;
   for (std::size_t i = 0; i < results_.reaches.size(); ++i) {
     const ReachSummary& r = results_.reaches[i];
     const ReachNumerics& m = r.numerics;
+    if (m.above_saved_flows && apart_r++ == 0) apart_at = i;
     if (m.negative_clamps) neg += m.negative_clamps, ++neg_r;
     if (m.x_clamps) {
       const auto c = static_cast<std::size_t>(m.x_clamp_cause);
@@ -600,6 +608,11 @@ void Scheduler::summariseWarnings() {
                 "tens of percent off and hours late (docs/methods.md, \"Where the diffusion wave fails\"); vpmc "
                 "routes them with the diffusion wave unless told not to");
   }
+  if (apart_r)
+    w.push_back(reaches(apart_r) + " (e.g. " + plan_.reach_id[apart_at] +
+                ") continue a saved state and carry flows above any the saving run saw (above twice its reference "
+                "flow): they keep the saved grid and parameters, chosen for lower flows, so the run agrees less "
+                "closely with one unbroken run (docs/formats.md, \"Saved state\")");
   if (vol_r)
     w.push_back(reaches(vol_r) + " with a volume error above 1 % of the event volume (what entered above the initial flow), worst " +
                 percent(vol_worst) + " at reach " + plan_.reach_id[vol_at]);

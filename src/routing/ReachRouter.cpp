@@ -64,6 +64,25 @@ void envelopeCheck(std::span<const double> out, double lo, double hi, ReachNumer
   num.envelope_excursion_pct = 100.0 * worst / rise;
 }
 
+/// A saved state a reach can start from (ReachRouter::route).
+void checkState(const ReachState& st) {
+  const auto bad = [](const std::string& why) { throw InvalidParameter("state", why); };
+  if (st.method == Method::DiffusionWave) bad("is a diffusion-wave state, which cannot be continued");
+  if (st.substeps == 0) bad("has no sub-steps");
+  if (st.q_m3s.size() != std::size_t{st.subreaches} + 1)
+    bad("has " + std::to_string(st.q_m3s.size()) + " section flows for " + std::to_string(st.subreaches) +
+        " sub-reaches (needs " + std::to_string(st.subreaches + 1) + ")");
+  for (std::size_t j = 0; j < st.q_m3s.size(); ++j)
+    if (!(st.q_m3s[j] >= 0) || !std::isfinite(st.q_m3s[j]))
+      bad("section flow " + std::to_string(j) + " is negative or not finite (" + std::to_string(st.q_m3s[j]) + ")");
+  if (!(st.reference_q_m3s >= 0) || !std::isfinite(st.reference_q_m3s))
+    bad("reference flow is negative or not finite");
+  if (st.method == Method::VariableParameter &&
+      (st.table_nodes < 3 || !(st.table_min_q_m3s > 0) || !(st.table_max_q_m3s > st.table_min_q_m3s) ||
+       !std::isfinite(st.table_max_q_m3s)))
+    bad("has no valid rating-table range (vpmc needs 0 < lowest < highest flow and at least 3 nodes)");
+}
+
 }  // namespace
 
 const char* methodName(Method method) {
@@ -96,8 +115,22 @@ double eventErrorPct(const VolumeBalance& v) {
 }
 
 ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> inflow,
-                            std::span<const double> lateral, double dt, const RouteOptions& opt,
-                            std::vector<double>& out) {
+                            std::span<const double> lateral, double dt, const RouteOptions& opt_in,
+                            std::vector<double>& out, const ReachState* start) {
+  routed_ = false;
+  table_nodes_ = 0;
+  // A dry saved state (no flows kept) starts the reach steady, as without one.
+  if (start && start->subreaches == 0) start = nullptr;
+  RouteOptions forced;
+  if (start) {
+    checkState(*start);
+    // The state's numerics, not ones chosen from this run's inflow.
+    forced = opt_in;
+    forced.subreaches = start->subreaches;
+    forced.substeps = start->substeps;
+    forced.reference_q_m3s = start->reference_q_m3s;
+  }
+  const RouteOptions& opt = start ? forced : opt_in;
   if (!(dt > 0) || !std::isfinite(dt)) throw InvalidParameter("dt", "must be a finite step > 0 s");
   if (!(reach.length_m > 0) || !std::isfinite(reach.length_m))
     throw InvalidParameter("length", "must be a finite length > 0 m");
@@ -141,10 +174,12 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   run.rise_s = riseSamples(total_) * dt;
   const double q_ref = std::isnan(opt.reference_q_m3s) ? q_base + 0.5 * (q_peak - q_base)
                                                        : opt.reference_q_m3s;
+  // Flows above any the saving run saw (muskingum's numerics do not depend on the flow).
+  if (start && start->method != Method::Muskingum) run.numerics.above_saved_flows = q_peak > 2.0 * q_ref;
   out.assign(n_steps, 0.0);
   ReachNumerics& num = run.numerics;
   num.reference_q_m3s = q_ref;
-  if (!(q_peak > 0)) return run;  // a dry reach stays dry
+  if (!(q_peak > 0) && !start) return run;  // a dry reach stays dry (a saved state may drain)
 
   // The Ponce number of the event's wave (period 2 t_rise) at the mean
   // depth A/T of uniform flow at the reference flow; below the option's
@@ -164,11 +199,18 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   if (num.method == Method::DiffusionWave && sec.shape() == hydraulics::Shape::Circle &&
       q_peak > 0.99 * sec.capacity())
     num.method = Method::VariableParameter;
+  if (start) num.method = start->method;  // the method the saved run used for the reach
 
   // The method's set-up: its grid, parameters and cell, then the shared sweep.
   RouteContext ctx{reach, opt, inflow, lateral, dt, q_ref, q_peak, q_in_min, q_, out, table_, spare_, num};
   ctx.rise_s = run.rise_s;
+  ctx.start = start;
   methods::setUpFor(num.method)(ctx);
+  routed_ = true;
+  table_lo_ = ctx.table_min_q_m3s;
+  table_hi_ = ctx.table_max_q_m3s;
+  table_nodes_ = ctx.table_nodes;
+  storage_end_ = ctx.storage_end_m3;
 
   // Ponce's ratios for a wave of period 2 t_rise and wavelength c T_w.
   if (run.rise_s > 0 && num.celerity_ms > 0) {
@@ -186,6 +228,26 @@ ReachRun ReachRouter::route(const ReachSpec& reach, std::span<const double> infl
   const double base_m3 = total_[0] * dt * static_cast<double>(n_steps - 1);
   finishVolume(run.volume, ctx.totals, ctx.storage_start_m3, ctx.storage_end_m3, base_m3);
   return run;
+}
+
+ReachState ReachRouter::endState(const ReachRun& run) const {
+  ReachState st;
+  st.method = run.numerics.method;
+  st.reference_q_m3s = run.numerics.reference_q_m3s;
+  if (!routed_) return st;  // dry: subreaches 0
+  if (st.method == Method::DiffusionWave)
+    throw InvalidParameter("state", "was routed with the diffusion wave, whose state is not saved (with vpmc, "
+                                    "--diffusion-below 0 keeps every reach with Muskingum-Cunge)");
+  st.subreaches = run.numerics.subreaches;
+  st.substeps = run.numerics.substeps;
+  st.table_nodes = table_nodes_;
+  if (table_nodes_ > 0) {
+    st.table_min_q_m3s = table_lo_;
+    st.table_max_q_m3s = table_hi_;
+  }
+  st.q_m3s = q_;
+  st.storage_m3 = storage_end_;
+  return st;
 }
 
 void depthAndVelocityAt(const hydraulics::Section& section, const hydraulics::RatingTable* table,

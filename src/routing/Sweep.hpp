@@ -211,6 +211,13 @@ struct RouteContext {
   Totals totals{};
   double storage_start_m3 = 0, storage_end_m3 = 0;
   double rise_s = 0;  ///< rise time of the total inflow's peak (ReachRun::rise_s)
+  /// A saved state to start from (ReachRouter::route), or null: the steady
+  /// state of the first sample. Its grid and reference flow are already in
+  /// `options` and `q_ref_m3s`.
+  const ReachState* start = nullptr;
+  /// The rating table a set-up built (`vpmc`): its range and nodes.
+  double table_min_q_m3s = 0, table_max_q_m3s = 0;
+  std::uint32_t table_nodes = 0;
 };
 
 /// Routes the reach with `cell` on the grid the set-up put in
@@ -222,10 +229,16 @@ template <class Cell>
 void sweepReach(RouteContext& ctx, const Cell& cell, Negatives negatives) {
   const std::uint32_t m = ctx.numerics.subreaches, k = ctx.numerics.substeps;
   REACHWISE_ASSERT(m >= 1 && k >= 1 && !ctx.inflow.empty() && ctx.out.size() == ctx.inflow.size());
-  // Steady state of the first sample: lateral inflow accumulates linearly.
-  const double inflow0 = ctx.inflow[0], lateral0 = ctx.lateral.empty() ? 0.0 : ctx.lateral[0];
-  ctx.q.resize(m + 1);
-  for (std::uint32_t j = 0; j <= m; ++j) ctx.q[j] = inflow0 + lateral0 * j / m;
+  if (ctx.start) {
+    // A saved state: its flows, on its own grid (the options force it).
+    REACHWISE_ASSERT(ctx.start->q_m3s.size() == std::size_t{m} + 1);
+    ctx.q.assign(ctx.start->q_m3s.begin(), ctx.start->q_m3s.end());
+  } else {
+    // Steady state of the first sample: lateral inflow accumulates linearly.
+    const double inflow0 = ctx.inflow[0], lateral0 = ctx.lateral.empty() ? 0.0 : ctx.lateral[0];
+    ctx.q.resize(m + 1);
+    for (std::uint32_t j = 0; j <= m; ++j) ctx.q[j] = inflow0 + lateral0 * j / m;
+  }
   ctx.storage_start_m3 = cell.storage(ctx.q);
   if (negatives == Negatives::CannotOccur) {
     sweep(m, k, ctx.inflow, ctx.lateral, ctx.dt_s, ctx.q, ctx.out, ctx.totals, cell);

@@ -138,6 +138,10 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
     w_->netcdf_selected = std::make_unique<SelectedSeries>(mask, *w_->netcdf);
     sinks.push_back(w_->netcdf_selected.get());
   }
+  if (!o.state_nc.empty()) {  // refused now rather than after routing
+    io::refuseExisting(o.state_nc, o.overwrite);
+    io::requireParentFolder(o.state_nc);
+  }
   if (!o.report_reaches.empty() && o.report_dir.empty()) {
     InputLocation at;
     at.field = "report_reaches";
@@ -168,6 +172,7 @@ std::vector<io::NamedPath> outputPaths(const OutputRequest& o) {
   std::vector<io::NamedPath> out;
   if (!o.gpkg.empty() && !o.write_back && !io::isDatabaseSource(o.gpkg)) out.push_back({"--out", o.gpkg});
   if (!o.series_nc.empty()) out.push_back({"--series", o.series_nc});
+  if (!o.state_nc.empty()) out.push_back({"--save-state", o.state_nc});
   if (!o.csv_dir.empty()) {
     io::NamedPath csv{"--csv", o.csv_dir, true, {"reaches.csv", "nodes.csv", "confluence_branches.csv",
                                                   "run_info.csv", "hydrographs.csv"}};
@@ -182,7 +187,9 @@ std::vector<io::NamedPath> outputPaths(const OutputRequest& o) {
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
 void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
-                     const std::vector<io::LakeOutput>& lakes, const std::vector<io::GaugeOutput>& gauges) {
+                     const std::vector<io::LakeOutput>& lakes, const std::vector<io::GaugeOutput>& gauges,
+                     const io::SavedState* state) {
+  if (!request_.state_nc.empty() && !state) throw InternalError("a state file is asked for, but no state given");
   // The lakes must be the ones the outputs were opened for, in that order.
   bool same = lakes.size() == lake_ids_.size();
   for (std::size_t k = 0; same && k < lakes.size(); ++k)
@@ -222,6 +229,12 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     for (std::size_t g = 0; g < gauges.size(); ++g)
       w_->netcdf->writeGauge(g, *gauges[g].observed, *gauges[g].simulated);
     w_->netcdf->finish(&all);
+  }
+  if (!request_.state_nc.empty()) {
+    io::StateFileOptions so;
+    so.source = fmt::format("reachwise {} ({})", kVersion, kGitHash);
+    so.history = info.command_line;
+    io::writeStateFile(request_.state_nc, *state, so, all);
   }
   if (w_->gpkg) w_->gpkg->commit(&all);
   all.commit();

@@ -1,9 +1,16 @@
 #include "reachwise/run/Route.hpp"
 
+#include <fmt/format.h>
+
 #include <chrono>
 #include <cmath>
+#include <map>
+#include <optional>
 
 #include "reachwise/io/Database.hpp"
+#include "reachwise/Error.hpp"
+#include "reachwise/io/IsoTime.hpp"
+#include "reachwise/io/SavedState.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -17,6 +24,71 @@ constexpr routing::Method kMethods[] = {routing::Method::VariableParameter, rout
 /// How the run was asked for, as run_info and the NetCDF history record it.
 std::string provenance(const RouteRequest& request) {
   return request.command_line.empty() ? "reachwise library" : request.command_line;
+}
+
+[[noreturn]] void stateError(const std::string& file, const std::string& field, const std::string& message,
+                             const std::string& reach = {}, const std::string& lake = {}) {
+  InputLocation at;
+  at.file = file;
+  at.field = field;
+  at.reach_id = reach;
+  at.lake_id = lake;
+  throw InputError(at, message);
+}
+
+/// The time of a state as ISO 8601 text.
+std::string isoOf(double unix_s, int offset_min) {
+  return io::formatIsoTime(unix_s, offset_min, unix_s == std::floor(unix_s) ? 0 : 3);
+}
+
+/// Binds the saved state `st` (read from `file`) to this run: the same
+/// method, step and start time, every reach and lake of the network in it
+/// and nothing else. Returns the reaches' states by plan index and sets
+/// each lake's initial storage and sub-steps in `lakes`.
+std::vector<routing::ReachState> bindState(const std::string& file, io::SavedState st, const RouteRequest& request,
+                                           const LoadedNetwork& net, const network::NetworkPlan& plan,
+                                           const routing::TimeAxis& axis, std::vector<routing::NetworkLake>& lakes) {
+  const std::string method(routing::methodName(request.method));
+  if (st.method != method)
+    stateError(file, "method", "the state was saved by a `" + st.method + "` run, but this run's method is `" +
+                                   method + "`: a run continues with the method that saved the state");
+  if (std::abs(st.dt_s - axis.dt_s) > 1e-9 * axis.dt_s)
+    stateError(file, "time_step_s", fmt::format("the state was saved with a step of {} s, but this run's step is {} s",
+                                                st.dt_s, axis.dt_s));
+  if (st.time_unix_s != static_cast<double>(axis.start_unix_s))
+    stateError(file, "time",
+               "the state's time " + isoOf(st.time_unix_s, axis.utc_offset_min) + " is not the forcing's first time " +
+                   isoOf(static_cast<double>(axis.start_unix_s), axis.utc_offset_min) +
+                   ": a continued run's forcing starts at the state's time");
+  std::map<std::string, std::size_t> in_state;
+  for (std::size_t i = 0; i < st.reach_ids.size(); ++i) in_state[st.reach_ids[i]] = i;
+  std::vector<routing::ReachState> out(plan.size());
+  for (std::uint32_t i = 0; i < plan.size(); ++i) {
+    const auto it = in_state.find(plan.reach_id[i]);
+    if (it == in_state.end())
+      stateError(file, "reach_id", "the reach is in the network but not in the saved state (a state continues the "
+                                   "network that saved it)", plan.reach_id[i]);
+    out[i] = std::move(st.reaches[it->second]);
+    in_state.erase(it);
+  }
+  if (!in_state.empty())
+    stateError(file, "reach_id", "the saved state has this reach, but the network does not (a state continues the "
+                                 "network that saved it)", in_state.begin()->first);
+  std::map<std::string, const io::LakeState*> lake_states;
+  for (const auto& l : st.lakes) lake_states[l.lake_id] = &l;
+  for (std::size_t k = 0; k < lakes.size(); ++k) {
+    const std::string& id = net.lakes->lakes[k].lake_id;
+    const auto it = lake_states.find(id);
+    if (it == lake_states.end())
+      stateError(file, "lake_id", "the lake is in the lakes layer but not in the saved state", {}, id);
+    lakes[k].initial_storage_m3 = it->second->storage_m3;
+    lakes[k].substeps = it->second->substeps;
+    lake_states.erase(it);
+  }
+  if (!lake_states.empty())
+    stateError(file, "lake_id", "the saved state has this lake, but the run has no such lake", {},
+               lake_states.begin()->first);
+  return out;
 }
 
 }  // namespace
@@ -49,7 +121,8 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
   };
   info.inputs = {shown(request.network.path)};
   for (const std::string* f : {&request.forcing.inflow, &request.forcing.lateral, &request.network.config,
-                               &request.network.lakes, &request.gauges.observed, &request.gauges.gauges})
+                               &request.network.lakes, &request.gauges.observed, &request.gauges.gauges,
+                               &request.initial_state})
     if (!f->empty()) info.inputs.push_back(shown(*f));
   info.method = routing::methodName(request.method);
   info.command_line = io::redactedConnection(provenance(request));
@@ -74,7 +147,8 @@ std::vector<io::NamedPath> inputPaths(const RouteRequest& request, const LoadedN
   std::vector<io::NamedPath> in = {{"NETWORK", request.network.path},       {"--config", request.network.config},
                                    {"--dem", request.network.dem},          {"--lakes", request.network.lakes},
                                    {"--inflow", request.forcing.inflow},    {"--lateral", request.forcing.lateral},
-                                   {"--observed", request.gauges.observed}, {"--gauges", request.gauges.gauges}};
+                                   {"--observed", request.gauges.observed}, {"--gauges", request.gauges.gauges},
+                                   {"--initial-state", request.initial_state}};
   if (net && net->lakes) in.push_back({"[network] lakes", net->lakes->source});
   if (net) in.push_back({"[network] dem", net->config.dem});
   return in;
@@ -88,6 +162,12 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   // network and is not an output path here).
   const std::vector<io::NamedPath> outputs_named = outputPaths(request.outputs);
   io::refuseOutputOverInput(outputs_named, inputPaths(request, nullptr));
+  if (!request.outputs.state_nc.empty() && request.method == routing::Method::DiffusionWave) {
+    InputLocation at;
+    at.field = "save_state";
+    throw InputError(at, "the diffusion method has no saved state (its state is a depth profile on a grid of its "
+                         "own): choose vpmc, mc or muskingum to save one");
+  }
   tell.stage("reading " + request.network.path);
   summary.network = loadNetwork(request.network);
   const LoadedNetwork& net = *summary.network;
@@ -99,6 +179,16 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
   requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
   summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.units);
+  routing::NetworkRouteOptions ro =
+      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
+  std::vector<routing::ReachState> start_states, end_states;
+  if (!request.initial_state.empty()) {
+    tell.stage("reading " + request.initial_state);
+    start_states = bindState(request.initial_state, io::readStateFile(request.initial_state), request, net, plan,
+                             forcing.axis(), ro.lakes);
+    ro.initial_states = &start_states;
+  }
+  if (!request.outputs.state_nc.empty()) ro.final_states = &end_states;
   std::vector<std::uint32_t> gauged;
   for (const auto& g : summary.gauges.gauges) gauged.push_back(g.reach);
   OutflowCapture capture(plan.size(), gauged);
@@ -109,8 +199,6 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), sinks, std::move(gauge_ids));
 
   tell.stage("routing");
-  routing::NetworkRouteOptions ro =
-      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
   std::vector<routing::LakeRouting> lake_routing;
   ro.lake_results = &lake_routing;
@@ -141,7 +229,24 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   summary.info.units = outputs.units();
   const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
   markLakeNodes(summary.results, summary.lakes);
-  outputs.commit(summary.results, summary.info, lakes, gauge_rows);
+  std::optional<io::SavedState> saved;
+  if (!request.outputs.state_nc.empty()) {
+    const routing::TimeAxis& axis = forcing.axis();
+    saved.emplace();
+    saved->method = routing::methodName(request.method);
+    saved->time_unix_s = axis.at(static_cast<double>(axis.steps - 1));
+    saved->utc_offset_min = axis.utc_offset_min;
+    saved->dt_s = axis.dt_s;
+    saved->reach_ids = plan.reach_id;
+    saved->reaches = std::move(end_states);
+    for (const LakeResult& l : summary.lakes) {
+      const routing::LevelPoolResult& r = l.routing.result;
+      if (!l.routing.routed || r.storage_m3.empty())
+        throw InternalError("lake " + l.lake_id + " was not routed: no state to save");
+      saved->lakes.push_back({l.lake_id, r.storage_m3.back(), r.level_m.back(), static_cast<std::uint32_t>(r.substeps)});
+    }
+  }
+  outputs.commit(summary.results, summary.info, lakes, gauge_rows, saved ? &*saved : nullptr);
   summary.gpkg = outputs.geopackage();
   summary.notes = outputs.notes();
   return summary;

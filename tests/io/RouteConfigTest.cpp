@@ -20,6 +20,8 @@ out = "out.gpkg"
 csv = "tables"
 series = "s.nc"
 report = "report"
+save_state = "states/end.nc"
+initial_state = "/data/start.nc"
 hydrographs = ["outlets", 17, "R3"]
 threads = 2
 write_back = false
@@ -36,6 +38,8 @@ units = "us"
   EXPECT_EQ(*c.csv, "/runs/a/tables");
   EXPECT_EQ(*c.series, "/runs/a/s.nc");
   EXPECT_EQ(*c.report, "/runs/a/report");
+  EXPECT_EQ(*c.save_state, "/runs/a/states/end.nc");
+  EXPECT_EQ(*c.initial_state, "/data/start.nc");
   EXPECT_EQ(*c.hydrographs, "outlets,17,R3");
   EXPECT_EQ(*c.threads, 2u);
   EXPECT_FALSE(*c.write_back);

@@ -14,6 +14,7 @@ namespace reachwise::io {
 struct RouteConfig {
   std::optional<std::string> inflow, lateral, method, out, schema, csv, series, hydrographs, report, report_reaches;
   std::optional<std::string> units;   ///< output units, "si" or "us" (unset: the network's)
+  std::optional<std::string> save_state, initial_state;  ///< saved state written / started from
   std::optional<double> dt_s;
   std::optional<unsigned> threads;
   std::optional<std::size_t> max_steps, max_hydrograph_rows;

@@ -85,6 +85,12 @@ struct LevelPoolOptions {
   std::size_t max_substeps = 1u << 16;  ///< per step of the series
   /// Initial level (m); unset: the level whose outflow equals the first inflow.
   std::optional<double> initial_level_m;
+  /// Initial storage (m^3), e.g. from a saved state; wins over
+  /// `initial_level_m`.
+  std::optional<double> initial_storage_m3 = std::nullopt;
+  /// Sub-steps per step, e.g. a saved state's (the grid of the run that
+  /// saved it); 0: chosen as route() describes.
+  std::size_t substeps = 0;
 };
 
 /// Routed series, one value per inflow sample, and the step's totals.

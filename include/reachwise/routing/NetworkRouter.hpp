@@ -10,6 +10,7 @@
 #include <cstdint>
 #include <functional>
 #include <limits>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -68,6 +69,10 @@ struct NetworkLake {
   std::vector<std::uint32_t> inflow_reaches;
   /// Level at the start; NaN: the steady state of the first inflow.
   double initial_level_m = std::numeric_limits<double>::quiet_NaN();
+  /// Storage at the start (m^3), e.g. a saved state's; wins over the level.
+  std::optional<double> initial_storage_m3 = std::nullopt;
+  /// Sub-steps per step (a saved state's); 0: chosen by LevelPool::route.
+  std::size_t substeps = 0;
 };
 
 struct NetworkRouteOptions {
@@ -91,6 +96,13 @@ struct NetworkRouteOptions {
   /// Where each lake's routing goes, by index into `lakes` (resized to
   /// it); null = not kept.
   std::vector<LakeRouting>* lake_results = nullptr;
+  /// Saved states to start from, by plan index (ReachState; one per reach,
+  /// a dry one or none = the steady state of the first sample); null: none.
+  const std::vector<ReachState>* initial_states = nullptr;
+  /// Where each reach's end state goes, by plan index (resized to the
+  /// plan); null = not kept. A reach routed with the diffusion wave has no
+  /// state: the run fails naming it (InputError, field `state`).
+  std::vector<ReachState>* final_states = nullptr;
 };
 
 /// Routes every reach of `plan` over `axis`. Each finished reach's outflow

@@ -61,6 +61,28 @@ struct RouteOptions {
   GridLimits limits;
 };
 
+/// A reach's state at the end of a run, for a later run to start from
+/// (docs/formats.md, "Saved state"): the flows at its section ends and the
+/// numerics that computed them. A run started from it routes the reach
+/// with these numerics (method, grid, reference flow, rating-table range)
+/// rather than choosing them from its own inflow, so that it continues
+/// exactly where the earlier run stopped.
+struct ReachState {
+  /// The method that routed the reach (ReachNumerics::method); `diffusion`
+  /// has no saved state (its state is a depth profile on a grid of its own).
+  Method method = Method::VariableParameter;
+  std::uint32_t subreaches = 0;  ///< 0: a dry reach (no flows kept; a later run starts it steady)
+  std::uint32_t substeps = 0;
+  double reference_q_m3s = std::numeric_limits<double>::quiet_NaN();
+  /// `vpmc`'s rating table: its flow range and nodes (0 nodes: no table).
+  double table_min_q_m3s = std::numeric_limits<double>::quiet_NaN();
+  double table_max_q_m3s = std::numeric_limits<double>::quiet_NaN();
+  std::uint32_t table_nodes = 0;
+  /// Flows at the subreaches + 1 section ends, top to bottom (m^3/s).
+  std::vector<double> q_m3s;
+  double storage_m3 = 0;  ///< the reach's storage for these flows (informative)
+};
+
 /// Output of routing one reach on the forcing's time axis.
 struct ReachRun {
   ReachNumerics numerics;
@@ -80,9 +102,19 @@ public:
   /// Writes the outflow into `outflow_m3s` (resized to the inflow's length).
   /// The reach starts in the steady state of the first sample. Throws
   /// InvalidParameter for a bad reach, step or negative/NaN inflow.
+  ///
+  /// With `start` (a saved ReachState with subreaches > 0), the reach
+  /// starts from its flows instead, routed with its numerics; its first
+  /// outflow sample is the state's last flow. InvalidParameter("state")
+  /// for a state the reach cannot take (a diffusion-wave state, a flow
+  /// count that is not subreaches + 1, a flow negative or not finite).
   ReachRun route(const ReachSpec& reach, std::span<const double> inflow_m3s,
                  std::span<const double> lateral_m3s, double dt_s, const RouteOptions& options,
-                 std::vector<double>& outflow_m3s);
+                 std::vector<double>& outflow_m3s, const ReachState* start = nullptr);
+
+  /// The state at the end of the last route (ReachState), from its run's
+  /// numerics; a dry reach (nothing routed) gives subreaches 0.
+  ReachState endState(const ReachRun& run) const;
 
   /// The rating table the last `vpmc` route used (for depth and velocity of
   /// its outflow); nullopt after other methods.
@@ -91,6 +123,10 @@ public:
 private:
   std::vector<double> q_;      // flows at the m+1 section ends, current time
   std::vector<double> total_;  // inflow + lateral, for the reference flow rule
+  bool routed_ = false;        // the last route ran a method (not a dry reach)
+  double table_lo_ = 0, table_hi_ = 0;  // the last vpmc table's range and nodes
+  std::uint32_t table_nodes_ = 0;
+  double storage_end_ = 0;
   std::optional<hydraulics::RatingTable> table_;
   std::optional<hydraulics::RatingTable> spare_;  // the last table's storage, rebuilt in place
 };

@@ -84,6 +84,13 @@ struct ReachNumerics {
   /// rise; 0 inside it, NaN when the inflow does not vary.
   double envelope_excursion_pct = kNaN;
   bool grid_compromise = false;     ///< no (subreaches, substeps) met every bound; the closest was used
+  /// The reach continued a saved state (ReachState) and its inflow rose
+  /// above twice the saved reference flow, so above any flow the saving run
+  /// saw (its peak is at most twice its reference flow, Q_ref being halfway
+  /// from base to peak): it is routed with numerics chosen for lower flows
+  /// (docs/formats.md, "Saved state"). Not for `muskingum`, whose numerics
+  /// do not depend on the flow.
+  bool above_saved_flows = false;
 };
 
 /// Volume accounting of one reach over the run (m^3).

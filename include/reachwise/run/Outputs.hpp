@@ -16,6 +16,7 @@
 #include "reachwise/io/LakesWriter.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "reachwise/io/ResultsWriter.hpp"
+#include "reachwise/io/SavedState.hpp"
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/routing/NetworkRouter.hpp"
 #include "reachwise/routing/Results.hpp"
@@ -44,6 +45,9 @@ struct OutputRequest {
   /// report (namedReaches(); needs `report_dir`); empty: none.
   std::string report_reaches;
   std::string hydrographs = "auto";   ///< which reaches' hydrographs: see chooseSeries()
+  /// The state at the end of the run (io::SavedState), to continue from
+  /// with RouteRequest::initial_state; empty: not written.
+  std::string state_nc;
   bool overwrite = false;   ///< replace existing outputs (else an existing one is an InputError naming it)
   /// The unit system of every output (GeoPackage, CSV, NetCDF, report;
   /// io/OutputUnits.hpp); unset: the network's input units
@@ -88,8 +92,11 @@ public:
   /// every lake the run routes) and the report, each under a temporary
   /// name, then puts them all in place with one io::OutputCommit: all
   /// appear or none (docs/formats.md, "Putting the outputs in place").
+  /// `state`: the end state, written to OutputRequest::state_nc (must be
+  /// given when that is set).
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
-              const std::vector<io::LakeOutput>& lakes = {}, const std::vector<io::GaugeOutput>& gauges = {});
+              const std::vector<io::LakeOutput>& lakes = {}, const std::vector<io::GaugeOutput>& gauges = {},
+              const io::SavedState* state = nullptr);
 
   /// The unit system the outputs are written in (OutputRequest::units, or
   /// the network's).

@@ -63,6 +63,11 @@ struct RouteRequest {
   std::string command_line;
   /// Further series sinks (owned by the caller), given every routed series.
   std::vector<routing::SeriesSink*> sinks;
+  /// A saved state (OutputRequest::state_nc of an earlier run) to start
+  /// from instead of the steady state: same network, method and step, and
+  /// the forcing's first time at the state's time (docs/formats.md, "Saved
+  /// state"); empty: none.
+  std::string initial_state;
 };
 
 /// Told what a run is doing. Called from the thread that called route(),

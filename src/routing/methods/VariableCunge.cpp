@@ -267,15 +267,38 @@ struct ConservativeCell {
 /// a decade or three, not five, so most of a five-decade table went unread.
 /// The node spacing in ln Q stays that of `nodes` over five decades, so the
 /// table is as accurate where it is read and costs fewer solves.
-hydraulics::RatingTable ratingTableFor(const hydraulics::Section& sec, double q_in_min,
+/// With a saved state (ctx.start) its table instead (the same range and
+/// nodes as the run that saved it) when this run's flows lie within it,
+/// else a table over both ranges. The range and nodes go to ctx.
+hydraulics::RatingTable ratingTableFor(RouteContext& ctx, const hydraulics::Section& sec, double q_in_min,
                                        double q_peak, double q_ref, std::size_t nodes,
                                        std::optional<hydraulics::RatingTable>& spare) {
-  const double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
-  const double q_lo = std::max(q_hi * 1e-5, 0.1 * q_in_min);
+  double q_hi = std::max(1.5 * q_peak, 2.0 * q_ref);
+  double q_lo = std::max(q_hi * 1e-5, 0.1 * q_in_min);
+  if (ctx.start) {
+    // The saved table while this run's flows lie within it (then the run
+    // computes what an unbroken run would); else the union of both ranges.
+    const ReachState& st = *ctx.start;
+    if (q_in_min >= st.table_min_q_m3s && q_peak <= st.table_max_q_m3s) {
+      ctx.table_min_q_m3s = st.table_min_q_m3s;
+      ctx.table_max_q_m3s = st.table_max_q_m3s;
+      ctx.table_nodes = st.table_nodes;
+      if (!spare) return hydraulics::RatingTable(sec, st.table_min_q_m3s, st.table_max_q_m3s, st.table_nodes);
+      hydraulics::RatingTable t = std::move(*spare);
+      spare.reset();
+      t.rebuild(sec, st.table_min_q_m3s, st.table_max_q_m3s, st.table_nodes);
+      return t;
+    }
+    q_lo = std::min(q_lo, st.table_min_q_m3s);
+    q_hi = std::max(q_hi, st.table_max_q_m3s);
+  }
   const double decades = std::log10(q_hi / q_lo);
   // (− 1e-9: a full five-decade table keeps exactly `nodes`.)
   const auto scaled = static_cast<std::size_t>(std::ceil(static_cast<double>(nodes) * decades / 5.0 - 1e-9));
   const std::size_t n = std::min(nodes, std::max<std::size_t>(16, scaled));  // nodes < 3 still throws
+  ctx.table_min_q_m3s = q_lo;
+  ctx.table_max_q_m3s = q_hi;
+  ctx.table_nodes = static_cast<std::uint32_t>(n);
   if (!spare) return hydraulics::RatingTable(sec, q_lo, q_hi, n);
   hydraulics::RatingTable t = std::move(*spare);
   spare.reset();
@@ -363,7 +386,7 @@ void variableCunge(RouteContext& ctx) {
   CungeReference ref = cungeAtReference(ctx);
   const hydraulics::Section& sec = ctx.reach.section;
   const RouteOptions& o = ctx.options;
-  ctx.table = ratingTableFor(sec, ctx.q_in_min_m3s, ctx.q_peak_m3s, ctx.q_ref_m3s, o.table_nodes, ctx.spare);
+  ctx.table = ratingTableFor(ctx, sec, ctx.q_in_min_m3s, ctx.q_peak_m3s, ctx.q_ref_m3s, o.table_nodes, ctx.spare);
   // The conservative cell reads the tables; the direct-solve option (a
   // check of the table) and the four-point option keep the discharge form.
   if (o.scheme == Scheme::ThreePoint && o.use_rating_table) {
