@@ -6,6 +6,8 @@
 #   FUZZ_BUILD_DIR=...                      build folder (default build-fuzz)
 #   FUZZ_JOBS=N                             N fuzzing processes per target (default 1)
 #   FUZZ_PARALLEL=N                         N targets at a time (default: one per core)
+#   FUZZ_SEED=N                             libFuzzer's seed (default 0: a new one each run;
+#                                           scripts/test.sh --sanitize uses 1, so that CI is repeatable)
 # Without clang and libFuzzer (Debian: clang libclang-rt-dev) it says so
 # and does nothing. A finding is kept in BUILD/fuzz-findings/TARGET/ and
 # the script exits 1 (docs/testing.md, "Fuzzing").
@@ -68,7 +70,7 @@ fuzz_one() {
   local jobs=()
   if ((${FUZZ_JOBS:-1} > 1)); then jobs=(-jobs="$FUZZ_JOBS" -workers="$FUZZ_JOBS"); fi  # logs: $findings/fuzz-N.log
   if ! (cd "$findings" && "$exe" -max_total_time="$seconds" -timeout=30 -rss_limit_mb=2048 -print_final_stats=1 \
-        "${jobs[@]}" -artifact_prefix="$findings/" "$work" >"$findings/run.log" 2>&1); then
+        -seed="${FUZZ_SEED:-0}" "${jobs[@]}" -artifact_prefix="$findings/" "$work" >"$findings/run.log" 2>&1); then
     echo "fuzz: $t: finding in $findings/ (log: $findings/run.log)"
     return 1
   fi

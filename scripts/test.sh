@@ -21,7 +21,7 @@ if [[ "${1:-}" == --sanitize ]]; then
   SETUP_TARGET="$target" "$here/scripts/setup.sh" --sanitize "$build"
   ctest --test-dir "$build" "${only[@]}" --output-on-failure --parallel "$(nproc)" --timeout 1800
   # The same build holds the fuzz targets (clang; docs/testing.md).
-  if [[ ${FUZZ_SECONDS:-60} != 0 ]]; then FUZZ_BUILD_DIR="$build" "$here/scripts/fuzz.sh" "${FUZZ_SECONDS:-60}"; fi
+  if [[ ${FUZZ_SECONDS:-60} != 0 ]]; then FUZZ_SEED="${FUZZ_SEED:-1}" FUZZ_BUILD_DIR="$build" "$here/scripts/fuzz.sh" "${FUZZ_SECONDS:-60}"; fi
   exit
 fi
 build="${BUILD_DIR:-$here/build}"

@@ -297,7 +297,7 @@ TimeCoordinate readTimes(int ncid, const std::filesystem::path& path, std::size_
 NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path, std::size_t max_steps)
     : path_(std::move(path)), max_steps_(max_steps) {
   const std::lock_guard lock(detail::netcdfMutex());
-  detail::check(nc_open(path_.c_str(), NC_NOWRITE, &ncid_), path_, "opening the file");
+  detail::check(detail::openForReading(path_, &ncid_), path_, "opening the file");
   try {
     readAxis();
     readIds();
@@ -436,7 +436,7 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
 RawForcing readObservedNetcdf(const std::filesystem::path& path) {
   const std::lock_guard lock(detail::netcdfMutex());
   int ncid = -1;
-  detail::check(nc_open(path.c_str(), NC_NOWRITE, &ncid), path, "opening the file");
+  detail::check(detail::openForReading(path, &ncid), path, "opening the file");
   struct Closer {
     int id;
     ~Closer() { nc_close(id); }

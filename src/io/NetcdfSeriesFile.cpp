@@ -6,12 +6,17 @@
 #include <sys/statvfs.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cerrno>
+#include <cstdint>
+#include <cstdio>
+#include <vector>
 #include <system_error>
 
 #include <fmt/format.h>
 
 #include "reachwise/Error.hpp"
+#include "reachwise/io/NetcdfHeader.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 
 namespace reachwise::io::detail {
@@ -26,6 +31,25 @@ void check(int status, const std::filesystem::path& file, const std::string& doi
   InputLocation where;
   where.file = file.string();
   throw InputError(where, fmt::format("netCDF: {}: {}", doing, nc_strerror(status)));
+}
+
+int openForReading(const std::filesystem::path& path, int* ncid) {
+  std::vector<std::uint8_t> head;
+  std::error_code ec;
+  const auto size = std::filesystem::file_size(path, ec);
+  if (!ec) head.resize(static_cast<std::size_t>(std::min<std::uintmax_t>(size, std::uintmax_t{16} << 20)));
+  std::size_t got = 0;
+  if (std::FILE* f = head.empty() ? nullptr : std::fopen(path.c_str(), "rb")) {
+    got = std::fread(head.data(), 1, head.size(), f);
+    std::fclose(f);
+  }
+  head.resize(got);
+  if (const auto problem = classicHeaderProblem(head)) {
+    InputLocation where;
+    where.file = path.string();
+    throw InputError(where, "is not a valid NetCDF file: " + *problem);
+  }
+  return nc_open(path.c_str(), NC_NOWRITE, ncid);
 }
 
 namespace {

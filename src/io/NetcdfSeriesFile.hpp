@@ -28,6 +28,12 @@ std::mutex& netcdfMutex();
 /// is not NC_NOERR.
 void check(int status, const std::filesystem::path& file, const std::string& doing);
 
+/// nc_open(path, NC_NOWRITE, ncid), after refusing a classic-format header
+/// that netCDF-C would crash on (io::classicHeaderProblem; the first 16 MB
+/// of the file are looked at). Returns nc_open's status; throws InputError
+/// naming `path` for a refused header.
+int openForReading(const std::filesystem::path& path, int* ncid);
+
 /// The units string written on (and expected, among others, of) `time`.
 inline constexpr const char* kTimeUnits = "seconds since 1970-01-01T00:00:00Z";
 

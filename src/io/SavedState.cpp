@@ -186,7 +186,7 @@ public:
 
   SavedState read() {
     const std::lock_guard lock(detail::netcdfMutex());
-    if (nc_open(path_.c_str(), NC_NOWRITE, &nc_.id) != NC_NOERR) {
+    if (detail::openForReading(path_, &nc_.id) != NC_NOERR) {
       nc_.id = -1;
       std::error_code ec;
       if (!fs::exists(path_, ec)) fail("", "the saved state does not exist");
