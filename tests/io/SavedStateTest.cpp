@@ -17,6 +17,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/OutputFiles.hpp"
 #include "support/Scratch.hpp"
+#include "support/Errors.hpp"
 
 using namespace reachwise;
 
@@ -61,16 +62,8 @@ std::string textAtt(int nc, int var, const char* name) {
   return s;
 }
 
-std::string errorOf(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const InputError& e) {
-    return e.what();
-  }
-  return "(no InputError)";
-}
-
-bool contains(const std::string& s, const std::string& part) { return s.find(part) != std::string::npos; }
+using testsupport::contains;
+using testsupport::errorOf;
 
 }  // namespace
 

@@ -19,6 +19,7 @@
 #include "reachwise/io/LakeReader.hpp"
 #include "reachwise/io/NetworkConfig.hpp"
 #include "support/Scratch.hpp"
+#include "support/Errors.hpp"
 
 using namespace reachwise;
 using network::Point2;
@@ -71,16 +72,8 @@ void writeLayer(const std::string& path, const std::vector<Feature>& features) {
 
 void writeText(const std::filesystem::path& path, const std::string& text) { std::ofstream(path) << text; }
 
-std::string errorOf(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const InputError& e) {
-    return e.what();
-  }
-  return "(no InputError)";
-}
-
-bool contains(const std::string& s, const std::string& part) { return s.find(part) != std::string::npos; }
+using testsupport::contains;
+using testsupport::errorOf;
 
 io::LakeReadOptions withFields(const std::string& toml, const std::string& origin = "run.toml") {
   io::LakeReadOptions o;

@@ -28,6 +28,7 @@
 #include "reachwise/run/Calibrate.hpp"
 #include "reachwise/run/Route.hpp"
 #include "support/Scratch.hpp"
+#include "support/Errors.hpp"
 
 using namespace reachwise;
 
@@ -180,16 +181,8 @@ std::set<std::string> ids(const network::NetworkPlan& plan, const std::vector<st
   return out;
 }
 
-std::string errorOf(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const InputError& e) {
-    return e.what();
-  }
-  return "(no InputError)";
-}
-
-bool contains(const std::string& s, const std::string& part) { return s.find(part) != std::string::npos; }
+using testsupport::contains;
+using testsupport::errorOf;
 
 }  // namespace
 

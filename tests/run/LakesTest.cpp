@@ -21,6 +21,7 @@
 #include "reachwise/run/Network.hpp"
 #include "reachwise/run/Route.hpp"
 #include "support/Scratch.hpp"
+#include "support/Errors.hpp"
 
 using namespace reachwise;
 using network::Point2;
@@ -80,16 +81,8 @@ void writeLakes(const std::string& path, const std::vector<LakeSpec>& lakes, con
   }
 }
 
-std::string errorOf(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const InputError& e) {
-    return e.what();
-  }
-  return "(no InputError)";
-}
-
-bool contains(const std::string& s, const std::string& part) { return s.find(part) != std::string::npos; }
+using testsupport::contains;
+using testsupport::errorOf;
 
 }  // namespace
 

@@ -21,6 +21,7 @@
 #include "reachwise/run/Route.hpp"
 #include "support/Scratch.hpp"
 #include "support/StateNetwork.hpp"
+#include "support/Errors.hpp"
 
 using namespace reachwise;
 
@@ -73,16 +74,8 @@ protected:
   }
 };
 
-std::string errorOf(const std::function<void()>& f) {
-  try {
-    f();
-  } catch (const InputError& e) {
-    return e.what();
-  }
-  return "(no InputError)";
-}
-
-bool contains(const std::string& s, const std::string& part) { return s.find(part) != std::string::npos; }
+using testsupport::contains;
+using testsupport::errorOf;
 
 }  // namespace
 
