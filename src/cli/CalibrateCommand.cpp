@@ -85,10 +85,14 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
   // stay in the units of the network calibrated.
   if (result.network->config.units == units::System::USCustomary) route.insert("units", "us");
   toml::table file{{"route", route}};
+  toml::table network;
   if (const auto& lakes = result.network->lakes) {
-    toml::table network{{"lakes", absolute(lakes->source)}, {"lakes_layer", lakes->layer}};
-    file.insert("network", network);
+    network.insert("lakes", absolute(lakes->source));
+    network.insert("lakes_layer", lakes->layer);
   }
+  // The forcing and observations stay in the units they were calibrated with.
+  if (result.network->config.forcingUnits() == units::System::USCustomary) network.insert("forcing_units", "us");
+  if (!network.empty()) file.insert("network", network);
   io::writeStaged(runFileFor(o.out), ".toml", [&](const fs::path& partial) {
     std::ofstream f(partial);
     f << "# Routes the calibrated network as `reachwise calibrate` routed it:\n"

@@ -94,10 +94,10 @@ void parseLakeFields(const toml::table& fields, NetworkConfig& cfg) {
   }
 }
 
-units::System parseUnits(const std::string& s, const std::string& origin) {
+units::System parseUnits(const std::string& s, const std::string& origin, const std::string& key) {
   if (s == "si") return units::System::SI;
   if (s == "us") return units::System::USCustomary;
-  throw configError(origin, "network.units", "expected \"si\" or \"us\", got \"" + s + "\"");
+  throw configError(origin, key, "expected \"si\" or \"us\", got \"" + s + "\"");
 }
 
 TopologySource parseTopology(const std::string& s, const std::string& origin) {
@@ -239,7 +239,9 @@ void parseNetworkTable(const toml::table& net, NetworkConfig& cfg) {
     } else if (name == "lakes_layer") {
       cfg.lakes_layer = requireString(v, o, key);
     } else if (name == "units") {
-      cfg.units = parseUnits(requireString(v, o, key), o);
+      cfg.units = parseUnits(requireString(v, o, key), o, key);
+    } else if (name == "forcing_units") {
+      cfg.forcing_units = parseUnits(requireString(v, o, key), o, key);
     } else if (name == "length_unit") {
       cfg.length_unit_m = v.is_string() ? metresPerUnit(*v.value<std::string>(), o)
                                         : requireNumber(v, o, key);

@@ -160,14 +160,14 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   const LoadedNetwork& net = *out.network;
   out.plan = routablePlan(net);
   network::NetworkPlan& plan = out.plan;
-  const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
+  const RunForcing forcing(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
   out.axis = forcing.axis();
   if (request.gauges.observed.empty()) {
     InputLocation at;
     at.field = "observed";
     throw InputError(at, "calibration needs observed hydrographs (--observed)");
   }
-  out.gauges = bindGauges(request.gauges, net, plan, out.axis, net.config.units);
+  out.gauges = bindGauges(request.gauges, net, plan, out.axis, net.config.forcingUnits());
   const auto& gauges = out.gauges.gauges;
 
   // Gauges with enough observations are calibrated; the others are left out.

@@ -176,9 +176,9 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   const network::NetworkPlan& plan = summary.plan;
 
   tell.stage("reading the forcing");
-  const RunForcing forcing(request.forcing, plan, net.config.units, &net.dropped_in_lake);
+  const RunForcing forcing(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
   requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
-  summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.units);
+  summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.forcingUnits());
   routing::NetworkRouteOptions ro =
       networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
   std::vector<routing::ReachState> start_states, end_states;

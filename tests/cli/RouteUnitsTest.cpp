@@ -488,3 +488,46 @@ TEST_F(RouteUnits, UnknownUnitsAreRefused) {
   EXPECT_NE(file.err.find("units"), std::string::npos) << file.err;
   EXPECT_NE(file.err.find("bad-units.toml"), std::string::npos) << file.err;
 }
+
+namespace {
+
+// A US customary network calibrated with forcing and records in ft³/s: the
+// calibrated network is SI, so its run file keeps the forcing's units apart
+// (`[network] forcing_units = "us"`), and routing it with that run file
+// gives the outflow calibrate reported. Before, the forcing was read as
+// m³/s (35 times too much) and the report's run failed.
+TEST(CalibrateUnits, AUsCustomaryNetworkCalibratesAndItsRunFileRoutesIt) {
+  testsupport::TempDir dir;
+  writeUsInput(dir.path());
+  scaleCsv(kSample + "observed.csv", dir.path() / "observed.csv", {2}, kCubicFoot);
+  const fs::path cal = dir.path() / "cal.gpkg";
+  const std::string forcing = " --inflow " + (dir.path() / "inflow.csv").string() + " --lateral " +
+                              (dir.path() / "lateral.csv").string() + " --config " + (dir.path() / "us.toml").string();
+  const std::string records = " --observed " + (dir.path() / "observed.csv").string() + " --gauges " + kSample +
+                              "gauges.gpkg";
+  const auto calibrated = testsupport::runReachwise("calibrate " + (dir.path() / "network.gpkg").string() + forcing +
+                                                    records + " --max-evaluations 8 --out " + cal.string() +
+                                                    " --report " + (dir.path() / "report").string());
+  ASSERT_EQ(calibrated.code, 0) << calibrated.err;
+  std::ifstream toml(dir.path() / "cal.toml");
+  std::stringstream text;
+  text << toml.rdbuf();
+  EXPECT_NE(text.str().find("forcing_units = 'us'"), std::string::npos) << text.str();
+  // Routed with its run file, the calibrated network takes the cfs forcing
+  // as cfs: the outlet's peak is that of the same network routed in SI
+  // from the sample's m³/s forcing, in cfs (the outputs' units follow).
+  const fs::path after = dir.path() / "after.gpkg", si = dir.path() / "si.gpkg";
+  ASSERT_EQ(testsupport::runReachwise("route " + cal.string() + " --config " + (dir.path() / "cal.toml").string() +
+                                      " --out " + after.string()).code, 0);
+  ASSERT_EQ(testsupport::runReachwise("route " + cal.string() + " --inflow " + kSample + "inflow.csv --lateral " +
+                                      kSample + "lateral.csv --out " + si.string()).code, 0);
+  const auto peak_cfs = reachField(after, "reaches", "peak_q"), peak_m3s = reachField(si, "reaches", "peak_q");
+  ASSERT_FALSE(peak_m3s.empty());
+  double largest = 0;
+  for (const auto& [id, q] : peak_m3s) largest = std::max(largest, q);
+  // The cfs forcing differs from the m³/s one in its last digit (kRoundTripTolerance).
+  for (const auto& [id, q] : peak_m3s)
+    EXPECT_NEAR(peak_cfs.at(id) * kCubicFoot, q, kRoundTripTolerance * largest) << id;
+}
+
+}  // namespace

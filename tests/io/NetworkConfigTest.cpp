@@ -59,6 +59,7 @@ method = "vpmc"   # other tables belong to other parts of the program
                                              "run.toml");
   EXPECT_EQ(cfg.layer, "streams");
   EXPECT_EQ(cfg.units, units::System::USCustomary);
+  EXPECT_EQ(cfg.forcingUnits(), units::System::USCustomary);  // follows units when not set
   // US survey foot = 1200/3937 m (its definition).
   EXPECT_DOUBLE_EQ(*cfg.length_unit_m, 1200.0 / 3937.0);
   EXPECT_EQ(cfg.topology, io::TopologySource::Geometry);
@@ -75,7 +76,14 @@ method = "vpmc"   # other tables belong to other parts of the program
   EXPECT_EQ(*cfg.field("shape").default_text, "circle");
 }
 
+TEST(NetworkConfig, ForcingUnitsStandApartFromTheNetworks) {
+  const auto cfg = NetworkConfig::fromString("[network]\nunits = \"si\"\nforcing_units = \"us\"\n", "run.toml");
+  EXPECT_EQ(cfg.units, units::System::SI);
+  EXPECT_EQ(cfg.forcingUnits(), units::System::USCustomary);
+}
+
 TEST(NetworkConfig, MistakesAreInputErrorsNamingTheKey) {
+  fails_at("[network]\nforcing_units = \"cfs\"\n", "network.forcing_units");
   fails_at("[network]\nunits = \"imperial\"\n", "network.units");
   fails_at("[network]\nsnap_tolrance = 1\n", "network.snap_tolrance");
   fails_at("[network]\nsnap_tolerance = 0.5\n", "network.snap_tolerance");  // replaced key

@@ -39,6 +39,11 @@ struct NetworkConfig {
   std::string origin;                      ///< file the config came from ("" = built-in)
   std::string layer;                       ///< layer name; empty = choose automatically
   units::System units = units::System::SI; ///< unit system of widths, depths, lengths, elevations
+  /// Unit system of the discharges in CSV forcing and observations (unset:
+  /// `units`). Set apart when the network's attributes and the forcing
+  /// differ, as for a calibrated network (SI) routed with US customary forcing.
+  std::optional<units::System> forcing_units;
+  units::System forcingUnits() const { return forcing_units.value_or(units); }
   /// Metres per coordinate unit for a layer without a CRS. Without a CRS
   /// and without this, reading is refused.
   std::optional<double> length_unit_m;
