@@ -3,6 +3,8 @@
 // sample network and storm scenario, with a short summary.
 #include "RouteCommand.hpp"
 
+#include <sys/resource.h>
+
 #include <fmt/core.h>
 #include <fmt/ostream.h>
 
@@ -13,6 +15,8 @@
 #include <iostream>
 #include <memory>
 #include <optional>
+#include <string_view>
+#include <vector>
 
 #include "Common.hpp"
 #include "Progress.hpp"
@@ -42,7 +46,7 @@ struct RouteOptions {
   unsigned threads = 0;
   std::size_t max_steps = io::kDefaultMaxSteps;
   std::size_t max_hydrograph_rows = run::kDefaultMaxHydrographRows;
-  bool write_back = false, overwrite = false, quiet = false, demo = false;
+  bool write_back = false, overwrite = false, quiet = false, demo = false, timings = false;
   std::string schema;           ///< of results in a database (--out PG:...)
   std::string command_line;
 };
@@ -260,16 +264,74 @@ void printRunSummary(std::ostream& out, std::ostream& err, const run::RouteSumma
   fmt::print(out, "caution: {}\n", run::kResultsCaution);
 }
 
-/// Draws the run's stages and routing progress on the terminal.
+/// Wall and CPU time of each stage of a run (`--timings`): the stages the
+/// run names (run::Progress::stage) split the time from the start to the
+/// end, so the stages add up to the total. CPU time is the process's (all
+/// threads), from getrusage(2), with the peak resident memory.
+class StageTimes {
+public:
+  StageTimes() { mark("checking the request"); }
+  void mark(std::string_view what) {
+    close();
+    stages_.push_back({std::string(what), Clock::now(), cpuSeconds(), 0, 0});
+  }
+  void print(std::ostream& out) {
+    close();
+    if (stages_.empty()) return;
+    double wall = 0, cpu = 0;
+    fmt::print(out, "timings (wall s, CPU s of all threads):\n");
+    for (const Stage& st : stages_) {
+      fmt::print(out, "  {:<48} {:9.3f} {:9.3f}\n", st.name, st.wall_s, st.cpu_s);
+      wall += st.wall_s;
+      cpu += st.cpu_s;
+    }
+    rusage u{};
+    ::getrusage(RUSAGE_SELF, &u);
+    fmt::print(out, "  {:<48} {:9.3f} {:9.3f}\n", "total", wall, cpu);
+    fmt::print(out, "  peak resident memory {:.0f} MB\n", static_cast<double>(u.ru_maxrss) / 1024.0);
+    stages_.clear();
+  }
+
+private:
+  using Clock = std::chrono::steady_clock;
+  struct Stage {
+    std::string name;
+    Clock::time_point start;
+    double cpu_start, wall_s, cpu_s;
+  };
+  static double cpuSeconds() {
+    rusage u{};
+    ::getrusage(RUSAGE_SELF, &u);
+    return static_cast<double>(u.ru_utime.tv_sec + u.ru_stime.tv_sec) +
+           static_cast<double>(u.ru_utime.tv_usec + u.ru_stime.tv_usec) * 1e-6;
+  }
+  void close() {
+    if (stages_.empty() || closed_ == stages_.size()) return;
+    Stage& last = stages_.back();
+    last.wall_s = std::chrono::duration<double>(Clock::now() - last.start).count();
+    last.cpu_s = cpuSeconds() - last.cpu_start;
+    closed_ = stages_.size();
+  }
+  std::vector<Stage> stages_;
+  std::size_t closed_ = 0;
+};
+
+/// Draws the run's stages and routing progress on the terminal, and times
+/// the stages.
 class BarProgress final : public run::Progress {
 public:
   explicit BarProgress(bool enabled) : bar_("routing", enabled) {}
-  void stage(std::string_view what) override { bar_.stage(std::string(what)); }
+  void stage(std::string_view what) override {
+    times_.mark(what);
+    bar_.stage(std::string(what));
+  }
   void routed(std::size_t done, std::size_t total) override { bar_.update(done, total); }
   void finish() { bar_.finish(); }
+  StageTimes& times() { return times_; }
 
 private:
   ProgressBar bar_;
+  StageTimes times_;
 };
 
 run::RouteRequest requestOf(const RouteOptions& o) {
@@ -320,6 +382,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
 
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
   if (o.demo || !o.quiet) printRunSummary(out, err, s, lakes, o);
+  if (o.timings) progress.times().print(out);
   return kExitOk;
 }
 
@@ -355,6 +418,7 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--write-back", o.write_back, c.write_back);
   take("--overwrite", o.overwrite, c.overwrite);
   take("--quiet", o.quiet, c.quiet);
+  take("--timings", o.timings, c.timings);
   take("--units", o.units, c.units);
 }
 
@@ -425,6 +489,9 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
       ->check(CLI::IsMember({"si", "us"}));
   sub->add_option("--threads", o->threads, threadsHelp())->check(CLI::Range(1u, kMostThreads));
   sub->add_flag("--quiet", o->quiet, "Print nothing but errors");
+  sub->add_flag("--timings", o->timings,
+                "Print the wall and CPU time of each stage (reading, forcing, routing, writing) and the peak memory, "
+                "also with --quiet");
   sub->callback([&chosen, o, sub, command_line] {
     o->command_line = command_line;
     chosen = [o, sub] {

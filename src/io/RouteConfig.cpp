@@ -107,6 +107,7 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
     } else if (key == "write_back") c.write_back = required<bool>(v, origin, key, "true or false");
     else if (key == "overwrite") c.overwrite = required<bool>(v, origin, key, "true or false");
     else if (key == "quiet") c.quiet = required<bool>(v, origin, key, "true or false");
+    else if (key == "timings") c.timings = required<bool>(v, origin, key, "true or false");
     else throw keyError(origin, key, "unknown key (see docs/formats.md)");
   }
   return c;

@@ -18,7 +18,7 @@ struct RouteConfig {
   std::optional<double> dt_s;
   std::optional<unsigned> threads;
   std::optional<std::size_t> max_steps, max_hydrograph_rows;
-  std::optional<bool> write_back, overwrite, quiet;
+  std::optional<bool> write_back, overwrite, quiet, timings;
 
   /// Parses the `[route]` table of `path` (absent table = all unset).
   /// Throws InputError naming the file and key for an unknown key, a value
