@@ -7,7 +7,7 @@
 # 10,000 reaches: the outlets and the branches of the 1,000 largest
 # confluences) GeoPackage -> GeoPackage and database -> database, each
 # REPEATS times (default 2; the fastest counts, the machine may be shared).
-# Prints wall times, peak RSS and the ratio.
+# Prints wall times, peak RSS, each run's stages (--timings) and the ratio.
 #
 # Usage: bench/postgis_100k.sh BUILD_DIR [WORK_DIR]     (N=..., REPEATS=...)
 set -euo pipefail
@@ -41,13 +41,14 @@ run() {  # LABEL ARGS...: the fastest of REPEATS runs
   local label="$1" best="" rss="" k
   shift
   for ((k = 0; k < repeats; k++)); do
-    /usr/bin/time -v "$bin" route "$@" --lateral "$lat" --overwrite --quiet >"$work/$label.out" 2>"$work/$label.log"
+    /usr/bin/time -v "$bin" route "$@" --lateral "$lat" --overwrite --quiet --timings >"$work/$label.out" 2>"$work/$label.log"
     local wall r
     wall=$(awk -F': ' '/Elapsed \(wall clock\)/ {n = split($2, p, ":"); s = 0; for (i = 1; i <= n; i++) s = s * 60 + p[i]; print s}' "$work/$label.log")
     r=$(awk '/Maximum resident set size/ {printf "%.0f", $NF / 1024}' "$work/$label.log")
     if [ -z "$best" ] || awk -v a="$wall" -v b="$best" 'BEGIN {exit !(a < b)}'; then best="$wall"; rss="$r"; fi
   done
-  echo "$label: wall $best s, peak RSS $rss MB" >&2
+  echo "$label: wall $best s, peak RSS $rss MB; stages of the last run:" >&2
+  sed -n '/^timings/,$p' "$work/$label.out" >&2
   echo "$best"
 }
 gpkg=$(run gpkg "$net" --out "$work/out.gpkg")
