@@ -125,8 +125,13 @@ bool MpiRanks::barrierPassed() {
   if (!in_barrier_) return false;
   int done = 0;
   check(MPI_Test(&barrier_, &done, MPI_STATUS_IGNORE), "barrier");
-  if (done) in_barrier_ = false;
-  return done != 0;
+  if (!done) return false;
+  in_barrier_ = false;
+  // Every rank passes here once per run: the next run talks on a fresh
+  // communicator, where nothing a failed run left unreceived can reach it.
+  MPI_Comm_free(&messages_);
+  check(MPI_Comm_dup(MPI_COMM_WORLD, &messages_), "communicator");
+  return true;
 }
 
 std::optional<routing::Ranks::Failure> MpiRanks::firstFailure(const std::optional<Failure>& mine) {

@@ -14,8 +14,8 @@
 /// (longest-processing-time-first, Graham 1969, "Bounds on multiprocessing
 /// timing anomalies", SIAM J. Appl. Math. 17(2)).
 ///
-/// Work is counted as one unit per reach: the cells a reach needs per step
-/// vary far less between reaches than the reach count between parts.
+/// Work is counted as one unit per reach: a reach's grid (its cells per
+/// step) is chosen only when it is routed, from the flows that reach it.
 
 #include <cstddef>
 #include <cstdint>
