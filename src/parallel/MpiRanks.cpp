@@ -1,9 +1,11 @@
 #include "reachwise/parallel/MpiRanks.hpp"
 
 #include <algorithm>
+#include <chrono>
 #include <cstdint>
 #include <cstdlib>
 #include <limits>
+#include <thread>
 
 #include "reachwise/Error.hpp"
 
@@ -22,19 +24,44 @@ void check(int code, const char* what) {
   throw InternalError(std::string("MPI: ") + what + ": " + std::string(text, static_cast<std::size_t>(length)));
 }
 
-/// Sends `data` to `to` in pieces of at most kChunk bytes (blocking).
+/// Waits for `request` sleeping between tests (50 µs, doubling to 5 ms):
+/// a rank waiting for another (rank 0 writing the outputs, say) leaves
+/// the core to it, where MPI's own blocking calls would spin on it.
+void waitGently(MPI_Request& request, const char* what) {
+  auto pause = std::chrono::microseconds(50);
+  for (;;) {
+    int done = 0;
+    check(MPI_Test(&request, &done, MPI_STATUS_IGNORE), what);
+    if (done) return;
+    std::this_thread::sleep_for(pause);
+    pause = std::min(pause * 2, std::chrono::microseconds(5000));
+  }
+}
+
+/// Sends `data` to `to` in pieces of at most kChunk bytes.
 void sendAll(const std::byte* data, std::size_t n, int to, MPI_Comm comm) {
   for (std::size_t at = 0; at < n; at += kChunk) {
     const int count = static_cast<int>(std::min(kChunk, n - at));
-    check(MPI_Send(data + at, count, MPI_BYTE, to, 0, comm), "send");
+    MPI_Request r;
+    check(MPI_Isend(data + at, count, MPI_BYTE, to, 0, comm, &r), "send");
+    waitGently(r, "send");
   }
 }
 
 void receiveAll(std::byte* data, std::size_t n, int from, MPI_Comm comm) {
   for (std::size_t at = 0; at < n; at += kChunk) {
     const int count = static_cast<int>(std::min(kChunk, n - at));
-    check(MPI_Recv(data + at, count, MPI_BYTE, from, 0, comm, MPI_STATUS_IGNORE), "receive");
+    MPI_Request r;
+    check(MPI_Irecv(data + at, count, MPI_BYTE, from, 0, comm, &r), "receive");
+    waitGently(r, "receive");
   }
+}
+
+/// MPI_Bcast, waited for gently.
+void broadcastBytes(void* data, int count, MPI_Datatype type, int root, MPI_Comm comm, const char* what) {
+  MPI_Request r;
+  check(MPI_Ibcast(data, count, type, root, comm, &r), what);
+  waitGently(r, what);
 }
 
 }  // namespace
@@ -136,7 +163,9 @@ bool MpiRanks::barrierPassed() {
 
 std::optional<routing::Ranks::Failure> MpiRanks::firstFailure(const std::optional<Failure>& mine) {
   int first = mine ? rank_ : size_;
-  check(MPI_Allreduce(MPI_IN_PLACE, &first, 1, MPI_INT, MPI_MIN, collective_), "agree");
+  MPI_Request r;
+  check(MPI_Iallreduce(MPI_IN_PLACE, &first, 1, MPI_INT, MPI_MIN, collective_, &r), "agree");
+  waitGently(r, "agree");
   if (first == size_) return std::nullopt;
   std::vector<std::byte> text;
   int internal = 0;
@@ -145,11 +174,11 @@ std::optional<routing::Ranks::Failure> MpiRanks::firstFailure(const std::optiona
     const auto* p = reinterpret_cast<const std::byte*>(mine->message.data());
     text.assign(p, p + mine->message.size());
   }
-  check(MPI_Bcast(&internal, 1, MPI_INT, first, collective_), "agree");
+  broadcastBytes(&internal, 1, MPI_INT, first, collective_, "agree");
   std::uint64_t n = text.size();
-  check(MPI_Bcast(&n, 1, MPI_UINT64_T, first, collective_), "agree");
+  broadcastBytes(&n, 1, MPI_UINT64_T, first, collective_, "agree");
   text.resize(n);
-  if (n) check(MPI_Bcast(text.data(), static_cast<int>(n), MPI_BYTE, first, collective_), "agree");
+  if (n) broadcastBytes(text.data(), static_cast<int>(std::min<std::uint64_t>(n, kChunk)), MPI_BYTE, first, collective_, "agree");
   Failure f;
   f.rank = first;
   f.internal = internal != 0;
@@ -160,7 +189,9 @@ std::optional<routing::Ranks::Failure> MpiRanks::firstFailure(const std::optiona
 std::vector<std::vector<std::byte>> MpiRanks::gather(const std::vector<std::byte>& mine) {
   std::uint64_t n = mine.size();
   std::vector<std::uint64_t> sizes(rank_ == 0 ? static_cast<std::size_t>(size_) : 0);
-  check(MPI_Gather(&n, 1, MPI_UINT64_T, sizes.data(), 1, MPI_UINT64_T, 0, collective_), "gather");
+  MPI_Request r;
+  check(MPI_Igather(&n, 1, MPI_UINT64_T, sizes.data(), 1, MPI_UINT64_T, 0, collective_, &r), "gather");
+  waitGently(r, "gather");
   if (rank_ != 0) {
     sendAll(mine.data(), mine.size(), 0, collective_);
     return {};
@@ -176,12 +207,11 @@ std::vector<std::vector<std::byte>> MpiRanks::gather(const std::vector<std::byte
 
 void MpiRanks::broadcast(std::vector<std::byte>& data) {
   std::uint64_t n = data.size();
-  check(MPI_Bcast(&n, 1, MPI_UINT64_T, 0, collective_), "broadcast");
+  broadcastBytes(&n, 1, MPI_UINT64_T, 0, collective_, "broadcast");
   data.resize(n);
   for (std::size_t at = 0; at < n; at += kChunk)
-    check(MPI_Bcast(data.data() + at, static_cast<int>(std::min<std::size_t>(kChunk, n - at)), MPI_BYTE, 0,
-                    collective_),
-          "broadcast");
+    broadcastBytes(data.data() + at, static_cast<int>(std::min<std::size_t>(kChunk, n - at)), MPI_BYTE, 0,
+                   collective_, "broadcast");
 }
 
 }  // namespace reachwise::parallel

@@ -342,14 +342,20 @@ private:
         if (local(i) && plan_.isHeadwater(i)) spawn(i);
     });
     bool told = false, waiting = false;
+    // Between polls this thread sleeps until a worker wakes it, or 50 µs,
+    // doubling to 1 ms while nothing happens (a missed wake costs that).
+    auto pause = std::chrono::microseconds(50);
     for (;;) {
+      bool busy = false;
       std::deque<Outgoing> out;
       {
         std::lock_guard lock(outbox_mutex_);
         out.swap(outbox_);
       }
       for (Outgoing& m : out) ranks.send(m.to, m.tag, std::move(m.data));
+      busy = !out.empty();
       while (auto m = ranks.receive()) {
+        busy = true;
         try {
           take(*m, arena);
         } catch (...) {
@@ -363,12 +369,13 @@ private:
             if (r != me_) ranks.send(r, kFailed, {});
           told = true;
         }
+        // Idle first: with no task left, only this thread adds messages.
+        const bool idle = in_flight_.load() == 0;
         bool empty;
         {
           std::lock_guard lock(outbox_mutex_);
           empty = outbox_.empty();
         }
-        const bool idle = in_flight_.load() == 0;
         const bool finished = failed || (done_local_.load() == local_count_ && received_ == expected_);
         if (finished && idle && empty && ranks.allSent()) {
           ranks.enterBarrier();
@@ -376,8 +383,9 @@ private:
         }
       }
       if (waiting && ranks.barrierPassed()) break;
+      pause = busy ? std::chrono::microseconds(50) : std::min(pause * 2, std::chrono::microseconds(1000));
       std::unique_lock lock(wake_mutex_);
-      wake_.wait_for(lock, std::chrono::microseconds(100));  // a missed wake costs 100 µs
+      wake_.wait_for(lock, pause);
     }
     arena.execute([&] { tasks_.wait(); });
     std::optional<Ranks::Failure> mine;
