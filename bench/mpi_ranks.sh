@@ -52,7 +52,7 @@ run() {
 
 cores="$(nproc)"
 echo "machine: $(nproc) cores, $(awk '/MemTotal/ {printf "%.0f GB", $2 / 1048576}' /proc/meminfo), load before: $(cut -d' ' -f1-3 /proc/loadavg)"
-echo "network: $n reaches, $outlets outlet(s), $steps steps; hydrographs: ${SELECTION:-route's default}"
+echo "network: $n reaches, $outlets outlet(s), $steps steps; hydrographs: ${SELECTION:-as route chooses}"
 echo
 echo "| run | wall s | peak RSS MB (one process) | routing s (rank 0) | writing s | same values as alone |"
 echo "|---|---|---|---|---|---|"
