@@ -112,7 +112,14 @@ TEST(ForcingAxis, AFirstSampleOffTheWholeSecondSaysToPutTimesOnWholeSeconds) {
   // The run starts at the earliest sample; there is no start option to
   // give, so the message asks for whole-second times instead.
   RawForcing f = hourlySamples();
-  for (double& t : f.series["R1"].t_s) t += 0.5;
+  const RawSeries s = f.series["R1"];
+  RawSeries later;  // the same samples half a second later
+  for (std::size_t k = 0; k < s.t_s.size(); ++k) {
+    later.t_s.push_back(s.t_s[k] + 0.5);
+    later.q_m3s.push_back(s.q_m3s[k]);
+    later.line.push_back(s.line[k]);
+  }
+  f.series["R1"] = later;
   try {
     chooseForcingAxis(&f, nullptr, {});
     ADD_FAILURE() << "a start at half a second was accepted";
