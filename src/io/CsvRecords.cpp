@@ -5,6 +5,10 @@
 #include <cerrno>
 #include <cstring>
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 #include <fmt/format.h>
 
 #include "reachwise/Error.hpp"
@@ -28,6 +32,26 @@ constexpr std::array<bool, 256> kStops = [] {
 }();
 
 constexpr std::string_view kBom = "\xEF\xBB\xBF";
+
+/// The first stop byte (kStops) at or after `i`, or `n`.
+inline std::size_t findStop(const char* text, std::size_t i, std::size_t n) {
+#if defined(__SSE2__)
+  // Sixteen bytes compared at once: a field of a few characters is found
+  // with one comparison and no loop whose length the branch predictor has
+  // to guess.
+  const __m128i comma = _mm_set1_epi8(','), lf = _mm_set1_epi8('\n');
+  const __m128i cr = _mm_set1_epi8('\r'), quote = _mm_set1_epi8('"');
+  for (; i + 16 <= n; i += 16) {
+    const __m128i block = _mm_loadu_si128(reinterpret_cast<const __m128i*>(text + i));
+    const __m128i hit = _mm_or_si128(_mm_or_si128(_mm_cmpeq_epi8(block, comma), _mm_cmpeq_epi8(block, lf)),
+                                     _mm_or_si128(_mm_cmpeq_epi8(block, cr), _mm_cmpeq_epi8(block, quote)));
+    const auto mask = static_cast<unsigned>(_mm_movemask_epi8(hit));
+    if (mask != 0) return i + static_cast<std::size_t>(__builtin_ctz(mask));
+  }
+#endif
+  while (i < n && !kStops[static_cast<unsigned char>(text[i])]) ++i;
+  return i;
+}
 
 }  // namespace
 
@@ -159,7 +183,7 @@ CsvScanner::Parsed CsvScanner::parse() {
         throw InputError(textLocation(file_, line_), "text after the closing quote of a field");
     } else {
       const std::size_t begin = i;
-      while (i < n && !kStops[static_cast<unsigned char>(text[i])]) ++i;
+      i = findStop(text, i, n);
       if (i < n && text[i] == '"')
         throw InputError(textLocation(file_, line_), "a quote inside an unquoted field (quote the whole field)");
       if (i >= n && !eof_) return Parsed::More;
