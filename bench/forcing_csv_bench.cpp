@@ -10,7 +10,9 @@
 //   forcing_csv_bench read PATH
 //       reads PATH as the inflow of a run (io::readForcingCsv: the file
 //       read, checked and put on the run's axis, as `route` does) and prints
-//       one line: bytes, seconds, MB/s, series, values, decoded MB (values ×
+//       one line: bytes, wall seconds, MB/s, CPU seconds (user + system,
+//       getrusage) and MB per CPU second (the speed per core, less
+//       sensitive to a busy machine), series, values, decoded MB (values ×
 //       8 bytes), peak RSS MB (getrusage) and peak RSS / decoded.
 #include <sys/resource.h>
 
@@ -70,21 +72,30 @@ int write(const std::string& form, const std::string& path, std::size_t columns,
   return std::fclose(f) == 0 ? 0 : 1;
 }
 
+/// CPU seconds (user + system) this process has used so far.
+double cpuSeconds(const rusage& u) {
+  return static_cast<double>(u.ru_utime.tv_sec + u.ru_stime.tv_sec) +
+         static_cast<double>(u.ru_utime.tv_usec + u.ru_stime.tv_usec) / 1e6;
+}
+
 int read(const std::string& path) {
   const auto bytes = std::filesystem::file_size(path);
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  const double cpu_start = cpuSeconds(usage);
   const auto start = std::chrono::steady_clock::now();
   const reachwise::io::Forcing forcing = reachwise::io::readForcingCsv(path, std::nullopt);
   const double s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  getrusage(RUSAGE_SELF, &usage);
+  const double cpu = cpuSeconds(usage) - cpu_start;
   std::size_t values = 0;
   for (const auto& entry : forcing.inflow) values += entry.second.size();
-  rusage usage{};
-  getrusage(RUSAGE_SELF, &usage);
   const double rss_mb = static_cast<double>(usage.ru_maxrss) / 1024.0;  // ru_maxrss is in KiB on Linux
   const double decoded_mb = static_cast<double>(values) * 8.0 / (1024.0 * 1024.0);
-  fmt::print("bytes {} seconds {:.3f} MB/s {:.1f} series {} values {} decoded_MB {:.1f} peak_RSS_MB {:.1f} "
-             "RSS/decoded {:.2f}\n",
-             bytes, s, static_cast<double>(bytes) / 1e6 / s, forcing.inflow.size(), values, decoded_mb, rss_mb,
-             rss_mb / decoded_mb);
+  fmt::print("bytes {} seconds {:.3f} MB/s {:.1f} cpu_seconds {:.3f} MB/cpu-s {:.1f} series {} values {} "
+             "decoded_MB {:.1f} peak_RSS_MB {:.1f} RSS/decoded {:.2f}\n",
+             bytes, s, static_cast<double>(bytes) / 1e6 / s, cpu, static_cast<double>(bytes) / 1e6 / cpu,
+             forcing.inflow.size(), values, decoded_mb, rss_mb, rss_mb / decoded_mb);
   return 0;
 }
 
