@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <type_traits>
 
 #include <fmt/format.h>
 
@@ -20,13 +21,22 @@ using detail::textLocation;
 /// blamed); NaN when no reach has two samples. With `require`, any other
 /// spacing is an InputError.
 double fileStep(const RawForcing& file, bool require) {
+  // Series on the same times as the one before (every column of a wide
+  // file, as a rule) give the same spacings: they are looked at once.
   double step = std::numeric_limits<double>::infinity();
-  for (const auto& entry : file.series)
-    for (std::size_t k = 1; k < entry.second.t_s.size(); ++k)
-      step = std::min(step, entry.second.t_s[k] - entry.second.t_s[k - 1]);
+  const SteppedSequence<double>* before = nullptr;
+  for (const auto& entry : file.series) {
+    const SteppedSequence<double>& t = entry.second.t_s;
+    if (before && t == *before) continue;
+    before = &t;
+    for (std::size_t k = 1; k < t.size(); ++k) step = std::min(step, t[k] - t[k - 1]);
+  }
   if (std::isinf(step)) return std::numeric_limits<double>::quiet_NaN();
   if (!require) return step;
+  before = nullptr;
   for (const auto& [id, s] : file.series) {
+    if (before && s.t_s == *before) continue;
+    before = &s.t_s;
     for (std::size_t k = 1; k < s.t_s.size(); ++k) {
       const double d = s.t_s[k] - s.t_s[k - 1];
       if (std::abs(d - step) <= kSameInstant_s) continue;
@@ -79,11 +89,13 @@ Span dataSpan(const RawForcing* inflow, const RawForcing* lateral) {
   return span;
 }
 
-/// Places samples that lie on the grid (no resampling asked for).
-std::vector<double> placeOnGrid(const RawSeries& s, const routing::TimeAxis& axis,
-                                const std::string& file, const std::string& id) {
-  std::vector<double> out(axis.steps, 0.0);
-  std::optional<std::size_t> lo, hi;
+/// The axis index of every sample that lies on the grid (no resampling
+/// asked for); an InputError for the first one off it. True when the
+/// samples are the axis itself, one per step from the first (the values
+/// then need no copying).
+bool checkOnGrid(const RawSeries& s, const routing::TimeAxis& axis, const std::string& file,
+                 const std::string& id) {
+  bool identity = s.t_s.size() == axis.steps;
   for (std::size_t k = 0; k < s.t_s.size(); ++k) {
     const double index = (s.t_s[k] - axis.at(0)) / axis.dt_s;
     const double nearest = std::round(index);
@@ -96,6 +108,17 @@ std::vector<double> placeOnGrid(const RawSeries& s, const routing::TimeAxis& axi
                                           formatIsoTime(axis.start_unix_s, axis.utc_offset_min),
                                           axis.dt_s));
     }
+    identity = identity && nearest == static_cast<double>(k);
+  }
+  return identity;
+}
+
+/// Places samples that lie on the grid (checkOnGrid passed).
+std::vector<double> placeOnGrid(const RawSeries& s, const routing::TimeAxis& axis) {
+  std::vector<double> out(axis.steps, 0.0);
+  std::optional<std::size_t> lo, hi;
+  for (std::size_t k = 0; k < s.t_s.size(); ++k) {
+    const double nearest = std::round((s.t_s[k] - axis.at(0)) / axis.dt_s);
     if (nearest < 0 || nearest >= static_cast<double>(axis.steps)) continue;  // outside the window
     const auto i = static_cast<std::size_t>(nearest);
     out[i] = s.q_m3s[k];
@@ -219,20 +242,62 @@ routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* 
   }
 }
 
-Forcing buildForcing(const RawForcing* inflow, const RawForcing* lateral,
-                     const AxisRequest& request) {
+namespace {
+
+/// buildForcing (File const) and takeForcing: taking, each series is
+/// emptied (its values moved when they are the axis itself) once placed.
+template <class File>
+Forcing placeAll(File* inflow, File* lateral, const AxisRequest& request) {
+  constexpr bool take = !std::is_const_v<File>;
   Forcing out;
   out.axis = chooseForcingAxis(inflow, lateral, request);
   const bool resampling = request.dt_s || request.on_axis;
   for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
-    const RawForcing* file = kind == ForcingKind::Inflow ? inflow : lateral;
+    File* file = kind == ForcingKind::Inflow ? inflow : lateral;
     if (!file) continue;
     out.origin(kind) = file->file;
-    for (const auto& [id, s] : file->series)
-      out.series(kind)[id] = resampling ? resample(s, out.axis) : placeOnGrid(s, out.axis, file->file, id);
-    noteHolds(*file, kind, out.axis, out.warnings);
+    // Before any series is taken: the holds are read from the samples' times.
+    std::vector<std::string> holds;
+    noteHolds(*file, kind, out.axis, holds);
+    SeriesMap& series = out.series(kind);
+    // Series on the same times as the one checked before are on the grid as it is.
+    SteppedSequence<double> checked;
+    bool checked_identity = false, have_checked = false;
+    for (auto& [id, s] : file->series) {
+      std::vector<double> values;
+      bool identity = false;
+      if (!resampling) {
+        if (!have_checked || !(s.t_s == checked)) {
+          checked_identity = checkOnGrid(s, out.axis, file->file, id);
+          checked = s.t_s;
+          have_checked = true;
+        }
+        identity = checked_identity;
+      }
+      if (resampling) {
+        values = resample(s, out.axis);
+      } else if (identity && take) {
+        if constexpr (take) values = std::move(s.q_m3s);
+      } else {
+        values = placeOnGrid(s, out.axis);
+      }
+      series.emplace_hint(series.end(), id, std::move(values));
+      if constexpr (take) s = RawSeries{};
+    }
+    out.warnings.insert(out.warnings.end(), holds.begin(), holds.end());
   }
   return out;
+}
+
+}  // namespace
+
+Forcing buildForcing(const RawForcing* inflow, const RawForcing* lateral,
+                     const AxisRequest& request) {
+  return placeAll(inflow, lateral, request);
+}
+
+Forcing takeForcing(RawForcing* inflow, RawForcing* lateral, const AxisRequest& request) {
+  return placeAll(inflow, lateral, request);
 }
 
 }  // namespace reachwise::io

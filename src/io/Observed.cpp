@@ -14,7 +14,7 @@ namespace reachwise::io {
 
 std::vector<double> observedOnAxis(const RawSeries& series, const routing::TimeAxis& axis) {
   std::vector<double> out(axis.steps, std::numeric_limits<double>::quiet_NaN());
-  const auto& t = series.t_s;
+  const std::vector<double> t = series.t_s.values();
   for (std::size_t i = 0; i < axis.steps; ++i) {
     const double at = axis.at(static_cast<double>(i));
     // First observation after `at` (less the same-instant slack).

@@ -1,6 +1,8 @@
 #include "support/Scratch.hpp"
 #include "reachwise/io/ForcingAxis.hpp"
 
+#include <random>
+
 #include <gtest/gtest.h>
 
 #include "reachwise/Error.hpp"
@@ -112,7 +114,14 @@ TEST(ForcingAxis, AFirstSampleOffTheWholeSecondSaysToPutTimesOnWholeSeconds) {
   // The run starts at the earliest sample; there is no start option to
   // give, so the message asks for whole-second times instead.
   RawForcing f = hourlySamples();
-  for (double& t : f.series["R1"].t_s) t += 0.5;
+  const RawSeries s = f.series["R1"];
+  RawSeries later;  // the same samples half a second later
+  for (std::size_t k = 0; k < s.t_s.size(); ++k) {
+    later.t_s.push_back(s.t_s[k] + 0.5);
+    later.q_m3s.push_back(s.q_m3s[k]);
+    later.line.push_back(s.line[k]);
+  }
+  f.series["R1"] = later;
   try {
     chooseForcingAxis(&f, nullptr, {});
     ADD_FAILURE() << "a start at half a second was accepted";
@@ -141,4 +150,61 @@ TEST(ForcingAxis, AnAxisLongerThanAllowedIsRefusedBeforeItIsMade) {
   AxisRequest tiny;
   tiny.dt_s = 1e-16;
   EXPECT_THROW(chooseForcingAxis(&f, nullptr, tiny), InvalidParameter);
+}
+
+TEST(SteppedSequence, GivesBackEveryValueBitForBit) {
+  // Irregular random values (one run each, at worst) and regular ones
+  // (hourly times from a fractional start, lines every 7 rows: one run).
+  std::mt19937_64 rng(9);
+  std::uniform_real_distribution<double> any(-1e9, 1e9);
+  SteppedSequence<double> irregular;
+  std::vector<double> written;
+  for (int k = 0; k < 2000; ++k) {
+    written.push_back(k % 3 == 0 ? any(rng) : (written.empty() ? 0.0 : written.back() + 0.1));
+    irregular.push_back(written.back());
+  }
+  ASSERT_EQ(irregular.size(), written.size());
+  for (std::size_t k = 0; k < written.size(); ++k) EXPECT_EQ(irregular[k], written[k]) << k;
+  EXPECT_EQ(irregular.values(), written);
+  SteppedSequence<double> hourly;
+  SteppedSequence<std::int64_t> lines;
+  const double t0 = 1777593600.25;
+  for (int k = 0; k < 720; ++k) {
+    hourly.push_back(t0 + 3600.0 * k);
+    lines.push_back(2 + 7 * k);
+  }
+  for (int k = 0; k < 720; ++k) {
+    EXPECT_EQ(hourly[static_cast<std::size_t>(k)], t0 + 3600.0 * k) << k;
+    EXPECT_EQ(lines[static_cast<std::size_t>(k)], 2 + 7 * k) << k;
+  }
+  EXPECT_EQ(hourly.runs(), 1u);
+  EXPECT_EQ(lines.runs(), 1u);
+  EXPECT_EQ(hourly.back(), t0 + 3600.0 * 719);
+}
+
+TEST(ForcingAxis, TakingTheSamplesGivesWhatCopyingThemGives) {
+  // On the grid (values moved), inside a window (copied and cut) and
+  // resampled: takeForcing and buildForcing agree, and the taken file's
+  // series are emptied.
+  const double t0 = static_cast<double>(testsupport::utcSeconds(2026, 5, 1, 0));
+  RawForcing f;
+  f.file = "memory";
+  f.series["R1"] = RawSeries{{t0, t0 + 3600, t0 + 7200}, {0, 10, 4}, {2, 3, 4}};
+  f.series["R2"] = RawSeries{{t0 + 3600, t0 + 7200}, {1, 2}, {5, 6}};
+  AxisRequest window;
+  window.start_unix_s = testsupport::utcSeconds(2026, 5, 1, 1);
+  window.end_unix_s = testsupport::utcSeconds(2026, 5, 1, 2);
+  AxisRequest resample;
+  resample.dt_s = 1800;
+  for (const AxisRequest& request : {AxisRequest{}, window, resample}) {
+    const Forcing copied = buildForcing(&f, nullptr, request);
+    RawForcing taken_from = f;
+    const Forcing taken = takeForcing(&taken_from, nullptr, request);
+    EXPECT_EQ(taken.inflow, copied.inflow);
+    EXPECT_EQ(taken.warnings, copied.warnings);
+    EXPECT_EQ(taken.axis.steps, copied.axis.steps);
+    for (const auto& entry : taken_from.series) EXPECT_TRUE(entry.second.q_m3s.empty()) << entry.first;
+  }
+  // Hand-computed for the whole axis: R2 held at its first value at 00:00.
+  EXPECT_EQ(buildForcing(&f, nullptr, {}).inflow.at("R2"), (std::vector<double>{1, 1, 2}));
 }

@@ -2,12 +2,14 @@
 #include "reachwise/io/ForcingCsv.hpp"
 #include "reachwise/io/CsvRecords.hpp"
 
+#include <cstdlib>
 #include <ctime>
 #include <fstream>
 #include <functional>
 #include <random>
 
 #include <fmt/format.h>
+#include <fmt/printf.h>
 #include <gtest/gtest.h>
 #include <unistd.h>
 
@@ -305,4 +307,132 @@ TEST_F(ForcingCsvTest, SeededRandomLongAndWideAgree) {
   for (int r = 0; r < reaches; ++r) EXPECT_EQ(a.inflow.at(fmt::format("R{}", r)), values[r]) << "seed " << seed;
   EXPECT_DOUBLE_EQ(a.axis.dt_s, 900);
   EXPECT_EQ(a.axis.utc_offset_min, 60);
+}
+
+namespace {
+
+/// strtod's reading of a cell (blanks around it dropped): the reference, a
+/// general-purpose reader that also takes a leading '+'.
+double strtodCell(const std::string& cell) {
+  const std::string_view t = trimCsvField(cell);
+  return std::strtod(std::string(t).c_str(), nullptr);
+}
+
+/// Cell `k` in one of the written forms a file may hold: full precision,
+/// few decimals, exponents, a leading '+', blanks around it.
+std::string cellText(double v, unsigned form) {
+  switch (form % 7) {
+    case 0: return fmt::sprintf("%.17g", v);
+    case 1: return fmt::sprintf("%.3f", v);
+    case 2: return fmt::sprintf("%.6e", v);
+    case 3: return fmt::sprintf("+%g", v);
+    case 4: return fmt::sprintf("  %.2f\t", v);
+    case 5: return fmt::sprintf("%.4E", v);
+    default: return fmt::format("{}", v);
+  }
+}
+
+}  // namespace
+
+TEST_F(ForcingCsvTest, EveryNumberFormReadsAsStrtodReadsIt) {
+  // Random discharges in seven written forms, wide form with CRLF line
+  // ends and the same cells in the long form: every value read is the
+  // double strtod gives for its cell (bit for bit: EXPECT_EQ on doubles).
+  std::mt19937 rng(3);
+  std::uniform_real_distribution<double> q(0, 20000);
+  const int reaches = 40, steps = 60;
+  std::vector<std::vector<std::string>> cells(reaches, std::vector<std::string>(steps));
+  std::string wide = "time";
+  for (int r = 0; r < reaches; ++r) wide += fmt::format(",R{}", r);
+  wide += "\r\n";
+  std::string longform = "reach_id,time,discharge\r\n";
+  for (int k = 0; k < steps; ++k) {
+    const std::string t = formatIsoTime(std::int64_t{testsupport::utcSeconds(2026, 5, 1, 0)} + k * 3600, 0);
+    wide += t;
+    for (int r = 0; r < reaches; ++r) {
+      cells[r][k] = cellText(q(rng), rng());
+      wide += "," + cells[r][k];
+      longform += fmt::format("R{},{},{}\r\n", r, t, cells[r][k]);
+    }
+    wide += "\r\n";
+  }
+  const Forcing a = readForcingCsv(write("forms_wide.csv", wide), std::nullopt);
+  const Forcing b = readForcingCsv(write("forms_long.csv", longform), std::nullopt);
+  ASSERT_EQ(a.inflow.size(), static_cast<std::size_t>(reaches));
+  for (int r = 0; r < reaches; ++r) {
+    const std::string id = fmt::format("R{}", r);
+    ASSERT_EQ(a.inflow.at(id).size(), static_cast<std::size_t>(steps));
+    for (int k = 0; k < steps; ++k) {
+      EXPECT_EQ(a.inflow.at(id)[k], strtodCell(cells[r][k])) << id << " " << cells[r][k];
+      EXPECT_EQ(b.inflow.at(id)[k], strtodCell(cells[r][k])) << id << " " << cells[r][k];
+    }
+  }
+}
+
+TEST_F(ForcingCsvTest, VeryLongLinesAndABadNumberDeepInOne) {
+  // 70,000 columns of full-precision values: each line is longer than the
+  // block the file is read in (1 MiB), so every record straddles blocks.
+  const int reaches = 70000, steps = 3;
+  std::mt19937_64 rng(5);
+  std::uniform_real_distribution<double> q(0, 1000);
+  std::string header = "time";
+  for (int r = 0; r < reaches; ++r) header += fmt::format(",R{}", r);
+  header += "\n";
+  std::vector<std::vector<std::string>> rows(steps, std::vector<std::string>(reaches));
+  auto text = [&](const std::string* bad) {
+    std::string out = header;
+    for (int k = 0; k < steps; ++k) {
+      out += formatIsoTime(std::int64_t{testsupport::utcSeconds(2026, 5, 1, 0)} + k * 3600, 0);
+      for (int r = 0; r < reaches; ++r) out += "," + (bad && k == 2 && r == 40000 ? *bad : rows[k][r]);
+      out += "\n";
+    }
+    return out;
+  };
+  for (auto& row : rows)
+    for (auto& cell : row) cell = fmt::sprintf("%.17g", q(rng));
+  const std::string good = text(nullptr);
+  ASSERT_GT(good.size() / (steps + 1), std::size_t{1} << 20);
+  const Forcing f = readForcingCsv(write("long_lines.csv", good), std::nullopt);
+  ASSERT_EQ(f.inflow.size(), static_cast<std::size_t>(reaches));
+  for (int r : {0, 1, 29999, 40000, 69999})
+    for (int k = 0; k < steps; ++k)
+      EXPECT_EQ(f.inflow.at(fmt::format("R{}", r))[k], strtodCell(rows[k][r])) << r << " " << k;
+
+  // The bad cell: line 4 (the header is line 1), reach R40000, its time,
+  // field "discharge", and the message the reader has always given.
+  const std::string bad_cell = "1.2.3";
+  const fs::path p = write("long_lines_bad.csv", text(&bad_cell));
+  InputLocation expected;
+  expected.file = p.string();
+  expected.line = 4;
+  expected.reach_id = "R40000";
+  expected.time = "2026-05-01T02:00:00Z";
+  expected.field = "discharge";
+  try {
+    readForcingCsv(p, std::nullopt);
+    ADD_FAILURE() << "a bad number was accepted";
+  } catch (const InputError& e) {
+    EXPECT_STREQ(e.what(), InputError(expected, "'1.2.3' is not a finite number").what());
+  }
+}
+
+TEST_F(ForcingCsvTest, ObservedWideColumnsWithGapsKeepTheirOwnTimesAndLines) {
+  // Hand-written: A has values on lines 2 and 5, B on lines 3, 4 and 5
+  // (an empty cell and NA are missing observations).
+  const fs::path p = write("obs.csv",
+                           "time,A,B\n"
+                           "2026-05-01T00:00Z,1,NA\n"
+                           "2026-05-01T01:00Z,,2\n"
+                           "2026-05-01T02:00Z,na,3\n"
+                           "2026-05-01T03:00Z,4,5\n");
+  const CsvForcingFile f = readForcingCsvFile(p, units::System::SI, CsvValues::Observed);
+  const double t0 = static_cast<double>(testsupport::utcSeconds(2026, 5, 1, 0));
+  const RawSeries& a = f.series.at("A");
+  EXPECT_EQ(a.t_s.values(), (std::vector<double>{t0, t0 + 3 * 3600}));
+  EXPECT_EQ(a.q_m3s, (std::vector<double>{1, 4}));
+  EXPECT_EQ(a.line.values(), (std::vector<std::int64_t>{2, 5}));
+  const RawSeries& b = f.series.at("B");
+  EXPECT_EQ(b.t_s.values(), (std::vector<double>{t0 + 3600, t0 + 7200, t0 + 3 * 3600}));
+  EXPECT_EQ(b.q_m3s, (std::vector<double>{2, 3, 5}));
+  EXPECT_EQ(b.line.values(), (std::vector<std::int64_t>{3, 4, 5}));
 }

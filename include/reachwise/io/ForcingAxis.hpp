@@ -21,8 +21,10 @@
 /// Any violation is an InputError naming the file and, where one exists,
 /// the line.
 
+#include <algorithm>
 #include <cstddef>
 #include <cstdint>
+#include <initializer_list>
 #include <map>
 #include <optional>
 #include <string>
@@ -49,11 +51,84 @@ std::string maxStepsAdvice(double needed);
 /// (fractional seconds are carried as doubles).
 inline constexpr double kSameInstant_s = 1e-6;
 
-/// The samples of one reach as read, before they are put on the axis.
+/// A sequence stored as runs of equal steps: `start + step * i` for the
+/// i-th value of a run, the run extended only while that gives the value
+/// appended bit for bit. A regular series (hourly times, consecutive
+/// lines, a line every N rows) is one run of three numbers however long
+/// it is; an irregular one costs a run per value. Reading gives back
+/// exactly the values appended.
+template <class T>
+class SteppedSequence {
+public:
+  SteppedSequence() = default;
+  SteppedSequence(std::initializer_list<T> values) {
+    for (T v : values) push_back(v);
+  }
+
+  void push_back(T v) {
+    if (!runs_.empty()) {
+      Run& last = runs_.back();
+      const std::size_t n = size_ - last.first;
+      if (n == 1) {
+        const T step = v - last.start;
+        if (last.start + step == v) {
+          last.step = step;
+          ++size_;
+          return;
+        }
+      } else if (last.start + last.step * static_cast<T>(n) == v) {
+        ++size_;
+        return;
+      }
+    }
+    runs_.push_back(Run{size_, v, T{}});
+    ++size_;
+  }
+
+  T operator[](std::size_t k) const {
+    const Run* run = &runs_.front();
+    if (runs_.size() > 1) {
+      auto it = std::upper_bound(runs_.begin(), runs_.end(), k,
+                                 [](std::size_t i, const Run& r) { return i < r.first; });
+      run = &*(it - 1);
+    }
+    const std::size_t i = k - run->first;
+    return i == 0 ? run->start : run->start + run->step * static_cast<T>(i);
+  }
+  T front() const { return runs_.front().start; }
+  T back() const { return (*this)[size_ - 1]; }
+  std::size_t size() const noexcept { return size_; }
+  bool empty() const noexcept { return size_ == 0; }
+  /// How many runs hold the values (for tests and memory accounting).
+  std::size_t runs() const noexcept { return runs_.size(); }
+  /// The same values (compared run by run: cheap, so that work on a
+  /// sequence may be reused for an equal one).
+  bool operator==(const SteppedSequence& other) const = default;
+  std::vector<T> values() const {
+    std::vector<T> out;
+    out.reserve(size_);
+    for (std::size_t k = 0; k < size_; ++k) out.push_back((*this)[k]);
+    return out;
+  }
+
+private:
+  struct Run {
+    std::size_t first;  ///< index of the run's first value
+    T start;
+    T step;
+    bool operator==(const Run&) const = default;
+  };
+  std::vector<Run> runs_;
+  std::size_t size_ = 0;
+};
+
+/// The samples of one reach as read, before they are put on the axis. The
+/// discharges are stored one double each; times and lines, regular in any
+/// usual file, as runs of equal steps.
 struct RawSeries {
-  std::vector<double> t_s;            ///< seconds since the epoch, strictly increasing
+  SteppedSequence<double> t_s;        ///< seconds since the epoch, strictly increasing
   std::vector<double> q_m3s;          ///< already converted to m^3/s
-  std::vector<std::int64_t> line;     ///< line of each sample, for messages
+  SteppedSequence<std::int64_t> line; ///< line of each sample, for messages
 };
 
 /// The samples of one forcing file, per reach, as read and checked (times
@@ -88,5 +163,12 @@ routing::TimeAxis chooseForcingAxis(const RawForcing* inflow, const RawForcing* 
 /// Puts one or two files on the run's axis (chooseForcingAxis) and notes
 /// every hold in Forcing::warnings. Either pointer may be null, not both.
 Forcing buildForcing(const RawForcing* inflow, const RawForcing* lateral, const AxisRequest& request);
+
+/// The same, taking the samples out of the files as they are placed (each
+/// series is emptied once placed; a series already on the axis, one sample
+/// per step, is moved rather than copied), so that a large file's values
+/// are held once and not twice. The files are left with their ids and
+/// emptied series; on an error they are left part taken.
+Forcing takeForcing(RawForcing* inflow, RawForcing* lateral, const AxisRequest& request);
 
 }  // namespace reachwise::io

@@ -4,10 +4,12 @@
 ///
 /// Long form `reach_id,time,discharge` (columns in any order) or wide form
 /// `time,R12,R13,...`, told apart by the header. Times are ISO 8601 (see
-/// IsoTime.hpp); the text is split into records by parseCsvRecords
-/// (CsvRecords.hpp). The samples read are put on the run's axis by the
-/// rule of ForcingAxis.hpp. Any violation is an InputError naming the file
-/// and, where one exists, the line.
+/// IsoTime.hpp); the file is read a block at a time and split into
+/// records by CsvScanner, numbers read by parseCsvNumber (CsvRecords.hpp).
+/// Each value is stored once (a wide file's columns share the rows' times);
+/// the samples read are put on the run's axis by the rule of
+/// ForcingAxis.hpp. Any violation is an InputError naming the file and,
+/// where one exists, the line.
 
 #include <filesystem>
 #include <optional>
