@@ -157,6 +157,7 @@ std::vector<io::NamedPath> inputPaths(const RouteRequest& request, const LoadedN
 RouteSummary route(const RouteRequest& request, Progress* progress) {
   Progress silent;
   Progress& tell = progress ? *progress : silent;
+  if (!request.members.empty()) throw InternalError("run::route: an ensemble (members) is routed by routeEnsemble");
   RouteSummary summary;
   // An output never replaces an input (write-back adds layers beside the
   // network and is not an output path here).

@@ -68,6 +68,10 @@ struct RouteRequest {
   /// the forcing's first time at the state's time (docs/formats.md, "Saved
   /// state"); empty: none.
   std::string initial_state;
+  /// A forecast ensemble (run/Ensemble.hpp, routeEnsemble()): a folder of
+  /// forcing files or a glob pattern, each file a member replacing
+  /// `forcing.inflow`; empty: a single run. route() refuses it.
+  std::string members;
 };
 
 /// Told what a run is doing. Called from the thread that called route(),
