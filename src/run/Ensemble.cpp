@@ -163,14 +163,25 @@ Ensemble::Ensemble(const RouteRequest& request, Progress* progress) : request_(r
   plan_ = routablePlan(*net_);
 
   tell.stage(fmt::format("reading the forcing of {} members", files_.size()));
+  std::vector<routing::TimeAxis> own_axes;
   for (const std::string& f : files_) {
     ForcingFiles ff = request_.forcing;
     ff.inflow = f;
     forcing_.push_back(
         std::make_unique<RunForcing>(ff, plan_, net_->config.forcingUnits(), &net_->dropped_in_lake));
-    const routing::TimeAxis& a = forcing_.back()->axis();
-    const routing::TimeAxis& first = forcing_.front()->axis();
-    if (!sameAxis(a, first))
+    // The member's own times: with a shared lateral file the run's axis
+    // may come from that file, so the member is read alone for its axis.
+    routing::TimeAxis a = forcing_.back()->axis();
+    if (!request_.forcing.lateral.empty()) {
+      io::CsvForcingOptions alone;
+      alone.dt_s = ff.dt_s;
+      alone.max_steps = ff.max_steps;
+      alone.unit = net_->config.forcingUnits();
+      a = io::openForcing(fs::path(f), std::nullopt, alone).source->axis();
+    }
+    own_axes.push_back(a);
+    const routing::TimeAxis& first = own_axes.front();
+    if (!sameAxis(a, first) || !sameAxis(forcing_.back()->axis(), forcing_.front()->axis()))
       membersError(f, fmt::format("the member's time axis ({}) differs from that of the first member {} ({}): every "
                                   "member must give the same times",
                                   axisText(a), files_.front(), axisText(first)));

@@ -31,9 +31,9 @@ namespace reachwise::run {
 
 /// The `p`-th percentile (0 ≤ p ≤ 100) of `values`, NaNs left out
 /// (NaN when none is left): linear interpolation between order statistics,
-/// Hyndman & Fan (1996) definition 7 (Q(p) = x_(j) + g (x_(j+1) − x_(j))
-/// with h = (n − 1) p / 100, j = ⌊h⌋ (1-based j + 1), g = h − ⌊h⌋; R's and
-/// NumPy's default). Hyndman, R. J. & Fan, Y. (1996) "Sample quantiles in
+/// Hyndman & Fan (1996) definition 7: for the sorted x_1 ≤ ... ≤ x_n and
+/// h = (n − 1) p/100 + 1, Q = x_⌊h⌋ + (h − ⌊h⌋) (x_⌊h⌋+1 − x_⌊h⌋) (the
+/// default of R's quantile() and NumPy's percentile()). Hyndman, R. J. & Fan, Y. (1996) "Sample quantiles in
 /// statistical packages", The American Statistician 50(4): 361–365.
 double percentile(std::vector<double> values, double p);
 
