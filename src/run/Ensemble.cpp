@@ -124,7 +124,8 @@ std::vector<std::string> memberFiles(const std::string& pattern) {
 
 std::string memberName(const std::string& file) { return fs::path(file).stem().string(); }
 
-Ensemble::Ensemble(const RouteRequest& request, Progress* progress) : request_(request) {
+Ensemble::Ensemble(const RouteRequest& request, Progress* progress, const std::vector<std::uint32_t>& opened)
+    : request_(request) {
   Progress silent;
   Progress& tell = progress ? *progress : silent;
   const auto refuse = [&](const std::string& field, const std::string& message) {
@@ -162,16 +163,26 @@ Ensemble::Ensemble(const RouteRequest& request, Progress* progress) : request_(r
   io::refuseOutputOverInput(outputPaths(outputs), inputs);
   plan_ = routablePlan(*net_);
 
-  tell.stage(fmt::format("reading the forcing of {} members", files_.size()));
+  std::vector<std::uint32_t> open = opened;
+  if (open.empty())
+    for (std::uint32_t m = 0; m < files_.size(); ++m) open.push_back(m);
+  for (const std::uint32_t m : open)
+    if (m >= files_.size())
+      throw InvalidParameter("members", fmt::format("member {} asked for, but there are {}", m, files_.size()));
+  tell.stage(fmt::format("reading the forcing of {} members", open.size()));
+  forcing_.resize(files_.size());
   std::vector<routing::TimeAxis> own_axes;
-  for (const std::string& f : files_) {
+  const RunForcing* first_opened = nullptr;
+  for (const std::uint32_t m : open) {
+    if (forcing_[m]) continue;  // named twice
+    const std::string& f = files_[m];
     ForcingFiles ff = request_.forcing;
     ff.inflow = f;
-    forcing_.push_back(
-        std::make_unique<RunForcing>(ff, plan_, net_->config.forcingUnits(), &net_->dropped_in_lake));
+    forcing_[m] = std::make_unique<RunForcing>(ff, plan_, net_->config.forcingUnits(), &net_->dropped_in_lake);
+    if (!first_opened) first_opened = forcing_[m].get();
     // The member's own times: with a shared lateral file the run's axis
     // may come from that file, so the member is read alone for its axis.
-    routing::TimeAxis a = forcing_.back()->axis();
+    routing::TimeAxis a = forcing_[m]->axis();
     if (!request_.forcing.lateral.empty()) {
       io::CsvForcingOptions alone;
       alone.dt_s = ff.dt_s;
@@ -181,10 +192,10 @@ Ensemble::Ensemble(const RouteRequest& request, Progress* progress) : request_(r
     }
     own_axes.push_back(a);
     const routing::TimeAxis& first = own_axes.front();
-    if (!sameAxis(a, first) || !sameAxis(forcing_.back()->axis(), forcing_.front()->axis()))
+    if (!sameAxis(a, first) || !sameAxis(forcing_[m]->axis(), first_opened->axis()))
       membersError(f, fmt::format("the member's time axis ({}) differs from that of the first member {} ({}): every "
                                   "member must give the same times",
-                                  axisText(a), files_.front(), axisText(first)));
+                                  axisText(a), files_[open.front()], axisText(first)));
   }
   const std::size_t steps = axis().steps;
   requireHydrographRows(request_.outputs.hydrographs, plan_, steps * files_.size(), request_.max_hydrograph_rows);
@@ -199,7 +210,17 @@ Ensemble::Ensemble(const RouteRequest& request, Progress* progress) : request_(r
 
 Ensemble::~Ensemble() = default;
 
-const routing::TimeAxis& Ensemble::axis() const { return forcing_.front()->axis(); }
+const routing::TimeAxis& Ensemble::axis() const {
+  for (const auto& f : forcing_)
+    if (f) return f->axis();
+  throw InternalError("Ensemble::axis: no member is opened");
+}
+
+const RunForcing& Ensemble::forcing(std::size_t m) const {
+  if (!isOpened(m))
+    throw InvalidParameter("members", fmt::format("member {} is not opened in this ensemble (Ensemble's `opened`)", m));
+  return *forcing_[m];
+}
 
 OutputRequest Ensemble::outputRequest() const {
   OutputRequest o = request_.outputs;
@@ -210,7 +231,9 @@ OutputRequest Ensemble::outputRequest() const {
 std::vector<MemberResult> routeMembers(const Ensemble& e, std::span<const std::uint32_t> members, unsigned threads,
                                        ReferenceRun* reference, Progress* progress) {
   for (const std::uint32_t m : members)
-    if (m >= e.size()) throw InvalidParameter("members", fmt::format("member {} of {} asked for", m, e.size()));
+    if (!e.isOpened(m))
+      throw InvalidParameter("members", fmt::format("member {} of {} asked for, but its forcing is not opened", m,
+                                                    e.size()));
   const LoadedNetwork& net = e.network();
   const network::NetworkPlan& plan = e.plan();
   const RouteRequest& request = e.request();
@@ -376,17 +399,21 @@ EnsembleSummary writeEnsemble(const Ensemble& e, Outputs& outputs, std::vector<M
 
   const LoadedNetwork& net = e.network();
   auto& warnings = reference.results.warnings;
-  const auto& forcing_warnings = e.forcing(0).warnings();
-  warnings.insert(warnings.begin(), forcing_warnings.begin(), forcing_warnings.end());
   for (const auto& p : net.problems)
     if (p.severity == network::Severity::Warning)
       warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
-  // Other members' warnings, once each, when member 0 did not have them
-  // (`ensemble_member NAME: ...`: the console groups them as one kind).
+  // The members' forcing and routing warnings, once each: the reference
+  // member's as they are, another member's when the reference did not
+  // have it (`ensemble_member NAME: ...`: the console groups them as one
+  // kind). Taken from the results, so that the forcing of the members
+  // need not be open where they are combined.
   std::set<std::string> seen(warnings.begin(), warnings.end());
-  for (std::size_t m = 1; m < members.size(); ++m)
-    for (const auto& w : members[m].warnings)
-      if (!seen.contains(w)) warnings.push_back("ensemble_member " + e.names()[m] + ": " + w);
+  for (std::size_t m = 0; m < members.size(); ++m)
+    for (const auto& w : members[m].warnings) {
+      if (seen.contains(w)) continue;
+      if (m == 0) seen.insert(w);
+      warnings.push_back(m == 0 ? w : "ensemble_member " + e.names()[m] + ": " + w);
+    }
   RouteRequest shown = e.request();
   s.info = runInfo(shown, reference.results);
   for (std::size_t m = 0; m < e.size(); ++m) s.info.inputs.push_back(e.files()[m]);

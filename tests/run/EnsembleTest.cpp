@@ -16,6 +16,7 @@
 
 #include "io/NetworkFixtures.hpp"
 #include "reachwise/Error.hpp"
+#include "support/Cli.hpp"
 #include "support/Scratch.hpp"
 
 using namespace reachwise;
@@ -391,4 +392,54 @@ TEST(EnsembleMembers, InflowBesideMembersAndNetcdfSeriesAreRefused) {
   EXPECT_FALSE(fs::exists(dir.path() / "series.nc"));
   // route() leaves ensembles to routeEnsemble().
   EXPECT_THROW(run::route(r), InternalError);
+}
+
+// Members spread over processes (simulated here by two Ensembles in one
+// process, each opening its share): each routes its subset, the plain
+// results are gathered in member order and combined where the outputs
+// are; the tables are the same as one process routing every member.
+TEST(Ensemble, SubsetsRoutedApartCombineToTheWholeRun) {
+  testsupport::TempDir dir;
+  std::ifstream in(kSample + "inflow.csv");
+  std::vector<std::string> lines;
+  for (std::string l; std::getline(in, l);) lines.push_back(l);
+  fs::create_directories(dir.path() / "members");
+  for (int m = 0; m < 3; ++m) {
+    std::ofstream out(dir.path() / fmt::format("members/m{}.csv", m));
+    out << lines[0] << '\n';
+    for (std::size_t k = 1; k < lines.size(); ++k) {
+      std::stringstream cells(lines[k]);
+      std::string cell;
+      std::getline(cells, cell, ',');
+      out << cell;
+      while (std::getline(cells, cell, ',')) out << ',' << std::stod(cell) * (0.8 + 0.2 * m);
+      out << '\n';
+    }
+  }
+  run::RouteRequest r;
+  r.network.path = kSample + "network.gpkg";
+  r.forcing.lateral = kSample + "lateral.csv";
+  r.members = (dir.path() / "members").string();
+  r.threads = 2;
+  r.outputs.csv_dir = (dir.path() / "whole").string();
+  const run::EnsembleSummary whole = run::routeEnsemble(r);
+
+  r.outputs.csv_dir = (dir.path() / "parts").string();
+  const run::Ensemble first(r, nullptr, {0, 1});   // where the outputs are written
+  const run::Ensemble second(r, nullptr, {2});
+  EXPECT_TRUE(first.isOpened(1));
+  EXPECT_FALSE(first.isOpened(2));
+  EXPECT_THROW((void)run::routeMembers(second, std::vector<std::uint32_t>{0}, 1), InvalidParameter);
+  auto outputs = run::openEnsembleOutputs(first);
+  run::ReferenceRun reference;
+  std::vector<run::MemberResult> gathered = run::routeMembers(first, std::vector<std::uint32_t>{0, 1}, 1, &reference);
+  std::vector<run::MemberResult> other = run::routeMembers(second, std::vector<std::uint32_t>{2}, 1);
+  gathered.push_back(std::move(other.front()));
+  const run::EnsembleSummary parts = run::writeEnsemble(first, *outputs, std::move(gathered), std::move(reference));
+  EXPECT_TRUE(sameBits(parts.ensemble.member_peak_q_m3s, whole.ensemble.member_peak_q_m3s));
+  EXPECT_TRUE(sameBits(parts.ensemble.member_peak_time_s, whole.ensemble.member_peak_time_s));
+  for (std::size_t i = 0; i < whole.ensemble.peak_q_m3s.size(); ++i)
+    for (std::size_t p = 0; p < 3; ++p) EXPECT_EQ(parts.ensemble.peak_q_m3s[i][p], whole.ensemble.peak_q_m3s[i][p]);
+  for (const char* file : {"reaches.csv", "member_reaches.csv", "hydrographs.csv", "nodes.csv"})
+    EXPECT_EQ(testsupport::slurp(dir.path() / "parts" / file), testsupport::slurp(dir.path() / "whole" / file)) << file;
 }

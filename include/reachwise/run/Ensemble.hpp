@@ -14,7 +14,10 @@
 ///
 /// routeMembers() returns plain data (MemberResult: vectors of numbers and
 /// plan indices), so that results routed elsewhere can be sent back and
-/// combined in member order. routeEnsemble() does all three.
+/// combined in member order. A process that routes only its share opens
+/// only those members (Ensemble's `opened`); the one that writes needs the
+/// reference member's full results (ReferenceRun), so it routes member 0.
+/// routeEnsemble() does all three in one process.
 
 #include <cstddef>
 #include <cstdint>
@@ -56,7 +59,12 @@ public:
   /// `request.members` names the members; `request.forcing.inflow` must be
   /// empty (each member replaces it). Gauges, saved states and a NetCDF
   /// series file are refused (not supported for ensembles).
-  explicit Ensemble(const RouteRequest& request, Progress* progress = nullptr);
+  /// `opened`: the members whose forcing is opened and checked (indices
+  /// into names(), e.g. a process's share); empty: every member. Only
+  /// opened members can be routed; the time axis is the first opened
+  /// member's, and the axes are compared among the opened members.
+  explicit Ensemble(const RouteRequest& request, Progress* progress = nullptr,
+                    const std::vector<std::uint32_t>& opened = {});
   ~Ensemble();
   Ensemble(const Ensemble&) = delete;
   Ensemble& operator=(const Ensemble&) = delete;
@@ -68,8 +76,10 @@ public:
   std::size_t size() const noexcept { return files_.size(); }
   const std::vector<std::string>& names() const noexcept { return names_; }
   const std::vector<std::string>& files() const noexcept { return files_; }
-  /// The forcing of member `m`.
-  const RunForcing& forcing(std::size_t m) const { return *forcing_.at(m); }
+  /// Whether member `m`'s forcing is opened (the constructor's `opened`).
+  bool isOpened(std::size_t m) const { return m < forcing_.size() && forcing_[m] != nullptr; }
+  /// The forcing of member `m`; InvalidParameter when it is not opened.
+  const RunForcing& forcing(std::size_t m) const;
   /// Per plan reach: whether a MemberResult keeps its series (the chosen
   /// hydrographs, the report's reaches and the outlets for its band).
   const std::vector<bool>& keptSeries() const noexcept { return kept_; }
