@@ -51,7 +51,16 @@ struct RouteOptions {
   bool write_back = false, overwrite = false, quiet = false, demo = false, timings = false;
   std::string schema;           ///< of results in a database (--out PG:...)
   std::string command_line;
+  routing::Ranks* ranks = nullptr;   ///< MPI ranks routing together; null: alone
+  /// Rank 0 (or a process alone) speaks; the other ranks print nothing.
+  bool speaks() const { return !ranks || ranks->rank() == 0; }
 };
+
+/// Where a rank that does not speak writes: nowhere.
+std::ostream& silenced() {
+  static std::ostream none(nullptr);
+  return none;
+}
 
 std::string hours(double s) { return fmt::format("{:.1f} h", s / 3600.0); }
 
@@ -353,6 +362,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.threads = o.threads;
   r.command_line = o.command_line;
   r.initial_state = o.initial_state;
+  r.ranks = o.ranks;
   run::OutputRequest& out = r.outputs;
   out.state_nc = o.save_state;
   out.write_back = o.write_back;
@@ -404,6 +414,14 @@ void printEnsembleSummary(std::ostream& out, std::ostream& err, const run::Ensem
 }
 
 int routeEnsemble(const RouteOptions& o, std::ostream& out, std::ostream& err) {
+  if (o.ranks && o.ranks->size() > 1) {
+    // Every rank refuses alike (rank 0 alone prints), without a message
+    // between them.
+    InputLocation at;
+    at.field = "members";
+    throw InputError(at, "an ensemble (--members) is routed in one process: its members are not spread over MPI "
+                         "ranks; run it without mpirun (the members run side by side over the threads)");
+  }
   BarProgress progress(!o.quiet);
   const run::RouteRequest request = requestOf(o);
   try {
@@ -436,7 +454,7 @@ int routeEnsemble(const RouteOptions& o, std::ostream& out, std::ostream& err) {
 
 int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   if (!o.members.empty()) return routeEnsemble(o, out, err);
-  BarProgress progress(!o.quiet);
+  BarProgress progress(!o.quiet && o.speaks());
   run::RouteSummary s;
   try {
     s = run::route(requestOf(o), &progress);
@@ -450,14 +468,18 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   progress.finish();
   for (const auto& note : s.notes) fmt::print(err, "{}\n", note);
 
+  if (!o.speaks()) return kExitOk;
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
   if (o.demo || !o.quiet) printRunSummary(out, err, s, lakes, o);
   if (o.timings) progress.times().print(out);
   return kExitOk;
 }
 
+std::ostream& errorStream(const RouteOptions& o) { return o.speaks() ? std::cerr : silenced(); }
+
 int runGuarded(const RouteOptions& o) {
-  return guarded(std::cerr, o.network, [&] { return route(o, std::cout, std::cerr); });
+  return guarded(errorStream(o), o.network,
+                 [&] { return route(o, o.speaks() ? std::cout : silenced(), errorStream(o)); });
 }
 
 /// Fills what the command line left unset from the run file's `[route]`
@@ -495,8 +517,9 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
 
 }  // namespace
 
-void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
+void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_line, routing::Ranks* ranks) {
   auto o = std::make_shared<RouteOptions>();
+  o->ranks = ranks;
   CLI::App* sub = app.add_subcommand("route", "Route inflow hydrographs through a network and write the results");
   sub->add_option("NETWORK", o->network, "Network: any path or connection string GDAL opens as vector data")->required();
   sub->add_option("--inflow", o->inflow,
@@ -569,14 +592,14 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->callback([&chosen, o, sub, command_line] {
     o->command_line = command_line;
     chosen = [o, sub] {
-      const int loaded = guarded(std::cerr, o->config, [&] {
+      const int loaded = guarded(errorStream(*o), o->config, [&] {
         applyRunFile(*sub, *o);
         return kExitOk;
       });
       if (loaded != kExitOk) return loaded;
       if (o->inflow.empty() && o->lateral.empty() && o->members.empty()) {
-        fmt::print(std::cerr, "route: give --inflow and/or --lateral, or --members (or set them in the run file's "
-                              "[route] table)\n");
+        fmt::print(errorStream(*o), "route: give --inflow and/or --lateral, or --members (or set them in the run "
+                                    "file's [route] table)\n");
         return kExitUsage;
       }
       return runGuarded(*o);
@@ -608,20 +631,21 @@ fs::path sampleDir() {
                            "); set REACHWISE_SAMPLE_DIR to the sample-network folder");
 }
 
-void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_line) {
+void addDemoCommand(CLI::App& app, Runner& chosen, const std::string& command_line, routing::Ranks* ranks) {
   auto dir = std::make_shared<std::string>("reachwise-demo");
   CLI::App* sub = app.add_subcommand("demo", "Route the shipped sample network (with its reservoir) and storm scenario");
   sub->add_option("--out", *dir, "Output folder (default reachwise-demo)");
-  sub->callback([&chosen, dir, command_line] {
-    chosen = [dir, command_line] {
+  sub->callback([&chosen, dir, command_line, ranks] {
+    chosen = [dir, command_line, ranks] {
+      RouteOptions o;
+      o.ranks = ranks;
       fs::path sample;
-      if (const int found = guarded(std::cerr, "demo", [&] {
+      if (const int found = guarded(errorStream(o), "demo", [&] {
             sample = sampleDir();
             return kExitOk;
           });
           found != kExitOk)
         return found;
-      RouteOptions o;
       o.network = (sample / "network.gpkg").string();
       o.inflow = (sample / "inflow.csv").string();
       o.lateral = (sample / "lateral.csv").string();

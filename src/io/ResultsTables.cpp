@@ -371,6 +371,7 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
   for (const auto& input : info.inputs) rows.emplace_back("input", input);
   rows.emplace_back("method", info.method);
   rows.emplace_back("units", std::string(unitSystemName(info.units)));
+  rows.emplace_back("ranks", fmt::format("{}", info.ranks));
   rows.emplace_back("dt_s", fmt::format("{}", axis.dt_s));
   rows.emplace_back("steps", fmt::format("{}", axis.steps));
   rows.emplace_back("start", formatIsoTime(axis.start_unix_s, offset));

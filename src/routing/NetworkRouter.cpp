@@ -3,15 +3,22 @@
 #include <tbb/enumerable_thread_specific.h>
 #include <tbb/parallel_for_each.h>
 #include <tbb/info.h>
+#include <tbb/global_control.h>
 #include <tbb/task_arena.h>
+#include <tbb/task_group.h>
 
 #include <algorithm>
 #include <atomic>
+#include <chrono>
 #include <cmath>
+#include <condition_variable>
 #include <cstdio>
+#include <cstring>
+#include <deque>
 #include <memory>
 #include <mutex>
 #include <string>
+#include <type_traits>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/Peak.hpp"
@@ -83,6 +90,61 @@ std::string percent(double v) {
   return buf;
 }
 
+/// Bytes for messages between ranks: plain values and series, read back
+/// in the order written.
+class Packer {
+public:
+  template <typename T>
+  void put(const T& v) {
+    static_assert(std::is_trivially_copyable_v<T>);
+    const auto* p = reinterpret_cast<const std::byte*>(&v);
+    bytes.insert(bytes.end(), p, p + sizeof(T));
+  }
+  void put(std::span<const double> v) {
+    put(static_cast<std::uint64_t>(v.size()));
+    const auto* p = reinterpret_cast<const std::byte*>(v.data());
+    bytes.insert(bytes.end(), p, p + v.size_bytes());
+  }
+  std::vector<std::byte> bytes;
+};
+
+class Unpacker {
+public:
+  explicit Unpacker(const std::vector<std::byte>& b) : b_(b) {}
+  template <typename T>
+  T get() {
+    static_assert(std::is_trivially_copyable_v<T>);
+    T v;
+    need(sizeof(T));
+    std::memcpy(&v, b_.data() + at_, sizeof(T));
+    at_ += sizeof(T);
+    return v;
+  }
+  std::vector<double> series() {
+    const auto n = get<std::uint64_t>();
+    need(n * sizeof(double));
+    std::vector<double> v(n);
+    if (n) std::memcpy(v.data(), b_.data() + at_, n * sizeof(double));
+    at_ += n * sizeof(double);
+    return v;
+  }
+  bool done() const { return at_ == b_.size(); }
+
+private:
+  void need(std::size_t n) const {
+    if (at_ + n > b_.size()) throw InternalError("a message between ranks ended early");
+  }
+  const std::vector<std::byte>& b_;
+  std::size_t at_ = 0;
+};
+
+/// Message tags between ranks.
+enum Tag : int {
+  kOutflow = 1,  ///< a reach's outflow, for reaches below it (or a terminal lake at rank 0)
+  kSeries = 2,   ///< a reach's outflow, depth and velocity, for rank 0's sink
+  kFailed = 3,   ///< the sender failed: stop
+};
+
 class Scheduler {
 public:
   Scheduler(const network::NetworkPlan& plan, const TimeAxis& axis, const ForcingProvider& forcing,
@@ -99,9 +161,31 @@ public:
     }
     if (options.final_states) options.final_states->assign(n_, ReachState{});  // one slot per reach, filled by its worker
     setUpLakes();
+    if (options.distribution && options.distribution->ranks && options.distribution->ranks->size() > 1)
+      setUpRanks(*options.distribution);
   }
 
   NetworkResults run() {
+    if (dist_) {
+      routeAmongRanks();
+      if (me_ != 0) return std::move(results_);
+    } else {
+      routeHere();
+    }
+    routeTerminalLakes();
+    collectNodes();
+    results_.peak_live_series = peak_live_;
+    summariseWarnings();
+    results_.volume = networkVolumeBalance(plan_, results_);
+    addLakesToBalance();
+    warnAboutHandover();
+    results_.cell_updates = cellUpdates(results_);
+    return std::move(results_);
+  }
+
+private:
+  /// Every reach in this process, independent sub-trees on the workers.
+  void routeHere() {
     std::vector<std::uint32_t> roots;
     for (std::uint32_t i = 0; i < n_; ++i)
       if (plan_.isHeadwater(i)) roots.push_back(i);
@@ -127,26 +211,283 @@ public:
       tbb::parallel_for_each(roots.begin(), roots.end(), body);
     }
     if (error_) std::rethrow_exception(error_);
-    routeTerminalLakes();
-    collectNodes();
-    results_.peak_live_series = peak_live_;
-    summariseWarnings();
-    results_.volume = networkVolumeBalance(plan_, results_);
-    addLakesToBalance();
-    warnAboutHandover();
-    results_.cell_updates = cellUpdates(results_);
-    return std::move(results_);
   }
 
-private:
+  // ---- routing among ranks (NetworkRouteOptions::distribution) ----
+
+  bool local(std::uint32_t i) const { return !dist_ || dist_->owner[i] == me_; }
+
+  /// Consumers count local reaches only; the messages this rank waits for.
+  void setUpRanks(const Distribution& d) {
+    if (d.owner.size() != n_) throw InternalError("routing among ranks needs an owner for every reach");
+    dist_ = &d;
+    me_ = d.ranks->rank();
+    for (std::uint32_t i = 0; i < n_; ++i) {
+      if (d.owner[i] < 0 || d.owner[i] >= d.ranks->size()) throw InternalError("a reach's owner is no rank");
+      if (local(i)) ++local_count_;
+      std::uint32_t here = 0;
+      for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k)
+        here += local(plan_.down_reach[k]) ? 1 : 0;
+      consumers_[i] = here;
+    }
+  }
+
+  /// Rank 0's sink says which series it wants; every rank learns it.
+  void shareWants(Ranks& ranks) {
+    std::vector<std::byte> wants(n_, std::byte{0});
+    if (me_ == 0 && sink_)
+      for (std::uint32_t i = 0; i < n_; ++i) wants[i] = std::byte{sink_->wants(i) ? std::uint8_t{1} : std::uint8_t{0}};
+    ranks.broadcast(wants);
+    wanted_.assign(n_, false);
+    for (std::uint32_t i = 0; i < n_; ++i) wanted_[i] = wants[i] != std::byte{0};
+    for (std::uint32_t u = 0; u < n_; ++u) {
+      if (local(u)) continue;
+      bool below_here = false;
+      for (std::uint32_t k = plan_.down_offset[u]; k < plan_.down_offset[u + 1]; ++k)
+        below_here = below_here || local(plan_.down_reach[k]);
+      expected_ += below_here ? 1 : 0;
+      if (me_ == 0 && keptForLake(u)) ++expected_;
+      if (me_ == 0 && wanted_[u]) ++expected_;
+    }
+  }
+
+  bool keptForLake(std::uint32_t i) const { return i < keep_outflow_.size() && keep_outflow_[i]; }
+
+  void queue(int to, int tag, std::vector<std::byte> data) {
+    {
+      std::lock_guard lock(outbox_mutex_);
+      outbox_.push_back({to, tag, std::move(data)});
+    }
+    wake_.notify_one();
+  }
+
+  /// A routed reach's outflow to every other rank routing a reach below
+  /// it (once per rank), and to rank 0 for a terminal lake there.
+  void shipOutflow(std::uint32_t i, const std::vector<double>& q) {
+    std::vector<int> told;
+    for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k) {
+      const int to = dist_->owner[plan_.down_reach[k]];
+      if (to != me_ && std::find(told.begin(), told.end(), to) == told.end()) told.push_back(to);
+    }
+    if (me_ != 0 && keptForLake(i)) told.push_back(0);
+    for (const int to : told) {
+      Packer p;
+      p.put(i);
+      p.put(std::span<const double>(q));
+      queue(to, kOutflow, std::move(p.bytes));
+    }
+  }
+
+  void spawn(std::uint32_t i) {
+    ++in_flight_;
+    tasks_.run([this, i] {
+      routeOne(i);
+      reportProgress();
+      if (!failed_.load())
+        for (std::uint32_t k = plan_.down_offset[i]; k < plan_.down_offset[i + 1]; ++k) {
+          const std::uint32_t d = plan_.down_reach[k];
+          if (local(d) && pending_[d].fetch_sub(1) == 1) spawn(d);
+        }
+      ++done_local_;
+      --in_flight_;
+      wake_.notify_one();
+    });
+  }
+
+  /// A message from another rank (on the thread that talks to the ranks).
+  void take(Ranks::Message& m, tbb::task_arena& arena) {
+    if (m.tag == kFailed) {
+      failed_ = true;
+      return;
+    }
+    Unpacker in(m.data);
+    const auto u = in.get<std::uint32_t>();
+    if (u >= n_) throw InternalError("a message between ranks names no reach");
+    ++received_;
+    if (m.tag == kSeries) {
+      const std::vector<double> q = in.series(), depth = in.series(), velocity = in.series();
+      if (!sink_) throw InternalError("a series arrived for no sink");
+      std::lock_guard lock(sink_mutex_);
+      sink_->write(u, q, depth, velocity);
+      return;
+    }
+    if (m.tag != kOutflow) throw InternalError("a message between ranks with an unknown tag");
+    if (failed_.load()) return;
+    outflow_[u] = std::make_unique<std::vector<double>>(in.series());
+    notePeakLive(++live_);
+    arena.execute([&] {
+      for (std::uint32_t k = plan_.down_offset[u]; k < plan_.down_offset[u + 1]; ++k) {
+        const std::uint32_t d = plan_.down_reach[k];
+        if (local(d) && pending_[d].fetch_sub(1) == 1) spawn(d);
+      }
+    });
+  }
+
+  /// Routes this rank's reaches: workers route, this thread passes the
+  /// messages (MPI's funneled level), until every rank is done; then rank
+  /// 0 gathers the summaries, or every rank throws the first failure.
+  void routeAmongRanks() {
+    Ranks& ranks = *dist_->ranks;
+    shareWants(ranks);
+    const int cores = tbb::info::default_concurrency();
+    const int threads = options_.threads > 0
+                            ? std::min(static_cast<int>(std::min<unsigned>(options_.threads, 1u << 20)), cores)
+                            : std::max(1, cores / std::max(1, ranks.onThisMachine()));
+    // One more slot, kept for this thread, which only hands work in.
+    tbb::global_control limit(tbb::global_control::max_allowed_parallelism, static_cast<std::size_t>(threads) + 1);
+    tbb::task_arena arena(threads + 1, 1);
+    results_.threads = static_cast<unsigned>(threads);
+    arena.execute([&] {
+      for (std::uint32_t i = 0; i < n_; ++i)
+        if (local(i) && plan_.isHeadwater(i)) spawn(i);
+    });
+    bool told = false, waiting = false;
+    // Between polls this thread sleeps until a worker wakes it, or 50 µs,
+    // doubling to 1 ms while nothing happens (a missed wake costs that).
+    auto pause = std::chrono::microseconds(50);
+    for (;;) {
+      bool busy = false;
+      std::deque<Outgoing> out;
+      {
+        std::lock_guard lock(outbox_mutex_);
+        out.swap(outbox_);
+      }
+      for (Outgoing& m : out) ranks.send(m.to, m.tag, std::move(m.data));
+      busy = !out.empty();
+      while (auto m = ranks.receive()) {
+        busy = true;
+        try {
+          take(*m, arena);
+        } catch (...) {
+          fail(std::current_exception());
+        }
+      }
+      if (!waiting) {
+        const bool failed = failed_.load();
+        if (failed && !told && ownError()) {
+          for (int r = 0; r < ranks.size(); ++r)
+            if (r != me_) ranks.send(r, kFailed, {});
+          told = true;
+        }
+        // Idle first: with no task left, only this thread adds messages.
+        const bool idle = in_flight_.load() == 0;
+        bool empty;
+        {
+          std::lock_guard lock(outbox_mutex_);
+          empty = outbox_.empty();
+        }
+        const bool finished = failed || (done_local_.load() == local_count_ && received_ == expected_);
+        if (finished && idle && empty && ranks.allSent()) {
+          ranks.enterBarrier();
+          waiting = true;
+        }
+      }
+      if (waiting && ranks.barrierPassed()) break;
+      pause = busy ? std::chrono::microseconds(50) : std::min(pause * 2, std::chrono::microseconds(1000));
+      std::unique_lock lock(wake_mutex_);
+      wake_.wait_for(lock, pause);
+    }
+    arena.execute([&] { tasks_.wait(); });
+    std::optional<Ranks::Failure> mine;
+    if (error_) mine = failureOf(error_, me_);
+    const std::optional<Ranks::Failure> first = ranks.firstFailure(mine);
+    if (error_) std::rethrow_exception(error_);
+    if (first) throwFailure(*first);
+    gatherAtRankZero(ranks);
+  }
+
+  bool ownError() {
+    std::lock_guard lock(error_mutex_);
+    return error_ != nullptr;
+  }
+
+  void fail(std::exception_ptr e) {
+    std::lock_guard lock(error_mutex_);
+    if (!error_) error_ = std::move(e);
+    failed_ = true;
+  }
+
+  /// Rank 0 takes every other rank's reach summaries, top-node peaks, end
+  /// states and lakes, and the most series any rank held.
+  void gatherAtRankZero(Ranks& ranks) {
+    Packer p;
+    for (std::uint32_t i = 0; i < n_; ++i) {
+      if (!local(i)) continue;
+      p.put(i);
+      p.put(results_.reaches[i]);
+      p.put(top_node_[i]);
+      if (options_.final_states) {
+        const ReachState& st = (*options_.final_states)[i];
+        p.put(st.method), p.put(st.subreaches), p.put(st.substeps), p.put(st.reference_q_m3s);
+        p.put(st.table_min_q_m3s), p.put(st.table_max_q_m3s), p.put(st.table_nodes), p.put(st.storage_m3);
+        p.put(std::span<const double>(st.q_m3s));
+      }
+    }
+    p.put(std::uint32_t{UINT32_MAX});
+    for (std::uint32_t l = 0; l < lake_volume_.size(); ++l) {
+      if (!lake_volume_[l].routed) continue;
+      p.put(l);
+      p.put(lake_volume_[l]);
+      if (options_.lake_results) {
+        const LakeRouting& r = (*options_.lake_results)[l];
+        const LevelPoolResult& x = r.result;
+        p.put(std::span<const double>(r.inflow_m3s));
+        p.put(std::span<const double>(x.outflow_m3s)), p.put(std::span<const double>(x.level_m));
+        p.put(std::span<const double>(x.storage_m3));
+        p.put(x.volume_in_m3), p.put(x.volume_out_m3), p.put(x.storage_change_m3), p.put(x.volume_error_m3);
+        p.put(x.substeps), p.put(x.response_time_min_s), p.put(x.steps_refined), p.put(x.samples_above_table);
+      }
+    }
+    p.put(std::uint32_t{UINT32_MAX});
+    p.put(static_cast<std::uint64_t>(peak_live_.load()));
+    const std::vector<std::vector<std::byte>> all = ranks.gather(p.bytes);
+    for (std::size_t r = 1; r < all.size(); ++r) {
+      Unpacker in(all[r]);
+      for (auto i = in.get<std::uint32_t>(); i != UINT32_MAX; i = in.get<std::uint32_t>()) {
+        if (i >= n_) throw InternalError("a rank's summary names no reach");
+        results_.reaches[i] = in.get<ReachSummary>();
+        top_node_[i] = in.get<Peak>();
+        if (options_.final_states) {
+          ReachState& st = (*options_.final_states)[i];
+          st.method = in.get<Method>(), st.subreaches = in.get<std::uint32_t>(), st.substeps = in.get<std::uint32_t>();
+          st.reference_q_m3s = in.get<double>(), st.table_min_q_m3s = in.get<double>();
+          st.table_max_q_m3s = in.get<double>(), st.table_nodes = in.get<std::uint32_t>();
+          st.storage_m3 = in.get<double>();
+          st.q_m3s = in.series();
+        }
+      }
+      for (auto l = in.get<std::uint32_t>(); l != UINT32_MAX; l = in.get<std::uint32_t>()) {
+        if (l >= lake_volume_.size()) throw InternalError("a rank's summary names no lake");
+        lake_volume_[l] = in.get<LakeVolumes>();
+        if (options_.lake_results) {
+          LakeRouting& r = (*options_.lake_results)[l];
+          LevelPoolResult& x = r.result;
+          r.routed = true;
+          r.inflow_m3s = in.series();
+          x.outflow_m3s = in.series(), x.level_m = in.series(), x.storage_m3 = in.series();
+          x.volume_in_m3 = in.get<double>(), x.volume_out_m3 = in.get<double>();
+          x.storage_change_m3 = in.get<double>(), x.volume_error_m3 = in.get<double>();
+          x.substeps = in.get<std::size_t>(), x.response_time_min_s = in.get<double>();
+          x.steps_refined = in.get<std::size_t>(), x.samples_above_table = in.get<std::size_t>();
+        }
+      }
+      peak_live_ = std::max<std::size_t>(peak_live_.load(), in.get<std::uint64_t>());
+      if (!in.done()) throw InternalError("a rank's summary is longer than expected");
+    }
+  }
+
+  void notePeakLive(std::size_t live) {
+    std::size_t seen = peak_live_.load();
+    while (live > seen && !peak_live_.compare_exchange_weak(seen, live)) {
+    }
+  }
+
   void routeOne(std::uint32_t i) {
     if (failed_.load()) return;
     try {
       routeReach(i);
     } catch (...) {
-      std::lock_guard lock(error_mutex_);
-      if (!error_) error_ = std::current_exception();
-      failed_ = true;
+      fail(std::current_exception());
     }
   }
 
@@ -192,7 +533,7 @@ private:
 
     ReachRun run;
     auto out = std::make_unique<std::vector<double>>();
-    const bool send = sink_ && sink_->wants(i);
+    const bool send = dist_ ? bool(wanted_[i]) : sink_ && sink_->wants(i);
     try {
       const ReachSpec spec{plan_.section[i], plan_.length_m[i],
                            plan_.muskingum_k_s[i], plan_.muskingum_x[i]};
@@ -212,16 +553,24 @@ private:
       throw InputError(where, e.what());
     }
     top_node_[i] = findPeak(ws.inflow);
-    if (send) {
+    if (send && dist_ && me_ != 0) {
+      Packer p;
+      p.put(i);
+      p.put(std::span<const double>(*out)), p.put(std::span<const double>(ws.depth));
+      p.put(std::span<const double>(ws.velocity));
+      queue(0, kSeries, std::move(p.bytes));
+    } else if (send) {
       std::lock_guard lock(sink_mutex_);
       sink_->write(i, *out, ws.depth, ws.velocity);
     }
-    if (plan_.isOutlet(i) && !(i < keep_outflow_.size() && keep_outflow_[i])) return;  // nobody downstream needs it
-    outflow_[i] = std::move(out);
-    const std::size_t live = ++live_;
-    std::size_t seen = peak_live_.load();
-    while (live > seen && !peak_live_.compare_exchange_weak(seen, live)) {
+    if (dist_) {
+      shipOutflow(i, *out);
+      if (consumers_[i] == 0 && !(me_ == 0 && keptForLake(i))) return;  // nobody here needs it
+    } else if (plan_.isOutlet(i) && !keptForLake(i)) {
+      return;  // nobody downstream needs it
     }
+    outflow_[i] = std::move(out);
+    notePeakLive(++live_);
   }
 
   /// Checks the lakes against the plan and marks where each sits.
@@ -377,10 +726,11 @@ private:
   void reportProgress() {
     if (!options_.progress) return;
     const std::size_t done = ++done_;
-    const std::size_t stride = std::max<std::size_t>(1, n_ / 200);
-    if (done % stride != 0 && done != n_) return;
+    const std::size_t total = dist_ ? local_count_ : n_;  // among ranks: this rank's reaches
+    const std::size_t stride = std::max<std::size_t>(1, total / 200);
+    if (done % stride != 0 && done != total) return;
     std::lock_guard lock(progress_mutex_);
-    options_.progress(done, n_);
+    options_.progress(done, total);
   }
 
   void release(std::uint32_t u) {
@@ -437,6 +787,20 @@ private:
   std::vector<std::vector<double>> lake_out_; ///< per lake: its outflow samples (lakes with outflowing reaches)
   std::vector<LakeVolumes> lake_volume_;
   std::vector<std::size_t> terminal_;         ///< terminal lakes
+  // ---- routing among ranks (null dist_: this process routes everything) ----
+  struct Outgoing {
+    int to, tag;
+    std::vector<std::byte> data;
+  };
+  const Distribution* dist_ = nullptr;
+  int me_ = 0;
+  std::size_t local_count_ = 0, expected_ = 0, received_ = 0;
+  std::vector<bool> wanted_;                ///< per reach: rank 0's sink wants its series
+  std::atomic<std::size_t> done_local_{0}, in_flight_{0};
+  tbb::task_group tasks_;
+  std::mutex outbox_mutex_, wake_mutex_;
+  std::deque<Outgoing> outbox_;
+  std::condition_variable wake_;
   tbb::enumerable_thread_specific<Workspace> workspace_;
   NetworkResults results_;
   std::atomic<std::size_t> live_{0}, peak_live_{0}, done_{0};

@@ -11,6 +11,7 @@
 #include "reachwise/Error.hpp"
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/SavedState.hpp"
+#include "reachwise/network/Partition.hpp"
 #include "reachwise/network/Problem.hpp"
 
 namespace reachwise::run {
@@ -159,6 +160,18 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   Progress& tell = progress ? *progress : silent;
   if (!request.members.empty()) throw InternalError("run::route: an ensemble (members) is routed by routeEnsemble");
   RouteSummary summary;
+  // Among ranks, every step below runs on every rank and fails on all when
+  // it fails on one; rank 0 alone writes.
+  routing::Ranks* const ranks = request.ranks && request.ranks->size() > 1 ? request.ranks : nullptr;
+  const bool writes = !ranks || ranks->rank() == 0;
+  std::optional<RunForcing> forcing_read;
+  routing::NetworkRouteOptions ro;
+  std::vector<routing::ReachState> start_states, end_states;
+  std::vector<std::uint32_t> gauged;
+  std::optional<OutflowCapture> capture_made;
+  std::optional<Outputs> outputs_made;
+  routing::Distribution distribution;
+  routing::onEveryRank(ranks, [&] {
   // An output never replaces an input (write-back adds layers beside the
   // network and is not an output path here).
   const std::vector<io::NamedPath> outputs_named = outputPaths(request.outputs);
@@ -177,12 +190,11 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   const network::NetworkPlan& plan = summary.plan;
 
   tell.stage("reading the forcing");
-  const RunForcing forcing(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
+  const RunForcing& forcing =
+      forcing_read.emplace(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
   requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
   summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.forcingUnits());
-  routing::NetworkRouteOptions ro =
-      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
-  std::vector<routing::ReachState> start_states, end_states;
+  ro = networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
   if (!request.initial_state.empty()) {
     tell.stage("reading " + request.initial_state);
     start_states = bindState(request.initial_state, io::readStateFile(request.initial_state), request, net, plan,
@@ -190,22 +202,41 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
     ro.initial_states = &start_states;
   }
   if (!request.outputs.state_nc.empty()) ro.final_states = &end_states;
-  std::vector<std::uint32_t> gauged;
   for (const auto& g : summary.gauges.gauges) gauged.push_back(g.reach);
-  OutflowCapture capture(plan.size(), gauged);
+  OutflowCapture& capture = capture_made.emplace(plan.size(), gauged);
   std::vector<routing::SeriesSink*> sinks = request.sinks;
   if (!gauged.empty()) sinks.push_back(&capture);
   std::vector<std::string> gauge_ids;
   for (const auto& g : summary.gauges.gauges) gauge_ids.push_back(g.gauge_id);
-  Outputs outputs(request.outputs, net, plan, forcing.axis(), provenance(request), sinks, std::move(gauge_ids));
+  if (writes)
+    outputs_made.emplace(request.outputs, net, plan, forcing.axis(), provenance(request), sinks, std::move(gauge_ids));
+  if (ranks) {
+    // A lake's outflowing reaches stay on one rank (it routes the lake).
+    std::vector<std::vector<std::uint32_t>> together;
+    for (const auto& lake : ro.lakes) together.push_back(lake.outflow_reaches);
+    distribution.ranks = ranks;
+    distribution.owner = network::partitionPlan(plan, ranks->size(), together).owner;
+    ro.distribution = &distribution;
+  }
+  });
+  const LoadedNetwork& net = *summary.network;
+  const network::NetworkPlan& plan = summary.plan;
+  const RunForcing& forcing = *forcing_read;
+  OutflowCapture& capture = *capture_made;
 
   tell.stage("routing");
   ro.progress = [&tell](std::size_t done, std::size_t total) { tell.routed(done, total); };
   std::vector<routing::LakeRouting> lake_routing;
   ro.lake_results = &lake_routing;
   const auto t0 = std::chrono::steady_clock::now();
-  summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, &outputs.sink());
+  routing::onEveryRank(ranks, [&] {
+    summary.results =
+        routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, outputs_made ? &outputs_made->sink() : nullptr);
+  });
   summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  routing::onEveryRank(ranks, [&] {
+  if (!writes) return;  // rank 0 writes; the others' results hold their own reaches only
+  Outputs& outputs = *outputs_made;
   for (std::size_t k = 0; k < ro.lakes.size(); ++k)
     summary.lakes.push_back({k, net.lakes->lakes[k].lake_id, ro.lakes[k].inflow_reaches, ro.lakes[k].outflow_reaches,
                              ro.lakes[k].outflow_shares, std::move(lake_routing[k])});
@@ -228,6 +259,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
   summary.info.units = outputs.units();
+  summary.info.ranks = ranks ? ranks->size() : 1;
   const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
   markLakeNodes(summary.results, summary.lakes);
   std::optional<io::SavedState> saved;
@@ -250,6 +282,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   outputs.commit(summary.results, summary.info, lakes, gauge_rows, saved ? &*saved : nullptr);
   summary.gpkg = outputs.geopackage();
   summary.notes = outputs.notes();
+  });
   return summary;
 }
 

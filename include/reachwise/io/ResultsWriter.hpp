@@ -54,6 +54,8 @@ struct RunInfo {
   std::string series_file;           ///< NetCDF file holding the hydrographs instead (`series` row), if any
   /// The unit system of the run's outputs (`units` row: `si` or `us`).
   units::System units = units::System::SI;
+  /// Processes that routed the run together (`ranks` row; MPI ranks).
+  int ranks = 1;
   /// An ensemble run's members, in member order (a `members` row with
   /// their count and one `member` row each); empty: not an ensemble.
   std::vector<std::string> members;

@@ -16,6 +16,7 @@
 
 #include "reachwise/network/NetworkPlan.hpp"
 #include "reachwise/routing/LevelPool.hpp"
+#include "reachwise/routing/Ranks.hpp"
 #include "reachwise/routing/ReachRouter.hpp"
 #include "reachwise/routing/Results.hpp"
 
@@ -103,6 +104,18 @@ struct NetworkRouteOptions {
   /// plan); null = not kept. A reach routed with the diffusion wave has no
   /// state: the run fails naming it (InputError, field `state`).
   std::vector<ReachState>* final_states = nullptr;
+  /// Routing shared among ranks (Ranks.hpp), each routing the reaches it
+  /// owns; null or one rank: this process routes every reach. Every rank
+  /// calls routeNetwork with the same plan, forcing and options. Outflows
+  /// cross ranks as messages as soon as a reach is routed; the series
+  /// `sink` wants (asked at rank 0) and the reaches' summaries go to rank
+  /// 0, whose results are those of a single process, bit for bit (each
+  /// reach sums its inputs in the plan's order, wherever they came from);
+  /// the other ranks' results hold their own reaches' summaries only.
+  /// `threads` is per rank (0: the machine's cores shared among its
+  /// ranks). Should any rank fail, every rank throws its error (Error, or
+  /// InternalError for a bug), the failing rank's message at every rank.
+  const Distribution* distribution = nullptr;
 };
 
 /// Routes every reach of `plan` over `axis`. Each finished reach's outflow

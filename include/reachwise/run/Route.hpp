@@ -68,6 +68,13 @@ struct RouteRequest {
   /// the forcing's first time at the state's time (docs/formats.md, "Saved
   /// state"); empty: none.
   std::string initial_state;
+  /// Processes routing this run together (MPI ranks, routing/Ranks.hpp):
+  /// every rank calls route() with the same request; the network is cut
+  /// into parts (network::partitionPlan), each rank routes its own, and
+  /// rank 0 alone writes the outputs, which equal a single process's. A
+  /// failure on any rank fails route() on every rank. Null: this process
+  /// alone.
+  routing::Ranks* ranks = nullptr;
   /// A forecast ensemble (run/Ensemble.hpp, routeEnsemble()): a folder of
   /// forcing files or a glob pattern, each file a member replacing
   /// `forcing.inflow`; empty: a single run. route() refuses it.
