@@ -9,6 +9,7 @@
 #include <fmt/ostream.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
@@ -25,6 +26,7 @@
 #include "reachwise/io/IsoTime.hpp"
 #include "reachwise/io/OutputUnits.hpp"
 #include "reachwise/io/RouteConfig.hpp"
+#include "reachwise/run/Ensemble.hpp"
 #include "reachwise/run/Route.hpp"
 
 namespace reachwise::cli {
@@ -34,7 +36,7 @@ namespace {
 namespace fs = std::filesystem;
 
 struct RouteOptions {
-  std::string network, inflow, lateral, layer, config, method = "vpmc", out, csv, series_nc, report, report_reaches;
+  std::string network, inflow, lateral, members, layer, config, method = "vpmc", out, csv, series_nc, report, report_reaches;
   std::string hydrographs = "auto";
   std::string units;   ///< "si" or "us"; empty: the network's input units
   std::string lakes, lakes_layer;
@@ -351,6 +353,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.gauges = {o.observed, o.gauges, o.gauges_layer, o.gauge_snap_m};
   r.forcing.inflow = o.inflow;
   r.forcing.lateral = o.lateral;
+  r.members = o.members;
   r.forcing.dt_s = o.dt_s;
   r.forcing.max_steps = o.max_steps;
   r.max_hydrograph_rows = o.max_hydrograph_rows;
@@ -375,7 +378,82 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   return r;
 }
 
+/// What an ensemble run did: members, routing time, and the members'
+/// peaks at the outlets (10th, 50th, 90th percentile).
+void printEnsembleSummary(std::ostream& out, std::ostream& err, const run::Ensemble& e,
+                          const run::EnsembleSummary& s, const RouteOptions& o) {
+  const network::NetworkPlan& plan = e.plan();
+  const routing::NetworkResults& r = s.reference.results;
+  const int off = r.axis.utc_offset_min;
+  const ConsoleUnits u{s.info.units};
+  fmt::print(out, "routed {} members over {} reaches, {} steps of {} s from {} ({}); reference member {}\n",
+             s.names.size(), plan.size(), r.axis.steps, r.axis.dt_s, io::formatIsoTime(r.axis.start_unix_s, off),
+             o.method, s.names.front());
+  fmt::print(out, "routing took {:.2f} s on {} thread(s), members side by side\n", s.routing_s, s.threads);
+  std::vector<std::uint32_t> outlets;
+  for (std::uint32_t i = 0; i < plan.size(); ++i)
+    if (plan.isOutlet(i)) outlets.push_back(i);
+  std::stable_sort(outlets.begin(), outlets.end(), [&](std::uint32_t a, std::uint32_t b) {
+    return s.ensemble.peak_q_m3s[a][1] > s.ensemble.peak_q_m3s[b][1];
+  });
+  fmt::print(out, "members' peaks at the outlets (10 / 50 / 90 %), largest median first:\n");
+  for (std::size_t k = 0; k < outlets.size() && k < kNodesListed; ++k) {
+    const auto& q = s.ensemble.peak_q_m3s[outlets[k]];
+    const auto& t = s.ensemble.peak_time_s[outlets[k]];
+    fmt::print(out, "  outlet {}: peak {:.2f} / {:.2f} / {:.2f} {}, at {} / {} / {}\n", plan.reach_id[outlets[k]],
+               u.q(q[0]), u.q(q[1]), u.q(q[2]), u.q_unit(), io::formatIsoTime(t[0], off),
+               io::formatIsoTime(t[1], off), io::formatIsoTime(t[2], off));
+  }
+  if (outlets.size() > kNodesListed)
+    fmt::print(out, "  ... and {} more outlet(s), all in the reaches layer\n", outlets.size() - kNodesListed);
+  printWarnings(err, r.warnings, "warning: ");
+  fmt::print(out, "wrote {}\n", s.gpkg);
+  if (!o.report.empty())
+    fmt::print(out, "run report (open in a web browser): {}\n", (fs::path(o.report) / "index.html").string());
+  fmt::print(out, "caution: {}\n", run::kResultsCaution);
+}
+
+int routeEnsemble(const RouteOptions& o, std::ostream& out, std::ostream& err) {
+  if (o.ranks && o.ranks->size() > 1) {
+    // Every rank refuses alike (rank 0 alone prints), without a message
+    // between them.
+    InputLocation at;
+    at.field = "members";
+    throw InputError(at, "an ensemble (--members) is routed in one process: its members are not spread over MPI "
+                         "ranks; run it without mpirun (the members run side by side over the threads)");
+  }
+  BarProgress progress(!o.quiet);
+  const run::RouteRequest request = requestOf(o);
+  try {
+    const run::Ensemble e(request, &progress);
+    std::unique_ptr<run::Outputs> outputs = run::openEnsembleOutputs(e);
+    progress.stage(fmt::format("routing {} members", e.size()));
+    std::vector<std::uint32_t> all(e.size());
+    for (std::uint32_t m = 0; m < all.size(); ++m) all[m] = m;
+    run::ReferenceRun reference;
+    const auto t0 = std::chrono::steady_clock::now();
+    std::vector<run::MemberResult> members = run::routeMembers(e, all, request.threads, &reference, &progress);
+    const double routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    progress.stage("writing the results");
+    run::EnsembleSummary s = run::writeEnsemble(e, *outputs, std::move(members), std::move(reference));
+    s.routing_s = routing_s;
+    s.threads = run::memberThreads(request.threads);
+    progress.finish();
+    for (const auto& note : s.notes) fmt::print(err, "{}\n", note);
+    if (!o.quiet) printEnsembleSummary(out, err, e, s, o);
+  } catch (const run::NetworkHasErrors& e) {
+    progress.finish();
+    for (const auto& p : e.problems())
+      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
+    fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
+    return kExitInput;
+  }
+  if (o.timings) progress.times().print(out);
+  return kExitOk;
+}
+
 int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
+  if (!o.members.empty()) return routeEnsemble(o, out, err);
   BarProgress progress(!o.quiet && o.speaks());
   run::RouteSummary s;
   try {
@@ -415,6 +493,7 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   };
   take("--inflow", o.inflow, c.inflow);
   take("--lateral", o.lateral, c.lateral);
+  take("--members", o.members, c.members);
   take("--method", o.method, c.method);
   take("--dt", o.dt_s, c.dt_s);
   take("--out", o.out, c.out);
@@ -446,6 +525,9 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--inflow", o->inflow,
                                   "CSV or NetCDF of discharge entering at the top of named reaches");
   sub->add_option("--lateral", o->lateral, "CSV or NetCDF of lateral inflow along named reaches");
+  sub->add_option("--members", o->members,
+                  "Forecast ensemble: a folder of inflow forcing files (CSV or NetCDF), or a quoted glob pattern; "
+                  "each file is a member replacing --inflow (a --lateral is shared), named by its file's stem");
   sub->add_option("--layer", o->layer, "Layer name (default: the only line layer)");
   sub->add_option("--lakes", o->lakes,
                   "Lakes and reservoirs: a polygon source (fields in docs/formats.md, \"Lakes\")");
@@ -515,9 +597,9 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
         return kExitOk;
       });
       if (loaded != kExitOk) return loaded;
-      if (o->inflow.empty() && o->lateral.empty()) {
-        fmt::print(errorStream(*o), "route: give --inflow and/or --lateral (or set them in the run file's [route] "
-                              "table)\n");
+      if (o->inflow.empty() && o->lateral.empty() && o->members.empty()) {
+        fmt::print(errorStream(*o), "route: give --inflow and/or --lateral, or --members (or set them in the run "
+                                    "file's [route] table)\n");
         return kExitUsage;
       }
       return runGuarded(*o);

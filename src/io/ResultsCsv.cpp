@@ -181,7 +181,7 @@ std::string real(double v, units::System system, Quantity quantity) {
 void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTable& table,
                     const network::NetworkPlan& plan, const routing::NetworkResults& results,
                     const RunInfo& info, const CsvLakes& csv_lakes, const std::vector<GaugeOutput>* gauges,
-                    OutputCommit* into, units::System u) {
+                    OutputCommit* into, units::System u, const EnsembleOutput* ensemble) {
   REACHWISE_ASSERT(results.reaches.size() == plan.size());
   prepareDirectory(dir);
   const int offset = results.axis.utc_offset_min;
@@ -195,17 +195,36 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
     lakes = std::make_unique<Stream>(dir, kCsvLakeFiles[0], overwrite);
     lake_series = std::make_unique<Stream>(dir, kCsvLakeFiles[1], overwrite);
   }
+  std::unique_ptr<Stream> member_reaches;
+  if (ensemble) member_reaches = std::make_unique<Stream>(dir, std::string(kMemberReachesTable) + ".csv", overwrite);
   std::unique_ptr<Stream> gauge_table, gauge_series;
   if (gauges) {
     gauge_table = std::make_unique<Stream>(dir, kCsvGaugeFiles[0], overwrite);
     gauge_series = std::make_unique<Stream>(dir, kCsvGaugeFiles[1], overwrite);
   }
 
-  header(reaches.out, results::inUnits(results::reachColumns(), u));
+  const std::vector<results::Column>& reach_columns =
+      ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
+  header(reaches.out, results::inUnits(reach_columns, u));
   reaches.out << ",geometry\n";
   for (std::size_t i = 0; i < plan.size(); ++i) {
-    writeRow(reaches.out, results::reachRow(plan, results.reaches[i], i), results::reachColumns(), offset, u);
+    auto row = results::reachRow(plan, results.reaches[i], i);
+    if (ensemble) {
+      auto more = results::ensembleReachRow(*ensemble, i);
+      row.insert(row.end(), std::make_move_iterator(more.begin()), std::make_move_iterator(more.end()));
+    }
+    writeRow(reaches.out, std::move(row), reach_columns, offset, u);
     reaches.out << ',' << wkt(results::flowLine(table, plan, i)) << '\n';
+  }
+  if (ensemble) {
+    header(member_reaches->out, results::inUnits(results::memberReachColumns(), u));
+    member_reaches->out << '\n';
+    for (std::size_t m = 0; m < ensemble->members.size(); ++m)
+      for (std::size_t i = 0; i < plan.size(); ++i) {
+        writeRow(member_reaches->out, results::memberReachRow(plan, *ensemble, m, i), results::memberReachColumns(),
+                 offset, u);
+        member_reaches->out << '\n';
+      }
   }
 
   header(nodes.out, results::inUnits(results::nodeColumns(), u));
@@ -275,20 +294,23 @@ void writeCsvTables(const fs::path& dir, bool overwrite, const network::ReachTab
   std::optional<OutputCommit> own;
   if (!into) into = &own.emplace(overwrite);
   for (Stream* s : {&reaches, &nodes, &branches, &run_info, lakes.get(), lake_series.get(), gauge_table.get(),
-                    gauge_series.get()})
+                    gauge_series.get(), member_reaches.get()})
     if (s) s->commit(into);
   if (own) own->commit();
 }
 
 CsvSeriesWriter::CsvSeriesWriter(const fs::path& dir, bool overwrite,
                                  const network::NetworkPlan& plan, const routing::TimeAxis& axis,
-                                 SeriesSelection selection, units::System system)
-    : plan_(plan), axis_(axis), selected_(selection.mask(plan.size())), units_(system) {
+                                 SeriesSelection selection, units::System system, bool member_column)
+    : plan_(plan), axis_(axis), selected_(selection.mask(plan.size())), units_(system),
+      member_column_(member_column) {
   prepareDirectory(dir);
   out_ = std::make_unique<Stream>(dir, "hydrographs.csv", overwrite);
   fraction_digits_ = seriesFractionDigits(axis_);
-  out_->out << "reach_id,time,q,depth,velocity\n";
+  out_->out << (member_column_ ? "member," : "") << "reach_id,time,q,depth,velocity\n";
 }
+
+void CsvSeriesWriter::setMember(const std::string& name) { member_ = quoted(name) + ','; }
 
 CsvSeriesWriter::~CsvSeriesWriter() = default;
 
@@ -304,6 +326,7 @@ void CsvSeriesWriter::write(std::uint32_t reach, std::span<const double> q_m3s,
   const int offset = results::writableOffsetMin(axis_.utc_offset_min);
   auto& out = out_->out;
   for (std::size_t k = 0; k < axis_.steps; ++k) {
+    if (member_column_) out << member_;
     out << id << ',' << formatIsoTime(axis_.at(static_cast<double>(k)), offset, fraction_digits_)
         << ',' << real(q_m3s[k], units_, Quantity::Discharge) << ','
         << (depth_m.empty() ? std::string() : real(depth_m[k], units_, Quantity::Length)) << ','

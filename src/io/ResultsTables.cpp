@@ -147,6 +147,58 @@ Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& s, s
   return row;
 }
 
+const std::vector<Column>& ensembleReachColumns() {
+  static const std::vector<Column> columns = {
+      {"members", CT::Integer},
+      {"peak_q_p10", CT::Real, Quantity::Discharge},  {"peak_q_p50", CT::Real, Quantity::Discharge},
+      {"peak_q_p90", CT::Real, Quantity::Discharge},  {"peak_time_p10", CT::DateTime},
+      {"peak_time_p50", CT::DateTime},                {"peak_time_p90", CT::DateTime},
+  };
+  return columns;
+}
+
+const std::vector<Column>& ensembleRunReachColumns() {
+  static const std::vector<Column> columns = [] {
+    std::vector<Column> all = reachColumns();
+    all.insert(all.end(), ensembleReachColumns().begin(), ensembleReachColumns().end());
+    return all;
+  }();
+  return columns;
+}
+
+Row ensembleReachRow(const EnsembleOutput& e, std::size_t i) {
+  REACHWISE_ASSERT(i < e.peak_q_m3s.size() && i < e.peak_time_s.size() && i < e.counted.size());
+  Row row;
+  row.push_back(integer(e.counted[i]));
+  for (const double q : e.peak_q_m3s[i]) row.push_back(real(q));
+  for (const double t : e.peak_time_s[i]) row.push_back(instant(t));
+  REACHWISE_ASSERT(row.size() == ensembleReachColumns().size());
+  return row;
+}
+
+const std::vector<Column>& memberReachColumns() {
+  static const std::vector<Column> columns = {
+      {"member", CT::Text},
+      {"reach_id", CT::Text},
+      {"peak_q", CT::Real, Quantity::Discharge},
+      {"peak_time", CT::DateTime},
+      {"volume_out_m3", CT::Real, Quantity::Volume},
+  };
+  return columns;
+}
+
+Row memberReachRow(const network::NetworkPlan& plan, const EnsembleOutput& e, std::size_t m, std::size_t i) {
+  const std::size_t at = m * plan.size() + i;
+  REACHWISE_ASSERT(m < e.members.size() && at < e.member_peak_q_m3s.size());
+  Row row;
+  row.emplace_back(e.members[m]);
+  row.emplace_back(plan.reach_id[i]);
+  row.push_back(real(e.member_peak_q_m3s[at]));
+  row.push_back(instant(e.member_peak_time_s[at]));
+  row.push_back(real(e.member_volume_out_m3[at]));
+  return row;
+}
+
 const char* nodeKindName(routing::NodeKind kind) {
   switch (kind) {
     case routing::NodeKind::Headwater: return "headwater";
@@ -334,6 +386,10 @@ std::vector<std::pair<std::string, std::string>> runInfoRows(const routing::Netw
                     std::isnan(event_pct) ? std::string("none: no volume entered above the initial flow")
                                           : fmt::format("{:.4g}", event_pct));
   if (!info.series_file.empty()) rows.emplace_back("series", info.series_file);
+  if (!info.members.empty()) {
+    rows.emplace_back("members", fmt::format("{}", info.members.size()));
+    for (const auto& m : info.members) rows.emplace_back("member", m);
+  }
   rows.emplace_back("version", kVersion);
   rows.emplace_back("git_hash", kGitHash);
   rows.emplace_back("command_line", info.command_line);

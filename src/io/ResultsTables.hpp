@@ -47,6 +47,18 @@ void convertRow(Row& row, const std::vector<Column>& columns, units::System syst
 const std::vector<Column>& reachColumns();
 Row reachRow(const network::NetworkPlan& plan, const routing::ReachSummary& summary, std::size_t i);
 
+/// The fields an ensemble run adds to `reaches` (after reachColumns()):
+/// `members`, then `peak_q_p10` ... `peak_time_p90`.
+const std::vector<Column>& ensembleReachColumns();
+/// reachColumns() then ensembleReachColumns(): the `reaches` of an ensemble run.
+const std::vector<Column>& ensembleRunReachColumns();
+/// Those fields of plan reach `i`.
+Row ensembleReachRow(const EnsembleOutput& ensemble, std::size_t i);
+/// The `member_reaches` table: member, reach_id, peak_q, peak_time, volume_out_m3.
+const std::vector<Column>& memberReachColumns();
+/// Its row of member `m` at plan reach `i`.
+Row memberReachRow(const network::NetworkPlan& plan, const EnsembleOutput& ensemble, std::size_t m, std::size_t i);
+
 const std::vector<Column>& nodeColumns();
 Row nodeRow(const network::NetworkPlan& plan, const routing::NodeSummary& node);
 

@@ -103,7 +103,7 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
 }
 
 constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info",
-                                   "lakes", "lake_series", "gauges", "gauge_series"};
+                                   "lakes", "lake_series", "gauges", "gauge_series", kMemberReachesTable};
 
 }  // namespace
 
@@ -304,9 +304,11 @@ GpkgResultsWriter::~GpkgResultsWriter() {
 void GpkgResultsWriter::fail(const std::string& what) const { failAt(target_, what); }
 
 void GpkgResultsWriter::openSeriesTable() {
-  std::vector<Column> columns = {{"reach_id", ColumnType::Text},
-                                 {"time", ColumnType::DateTime},
-                                 {"q", ColumnType::Real}};
+  std::vector<Column> columns;
+  if (options_.member_column) columns.push_back({"member", ColumnType::Text});
+  columns.push_back({"reach_id", ColumnType::Text});
+  columns.push_back({"time", ColumnType::DateTime});
+  columns.push_back({"q", ColumnType::Real});
   if (options_.depth_velocity) {
     columns.push_back({"depth", ColumnType::Real});
     columns.push_back({"velocity", ColumnType::Real});
@@ -361,16 +363,18 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
   REACHWISE_ASSERT(depth_m.empty() || depth_m.size() == axis_.steps);
   REACHWISE_ASSERT(velocity_ms.empty() || velocity_ms.size() == axis_.steps);
   OGRFeature& f = *series_feature_;
-  f.SetField(0, plan_.reach_id[reach].c_str());
+  const int c0 = options_.member_column ? 1 : 0;   // the first column after `member`
+  if (options_.member_column) f.SetField(0, member_.c_str());
+  f.SetField(c0, plan_.reach_id[reach].c_str());
   const auto value = [this](std::span<const double> s, std::size_t k, Quantity quantity) {
     return s.empty() || std::isnan(s[k]) ? Value{} : Value{toOutputUnits(options_.units, quantity, s[k])};
   };
   for (std::size_t k = 0; k < axis_.steps; ++k) {
-    setDateTime(f, 1, axis_.at(static_cast<double>(k)), timeOffsetMin(axis_.utc_offset_min));
-    setValue(f, 2, value(q_m3s, k, Quantity::Discharge), 0);
+    setDateTime(f, c0 + 1, axis_.at(static_cast<double>(k)), timeOffsetMin(axis_.utc_offset_min));
+    setValue(f, c0 + 2, value(q_m3s, k, Quantity::Discharge), 0);
     if (options_.depth_velocity) {
-      setValue(f, 3, value(depth_m, k, Quantity::Length), 0);
-      setValue(f, 4, value(velocity_ms, k, Quantity::Velocity), 0);
+      setValue(f, c0 + 3, value(depth_m, k, Quantity::Length), 0);
+      setValue(f, c0 + 4, value(velocity_ms, k, Quantity::Velocity), 0);
     }
     insert(target_, *series_layer_, f);
     countRow();
@@ -390,7 +394,8 @@ CPLConfigOptionSetter spatialIndexInThisThread() {
 
 }  // namespace
 
-void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, const RunInfo& info) {
+void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, const RunInfo& info,
+                                       const EnsembleOutput* ensemble) {
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_ && !summaries_written_);
   REACHWISE_ASSERT(results.reaches.size() == plan_.size());
@@ -399,13 +404,19 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
 
   const units::System u = options_.units;
+  const std::vector<Column>& reach_columns =
+      ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
   OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
-                                  results::inUnits(results::reachColumns(), u), schema_);
+                                  results::inUnits(reach_columns, u), schema_);
   {
     OGRFeature f(reaches->GetLayerDefn());
     for (std::size_t i = 0; i < plan_.size(); ++i) {
       auto row = results::reachRow(plan_, results.reaches[i], i);
-      results::convertRow(row, results::reachColumns(), u);
+      if (ensemble) {
+        auto more = results::ensembleReachRow(*ensemble, i);
+        row.insert(row.end(), std::make_move_iterator(more.begin()), std::make_move_iterator(more.end()));
+      }
+      results::convertRow(row, reach_columns, u);
       for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
       const auto vertices = results::flowLine(table_, plan_, i);
       if (vertices.size() >= 2) {
@@ -448,6 +459,22 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
         insert(target_, *branches, b);
       }
     }
+  }
+
+  if (ensemble) {
+    // One row per member and reach, member by member.
+    const std::vector<Column>& columns = results::memberReachColumns();
+    OGRLayer* members = createTable(target_, *ds_, layerName(kMemberReachesTable), nullptr, wkbNone,
+                                    results::inUnits(columns, u), schema_);
+    OGRFeature f(members->GetLayerDefn());
+    for (std::size_t m = 0; m < ensemble->members.size(); ++m)
+      for (std::size_t i = 0; i < plan_.size(); ++i) {
+        auto row = results::memberReachRow(plan_, *ensemble, m, i);
+        results::convertRow(row, columns, u);
+        for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+        insert(target_, *members, f);
+        rowWritten();
+      }
   }
 
   OGRLayer* run_info = createTable(target_, *ds_, layerName("run_info"), nullptr, wkbNone,

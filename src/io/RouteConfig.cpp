@@ -71,6 +71,7 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
     const std::string key(k.str());
     if (key == "inflow") c.inflow = path(v, key);
     else if (key == "lateral") c.lateral = path(v, key);
+    else if (key == "members") c.members = path(v, key);
     else if (key == "out") {
       // A database (`PG:...`) is a connection, not a path beside the run file.
       const auto text = required<std::string>(v, origin, key, "a file path or a PG: connection");

@@ -158,9 +158,18 @@ struct Curve {
   bool dashed = false;
 };
 
+/// A shaded band between two series (an ensemble's 10th to 90th
+/// percentile), drawn behind the curves with a legend row of its own.
+struct Band {
+  std::string label;
+  std::vector<double> lo, hi;   ///< one value per axis step (display unit)
+  Rgb colour;
+};
+
 struct HydrographFigure {
   std::string title;
   std::vector<Curve> curves;
+  std::vector<Band> bands;
   std::int64_t start_unix_s = 0;
   double dt_s = 3600;
   std::size_t steps = 0;    ///< samples on the axis (curves may be shorter: not captured)

@@ -54,7 +54,8 @@ void tracePath(cairo_t* cr, const std::vector<double>& q, const TimeScale& ts, d
 }
 
 void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& fig) {
-  const double height = kTop + kPlotHeight + 58 + kLegendRow * static_cast<double>(fig.curves.size()) + 8;
+  const double height =
+      kTop + kPlotHeight + 58 + kLegendRow * static_cast<double>(fig.curves.size() + fig.bands.size()) + 8;
   Canvas canvas(file, kWidth, height, ImageFormat::Svg);
   cairo_t* cr = canvas.cr();
 
@@ -68,6 +69,9 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
       if (std::isfinite(v)) q_max = std::max(q_max, v);
     if (std::isfinite(c.peak_q)) q_max = std::max(q_max, c.peak_q);
   }
+  for (const Band& b : fig.bands)
+    for (const double v : b.hi)
+      if (std::isfinite(v)) q_max = std::max(q_max, v);
   if (!(q_max > 0)) q_max = 1;
   const double q_step = niceStep(q_max * 1.05, 5);
   const double q_top = std::ceil(q_max * 1.05 / q_step) * q_step;
@@ -107,6 +111,20 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   cairo_rectangle(cr, left, kTop, kWidth - kRight - left, kPlotHeight);
   cairo_clip(cr);
   cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
+  for (const Band& b : fig.bands) {
+    // The upper edge forward, the lower edge back: one closed, filled outline.
+    const std::size_t n = std::min(b.lo.size(), b.hi.size());
+    if (n < 2) continue;
+    for (std::size_t k = 0; k < n; ++k) {
+      const double x = ts.x(t0 + static_cast<double>(k) * fig.dt_s);
+      if (k == 0) cairo_move_to(cr, x, ypix(b.hi[k]));
+      else cairo_line_to(cr, x, ypix(b.hi[k]));
+    }
+    for (std::size_t k = n; k-- > 0;) cairo_line_to(cr, ts.x(t0 + static_cast<double>(k) * fig.dt_s), ypix(b.lo[k]));
+    cairo_close_path(cr);
+    setColour(cr, b.colour, 0.35);
+    cairo_fill(cr);
+  }
   for (const Curve& c : fig.curves) {
     if (c.q.empty()) continue;
     tracePath(cr, c.q, ts, t0, fig.dt_s, ypix);
@@ -141,6 +159,14 @@ void drawHydrograph(const std::filesystem::path& file, const HydrographFigure& f
   double label_w = 150;
   for (const Curve& c : fig.curves) label_w = std::max(label_w, textWidth(cr, c.label, 11.5, true) + 12);
   double y = y0 + 58 + 10;
+  for (const Band& b : fig.bands) {
+    setColour(cr, b.colour, 0.35);
+    cairo_rectangle(cr, left, y - 9, 26, 10);
+    cairo_fill(cr);
+    cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
+    drawText(cr, left + 34, y, b.label, 11.5, Align::Left, true);
+    y += kLegendRow;
+  }
   for (const Curve& c : fig.curves) {
     setColour(cr, c.colour);
     if (c.q.empty()) {

@@ -303,10 +303,36 @@ void drawFigures(const std::filesystem::path& folder, const ReportInputs& in, co
   for (std::size_t k = 0; k < m.hydrograph_outlets.size(); ++k) {
     const std::uint32_t o = m.hydrograph_outlets[k];
     if (!series.has(o)) continue;
+    const ReportEnsemble::Band* band = in.ensemble ? in.ensemble->band(o) : nullptr;
     FigureFile f{fmt::format("outlet-{}.svg", k + 1), "Outlet O:" + in.plan.reach_id[o], 620,
-                 fmt::format("Outflow of reach {} and its inflow peak; discharge in {}, {}.", in.plan.reach_id[o],
-                             q_unit, when)};
-    drawHydrograph(folder / f.file, reachFigure(in, series, m, o, f.caption));
+                 band ? fmt::format("Outflow of reach {} in member {} and its inflow peak, with the band the {} "
+                                    "members' outflow spans (10th to 90th percentile at each time) and their median; "
+                                    "discharge in {}, {}.",
+                                    in.plan.reach_id[o], in.ensemble->reference, in.ensemble->members, q_unit, when)
+                      : fmt::format("Outflow of reach {} and its inflow peak; discharge in {}, {}.",
+                                    in.plan.reach_id[o], q_unit, when)};
+    HydrographFigure fig = reachFigure(in, series, m, o, f.caption);
+    if (band) {
+      fig.bands.push_back({fmt::format("members 10-90 % ({} members)", in.ensemble->members),
+                           scaled(band->p10, m.units), scaled(band->p90, m.units), {0.45, 0.6, 0.85}});
+      Curve median;
+      median.label = "members' median";
+      median.q = scaled(band->p50, m.units);
+      // The drawn median hydrograph's own peak (at a step).
+      const auto top = std::max_element(median.q.begin(), median.q.end(), [](double a, double b) {
+        return std::isnan(a) || (!std::isnan(b) && a < b);
+      });
+      if (top != median.q.end() && !std::isnan(*top)) {
+        median.peak_q = *top;
+        median.peak_t = in.results.axis.at(static_cast<double>(top - median.q.begin()));
+      }
+      median.colour = {0.2, 0.35, 0.7};
+      median.line_width = 1.4;
+      median.dashed = true;
+      fig.curves.insert(fig.curves.begin() + 1, std::move(median));
+      fig.curves.front().label += " (member " + in.ensemble->reference + ")";
+    }
+    drawHydrograph(folder / f.file, fig);
     m.outlet_figures.push_back(std::move(f));
     m.outlet_figure_reaches.push_back(o);
   }

@@ -514,6 +514,11 @@ private:
     for (const auto& f : in_.info.inputs) inputs += (inputs.empty() ? "" : "<br>") + ("<code>" + esc(f) + "</code>");
     row("inputs", inputs.empty() ? "-" : inputs);
     row("method", esc(in_.info.method));
+    if (in_.ensemble)
+      row("ensemble", esc(fmt::format("{} members; maps, tables and panels show member {}, the outlet panels also "
+                                       "the members' 10-90 % band and median (all members: the reaches layer's "
+                                       "_p10/_p50/_p90 fields and the member_reaches table)",
+                                       in_.ensemble->members, in_.ensemble->reference)));
     row("time steps", fmt::format("{} steps of {} s", axis.steps, num(axis.dt_s, 0)));
     row("start", esc(time(static_cast<double>(axis.start_unix_s)) + " (" + offset() + ")"));
     row("end", esc(time(axis.at(static_cast<double>(axis.steps ? axis.steps - 1 : 0))) + " (" + offset() + ")"));

@@ -43,6 +43,21 @@ private:
   routing::SeriesSink& inner_;
 };
 
+/// Passes series on while open (the report takes the reference member's only).
+class GatedSeries final : public routing::SeriesSink {
+public:
+  explicit GatedSeries(routing::SeriesSink& inner) : inner_(inner) {}
+  void write(std::uint32_t reach, std::span<const double> q, std::span<const double> d,
+             std::span<const double> v) override {
+    if (open) inner_.write(reach, q, d, v);
+  }
+  bool wants(std::uint32_t reach) const override { return open && inner_.wants(reach); }
+  bool open = true;
+
+private:
+  routing::SeriesSink& inner_;
+};
+
 }  // namespace
 
 void markLakeNodes(routing::NetworkResults& results, const std::vector<LakeResult>& lakes) {
@@ -63,6 +78,7 @@ struct Outputs::Writers {
   std::unique_ptr<io::NetcdfSeriesWriter> netcdf;
   std::unique_ptr<SelectedSeries> netcdf_selected;
   std::unique_ptr<report::ReportSeries> report;
+  std::unique_ptr<GatedSeries> report_gate;
   std::unique_ptr<io::SeriesFanOut> fan_out;
 };
 
@@ -73,6 +89,15 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
       gauge_ids_(std::move(gauge_ids)), w_(std::make_unique<Writers>()) {
   const OutputRequest& o = request_;
   const io::SeriesSelection selection = chooseSeries(o.hydrographs, plan);
+  const bool ensemble = !o.members.empty();
+  if (ensemble && !o.series_nc.empty()) {
+    InputLocation at;
+    at.file = o.series_nc;
+    at.field = "series";
+    throw InputError(at, "an ensemble run (--members) writes its members' hydrographs into the GeoPackage or CSV "
+                         "hydrographs table (with a member column); a NetCDF series file is not written for "
+                         "ensembles: leave out --series");
+  }
   std::vector<routing::SeriesSink*> sinks = std::move(extra);
   // Lakes: a `lakes` and a `lake_series` table in every output; their series
   // go where the hydrographs go, and not at all with `--hydrographs none`.
@@ -92,6 +117,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   wo.lakes = has_lakes_;
   wo.lake_series = lake_series_ && o.series_nc.empty();
   wo.units = units_;
+  wo.member_column = ensemble;
   if (o.write_back) {
     w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
     gpkg_target_ = net.source.path;
@@ -115,7 +141,9 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
       if (p == p.parent_path()) break;
     }
     fs::create_directories(o.csv_dir, ec);
-    w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection, units_);
+    w_->csv = std::make_unique<io::CsvSeriesWriter>(o.csv_dir, o.overwrite, plan, axis, selection, units_, ensemble);
+    if (ensemble)  // refused now rather than after routing
+      io::refuseExisting(fs::path(o.csv_dir) / (std::string(io::kMemberReachesTable) + ".csv"), o.overwrite);
     if (has_lakes_)  // refused now rather than after routing
       for (const char* name : io::kCsvLakeFiles) io::refuseExisting(fs::path(o.csv_dir) / name, o.overwrite);
     if (!gauge_ids_.empty())  // likewise
@@ -150,7 +178,8 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   if (!o.report_dir.empty()) {
     io::refuseExisting(o.report_dir, o.overwrite);
     w_->report = std::make_unique<report::ReportSeries>(plan, axis, namedReaches(o.report_reaches, plan, "report_reaches"));
-    sinks.push_back(w_->report.get());
+    w_->report_gate = std::make_unique<GatedSeries>(*w_->report);
+    sinks.push_back(w_->report_gate.get());
   }
   w_->fan_out = std::make_unique<io::SeriesFanOut>(std::move(sinks));
 }
@@ -178,6 +207,7 @@ std::vector<io::NamedPath> outputPaths(const OutputRequest& o) {
                                                   "run_info.csv", "hydrographs.csv"}};
     for (const char* name : io::kCsvLakeFiles) csv.names.emplace_back(name);
     for (const char* name : io::kCsvGaugeFiles) csv.names.emplace_back(name);
+    if (!o.members.empty()) csv.names.push_back(std::string(io::kMemberReachesTable) + ".csv");
     out.push_back(std::move(csv));
   }
   if (!o.report_dir.empty()) out.push_back({"--report", o.report_dir, true, {}});
@@ -186,10 +216,21 @@ std::vector<io::NamedPath> outputPaths(const OutputRequest& o) {
 
 routing::SeriesSink& Outputs::sink() { return *w_->fan_out; }
 
+void Outputs::beginMember(std::size_t m) {
+  if (m >= request_.members.size()) throw InternalError("Outputs::beginMember: no such member");
+  const std::string& name = request_.members[m];
+  if (w_->gpkg) w_->gpkg->setMember(name);
+  if (w_->csv) w_->csv->setMember(name);
+  if (w_->report_gate) w_->report_gate->open = m == 0;
+}
+
 void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& info,
                      const std::vector<io::LakeOutput>& lakes, const std::vector<io::GaugeOutput>& gauges,
-                     const io::SavedState* state) {
+                     const io::SavedState* state, const io::EnsembleOutput* ensemble,
+                     const report::ReportEnsemble* report_ensemble) {
   if (!request_.state_nc.empty() && !state) throw InternalError("a state file is asked for, but no state given");
+  if (request_.members.empty() != !ensemble)
+    throw InternalError("Outputs::commit: an ensemble's results go with the members the outputs were opened for");
   // The lakes must be the ones the outputs were opened for, in that order.
   bool same = lakes.size() == lake_ids_.size();
   for (std::size_t k = 0; same && k < lakes.size(); ++k)
@@ -200,7 +241,7 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     same = gauges[g].gauge_id == gauge_ids_[g] && gauges[g].observed && gauges[g].simulated;
   if (!same) throw InternalError("the gauges given to Outputs::commit are not the gauges the outputs were opened for");
   if (w_->gpkg) {
-    w_->gpkg->writeSummaries(results, info);
+    w_->gpkg->writeSummaries(results, info, ensemble);
     if (has_lakes_) w_->gpkg->writeLakes(lakes);
     if (!gauges.empty()) w_->gpkg->writeGauges(gauges);
   }
@@ -212,13 +253,14 @@ void Outputs::commit(const routing::NetworkResults& results, const io::RunInfo& 
     ri.lakes = lakes;
     ri.gauges = gauges;
     ri.calibration = request_.calibration;
+    ri.ensemble = report_ensemble;
     report::writeReport(request_.report_dir, ri, *w_->report, request_.overwrite, &all);
   }
   if (w_->csv) {
     io::CsvLakes csv_lakes;
     if (has_lakes_) csv_lakes = {&lakes, lake_series_};
     io::writeCsvTables(request_.csv_dir, request_.overwrite, net_.table, plan_, results, info, csv_lakes,
-                       gauges.empty() ? nullptr : &gauges, &all, units_);
+                       gauges.empty() ? nullptr : &gauges, &all, units_, ensemble);
     w_->csv->commit(&all);
   }
   if (w_->netcdf) {

@@ -158,6 +158,7 @@ std::vector<io::NamedPath> inputPaths(const RouteRequest& request, const LoadedN
 RouteSummary route(const RouteRequest& request, Progress* progress) {
   Progress silent;
   Progress& tell = progress ? *progress : silent;
+  if (!request.members.empty()) throw InternalError("run::route: an ensemble (members) is routed by routeEnsemble");
   RouteSummary summary;
   // Among ranks, every step below runs on every rank and fails on all when
   // it fails on one; rank 0 alone writes.

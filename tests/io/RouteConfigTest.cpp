@@ -14,6 +14,7 @@ layer = "reaches"
 [route]
 inflow = "forcing/in.csv"
 lateral = "/data/lat.nc"
+members = "forecast/m-*.csv"
 method = "mc"
 dt = 900
 out = "out.gpkg"
@@ -32,6 +33,7 @@ units = "us"
                                                 "/runs/a/run.toml");
   EXPECT_EQ(*c.inflow, "/runs/a/forcing/in.csv");
   EXPECT_EQ(*c.lateral, "/data/lat.nc");
+  EXPECT_EQ(*c.members, "/runs/a/forecast/m-*.csv");
   EXPECT_EQ(*c.method, "mc");
   EXPECT_EQ(*c.dt_s, 900.0);
   EXPECT_EQ(*c.out, "/runs/a/out.gpkg");

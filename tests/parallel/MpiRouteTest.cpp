@@ -149,3 +149,21 @@ TEST(MpiRoute, OtherCommandsRefuseSeveralRanks) {
   EXPECT_NE(run.code, 0);
   EXPECT_TRUE(contains(run.err, "only `route` and `demo` run across MPI ranks")) << run.err;
 }
+
+// An ensemble (--members) is routed in one process: under several ranks
+// every rank refuses, the message comes once (rank 0) and no output is left.
+TEST(MpiRoute, AnEnsembleRefusesSeveralRanksAndLeavesNoOutput) {
+  TempDir tmp;
+  fs::create_directories(tmp.path() / "members");
+  fs::copy_file(kSample + "inflow.csv", tmp.path() / "members/a.csv");
+  const CliRun run = routeInto(tmp.path() / "run", "--members " + shellQuoted((tmp.path() / "members").string()) + " " +
+                                                       kSample + "network.gpkg",
+                               2);
+  EXPECT_NE(run.code, 0);
+  const std::size_t first = run.err.find("error: ");
+  ASSERT_NE(first, std::string::npos) << run.err;
+  EXPECT_EQ(run.err.find("error: ", first + 1), std::string::npos) << run.err;
+  EXPECT_TRUE(contains(run.err, "not spread over MPI ranks")) << run.err;
+  EXPECT_FALSE(fs::exists(tmp.path() / "run/out.gpkg"));
+  EXPECT_FALSE(fs::exists(tmp.path() / "run/csv"));
+}

@@ -13,6 +13,7 @@
 /// transaction that `commit()` (or that OutputCommit, last) ends. Destroying a writer without `commit()`
 /// (an exception, a cancelled run) removes or rolls back what it wrote.
 
+#include <array>
 #include <cstddef>
 #include <cstdint>
 #include <filesystem>
@@ -55,6 +56,28 @@ struct RunInfo {
   units::System units = units::System::SI;
   /// Processes that routed the run together (`ranks` row; MPI ranks).
   int ranks = 1;
+  /// An ensemble run's members, in member order (a `members` row with
+  /// their count and one `member` row each); empty: not an ensemble.
+  std::vector<std::string> members;
+};
+
+/// The percentiles an ensemble run gives of its members' peaks (the
+/// `_p10`, `_p50`, `_p90` fields of `reaches`).
+inline constexpr double kEnsemblePercentiles[3] = {10, 50, 90};
+
+/// An ensemble run's results across its members (docs/formats.md,
+/// "Ensembles"): the spread of the members' peaks per reach for the
+/// `reaches` layer, and each member's peaks for `member_reaches`. Plain
+/// data, by plan index.
+struct EnsembleOutput {
+  std::vector<std::string> members;   ///< names, in member order
+  /// Per plan reach, the kEnsemblePercentiles of the members' peak discharge
+  /// (m^3/s) and peak time (s since the epoch); NaN where no member peaks.
+  std::vector<std::array<double, 3>> peak_q_m3s, peak_time_s;
+  /// Per plan reach: the members with a peak there (those the percentiles count).
+  std::vector<std::uint32_t> counted;
+  /// Per member and plan reach, member-major (`[m * reaches + i]`).
+  std::vector<double> member_peak_q_m3s, member_peak_time_s, member_volume_out_m3;
 };
 
 /// The caution every run_info table carries.
@@ -99,6 +122,9 @@ struct GpkgWriterOptions {
   /// The unit system of every value written (io/OutputUnits.hpp: values
   /// converted, unit-suffixed field names and column titles follow).
   units::System units = units::System::SI;
+  /// An ensemble run: `hydrographs` starts with a `member` column, set by
+  /// setMember() before each member's series.
+  bool member_column = false;
 };
 
 /// Writes results into a GeoPackage. Use: construct, let the scheduler
@@ -166,8 +192,15 @@ public:
              std::span<const double> velocity_ms) override;
   bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
 
-  /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`.
-  void writeSummaries(const routing::NetworkResults& results, const RunInfo& info);
+  /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`; with
+  /// `ensemble`, `reaches` gains the members' percentile fields and the
+  /// `member_reaches` table is written.
+  void writeSummaries(const routing::NetworkResults& results, const RunInfo& info,
+                      const EnsembleOutput* ensemble = nullptr);
+
+  /// The member the following write() calls belong to (`member` column;
+  /// with `options.member_column` only).
+  void setMember(std::string name) { member_ = std::move(name); }
 
   /// Writes `lakes` (one polygon per routed lake, in the table's CRS) and,
   /// with `options.lake_series`, their rows of `lake_series`. Only with
@@ -229,6 +262,7 @@ private:
   std::size_t hydrograph_rows_ = 0;
   bool summaries_written_ = false;
   bool lakes_written_ = false;
+  std::string member_;              ///< the `member` of the rows write() adds
   bool committed_ = false;
 };
 
@@ -250,11 +284,17 @@ struct CsvLakes {
 /// Text is quoted when it holds a comma, quote or line break; NaN is empty.
 /// Values are written in `units` (io/OutputUnits.hpp; unit-suffixed column
 /// names follow; `run_info.csv` records the system).
+/// With `ensemble`, `reaches.csv` gains the members' percentile fields and
+/// `member_reaches.csv` is written.
 void writeCsvTables(const std::filesystem::path& dir, bool overwrite,
                     const network::ReachTable& table, const network::NetworkPlan& plan,
                     const routing::NetworkResults& results, const RunInfo& info,
                     const CsvLakes& lakes = {}, const std::vector<GaugeOutput>* gauges = nullptr,
-                    OutputCommit* into = nullptr, units::System units = units::System::SI);
+                    OutputCommit* into = nullptr, units::System units = units::System::SI,
+                    const EnsembleOutput* ensemble = nullptr);
+
+/// The name of the per-member table an ensemble run writes (`.csv` in a folder).
+inline constexpr const char* kMemberReachesTable = "member_reaches";
 
 /// The names of the lake files writeCsvTables writes.
 inline constexpr const char* kCsvLakeFiles[] = {"lakes.csv", "lake_series.csv"};
@@ -262,13 +302,16 @@ inline constexpr const char* kCsvLakeFiles[] = {"lakes.csv", "lake_series.csv"};
 inline constexpr const char* kCsvGaugeFiles[] = {"gauges.csv", "gauge_series.csv"};
 
 /// Streams `hydrographs.csv` (reach_id, time, q, depth, velocity; values in
-/// `system`) into `dir`; the file appears under its name in commit().
+/// `system`; with `member_column` a leading `member`, set by setMember())
+/// into `dir`; the file appears under its name in commit().
 class CsvSeriesWriter final : public routing::SeriesSink {
 public:
   CsvSeriesWriter(const std::filesystem::path& dir, bool overwrite, const network::NetworkPlan& plan,
                   const routing::TimeAxis& axis, SeriesSelection selection = SeriesSelection::all(),
-                  units::System system = units::System::SI);
+                  units::System system = units::System::SI, bool member_column = false);
   ~CsvSeriesWriter() override;
+  /// The member the following write() calls belong to (with `member_column`).
+  void setMember(const std::string& name);
   bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
   CsvSeriesWriter(const CsvSeriesWriter&) = delete;
   CsvSeriesWriter& operator=(const CsvSeriesWriter&) = delete;
@@ -285,6 +328,8 @@ private:
   std::vector<bool> selected_;
   units::System units_;
   int fraction_digits_ = 0;
+  bool member_column_ = false;
+  std::string member_;   ///< quoted, with its comma
 };
 
 /// Passes every series on to several sinks (e.g. a GeoPackage and a CSV

@@ -12,7 +12,7 @@
 namespace reachwise::io {
 
 struct RouteConfig {
-  std::optional<std::string> inflow, lateral, method, out, schema, csv, series, hydrographs, report, report_reaches;
+  std::optional<std::string> inflow, lateral, members, method, out, schema, csv, series, hydrographs, report, report_reaches;
   std::optional<std::string> units;   ///< output units, "si" or "us" (unset: the network's)
   std::optional<std::string> save_state, initial_state;  ///< saved state written / started from
   std::optional<double> dt_s;

@@ -107,6 +107,25 @@ struct CalibrationComparison {
   std::vector<std::vector<double>> outflow_before;
 };
 
+/// An ensemble run's members, for the report: at the outlets, the band
+/// the members' outflow spans (10th to 90th percentile at each step) and
+/// its median, drawn behind the reference member's outflow.
+struct ReportEnsemble {
+  std::size_t members = 0;
+  std::string reference;              ///< the member whose results the rest of the report shows
+  struct Band {
+    std::uint32_t reach = 0;          ///< plan index
+    std::vector<double> p10, p50, p90;  ///< m^3/s, one per axis step
+  };
+  std::vector<Band> bands;
+  /// The band of `reach`, or nullptr.
+  const Band* band(std::uint32_t reach) const {
+    for (const Band& b : bands)
+      if (b.reach == reach) return &b;
+    return nullptr;
+  }
+};
+
 struct ReportInputs {
   const network::ReachTable& table;      ///< attributes + geometry as the reader gives them
   const network::NetworkPlan& plan;
@@ -132,6 +151,9 @@ struct ReportInputs {
   /// the gauges' scores before and after, and the outflow before
   /// calibration in each gauge's panel. Must outlive writeReport().
   const CalibrationComparison* calibration = nullptr;
+  /// An ensemble run's member band at the outlets (null: a single run).
+  /// Must outlive writeReport().
+  const ReportEnsemble* ensemble = nullptr;
 };
 
 /// Name of the marker file every report folder holds; writeReport() only

@@ -25,6 +25,7 @@
 
 namespace reachwise::report {
 struct CalibrationComparison;
+struct ReportEnsemble;
 }
 
 namespace reachwise::run {
@@ -56,6 +57,11 @@ struct OutputRequest {
   /// The calibration the run comes from, for the report (null: none; must
   /// outlive the run).
   const report::CalibrationComparison* calibration = nullptr;
+  /// An ensemble run's member names, in member order (empty: a single
+  /// run): the hydrograph tables gain a `member` column (beginMember()),
+  /// and commit() takes the members' results. A NetCDF series file
+  /// (`series_nc`) is refused with members.
+  std::vector<std::string> members;
 };
 
 /// The prefix of written-back layers (`rw_reaches`, ...).
@@ -87,6 +93,11 @@ public:
   /// Where the router sends each finished series.
   routing::SeriesSink& sink();
 
+  /// Ensemble runs: the series given to sink() from now on are member
+  /// `m`'s (OutputRequest::members). The report draws member 0's series
+  /// only (the reference member); the hydrograph tables take every member's.
+  void beginMember(std::size_t m);
+
   /// Writes the summaries, the gauges (the ones given to the constructor, in
   /// that order), the lakes (`lakes`: routedLakes() with their routing,
   /// every lake the run routes) and the report, each under a temporary
@@ -94,9 +105,13 @@ public:
   /// appear or none (docs/formats.md, "Putting the outputs in place").
   /// `state`: the end state, written to OutputRequest::state_nc (must be
   /// given when that is set).
+  /// `ensemble` (with OutputRequest::members, required then) adds the
+  /// members' percentiles and peaks to the tables, and `report_ensemble`
+  /// (may be null) the members' band to the report's outlet panels.
   void commit(const routing::NetworkResults& results, const io::RunInfo& info,
               const std::vector<io::LakeOutput>& lakes = {}, const std::vector<io::GaugeOutput>& gauges = {},
-              const io::SavedState* state = nullptr);
+              const io::SavedState* state = nullptr, const io::EnsembleOutput* ensemble = nullptr,
+              const report::ReportEnsemble* report_ensemble = nullptr);
 
   /// The unit system the outputs are written in (OutputRequest::units, or
   /// the network's).

@@ -75,6 +75,10 @@ struct RouteRequest {
   /// failure on any rank fails route() on every rank. Null: this process
   /// alone.
   routing::Ranks* ranks = nullptr;
+  /// A forecast ensemble (run/Ensemble.hpp, routeEnsemble()): a folder of
+  /// forcing files or a glob pattern, each file a member replacing
+  /// `forcing.inflow`; empty: a single run. route() refuses it.
+  std::string members;
 };
 
 /// Told what a run is doing. Called from the thread that called route(),
