@@ -90,54 +90,6 @@ std::string percent(double v) {
   return buf;
 }
 
-/// Bytes for messages between ranks: plain values and series, read back
-/// in the order written.
-class Packer {
-public:
-  template <typename T>
-  void put(const T& v) {
-    static_assert(std::is_trivially_copyable_v<T>);
-    const auto* p = reinterpret_cast<const std::byte*>(&v);
-    bytes.insert(bytes.end(), p, p + sizeof(T));
-  }
-  void put(std::span<const double> v) {
-    put(static_cast<std::uint64_t>(v.size()));
-    const auto* p = reinterpret_cast<const std::byte*>(v.data());
-    bytes.insert(bytes.end(), p, p + v.size_bytes());
-  }
-  std::vector<std::byte> bytes;
-};
-
-class Unpacker {
-public:
-  explicit Unpacker(const std::vector<std::byte>& b) : b_(b) {}
-  template <typename T>
-  T get() {
-    static_assert(std::is_trivially_copyable_v<T>);
-    T v;
-    need(sizeof(T));
-    std::memcpy(&v, b_.data() + at_, sizeof(T));
-    at_ += sizeof(T);
-    return v;
-  }
-  std::vector<double> series() {
-    const auto n = get<std::uint64_t>();
-    need(n * sizeof(double));
-    std::vector<double> v(n);
-    if (n) std::memcpy(v.data(), b_.data() + at_, n * sizeof(double));
-    at_ += n * sizeof(double);
-    return v;
-  }
-  bool done() const { return at_ == b_.size(); }
-
-private:
-  void need(std::size_t n) const {
-    if (at_ + n > b_.size()) throw InternalError("a message between ranks ended early");
-  }
-  const std::vector<std::byte>& b_;
-  std::size_t at_ = 0;
-};
-
 /// Message tags between ranks.
 enum Tag : int {
   kOutflow = 1,  ///< a reach's outflow, for reaches below it (or a terminal lake at rank 0)
@@ -271,7 +223,7 @@ private:
     }
     if (me_ != 0 && keptForLake(i)) told.push_back(0);
     for (const int to : told) {
-      Packer p;
+      ByteWriter p;
       p.put(i);
       p.put(std::span<const double>(q));
       queue(to, kOutflow, std::move(p.bytes));
@@ -300,7 +252,7 @@ private:
       failed_ = true;
       return;
     }
-    Unpacker in(m.data);
+    ByteReader in(m.data);
     const auto u = in.get<std::uint32_t>();
     if (u >= n_) throw InternalError("a message between ranks names no reach");
     ++received_;
@@ -410,7 +362,7 @@ private:
   /// Rank 0 takes every other rank's reach summaries, top-node peaks, end
   /// states and lakes, and the most series any rank held.
   void gatherAtRankZero(Ranks& ranks) {
-    Packer p;
+    ByteWriter p;
     for (std::uint32_t i = 0; i < n_; ++i) {
       if (!local(i)) continue;
       p.put(i);
@@ -442,7 +394,7 @@ private:
     p.put(static_cast<std::uint64_t>(peak_live_.load()));
     const std::vector<std::vector<std::byte>> all = ranks.gather(p.bytes);
     for (std::size_t r = 1; r < all.size(); ++r) {
-      Unpacker in(all[r]);
+      ByteReader in(all[r]);
       for (auto i = in.get<std::uint32_t>(); i != UINT32_MAX; i = in.get<std::uint32_t>()) {
         if (i >= n_) throw InternalError("a rank's summary names no reach");
         results_.reaches[i] = in.get<ReachSummary>();
@@ -554,7 +506,7 @@ private:
     }
     top_node_[i] = findPeak(ws.inflow);
     if (send && dist_ && me_ != 0) {
-      Packer p;
+      ByteWriter p;
       p.put(i);
       p.put(std::span<const double>(*out)), p.put(std::span<const double>(ws.depth));
       p.put(std::span<const double>(ws.velocity));

@@ -287,6 +287,67 @@ std::vector<MemberResult> routeMembers(const Ensemble& e, std::span<const std::u
   return out;
 }
 
+std::vector<std::uint32_t> membersOfRank(std::size_t members, int rank, int ranks) {
+  std::vector<std::uint32_t> mine;
+  for (std::size_t m = static_cast<std::size_t>(rank); m < members; m += static_cast<std::size_t>(ranks))
+    mine.push_back(static_cast<std::uint32_t>(m));
+  return mine;
+}
+
+std::vector<std::uint32_t> membersOpenedOnRank(std::size_t members, const routing::Ranks& ranks) {
+  std::vector<std::uint32_t> opened = membersOfRank(members, ranks.rank(), ranks.size());
+  if (members > 0 && (opened.empty() || opened.front() != 0)) opened.insert(opened.begin(), 0);
+  return opened;
+}
+
+std::vector<MemberResult> routeMembersAmongRanks(const Ensemble& e, routing::Ranks* ranks, unsigned threads,
+                                                 ReferenceRun* reference, Progress* progress) {
+  if (!ranks || ranks->size() <= 1) {
+    std::vector<std::uint32_t> all(e.size());
+    for (std::uint32_t m = 0; m < all.size(); ++m) all[m] = m;
+    return routeMembers(e, all, threads, reference, progress);
+  }
+  if (threads == 0)  // the machine's cores shared among its ranks
+    threads = static_cast<unsigned>(std::max(1, std::max(1, tbb::info::default_concurrency()) / ranks->onThisMachine()));
+  const std::vector<std::uint32_t> mine = membersOfRank(e.size(), ranks->rank(), ranks->size());
+  std::vector<MemberResult> routed;
+  routing::onEveryRank(ranks, [&] {
+    routed = routeMembers(e, mine, threads, ranks->rank() == 0 ? reference : nullptr, progress);
+  });
+  routing::ByteWriter w;
+  if (ranks->rank() != 0) {
+    for (const MemberResult& r : routed) {
+      w.put(r.member);
+      w.put(r.peak_q_m3s), w.put(r.peak_time_s), w.put(r.volume_out_m3), w.put(r.series_reaches);
+      w.put(r.q_m3s), w.put(r.depth_m), w.put(r.velocity_ms);
+      w.put(static_cast<std::uint64_t>(r.warnings.size()));
+      for (const std::string& warning : r.warnings) w.put(warning);
+    }
+  }
+  const std::vector<std::vector<std::byte>> all = ranks->gather(w.bytes);
+  if (ranks->rank() != 0) return {};
+  std::vector<MemberResult> out(e.size());
+  for (MemberResult& r : routed) out.at(r.member) = std::move(r);
+  for (std::size_t k = 1; k < all.size(); ++k) {
+    routing::ByteReader in(all[k]);
+    while (!in.done()) {
+      MemberResult r;
+      r.member = in.get<std::uint32_t>();
+      r.peak_q_m3s = in.series(), r.peak_time_s = in.series(), r.volume_out_m3 = in.series();
+      r.series_reaches = in.series<std::uint32_t>();
+      r.q_m3s = in.series(), r.depth_m = in.series(), r.velocity_ms = in.series();
+      const auto warnings = in.get<std::uint64_t>();
+      for (std::uint64_t j = 0; j < warnings; ++j) r.warnings.push_back(in.text());
+      if (r.member >= out.size()) throw InternalError("a rank sent the result of no member");
+      out[r.member] = std::move(r);
+    }
+  }
+  for (std::uint32_t m = 0; m < out.size(); ++m)
+    if (out[m].member != m || out[m].peak_q_m3s.empty())
+      throw InternalError("member " + std::to_string(m) + "'s result did not reach rank 0");
+  return out;
+}
+
 unsigned memberThreads(unsigned threads) {
   const int cores = std::max(1, tbb::info::default_concurrency());
   return threads == 0 ? static_cast<unsigned>(cores)

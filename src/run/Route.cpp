@@ -126,6 +126,7 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
                                &request.initial_state})
     if (!f->empty()) info.inputs.push_back(shown(*f));
   info.method = routing::methodName(request.method);
+  info.ranks = request.ranks ? request.ranks->size() : 1;
   info.command_line = io::redactedConnection(provenance(request));
   info.warnings = results.warnings;
   info.series_file = request.outputs.series_nc;
@@ -259,7 +260,6 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
     if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
   summary.info = runInfo(request, summary.results);
   summary.info.units = outputs.units();
-  summary.info.ranks = ranks ? ranks->size() : 1;
   const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
   markLakeNodes(summary.results, summary.lakes);
   std::optional<io::SavedState> saved;

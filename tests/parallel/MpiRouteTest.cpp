@@ -46,12 +46,12 @@ std::string seriesData(const fs::path& nc) {
 }
 
 /// Routes with `args` alone (ranks 0) or under mpirun with `ranks`, into
-/// `dir`: dir/out.gpkg, dir/csv/, dir/series.nc.
-CliRun routeInto(const fs::path& dir, const std::string& args, int ranks) {
+/// `dir`: dir/out.gpkg, dir/csv/ and (with `series`) dir/series.nc.
+CliRun routeInto(const fs::path& dir, const std::string& args, int ranks, bool series = true) {
   fs::create_directories(dir);
-  const std::string outputs = " --out " + shellQuoted((dir / "out.gpkg").string()) + " --csv " +
-                              shellQuoted((dir / "csv").string()) + " --series " +
-                              shellQuoted((dir / "series.nc").string()) + " --quiet";
+  std::string outputs = " --out " + shellQuoted((dir / "out.gpkg").string()) + " --csv " +
+                        shellQuoted((dir / "csv").string()) + " --quiet";
+  if (series) outputs += " --series " + shellQuoted((dir / "series.nc").string());
   const std::string program = kProgram + " route " + args + outputs;
   return runShell(ranks == 0 ? program : std::string(REACHWISE_MPIRUN) + " -n " + std::to_string(ranks) + " " + program);
 }
@@ -69,7 +69,9 @@ void expectSameOutputs(const fs::path& alone, const fs::path& among, int ranks) 
     ++tables;
   }
   EXPECT_GE(tables, 4u);
-  EXPECT_EQ(seriesData(alone / "series.nc"), seriesData(among / "series.nc")) << ranks << " ranks";
+  if (fs::exists(alone / "series.nc")) {
+    EXPECT_EQ(seriesData(alone / "series.nc"), seriesData(among / "series.nc")) << ranks << " ranks";
+  }
   const std::vector<std::string> info = sortedLines(among / "csv" / "run_info.csv");
   EXPECT_TRUE(std::count(info.begin(), info.end(), "ranks," + std::to_string(ranks)) == 1)
       << "run_info records the rank count";
@@ -152,18 +154,59 @@ TEST(MpiRoute, OtherCommandsRefuseSeveralRanks) {
 
 // An ensemble (--members) is routed in one process: under several ranks
 // every rank refuses, the message comes once (rank 0) and no output is left.
-TEST(MpiRoute, AnEnsembleRefusesSeveralRanksAndLeavesNoOutput) {
+/// Members m0..m4: the sample inflow times 0.6, 0.8, 1, 1.2, 1.4 (m`bad`:
+/// one discharge above what the reader takes, at line 21 of R41).
+void writeMembers(const fs::path& dir, int bad = -1) {
+  fs::create_directories(dir);
+  std::ifstream in(kSample + "inflow.csv");
+  std::vector<std::string> lines;
+  for (std::string l; std::getline(in, l);) lines.push_back(l);
+  for (int k = 0; k < 5; ++k) {
+    std::ofstream out(dir / ("m" + std::to_string(k) + ".csv"));
+    out << lines[0] << '\n';
+    for (std::size_t r = 1; r < lines.size(); ++r) {
+      std::stringstream cells(lines[r]);
+      std::string cell, row;
+      std::getline(cells, cell, ',');
+      row = cell;
+      while (std::getline(cells, cell, ',')) row += ',' + std::to_string(std::stod(cell) * (0.6 + 0.2 * k));
+      if (k == bad && r == 20) row = row.substr(0, row.rfind(',')) + ",1e200";
+      out << row << '\n';
+    }
+  }
+}
+
+TEST(MpiRoute, AnEnsembleSpreadOverRanksGivesTheSameOutputs) {
+  // Members 0, 2, 4 on rank 0 and 1, 3 on rank 1 (or 0, 3 / 1, 4 / 2 on
+  // three ranks): the percentiles, every member's peaks and hydrographs
+  // equal those of one process.
   TempDir tmp;
-  fs::create_directories(tmp.path() / "members");
-  fs::copy_file(kSample + "inflow.csv", tmp.path() / "members/a.csv");
-  const CliRun run = routeInto(tmp.path() / "run", "--members " + shellQuoted((tmp.path() / "members").string()) + " " +
-                                                       kSample + "network.gpkg",
-                               2);
+  writeMembers(tmp.path() / "members");
+  const std::string args = kSample + "network.gpkg --members " + shellQuoted((tmp.path() / "members").string()) +
+                           " --lateral " + kSample + "lateral.csv --hydrographs outlets";
+  const CliRun one = routeInto(tmp.path() / "alone", args, 0, false);
+  ASSERT_EQ(one.code, 0) << one.err;
+  for (const int ranks : {2, 3}) {
+    const fs::path dir = tmp.path() / ("ranks" + std::to_string(ranks));
+    const CliRun run = routeInto(dir, args, ranks, false);
+    ASSERT_EQ(run.code, 0) << run.err;
+    expectSameOutputs(tmp.path() / "alone", dir, ranks);
+  }
+  const std::vector<std::string> members = sortedLines(tmp.path() / "alone/csv/member_reaches.csv");
+  EXPECT_EQ(members.size(), 1 + 5 * 41u) << "a row per member and reach";
+}
+
+TEST(MpiRoute, ABadMemberOnAnotherRankFailsEveryRankAndLeavesNoOutput) {
+  TempDir tmp;
+  writeMembers(tmp.path() / "members", 1);  // member 1: rank 1's
+  const CliRun run = routeInto(tmp.path() / "run",
+                               kSample + "network.gpkg --members " + shellQuoted((tmp.path() / "members").string()),
+                               2, false);
   EXPECT_NE(run.code, 0);
   const std::size_t first = run.err.find("error: ");
   ASSERT_NE(first, std::string::npos) << run.err;
   EXPECT_EQ(run.err.find("error: ", first + 1), std::string::npos) << run.err;
-  EXPECT_TRUE(contains(run.err, "not spread over MPI ranks")) << run.err;
+  EXPECT_TRUE(contains(run.err, "m1.csv, line 21, reach R41")) << run.err;
   EXPECT_FALSE(fs::exists(tmp.path() / "run/out.gpkg"));
   EXPECT_FALSE(fs::exists(tmp.path() / "run/csv"));
 }

@@ -9,10 +9,15 @@
 /// broadcast) must be called by every rank in the same order.
 
 #include <cstddef>
+#include <cstdint>
+#include <cstring>
 #include <exception>
 #include <functional>
 #include <optional>
+#include <span>
+#include <stdexcept>
 #include <string>
+#include <type_traits>
 #include <vector>
 
 namespace reachwise::routing {
@@ -59,6 +64,66 @@ public:
   virtual std::vector<std::vector<std::byte>> gather(const std::vector<std::byte>& mine) = 0;
   /// Collective: rank 0's `data` on every rank.
   virtual void broadcast(std::vector<std::byte>& data) = 0;
+};
+
+/// Bytes for messages between ranks: plain values, series and texts,
+/// read back in the order written (by the same program on every rank).
+class ByteWriter {
+public:
+  template <typename T>
+  void put(const T& v) {
+    static_assert(std::is_trivially_copyable_v<T>);
+    const auto* p = reinterpret_cast<const std::byte*>(&v);
+    bytes.insert(bytes.end(), p, p + sizeof(T));
+  }
+  template <typename T>
+  void put(std::span<const T> v) {
+    static_assert(std::is_trivially_copyable_v<T>);
+    put(static_cast<std::uint64_t>(v.size()));
+    const auto* p = reinterpret_cast<const std::byte*>(v.data());
+    bytes.insert(bytes.end(), p, p + v.size_bytes());
+  }
+  template <typename T>
+  void put(const std::vector<T>& v) {
+    put(std::span<const T>(v));
+  }
+  void put(const std::string& s) { put(std::span<const char>(s.data(), s.size())); }
+  std::vector<std::byte> bytes;
+};
+
+class ByteReader {
+public:
+  explicit ByteReader(const std::vector<std::byte>& b) : b_(b) {}
+  template <typename T>
+  T get() {
+    static_assert(std::is_trivially_copyable_v<T>);
+    T v;
+    need(sizeof(T));
+    std::memcpy(&v, b_.data() + at_, sizeof(T));
+    at_ += sizeof(T);
+    return v;
+  }
+  template <typename T = double>
+  std::vector<T> series() {
+    const auto n = get<std::uint64_t>();
+    need(n * sizeof(T));
+    std::vector<T> v(n);
+    if (n) std::memcpy(v.data(), b_.data() + at_, n * sizeof(T));
+    at_ += n * sizeof(T);
+    return v;
+  }
+  std::string text() {
+    const std::vector<char> c = series<char>();
+    return std::string(c.begin(), c.end());
+  }
+  bool done() const { return at_ == b_.size(); }
+
+private:
+  void need(std::size_t n) const {
+    if (n > b_.size() - at_) throw std::length_error("a message between ranks ended early");
+  }
+  const std::vector<std::byte>& b_;
+  std::size_t at_ = 0;
 };
 
 /// The failure an exception stands for, on rank `rank`.

@@ -126,6 +126,25 @@ struct ReferenceRun {
 std::vector<MemberResult> routeMembers(const Ensemble& e, std::span<const std::uint32_t> members, unsigned threads,
                                        ReferenceRun* reference = nullptr, Progress* progress = nullptr);
 
+/// The members rank `rank` of `ranks` routes: every `ranks`-th from
+/// `rank` (member 0, whose full results the tables of one routing show,
+/// on rank 0, which writes).
+std::vector<std::uint32_t> membersOfRank(std::size_t members, int rank, int ranks);
+
+/// The members rank `ranks.rank()` opens in its Ensemble: its own
+/// (membersOfRank) and member 0, whose time axis every rank checks its
+/// members against.
+std::vector<std::uint32_t> membersOpenedOnRank(std::size_t members, const routing::Ranks& ranks);
+
+/// routeMembers() spread over MPI ranks (`ranks` null or of one rank: this
+/// process routes every member): each rank routes membersOfRank() on
+/// `threads` threads (0: the machine's cores shared among its ranks), and
+/// rank 0 gets every member's result in member order (the other ranks
+/// get nothing) and member 0's in `reference`. A collective: every rank
+/// calls it; a failure on any rank fails every rank (routing::onEveryRank).
+std::vector<MemberResult> routeMembersAmongRanks(const Ensemble& e, routing::Ranks* ranks, unsigned threads,
+                                                 ReferenceRun* reference = nullptr, Progress* progress = nullptr);
+
 /// The threads routeMembers() runs on for `threads` (0: all cores; never
 /// more than the cores).
 unsigned memberThreads(unsigned threads);
