@@ -148,6 +148,30 @@ TEST(HostileInputs, HugeDischargeIsRefusedAtTheForcingFileLine) {
   EXPECT_FALSE(has(r.err, "celerity")) << r.err;
 }
 
+TEST(HostileInputs, DischargeFarBeyondTheChannelIsBadInputNamingTheReach) {
+  const testsupport::TempDir tmp;
+  // The sample storm with 1e6 m3/s (below the reader's limit of 1e8) for
+  // two hours at the top of R41 (the last column): the flat reaches below,
+  // which vpmc hands to the diffusion wave, take flows no channel of the
+  // network carries; the run fails as bad input naming the reach, not as
+  // an internal error (exit 3).
+  {
+    std::ifstream in(kSample + "inflow.csv");
+    std::ofstream out(tmp.path() / "in.csv");
+    std::size_t line = 0;
+    for (std::string row; std::getline(in, row); ++line) {
+      if (line >= 20 && line < 24) row = row.substr(0, row.rfind(',')) + ",1e6";
+      out << row << '\n';
+    }
+  }
+  const CliRun r = run("route " + kNetwork + " --inflow " + tmp.file("in.csv") + " --out " + tmp.file("o.gpkg"));
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_TRUE(has(r.err, "reach R")) << r.err;
+  EXPECT_TRUE(has(r.err, "did not converge")) << r.err;
+  EXPECT_TRUE(has(r.err, "check the forcing's values and units")) << r.err;
+  EXPECT_FALSE(fs::exists(tmp.path() / "o.gpkg"));
+}
+
 TEST(HostileInputs, SubnormalDischargeIsNoFlowNotAnError) {
   const testsupport::TempDir tmp;
   // 4.9e-324, the smallest positive double (subnormal), is read as 0.

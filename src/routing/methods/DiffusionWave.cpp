@@ -22,6 +22,7 @@
 // the reach's volume balances to the Newton tolerance.
 
 #include <algorithm>
+#include <cstdio>
 #include <cmath>
 #include <cstddef>
 #include <limits>
@@ -205,8 +206,17 @@ void diffusionWave(RouteContext& ctx) {
     for (int it = 0; it <= kMaxNewton; ++it) {
       evaluate(inflow_end);
       if (converged) return;
-      if (it == kMaxNewton)
-        throw InternalError("diffusion-wave step did not converge in " + std::to_string(kMaxNewton) + " iterations");
+      if (it == kMaxNewton) {
+        // Met at flows far beyond the channel's (a unit or typing error in
+        // the forcing, say): a limit of the method, told as such.
+        char peak[32];
+        std::snprintf(peak, sizeof peak, "%.4g", ctx.q_peak_m3s);
+        throw InvalidParameter("discharge", std::string("the diffusion-wave solver did not converge within ") +
+                                                std::to_string(kMaxNewton) + " iterations on this reach (inflow peak " +
+                                                peak + " m3/s): check the forcing's values and units, or route "
+                                                "the reach with a Cunge method (--method mc, or --diffusion-below 0 "
+                                                "with vpmc)");
+      }
       for (std::size_t i = 0; i < n; ++i) {
         const double lat_i = i < m ? lat_per_m * g.dx[i] : 0.0;
         res[i] = g.dx[i] * (area[i] - area_old[i]) -
