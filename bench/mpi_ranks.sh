@@ -12,13 +12,16 @@
 #
 # Usage: bench/mpi_ranks.sh BUILD_DIR [WORK_DIR]
 # Environment: REACHES [1000000], OUTLETS [1], RANKS ["2"], STEPS [720],
-#              SELECTION (--hydrographs) [default: route's own choice]
+#              SELECTION (--hydrographs) [default: route's own choice],
+#              RUNS (which of alone, mpirun_1, mpirun_R to run) [all]
 set -euo pipefail
 build="$(cd "${1:?usage: bench/mpi_ranks.sh BUILD_DIR [WORK_DIR]}" && pwd)"
 work="${2:-${TMPDIR:-/tmp}/reachwise_mpi}"
 n="${REACHES:-1000000}" outlets="${OUTLETS:-1}" steps="${STEPS:-720}" ranks_list="${RANKS:-2}"
 bin="$build/reachwise"
-mpirun=(mpirun --oversubscribe)
+# --bind-to none: Open MPI binds each rank to one core by default (with two
+# ranks or fewer), which would put a rank's threads on one core.
+mpirun=(mpirun --oversubscribe --bind-to none)
 [ "$(id -u)" -ne 0 ] || mpirun+=(--allow-run-as-root)
 [ -x /usr/bin/time ] || apt-get install -y time >/dev/null
 mkdir -p "$work"
@@ -56,8 +59,9 @@ echo "network: $n reaches, $outlets outlet(s), $steps steps; hydrographs: ${SELE
 echo
 echo "| run | wall s | peak RSS MB (one process) | routing s (rank 0) | writing s | same values as alone |"
 echo "|---|---|---|---|---|---|"
-run alone "$cores"
-run mpirun_1 "$cores" "${mpirun[@]}" -n 1
+wanted() { [ -z "${RUNS:-}" ] || [[ " $RUNS " == *" $1 "* ]]; }
+if wanted alone; then run alone "$cores"; fi
+if wanted mpirun_1; then run mpirun_1 "$cores" "${mpirun[@]}" -n 1; fi
 for r in $ranks_list; do
-  run "mpirun_$r" "" "${mpirun[@]}" -n "$r"
+  if wanted "mpirun_$r"; then run "mpirun_$r" "" "${mpirun[@]}" -n "$r"; fi
 done
