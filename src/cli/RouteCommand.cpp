@@ -414,39 +414,13 @@ void printEnsembleSummary(std::ostream& out, std::ostream& err, const run::Ensem
 }
 
 int routeEnsemble(const RouteOptions& o, std::ostream& out, std::ostream& err) {
-  // Among MPI ranks each rank reads and routes its share of the members
-  // (run::membersOfRank), rank 0 writes; every step fails on every rank
-  // when it fails on one.
-  routing::Ranks* const ranks = o.ranks && o.ranks->size() > 1 ? o.ranks : nullptr;
   BarProgress progress(!o.quiet && o.speaks());
-  const run::RouteRequest request = requestOf(o);
   try {
-    std::optional<run::Ensemble> e;
-    std::unique_ptr<run::Outputs> outputs;
-    routing::onEveryRank(ranks, [&] {
-      const std::vector<std::uint32_t> opened =
-          ranks ? run::membersOpenedOnRank(run::memberFiles(request.members).size(), *ranks)
-                : std::vector<std::uint32_t>{};
-      e.emplace(request, &progress, opened);
-      if (o.speaks()) outputs = run::openEnsembleOutputs(*e);
-    });
-    progress.stage(fmt::format("routing {} members", e->size()));
-    run::ReferenceRun reference;
-    const auto t0 = std::chrono::steady_clock::now();
-    std::vector<run::MemberResult> members =
-        run::routeMembersAmongRanks(*e, ranks, request.threads, &reference, &progress);
-    const double routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-    progress.stage("writing the results");
-    std::optional<run::EnsembleSummary> s;
-    routing::onEveryRank(ranks, [&] {
-      if (o.speaks()) s = run::writeEnsemble(*e, *outputs, std::move(members), std::move(reference));
-    });
-    if (!o.speaks()) return kExitOk;
-    s->routing_s = routing_s;
-    s->threads = run::memberThreads(request.threads);
+    const run::EnsembleSummary s = run::routeEnsemble(requestOf(o), &progress);
+    if (!o.speaks()) return kExitOk;  // rank 0 speaks
     progress.finish();
-    for (const auto& note : s->notes) fmt::print(err, "{}\n", note);
-    if (!o.quiet) printEnsembleSummary(out, err, *e, *s, o);
+    for (const auto& note : s.notes) fmt::print(err, "{}\n", note);
+    if (!o.quiet) printEnsembleSummary(out, err, *s.source, s, o);
   } catch (const run::NetworkHasErrors& e) {
     progress.finish();
     for (const auto& p : e.problems())

@@ -492,19 +492,29 @@ EnsembleSummary writeEnsemble(const Ensemble& e, Outputs& outputs, std::vector<M
 EnsembleSummary routeEnsemble(const RouteRequest& request, Progress* progress) {
   Progress silent;
   Progress& tell = progress ? *progress : silent;
-  const Ensemble e(request, &tell);
-  std::unique_ptr<Outputs> outputs = openEnsembleOutputs(e);
-  tell.stage(fmt::format("routing {} members", e.size()));
-  std::vector<std::uint32_t> all(e.size());
-  for (std::uint32_t m = 0; m < all.size(); ++m) all[m] = m;
+  routing::Ranks* const ranks = request.ranks && request.ranks->size() > 1 ? request.ranks : nullptr;
+  const bool writes = !ranks || ranks->rank() == 0;
+  std::unique_ptr<Ensemble> e;
+  std::unique_ptr<Outputs> outputs;
+  routing::onEveryRank(ranks, [&] {
+    const std::vector<std::uint32_t> opened =
+        ranks ? membersOpenedOnRank(memberFiles(request.members).size(), *ranks) : std::vector<std::uint32_t>{};
+    e = std::make_unique<Ensemble>(request, &tell, opened);
+    if (writes) outputs = openEnsembleOutputs(*e);
+  });
+  tell.stage(fmt::format("routing {} members", e->size()));
   ReferenceRun reference;
   const auto t0 = std::chrono::steady_clock::now();
-  std::vector<MemberResult> members = routeMembers(e, all, request.threads, &reference, &tell);
+  std::vector<MemberResult> members = routeMembersAmongRanks(*e, ranks, request.threads, &reference, &tell);
   const double routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   tell.stage("writing the results");
-  EnsembleSummary s = writeEnsemble(e, *outputs, std::move(members), std::move(reference));
+  EnsembleSummary s;
+  routing::onEveryRank(ranks, [&] {
+    if (writes) s = writeEnsemble(*e, *outputs, std::move(members), std::move(reference));
+  });
   s.routing_s = routing_s;
   s.threads = memberThreads(request.threads);
+  s.source = std::move(e);
   return s;
 }
 

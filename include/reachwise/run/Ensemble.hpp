@@ -17,7 +17,7 @@
 /// combined in member order. A process that routes only its share opens
 /// only those members (Ensemble's `opened`); the one that writes needs the
 /// reference member's full results (ReferenceRun), so it routes member 0.
-/// routeEnsemble() does all three in one process.
+/// routeEnsemble() does all three, in one process or among MPI ranks.
 
 #include <cstddef>
 #include <cstdint>
@@ -171,6 +171,9 @@ struct EnsembleSummary {
   std::vector<std::string> notes;       ///< from putting the outputs in place
   double routing_s = 0;                 ///< wall time of routing the members
   unsigned threads = 0;                 ///< threads the members were routed on
+  /// The ensemble as read (network, plan, member names); set by
+  /// routeEnsemble().
+  std::unique_ptr<Ensemble> source;
 };
 
 /// Combines every member's results (`members` in member order, all of
@@ -179,8 +182,12 @@ struct EnsembleSummary {
 EnsembleSummary writeEnsemble(const Ensemble& e, Outputs& outputs, std::vector<MemberResult> members,
                               ReferenceRun reference);
 
-/// The whole ensemble run on this machine: Ensemble, openEnsembleOutputs,
-/// routeMembers over every member on request.threads, writeEnsemble.
+/// The whole ensemble run: Ensemble, openEnsembleOutputs,
+/// routeMembersAmongRanks on request.threads, writeEnsemble. Among MPI
+/// ranks (request.ranks) each rank opens membersOpenedOnRank() and routes
+/// its share, rank 0 alone opens and writes the outputs, and every step
+/// fails on every rank when it fails on one; the other ranks' summaries
+/// hold `source` only.
 EnsembleSummary routeEnsemble(const RouteRequest& request, Progress* progress = nullptr);
 
 }  // namespace reachwise::run
