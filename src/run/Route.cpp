@@ -173,52 +173,53 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   std::optional<Outputs> outputs_made;
   routing::Distribution distribution;
   routing::onEveryRank(ranks, [&] {
-  // An output never replaces an input (write-back adds layers beside the
-  // network and is not an output path here).
-  const std::vector<io::NamedPath> outputs_named = outputPaths(request.outputs);
-  io::refuseOutputOverInput(outputs_named, inputPaths(request, nullptr));
-  if (!request.outputs.state_nc.empty() && request.method == routing::Method::DiffusionWave) {
-    InputLocation at;
-    at.field = "save_state";
-    throw InputError(at, "the diffusion method has no saved state (its state is a depth profile on a grid of its "
-                         "own): choose vpmc, mc or muskingum to save one");
-  }
-  tell.stage("reading " + request.network.path);
-  summary.network = loadNetwork(request.network);
-  const LoadedNetwork& net = *summary.network;
-  io::refuseOutputOverInput(outputs_named, inputPaths(request, &net));
-  summary.plan = routablePlan(net);
-  const network::NetworkPlan& plan = summary.plan;
+    // An output never replaces an input (write-back adds layers beside the
+    // network and is not an output path here).
+    const std::vector<io::NamedPath> outputs_named = outputPaths(request.outputs);
+    io::refuseOutputOverInput(outputs_named, inputPaths(request, nullptr));
+    if (!request.outputs.state_nc.empty() && request.method == routing::Method::DiffusionWave) {
+      InputLocation at;
+      at.field = "save_state";
+      throw InputError(at, "the diffusion method has no saved state (its state is a depth profile on a grid of its "
+                           "own): choose vpmc, mc or muskingum to save one");
+    }
+    tell.stage("reading " + request.network.path);
+    summary.network = loadNetwork(request.network);
+    const LoadedNetwork& net = *summary.network;
+    io::refuseOutputOverInput(outputs_named, inputPaths(request, &net));
+    summary.plan = routablePlan(net);
+    const network::NetworkPlan& plan = summary.plan;
 
-  tell.stage("reading the forcing");
-  const RunForcing& forcing =
-      forcing_read.emplace(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
-  requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
-  summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.forcingUnits());
-  ro = networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
-  if (!request.initial_state.empty()) {
-    tell.stage("reading " + request.initial_state);
-    start_states = bindState(request.initial_state, io::readStateFile(request.initial_state), request, net, plan,
-                             forcing.axis(), ro.lakes);
-    ro.initial_states = &start_states;
-  }
-  if (!request.outputs.state_nc.empty()) ro.final_states = &end_states;
-  for (const auto& g : summary.gauges.gauges) gauged.push_back(g.reach);
-  OutflowCapture& capture = capture_made.emplace(plan.size(), gauged);
-  std::vector<routing::SeriesSink*> sinks = request.sinks;
-  if (!gauged.empty()) sinks.push_back(&capture);
-  std::vector<std::string> gauge_ids;
-  for (const auto& g : summary.gauges.gauges) gauge_ids.push_back(g.gauge_id);
-  if (writes)
-    outputs_made.emplace(request.outputs, net, plan, forcing.axis(), provenance(request), sinks, std::move(gauge_ids));
-  if (ranks) {
-    // A lake's outflowing reaches stay on one rank (it routes the lake).
-    std::vector<std::vector<std::uint32_t>> together;
-    for (const auto& lake : ro.lakes) together.push_back(lake.outflow_reaches);
-    distribution.ranks = ranks;
-    distribution.owner = network::partitionPlan(plan, ranks->size(), together).owner;
-    ro.distribution = &distribution;
-  }
+    tell.stage("reading the forcing");
+    const RunForcing& forcing =
+        forcing_read.emplace(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
+    requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
+    summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.forcingUnits());
+    ro = networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
+    if (!request.initial_state.empty()) {
+      tell.stage("reading " + request.initial_state);
+      start_states = bindState(request.initial_state, io::readStateFile(request.initial_state), request, net, plan,
+                               forcing.axis(), ro.lakes);
+      ro.initial_states = &start_states;
+    }
+    if (!request.outputs.state_nc.empty()) ro.final_states = &end_states;
+    for (const auto& g : summary.gauges.gauges) gauged.push_back(g.reach);
+    OutflowCapture& capture = capture_made.emplace(plan.size(), gauged);
+    std::vector<routing::SeriesSink*> sinks = request.sinks;
+    if (!gauged.empty()) sinks.push_back(&capture);
+    std::vector<std::string> gauge_ids;
+    for (const auto& g : summary.gauges.gauges) gauge_ids.push_back(g.gauge_id);
+    if (writes)
+      outputs_made.emplace(request.outputs, net, plan, forcing.axis(), provenance(request), sinks,
+                           std::move(gauge_ids));
+    if (ranks) {
+      // A lake's outflowing reaches stay on one rank (it routes the lake).
+      std::vector<std::vector<std::uint32_t>> together;
+      for (const auto& lake : ro.lakes) together.push_back(lake.outflow_reaches);
+      distribution.ranks = ranks;
+      distribution.owner = network::partitionPlan(plan, ranks->size(), together).owner;
+      ro.distribution = &distribution;
+    }
   });
   const LoadedNetwork& net = *summary.network;
   const network::NetworkPlan& plan = summary.plan;
@@ -231,57 +232,59 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
   ro.lake_results = &lake_routing;
   const auto t0 = std::chrono::steady_clock::now();
   routing::onEveryRank(ranks, [&] {
-    summary.results =
-        routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro, outputs_made ? &outputs_made->sink() : nullptr);
+    summary.results = routing::routeNetwork(plan, forcing.axis(), forcing.provider(), ro,
+                                            outputs_made ? &outputs_made->sink() : nullptr);
   });
   summary.routing_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   routing::onEveryRank(ranks, [&] {
-  if (!writes) return;  // rank 0 writes; the others' results hold their own reaches only
-  Outputs& outputs = *outputs_made;
-  for (std::size_t k = 0; k < ro.lakes.size(); ++k)
-    summary.lakes.push_back({k, net.lakes->lakes[k].lake_id, ro.lakes[k].inflow_reaches, ro.lakes[k].outflow_reaches,
-                             ro.lakes[k].outflow_shares, std::move(lake_routing[k])});
+    if (!writes) return;  // rank 0 writes; the others' results hold their own reaches only
+    Outputs& outputs = *outputs_made;
+    for (std::size_t k = 0; k < ro.lakes.size(); ++k)
+      summary.lakes.push_back({k, net.lakes->lakes[k].lake_id, ro.lakes[k].inflow_reaches, ro.lakes[k].outflow_reaches,
+                               ro.lakes[k].outflow_shares, std::move(lake_routing[k])});
 
-  tell.stage("writing the results");
-  summary.gauge_scores = scoreGauges(summary.gauges.gauges, capture, forcing.axis());
-  std::vector<io::GaugeOutput> gauge_rows;
-  for (std::size_t g = 0; g < summary.gauges.gauges.size(); ++g) {
-    const Gauge& gauge = summary.gauges.gauges[g];
-    summary.gauge_outflow.push_back(capture.outflow(gauge.reach));
-    const network::Point2 at = gauge.point.value_or(plan.bottom[gauge.reach]);
-    gauge_rows.push_back({gauge.gauge_id, gauge.reach_id, at.x, at.y, gauge.snap_distance_m,
-                          summary.gauge_scores[g], &gauge.observed, nullptr});
-  }
-  for (std::size_t g = 0; g < gauge_rows.size(); ++g) gauge_rows[g].simulated = &summary.gauge_outflow[g];
-  auto& warnings = summary.results.warnings;
-  warnings.insert(warnings.end(), forcing.warnings().begin(), forcing.warnings().end());
-  warnings.insert(warnings.end(), summary.gauges.warnings.begin(), summary.gauges.warnings.end());
-  for (const auto& p : net.problems)
-    if (p.severity == network::Severity::Warning) warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
-  summary.info = runInfo(request, summary.results);
-  summary.info.units = outputs.units();
-  const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
-  markLakeNodes(summary.results, summary.lakes);
-  std::optional<io::SavedState> saved;
-  if (!request.outputs.state_nc.empty()) {
-    const routing::TimeAxis& axis = forcing.axis();
-    saved.emplace();
-    saved->method = routing::methodName(request.method);
-    saved->time_unix_s = axis.at(static_cast<double>(axis.steps - 1));
-    saved->utc_offset_min = axis.utc_offset_min;
-    saved->dt_s = axis.dt_s;
-    saved->reach_ids = plan.reach_id;
-    saved->reaches = std::move(end_states);
-    for (const LakeResult& l : summary.lakes) {
-      const routing::LevelPoolResult& r = l.routing.result;
-      if (!l.routing.routed || r.storage_m3.empty())
-        throw InternalError("lake " + l.lake_id + " was not routed: no state to save");
-      saved->lakes.push_back({l.lake_id, r.storage_m3.back(), r.level_m.back(), static_cast<std::uint32_t>(r.substeps)});
+    tell.stage("writing the results");
+    summary.gauge_scores = scoreGauges(summary.gauges.gauges, capture, forcing.axis());
+    std::vector<io::GaugeOutput> gauge_rows;
+    for (std::size_t g = 0; g < summary.gauges.gauges.size(); ++g) {
+      const Gauge& gauge = summary.gauges.gauges[g];
+      summary.gauge_outflow.push_back(capture.outflow(gauge.reach));
+      const network::Point2 at = gauge.point.value_or(plan.bottom[gauge.reach]);
+      gauge_rows.push_back({gauge.gauge_id, gauge.reach_id, at.x, at.y, gauge.snap_distance_m,
+                            summary.gauge_scores[g], &gauge.observed, nullptr});
     }
-  }
-  outputs.commit(summary.results, summary.info, lakes, gauge_rows, saved ? &*saved : nullptr);
-  summary.gpkg = outputs.geopackage();
-  summary.notes = outputs.notes();
+    for (std::size_t g = 0; g < gauge_rows.size(); ++g) gauge_rows[g].simulated = &summary.gauge_outflow[g];
+    auto& warnings = summary.results.warnings;
+    warnings.insert(warnings.end(), forcing.warnings().begin(), forcing.warnings().end());
+    warnings.insert(warnings.end(), summary.gauges.warnings.begin(), summary.gauges.warnings.end());
+    for (const auto& p : net.problems)
+      if (p.severity == network::Severity::Warning)
+        warnings.push_back(std::string(p.codeName()) + " " + p.reach_id + ": " + p.message);
+    summary.info = runInfo(request, summary.results);
+    summary.info.units = outputs.units();
+    const std::vector<io::LakeOutput> lakes = routedLakes(net, plan, summary.lakes);
+    markLakeNodes(summary.results, summary.lakes);
+    std::optional<io::SavedState> saved;
+    if (!request.outputs.state_nc.empty()) {
+      const routing::TimeAxis& axis = forcing.axis();
+      saved.emplace();
+      saved->method = routing::methodName(request.method);
+      saved->time_unix_s = axis.at(static_cast<double>(axis.steps - 1));
+      saved->utc_offset_min = axis.utc_offset_min;
+      saved->dt_s = axis.dt_s;
+      saved->reach_ids = plan.reach_id;
+      saved->reaches = std::move(end_states);
+      for (const LakeResult& l : summary.lakes) {
+        const routing::LevelPoolResult& r = l.routing.result;
+        if (!l.routing.routed || r.storage_m3.empty())
+          throw InternalError("lake " + l.lake_id + " was not routed: no state to save");
+        saved->lakes.push_back(
+            {l.lake_id, r.storage_m3.back(), r.level_m.back(), static_cast<std::uint32_t>(r.substeps)});
+      }
+    }
+    outputs.commit(summary.results, summary.info, lakes, gauge_rows, saved ? &*saved : nullptr);
+    summary.gpkg = outputs.geopackage();
+    summary.notes = outputs.notes();
   });
   return summary;
 }
