@@ -13,12 +13,10 @@
 #include <cmath>
 #include <condition_variable>
 #include <cstdio>
-#include <cstring>
 #include <deque>
 #include <memory>
 #include <mutex>
 #include <string>
-#include <type_traits>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/routing/Peak.hpp"

@@ -97,6 +97,26 @@ TEST(MpiRoute, SampleNetworkWithLakeAndBifurcationsGivesTheSameOutputsOnAnyRankC
                                  "lateral.csv --lakes " + kSample + "lakes.gpkg --hydrographs all");
 }
 
+TEST(MpiRoute, ATerminalLakeAtTheOutletGivesTheSameOutputsOnAnyRankCount) {
+  // A lake around the sample network's outlet (the downstream end of R1,
+  // at 512000, 5180000 in EPSG:32633): a terminal sink that takes the
+  // outflow of whichever rank routed the outlet, routed on rank 0.
+  TempDir tmp;
+  std::ofstream(tmp.path() / "lake.csv")
+      << "lake_id,k_h,WKT\nSINK,12,\"POLYGON((511900 5179900,512100 5179900,512100 5180100,511900 5180100,"
+         "511900 5179900))\"\n";
+  const std::string lakes = (tmp.path() / "lakes.gpkg").string();
+  const CliRun made = runShell("ogr2ogr -f GPKG " + shellQuoted(lakes) + " " +
+                               shellQuoted((tmp.path() / "lake.csv").string()) +
+                               " -oo GEOM_POSSIBLE_NAMES=WKT -oo KEEP_GEOM_COLUMNS=NO -oo AUTODETECT_TYPE=YES "
+                               "-a_srs EPSG:32633 -nln lakes -nlt POLYGON");
+  ASSERT_EQ(made.code, 0) << made.err;
+  expectAnyRankCountGivesTheSame(tmp.path(), kSample + "network.gpkg --inflow " + kSample + "inflow.csv --lateral " +
+                                                 kSample + "lateral.csv --lakes " + shellQuoted(lakes));
+  EXPECT_NE(slurp(tmp.path() / "alone/csv/lakes.csv").find("SINK,,"), std::string::npos)
+      << "the lake is terminal (no reach below it)";
+}
+
 TEST(MpiRoute, SyntheticBasinsGiveTheSameOutputsOnAnyRankCount) {
   TempDir tmp;
   const std::string net = (tmp.path() / "net.gpkg").string(), inflow = (tmp.path() / "inflow.csv").string();
