@@ -413,6 +413,15 @@ void printEnsembleSummary(std::ostream& out, std::ostream& err, const run::Ensem
   fmt::print(out, "caution: {}\n", run::kResultsCaution);
 }
 
+/// A network with errors: one line per error, exit 1.
+int refused(BarProgress& progress, const run::NetworkHasErrors& e, std::ostream& err) {
+  progress.finish();
+  for (const auto& p : e.problems())
+    if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
+  fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
+  return kExitInput;
+}
+
 int routeEnsemble(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   BarProgress progress(!o.quiet && o.speaks());
   try {
@@ -422,11 +431,7 @@ int routeEnsemble(const RouteOptions& o, std::ostream& out, std::ostream& err) {
     for (const auto& note : s.notes) fmt::print(err, "{}\n", note);
     if (!o.quiet) printEnsembleSummary(out, err, *s.source, s, o);
   } catch (const run::NetworkHasErrors& e) {
-    progress.finish();
-    for (const auto& p : e.problems())
-      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
-    fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
-    return kExitInput;
+    return refused(progress, e, err);
   }
   if (o.timings) progress.times().print(out);
   return kExitOk;
@@ -439,11 +444,7 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   try {
     s = run::route(requestOf(o), &progress);
   } catch (const run::NetworkHasErrors& e) {
-    progress.finish();
-    for (const auto& p : e.problems())
-      if (p.severity == network::Severity::Error) fmt::print(err, "{}\n", run::problemLine(p, e.geographic()));
-    fmt::print(err, "route refused: the network has errors (run `reachwise check` for details)\n");
-    return kExitInput;
+    return refused(progress, e, err);
   }
   progress.finish();
   for (const auto& note : s.notes) fmt::print(err, "{}\n", note);

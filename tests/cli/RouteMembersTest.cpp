@@ -14,6 +14,7 @@
 
 #include "reachwise/io/Gdal.hpp"
 #include "support/Cli.hpp"
+#include "support/Members.hpp"
 #include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
@@ -25,22 +26,7 @@ const std::string kValidator = "/usr/lib/python3/dist-packages/osgeo_utils/sampl
 
 /// Members: the sample inflow times each factor, as `members/f<k>.csv`.
 void writeMembers(const fs::path& dir, const std::vector<double>& factors) {
-  fs::create_directories(dir / "members");
-  std::ifstream in(kSample + "inflow.csv");
-  std::vector<std::string> lines;
-  for (std::string l; std::getline(in, l);) lines.push_back(l);
-  for (std::size_t k = 0; k < factors.size(); ++k) {
-    std::ofstream out(dir / "members" / ("f" + std::to_string(k) + ".csv"));
-    out << lines[0] << '\n';
-    for (std::size_t r = 1; r < lines.size(); ++r) {
-      std::stringstream cells(lines[r]);
-      std::string cell;
-      std::getline(cells, cell, ',');
-      out << cell;
-      while (std::getline(cells, cell, ',')) out << ',' << std::stod(cell) * factors[k];
-      out << '\n';
-    }
-  }
+  testsupport::writeScaledMembers(dir / "members", factors, "f");
 }
 
 bool contains(const std::string& text, const std::string& part) { return text.find(part) != std::string::npos; }

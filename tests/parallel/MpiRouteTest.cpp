@@ -18,6 +18,7 @@
 
 #include "support/Cli.hpp"
 #include "support/Errors.hpp"
+#include "support/Members.hpp"
 #include "support/Scratch.hpp"
 
 using namespace testsupport;
@@ -177,23 +178,7 @@ TEST(MpiRoute, OtherCommandsRefuseSeveralRanks) {
 /// Members m0..m4: the sample inflow times 0.6, 0.8, 1, 1.2, 1.4 (m`bad`:
 /// one discharge above what the reader takes, at line 21 of R41).
 void writeMembers(const fs::path& dir, int bad = -1) {
-  fs::create_directories(dir);
-  std::ifstream in(kSample + "inflow.csv");
-  std::vector<std::string> lines;
-  for (std::string l; std::getline(in, l);) lines.push_back(l);
-  for (int k = 0; k < 5; ++k) {
-    std::ofstream out(dir / ("m" + std::to_string(k) + ".csv"));
-    out << lines[0] << '\n';
-    for (std::size_t r = 1; r < lines.size(); ++r) {
-      std::stringstream cells(lines[r]);
-      std::string cell, row;
-      std::getline(cells, cell, ',');
-      row = cell;
-      while (std::getline(cells, cell, ',')) row += ',' + std::to_string(std::stod(cell) * (0.6 + 0.2 * k));
-      if (k == bad && r == 20) row = row.substr(0, row.rfind(',')) + ",1e200";
-      out << row << '\n';
-    }
-  }
+  writeScaledMembers(dir, {0.6, 0.8, 1.0, 1.2, 1.4}, "m", bad);
 }
 
 TEST(MpiRoute, AnEnsembleSpreadOverRanksGivesTheSameOutputs) {

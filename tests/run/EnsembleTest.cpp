@@ -17,6 +17,7 @@
 #include "io/NetworkFixtures.hpp"
 #include "reachwise/Error.hpp"
 #include "support/Cli.hpp"
+#include "support/Members.hpp"
 #include "support/Scratch.hpp"
 
 using namespace reachwise;
@@ -250,22 +251,7 @@ TEST(Ensemble, ScaledMembersScaleThePeaksOnALinearMethod) {
 TEST(Ensemble, ThreadCountDoesNotChangeResults) {
   testsupport::TempDir dir;
   // Members differing from each other: the sample inflow scaled.
-  std::ifstream in(kSample + "inflow.csv");
-  std::vector<std::string> lines;
-  for (std::string l; std::getline(in, l);) lines.push_back(l);
-  fs::create_directories(dir.path() / "members");
-  for (int m = 0; m < 5; ++m) {
-    std::ofstream out(dir.path() / fmt::format("members/m{}.csv", m));
-    out << lines[0] << '\n';
-    for (std::size_t k = 1; k < lines.size(); ++k) {
-      std::stringstream cells(lines[k]);
-      std::string cell;
-      std::getline(cells, cell, ',');
-      out << cell;
-      while (std::getline(cells, cell, ',')) out << ',' << std::stod(cell) * (0.7 + 0.15 * m);
-      out << '\n';
-    }
-  }
+  testsupport::writeScaledMembers(dir.path() / "members", {0.7, 0.85, 1.0, 1.15, 1.3});
   run::RouteRequest r;
   r.network.path = kSample + "network.gpkg";
   r.forcing.lateral = kSample + "lateral.csv";
@@ -400,22 +386,7 @@ TEST(EnsembleMembers, InflowBesideMembersAndNetcdfSeriesAreRefused) {
 // are; the tables are the same as one process routing every member.
 TEST(Ensemble, SubsetsRoutedApartCombineToTheWholeRun) {
   testsupport::TempDir dir;
-  std::ifstream in(kSample + "inflow.csv");
-  std::vector<std::string> lines;
-  for (std::string l; std::getline(in, l);) lines.push_back(l);
-  fs::create_directories(dir.path() / "members");
-  for (int m = 0; m < 3; ++m) {
-    std::ofstream out(dir.path() / fmt::format("members/m{}.csv", m));
-    out << lines[0] << '\n';
-    for (std::size_t k = 1; k < lines.size(); ++k) {
-      std::stringstream cells(lines[k]);
-      std::string cell;
-      std::getline(cells, cell, ',');
-      out << cell;
-      while (std::getline(cells, cell, ',')) out << ',' << std::stod(cell) * (0.8 + 0.2 * m);
-      out << '\n';
-    }
-  }
+  testsupport::writeScaledMembers(dir.path() / "members", {0.8, 1.0, 1.2});
   run::RouteRequest r;
   r.network.path = kSample + "network.gpkg";
   r.forcing.lateral = kSample + "lateral.csv";
