@@ -225,7 +225,7 @@ TEST(Calibrate, FitsMuskingumKAndXOnOneReach) {
   const auto result = run::calibrate(request);
   ASSERT_EQ(result.sub_basins.size(), 1u);
   const auto& sb = result.sub_basins[0];
-  // Noise-free: recovered within 2 % (the bound; the optimiser
+  // Noise-free: recovered within 2 % (the calibration's accuracy target; the optimiser
   // stops at 1e-3 in log K and in X).
   EXPECT_NEAR(sb.multiplier * 2.0, 3.0, 0.06);
   EXPECT_NEAR(sb.muskingum_x, 0.25, 0.005);
