@@ -41,14 +41,19 @@ inline void refusalIsFine(const std::function<void()>& body) {
   }
 }
 
-/// A file holding the fuzzer's bytes, named `reachwise-fuzz-PID<suffix>` in
-/// the temporary folder, removed (with any `-journal`/`-wal`/`-shm` beside
-/// it) when destroyed.
+/// A file holding the fuzzer's bytes, removed (with any `-journal`/`-wal`/
+/// `-shm` beside it) when destroyed. Named `reachwise-fuzz-input<suffix>` in
+/// the working folder (scripts/fuzz.sh runs each target in its own), so
+/// the name, which reaches messages and the comparisons the fuzzer learns
+/// from, is the same in every run and a run with a fixed seed repeats;
+/// with REACHWISE_FUZZ_UNIQUE set (several processes of one target in one
+/// folder), `reachwise-fuzz-PID<suffix>` in the temporary folder.
 class ScratchFile {
 public:
   ScratchFile(const std::uint8_t* data, std::size_t size, const std::string& suffix)
-      : path_(std::filesystem::temp_directory_path() /
-              ("reachwise-fuzz-" + std::to_string(::getpid()) + suffix)) {
+      : path_(std::getenv("REACHWISE_FUZZ_UNIQUE")
+                  ? std::filesystem::temp_directory_path() / ("reachwise-fuzz-" + std::to_string(::getpid()) + suffix)
+                  : std::filesystem::path("reachwise-fuzz-input" + suffix)) {
     std::ofstream out(path_, std::ios::binary | std::ios::trunc);
     out.write(reinterpret_cast<const char*>(data), static_cast<std::streamsize>(size));
     if (!out) {

@@ -55,6 +55,10 @@ public:
     if (!u32(t) || !count(n)) return false;
     return t == tag || (t == 0 && n == 0);
   }
+  /// Bytes of the header not read yet.
+  std::size_t left() const { return bytes_.size() - pos_; }
+  /// Bytes of a count: 4, or 8 in CDF-5.
+  std::uint64_t countBytes() const { return wide_ ? 8 : 4; }
 
 private:
   std::span<const std::uint8_t> bytes_;
@@ -74,10 +78,25 @@ std::size_t typeSize(std::uint32_t type) {
 
 enum class Walk { Fine, Stop };
 
+/// A list of `n` entries of at least `min_bytes` each that the rest of a
+/// whole file cannot hold: netCDF-C sizes its tables from the count before
+/// it reads an entry, and 4.9.0 crashes in NC_hashmapfree when such an
+/// allocation fails (found by fuzzing: 100 million dimensions claimed by a
+/// file of 796 bytes).
+std::optional<std::string> overlong(const Reader& r, bool whole_file, std::uint64_t n, std::uint64_t min_bytes,
+                                    const char* what) {
+  if (!whole_file || n <= r.left() / min_bytes) return std::nullopt;
+  return fmt::format("the header lists {} {}, more than the {} bytes after that count can hold", n, what, r.left());
+}
+
 /// Walks an attribute list; sets `problem` for a type the format lacks.
-Walk attributes(Reader& r, std::uint32_t max_type, const std::string& owner, std::optional<std::string>& problem) {
+Walk attributes(Reader& r, std::uint32_t max_type, const std::string& owner, bool whole_file,
+                std::optional<std::string>& problem) {
   std::uint64_t n = 0;
   if (!r.list(kAttributeTag, n)) return Walk::Stop;
+  // An attribute: its name's length, its type and its value count.
+  problem = overlong(r, whole_file, n, 2 * r.countBytes() + 4, ("attributes of " + owner).c_str());
+  if (problem) return Walk::Stop;
   for (std::uint64_t a = 0; a < n; ++a) {
     std::string name;
     std::uint32_t type = 0;
@@ -99,7 +118,7 @@ Walk attributes(Reader& r, std::uint32_t max_type, const std::string& owner, std
 
 }  // namespace
 
-std::optional<std::string> classicHeaderProblem(std::span<const std::uint8_t> bytes) {
+std::optional<std::string> classicHeaderProblem(std::span<const std::uint8_t> bytes, bool whole_file) {
   if (bytes.size() < 4 || bytes[0] != 'C' || bytes[1] != 'D' || bytes[2] != 'F') return std::nullopt;
   const std::uint8_t version = bytes[3];
   if (version != 1 && version != 2 && version != 5) return std::nullopt;
@@ -109,22 +128,29 @@ std::optional<std::string> classicHeaderProblem(std::span<const std::uint8_t> by
   std::optional<std::string> problem;
   std::uint64_t numrecs = 0, n = 0;
   if (!r.count(numrecs) || !r.list(kDimensionTag, n)) return std::nullopt;
+  // A dimension: its name's length and its length.
+  if ((problem = overlong(r, whole_file, n, 2 * r.countBytes(), "dimensions"))) return problem;
   for (std::uint64_t d = 0; d < n; ++d) {
     std::string name;
     std::uint64_t length = 0;
     if (!r.name(name) || !r.count(length)) return std::nullopt;
   }
-  if (attributes(r, max_type, "the file", problem) == Walk::Stop) return problem;
+  if (attributes(r, max_type, "the file", whole_file, problem) == Walk::Stop) return problem;
   if (!r.list(kVariableTag, n)) return std::nullopt;
+  // A variable: its name's length, its dimension count, an attribute list's
+  // tag and count, its type, vsize and begin (at least 4 bytes).
+  if ((problem = overlong(r, whole_file, n, 4 * r.countBytes() + 12, "variables"))) return problem;
   for (std::uint64_t v = 0; v < n; ++v) {
     std::string name;
     std::uint64_t dims = 0;
     if (!r.name(name) || !r.count(dims)) return std::nullopt;
+    if ((problem = overlong(r, whole_file, dims, r.countBytes(), ("dimensions of variable '" + name + "'").c_str())))
+      return problem;
     for (std::uint64_t k = 0; k < dims; ++k) {
       std::uint64_t dimid = 0;
       if (!r.count(dimid)) return std::nullopt;
     }
-    if (attributes(r, max_type, "variable '" + name + "'", problem) == Walk::Stop) return problem;
+    if (attributes(r, max_type, "variable '" + name + "'", whole_file, problem) == Walk::Stop) return problem;
     std::uint32_t type = 0;
     std::uint64_t vsize = 0, begin = 0;
     if (!r.u32(type)) return std::nullopt;

@@ -44,7 +44,7 @@ int openForReading(const std::filesystem::path& path, int* ncid) {
     std::fclose(f);
   }
   head.resize(got);
-  if (const auto problem = classicHeaderProblem(head)) {
+  if (const auto problem = classicHeaderProblem(head, !ec && got == size)) {
     InputLocation where;
     where.file = path.string();
     throw InputError(where, "is not a valid NetCDF file: " + *problem);

@@ -13,6 +13,7 @@
 #include <fstream>
 #include <iterator>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "reachwise/Error.hpp"
@@ -41,31 +42,37 @@ struct Bytes {
   }
 };
 
+/// How many entries a header says its lists have (a damaged header claims
+/// more than it holds).
+struct Claims {
+  std::uint64_t dimensions = 2, global_attributes = 1, variables = 1, variable_dimensions = 2;
+};
+
 /// A header with dimensions reach (3) and time (4), a global text
 /// attribute, and one variable `inflow(time, reach)` of `type` with a
 /// `units` attribute.
-std::vector<std::uint8_t> header(std::uint8_t version, std::uint32_t type) {
+std::vector<std::uint8_t> header(std::uint8_t version, std::uint32_t type, const Claims& claims = {}) {
   Bytes h;
   h.wide = version == 5;
   h.b = {'C', 'D', 'F', version};
   h.count(0);             // numrecs
   h.u32(0x0A);            // NC_DIMENSION
-  h.count(2);
+  h.count(claims.dimensions);
   h.name("reach");
   h.count(3);
   h.name("time");
   h.count(4);
   h.u32(0x0C);            // NC_ATTRIBUTE (global)
-  h.count(1);
+  h.count(claims.global_attributes);
   h.name("title");
   h.u32(2);               // NC_CHAR
   h.count(5);
   for (char c : std::string("hello")) h.b.push_back(static_cast<std::uint8_t>(c));
   while (h.b.size() % 4) h.b.push_back(0);
   h.u32(0x0B);            // NC_VARIABLE
-  h.count(1);
+  h.count(claims.variables);
   h.name("inflow");
-  h.count(2);
+  h.count(claims.variable_dimensions);
   h.count(1);             // time
   h.count(0);             // reach
   h.u32(0x0C);
@@ -105,10 +112,38 @@ TEST(NetcdfHeader, ATypeTheFormatLacksIsNamedWithItsVariable) {
 
 TEST(NetcdfHeader, WhatIsNotAWholeClassicHeaderIsLeftToNetcdf) {
   auto h = header(2, 12);
-  EXPECT_FALSE(classicHeaderProblem(std::vector<std::uint8_t>(h.begin(), h.begin() + 40)));  // ends early
+  EXPECT_FALSE(classicHeaderProblem(std::vector<std::uint8_t>(h.begin(), h.begin() + 40), false));  // ends early
   EXPECT_FALSE(classicHeaderProblem(std::vector<std::uint8_t>{0x89, 'H', 'D', 'F'}));      // netCDF-4
   EXPECT_FALSE(classicHeaderProblem(std::vector<std::uint8_t>{'C', 'D', 'F', 3}));
   EXPECT_FALSE(classicHeaderProblem({}));
+}
+
+TEST(NetcdfHeader, ListsLongerThanTheFileAreRefused) {
+  // netCDF-C sizes its tables from these counts before reading an entry;
+  // a count no file of this size can hold is refused by name.
+  const std::uint64_t huge = 100'000'000;
+  const std::pair<Claims, std::string> cases[] = {
+      {{huge, 1, 1, 2}, "100000000 dimensions"},
+      {{2, huge, 1, 2}, "100000000 attributes of the file"},
+      {{2, 1, huge, 2}, "100000000 variables"},
+      {{2, 1, 1, huge}, "100000000 dimensions of variable 'inflow'"},
+  };
+  for (std::uint8_t version : {1, 2, 5}) {
+    for (const auto& [claims, words] : cases) {
+      const auto h = header(version, 6, claims);
+      const auto problem = classicHeaderProblem(h);
+      ASSERT_TRUE(problem) << int(version) << " " << words;
+      EXPECT_NE(problem->find(words), std::string::npos) << *problem;
+      // The start of a longer file may be followed by what the list needs,
+      // so its counts are not judged (the walk may still trip over
+      // something else in what follows).
+      if (const auto start = classicHeaderProblem(h, false)) {
+        EXPECT_EQ(start->find("after that count"), std::string::npos) << *start;
+      }
+    }
+  }
+  // The same header with its true counts passes.
+  EXPECT_FALSE(classicHeaderProblem(header(1, 6, {2, 1, 1, 2})));
 }
 
 TEST(NetcdfHeader, FilesWrittenByNetcdfPass) {
@@ -147,6 +182,21 @@ TEST(NetcdfHeader, TheFileThatMadeNetcdfDivideByZeroIsRefused) {
     FAIL() << "opened";
   } catch (const reachwise::InputError& e) {
     EXPECT_NE(std::string(e.what()).find("'reach_id' has type 12"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find(file.filename().string()), std::string::npos) << e.what();
+  }
+}
+
+TEST(NetcdfHeader, TheFileThatClaimedAHundredMillionDimensionsIsRefused) {
+  // Found by fuzzing (fuzz/regressions/forcing_netcdf/): a CDF-1 file of 796
+  // bytes whose dimension list claims 100,663,296 entries; netCDF-C 4.9.0
+  // crashed in NC_hashmapfree when its table for them could not be had.
+  const fs::path file =
+      fs::path(REACHWISE_SOURCE_DIR) / "fuzz/regressions/forcing_netcdf/classic-header-claims-100m-dimensions.nc";
+  try {
+    reachwise::io::NetcdfForcingSource source(file, 1000);
+    FAIL() << "opened";
+  } catch (const reachwise::InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("100663296 dimensions"), std::string::npos) << e.what();
     EXPECT_NE(std::string(e.what()).find(file.filename().string()), std::string::npos) << e.what();
   }
 }

@@ -19,10 +19,12 @@
 namespace reachwise::io {
 
 /// What is wrong with the classic header in `bytes` (the start of a file):
-/// a type the format does not have, named with its variable or attribute;
-/// nullopt when the types are all right, or when `bytes` is not a classic
-/// header or ends before its variable list does (netCDF-C then judges
-/// the file itself).
-std::optional<std::string> classicHeaderProblem(std::span<const std::uint8_t> bytes);
+/// a type the format does not have, named with its variable or attribute,
+/// or, when `bytes` is the whole file (`whole_file`), a dimension,
+/// attribute or variable count larger than the rest of the file can hold;
+/// nullopt when all is right, or when `bytes` is not a classic header or
+/// ends before its variable list does (netCDF-C then judges the file
+/// itself).
+std::optional<std::string> classicHeaderProblem(std::span<const std::uint8_t> bytes, bool whole_file = true);
 
 }  // namespace reachwise::io
