@@ -31,6 +31,7 @@
 
 #include "Methods.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/hydraulics/ConveyanceTable.hpp"
 #include "reachwise/hydraulics/Section.hpp"
 
 namespace reachwise::routing::methods {
@@ -96,12 +97,12 @@ DiffusionGrid chooseGrid(const hydraulics::Section& sec, double length, double q
 
 /// The state of the cells and their conveyances.
 struct Channel {
-  const hydraulics::Section& sec;
+  const hydraulics::ConveyanceTable& table;  // Q_normal(y) of the section
   double slope, sqrt_slope;
   /// Conveyance K = Q_normal / S0^(1/2) and dK/dy at depth y.
   void conveyance(double y, double& k, double& dk) const {
     double q, dq;
-    sec.dischargeAndDerivative(std::max(y, 0.0), q, dq);
+    table.dischargeAndDerivative(y, q, dq);
     k = q / sqrt_slope, dk = dq / sqrt_slope;
   }
 };
@@ -145,7 +146,11 @@ void diffusionWave(RouteContext& ctx) {
   const std::size_t n = g.dx.size(), m = g.reach_cells;
   const std::uint32_t k = g.substeps;
   const double dts = dt / k;
-  const Channel ch{sec, slope, std::sqrt(slope)};
+  // Manning's formula tabulated over the depths this run reaches (twice
+  // the peak's normal depth; deeper is computed directly): the solver
+  // evaluates it in every cell at every Newton step.
+  const hydraulics::ConveyanceTable conveyance(sec, 2.0 * sec.normalDepth(std::max(q_hi, 1e-9)));
+  const Channel ch{conveyance, slope, std::sqrt(slope)};
 
   // Report the grid: cells over the reach as sub-reaches, and the Cunge
   // figures at the reference flow on it (C, D; X is not used).
