@@ -238,8 +238,11 @@ struct ConservativeCell {
                      half_dt * (left_new + left_old - old) + dts * lat;
     const double alpha = (1.0 - x_new) * dx;
     // α A(O) + Δt/2 O = r is increasing in O: solve it cell by cell of the
-    // area table, starting from the cell of the old outflow.
-    std::size_t i = area.index(old);
+    // area table, starting from the cell of the old outflow moved by the
+    // change of the inflow (the cell where it lands most often while a wave
+    // passes; the start does not change the solution, only how many cells
+    // are tried before it).
+    std::size_t i = area.index(old + (left_new - left_old));
     double o = old;
     for (int it = 0; it < 64; ++it) {
       const AreaTable::Cell& c = area.cell(i);
