@@ -172,31 +172,32 @@ TEST(NetcdfHeader, FilesWrittenByNetcdfPass) {
   }
 }
 
+namespace {
+
+/// Opening the regression input `name` as forcing is refused with a message
+/// naming the file and holding `words`.
+void expectRegressionRefused(const std::string& name, const std::string& words) {
+  const fs::path file = fs::path(REACHWISE_SOURCE_DIR) / "fuzz/regressions/forcing_netcdf" / name;
+  try {
+    reachwise::io::NetcdfForcingSource source(file, 1000);
+    ADD_FAILURE() << name << " opened";
+  } catch (const reachwise::InputError& e) {
+    EXPECT_NE(std::string(e.what()).find(words), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find(name), std::string::npos) << e.what();
+  }
+}
+
+}  // namespace
+
 TEST(NetcdfHeader, TheFileThatMadeNetcdfDivideByZeroIsRefused) {
   // Found by fuzzing (fuzz/regressions/forcing_netcdf/): a CDF-2 file whose
   // reach_id has type 12; netCDF-C 4.9.0 ended the process with SIGFPE.
-  const fs::path file =
-      fs::path(REACHWISE_SOURCE_DIR) / "fuzz/regressions/forcing_netcdf/cdf2-string-variable-divides-by-zero.nc";
-  try {
-    reachwise::io::NetcdfForcingSource source(file, 1000);
-    FAIL() << "opened";
-  } catch (const reachwise::InputError& e) {
-    EXPECT_NE(std::string(e.what()).find("'reach_id' has type 12"), std::string::npos) << e.what();
-    EXPECT_NE(std::string(e.what()).find(file.filename().string()), std::string::npos) << e.what();
-  }
+  expectRegressionRefused("cdf2-string-variable-divides-by-zero.nc", "'reach_id' has type 12");
 }
 
 TEST(NetcdfHeader, TheFileThatClaimedAHundredMillionDimensionsIsRefused) {
   // Found by fuzzing (fuzz/regressions/forcing_netcdf/): a CDF-1 file of 796
   // bytes whose dimension list claims 100,663,296 entries; netCDF-C 4.9.0
   // crashed in NC_hashmapfree when its table for them could not be had.
-  const fs::path file =
-      fs::path(REACHWISE_SOURCE_DIR) / "fuzz/regressions/forcing_netcdf/classic-header-claims-100m-dimensions.nc";
-  try {
-    reachwise::io::NetcdfForcingSource source(file, 1000);
-    FAIL() << "opened";
-  } catch (const reachwise::InputError& e) {
-    EXPECT_NE(std::string(e.what()).find("100663296 dimensions"), std::string::npos) << e.what();
-    EXPECT_NE(std::string(e.what()).find(file.filename().string()), std::string::npos) << e.what();
-  }
+  expectRegressionRefused("classic-header-claims-100m-dimensions.nc", "100663296 dimensions");
 }

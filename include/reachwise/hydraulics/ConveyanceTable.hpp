@@ -25,15 +25,13 @@ public:
   /// segments each, the first twentieth (kFineShare) apart, where Q grows
   /// as (y − y0)^(5/3) and cubic Hermite converges slowest. Relative error
   /// (tests/hydraulics/ConveyanceTableTest.cpp): below 1e-7 of Q for depths
-  /// from a tenth of `top`, and of the floodplain's Q from 1 % above the
-  /// bank.
+  /// from a tenth of `top` up, across a two-stage bank too.
   static constexpr std::size_t kIntervals = 128;
   static constexpr double kFineShare = 0.05;
 
-  ConveyanceTable() = default;
-  /// The table of `sec` over depths [0, top_m] (m, > 0).
+  /// The table of `sec` over depths [0, top_m] (m, > 0); `sec` must
+  /// outlive the table.
   ConveyanceTable(const Section& sec, double top_m) { build(sec, top_m); }
-  void build(const Section& sec, double top_m);
 
   /// Q(y) and dQ/dy at depth y (m; below 0 taken as 0).
   void dischargeAndDerivative(double depth_m, double& discharge_m3s, double& derivative_m2s) const;
@@ -43,8 +41,9 @@ private:
     double y0 = 0, y1 = 0, h = 1, inv_h = 1;
     std::vector<double> q, dq;  // kIntervals + 1 nodes
   };
+  void build(const Section& sec, double top_m);
   void fill(Segment& s, double y0, double y1) const;
-  const Section* sec_ = nullptr;  // the section the table was built for (outlives it)
+  const Section* sec_ = nullptr;  // the section the table was built for, which must outlive it
   bool direct_ = true;
   double top_ = 0;
   Segment seg_[4];
