@@ -8,7 +8,11 @@
 #include <ogrsf_frmts.h>
 
 #include <cmath>
+#include <condition_variable>
+#include <deque>
+#include <mutex>
 #include <system_error>
+#include <thread>
 
 
 #include "GdalSupport.hpp"
@@ -105,7 +109,52 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
 constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info",
                                    "lakes", "lake_series", "gauges", "gauge_series", kMemberReachesTable};
 
+/// GDAL 3.6 builds the R-tree of a large layer in a background thread;
+/// measured on the 100,000-reach benchmark network (2 cores, the router's
+/// threads idle by then) that made writing 4.4 s slower than building it in
+/// the writing thread, and no faster at 1,000,000. Thread-local, and only
+/// when the user has not chosen.
+CPLConfigOptionSetter spatialIndexInThisThread() {
+  return CPLConfigOptionSetter("OGR_GPKG_ALLOW_THREADED_RTREE", "NO", /*bSetOnlyIfUndefined=*/true);
+}
+
 }  // namespace
+
+/// The queue between the router's threads and the writing thread
+/// (GpkgWriterOptions::background). Bounded by the bytes it holds, so that
+/// a writer slower than routing holds the router back instead of memory
+/// growing with the network.
+struct GpkgResultsWriter::Background {
+  struct Job {
+    std::uint32_t reach = 0;
+    bool summary = false;              ///< a row of `reaches`; else a series for `hydrographs`
+    routing::ReachSummary reach_summary;
+    std::vector<double> q, depth, velocity;
+    std::size_t bytes() const { return sizeof(Job) + sizeof(double) * (q.size() + depth.size() + velocity.size()); }
+  };
+  static constexpr std::size_t kCapacityBytes = std::size_t{64} << 20;
+
+  /// Waits for room (always taken when the queue is empty), then queues
+  /// `job`; rethrows what stopped the writing thread.
+  void push(Job&& job) {
+    const std::size_t bytes = job.bytes();
+    std::unique_lock lock(mutex);
+    room.wait(lock, [&] { return error || held == 0 || held + bytes <= kCapacityBytes; });
+    if (error) std::rethrow_exception(error);
+    jobs.push_back(std::move(job));
+    held += bytes;
+    ready.notify_one();
+  }
+
+  std::mutex mutex;
+  std::condition_variable ready, room;
+  std::deque<Job> jobs;
+  std::size_t held = 0;
+  bool closing = false;   ///< nothing more comes: write what is queued, then stop
+  bool abandon = false;   ///< stop at once (the run failed)
+  std::exception_ptr error;
+  std::thread thread;
+};
 
 GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& table,
                                      const network::NetworkPlan& plan, const routing::TimeAxis& axis,
@@ -132,6 +181,7 @@ GpkgResultsWriter::GpkgResultsWriter(fs::path out, const network::ReachTable& ta
     fs::remove(working_, ec);
     throw;
   }
+  startBackground();
 }
 
 namespace {
@@ -285,9 +335,15 @@ GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string s
       failAt(target_, "cannot delete the old layer " + name, name);
   openSeriesTable();
   openLakeSeriesTable();
+  startBackground();
 }
 
 GpkgResultsWriter::~GpkgResultsWriter() {
+  try {
+    stopBackground(/*abandon=*/true);
+  } catch (...) {
+    // Only a failed run abandons the queue; its own error is the one reported.
+  }
   if (committed_) return;
   try {
     if (ds_) {
@@ -302,6 +358,55 @@ GpkgResultsWriter::~GpkgResultsWriter() {
 }
 
 void GpkgResultsWriter::fail(const std::string& what) const { failAt(target_, what); }
+
+void GpkgResultsWriter::startBackground() {
+  // A database loads each table with one COPY, which rows of two tables in
+  // turn would end and restart; an ensemble's `reaches` rows need every member.
+  if (!options_.background || !schema_.empty() || options_.member_column) return;
+  background_ = std::make_unique<Background>();
+  background_->thread = std::thread([this] { runBackground(); });
+}
+
+void GpkgResultsWriter::runBackground() {
+  const auto in_this_thread = spatialIndexInThisThread();
+  Background& b = *background_;
+  try {
+    for (;;) {
+      Background::Job job;
+      {
+        std::unique_lock lock(b.mutex);
+        b.ready.wait(lock, [&] { return b.abandon || b.closing || !b.jobs.empty(); });
+        if (b.abandon || b.jobs.empty()) return;
+        job = std::move(b.jobs.front());
+        b.jobs.pop_front();
+        b.held -= job.bytes();
+      }
+      b.room.notify_all();
+      if (job.summary) writeReachRow(job.reach, job.reach_summary, nullptr);
+      else writeSeriesRows(job.reach, job.q, job.depth, job.velocity);
+    }
+  } catch (...) {
+    std::lock_guard lock(b.mutex);
+    b.error = std::current_exception();
+    b.jobs.clear();
+    b.held = 0;
+  }
+  b.room.notify_all();
+}
+
+void GpkgResultsWriter::stopBackground(bool abandon) {
+  if (!background_) return;
+  Background& b = *background_;
+  if (b.thread.joinable()) {
+    {
+      std::lock_guard lock(b.mutex);
+      (abandon ? b.abandon : b.closing) = true;
+    }
+    b.ready.notify_all();
+    b.thread.join();
+  }
+  if (!abandon && b.error) std::rethrow_exception(b.error);
+}
 
 void GpkgResultsWriter::openSeriesTable() {
   std::vector<Column> columns;
@@ -362,6 +467,30 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
   REACHWISE_ASSERT(q_m3s.size() == axis_.steps);
   REACHWISE_ASSERT(depth_m.empty() || depth_m.size() == axis_.steps);
   REACHWISE_ASSERT(velocity_ms.empty() || velocity_ms.size() == axis_.steps);
+  if (background_) {
+    Background::Job job;
+    job.reach = reach;
+    job.q.assign(q_m3s.begin(), q_m3s.end());
+    job.depth.assign(depth_m.begin(), depth_m.end());
+    job.velocity.assign(velocity_ms.begin(), velocity_ms.end());
+    background_->push(std::move(job));
+    return;
+  }
+  writeSeriesRows(reach, q_m3s, depth_m, velocity_ms);
+}
+
+void GpkgResultsWriter::summarised(std::uint32_t reach, const routing::ReachSummary& summary) {
+  if (!background_) return;
+  REACHWISE_ASSERT(reach < plan_.size());
+  Background::Job job;
+  job.reach = reach;
+  job.summary = true;
+  job.reach_summary = summary;
+  background_->push(std::move(job));
+}
+
+void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const double> q_m3s,
+                                        std::span<const double> depth_m, std::span<const double> velocity_ms) {
   OGRFeature& f = *series_feature_;
   const int c0 = options_.member_column ? 1 : 0;   // the first column after `member`
   if (options_.member_column) f.SetField(0, member_.c_str());
@@ -381,53 +510,63 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
   }
 }
 
-namespace {
-
-/// GDAL 3.6 builds the R-tree of a large layer in a background thread;
-/// measured on the 100,000-reach benchmark network (2 cores, the router's
-/// threads idle by then) that made writing 4.4 s slower than building it in
-/// the writing thread, and no faster at 1,000,000. Thread-local, and only
-/// when the user has not chosen.
-CPLConfigOptionSetter spatialIndexInThisThread() {
-  return CPLConfigOptionSetter("OGR_GPKG_ALLOW_THREADED_RTREE", "NO", /*bSetOnlyIfUndefined=*/true);
+void GpkgResultsWriter::createReachesLayer(const EnsembleOutput* ensemble) {
+  const std::vector<Column>& columns = ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
+  const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
+  reaches_layer_ = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
+                               results::inUnits(columns, options_.units), schema_);
+  reach_feature_ = std::make_unique<OGRFeature>(reaches_layer_->GetLayerDefn());
+  reach_written_.assign(plan_.size(), false);
 }
 
-}  // namespace
+void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary& summary,
+                                      const EnsembleOutput* ensemble) {
+  if (!reaches_layer_) createReachesLayer(ensemble);
+  REACHWISE_ASSERT(i < plan_.size() && !reach_written_[i]);
+  const std::vector<Column>& columns = ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
+  OGRFeature& f = *reach_feature_;
+  auto row = results::reachRow(plan_, summary, i);
+  if (ensemble) {
+    auto more = results::ensembleReachRow(*ensemble, i);
+    row.insert(row.end(), std::make_move_iterator(more.begin()), std::make_move_iterator(more.end()));
+  }
+  results::convertRow(row, columns, options_.units);
+  const int offset = timeOffsetMin(axis_.utc_offset_min);
+  for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+  const auto vertices = results::flowLine(table_, plan_, i);
+  if (vertices.size() >= 2) {
+    auto line = lineOf(vertices);
+    f.SetGeometry(&line);
+  } else {
+    f.SetGeometryDirectly(nullptr);
+  }
+  if (background_) {
+    // Rows come in the order reaches finish; the id is the one plan order gives.
+    f.SetFID(static_cast<GIntBig>(i) + 1);
+    if (reaches_layer_->CreateFeature(&f) != OGRERR_NONE)
+      failAt(target_, "cannot write the row of reach " + plan_.reach_id[i], reaches_layer_->GetName());
+  } else {
+    insert(target_, *reaches_layer_, f);
+  }
+  reach_written_[i] = true;
+}
 
 void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, const RunInfo& info,
                                        const EnsembleOutput* ensemble) {
+  stopBackground(/*abandon=*/false);
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_ && !summaries_written_);
   REACHWISE_ASSERT(results.reaches.size() == plan_.size());
   REACHWISE_ASSERT(plan_.record.size() == plan_.size());
+  REACHWISE_ASSERT(!(ensemble && reaches_layer_));   // the writing thread never has ensemble fields
   const int offset = timeOffsetMin(results.axis.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
-
   const units::System u = options_.units;
-  const std::vector<Column>& reach_columns =
-      ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
-  OGRLayer* reaches = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
-                                  results::inUnits(reach_columns, u), schema_);
-  {
-    OGRFeature f(reaches->GetLayerDefn());
-    for (std::size_t i = 0; i < plan_.size(); ++i) {
-      auto row = results::reachRow(plan_, results.reaches[i], i);
-      if (ensemble) {
-        auto more = results::ensembleReachRow(*ensemble, i);
-        row.insert(row.end(), std::make_move_iterator(more.begin()), std::make_move_iterator(more.end()));
-      }
-      results::convertRow(row, reach_columns, u);
-      for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
-      const auto vertices = results::flowLine(table_, plan_, i);
-      if (vertices.size() >= 2) {
-        auto line = lineOf(vertices);
-        f.SetGeometry(&line);
-      } else {
-        f.SetGeometryDirectly(nullptr);
-      }
-      insert(target_, *reaches, f);
-    }
-  }
+
+  // The rows the writing thread has not written (all of them without it).
+  if (!reaches_layer_) createReachesLayer(ensemble);
+  for (std::size_t i = 0; i < plan_.size(); ++i)
+    if (!reach_written_[i]) writeReachRow(i, results.reaches[i], ensemble);
 
   OGRLayer* nodes = createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint,
                                 results::inUnits(results::nodeColumns(), u), schema_);
@@ -489,6 +628,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
 }
 
 void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
+  stopBackground(/*abandon=*/false);
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_ && !lakes_written_);
   REACHWISE_ASSERT(options_.lakes && lake_series_layer_);
@@ -548,6 +688,7 @@ void results::writeRowsLayer(const fs::path& file, GDALDataset& ds, const std::s
 }
 
 void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
+  stopBackground(/*abandon=*/false);
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
@@ -629,6 +770,7 @@ void GpkgResultsWriter::describeTables() {
 }
 
 void GpkgResultsWriter::commit(OutputCommit* into) {
+  stopBackground(/*abandon=*/false);
   const auto in_this_thread = spatialIndexInThisThread();
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete

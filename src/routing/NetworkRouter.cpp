@@ -113,6 +113,7 @@ public:
     setUpLakes();
     if (options.distribution && options.distribution->ranks && options.distribution->ranks->size() > 1)
       setUpRanks(*options.distribution);
+    tell_summaries_ = sink_ && !dist_ && sink_->wantsSummaries();
   }
 
   NetworkResults run() {
@@ -509,9 +510,10 @@ private:
       p.put(std::span<const double>(*out)), p.put(std::span<const double>(ws.depth));
       p.put(std::span<const double>(ws.velocity));
       queue(0, kSeries, std::move(p.bytes));
-    } else if (send) {
+    } else if (send || tell_summaries_) {
       std::lock_guard lock(sink_mutex_);
-      sink_->write(i, *out, ws.depth, ws.velocity);
+      if (send) sink_->write(i, *out, ws.depth, ws.velocity);
+      if (tell_summaries_) sink_->summarised(i, results_.reaches[i]);
     }
     if (dist_) {
       shipOutflow(i, *out);
@@ -721,6 +723,9 @@ private:
   const ForcingProvider& forcing_;
   const NetworkRouteOptions& options_;
   SeriesSink* sink_;
+  /// The sink takes each summary as it is final (routing in one process only;
+  /// among ranks it has them all at the end).
+  bool tell_summaries_ = false;
   std::size_t n_;
   std::unique_ptr<std::atomic<std::uint32_t>[]> pending_, consumers_;
   std::vector<std::unique_ptr<std::vector<double>>> outflow_;

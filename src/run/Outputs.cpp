@@ -118,6 +118,7 @@ Outputs::Outputs(const OutputRequest& request, const LoadedNetwork& net, const n
   wo.lake_series = lake_series_ && o.series_nc.empty();
   wo.units = units_;
   wo.member_column = ensemble;
+  wo.background = true;   // the GeoPackage's rows are written while routing runs (not in a database)
   if (o.write_back) {
     w_->gpkg = io::GpkgResultsWriter::writeBack(net.source.path, kWriteBackPrefix, net.table, plan, axis, wo);
     gpkg_target_ = net.source.path;

@@ -16,7 +16,9 @@
 #include <ctime>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <set>
+#include <algorithm>
 #include <string>
 #include <vector>
 
@@ -158,13 +160,16 @@ struct Network {
   }
 
   template <class Sink>
+  void streamReach(Sink& sink, std::uint32_t r) const {
+    const auto q = series(r);
+    std::vector<double> depth(q.size(), 1.0), velocity(q.size(), 0.5);
+    velocity[1] = kNaN;
+    sink.write(r, q, depth, velocity);
+  }
+
+  template <class Sink>
   void stream(Sink& sink) const {
-    for (std::uint32_t r = 0; r < 3; ++r) {
-      const auto q = series(r);
-      std::vector<double> depth(q.size(), 1.0), velocity(q.size(), 0.5);
-      velocity[1] = kNaN;
-      sink.write(r, q, depth, velocity);
-    }
+    for (std::uint32_t r = 0; r < 3; ++r) streamReach(sink, r);
   }
 };
 
@@ -442,6 +447,160 @@ TEST(GpkgResultsWriter, CallerMistakesAreInternalErrorsAndLeaveNothing) {
   }
   EXPECT_FALSE(fs::exists(out));
   EXPECT_TRUE(listDir(out.parent_path()).empty());
+}
+
+/// Every feature of `layer` by feature id: its fields as text and its
+/// geometry as WKT, as OGR reads them back.
+std::map<GIntBig, std::vector<std::string>> featuresById(OGRLayer& layer) {
+  std::map<GIntBig, std::vector<std::string>> out;
+  layer.ResetReading();
+  for (auto& f : layer) {
+    std::vector<std::string> values;
+    for (int i = 0; i < f->GetFieldCount(); ++i)
+      values.emplace_back(f->IsFieldSetAndNotNull(i) ? f->GetFieldAsString(i) : "NULL");
+    if (const OGRGeometry* g = f->GetGeometryRef()) values.push_back(g->exportToWkt());
+    out[f->GetFID()] = std::move(values);
+  }
+  return out;
+}
+
+/// The rows of `hydrographs` as text, in the order of (reach, time).
+std::multiset<std::vector<std::string>> seriesRows(OGRLayer& layer) {
+  std::multiset<std::vector<std::string>> out;
+  layer.ResetReading();
+  for (auto& f : layer) {
+    std::vector<std::string> values;
+    for (int i = 0; i < f->GetFieldCount(); ++i)
+      values.emplace_back(f->IsFieldSetAndNotNull(i) ? f->GetFieldAsString(i) : "NULL");
+    out.insert(std::move(values));
+  }
+  return out;
+}
+
+// Written on the writer's own thread while routing runs, the tables are
+// those written afterwards: the same feature ids (plan index + 1, what
+// writing in plan order gives), fields and geometries, whatever order the
+// reaches finish in, and whichever summaries came before writeSummaries().
+TEST(GpkgResultsWriter, BackgroundWritingGivesTheSameTablesInAnyOrder) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path plain = dir.file("plain.gpkg");
+  writeGpkg(net, plain);
+  for (const std::vector<std::uint32_t>& finished :
+       std::vector<std::vector<std::uint32_t>>{{2, 0, 1}, {1}, {}}) {
+    SCOPED_TRACE(::testing::PrintToString(finished));
+    const fs::path out = dir.file("background.gpkg");
+    {
+      GpkgWriterOptions options;
+      options.background = true;
+      options.overwrite = true;
+      options.batch_rows = 4;
+      GpkgResultsWriter writer(out, net.table, net.plan, net.axis, options);
+      EXPECT_TRUE(writer.wantsSummaries());
+      for (std::uint32_t r : finished) {
+        net.streamReach(writer, r);
+        writer.summarised(r, net.results.reaches[r]);
+      }
+      for (std::uint32_t r = 0; r < 3; ++r)
+        if (std::find(finished.begin(), finished.end(), r) == finished.end()) net.streamReach(writer, r);
+      writer.writeSummaries(net.results, net.info);
+      writer.commit();
+    }
+    auto a = openVector(plain);
+    auto b = openVector(out);
+    ASSERT_TRUE(a && b);
+    const auto expected = featuresById(*a->GetLayerByName("reaches"));
+    ASSERT_EQ(expected.size(), 3u);
+    EXPECT_EQ(expected.begin()->first, 1);  // plan order from 1
+    EXPECT_EQ(featuresById(*b->GetLayerByName("reaches")), expected);
+    const auto rows = seriesRows(*b->GetLayerByName("hydrographs"));
+    EXPECT_EQ(rows.size(), 15u);
+    EXPECT_EQ(rows, seriesRows(*a->GetLayerByName("hydrographs")));
+    EXPECT_EQ(featuresById(*b->GetLayerByName("nodes")), featuresById(*a->GetLayerByName("nodes")));
+  }
+}
+
+// An ensemble (whose `reaches` rows need every member) does not take
+// summaries while routing runs, even when asked to.
+TEST(GpkgResultsWriter, BackgroundWritingIsForAPlainGeoPackageRunOnly) {
+  fixtures::TempDir dir;
+  const Network net;
+  GpkgWriterOptions options;
+  options.background = true;
+  options.member_column = true;
+  GpkgResultsWriter ensemble(dir.file("e.gpkg"), net.table, net.plan, net.axis, options);
+  EXPECT_FALSE(ensemble.wantsSummaries());
+  options.background = false;
+  options.member_column = false;
+  GpkgResultsWriter plain(dir.file("p.gpkg"), net.table, net.plan, net.axis, options);
+  EXPECT_FALSE(plain.wantsSummaries());
+  // A fan-out asks on behalf of its sinks.
+  io::SeriesFanOut none({&ensemble, &plain});
+  EXPECT_FALSE(none.wantsSummaries());
+  options.background = true;
+  GpkgResultsWriter background(dir.file("b.gpkg"), net.table, net.plan, net.axis, options);
+  io::SeriesFanOut some({&plain, &background});
+  EXPECT_TRUE(some.wantsSummaries());
+}
+
+// A run abandoned while the writing thread has rows queued leaves nothing.
+TEST(GpkgResultsWriter, BackgroundWritingAbandonedLeavesNothing) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  {
+    GpkgWriterOptions options;
+    options.background = true;
+    GpkgResultsWriter writer(out, net.table, net.plan, net.axis, options);
+    for (int k = 0; k < 200; ++k) net.stream(writer);
+    writer.summarised(1, net.results.reaches[1]);
+  }
+  EXPECT_FALSE(fs::exists(out));
+  EXPECT_TRUE(listDir(out.parent_path()).empty());
+}
+
+// A write that fails on the writing thread (here the file-size limit,
+// POSIX setrlimit RLIMIT_FSIZE, in a child process so that the limit does
+// not reach the other tests) stops the run with the file's name and the
+// system's reason, at the next series handed over or at writeSummaries(),
+// and leaves nothing.
+TEST(GpkgResultsWriter, BackgroundWriteFailureReachesTheRun) {
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  const fs::path message = dir.file("message.txt");
+  const pid_t child = ::fork();
+  ASSERT_GE(child, 0);
+  if (child == 0) {
+    ::signal(SIGXFSZ, SIG_IGN);
+    std::string what = "no error";
+    try {
+      GpkgWriterOptions options;
+      options.background = true;
+      options.batch_rows = 100;
+      GpkgResultsWriter writer(out, net.table, net.plan, net.axis, options);
+      const rlimit limit{2 << 20, 2 << 20};
+      ::setrlimit(RLIMIT_FSIZE, &limit);
+      for (int k = 0; k < 20000; ++k) net.stream(writer);  // 60,000 series rows: beyond 2 MiB
+      writer.writeSummaries(net.results, net.info);
+      writer.commit();
+    } catch (const std::exception& e) {
+      what = e.what();
+    }
+    const rlimit none{RLIM_INFINITY, RLIM_INFINITY};
+    ::setrlimit(RLIMIT_FSIZE, &none);
+    std::ofstream(message) << what;
+    ::_exit(0);
+  }
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  std::ifstream in(message);
+  std::string what((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  EXPECT_NE(what.find(out.string()), std::string::npos) << what;
+  EXPECT_EQ(what.find("no error"), std::string::npos) << what;
+  EXPECT_FALSE(fs::exists(out));
+  for (const auto& e : fs::directory_iterator(dir.path()))
+    if (e.path().filename() != "message.txt") ADD_FAILURE() << "left behind: " << e.path();
 }
 
 /// A GeoPackage holding the user's own network layer, named `reaches`.

@@ -125,6 +125,16 @@ struct GpkgWriterOptions {
   /// An ensemble run: `hydrographs` starts with a `member` column, set by
   /// setMember() before each member's series.
   bool member_column = false;
+  /// Write the `hydrographs` rows and the `reaches` rows on a thread of the
+  /// writer's own while routing runs, fed through a bounded queue (64 MiB of
+  /// series at most; the router's threads wait when it is full): each
+  /// series as it comes, each reach's row as soon as its summary is final
+  /// (summarised()), with the feature id it would have had written after
+  /// routing (plan index + 1), so the tables' contents do not depend on the
+  /// order reaches finish in. A GeoPackage only (a new file or a
+  /// write-back): a database, and an ensemble (`member_column`), write as
+  /// without it.
+  bool background = false;
 };
 
 /// Writes results into a GeoPackage. Use: construct, let the scheduler
@@ -191,6 +201,9 @@ public:
   void write(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
              std::span<const double> velocity_ms) override;
   bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
+  /// With `options.background`: queues reach `reach`'s row of `reaches`.
+  void summarised(std::uint32_t reach, const routing::ReachSummary& summary) override;
+  bool wantsSummaries() const override { return background_ != nullptr; }
 
   /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`; with
   /// `ensemble`, `reaches` gains the members' percentile fields and the
@@ -242,6 +255,20 @@ private:
     return schema_.empty() ? prefix_ + base : schema_ + "." + prefix_ + base;
   }
   [[noreturn]] void fail(const std::string& what) const;
+  /// The rows of one series in `hydrographs`.
+  void writeSeriesRows(std::uint32_t reach, std::span<const double> q_m3s, std::span<const double> depth_m,
+                       std::span<const double> velocity_ms);
+  /// Creates `reaches` (with the ensemble's fields when `ensemble` is given).
+  void createReachesLayer(const EnsembleOutput* ensemble);
+  /// The row of plan reach `i` in `reaches`.
+  void writeReachRow(std::size_t i, const routing::ReachSummary& summary, const EnsembleOutput* ensemble);
+  /// options.background: the writing thread, its queue and how it ended.
+  struct Background;
+  void startBackground();
+  void runBackground();
+  /// Lets the writing thread finish what is queued (`abandon`: drop it)
+  /// and joins it; without `abandon`, rethrows what stopped it.
+  void stopBackground(bool abandon);
   int timeOffsetMin(int run_offset_min) const { return options_.local_offset_times ? run_offset_min : 0; }
 
   std::filesystem::path target_;    ///< what the user named
@@ -258,6 +285,10 @@ private:
   OGRLayer* series_layer_ = nullptr;
   OGRLayer* lake_series_layer_ = nullptr;
   std::unique_ptr<OGRFeature> series_feature_;   ///< reused for every row
+  OGRLayer* reaches_layer_ = nullptr;
+  std::unique_ptr<OGRFeature> reach_feature_;    ///< reused for every row of `reaches`
+  std::vector<bool> reach_written_;              ///< per plan reach: its row is in `reaches`
+  std::unique_ptr<Background> background_;       ///< null: rows are written by the calling thread
   std::size_t rows_in_transaction_ = 0;
   std::size_t hydrograph_rows_ = 0;
   bool summaries_written_ = false;
@@ -345,6 +376,15 @@ public:
   bool wants(std::uint32_t reach) const override {
     for (auto* sink : sinks_)
       if (sink && sink->wants(reach)) return true;
+    return false;
+  }
+  void summarised(std::uint32_t reach, const routing::ReachSummary& summary) override {
+    for (auto* sink : sinks_)
+      if (sink && sink->wantsSummaries()) sink->summarised(reach, summary);
+  }
+  bool wantsSummaries() const override {
+    for (auto* sink : sinks_)
+      if (sink && sink->wantsSummaries()) return true;
     return false;
   }
 

@@ -184,6 +184,12 @@ public:
   /// False when write() would ignore `reach`: the router then neither
   /// computes the reach's depth and velocity series nor calls write().
   virtual bool wants(std::uint32_t /*reach*/) const { return true; }
+  /// Receives reach `reach`'s summary as soon as it is final (only when
+  /// wantsSummaries() says so; same threading as write()), so that a sink
+  /// can write it while the rest of the network is routed. NetworkResults
+  /// holds every summary at the end either way.
+  virtual void summarised(std::uint32_t /*reach*/, const ReachSummary& /*summary*/) {}
+  virtual bool wantsSummaries() const { return false; }
 };
 
 struct NetworkResults {
