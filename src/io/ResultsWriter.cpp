@@ -109,13 +109,17 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
 constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info",
                                    "lakes", "lake_series", "gauges", "gauge_series", kMemberReachesTable};
 
-/// GDAL 3.6 builds the R-tree of a large layer in a background thread;
-/// measured on the 100,000-reach benchmark network (2 cores, the router's
-/// threads idle by then) that made writing 4.4 s slower than building it in
-/// the writing thread, and no faster at 1,000,000. Thread-local, and only
-/// when the user has not chosen.
-CPLConfigOptionSetter spatialIndexInThisThread() {
-  return CPLConfigOptionSetter("OGR_GPKG_ALLOW_THREADED_RTREE", "NO", /*bSetOnlyIfUndefined=*/true);
+/// GDAL 3.6 can build the R-tree of a large layer in a thread of its own
+/// while the rows come in. With the rows written after routing (the
+/// router's threads idle by then) that was measured 4.4 s slower than
+/// building it in the writing thread on the 100,000-reach benchmark network
+/// (2 cores), and no faster at 1,000,000: `allowed` false. With the rows
+/// written while routing runs (GpkgWriterOptions::background) the R-tree is
+/// built then too, and the writing stage after routing at 1,000,000 reaches
+/// fell from 26.9 s to 13.2 s (docs/performance.md): `allowed` true.
+/// Thread-local, and only when the user has not chosen.
+CPLConfigOptionSetter spatialIndexThreads(bool allowed) {
+  return CPLConfigOptionSetter("OGR_GPKG_ALLOW_THREADED_RTREE", allowed ? "YES" : "NO", /*bSetOnlyIfUndefined=*/true);
 }
 
 }  // namespace
@@ -126,10 +130,12 @@ CPLConfigOptionSetter spatialIndexInThisThread() {
 /// growing with the network.
 struct GpkgResultsWriter::Background {
   struct Job {
+    enum class Kind { Series, Reach, Node } kind = Kind::Series;
     std::uint32_t reach = 0;
-    bool summary = false;              ///< a row of `reaches`; else a series for `hydrographs`
     routing::ReachSummary reach_summary;
     std::vector<double> q, depth, velocity;
+    std::size_t position = 0, first_branch = 0;   ///< a node's, NetworkRouter's nodeFinished()
+    routing::NodeSummary node;
     std::size_t bytes() const { return sizeof(Job) + sizeof(double) * (q.size() + depth.size() + velocity.size()); }
   };
   static constexpr std::size_t kCapacityBytes = std::size_t{64} << 20;
@@ -368,7 +374,7 @@ void GpkgResultsWriter::startBackground() {
 }
 
 void GpkgResultsWriter::runBackground() {
-  const auto in_this_thread = spatialIndexInThisThread();
+  const auto in_this_thread = spatialIndexThreads(true);
   Background& b = *background_;
   try {
     for (;;) {
@@ -382,8 +388,16 @@ void GpkgResultsWriter::runBackground() {
         b.held -= job.bytes();
       }
       b.room.notify_all();
-      if (job.summary) writeReachRow(job.reach, job.reach_summary, nullptr);
-      else writeSeriesRows(job.reach, job.q, job.depth, job.velocity);
+      switch (job.kind) {
+        case Background::Job::Kind::Series: writeSeriesRows(job.reach, job.q, job.depth, job.velocity); break;
+        case Background::Job::Kind::Reach: writeReachRow(job.reach, job.reach_summary, nullptr); break;
+        case Background::Job::Kind::Node:
+          writeNodeRow(job.position, job.node);
+          writeBranchRows(job.first_branch, job.node);
+          if (node_written_.size() <= job.position) node_written_.resize(job.position + 1, false);
+          node_written_[job.position] = true;
+          break;
+      }
     }
   } catch (...) {
     std::lock_guard lock(b.mutex);
@@ -483,10 +497,26 @@ void GpkgResultsWriter::summarised(std::uint32_t reach, const routing::ReachSumm
   if (!background_) return;
   REACHWISE_ASSERT(reach < plan_.size());
   Background::Job job;
+  job.kind = Background::Job::Kind::Reach;
   job.reach = reach;
-  job.summary = true;
   job.reach_summary = summary;
   background_->push(std::move(job));
+}
+
+void GpkgResultsWriter::nodeFinished(std::size_t position, std::size_t first_branch, const routing::NodeSummary& node) {
+  if (!background_) return;
+  Background::Job job;
+  job.kind = Background::Job::Kind::Node;
+  job.position = position;
+  job.first_branch = first_branch;
+  job.node = node;
+  background_->push(std::move(job));
+}
+
+void GpkgResultsWriter::insertAt(OGRLayer& layer, OGRFeature& row, std::size_t fid) {
+  if (!background_) return insert(target_, layer, row);
+  row.SetFID(static_cast<GIntBig>(fid));
+  if (layer.CreateFeature(&row) != OGRERR_NONE) failAt(target_, "cannot write a row", layer.GetName());
 }
 
 void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const double> q_m3s,
@@ -540,27 +570,57 @@ void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary
   } else {
     f.SetGeometryDirectly(nullptr);
   }
-  if (background_) {
-    // Rows come in the order reaches finish; the id is the one plan order gives.
-    f.SetFID(static_cast<GIntBig>(i) + 1);
-    if (reaches_layer_->CreateFeature(&f) != OGRERR_NONE)
-      failAt(target_, "cannot write the row of reach " + plan_.reach_id[i], reaches_layer_->GetName());
-  } else {
-    insert(target_, *reaches_layer_, f);
-  }
+  insertAt(*reaches_layer_, f, i + 1);   // the id plan order gives
   reach_written_[i] = true;
+}
+
+void GpkgResultsWriter::createNodeLayers() {
+  const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
+  nodes_layer_ = createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint,
+                             results::inUnits(results::nodeColumns(), options_.units), schema_);
+  branches_layer_ = createTable(target_, *ds_, layerName("confluence_branches"), nullptr, wkbNone,
+                                results::inUnits(results::branchColumns(), options_.units), schema_);
+  node_feature_ = std::make_unique<OGRFeature>(nodes_layer_->GetLayerDefn());
+  branch_feature_ = std::make_unique<OGRFeature>(branches_layer_->GetLayerDefn());
+}
+
+void GpkgResultsWriter::writeNodeRow(std::size_t position, const routing::NodeSummary& node) {
+  if (!nodes_layer_) createNodeLayers();
+  OGRFeature& f = *node_feature_;
+  auto row = results::nodeRow(plan_, node);
+  results::convertRow(row, results::nodeColumns(), options_.units);
+  const int offset = timeOffsetMin(axis_.utc_offset_min);
+  for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+  if (std::isfinite(node.x) && std::isfinite(node.y)) {
+    OGRPoint point(node.x, node.y);
+    f.SetGeometry(&point);
+  } else {
+    f.SetGeometryDirectly(nullptr);
+  }
+  insertAt(*nodes_layer_, f, position + 1);
+}
+
+void GpkgResultsWriter::writeBranchRows(std::size_t first_branch, const routing::NodeSummary& node) {
+  if (!nodes_layer_) createNodeLayers();
+  OGRFeature& b = *branch_feature_;
+  const int offset = timeOffsetMin(axis_.utc_offset_min);
+  for (const auto& branch : node.branches) {
+    auto row = results::branchRow(plan_, node, branch);
+    results::convertRow(row, results::branchColumns(), options_.units);
+    for (std::size_t c = 0; c < row.size(); ++c) setValue(b, static_cast<int>(c), row[c], offset);
+    insertAt(*branches_layer_, b, ++first_branch);
+  }
 }
 
 void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, const RunInfo& info,
                                        const EnsembleOutput* ensemble) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexInThisThread();
+  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_ && !summaries_written_);
   REACHWISE_ASSERT(results.reaches.size() == plan_.size());
   REACHWISE_ASSERT(plan_.record.size() == plan_.size());
   REACHWISE_ASSERT(!(ensemble && reaches_layer_));   // the writing thread never has ensemble fields
   const int offset = timeOffsetMin(results.axis.utc_offset_min);
-  const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   const units::System u = options_.units;
 
   // The rows the writing thread has not written (all of them without it).
@@ -568,36 +628,18 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
   for (std::size_t i = 0; i < plan_.size(); ++i)
     if (!reach_written_[i]) writeReachRow(i, results.reaches[i], ensemble);
 
-  OGRLayer* nodes = createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint,
-                                results::inUnits(results::nodeColumns(), u), schema_);
-  OGRLayer* branches = createTable(target_, *ds_, layerName("confluence_branches"), nullptr, wkbNone,
-                                   results::inUnits(results::branchColumns(), u), schema_);
-  {
-    // One table after the other: a database loads each with one COPY,
-    // which writing them in turn would end and restart at every node
-    // (measured: 51,000 COPY statements for 100,000 reaches).
-    OGRFeature f(nodes->GetLayerDefn());
-    for (const auto& node : results.nodes) {
-      auto row = results::nodeRow(plan_, node);
-      results::convertRow(row, results::nodeColumns(), u);
-      for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
-      if (std::isfinite(node.x) && std::isfinite(node.y)) {
-        OGRPoint point(node.x, node.y);
-        f.SetGeometry(&point);
-      } else {
-        f.SetGeometryDirectly(nullptr);
-      }
-      insert(target_, *nodes, f);
-    }
-    OGRFeature b(branches->GetLayerDefn());
-    for (const auto& node : results.nodes) {
-      for (const auto& branch : node.branches) {
-        auto brow = results::branchRow(plan_, node, branch);
-        results::convertRow(brow, results::branchColumns(), u);
-        for (std::size_t c = 0; c < brow.size(); ++c) setValue(b, static_cast<int>(c), brow[c], offset);
-        insert(target_, *branches, b);
-      }
-    }
+  // The nodes the writing thread has not written (all of them without it),
+  // one table after the other: a database loads each with one COPY, which
+  // writing them in turn would end and restart at every node (measured:
+  // 51,000 COPY statements for 100,000 reaches).
+  if (!nodes_layer_) createNodeLayers();
+  node_written_.resize(results.nodes.size(), false);
+  for (std::size_t p = 0; p < results.nodes.size(); ++p)
+    if (!node_written_[p]) writeNodeRow(p, results.nodes[p]);
+  std::size_t branches_before = 0;
+  for (std::size_t p = 0; p < results.nodes.size(); ++p) {
+    if (!node_written_[p]) writeBranchRows(branches_before, results.nodes[p]);
+    branches_before += results.nodes[p].branches.size();
   }
 
   if (ensemble) {
@@ -629,7 +671,7 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
 
 void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexInThisThread();
+  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_ && !lakes_written_);
   REACHWISE_ASSERT(options_.lakes && lake_series_layer_);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
@@ -689,7 +731,7 @@ void results::writeRowsLayer(const fs::path& file, GDALDataset& ds, const std::s
 
 void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexInThisThread();
+  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
@@ -771,7 +813,7 @@ void GpkgResultsWriter::describeTables() {
 
 void GpkgResultsWriter::commit(OutputCommit* into) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexInThisThread();
+  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);

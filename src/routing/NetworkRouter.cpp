@@ -114,6 +114,8 @@ public:
     if (options.distribution && options.distribution->ranks && options.distribution->ranks->size() > 1)
       setUpRanks(*options.distribution);
     tell_summaries_ = sink_ && !dist_ && sink_->wantsSummaries();
+    // Lakes name the nodes they sit on after routing (run::markLakeNodes).
+    if (tell_summaries_ && options.lakes.empty()) node_layout_ = nodeLayout();
   }
 
   NetworkResults run() {
@@ -514,6 +516,7 @@ private:
       std::lock_guard lock(sink_mutex_);
       if (send) sink_->write(i, *out, ws.depth, ws.velocity);
       if (tell_summaries_) sink_->summarised(i, results_.reaches[i]);
+      if (!node_layout_.empty()) tellNodes(i);
     }
     if (dist_) {
       shipOutflow(i, *out);
@@ -714,6 +717,16 @@ private:
   /// A node at the bottom of reach i (`prefix` + its id), with its outflow peak.
   NodeSummary bottomNode(std::uint32_t i, const char* prefix, NodeKind kind) const;
   NodeSummary bifurcationNode(std::uint32_t i) const;
+  /// Where reach i's nodes stand in NetworkResults::nodes (kNone: it has
+  /// no such node), and the confluence branches listed before its top node.
+  struct ReachNodes {
+    static constexpr std::uint32_t kNone = ~0u;
+    std::uint32_t top = kNone, bifurcation = kNone, outlet = kNone;
+    std::uint32_t top_branches_before = 0, bifurcation_branches_before = 0, outlet_branches_before = 0;
+  };
+  std::vector<ReachNodes> nodeLayout() const;
+  /// Hands reach i's nodes, final once it is routed, to the sink.
+  void tellNodes(std::uint32_t i);
   void collectNodes();
   void summariseWarnings();
   void warnAboutHandover();
@@ -726,6 +739,7 @@ private:
   /// The sink takes each summary as it is final (routing in one process only;
   /// among ranks it has them all at the end).
   bool tell_summaries_ = false;
+  std::vector<ReachNodes> node_layout_;  ///< with tell_summaries_ and no lakes: the sink takes nodes too
   std::size_t n_;
   std::unique_ptr<std::atomic<std::uint32_t>[]> pending_, consumers_;
   std::vector<std::unique_ptr<std::vector<double>>> outflow_;
@@ -837,19 +851,54 @@ NodeSummary Scheduler::bifurcationNode(std::uint32_t i) const {
   return node;
 }
 
-void Scheduler::collectNodes() {
+std::vector<Scheduler::ReachNodes> Scheduler::nodeLayout() const {
   // A node at the top of every reach (headwater, confluence, side-arm
   // return, junction) except a branch of a bifurcation, one at the bottom of
-  // every reach that splits (the bifurcation, listing its branches), and one
-  // below every outlet.
+  // every reach that splits (the bifurcation, listing its branches), in
+  // plan order, then one below every outlet.
+  std::vector<ReachNodes> layout(n_);
+  std::uint32_t position = 0, branches = 0;
   for (std::uint32_t i = 0; i < n_; ++i) {
     const std::uint32_t ups = plan_.up_offset[i + 1] - plan_.up_offset[i];
     const bool branch = ups == 1 && bifurcates(plan_.up_reach[plan_.up_offset[i]]);
-    if (!branch) results_.nodes.push_back(topNode(i));
-    if (bifurcates(i)) results_.nodes.push_back(bifurcationNode(i));
+    if (!branch) {
+      layout[i].top = position++;
+      layout[i].top_branches_before = branches;
+      if (ups >= 2) branches += ups;  // topNode(): a confluence lists every reach flowing in
+    }
+    if (bifurcates(i)) {
+      layout[i].bifurcation = position++;
+      layout[i].bifurcation_branches_before = branches;
+    }
   }
+  for (std::uint32_t i = 0; i < n_; ++i)
+    if (plan_.isOutlet(i)) {
+      layout[i].outlet = position++;
+      layout[i].outlet_branches_before = branches;
+    }
+  return layout;
+}
+
+void Scheduler::tellNodes(std::uint32_t i) {
+  const ReachNodes& at = node_layout_[i];
+  if (at.top != ReachNodes::kNone) sink_->nodeFinished(at.top, at.top_branches_before, topNode(i));
+  if (at.bifurcation != ReachNodes::kNone)
+    sink_->nodeFinished(at.bifurcation, at.bifurcation_branches_before, bifurcationNode(i));
+  if (at.outlet != ReachNodes::kNone)
+    sink_->nodeFinished(at.outlet, at.outlet_branches_before, bottomNode(i, "O:", NodeKind::Outlet));
+}
+
+void Scheduler::collectNodes() {
+  const std::vector<ReachNodes> layout = node_layout_.empty() ? nodeLayout() : std::move(node_layout_);
+  std::size_t count = 0;
+  for (const ReachNodes& at : layout)
+    count += (at.top != ReachNodes::kNone) + (at.bifurcation != ReachNodes::kNone) + (at.outlet != ReachNodes::kNone);
+  results_.nodes.resize(count);
   for (std::uint32_t i = 0; i < n_; ++i) {
-    if (plan_.isOutlet(i)) results_.nodes.push_back(bottomNode(i, "O:", NodeKind::Outlet));
+    const ReachNodes& at = layout[i];
+    if (at.top != ReachNodes::kNone) results_.nodes[at.top] = topNode(i);
+    if (at.bifurcation != ReachNodes::kNone) results_.nodes[at.bifurcation] = bifurcationNode(i);
+    if (at.outlet != ReachNodes::kNone) results_.nodes[at.outlet] = bottomNode(i, "O:", NodeKind::Outlet);
   }
 }
 

@@ -478,9 +478,10 @@ std::multiset<std::vector<std::string>> seriesRows(OGRLayer& layer) {
 }
 
 // Written on the writer's own thread while routing runs, the tables are
-// those written afterwards: the same feature ids (plan index + 1, what
-// writing in plan order gives), fields and geometries, whatever order the
-// reaches finish in, and whichever summaries came before writeSummaries().
+// those written afterwards: the same feature ids (plan index + 1 for
+// reaches, the position in NetworkResults::nodes + 1 for nodes, what
+// writing in order gives), fields and geometries, whatever order the
+// reaches and nodes finish in, and whichever came before writeSummaries().
 TEST(GpkgResultsWriter, BackgroundWritingGivesTheSameTablesInAnyOrder) {
   fixtures::TempDir dir;
   const Network net;
@@ -501,6 +502,13 @@ TEST(GpkgResultsWriter, BackgroundWritingGivesTheSameTablesInAnyOrder) {
         net.streamReach(writer, r);
         writer.summarised(r, net.results.reaches[r]);
       }
+      // Nodes as they become final, last first; n_y, the confluence, lists two branches.
+      if (finished.size() == 3) {
+        const auto& nodes = net.results.nodes;
+        writer.nodeFinished(3, 2, nodes[3]);
+        writer.nodeFinished(2, 0, nodes[2]);
+        writer.nodeFinished(0, 0, nodes[0]);
+      }
       for (std::uint32_t r = 0; r < 3; ++r)
         if (std::find(finished.begin(), finished.end(), r) == finished.end()) net.streamReach(writer, r);
       writer.writeSummaries(net.results, net.info);
@@ -517,6 +525,9 @@ TEST(GpkgResultsWriter, BackgroundWritingGivesTheSameTablesInAnyOrder) {
     EXPECT_EQ(rows.size(), 15u);
     EXPECT_EQ(rows, seriesRows(*a->GetLayerByName("hydrographs")));
     EXPECT_EQ(featuresById(*b->GetLayerByName("nodes")), featuresById(*a->GetLayerByName("nodes")));
+    const auto branches = featuresById(*a->GetLayerByName("confluence_branches"));
+    ASSERT_EQ(branches.size(), 2u);
+    EXPECT_EQ(featuresById(*b->GetLayerByName("confluence_branches")), branches);
   }
 }
 

@@ -137,7 +137,26 @@ TEST(Route, TheGeoPackageIsTheSameOnOneAndTwoThreads) {
     EXPECT_EQ(reaches.at(i + 1).substr(0, s.plan.reach_id[i].size() + 1), s.plan.reach_id[i] + "|");
   EXPECT_EQ(table(tmp.file("two.gpkg"), "reaches"), reaches);
   EXPECT_EQ(hydrographs(tmp.file("two.gpkg")), hydrographs(tmp.file("one.gpkg")));
-  EXPECT_EQ(table(tmp.file("two.gpkg"), "nodes"), table(tmp.file("one.gpkg"), "nodes"));
+  const auto nodes = table(tmp.file("one.gpkg"), "nodes");
+  ASSERT_EQ(nodes.size(), s.results.nodes.size());
+  for (std::size_t p = 0; p < s.results.nodes.size(); ++p)  // node_id first: position p has id p + 1
+    EXPECT_EQ(nodes.at(static_cast<GIntBig>(p) + 1).substr(0, s.results.nodes[p].node_id.size() + 1),
+              s.results.nodes[p].node_id + "|");
+  EXPECT_EQ(table(tmp.file("two.gpkg"), "nodes"), nodes);
+  // Branch rows numbered 1.. in node order, the same on both.
+  const auto branches = table(tmp.file("one.gpkg"), "confluence_branches");
+  std::size_t count = 0;
+  for (const auto& node : s.results.nodes)
+    for (const auto& branch : node.branches) {
+      ++count;
+      ASSERT_TRUE(branches.count(static_cast<GIntBig>(count))) << count;
+      EXPECT_EQ(branches.at(static_cast<GIntBig>(count)).substr(0, node.node_id.size() + 1), node.node_id + "|");
+      EXPECT_NE(branches.at(static_cast<GIntBig>(count)).find("|" + s.plan.reach_id[branch.reach] + "|"),
+                std::string::npos);
+    }
+  EXPECT_EQ(branches.size(), count);
+  EXPECT_GT(count, 10u);  // the sample's confluences
+  EXPECT_EQ(table(tmp.file("two.gpkg"), "confluence_branches"), branches);
 }
 
 TEST(Route, NothingWrittenWhenNoOutputIsAskedFor) {

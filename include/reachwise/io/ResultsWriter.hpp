@@ -203,6 +203,8 @@ public:
   bool wants(std::uint32_t reach) const override { return reach < selected_.size() && selected_[reach]; }
   /// With `options.background`: queues reach `reach`'s row of `reaches`.
   void summarised(std::uint32_t reach, const routing::ReachSummary& summary) override;
+  /// With `options.background`: queues the node's row of `nodes` and its rows of `confluence_branches`.
+  void nodeFinished(std::size_t position, std::size_t first_branch, const routing::NodeSummary& node) override;
   bool wantsSummaries() const override { return background_ != nullptr; }
 
   /// Writes `reaches`, `nodes`, `confluence_branches` and `run_info`; with
@@ -262,6 +264,15 @@ private:
   void createReachesLayer(const EnsembleOutput* ensemble);
   /// The row of plan reach `i` in `reaches`.
   void writeReachRow(std::size_t i, const routing::ReachSummary& summary, const EnsembleOutput* ensemble);
+  /// Creates `nodes` and `confluence_branches`.
+  void createNodeLayers();
+  /// The row of the node at `position` of NetworkResults::nodes in `nodes`.
+  void writeNodeRow(std::size_t position, const routing::NodeSummary& node);
+  /// The node's rows of `confluence_branches`, after `first_branch` rows of the nodes before it.
+  void writeBranchRows(std::size_t first_branch, const routing::NodeSummary& node);
+  /// Adds `row` to `layer` with feature id `fid` (background writing: rows
+  /// come in the order reaches finish), else with the next id.
+  void insertAt(OGRLayer& layer, OGRFeature& row, std::size_t fid);
   /// options.background: the writing thread, its queue and how it ended.
   struct Background;
   void startBackground();
@@ -288,6 +299,10 @@ private:
   OGRLayer* reaches_layer_ = nullptr;
   std::unique_ptr<OGRFeature> reach_feature_;    ///< reused for every row of `reaches`
   std::vector<bool> reach_written_;              ///< per plan reach: its row is in `reaches`
+  OGRLayer* nodes_layer_ = nullptr;
+  OGRLayer* branches_layer_ = nullptr;
+  std::unique_ptr<OGRFeature> node_feature_, branch_feature_;
+  std::vector<bool> node_written_;               ///< per node position: written by the writing thread
   std::unique_ptr<Background> background_;       ///< null: rows are written by the calling thread
   std::size_t rows_in_transaction_ = 0;
   std::size_t hydrograph_rows_ = 0;
@@ -381,6 +396,10 @@ public:
   void summarised(std::uint32_t reach, const routing::ReachSummary& summary) override {
     for (auto* sink : sinks_)
       if (sink && sink->wantsSummaries()) sink->summarised(reach, summary);
+  }
+  void nodeFinished(std::size_t position, std::size_t first_branch, const routing::NodeSummary& node) override {
+    for (auto* sink : sinks_)
+      if (sink && sink->wantsSummaries()) sink->nodeFinished(position, first_branch, node);
   }
   bool wantsSummaries() const override {
     for (auto* sink : sinks_)

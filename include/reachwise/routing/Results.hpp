@@ -189,6 +189,11 @@ public:
   /// can write it while the rest of the network is routed. NetworkResults
   /// holds every summary at the end either way.
   virtual void summarised(std::uint32_t /*reach*/, const ReachSummary& /*summary*/) {}
+  /// Receives a node as soon as it is final (with wantsSummaries(), for a
+  /// network without lakes): `position` is its index in
+  /// NetworkResults::nodes, `first_branch` the number of confluence branches
+  /// of the nodes before it there.
+  virtual void nodeFinished(std::size_t /*position*/, std::size_t /*first_branch*/, const NodeSummary& /*node*/) {}
   virtual bool wantsSummaries() const { return false; }
 };
 
