@@ -275,8 +275,10 @@ private:
   void insertAt(OGRLayer& layer, OGRFeature& row, std::size_t fid);
   /// options.background: the writing thread, its queue and how it ended.
   struct Background;
+  struct BackgroundJob;
   void startBackground();
   void runBackground();
+  void writeJob(const BackgroundJob& job);
   /// Lets the writing thread finish what is queued (`abandon`: drop it)
   /// and joins it; without `abandon`, rethrows what stopped it.
   void stopBackground(bool abandon);
