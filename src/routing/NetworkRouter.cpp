@@ -725,6 +725,9 @@ private:
     std::uint32_t top_branches_before = 0, bifurcation_branches_before = 0, outlet_branches_before = 0;
   };
   std::vector<ReachNodes> nodeLayout() const;
+  /// Calls take(position, branches before it, node) for each of reach i's nodes.
+  template <class Take>
+  void nodesOf(std::uint32_t i, const ReachNodes& at, Take&& take) const;
   /// Hands reach i's nodes, final once it is routed, to the sink.
   void tellNodes(std::uint32_t i);
   void collectNodes();
@@ -879,13 +882,17 @@ std::vector<Scheduler::ReachNodes> Scheduler::nodeLayout() const {
   return layout;
 }
 
+template <class Take>
+void Scheduler::nodesOf(std::uint32_t i, const ReachNodes& at, Take&& take) const {
+  if (at.top != ReachNodes::kNone) take(at.top, at.top_branches_before, topNode(i));
+  if (at.bifurcation != ReachNodes::kNone) take(at.bifurcation, at.bifurcation_branches_before, bifurcationNode(i));
+  if (at.outlet != ReachNodes::kNone) take(at.outlet, at.outlet_branches_before, bottomNode(i, "O:", NodeKind::Outlet));
+}
+
 void Scheduler::tellNodes(std::uint32_t i) {
-  const ReachNodes& at = node_layout_[i];
-  if (at.top != ReachNodes::kNone) sink_->nodeFinished(at.top, at.top_branches_before, topNode(i));
-  if (at.bifurcation != ReachNodes::kNone)
-    sink_->nodeFinished(at.bifurcation, at.bifurcation_branches_before, bifurcationNode(i));
-  if (at.outlet != ReachNodes::kNone)
-    sink_->nodeFinished(at.outlet, at.outlet_branches_before, bottomNode(i, "O:", NodeKind::Outlet));
+  nodesOf(i, node_layout_[i], [this](std::size_t position, std::size_t branches_before, const NodeSummary& node) {
+    sink_->nodeFinished(position, branches_before, node);
+  });
 }
 
 void Scheduler::collectNodes() {
@@ -894,12 +901,10 @@ void Scheduler::collectNodes() {
   for (const ReachNodes& at : layout)
     count += (at.top != ReachNodes::kNone) + (at.bifurcation != ReachNodes::kNone) + (at.outlet != ReachNodes::kNone);
   results_.nodes.resize(count);
-  for (std::uint32_t i = 0; i < n_; ++i) {
-    const ReachNodes& at = layout[i];
-    if (at.top != ReachNodes::kNone) results_.nodes[at.top] = topNode(i);
-    if (at.bifurcation != ReachNodes::kNone) results_.nodes[at.bifurcation] = bifurcationNode(i);
-    if (at.outlet != ReachNodes::kNone) results_.nodes[at.outlet] = bottomNode(i, "O:", NodeKind::Outlet);
-  }
+  for (std::uint32_t i = 0; i < n_; ++i)
+    nodesOf(i, layout[i], [this](std::size_t position, std::size_t, NodeSummary&& node) {
+      results_.nodes[position] = std::move(node);
+    });
 }
 
 void Scheduler::summariseWarnings() {
