@@ -116,7 +116,7 @@ constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "h
 /// (2 cores), and no faster at 1,000,000: `allowed` false. With the rows
 /// written while routing runs (GpkgWriterOptions::background) the R-tree is
 /// built then too, and the writing stage after routing at 1,000,000 reaches
-/// fell from 26.9 s to 13.2 s (docs/performance.md): `allowed` true.
+/// fell from 31-38 s to 11-13 s (docs/performance.md): `allowed` true.
 /// Thread-local, and only when the user has not chosen.
 CPLConfigOptionSetter spatialIndexThreads(bool allowed) {
   return CPLConfigOptionSetter("OGR_GPKG_ALLOW_THREADED_RTREE", allowed ? "YES" : "NO", /*bSetOnlyIfUndefined=*/true);
@@ -140,7 +140,6 @@ struct GpkgResultsWriter::BackgroundJob {
 /// a writer slower than routing holds the router back instead of memory
 /// growing with the network.
 struct GpkgResultsWriter::Background {
-  using Job = BackgroundJob;
   static constexpr std::size_t kCapacityBytes = std::size_t{64} << 20;
   /// The writing thread is woken for this many jobs or bytes at a time:
   /// waking it for each (three jobs per reach at 1,000,000 reaches) cost
@@ -150,7 +149,7 @@ struct GpkgResultsWriter::Background {
 
   /// Waits for room (always taken when nothing is held), then queues
   /// `job`; rethrows what stopped the writing thread.
-  void push(Job&& job) {
+  void push(BackgroundJob&& job) {
     const std::size_t bytes = job.bytes();
     std::unique_lock lock(mutex);
     room.wait(lock, [&] { return error || held == 0 || held + bytes <= kCapacityBytes; });
@@ -164,7 +163,7 @@ struct GpkgResultsWriter::Background {
 
   std::mutex mutex;
   std::condition_variable ready, room;
-  std::deque<Job> jobs;
+  std::deque<BackgroundJob> jobs;
   std::size_t held = 0;           ///< bytes queued or being written
   std::size_t queued_bytes = 0;   ///< bytes queued
   bool closing = false;   ///< nothing more comes: write what is queued, then stop
@@ -504,7 +503,7 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
   REACHWISE_ASSERT(depth_m.empty() || depth_m.size() == axis_.steps);
   REACHWISE_ASSERT(velocity_ms.empty() || velocity_ms.size() == axis_.steps);
   if (background_) {
-    Background::Job job;
+    BackgroundJob job;
     job.reach = reach;
     job.q.assign(q_m3s.begin(), q_m3s.end());
     job.depth.assign(depth_m.begin(), depth_m.end());
@@ -518,7 +517,7 @@ void GpkgResultsWriter::write(std::uint32_t reach, std::span<const double> q_m3s
 void GpkgResultsWriter::summarised(std::uint32_t reach, const routing::ReachSummary& summary) {
   if (!background_) return;
   REACHWISE_ASSERT(reach < plan_.size());
-  Background::Job job;
+  BackgroundJob job;
   job.kind = BackgroundJob::Kind::Reach;
   job.reach = reach;
   job.reach_summary = summary;
@@ -527,7 +526,7 @@ void GpkgResultsWriter::summarised(std::uint32_t reach, const routing::ReachSumm
 
 void GpkgResultsWriter::nodeFinished(std::size_t position, std::size_t first_branch, const routing::NodeSummary& node) {
   if (!background_) return;
-  Background::Job job;
+  BackgroundJob job;
   job.kind = BackgroundJob::Kind::Node;
   job.position = position;
   job.first_branch = first_branch;
