@@ -93,9 +93,15 @@ OGRLayer* createTable(const fs::path& file, GDALDataset& ds, const std::string& 
   return layer;
 }
 
-void insert(const fs::path& file, OGRLayer& layer, OGRFeature& f) {
-  f.SetFID(OGRNullFID);
+/// Adds `f` to `layer` as feature `fid` (OGRNullFID: the next id).
+void insert(const fs::path& file, OGRLayer& layer, OGRFeature& f, GIntBig fid = OGRNullFID) {
+  f.SetFID(fid);
   if (layer.CreateFeature(&f) != OGRERR_NONE) failAt(file, "cannot write a row", layer.GetName());
+}
+
+/// The fields of `reaches`, with an ensemble's when `ensemble` is given.
+const std::vector<Column>& reachColumnsFor(const EnsembleOutput* ensemble) {
+  return ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
 }
 
 OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
@@ -356,9 +362,9 @@ GpkgResultsWriter::GpkgResultsWriter(WriteBackTag, fs::path input, std::string s
 
 GpkgResultsWriter::~GpkgResultsWriter() {
   try {
-    stopBackground(/*abandon=*/true);
+    stopBackground(/*abandon=*/true);  // drops what is queued: the file is removed below
   } catch (...) {
-    // Only a failed run abandons the queue; its own error is the one reported.
+    // A destructor must not throw (joining the thread could, in principle).
   }
   if (committed_) return;
   try {
@@ -535,9 +541,7 @@ void GpkgResultsWriter::nodeFinished(std::size_t position, std::size_t first_bra
 }
 
 void GpkgResultsWriter::insertAt(OGRLayer& layer, OGRFeature& row, std::size_t fid) {
-  if (!background_) return insert(target_, layer, row);
-  row.SetFID(static_cast<GIntBig>(fid));
-  if (layer.CreateFeature(&row) != OGRERR_NONE) failAt(target_, "cannot write a row", layer.GetName());
+  insert(target_, layer, row, background_ ? static_cast<GIntBig>(fid) : OGRNullFID);
 }
 
 void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const double> q_m3s,
@@ -562,10 +566,9 @@ void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const dou
 }
 
 void GpkgResultsWriter::createReachesLayer(const EnsembleOutput* ensemble) {
-  const std::vector<Column>& columns = ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   reaches_layer_ = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
-                               results::inUnits(columns, options_.units), schema_);
+                               results::inUnits(reachColumnsFor(ensemble), options_.units), schema_);
   reach_feature_ = std::make_unique<OGRFeature>(reaches_layer_->GetLayerDefn());
   reach_written_.assign(plan_.size(), false);
 }
@@ -574,14 +577,13 @@ void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary
                                       const EnsembleOutput* ensemble) {
   if (!reaches_layer_) createReachesLayer(ensemble);
   REACHWISE_ASSERT(i < plan_.size() && !reach_written_[i]);
-  const std::vector<Column>& columns = ensemble ? results::ensembleRunReachColumns() : results::reachColumns();
   OGRFeature& f = *reach_feature_;
   auto row = results::reachRow(plan_, summary, i);
   if (ensemble) {
     auto more = results::ensembleReachRow(*ensemble, i);
     row.insert(row.end(), std::make_move_iterator(more.begin()), std::make_move_iterator(more.end()));
   }
-  results::convertRow(row, columns, options_.units);
+  results::convertRow(row, reachColumnsFor(ensemble), options_.units);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
   const auto vertices = results::flowLine(table_, plan_, i);

@@ -449,31 +449,28 @@ TEST(GpkgResultsWriter, CallerMistakesAreInternalErrorsAndLeaveNothing) {
   EXPECT_TRUE(listDir(out.parent_path()).empty());
 }
 
-/// Every feature of `layer` by feature id: its fields as text and its
-/// geometry as WKT, as OGR reads them back.
+/// A feature's fields as text (NULL as "NULL") and its geometry as WKT, as OGR reads them back.
+std::vector<std::string> asText(const OGRFeature& f) {
+  std::vector<std::string> values;
+  for (int i = 0; i < f.GetFieldCount(); ++i)
+    values.emplace_back(f.IsFieldSetAndNotNull(i) ? f.GetFieldAsString(i) : "NULL");
+  if (const OGRGeometry* g = f.GetGeometryRef()) values.push_back(g->exportToWkt());
+  return values;
+}
+
+/// Every feature of `layer` by feature id.
 std::map<GIntBig, std::vector<std::string>> featuresById(OGRLayer& layer) {
   std::map<GIntBig, std::vector<std::string>> out;
   layer.ResetReading();
-  for (auto& f : layer) {
-    std::vector<std::string> values;
-    for (int i = 0; i < f->GetFieldCount(); ++i)
-      values.emplace_back(f->IsFieldSetAndNotNull(i) ? f->GetFieldAsString(i) : "NULL");
-    if (const OGRGeometry* g = f->GetGeometryRef()) values.push_back(g->exportToWkt());
-    out[f->GetFID()] = std::move(values);
-  }
+  for (auto& f : layer) out[f->GetFID()] = asText(*f);
   return out;
 }
 
-/// The rows of `hydrographs` as text, in the order of (reach, time).
+/// The rows of `hydrographs`, whatever their ids.
 std::multiset<std::vector<std::string>> seriesRows(OGRLayer& layer) {
   std::multiset<std::vector<std::string>> out;
   layer.ResetReading();
-  for (auto& f : layer) {
-    std::vector<std::string> values;
-    for (int i = 0; i < f->GetFieldCount(); ++i)
-      values.emplace_back(f->IsFieldSetAndNotNull(i) ? f->GetFieldAsString(i) : "NULL");
-    out.insert(std::move(values));
-  }
+  for (auto& f : layer) out.insert(asText(*f));
   return out;
 }
 
@@ -572,9 +569,8 @@ TEST(GpkgResultsWriter, BackgroundWritingAbandonedLeavesNothing) {
 
 // A write that fails on the writing thread (here the file-size limit,
 // POSIX setrlimit RLIMIT_FSIZE, in a child process so that the limit does
-// not reach the other tests) stops the run with the file's name and the
-// system's reason, at the next series handed over or at writeSummaries(),
-// and leaves nothing.
+// not reach the other tests) stops the run with the file's name, at the
+// next series handed over or at writeSummaries(), and leaves nothing.
 TEST(GpkgResultsWriter, BackgroundWriteFailureReachesTheRun) {
   fixtures::TempDir dir;
   const Network net;

@@ -125,15 +125,16 @@ struct GpkgWriterOptions {
   /// An ensemble run: `hydrographs` starts with a `member` column, set by
   /// setMember() before each member's series.
   bool member_column = false;
-  /// Write the `hydrographs` rows and the `reaches` rows on a thread of the
-  /// writer's own while routing runs, fed through a bounded queue (64 MiB of
-  /// series at most; the router's threads wait when it is full): each
-  /// series as it comes, each reach's row as soon as its summary is final
-  /// (summarised()), with the feature id it would have had written after
-  /// routing (plan index + 1), so the tables' contents do not depend on the
-  /// order reaches finish in. A GeoPackage only (a new file or a
-  /// write-back): a database, and an ensemble (`member_column`), write as
-  /// without it.
+  /// Write on a thread of the writer's own while routing runs, fed through
+  /// a bounded queue (64 MiB at most; the router's threads wait when it is
+  /// full): each series as it comes, each reach's row of `reaches` as soon
+  /// as its summary is final (summarised()), each node's rows of `nodes`
+  /// and `confluence_branches` as soon as the node is (nodeFinished()),
+  /// with the feature ids writing them in order after routing would give
+  /// (reach: plan index + 1; node: position + 1), so the tables' contents
+  /// do not depend on the order reaches finish in. A GeoPackage only (a
+  /// new file or a write-back): a database, and an ensemble
+  /// (`member_column`), write as without it.
   bool background = false;
 };
 
