@@ -9,12 +9,14 @@
 /// A cell is any type with
 ///   double operator()(double left_new, double left_old, double old, double lat) const
 ///     — Q[j+1,n+1] from Q[j,n+1], Q[j,n], Q[j+1,n] and the lateral share
-///       (m^3/s) entering the sub-reach during the sub-step;
+///       (m^3/s) entering the sub-reach during the sub-step
+///   (or, instead, the interface of CarriesFlowValues below);
 ///   double storage(const std::vector<double>& q) const
 ///     — the reach's storage (m^3) for the section flows q.
 /// The sweep works on a copy of the cell, so a cell that counts events
 /// counts them through a reference (into ReachNumerics, say).
 
+#include <concepts>
 #include <cstdint>
 #include <optional>
 #include <span>
@@ -60,9 +62,7 @@ struct Rows {
   const double* fraction;  // fraction[s] = s / k, s = 0..k
 
   std::size_t count() const { return (inflow.size() - 1) * k; }
-  /// The next row; `ends_step` set when it is a step's last sub-step (its
-  /// outflow is the sample at step n + 1).
-  Row next(bool& ends_step, std::size_t& step) {
+  Row next() {
     const double fr = fraction[s], fr0 = fraction[s - 1];
     const double in = inflow[n] + (inflow[n + 1] - inflow[n]) * fr;
     // Without lateral inflow the share is +0 either way; skipping it takes a
@@ -72,12 +72,9 @@ struct Rows {
       const StepForcing f{inflow[n], inflow[n + 1], lateral[n], lateral[n + 1]};
       lat = 0.5 * (f.lateralAt(fr0) + f.lateralAt(fr)) / m;
     }
-    const Row row{in, lat};
-    step = n;
-    ends_step = s == k;
-    if (ends_step) s = 1, ++n;
+    if (s == k) s = 1, ++n;
     else ++s;
-    return row;
+    return Row{in, lat};
   }
 };
 
@@ -119,15 +116,87 @@ std::pair<double, double> twoRows(std::vector<double>& q, std::uint32_t m, Row a
   return {a_new, q[m]};
 }
 
+/// A cell that computes values of its own from each flow (`Carry`) and can
+/// take them from the sweep instead of computing them again: every section
+/// flow is read by three cells (as Q[j,n+1], Q[j,n] and Q[j+1,n]), so
+/// carrying them costs one evaluation per flow instead of three. It has
+///   template <bool Count> Carry carry(double q, double area_q) const —
+///     Count: q is a new flow of a section that feeds a cell (counted once,
+///     where the cell counts anything, such as clamped parameters);
+///   double areaOf(double q) const — Carry::a, all the outflow needs;
+///   double operator()(left_new, left_old, old, lat, const Carry& of_left_new,
+///                     const Carry& of_left_old, double area_of_old,
+///                     double& area_of_result) const.
+template <class Cell>
+concept CarriesFlowValues = requires(const Cell& c, double q, double& a, const typename Cell::Carry& w) {
+  { c.template carry<true>(q, q) } -> std::same_as<typename Cell::Carry>;
+  { c.areaOf(q) } -> std::same_as<double>;
+  { c(q, q, q, q, w, w, q, a) } -> std::same_as<double>;
+};
+
+/// Advances q over every row, for a cell that carries its values, with
+/// cells taken along diagonals: pass t computes cell j (j = 1..m) of row
+/// t − j + 1. Cell j of row r needs Q[j−1] of rows r and r − 1 and Q[j] of
+/// row r − 1, all from the two passes before, so the up to m cells of a
+/// pass are independent dependency chains that the core overlaps (two rows
+/// at once give at most two; row by row, each cell waits on the one before
+/// it). Per section j it keeps its latest flow v[j] (q itself) with what
+/// the cell reads of it (cv[j]), the flow before (p[j], cp[j]) and the
+/// lateral share of the row it is on; a pass goes from j = m down, so each
+/// cell reads its upstream neighbour's values before that neighbour moves
+/// on. A result below zero is set to zero and counted in *clamps when
+/// clamps is not null. Calls finish(outflow) for each row, in row order.
+/// (Cheap cells, such as `mc`'s, ran slower this way: their flows in
+/// memory cost more than the overlap gains; they go two rows at a time.)
+template <CarriesFlowValues Cell, class Finish>
+void carriedDiagonals(std::vector<double>& q, std::uint32_t m, Rows& rows, const Cell& cell,
+                      std::uint64_t* clamps, Finish&& finish) {
+  using Carry = typename Cell::Carry;
+  thread_local std::vector<double> work;
+  thread_local std::vector<Carry> carried;
+  work.resize(2 * (std::size_t{m} + 1));
+  carried.resize(2 * (std::size_t{m} + 1));
+  double* const v = q.data();
+  double* const p = work.data();
+  double* const lat = p + m + 1;
+  Carry* const cv = carried.data();
+  Carry* const cp = cv + m + 1;
+  for (std::uint32_t j = 0; j <= m; ++j) cv[j] = cell.template carry<false>(v[j], cell.areaOf(v[j]));  // not counted
+  const std::size_t count = rows.count();
+  for (std::size_t t = 0; t + 1 < count + m; ++t) {
+    if (t < count) {
+      const Row row = rows.next();
+      p[0] = v[0], cp[0] = cv[0];
+      v[0] = row.inflow, cv[0] = cell.template carry<true>(row.inflow, cell.areaOf(row.inflow)), lat[0] = row.lat;
+    }
+    const std::uint32_t hi = t + 1 < m ? std::uint32_t(t + 1) : m;
+    const std::uint32_t lo = t + 1 < count ? 1 : std::uint32_t(t + 2 - count);
+    for (std::uint32_t j = hi; j >= lo; --j) {
+      double area;
+      double next = cell(v[j - 1], p[j - 1], v[j], lat[j - 1], cv[j - 1], cp[j - 1], cv[j].a, area);
+      if (clamps && !(next >= 0)) ++*clamps, next = 0.0, area = cell.areaOf(0.0);
+      p[j] = v[j], cp[j] = cv[j], v[j] = next, lat[j] = lat[j - 1];
+      // The outflow feeds no cell: only its area is read (as Q[m,n]).
+      if (j < m) cv[j] = cell.template carry<true>(next, area);
+      else cv[j].a = area;
+    }
+    if (hi == m) finish(v[m]);  // row t − m + 1
+  }
+}
+
 /// Advances the reach over every row of the run with `cell`; keeps the
-/// volume totals and writes the outflow at each output step. The cell is
-/// taken by value: a local copy lets the compiler keep its parameters in
-/// registers, where through a reference it must reload them after every
-/// store to q (they might alias).
+/// volume totals and writes the outflow at each output step: along
+/// diagonals for a cell that carries its values, else two rows at a time.
+/// Either way every cell sees the same inputs as row by row, so the results
+/// are those of a row-by-row sweep to the bit. `clamps`: where a carrying
+/// cell's results below zero are counted (null: none can occur); other
+/// cells come wrapped in sweepReach's own clamp. The cell is taken by value: a local copy lets the compiler keep its
+/// parameters in registers, where through a reference it must reload them
+/// after every store to q (they might alias).
 template <class Cell>
 void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
            std::span<const double> lateral, double dt, std::vector<double>& q,
-           std::vector<double>& out, Totals& tot, Cell cell) {
+           std::vector<double>& out, Totals& tot, Cell cell, std::uint64_t* clamps = nullptr) {
   // s / k once per route rather than twice per row (the same quotients).
   thread_local std::vector<double> fractions;
   fractions.resize(std::size_t{k} + 1);
@@ -137,24 +206,25 @@ void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
   const double dts = dt / k;
   double q_out = q[m];
   out[0] = q_out;
-  const auto finishRow = [&](bool ends_step, std::size_t step, double q_out_new) {
+  std::size_t out_step = 1;   // the output step of the next row to finish
+  std::uint32_t out_sub = 1;  // and its sub-step
+  const auto finish = [&](double q_out_new) {
     tot.out += 0.5 * dts * (q_out + q_out_new);
     q_out = q_out_new;
-    if (ends_step) out[step + 1] = q_out;
+    if (out_sub == k) out[out_step++] = q_out, out_sub = 1;
+    else ++out_sub;
   };
-  std::size_t r = 0;
-  bool ends_a, ends_b;
-  std::size_t step_a, step_b;
-  for (; r + 1 < count; r += 2) {
-    const Row a = rows.next(ends_a, step_a);
-    const Row b = rows.next(ends_b, step_b);
-    const auto [out_a, out_b] = twoRows(q, m, a, b, cell);
-    finishRow(ends_a, step_a, out_a);
-    finishRow(ends_b, step_b, out_b);
-  }
-  if (r < count) {
-    const Row a = rows.next(ends_a, step_a);
-    finishRow(ends_a, step_a, oneRow(q, m, a, cell));
+  if constexpr (CarriesFlowValues<Cell>) {
+    carriedDiagonals(q, m, rows, cell, clamps, finish);
+  } else {
+    std::size_t r = 0;
+    for (; r + 1 < count; r += 2) {
+      const Row a = rows.next(), b = rows.next();
+      const auto [out_a, out_b] = twoRows(q, m, a, b, cell);
+      finish(out_a);
+      finish(out_b);
+    }
+    if (r < count) finish(oneRow(q, m, rows.next(), cell));
   }
   for (std::size_t n = 0; n + 1 < inflow.size(); ++n) {
     tot.in += 0.5 * dt * (inflow[n] + inflow[n + 1]);
@@ -240,7 +310,10 @@ void sweepReach(RouteContext& ctx, const Cell& cell, Negatives negatives) {
     for (std::uint32_t j = 0; j <= m; ++j) ctx.q[j] = inflow0 + lateral0 * j / m;
   }
   ctx.storage_start_m3 = cell.storage(ctx.q);
-  if (negatives == Negatives::CannotOccur) {
+  if constexpr (CarriesFlowValues<Cell>) {
+    sweep(m, k, ctx.inflow, ctx.lateral, ctx.dt_s, ctx.q, ctx.out, ctx.totals, cell,
+          negatives == Negatives::CannotOccur ? nullptr : &ctx.numerics.negative_clamps);
+  } else if (negatives == Negatives::CannotOccur) {
     sweep(m, k, ctx.inflow, ctx.lateral, ctx.dt_s, ctx.q, ctx.out, ctx.totals, cell);
   } else {
     std::uint64_t& clamps = ctx.numerics.negative_clamps;

@@ -232,9 +232,24 @@ struct ConservativeCell {
       if (q > capacity) ++surcharge;
     return 0.5 * (1.0 - D);
   }
-  double operator()(double left_new, double left_old, double old, double lat) const {
-    const double x_old = weight<false>(left_old), x_new = weight<true>(left_new);
-    const double r = dx * (x_old * area.area(left_old) + (1.0 - x_old) * area.area(old) - x_new * area.area(left_new)) +
+  /// What the cell reads of a flow: its weight X and its area. The sweep
+  /// carries them with the flows (CarriesFlowValues): one evaluation per
+  /// flow instead of one per cell that reads it, and the area of a cell's
+  /// result comes from the solve's own area cell.
+  struct Carry {
+    double x, a;
+  };
+  template <bool Count>
+  Carry carry(double q, double area_q) const {
+    return {weight<Count>(q), area_q};
+  }
+  double areaOf(double q) const { return area.area(q); }
+  /// O* of the cell from I*, I', O' and the lateral share, with what it
+  /// reads of I*, I' and O' given; sets `area_out` to A(O*).
+  double operator()(double left_new, double left_old, double old, double lat, const Carry& in_new,
+                    const Carry& in_old, double area_old, double& area_out) const {
+    const double x_old = in_old.x, x_new = in_new.x;
+    const double r = dx * (x_old * in_old.a + (1.0 - x_old) * area_old - x_new * in_new.a) +
                      half_dt * (left_new + left_old - old) + dts * lat;
     const double alpha = (1.0 - x_new) * dx;
     // α A(O) + Δt/2 O = r is increasing in O: solve it cell by cell of the
@@ -243,15 +258,20 @@ struct ConservativeCell {
     // passes; the start does not change the solution, only how many cells
     // are tried before it).
     std::size_t i = area.index(old + (left_new - left_old));
-    double o = old;
-    for (int it = 0; it < 64; ++it) {
+    for (int it = 0;; ++it) {
       const AreaTable::Cell& c = area.cell(i);
-      o = (r - alpha * c.a0) / (alpha * c.a1 + half_dt);
+      const double o = (r - alpha * c.a0) / (alpha * c.a1 + half_dt);
       const std::size_t j = area.index(o);
-      if (j == i) break;
+      if (j == i) {
+        area_out = c.a0 + c.a1 * o;  // A(o), the cell it lies in
+        return o;
+      }
+      if (it == 63) {
+        area_out = area.area(o);
+        return o;
+      }
       i = j;
     }
-    return o;
   }
   double storage(const std::vector<double>& q) const {
     double s = 0;
