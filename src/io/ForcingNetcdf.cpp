@@ -385,6 +385,59 @@ void NetcdfForcingSource::openVariable(ForcingKind kind) {
                .value_or(type == NC_DOUBLE ? NC_FILL_DOUBLE : static_cast<double>(NC_FILL_FLOAT));
   v.scale = numberAttribute(ncid_, v.varid, "scale_factor").value_or(1.0) * to_m3s;
   v.offset = numberAttribute(ncid_, v.varid, "add_offset").value_or(0.0) * to_m3s;
+
+  // What one reach's read would decompress or step over, in values.
+  const double steps = static_cast<double>(axis_.steps), reaches = static_cast<double>(ids_.size());
+  int storage = NC_CONTIGUOUS;
+  std::size_t chunks[2] = {0, 0};
+  detail::check(nc_inq_var_chunking(ncid_, v.varid, &storage, chunks), path_, "inspecting " + name);
+  double per_reach = v.time_first ? steps * reaches : steps;  // contiguous: one row of the file apart
+  if (storage == NC_CHUNKED) {
+    const double ct = static_cast<double>(chunks[v.time_first ? 0 : 1]);
+    const double cr = static_cast<double>(chunks[v.time_first ? 1 : 0]);
+    per_reach = std::ceil(steps / ct) * ct * cr;
+  }
+  const std::size_t bytes = axis_.steps * ids_.size() * (type == NC_FLOAT ? sizeof(float) : sizeof(double));
+  if (ids_.size() > 1 && per_reach > kWholeReadFactor * steps && bytes <= kWholeReadMaxBytes)
+    readVariableWhole(kind, v, type == NC_FLOAT, storage, chunks);
+}
+
+void NetcdfForcingSource::readVariableWhole(ForcingKind kind, Variable& v, bool is_float, int storage,
+                                            const std::size_t* chunks) {
+  // Blocks of whole rows of the variable in the order they lie in the file
+  // (chunk rows when chunked), about 64 MiB each; (time, reach) blocks are
+  // turned round into [reach][time], (reach, time) ones go straight there.
+  const std::size_t steps = axis_.steps, reaches = ids_.size();
+  const std::size_t outer = v.time_first ? steps : reaches, inner = v.time_first ? reaches : steps;
+  const std::size_t elem = is_float ? sizeof(float) : sizeof(double);
+  const std::size_t unit = storage == NC_CHUNKED ? std::max<std::size_t>(1, chunks[0]) : 1;
+  const std::size_t block = unit * std::max<std::size_t>(1, (std::size_t{64} << 20) / (unit * inner * elem));
+  if (is_float) v.whole_float.resize(steps * reaches);
+  else v.whole_double.resize(steps * reaches);
+  std::vector<float> buf_float;
+  std::vector<double> buf_double;
+  for (std::size_t o0 = 0; o0 < outer; o0 += block) {
+    const std::size_t rows = std::min(block, outer - o0);
+    const std::size_t start[2] = {o0, 0}, count[2] = {rows, inner};
+    const std::string what = fmt::format("reading {} in file order", kindName(kind));
+    const auto read = [&](auto& whole, auto& buf, auto get) {
+      if (!v.time_first) {  // (reach, time): already reach by reach
+        detail::check(get(ncid_, v.varid, start, count, whole.data() + o0 * steps), path_, what);
+        return;
+      }
+      buf.resize(rows * reaches);
+      detail::check(get(ncid_, v.varid, start, count, buf.data()), path_, what);
+      for (std::size_t t = 0; t < rows; ++t)
+        for (std::size_t r = 0; r < reaches; ++r) whole[r * steps + o0 + t] = buf[t * reaches + r];
+    };
+    if (is_float) read(v.whole_float, buf_float, nc_get_vara_float);
+    else read(v.whole_double, buf_double, nc_get_vara_double);
+  }
+}
+
+bool NetcdfForcingSource::readWhole(ForcingKind kind) const {
+  const Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
+  return !v.whole_float.empty() || !v.whole_double.empty();
 }
 
 bool NetcdfForcingSource::has(ForcingKind kind, std::string_view id) const {
@@ -408,7 +461,13 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
   if (v.varid < 0) return none();
   const auto it = index_.find(std::string(id));
   if (it == index_.end()) return none();
-  {
+  if (!v.whole_float.empty()) {
+    const float* from = v.whole_float.data() + it->second * axis_.steps;
+    std::copy(from, from + axis_.steps, out.begin());
+  } else if (!v.whole_double.empty()) {
+    const double* from = v.whole_double.data() + it->second * axis_.steps;
+    std::copy(from, from + axis_.steps, out.begin());
+  } else {
     const std::size_t r = it->second;
     const std::size_t start[2] = {v.time_first ? 0 : r, v.time_first ? r : 0};
     const std::size_t count[2] = {v.time_first ? axis_.steps : 1, v.time_first ? 1 : axis_.steps};

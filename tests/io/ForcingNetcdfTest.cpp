@@ -370,3 +370,110 @@ TEST_F(ForcingNetcdfTest, ACsvFileBesideIsResampledOntoTheNetcdfAxis) {
   other.on_axis->steps = 24;
   expectInputErrorNaming([&] { openForcing(csv, nc, other); }, nc, "another axis");
 }
+
+namespace {
+
+/// A forcing file laid out as other tools may write it: `lateral` in
+/// (time, reach) or (reach, time) order, float or double, contiguous (no
+/// chunks) or in the given chunks. values[r][t]; `fill` marks missing.
+struct Layout {
+  bool time_first = true;
+  bool as_float = false;
+  std::vector<std::size_t> chunks;  ///< empty: contiguous
+};
+
+void writeLayout(const fs::path& p, const std::vector<std::string>& ids, const std::vector<std::vector<double>>& values,
+                 const Layout& layout, double fill) {
+  const std::size_t reaches = ids.size(), steps = values.front().size();
+  int nc = 0, dt = 0, dr = 0, ds = 0, vt = 0, vid = 0, vq = 0;
+  ASSERT_EQ(nc_create(p.c_str(), NC_NETCDF4 | NC_CLOBBER, &nc), NC_NOERR);
+  nc_def_dim(nc, "time", steps, &dt);
+  nc_def_dim(nc, "reach", reaches, &dr);
+  nc_def_dim(nc, "id_len", 8, &ds);
+  nc_def_var(nc, "time", NC_DOUBLE, 1, &dt, &vt);
+  const std::string units = "hours since 2026-05-01 00:00:00";
+  nc_put_att_text(nc, vt, "units", units.size(), units.c_str());
+  const int id_dims[2] = {dr, ds};
+  nc_def_var(nc, "reach_id", NC_CHAR, 2, id_dims, &vid);
+  const int q_dims[2] = {layout.time_first ? dt : dr, layout.time_first ? dr : dt};
+  ASSERT_EQ(nc_def_var(nc, "lateral", layout.as_float ? NC_FLOAT : NC_DOUBLE, 2, q_dims, &vq), NC_NOERR);
+  if (layout.chunks.empty()) ASSERT_EQ(nc_def_var_chunking(nc, vq, NC_CONTIGUOUS, nullptr), NC_NOERR);
+  else ASSERT_EQ(nc_def_var_chunking(nc, vq, NC_CHUNKED, layout.chunks.data()), NC_NOERR);
+  nc_put_att_text(nc, vq, "units", 7, "m3 s-1");
+  if (layout.as_float) {
+    const float f = static_cast<float>(fill);
+    nc_put_att_float(nc, vq, "_FillValue", NC_FLOAT, 1, &f);
+  } else {
+    nc_put_att_double(nc, vq, "_FillValue", NC_DOUBLE, 1, &fill);
+  }
+  ASSERT_EQ(nc_enddef(nc), NC_NOERR);
+  std::vector<double> hours(steps);
+  for (std::size_t t = 0; t < steps; ++t) hours[t] = static_cast<double>(t);
+  nc_put_var_double(nc, vt, hours.data());
+  std::string text(reaches * 8, '\0');
+  for (std::size_t r = 0; r < reaches; ++r) text.replace(r * 8, ids[r].size(), ids[r]);
+  nc_put_var_text(nc, vid, text.data());
+  std::vector<double> flat;
+  for (std::size_t a = 0; a < (layout.time_first ? steps : reaches); ++a)
+    for (std::size_t b = 0; b < (layout.time_first ? reaches : steps); ++b)
+      flat.push_back(layout.time_first ? values[b][a] : values[a][b]);
+  ASSERT_EQ(nc_put_var_double(nc, vq, flat.data()), NC_NOERR);  // converted to float by the library
+  ASSERT_EQ(nc_close(nc), NC_NOERR);
+}
+
+}  // namespace
+
+TEST_F(ForcingNetcdfTest, FilesLaidOutTimeByTimeAreReadWholeWithTheSameSeries) {
+  // 40 reaches x 30 hourly steps; multiples of 1/8 are exact in float too.
+  const std::size_t reaches = 40, steps = 30;
+  std::vector<std::string> ids;
+  std::vector<std::vector<double>> values(reaches, std::vector<double>(steps));
+  for (std::size_t r = 0; r < reaches; ++r) {
+    ids.push_back("L" + std::to_string(r));
+    for (std::size_t t = 0; t < steps; ++t) values[r][t] = static_cast<double>((r * 37 + t * 11) % 97) / 8.0;
+  }
+  const double fill = -9999.0;
+  for (double& v : values[7]) v = fill;  // no series of this reach
+
+  // The reference: one chunk per reach, read reach by reach.
+  const fs::path ref = dir_ / "by_reach.nc";
+  writeLayout(ref, ids, values, Layout{true, false, {steps, 1}}, fill);
+  const NetcdfForcingSource by_reach(ref);
+  EXPECT_FALSE(by_reach.readWhole(ForcingKind::Lateral));
+
+  const std::vector<std::pair<std::string, Layout>> layouts{
+      {"contiguous (time, reach), double", Layout{true, false, {}}},
+      {"one time step per chunk, float", Layout{true, true, {1, reaches}}},
+      {"chunks of 4 steps x 16 reaches, double", Layout{true, false, {4, 16}}},
+      {"(reach, time) in chunks of 16 reaches, float", Layout{false, true, {16, steps}}},
+  };
+  for (const auto& [what, layout] : layouts) {
+    const fs::path p = dir_ / "layout.nc";
+    writeLayout(p, ids, values, layout, fill);
+    const NetcdfForcingSource source(p);
+    EXPECT_TRUE(source.readWhole(ForcingKind::Lateral)) << what;
+    std::vector<double> want, got;
+    for (const std::string& id : ids) {
+      const bool has = by_reach.lateral(id, want);
+      EXPECT_EQ(source.lateral(id, got), has) << what << " " << id;
+      EXPECT_EQ(got, want) << what << " " << id;
+    }
+    EXPECT_FALSE(source.lateral(ids[7], got)) << what;
+  }
+
+  // A value missing inside a series is still named by reach and time.
+  values[12][5] = fill;
+  const fs::path holed = dir_ / "holed.nc";
+  writeLayout(holed, ids, values, Layout{true, false, {}}, fill);
+  const NetcdfForcingSource source(holed);
+  ASSERT_TRUE(source.readWhole(ForcingKind::Lateral));
+  std::vector<double> got;
+  try {
+    source.lateral("L12", got);
+    ADD_FAILURE() << "missing value accepted";
+  } catch (const InputError& e) {
+    EXPECT_EQ(e.where().file, holed.string());
+    EXPECT_EQ(e.where().reach_id, "L12");
+    EXPECT_NE(std::string(e.what()).find("2026-05-01T05:00"), std::string::npos) << e.what();
+  }
+}

@@ -10,7 +10,9 @@
 ///
 /// Large files are meant to be read through `NetcdfForcingSource`, which
 /// keeps only the axis and the reach ids in memory and reads a reach's
-/// series when asked.
+/// series when asked, where one reach's series lies together in the file;
+/// a file laid out otherwise (time by time) is read whole, in file order,
+/// when opened.
 
 #include <cstddef>
 #include <filesystem>
@@ -96,6 +98,20 @@ public:
   std::string origin(ForcingKind) const override { return path_.string(); }
 
   bool has(ForcingKind kind, std::string_view id) const;
+  /// Whether the variable of `kind` was read whole when the file was
+  /// opened (kWholeReadFactor), rather than reach by reach on demand.
+  bool readWhole(ForcingKind kind) const;
+
+  /// A variable is read whole, in file order, when reading one reach's
+  /// series would decompress or step over more than this many times its
+  /// own values: chunks that hold many reaches each (chunks of one time
+  /// step across all reaches, say), or contiguous (time, reach) storage,
+  /// where a reach's values lie one row of the whole file apart. Reading
+  /// such a file reach by reach reads it again for every reach.
+  static constexpr double kWholeReadFactor = 8;
+  /// ... unless the whole variable is larger than this (bytes): then it
+  /// is read reach by reach, slowly, rather than held in memory.
+  static constexpr std::size_t kWholeReadMaxBytes = std::size_t{16} << 30;
 
 private:
   struct Variable {
@@ -104,8 +120,14 @@ private:
     double fill = 0;
     double scale = 1;              ///< scale_factor × unit conversion
     double offset = 0;             ///< add_offset × unit conversion
+    /// The raw values read whole, reach by reach ([reach][time]), in the
+    /// file's own type; both empty when read on demand.
+    std::vector<float> whole_float;
+    std::vector<double> whole_double;
   };
   void openVariable(ForcingKind kind);
+  void readVariableWhole(ForcingKind kind, Variable& v, bool is_float, int storage,
+                         const std::size_t* chunks);
   void readAxis();
   void readIds();
 
