@@ -161,13 +161,15 @@ void carriedDiagonals(std::vector<double>& q, std::uint32_t m, Rows& rows, const
   double* const lat = p + m + 1;
   Carry* const cv = carried.data();
   Carry* const cp = cv + m + 1;
-  for (std::uint32_t j = 0; j <= m; ++j) cv[j] = cell.template carry<false>(v[j], cell.areaOf(v[j]));  // not counted
+  // The starting flows are not new: not counted.
+  for (std::uint32_t j = 0; j <= m; ++j) cv[j] = cell.template carry<false>(v[j], cell.areaOf(v[j]));
   const std::size_t count = rows.count();
   for (std::size_t t = 0; t + 1 < count + m; ++t) {
     if (t < count) {
       const Row row = rows.next();
       p[0] = v[0], cp[0] = cv[0];
-      v[0] = row.inflow, cv[0] = cell.template carry<true>(row.inflow, cell.areaOf(row.inflow)), lat[0] = row.lat;
+      v[0] = row.inflow, lat[0] = row.lat;
+      cv[0] = cell.template carry<true>(row.inflow, cell.areaOf(row.inflow));
     }
     const std::uint32_t hi = t + 1 < m ? std::uint32_t(t + 1) : m;
     const std::uint32_t lo = t + 1 < count ? 1 : std::uint32_t(t + 2 - count);
@@ -190,9 +192,10 @@ void carriedDiagonals(std::vector<double>& q, std::uint32_t m, Rows& rows, const
 /// Either way every cell sees the same inputs as row by row, so the results
 /// are those of a row-by-row sweep to the bit. `clamps`: where a carrying
 /// cell's results below zero are counted (null: none can occur); other
-/// cells come wrapped in sweepReach's own clamp. The cell is taken by value: a local copy lets the compiler keep its
-/// parameters in registers, where through a reference it must reload them
-/// after every store to q (they might alias).
+/// cells come wrapped in sweepReach's own clamp. The cell is taken by
+/// value: a local copy lets the compiler keep its parameters in registers,
+/// where through a reference it must reload them after every store to q
+/// (they might alias).
 template <class Cell>
 void sweep(std::uint32_t m, std::uint32_t k, std::span<const double> inflow,
            std::span<const double> lateral, double dt, std::vector<double>& q,

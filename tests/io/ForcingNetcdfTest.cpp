@@ -380,13 +380,14 @@ struct Layout {
   bool time_first = true;
   bool as_float = false;
   std::vector<std::size_t> chunks;  ///< empty: contiguous
+  bool classic = false;             ///< a netCDF-3 file (no chunks)
 };
 
 void writeLayout(const fs::path& p, const std::vector<std::string>& ids, const std::vector<std::vector<double>>& values,
                  const Layout& layout, double fill) {
   const std::size_t reaches = ids.size(), steps = values.front().size();
   int nc = 0, dt = 0, dr = 0, ds = 0, vt = 0, vid = 0, vq = 0;
-  ASSERT_EQ(nc_create(p.c_str(), NC_NETCDF4 | NC_CLOBBER, &nc), NC_NOERR);
+  ASSERT_EQ(nc_create(p.c_str(), (layout.classic ? 0 : NC_NETCDF4) | NC_CLOBBER, &nc), NC_NOERR);
   nc_def_dim(nc, "time", steps, &dt);
   nc_def_dim(nc, "reach", reaches, &dr);
   nc_def_dim(nc, "id_len", 8, &ds);
@@ -397,8 +398,10 @@ void writeLayout(const fs::path& p, const std::vector<std::string>& ids, const s
   nc_def_var(nc, "reach_id", NC_CHAR, 2, id_dims, &vid);
   const int q_dims[2] = {layout.time_first ? dt : dr, layout.time_first ? dr : dt};
   ASSERT_EQ(nc_def_var(nc, "lateral", layout.as_float ? NC_FLOAT : NC_DOUBLE, 2, q_dims, &vq), NC_NOERR);
-  if (layout.chunks.empty()) ASSERT_EQ(nc_def_var_chunking(nc, vq, NC_CONTIGUOUS, nullptr), NC_NOERR);
-  else ASSERT_EQ(nc_def_var_chunking(nc, vq, NC_CHUNKED, layout.chunks.data()), NC_NOERR);
+  if (!layout.classic) {  // netCDF-3 has no chunks: always contiguous
+    if (layout.chunks.empty()) ASSERT_EQ(nc_def_var_chunking(nc, vq, NC_CONTIGUOUS, nullptr), NC_NOERR);
+    else ASSERT_EQ(nc_def_var_chunking(nc, vq, NC_CHUNKED, layout.chunks.data()), NC_NOERR);
+  }
   nc_put_att_text(nc, vq, "units", 7, "m3 s-1");
   if (layout.as_float) {
     const float f = static_cast<float>(fill);
@@ -446,6 +449,7 @@ TEST_F(ForcingNetcdfTest, FilesLaidOutTimeByTimeAreReadWholeWithTheSameSeries) {
       {"one time step per chunk, float", Layout{true, true, {1, reaches}}},
       {"chunks of 4 steps x 16 reaches, double", Layout{true, false, {4, 16}}},
       {"(reach, time) in chunks of 16 reaches, float", Layout{false, true, {16, steps}}},
+      {"netCDF-3, (time, reach), float", Layout{true, true, {}, true}},
   };
   for (const auto& [what, layout] : layouts) {
     const fs::path p = dir_ / "layout.nc";
