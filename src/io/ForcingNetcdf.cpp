@@ -3,6 +3,7 @@
 #include <netcdf.h>
 
 #include <algorithm>
+#include <atomic>
 #include <cmath>
 #include <set>
 
@@ -294,6 +295,11 @@ TimeCoordinate readTimes(int ncid, const std::filesystem::path& path, std::size_
 
 }  // namespace
 
+namespace {
+/// Bytes of forcing the process holds read whole (kWholeReadMaxBytes).
+std::atomic<std::size_t> whole_read_bytes{0};
+}  // namespace
+
 NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path, std::size_t max_steps)
     : path_(std::move(path)), max_steps_(max_steps) {
   const std::lock_guard lock(detail::netcdfMutex());
@@ -313,6 +319,7 @@ NetcdfForcingSource::NetcdfForcingSource(std::filesystem::path path, std::size_t
 }
 
 NetcdfForcingSource::~NetcdfForcingSource() {
+  for (const Variable& v : vars_) whole_read_bytes -= v.bytes;
   if (ncid_ < 0) return;
   const std::lock_guard lock(detail::netcdfMutex());
   nc_close(ncid_);
@@ -397,41 +404,56 @@ void NetcdfForcingSource::openVariable(ForcingKind kind) {
     const double cr = static_cast<double>(chunks[v.time_first ? 1 : 0]);
     per_reach = std::ceil(steps / ct) * ct * cr;
   }
-  const std::size_t bytes = axis_.steps * ids_.size() * (type == NC_FLOAT ? sizeof(float) : sizeof(double));
-  if (ids_.size() > 1 && per_reach > kWholeReadFactor * steps && bytes <= kWholeReadMaxBytes)
-    readVariableWhole(kind, v, type == NC_FLOAT, storage, chunks);
+  v.whole = ids_.size() > 1 && per_reach > kWholeReadFactor * steps;
+  v.is_float = type == NC_FLOAT;
+  v.storage = storage;
+  v.chunks[0] = chunks[0], v.chunks[1] = chunks[1];
 }
 
-void NetcdfForcingSource::readVariableWhole(ForcingKind kind, Variable& v, bool is_float, int storage,
-                                            const std::size_t* chunks) {
-  // Blocks of whole rows of the variable in the order they lie in the file
-  // (chunk rows when chunked), about 64 MiB each; (time, reach) blocks are
-  // turned round into [reach][time], (reach, time) ones go straight there.
+void NetcdfForcingSource::readVariableWhole(ForcingKind kind, Variable& v) const {
   const std::size_t steps = axis_.steps, reaches = ids_.size();
-  const std::size_t outer = v.time_first ? steps : reaches, inner = v.time_first ? reaches : steps;
-  const std::size_t elem = is_float ? sizeof(float) : sizeof(double);
-  const std::size_t unit = storage == NC_CHUNKED ? std::max<std::size_t>(1, chunks[0]) : 1;
-  const std::size_t block = unit * std::max<std::size_t>(1, (std::size_t{64} << 20) / (unit * inner * elem));
-  if (is_float) v.whole_float.resize(steps * reaches);
-  else v.whole_double.resize(steps * reaches);
-  std::vector<float> buf_float;
-  std::vector<double> buf_double;
-  for (std::size_t o0 = 0; o0 < outer; o0 += block) {
-    const std::size_t rows = std::min(block, outer - o0);
-    const std::size_t start[2] = {o0, 0}, count[2] = {rows, inner};
-    const std::string what = fmt::format("reading {} in file order", kindName(kind));
-    const auto read = [&](auto& whole, auto& buf, auto get) {
-      if (!v.time_first) {  // (reach, time): already reach by reach
-        detail::check(get(ncid_, v.varid, start, count, whole.data() + o0 * steps), path_, what);
-        return;
-      }
-      buf.resize(rows * reaches);
-      detail::check(get(ncid_, v.varid, start, count, buf.data()), path_, what);
-      for (std::size_t t = 0; t < rows; ++t)
-        for (std::size_t r = 0; r < reaches; ++r) whole[r * steps + o0 + t] = buf[t * reaches + r];
-    };
-    if (is_float) read(v.whole_float, buf_float, nc_get_vara_float);
-    else read(v.whole_double, buf_double, nc_get_vara_double);
+  const std::size_t elem = v.is_float ? sizeof(float) : sizeof(double);
+  const std::size_t bytes = steps * reaches * elem;
+  std::size_t held = whole_read_bytes.load();
+  do {
+    if (held + bytes > kWholeReadMaxBytes) return;  // over budget: reach by reach
+  } while (!whole_read_bytes.compare_exchange_weak(held, held + bytes));
+  try {
+    // Blocks of whole rows of the variable in the order they lie in the
+    // file (chunk rows when chunked), about 64 MiB each; (time, reach)
+    // blocks are turned round into [reach][time], (reach, time) ones go
+    // straight there.
+    const std::size_t outer = v.time_first ? steps : reaches, inner = v.time_first ? reaches : steps;
+    const std::size_t unit = v.storage == NC_CHUNKED ? std::max<std::size_t>(1, v.chunks[0]) : 1;
+    const std::size_t block = unit * std::max<std::size_t>(1, (std::size_t{64} << 20) / (unit * inner * elem));
+    std::vector<float> whole_float, buf_float;
+    std::vector<double> whole_double, buf_double;
+    if (v.is_float) whole_float.resize(steps * reaches);
+    else whole_double.resize(steps * reaches);
+    const std::lock_guard lock(detail::netcdfMutex());
+    for (std::size_t o0 = 0; o0 < outer; o0 += block) {
+      const std::size_t rows = std::min(block, outer - o0);
+      const std::size_t start[2] = {o0, 0}, count[2] = {rows, inner};
+      const std::string what = fmt::format("reading {} in file order", kindName(kind));
+      const auto read = [&](auto& whole, auto& buf, auto get) {
+        if (!v.time_first) {  // (reach, time): already reach by reach
+          detail::check(get(ncid_, v.varid, start, count, whole.data() + o0 * steps), path_, what);
+          return;
+        }
+        buf.resize(rows * reaches);
+        detail::check(get(ncid_, v.varid, start, count, buf.data()), path_, what);
+        for (std::size_t t = 0; t < rows; ++t)
+          for (std::size_t r = 0; r < reaches; ++r) whole[r * steps + o0 + t] = buf[t * reaches + r];
+      };
+      if (v.is_float) read(whole_float, buf_float, nc_get_vara_float);
+      else read(whole_double, buf_double, nc_get_vara_double);
+    }
+    v.whole_float = std::move(whole_float);
+    v.whole_double = std::move(whole_double);
+    v.bytes = bytes;
+  } catch (...) {
+    whole_read_bytes -= bytes;
+    throw;
   }
 }
 
@@ -457,10 +479,11 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
     std::fill(out.begin(), out.end(), 0.0);
     return false;
   };
-  const Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
+  Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
   if (v.varid < 0) return none();
   const auto it = index_.find(std::string(id));
   if (it == index_.end()) return none();
+  if (v.whole) std::call_once(v.once, [&] { readVariableWhole(kind, v); });
   if (!v.whole_float.empty()) {
     const float* from = v.whole_float.data() + it->second * axis_.steps;
     std::copy(from, from + axis_.steps, out.begin());

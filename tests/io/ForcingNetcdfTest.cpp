@@ -455,7 +455,7 @@ TEST_F(ForcingNetcdfTest, FilesLaidOutTimeByTimeAreReadWholeWithTheSameSeries) {
     const fs::path p = dir_ / "layout.nc";
     writeLayout(p, ids, values, layout, fill);
     const NetcdfForcingSource source(p);
-    EXPECT_TRUE(source.readWhole(ForcingKind::Lateral)) << what;
+    EXPECT_FALSE(source.readWhole(ForcingKind::Lateral)) << what << ": read before it is asked for";
     std::vector<double> want, got;
     for (const std::string& id : ids) {
       const bool has = by_reach.lateral(id, want);
@@ -463,6 +463,7 @@ TEST_F(ForcingNetcdfTest, FilesLaidOutTimeByTimeAreReadWholeWithTheSameSeries) {
       EXPECT_EQ(got, want) << what << " " << id;
     }
     EXPECT_FALSE(source.lateral(ids[7], got)) << what;
+    EXPECT_TRUE(source.readWhole(ForcingKind::Lateral)) << what;
   }
 
   // A value missing inside a series is still named by reach and time.
@@ -470,8 +471,9 @@ TEST_F(ForcingNetcdfTest, FilesLaidOutTimeByTimeAreReadWholeWithTheSameSeries) {
   const fs::path holed = dir_ / "holed.nc";
   writeLayout(holed, ids, values, Layout{true, false, {}}, fill);
   const NetcdfForcingSource source(holed);
-  ASSERT_TRUE(source.readWhole(ForcingKind::Lateral));
   std::vector<double> got;
+  ASSERT_TRUE(source.lateral("L11", got));
+  ASSERT_TRUE(source.readWhole(ForcingKind::Lateral));
   try {
     source.lateral("L12", got);
     ADD_FAILURE() << "missing value accepted";

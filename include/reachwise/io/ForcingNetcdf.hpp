@@ -11,12 +11,13 @@
 /// Large files are meant to be read through `NetcdfForcingSource`, which
 /// keeps only the axis and the reach ids in memory and reads a reach's
 /// series when asked, where one reach's series lies together in the file;
-/// a file laid out otherwise (time by time) is read whole, in file order,
-/// when opened.
+/// a variable laid out otherwise (time by time) is read whole, in file
+/// order, when its first series is asked for.
 
 #include <cstddef>
 #include <filesystem>
 #include <memory>
+#include <mutex>
 #include <span>
 #include <string>
 #include <string_view>
@@ -98,19 +99,21 @@ public:
   std::string origin(ForcingKind) const override { return path_.string(); }
 
   bool has(ForcingKind kind, std::string_view id) const;
-  /// Whether the variable of `kind` was read whole when the file was
-  /// opened (kWholeReadFactor), rather than reach by reach on demand.
+  /// Whether the variable of `kind` is held in memory, read whole at its
+  /// first `fill` (kWholeReadFactor), rather than read reach by reach.
   bool readWhole(ForcingKind kind) const;
 
-  /// A variable is read whole, in file order, when reading one reach's
-  /// series would decompress or step over more than this many times its
-  /// own values: chunks that hold many reaches each (chunks of one time
-  /// step across all reaches, say), or contiguous (time, reach) storage,
-  /// where a reach's values lie one row of the whole file apart. Reading
-  /// such a file reach by reach reads it again for every reach.
+  /// A variable is read whole, in file order, at the first `fill` of its
+  /// kind, when reading one reach's series would decompress or step over
+  /// more than this many times its own values: chunks that hold many
+  /// reaches each (chunks of one time step across all reaches, say), or
+  /// contiguous (time, reach) storage, where a reach's values lie one row
+  /// of the whole file apart. Reading such a file reach by reach reads it
+  /// again for every reach.
   static constexpr double kWholeReadFactor = 8;
-  /// ... unless the whole variable is larger than this (bytes): then it
-  /// is read reach by reach, slowly, rather than held in memory.
+  /// ... while all variables held so by the process (ensemble members
+  /// each have their own source) stay within this many bytes; beyond it a
+  /// variable is read reach by reach, slowly, rather than held in memory.
   static constexpr std::size_t kWholeReadMaxBytes = std::size_t{16} << 30;
 
 private:
@@ -120,14 +123,19 @@ private:
     double fill = 0;
     double scale = 1;              ///< scale_factor × unit conversion
     double offset = 0;             ///< add_offset × unit conversion
-    /// The raw values read whole, reach by reach ([reach][time]), in the
-    /// file's own type; both empty when read on demand.
+    /// Read whole (kWholeReadFactor): how, and the raw values once read,
+    /// reach by reach ([reach][time]) in the file's own type (at the first
+    /// fill; both stay empty when the process's budget is spent).
+    bool whole = false, is_float = false;
+    int storage = 0;
+    std::size_t chunks[2] = {0, 0};
+    std::size_t bytes = 0;  ///< reserved from the budget, once read
+    std::once_flag once;
     std::vector<float> whole_float;
     std::vector<double> whole_double;
   };
   void openVariable(ForcingKind kind);
-  void readVariableWhole(ForcingKind kind, Variable& v, bool is_float, int storage,
-                         const std::size_t* chunks);
+  void readVariableWhole(ForcingKind kind, Variable& v) const;
   void readAxis();
   void readIds();
 
@@ -137,7 +145,7 @@ private:
   routing::TimeAxis axis_;
   std::vector<std::string> ids_;
   std::unordered_map<std::string, std::size_t> index_;
-  Variable vars_[2];
+  mutable Variable vars_[2];  ///< mutable: read whole at the first fill
 };
 
 /// The variable of observed discharge in a NetCDF observations file.
