@@ -406,8 +406,7 @@ void NetcdfForcingSource::openVariable(ForcingKind kind) {
   }
   v.whole = ids_.size() > 1 && per_reach > kWholeReadFactor * steps;
   v.is_float = type == NC_FLOAT;
-  v.storage = storage;
-  v.chunks[0] = chunks[0], v.chunks[1] = chunks[1];
+  v.outer_chunk = storage == NC_CHUNKED ? std::max<std::size_t>(1, chunks[0]) : 1;
 }
 
 void NetcdfForcingSource::readVariableWhole(ForcingKind kind, Variable& v) const {
@@ -424,8 +423,9 @@ void NetcdfForcingSource::readVariableWhole(ForcingKind kind, Variable& v) const
     // blocks are turned round into [reach][time], (reach, time) ones go
     // straight there.
     const std::size_t outer = v.time_first ? steps : reaches, inner = v.time_first ? reaches : steps;
-    const std::size_t unit = v.storage == NC_CHUNKED ? std::max<std::size_t>(1, v.chunks[0]) : 1;
+    const std::size_t unit = v.outer_chunk;
     const std::size_t block = unit * std::max<std::size_t>(1, (std::size_t{64} << 20) / (unit * inner * elem));
+    const std::string what = fmt::format("reading {} in file order", kindName(kind));
     std::vector<float> whole_float, buf_float;
     std::vector<double> whole_double, buf_double;
     if (v.is_float) whole_float.resize(steps * reaches);
@@ -434,7 +434,6 @@ void NetcdfForcingSource::readVariableWhole(ForcingKind kind, Variable& v) const
     for (std::size_t o0 = 0; o0 < outer; o0 += block) {
       const std::size_t rows = std::min(block, outer - o0);
       const std::size_t start[2] = {o0, 0}, count[2] = {rows, inner};
-      const std::string what = fmt::format("reading {} in file order", kindName(kind));
       const auto read = [&](auto& whole, auto& buf, auto get) {
         if (!v.time_first) {  // (reach, time): already reach by reach
           detail::check(get(ncid_, v.varid, start, count, whole.data() + o0 * steps), path_, what);
@@ -484,12 +483,14 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
   const auto it = index_.find(std::string(id));
   if (it == index_.end()) return none();
   if (v.whole) std::call_once(v.once, [&] { readVariableWhole(kind, v); });
+  const auto copy = [&](const auto& whole) {
+    const auto from = whole.begin() + static_cast<std::ptrdiff_t>(it->second * axis_.steps);
+    std::copy(from, from + static_cast<std::ptrdiff_t>(axis_.steps), out.begin());
+  };
   if (!v.whole_float.empty()) {
-    const float* from = v.whole_float.data() + it->second * axis_.steps;
-    std::copy(from, from + axis_.steps, out.begin());
+    copy(v.whole_float);
   } else if (!v.whole_double.empty()) {
-    const double* from = v.whole_double.data() + it->second * axis_.steps;
-    std::copy(from, from + axis_.steps, out.begin());
+    copy(v.whole_double);
   } else {
     const std::size_t r = it->second;
     const std::size_t start[2] = {v.time_first ? 0 : r, v.time_first ? r : 0};

@@ -127,8 +127,7 @@ private:
     /// reach by reach ([reach][time]) in the file's own type (at the first
     /// fill; both stay empty when the process's budget is spent).
     bool whole = false, is_float = false;
-    int storage = 0;
-    std::size_t chunks[2] = {0, 0};
+    std::size_t outer_chunk = 1;  ///< rows of the first dimension per chunk (1: not chunked)
     std::size_t bytes = 0;  ///< reserved from the budget, once read
     std::once_flag once;
     std::vector<float> whole_float;
