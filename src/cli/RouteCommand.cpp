@@ -452,7 +452,13 @@ int route(const RouteOptions& o, std::ostream& out, std::ostream& err) {
   if (!o.speaks()) return kExitOk;
   const std::vector<io::LakeOutput> lakes = run::routedLakes(s);
   if (o.demo || !o.quiet) printRunSummary(out, err, s, lakes, o);
-  if (o.timings) progress.times().print(out);
+  if (o.timings) {
+    progress.times().print(out);
+    const routing::NetworkResults& r = s.results;
+    if (r.series_read_ahead + r.series_read_on_demand > 0)
+      fmt::print(out, "  forcing series read ahead {}, read when asked {}\n", r.series_read_ahead,
+                 r.series_read_on_demand);
+  }
   return kExitOk;
 }
 

@@ -43,6 +43,10 @@ public:
     const auto& s = of(kind);
     return s ? s->origin(kind) : std::string();
   }
+  bool readsOnDemand(ForcingKind kind) const override {
+    const auto& s = of(kind);
+    return s && s->readsOnDemand(kind);
+  }
 
 private:
   const std::unique_ptr<ForcingSource>& of(ForcingKind kind) const {

@@ -472,6 +472,10 @@ std::vector<std::string> NetcdfForcingSource::ids(ForcingKind kind) const {
   return out;
 }
 
+bool NetcdfForcingSource::readsOnDemand(ForcingKind kind) const {
+  return vars_[kind == ForcingKind::Inflow ? 0 : 1].varid >= 0;
+}
+
 bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<double> out) const {
   REACHWISE_ASSERT(out.size() == axis_.steps);
   const auto none = [&] {

@@ -14,11 +14,13 @@
 #include <condition_variable>
 #include <cstdio>
 #include <deque>
+#include <iterator>
 #include <memory>
 #include <mutex>
 #include <string>
 
 #include "reachwise/Error.hpp"
+#include "ReadAhead.hpp"
 #include "reachwise/routing/Peak.hpp"
 
 namespace reachwise::routing {
@@ -142,6 +144,24 @@ private:
     std::vector<std::uint32_t> roots;
     for (std::uint32_t i = 0; i < n_; ++i)
       if (plan_.isHeadwater(i)) roots.push_back(i);
+    // The headwaters are handed out in plan order, a few at a time (an
+    // iterator that only goes forward: the threading library then takes
+    // them in turn, instead of splitting the list among the threads), so
+    // that reaches are routed about in routingOrder(), the order forcing is
+    // read ahead in.
+    struct InTurn {
+      using iterator_category = std::forward_iterator_tag;
+      using value_type = std::uint32_t;
+      using difference_type = std::ptrdiff_t;
+      using pointer = const std::uint32_t*;
+      using reference = const std::uint32_t&;
+      pointer at;
+      reference operator*() const { return *at; }
+      InTurn& operator++() { return ++at, *this; }
+      InTurn operator++(int) { return InTurn{at++}; }
+      bool operator==(const InTurn&) const = default;
+    };
+    const InTurn first{roots.data()}, last{roots.data() + roots.size()};
     auto body = [this](std::uint32_t i, tbb::feeder<std::uint32_t>& feeder) {
       routeOne(i);
       reportProgress();
@@ -158,10 +178,10 @@ private:
                                    tbb::info::default_concurrency());
       tbb::task_arena arena(std::max(threads, 1));
       results_.threads = static_cast<unsigned>(arena.max_concurrency());
-      arena.execute([&] { tbb::parallel_for_each(roots.begin(), roots.end(), body); });
+      arena.execute([&] { tbb::parallel_for_each(first, last, body); });
     } else {
       results_.threads = static_cast<unsigned>(tbb::this_task_arena::max_concurrency());
-      tbb::parallel_for_each(roots.begin(), roots.end(), body);
+      tbb::parallel_for_each(first, last, body);
     }
     if (error_) std::rethrow_exception(error_);
   }
@@ -999,8 +1019,19 @@ NetworkResults routeNetwork(const network::NetworkPlan& plan, const TimeAxis& ax
   if (axis.steps < 2) throw InvalidParameter("steps", "a run needs at least two time steps");
   REACHWISE_ASSERT(plan.up_offset.size() == plan.size() + 1);
   REACHWISE_ASSERT(plan.down_offset.size() == plan.size() + 1);
-  Scheduler scheduler(plan, axis, forcing, options, sink);
-  return scheduler.run();
+  const ForcingProvider::ReadsOnDemand slow = forcing.readsOnDemand();
+  if (!slow.inflow && !slow.lateral) return Scheduler(plan, axis, forcing, options, sink).run();
+  // Forcing read from a file while routing: read ahead, in the order the
+  // reaches this process routes are expected to be routed.
+  std::vector<bool> mine(plan.size(), true);
+  if (const Distribution* d = options.distribution; d && d->ranks && d->ranks->size() > 1 && d->owner.size() == plan.size())
+    for (std::size_t i = 0; i < plan.size(); ++i) mine[i] = d->owner[i] == d->ranks->rank();
+  const ForcingReadAhead ahead(forcing, routingOrder(plan, mine), axis.steps);
+  NetworkResults results = Scheduler(plan, axis, ahead, options, sink).run();
+  const ForcingReadAhead::Counts counts = ahead.counts();
+  results.series_read_ahead = counts.ahead;
+  results.series_read_on_demand = counts.on_demand;
+  return results;
 }
 
 }  // namespace reachwise::routing

@@ -134,6 +134,10 @@ bool PlanForcing::lateral(std::uint32_t reach, std::span<double> out) const {
   return true;
 }
 
+routing::ForcingProvider::ReadsOnDemand PlanForcing::readsOnDemand() const {
+  return {source_.readsOnDemand(io::ForcingKind::Inflow), source_.readsOnDemand(io::ForcingKind::Lateral)};
+}
+
 RunForcing::RunForcing(const ForcingFiles& files, const network::NetworkPlan& plan, units::System unit,
                        const std::map<std::string, std::string, std::less<>>* dropped_in_lake)
     : opened_(openChecked(files, plan, unit, dropped_in_lake)), bound_(*opened_.source, plan) {

@@ -279,6 +279,10 @@ TEST(Route, NetcdfForcingGivesTheSameRunAsCsv) {
   nc_request.forcing.lateral = tmp.file("lateral.nc");
   const run::RouteSummary nc = run::route(nc_request);
   ASSERT_EQ(nc.results.reaches.size(), csv.results.reaches.size());
+  // The lateral inflow is read from the file while routing, ahead of the
+  // reaches (each reach's series once); the CSV inflow is in memory.
+  EXPECT_EQ(nc.results.series_read_ahead + nc.results.series_read_on_demand, nc.plan.size());
+  EXPECT_EQ(csv.results.series_read_ahead + csv.results.series_read_on_demand, 0u);
   for (std::size_t i = 0; i < csv.results.reaches.size(); ++i) {
     const double q = csv.results.reaches[i].peak_q_m3s;
     EXPECT_NEAR(nc.results.reaches[i].peak_q_m3s, q, 1e-9 * q) << csv.plan.reach_id[i];

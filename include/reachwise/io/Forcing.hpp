@@ -104,6 +104,10 @@ public:
   /// File (or other name) the series of `kind` came from, for messages.
   virtual std::string origin(ForcingKind kind) const = 0;
 
+  /// Whether series of `kind` are read from a file as they are asked for
+  /// (rather than held in memory): the router then reads them ahead.
+  virtual bool readsOnDemand(ForcingKind /*kind*/) const { return false; }
+
   bool inflow(std::string_view id, std::vector<double>& out) const {
     return series(ForcingKind::Inflow, id, out);
   }

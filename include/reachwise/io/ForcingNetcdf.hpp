@@ -97,6 +97,9 @@ public:
   std::vector<std::string> ids(ForcingKind kind) const override;
   using ForcingSource::ids;
   std::string origin(ForcingKind) const override { return path_.string(); }
+  /// True when the file has the variable of `kind`: its series are read
+  /// when asked for (or, laid out time by time, all at the first).
+  bool readsOnDemand(ForcingKind kind) const override;
 
   bool has(ForcingKind kind, std::string_view id) const;
   /// Whether the variable of `kind` is held in memory, read whole at its

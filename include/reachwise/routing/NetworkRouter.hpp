@@ -31,6 +31,13 @@ public:
   virtual bool inflow(std::uint32_t reach, std::span<double> out) const = 0;
   /// Total lateral inflow along the reach, m^3/s.
   virtual bool lateral(std::uint32_t reach, std::span<double> out) const = 0;
+  /// Which kinds are read from a file as they are asked for (one reader at
+  /// a time): the router then reads them ahead, on a thread of its own, in
+  /// the order it expects to route the reaches.
+  struct ReadsOnDemand {
+    bool inflow = false, lateral = false;
+  };
+  virtual ReadsOnDemand readsOnDemand() const { return {}; }
 };
 
 /// Forcing held in memory, by plan index (an empty vector = none).

@@ -204,6 +204,10 @@ struct NetworkResults {
   std::vector<std::string> warnings;   ///< summarised, one line each
   std::size_t peak_live_series = 0;    ///< most series held in memory at once
   unsigned threads = 0;                ///< worker threads the run could use
+  /// Forcing series read from a file while routing (ForcingProvider::
+  /// readsOnDemand): handed over read ahead, and read when asked because
+  /// the reading thread had not got to them.
+  std::size_t series_read_ahead = 0, series_read_on_demand = 0;
   /// Volume balance of the whole network: `inflow_m3` the point inflow (top
   /// inflow not coming from upstream reaches), `lateral_m3` the lateral
   /// inflow, `outflow_m3` what left through the outlets, `storage_change_m3`

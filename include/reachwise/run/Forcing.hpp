@@ -42,6 +42,7 @@ public:
   PlanForcing(const io::ForcingSource& source, const network::NetworkPlan& plan);
   bool inflow(std::uint32_t reach, std::span<double> out) const override;
   bool lateral(std::uint32_t reach, std::span<double> out) const override;
+  ReadsOnDemand readsOnDemand() const override;
   /// One line per cut line whose id the forcing names, saying where its
   /// series go (`cut_line_forcing <id>: ...`, docs/formats.md).
   const std::vector<std::string>& notes() const noexcept { return notes_; }
