@@ -11,6 +11,7 @@
 #include <map>
 #include <mutex>
 #include <set>
+#include <span>
 #include <cmath>
 #include <stdexcept>
 
@@ -110,12 +111,27 @@ bool sameSummary(const routing::ReachSummary& a, const routing::ReachSummary& b)
          m.above_saved_flows == n.above_saved_flows;
 }
 
+/// The same series, said to be read from a file while routing, so that the
+/// router reads them ahead (ForcingProvider::readsOnDemand).
+class OnDemand final : public routing::ForcingProvider {
+public:
+  explicit OnDemand(const routing::ForcingProvider& f) : f_(f) {}
+  bool inflow(std::uint32_t r, std::span<double> out) const override { return f_.inflow(r, out); }
+  bool lateral(std::uint32_t r, std::span<double> out) const override { return f_.lateral(r, out); }
+  ReadsOnDemand readsOnDemand() const override { return {true, true}; }
+
+private:
+  const routing::ForcingProvider& f_;
+};
+
 /// Routes `plan` among the ranks and, on rank 0, alone; checks that rank 0
-/// got exactly what one process gets.
-void expectSameAsOneProcess(const network::NetworkPlan& plan, routing::Method method) {
+/// got exactly what one process gets. `read_ahead`: among the ranks, the
+/// forcing is read ahead, each rank its own reaches' series.
+void expectSameAsOneProcess(const network::NetworkPlan& plan, routing::Method method, bool read_ahead = false) {
   const std::size_t steps = 48;
   const routing::TimeAxis axis = hourly(steps);
   const routing::MemoryForcing forcing = storm(plan, steps);
+  const OnDemand on_demand(forcing);
   routing::NetworkRouteOptions options;
   options.reach.method = method;
   options.threads = 1;
@@ -125,7 +141,11 @@ void expectSameAsOneProcess(const network::NetworkPlan& plan, routing::Method me
   std::vector<routing::ReachState> states;
   options.final_states = &states;
   Capture shared;
-  const routing::NetworkResults among = routing::routeNetwork(plan, axis, forcing, options, &shared);
+  const routing::NetworkResults among = routing::routeNetwork(
+      plan, axis, read_ahead ? static_cast<const routing::ForcingProvider&>(on_demand) : forcing, options, &shared);
+  const auto mine = static_cast<std::size_t>(std::count(partition.owner.begin(), partition.owner.end(), g_ranks->rank()));
+  // Each rank's reaches ask for inflow and lateral inflow once each.
+  EXPECT_EQ(among.series_read_ahead + among.series_read_on_demand, read_ahead ? 2 * mine : 0u);
   if (g_ranks->rank() != 0) return;
 
   routing::NetworkRouteOptions alone_options = options;
@@ -178,6 +198,9 @@ TEST(RanksRouting, OneBasinCutIntoPartsGivesWhatOneProcessGives) {
     EXPECT_GT(partition.cut_links, 0u);
   }
   expectSameAsOneProcess(plan, routing::Method::VariableParameter);
+  // Reaches below another rank's wait for its messages; read ahead with
+  // the rest, their series still arrive once.
+  expectSameAsOneProcess(plan, routing::Method::VariableParameter, true);
 }
 
 TEST(RanksRouting, AReachFailingOnOneRankFailsEveryRankWithItsMessage) {
