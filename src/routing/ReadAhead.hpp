@@ -27,7 +27,10 @@ namespace reachwise::routing {
 /// the reaches below it that it leaves with nothing more to wait for (the
 /// last of their upstream reaches). The workers take headwaters in plan
 /// order and what they make ready first, so on several threads the order is
-/// this one, interleaved. Every reach of `mine` appears once.
+/// this one, interleaved. Every reach of `mine` appears once; one whose
+/// upstream reaches are all another rank's counts as a headwater (it comes
+/// when their outflows do, so its series may wait in memory or, once the
+/// bound is full, be read when asked).
 std::vector<std::uint32_t> routingOrder(const network::NetworkPlan& plan, const std::vector<bool>& mine);
 
 class ForcingReadAhead final : public ForcingProvider {
