@@ -288,6 +288,37 @@ TEST(Route, NetcdfForcingGivesTheSameRunAsCsv) {
     EXPECT_NEAR(nc.results.reaches[i].peak_q_m3s, q, 1e-9 * q) << csv.plan.reach_id[i];
   }
 
+  // A value missing inside one reach's series, read ahead of that reach:
+  // the run fails naming the file, the reach and the time, and leaves no
+  // output behind.
+  {
+    int nc = -1, v = -1, ids = -1;
+    ASSERT_EQ(nc_open(tmp.file("lateral.nc").c_str(), NC_WRITE, &nc), NC_NOERR);
+    ASSERT_EQ(nc_inq_varid(nc, "lateral", &v), NC_NOERR);
+    ASSERT_EQ(nc_inq_varid(nc, "reach_id", &ids), NC_NOERR);
+    double fill = 0;
+    ASSERT_EQ(nc_get_att_double(nc, v, "_FillValue", &fill), NC_NOERR);
+    const std::size_t at[2] = {10, 3};  // (time, reach)
+    ASSERT_EQ(nc_put_var1_double(nc, v, at, &fill), NC_NOERR);
+    char* id = nullptr;
+    ASSERT_EQ(nc_get_var1_string(nc, ids, &at[1], &id), NC_NOERR);
+    const std::string bad_reach = id;
+    nc_free_string(1, &id);
+    ASSERT_EQ(nc_close(nc), NC_NOERR);
+    run::RouteRequest bad = sampleRequest(tmp.file("bad.gpkg"));
+    bad.forcing.lateral = tmp.file("lateral.nc");
+    try {
+      run::route(bad);
+      ADD_FAILURE() << "a missing value inside a series was accepted";
+    } catch (const InputError& e) {
+      EXPECT_EQ(e.where().file, tmp.file("lateral.nc")) << e.what();
+      EXPECT_EQ(e.where().reach_id, bad_reach) << e.what();
+      EXPECT_FALSE(e.where().time.empty()) << e.what();
+      EXPECT_NE(std::string(e.what()).find("_FillValue"), std::string::npos) << e.what();
+    }
+    EXPECT_FALSE(fs::exists(tmp.file("bad.gpkg")));
+  }
+
   // A NetCDF file without the variable of its kind is refused by name.
   run::RouteRequest wrong = sampleRequest(tmp.file("w.gpkg"));
   wrong.forcing = {tmp.file("lateral.nc"), "", std::nullopt};
