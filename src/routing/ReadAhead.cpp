@@ -61,7 +61,7 @@ void ForcingReadAhead::read() {
         // Without room for one more series (with nothing held there always
         // is), wait until half the bound is free: woken once per half the
         // bound rather than once per series handed over.
-        if (held_bytes_ > 0 && held_bytes_ + kOverhead + steps_ * sizeof(double) > max_bytes_) {
+        if (held_bytes_ > 0 && held_bytes_ + bytes(true) > max_bytes_) {
           reader_waits_ = true;
           space_.wait(lock, [&] { return stop_ || held_bytes_ <= max_bytes_ / 2; });
           reader_waits_ = false;
@@ -83,7 +83,7 @@ void ForcingReadAhead::read() {
       bool wake;
       {
         const std::lock_guard lock(mutex_);
-        held_bytes_ += bytes(h);
+        held_bytes_ += bytes(h.has);
         held_[kind].emplace(reach, std::move(h));
         state_[kind][reach] = Ready;
         wake = waiting_ > 0;
@@ -115,7 +115,7 @@ bool ForcingReadAhead::take(int kind, std::uint32_t reach, std::span<double> out
   const auto it = held_[kind].find(reach);
   Held h = std::move(it->second);
   held_[kind].erase(it);
-  held_bytes_ -= bytes(h);
+  held_bytes_ -= bytes(h.has);
   st = Gone;
   ++counts_.ahead;
   const bool wake = reader_waits_ && held_bytes_ <= max_bytes_ / 2;

@@ -74,8 +74,9 @@ private:
   bool take(int kind, std::uint32_t reach, std::span<double> out) const;
   bool readInner(int kind, std::uint32_t reach, std::span<double> out) const;
   void read();
-  std::size_t bytes(const Held& h) const { return kOverhead + (h.has ? steps_ * sizeof(double) : 0); }
-  /// Counted for every series held, also one found empty.
+  /// What a series counts against the bound: its values, if it has any,
+  /// and kOverhead for every series held, also one found empty.
+  std::size_t bytes(bool has) const { return kOverhead + (has ? steps_ * sizeof(double) : 0); }
   static constexpr std::size_t kOverhead = 64;
 
   const ForcingProvider& inner_;
