@@ -15,6 +15,7 @@
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
+#include <limits>
 #include <optional>
 #include <utility>
 
@@ -329,14 +330,39 @@ hydraulics::RatingTable ratingTableFor(RouteContext& ctx, const hydraulics::Sect
   return t;
 }
 
+/// Celerity and diffusion length at kSamples flows evenly over the range
+/// that matters for the peak, [Q_ref, Q_peak].
+struct FlowSamples {
+  static constexpr int kSamples = 33;
+  double c[kSamples], ell[kSamples];
+  FlowSamples(const RouteContext& ctx, const hydraulics::RatingTable& table, double slope) {
+    const double q0 = std::max(ctx.q_ref_m3s, table.bottomDischarge()), q1 = std::max(ctx.q_peak_m3s, q0);
+    for (int i = 0; i < kSamples; ++i) {
+      const double q = q0 + (q1 - q0) * i / (kSamples - 1);
+      double t;
+      table.celerityAndWidth(q, c[i], t);
+      ell[i] = diffusionLength(q, t, slope, c[i]);
+    }
+  }
+  bool celerityVariesBy(double factor) const {
+    const auto [lo, hi] = std::minmax_element(c, c + kSamples);
+    return *hi >= factor * *lo;
+  }
+};
+
+/// The cell's diffusion length against the channel's ℓ on sub-reaches of
+/// Δx when the wave moves ct in a sub-step: the cell diffuses c Δx D'/2
+/// with D' = ℓ/Δx held in [D_min, 1 + C] (D_min Δx = max(ct − Δx,
+/// β Δx − ct), β = in_new_bound), so the mismatch is ℓ − Δx − ct where
+/// D > 1 + C (too little), D_min Δx − ℓ where D < D_min (too much), and 0
+/// in between.
+double diffusionMismatch(double dx, double ct, double ell, double in_new_bound) {
+  return std::max({0.0, ell - dx - ct, lowestCellDiffusion(ct / dx, in_new_bound) * dx - ell});
+}
+
 /// The grid of the conservative cell over the range of flows that matter
-/// for the peak, [Q_ref, Q_peak] (docs/methods.md §4). At flow q the cell's
-/// numerical diffusion is c Δx D'/2, with D' the cell diffusion ratio
-/// D = ℓ/Δx held in [D_min, 1 + C] (positivity), against the channel's
-/// ν = c ℓ/2, ℓ = q/(T S0 c). Its relative mismatch at q is
-///   (ℓ − Δx − cΔt)/ℓ where D > 1 + C (too little diffusion),
-///   (D_min Δx − ℓ)/ℓ where D < D_min (too much), 0 in between,
-/// with D_min = lowestCellDiffusion(C, in_new_bound).
+/// for the peak, [Q_ref, Q_peak] (docs/methods.md §4). At flow q the
+/// relative mismatch of the cell's diffusion is diffusionMismatch / ℓ.
 /// Where the celerity varies by less than a factor kCelerityRange over the
 /// range, the grid of the reference flow is kept (it meets the targets on
 /// the accuracy matrix, and refining it cost 2.5 x on the short-reach
@@ -346,27 +372,12 @@ hydraulics::RatingTable ratingTableFor(RouteContext& ctx, const hydraulics::Sect
 /// of grids within 0.01 of the smallest, the cheapest.
 constexpr double kCelerityRange = 2.0, kRangeGridCost = 16.0;
 
-Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, double slope, Grid g0,
-               double in_new_bound) {
-  constexpr int kSamples = 33;
-  double c[kSamples], ell[kSamples];
-  const double q0 = std::max(ctx.q_ref_m3s, table.bottomDischarge()), q1 = std::max(ctx.q_peak_m3s, q0);
-  for (int i = 0; i < kSamples; ++i) {
-    const double q = q0 + (q1 - q0) * i / (kSamples - 1);
-    double t;
-    table.celerityAndWidth(q, c[i], t);
-    ell[i] = diffusionLength(q, t, slope, c[i]);
-  }
-  const auto [c_lo, c_hi] = std::minmax_element(c, c + kSamples);
-  if (*c_hi < kCelerityRange * *c_lo) return g0;
+Grid rangeGrid(const RouteContext& ctx, const FlowSamples& s, Grid g0, double in_new_bound) {
   const double length = ctx.reach.length_m;
   const auto worst = [&](double dx, double dt) {
     double e = 0;
-    for (int i = 0; i < kSamples; ++i) {
-      const double ct = c[i] * dt;
-      const double d_min = lowestCellDiffusion(ct / dx, in_new_bound);
-      e = std::max({e, (ell[i] - dx - ct) / ell[i], (d_min * dx - ell[i]) / ell[i]});
-    }
+    for (int i = 0; i < FlowSamples::kSamples; ++i)
+      e = std::max(e, diffusionMismatch(dx, s.c[i] * dt, s.ell[i], in_new_bound) / s.ell[i]);
     return e;
   };
   // Each mismatch is a convex function of Δx (linear, or the maximum of two
@@ -403,6 +414,45 @@ Grid rangeGrid(const RouteContext& ctx, const hydraulics::RatingTable& table, do
   return best;
 }
 
+
+/// A cheaper grid than g0 for the conservative cell where the wave crosses
+/// sub-reaches in about a sub-step (docs/methods.md §4, "Coarser grids on
+/// quick reaches"). With a diffusion length ℓ far below the distance the
+/// wave moves in a sub-step, the band of Δx that matches the channel's
+/// diffusion, |ℓ − cΔt_sub| <= Δx <= ℓ + cΔt_sub, is narrow, and g0 takes
+/// many sub-reaches and sub-steps to land in it. Here, at each sampled flow,
+/// the mismatch (diffusionMismatch) may exceed g0's own by
+/// budget × c × t_rise: the extra diffusivity is then at most
+/// budget c² t_rise / 2, which widens a wave's spread in time, σ², by at
+/// most budget × t_rise per unit of travel time (σ² = 2 ν L / c³ for a
+/// diffusivity ν over a length L), however the reaches of a path are cut.
+/// Mismatch <= b is the band widened by b, Δx ∈ [|ℓ − ct| − b,
+/// (ct + ℓ + b)/β], so for each sub-step count the fewest sub-reaches follow
+/// in closed form; the cheapest grid (m × k) is taken.
+Grid economyGrid(const RouteContext& ctx, const FlowSamples& s, Grid g0, double in_new_bound, double budget) {
+  constexpr int n = FlowSamples::kSamples;
+  const double length = ctx.reach.length_m, dt = ctx.dt_s;
+  double allowed[n];
+  for (int i = 0; i < n; ++i)
+    allowed[i] = diffusionMismatch(length / g0.subreaches, s.c[i] * dt / g0.substeps, s.ell[i], in_new_bound) +
+                 budget * s.c[i] * ctx.rise_s;
+  const GridLimits& lim = ctx.options.limits;
+  Grid best = g0;
+  double best_cost = double(g0.subreaches) * g0.substeps;
+  for (std::uint32_t k = 1; k <= lim.max_substeps && k < best_cost; ++k) {
+    double lo = 0, hi = std::numeric_limits<double>::infinity();
+    for (int i = 0; i < n; ++i) {
+      const double ct = s.c[i] * dt / k;
+      lo = std::max(lo, std::abs(s.ell[i] - ct) - allowed[i]);
+      hi = std::min(hi, (ct + s.ell[i] + allowed[i]) / in_new_bound);
+    }
+    const double m = std::max(1.0, std::ceil(length / hi * (1 - 1e-12)));
+    if (m > lim.max_subreaches || length / m < lo * (1 - 1e-12)) continue;
+    if (m * k < best_cost) best_cost = m * k, best.subreaches = static_cast<std::uint32_t>(m), best.substeps = k;
+  }
+  return best;
+}
+
 }  // namespace
 
 void variableCunge(RouteContext& ctx) {
@@ -420,7 +470,12 @@ void variableCunge(RouteContext& ctx) {
       Grid g0;
       g0.subreaches = ctx.numerics.subreaches;
       g0.substeps = ctx.numerics.substeps;
-      const Grid g = rangeGrid(ctx, *ctx.table, sec.bedSlope(), g0, in_new_bound);
+      const FlowSamples samples(ctx, *ctx.table, sec.bedSlope());
+      Grid g = g0;
+      if (samples.celerityVariesBy(kCelerityRange))
+        g = rangeGrid(ctx, samples, g0, in_new_bound);
+      else if (!ref.flat && o.grid_spread_budget > 0 && ctx.rise_s > 0)
+        g = economyGrid(ctx, samples, g0, in_new_bound, o.grid_spread_budget);
       // Report the grid used, with the parameters at the reference flow on it.
       if (g.subreaches != g0.subreaches || g.substeps != g0.substeps) useGrid(ctx, ref, g);
     }
