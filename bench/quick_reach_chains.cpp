@@ -8,8 +8,15 @@
 // per step the chain costs. Measures; asserts nothing
 // (tests/routing/AccuracyTest.cpp, QuickReachChainAccuracy, does).
 //
+// With --lateral: single quick reaches (0.5, 1.5 and 3 km of the matrix's
+// rectangle and trapezoid at S0 = 0.005 and 0.001) fed by the sharp wave
+// as lateral inflow over hourly steps, on base flow from the top, against
+// the reference with the same lateral inflow: peak and the shift of the
+// event's centroid (its mean time above base flow), in minutes.
+//
 //   build/bench/quick_reach_chains                 # budgets 0 and the default
 //   build/bench/quick_reach_chains 0 0.001 0.003   # those budgets
+//   build/bench/quick_reach_chains --lateral 0 0.01
 #include <cstdio>
 #include <cstdlib>
 #include <string>
@@ -20,10 +27,42 @@
 
 using namespace testsupport::accuracy;
 
+namespace {
+
+void lateralRows(const std::vector<double>& budgets) {
+  std::printf("| case | budget | cells/step | peak %% | centroid shift, min | reference delay of the centroid, min |\n");
+  std::printf("|---|---|---|---|---|---|\n");
+  for (const Case& c : matrixCasesWhere([](const Case& c) {
+         return c.slope >= 0.001 && c.length_m == 5000 && !c.broad() && std::string(c.section_name) != "two-stage";
+       })) {
+    for (const double length : {500.0, 1500.0, 3000.0}) {
+      const LateralCase lc = lateralCase(c, length);
+      for (const double b : budgets) {
+        reachwise::routing::RouteOptions o;
+        o.grid_spread_budget = b;
+        const LateralFigures f = measureLateral(c, lc, o);
+        std::printf("| %s S0 = %g, %.1f km | %g | %u | %+.2f | %+.1f | %.1f |\n", c.section_name, c.slope,
+                    length / 1000, b, f.cells, f.peak_pct, f.shift_s / 60, f.reference_delay_s / 60);
+        std::fflush(stdout);
+      }
+    }
+  }
+}
+
+}  // namespace
+
 int main(int argc, char** argv) {
   std::vector<double> budgets;
-  for (int i = 1; i < argc; ++i) budgets.push_back(std::atof(argv[i]));
+  bool lateral = false;
+  for (int i = 1; i < argc; ++i) {
+    if (std::string(argv[i]) == "--lateral") lateral = true;
+    else budgets.push_back(std::atof(argv[i]));
+  }
   if (budgets.empty()) budgets = {0.0, reachwise::routing::RouteOptions{}.grid_spread_budget};
+  if (lateral) {
+    lateralRows(budgets);
+    return 0;
+  }
   std::printf("| case | reaches | budget | cells/step | peak %% | time %% of travel | event volume %% | dip %% | overshoot %% | targets |\n");
   std::printf("|---|---|---|---|---|---|---|---|---|---|\n");
   for (const Case& c : matrixCasesWhere([](const Case& c) { return c.slope >= 0.001 && c.length_m >= 20000; })) {

@@ -45,6 +45,7 @@ struct RouteOptions {
   double gauge_snap_m = 100;
   std::optional<double> dt_s;   ///< unset: the forcing's own step
   double diffusion_below = routing::kDiffusionWaveMinPonce;
+  double spread_budget = routing::kGridSpreadBudget;
   unsigned threads = 0;
   std::size_t max_steps = io::kDefaultMaxSteps;
   std::size_t max_hydrograph_rows = run::kDefaultMaxHydrographRows;
@@ -359,6 +360,7 @@ run::RouteRequest requestOf(const RouteOptions& o) {
   r.max_hydrograph_rows = o.max_hydrograph_rows;
   r.method = *run::methodFromName(o.method);  // CLI11 and the run file admit only the method names
   r.diffusion_below_ponce = o.diffusion_below;
+  r.grid_spread_budget = o.spread_budget;
   r.threads = o.threads;
   r.command_line = o.command_line;
   r.initial_state = o.initial_state;
@@ -535,6 +537,11 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--diffusion-below", o->diffusion_below,
                   "vpmc routes reaches whose Ponce number is below this with the diffusion wave (default 30; 0: never)")
       ->check(CLI::NonNegativeNumber);
+  sub->add_option("--spread-budget", o->spread_budget,
+                  fmt::format("vpmc on quick reaches: diffusion its grid may add, as a fraction of the distance the "
+                              "wave moves while it rises (default {}; 0: the grid of the reference flow)",
+                              routing::kGridSpreadBudget))
+      ->check(CLI::Range(0.0, 0.1));
   sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(timeStepCheck());
   sub->add_option("--max-steps", o->max_steps,
                   fmt::format("Most time steps the run may have (default {})", io::kDefaultMaxSteps))

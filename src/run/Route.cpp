@@ -196,6 +196,7 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
     requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
     summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.forcingUnits());
     ro = networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
+    ro.reach.grid_spread_budget = request.grid_spread_budget;
     if (!request.initial_state.empty()) {
       tell.stage("reading " + request.initial_state);
       start_states = bindState(request.initial_state, io::readStateFile(request.initial_state), request, net, plan,

@@ -83,6 +83,10 @@ TEST(RouteOptions, ErrorsGiveExitCodesAndOneLinePerProblem) {
   // So is a negative Ponce number for the diffusion hand-over.
   EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("d.gpkg") + " --diffusion-below -1").code, 2);
   EXPECT_FALSE(fs::exists(tmp.file("d.gpkg")));
+  // And a spread budget outside [0, 0.1].
+  for (const char* b : {"-0.001", "0.5"})
+    EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("g.gpkg") + " --spread-budget " + b).code, 2) << b;
+  EXPECT_FALSE(fs::exists(tmp.file("g.gpkg")));
   // A network with errors: each error on its own line, then the refusal.
   const Outcome cycle = run("route " + kSample + "cycle.gpkg" + kStorm + " --out " + tmp.file("c.gpkg"));
   EXPECT_EQ(cycle.code, 1);
@@ -117,4 +121,33 @@ TEST(RouteOptions, TheTimeStepComesFromTheFlagOrTheRunFileOrTheForcing) {
   EXPECT_EQ(steps(kStorm + " --config " + tmp.file("run.toml")), halved);
   EXPECT_EQ(steps(kStorm + " --config " + tmp.file("run.toml") + " --dt 1800"), own);  // the flag wins
   EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("z.gpkg") + " --dt 0").code, 2);
+}
+
+// --spread-budget reaches the router: 0 keeps the grid of the reference
+// flow, a larger budget coarsens the sample network's quick reaches
+// (docs/methods.md §4, "Coarser grids on quick reaches"): fewer cells per
+// step (sub-reaches x sub-steps summed over `reaches`), never more on any
+// reach.
+TEST(RouteOptions, SpreadBudgetCoarsensQuickReaches) {
+  const testsupport::TempDir tmp;
+  std::map<std::string, long long> cells[2];
+  const char* budgets[] = {"0", "0.01"};
+  for (int i = 0; i < 2; ++i) {
+    const fs::path out = tmp.file(std::string("b") + budgets[i] + ".gpkg");
+    ASSERT_EQ(run("route " + kNetwork + kStorm + " --quiet --spread-budget " + budgets[i] + " --out " + out.string()).code, 0);
+    auto ds = open(out);
+    ASSERT_TRUE(ds);
+    OGRLayer* layer = ds->GetLayerByName("reaches");
+    ASSERT_NE(layer, nullptr);
+    for (auto& f : *layer)
+      cells[i][f->GetFieldAsString("reach_id")] =
+          static_cast<long long>(f->GetFieldAsInteger64("subreaches")) * f->GetFieldAsInteger64("substeps");
+  }
+  ASSERT_EQ(cells[0].size(), cells[1].size());
+  long long total[2] = {0, 0};
+  for (const auto& [id, c] : cells[0]) {
+    EXPECT_LE(cells[1][id], c) << id;
+    total[0] += c, total[1] += cells[1][id];
+  }
+  EXPECT_LT(total[1], total[0]);
 }

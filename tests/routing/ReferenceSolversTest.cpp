@@ -66,6 +66,29 @@ TEST(DiffusionWaveReference, MassConservedToRoundOff) {
   EXPECT_NEAR(run.inflow_m3, eventVolume(in, 0.0, dt), 1e-12 * run.inflow_m3);
 }
 
+// Lateral inflow, spread evenly over the reach, enters the cells' balances:
+// mass is still conserved to round-off (same bound as above) with the
+// lateral volume counted as inflow, and a lateral inflow that rises and
+// then holds brings the outflow to the top inflow plus the lateral inflow
+// (the steady state of continuity with q_L; exact identity), to 1e-6 of it.
+TEST(DiffusionWaveReference, LateralInflowEntersTheBalance) {
+  const Section s = Section::rectangle(30, 0.035, 0.002);
+  const double dt = 3600, base = 5, lateral_peak = 20;
+  const std::size_t samples = 72;
+  std::vector<double> in(samples, base), lat(samples, lateral_peak);
+  for (std::size_t i = 0; i < 7; ++i) lat[i] = lateral_peak * double(i) / 6;  // 0 -> peak over 6 h, then held
+  DiffusionWaveGrid grid;
+  grid.cells = 60;
+  grid.substeps = 8;
+  grid.buffer_m = 3000;
+  const DiffusionWaveRun run = routeDiffusionWave(s, 6000, in, dt, grid, lat);
+  const double lat_volume = eventVolume(lat, 0.0, dt), in_volume = eventVolume(in, 0.0, dt);
+  EXPECT_NEAR(run.inflow_m3, in_volume + lat_volume, 1e-12 * run.inflow_m3);
+  EXPECT_NEAR(run.inflow_m3 - run.outflow_m3 - run.storage_change_m3, 0.0, 1e-10 * lat_volume);
+  EXPECT_NEAR(run.outflow_m3s.back(), base + lateral_peak, 1e-6 * (base + lateral_peak));
+  EXPECT_THROW(routeDiffusionWave(s, 6000, in, dt, grid, std::vector<double>(samples, 1.0)), std::invalid_argument);
+}
+
 // Small waves: against the exact linear diffusion wave (Hayami 1951) on a
 // wide rectangle, with c = dQ/dA and nu = Q / (2 T S0) at the mean flow of
 // the wave (the linearisation of the zero-inertia equations; Ponce 1989

@@ -33,11 +33,11 @@ struct ReachSpec {
   double muskingum_x = std::numeric_limits<double>::quiet_NaN();
 };
 
-/// The default RouteOptions::grid_spread_budget: chosen on the 100k-reach
+/// The default RouteOptions::grid_spread_budget, chosen on the 100k-reach
 /// synthetic network (docs/methods.md §4, "Coarser grids on quick
-/// reaches"): 0.001 halves the cells and moves no peak time by more than a
-/// quarter of an hour; 0.003 and 0.01 cost fewer cells still but moved
-/// peak times by more than 15 minutes on 1.4 % and 9 % of the reaches.
+/// reaches"): 0.001 halves the cells and moves no outlet hydrograph's
+/// centroid by more than 10 minutes; 0.003 and 0.01 cost fewer cells
+/// still but moved centroids by up to half an hour.
 inline constexpr double kGridSpreadBudget = 0.001;
 
 struct RouteOptions {

@@ -50,6 +50,8 @@ struct RouteRequest {
   /// `vpmc` hands reaches with a Ponce number below this to the diffusion
   /// wave (routing::RouteOptions::diffusion_below_ponce); 0: never.
   double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
+  /// `vpmc` on quick reaches (routing::RouteOptions::grid_spread_budget).
+  double grid_spread_budget = routing::kGridSpreadBudget;
   unsigned threads = 0;              ///< worker threads; 0 = all cores
   OutputRequest outputs;
   /// Most hydrograph rows (chosen reaches × steps) the run may write

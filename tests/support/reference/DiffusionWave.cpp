@@ -34,9 +34,11 @@ struct SlopeRoot {
 
 DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
                                     std::span<const double> inflow, double dt_out,
-                                    const DiffusionWaveGrid& grid) {
+                                    const DiffusionWaveGrid& grid, std::span<const double> lateral) {
   if (grid.cells < 2 || grid.substeps < 1 || inflow.size() < 2 || !(length_m > 0) || !(dt_out > 0))
     throw std::invalid_argument("routeDiffusionWave: bad grid or inflow");
+  if (!lateral.empty() && (lateral.size() != inflow.size() || lateral[0] != 0))
+    throw std::invalid_argument("routeDiffusionWave: lateral inflow of another length, or not starting at 0");
   const double s0 = section.bedSlope();
   const double sqrt_s0 = std::sqrt(s0);
   const double theta = grid.theta;
@@ -102,13 +104,17 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
   // tridiagonal Jacobian (a below, b on, c above the diagonal), and the
   // largest residual as a depth, max |res_i| / (dx_i T_i).
   std::vector<double> res(m), a(m), b(m), c(m), cp(m), dp(m), start(m);
+  // Lateral inflow per metre at the step's two ends (theta-weighted as the fluxes).
+  double lat_old = 0, lat_new = 0;
   auto assemble = [&](double q_in) {
     evaluate();
     fluxes(q_in);
     double largest = 0;
+    const double lat = theta * lat_new + (1 - theta) * lat_old;
     for (std::size_t i = 0; i < m; ++i) {
       res[i] = dx[i] * (area[i] - old_area[i]) +
-               dt * (theta * (flux[i + 1] - flux[i]) + (1 - theta) * (old_flux[i + 1] - old_flux[i]));
+               dt * (theta * (flux[i + 1] - flux[i]) + (1 - theta) * (old_flux[i + 1] - old_flux[i])) -
+               (i < n_reach ? dt * lat * dx[i] : 0.0);
       b[i] = dx[i] * width[i] + dt * theta * (dl[i + 1] - (i > 0 ? dr[i] : 0.0));
       c[i] = i + 1 < m ? dt * theta * dr[i + 1] : 0.0;
       a[i] = i > 0 ? -dt * theta * dl[i] : 0.0;
@@ -120,6 +126,8 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
   for (std::size_t step = 1; step <= steps; ++step) {
     const double t = static_cast<double>(step) * dt;
     const double q_in = sampleAt(inflow, dt_out, t);
+    lat_old = lat_new;
+    lat_new = lateral.empty() ? 0.0 : sampleAt(lateral, dt_out, t) / length_m;
     // Newton's method with a backtracking line search on the largest
     // residual (in metres of depth): near the bank of a two-stage section
     // A(y) and K(y) have kinks, where plain Newton can cycle.
@@ -154,7 +162,8 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
     }
     if (!done)
       throw std::runtime_error("routeDiffusionWave: Newton did not converge at step " + std::to_string(step));
-    run.inflow_m3 += dt * (theta * flux[0] + (1 - theta) * old_flux[0]);
+    run.inflow_m3 += dt * (theta * flux[0] + (1 - theta) * old_flux[0]) +
+                     dt * (theta * lat_new + (1 - theta) * lat_old) * length_m;
     run.outflow_m3 += dt * (theta * flux[n_reach] + (1 - theta) * old_flux[n_reach]);
     run.end_outflow_m3 += dt * (theta * flux[m] + (1 - theta) * old_flux[m]);
     old_flux = flux;
@@ -169,8 +178,11 @@ DiffusionWaveRun routeDiffusionWave(const Section& section, double length_m,
 
 ConvergedRun convergeDiffusionWave(const Section& section, double length_m,
                                    std::span<const double> inflow, double dt_s, double rise_s,
-                                   const Refinement& refinement) {
-  const FirstGrid first = firstGrid(section, length_m, inflow, dt_s, rise_s, refinement);
+                                   const Refinement& refinement, std::span<const double> lateral) {
+  // The first grid from the flows the reach carries: top and lateral inflow together.
+  std::vector<double> total(inflow.begin(), inflow.end());
+  for (std::size_t i = 0; i < lateral.size() && i < total.size(); ++i) total[i] += lateral[i];
+  const FirstGrid first = firstGrid(section, length_m, total, dt_s, rise_s, refinement);
   DiffusionWaveGrid grid;
   grid.cells = first.cells;
   grid.substeps = first.substeps;
@@ -179,7 +191,7 @@ ConvergedRun convergeDiffusionWave(const Section& section, double length_m,
   grid.theta = refinement.theta;
   return refineUntilSettled<DiffusionWaveRun>(grid, inflow.front(), dt_s, refinement,
                                               [&](const DiffusionWaveGrid& g) {
-                                                return routeDiffusionWave(section, length_m, inflow, dt_s, g);
+                                                return routeDiffusionWave(section, length_m, inflow, dt_s, g, lateral);
                                               });
 }
 

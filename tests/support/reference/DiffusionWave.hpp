@@ -7,7 +7,9 @@
 ///
 /// Equations (prismatic channel, bed slope S0, depth y(x, t), stage
 /// h = z_bed + y):
-///   continuity     dA/dt + dQ/dx = 0                    (Saint-Venant 1871)
+///   continuity     dA/dt + dQ/dx = q_L                  (Saint-Venant 1871;
+///                  q_L the lateral inflow per metre, spread evenly over
+///                  [0, L], none over the buffer)
 ///   zero inertia   S_f = S0 − dy/dx                     (the momentum equation
 ///                  without its two inertia terms: Hayami 1951; Ponce 1989,
 ///                  *Engineering Hydrology* ch. 9)
@@ -50,7 +52,7 @@ struct DiffusionWaveRun {
   std::vector<double> outflow_m3s;  ///< flux through x = L at each inflow sample time
   // Volumes over [0, L] for the whole run, m^3 (the flux of a step is the
   // theta-weighted mean of its ends, as the scheme uses it).
-  double inflow_m3 = 0;
+  double inflow_m3 = 0;   ///< top and lateral inflow
   double outflow_m3 = 0;
   double storage_change_m3 = 0;
   double end_outflow_m3 = 0;        ///< through the end of the buffer
@@ -62,11 +64,13 @@ struct DiffusionWaveRun {
 
 /// Routes `inflow_m3s` (samples dt_s apart, linear in between) through a
 /// uniform channel of the given section and length on the given grid,
-/// starting from steady uniform flow at the first sample. Throws
-/// std::runtime_error if Newton fails to converge.
+/// starting from steady uniform flow at the first sample. `lateral_m3s`
+/// (empty, or samples at the same times): inflow over the whole reach,
+/// spread evenly along it; its first sample must be 0 (the start is
+/// uniform flow). Throws std::runtime_error if Newton fails to converge.
 DiffusionWaveRun routeDiffusionWave(const reachwise::hydraulics::Section& section, double length_m,
                                     std::span<const double> inflow_m3s, double dt_s,
-                                    const DiffusionWaveGrid& grid);
+                                    const DiffusionWaveGrid& grid, std::span<const double> lateral_m3s = {});
 
 /// The diffusion-wave reference refined until its outflow peak settles
 /// (Refinement.hpp).
@@ -86,6 +90,6 @@ using ConvergedRun = Converged<DiffusionWaveRun, DiffusionWaveGrid>;
 /// fails is skipped (counted) and refined.
 ConvergedRun convergeDiffusionWave(const reachwise::hydraulics::Section& section, double length_m,
                                    std::span<const double> inflow_m3s, double dt_s, double rise_s,
-                                   const Refinement& refinement = {});
+                                   const Refinement& refinement = {}, std::span<const double> lateral_m3s = {});
 
 }  // namespace testsupport::reference
