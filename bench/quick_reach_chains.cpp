@@ -32,9 +32,7 @@ namespace {
 void lateralRows(const std::vector<double>& budgets) {
   std::printf("| case | budget | cells/step | peak %% | centroid shift, min | reference delay of the centroid, min |\n");
   std::printf("|---|---|---|---|---|---|\n");
-  for (const Case& c : matrixCasesWhere([](const Case& c) {
-         return c.slope >= 0.001 && c.length_m == 5000 && !c.broad() && std::string(c.section_name) != "two-stage";
-       })) {
+  for (const Case& c : lateralRowCases()) {
     for (const double length : {500.0, 1500.0, 3000.0}) {
       const LateralCase lc = lateralCase(c, length);
       for (const double b : budgets) {
@@ -66,10 +64,7 @@ int main(int argc, char** argv) {
   std::printf("| case | reaches | budget | cells/step | peak %% | time %% of travel | event volume %% | dip %% | overshoot %% | targets |\n");
   std::printf("|---|---|---|---|---|---|---|---|---|---|\n");
   for (const Case& c : matrixCasesWhere([](const Case& c) { return c.slope >= 0.001 && c.length_m >= 20000; })) {
-    ref::Refinement refinement;
-    refinement.tolerance = 2e-3;
-    refinement.min_levels = 2;
-    const Reference r = solveReference(c, refinement);
+    const Reference r = solveReference(c, testRefinement());
     const std::vector<double> lengths = chainLengths(c.length_m, 500.0);
     for (const double b : budgets) {
       reachwise::routing::RouteOptions o;

@@ -64,10 +64,7 @@ class VariableCungeAccuracy : public ::testing::TestWithParam<Case> {};
 
 TEST_P(VariableCungeAccuracy, MeetsTargetsAgainstDiffusionWave) {
   const Case& c = GetParam();
-  ref::Refinement refinement;
-  refinement.tolerance = 2e-3;
-  refinement.min_levels = 2;
-  const Reference r = solveReference(c, refinement);
+  const Reference r = solveReference(c, testRefinement());
   ASSERT_TRUE(r.run.converged) << c.name();
   // The default method, vpmc, three-point, which routes these rows itself
   // (Ponce number >= 30: no hand-over).
@@ -187,10 +184,7 @@ class QuickReachChainAccuracy : public ::testing::TestWithParam<Case> {};
 
 TEST_P(QuickReachChainAccuracy, CoarserGridKeepsTheReferenceGridsAccuracy) {
   const Case& c = GetParam();
-  ref::Refinement refinement;
-  refinement.tolerance = 2e-3;
-  refinement.min_levels = 2;
-  const Reference r = solveReference(c, refinement);
+  const Reference r = solveReference(c, testRefinement());
   ASSERT_TRUE(r.run.converged) << c.name();
   const std::vector<double> lengths = chainLengths(c.length_m, 500.0);
   RouteOptions fine;
@@ -251,8 +245,4 @@ TEST_P(QuickReachLateralAccuracy, LateralInflowArrivesOnTime) {
   }
 }
 
-INSTANTIATE_TEST_SUITE_P(Matrix, QuickReachLateralAccuracy, ::testing::ValuesIn(matrixCasesWhere([](const Case& c) {
-                           return c.slope >= 0.001 && c.length_m == 5000 && !c.broad() &&
-                                  std::string(c.section_name) != "two-stage";
-                         })),
-                         caseName);
+INSTANTIATE_TEST_SUITE_P(Matrix, QuickReachLateralAccuracy, ::testing::ValuesIn(lateralRowCases()), caseName);
