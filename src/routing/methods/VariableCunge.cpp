@@ -414,7 +414,6 @@ Grid rangeGrid(const RouteContext& ctx, const FlowSamples& s, Grid g0, double in
   return best;
 }
 
-
 /// A cheaper grid than g0 for the conservative cell where the wave crosses
 /// sub-reaches in about a sub-step (docs/methods.md §4, "Coarser grids on
 /// quick reaches"). With a diffusion length ℓ far below the distance the
