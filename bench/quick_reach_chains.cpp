@@ -33,7 +33,7 @@ void lateralRows(const std::vector<double>& budgets) {
   std::printf("| case | budget | cells/step | peak %% | centroid shift, min | reference delay of the centroid, min |\n");
   std::printf("|---|---|---|---|---|---|\n");
   for (const Case& c : lateralRowCases()) {
-    for (const double length : {500.0, 1500.0, 3000.0}) {
+    for (const double length : kLateralLengths) {
       const LateralCase lc = lateralCase(c, length);
       for (const double b : budgets) {
         reachwise::routing::RouteOptions o;
