@@ -18,7 +18,7 @@ if [[ $type == Asan ]]; then build="${1:-$here/build-asan}"; else build="${1:-$h
 
 packages=(
   build-essential cmake pkg-config git
-  libgdal-dev gdal-bin python3-gdal libgeos-dev libgeographiclib-dev
+  libgdal-dev gdal-bin python3-gdal libsqlite3-dev libgeos-dev libgeographiclib-dev
   libboost-graph-dev libtbb-dev libeigen3-dev
   libtomlplusplus-dev libcli11-dev libfmt-dev libnetcdf-dev netcdf-bin
   libcairo2-dev libnlopt-cxx-dev libxml2-dev

@@ -5,9 +5,12 @@
 #include <cpl_conv.h>
 #include <fmt/format.h>
 #include <gdal_priv.h>
+#include <ogr_p.h>
 #include <ogrsf_frmts.h>
+#include <sqlite3.h>
 
 #include <cmath>
+#include <limits>
 #include <condition_variable>
 #include <deque>
 #include <mutex>
@@ -129,6 +132,79 @@ CPLConfigOptionSetter spatialIndexThreads(bool allowed) {
 }
 
 }  // namespace
+
+/// The rows of a GeoPackage's `hydrographs`, added with SQLite itself on
+/// GDAL's own connection (inside its transaction): one prepared INSERT,
+/// the row's reach id and time bound as text (the times formatted once
+/// per run, by GDAL's own formatter, so the text is what GDAL stores), the
+/// values as numbers (NULL for a missing one). GDAL creates the table and
+/// its index. Its feature-count trigger, which ran an UPDATE for every
+/// row, is dropped while the rows come in and put back by finish(), with
+/// the count, as GDAL leaves them (GDAL does the same for its own rows).
+/// Through OGR each row cost a feature, a date-time formatted again and
+/// that UPDATE (docs/performance.md, "Hydrograph rows through SQLite").
+struct GpkgResultsWriter::SeriesRows {
+  sqlite3* db = nullptr;
+  sqlite3_stmt* insert = nullptr;
+  std::vector<std::string> times;   ///< the text of each output step's time
+
+  SeriesRows(const fs::path& file, GDALDataset& ds, const std::string& table, const std::vector<Column>& columns,
+             const routing::TimeAxis& axis, int utc_offset_min)
+      : db(static_cast<sqlite3*>(ds.GetInternalHandle("SQLITE_HANDLE"))) {
+    if (!db) failAt(file, "GDAL gives no SQLite connection to the GeoPackage", table);
+    std::string names, marks;
+    for (const auto& c : columns) {
+      names += (names.empty() ? "" : ", ") + quotedIdentifier(c.name);
+      marks += marks.empty() ? "?" : ", ?";
+    }
+    const std::string sql = "INSERT INTO " + quotedIdentifier(table) + " (" + names + ") VALUES (" + marks + ")";
+    const std::string drop = "DROP TRIGGER IF EXISTS " + quotedIdentifier("trigger_insert_feature_count_" + table);
+    if (sqlite3_exec(db, drop.c_str(), nullptr, nullptr, nullptr) != SQLITE_OK ||
+        sqlite3_prepare_v2(db, sql.c_str(), -1, &insert, nullptr) != SQLITE_OK)
+      failAt(file, std::string("cannot prepare the rows (") + sqlite3_errmsg(db) + ")", table);
+    times.reserve(axis.steps);
+    for (std::size_t k = 0; k < axis.steps; ++k) {
+      const auto w = results::wallClock(axis.at(static_cast<double>(k)), utc_offset_min);
+      OGRField field;
+      field.Date.Year = static_cast<GInt16>(w.year);
+      field.Date.Month = static_cast<GByte>(w.month);
+      field.Date.Day = static_cast<GByte>(w.day);
+      field.Date.Hour = static_cast<GByte>(w.hour);
+      field.Date.Minute = static_cast<GByte>(w.minute);
+      field.Date.Second = w.second;
+      field.Date.TZFlag = static_cast<GByte>(w.tz_flag);
+      char* text = OGRGetXMLDateTime(&field, /*bAlwaysMillisecond=*/true);
+      times.emplace_back(text);
+      CPLFree(text);
+    }
+  }
+  ~SeriesRows() { sqlite3_finalize(insert); }
+  SeriesRows(const SeriesRows&) = delete;
+  SeriesRows& operator=(const SeriesRows&) = delete;
+
+  /// Binds parameter `i` (from 1) to `v`, NULL when it is NaN.
+  void bindValue(int i, double v) const {
+    if (std::isnan(v)) sqlite3_bind_null(insert, i);
+    else sqlite3_bind_double(insert, i, v);
+  }
+  /// Puts back GDAL's feature-count trigger and records the count, `rows`.
+  void finish(const fs::path& file, const std::string& table, std::size_t rows) const {
+    const std::string sql = fmt::format(
+        "CREATE TRIGGER {0} AFTER INSERT ON {1} BEGIN UPDATE gpkg_ogr_contents SET feature_count = "
+        "feature_count + 1 WHERE lower(table_name) = lower({2}); END; "
+        "UPDATE gpkg_ogr_contents SET feature_count = {3} WHERE lower(table_name) = lower({2})",
+        quotedIdentifier("trigger_insert_feature_count_" + table), quotedIdentifier(table), quotedLiteral(table),
+        rows);
+    if (sqlite3_exec(db, sql.c_str(), nullptr, nullptr, nullptr) != SQLITE_OK)
+      failAt(file, std::string("cannot count the rows (") + sqlite3_errmsg(db) + ")", table);
+  }
+  /// Adds the row bound so far.
+  void add(const fs::path& file, const std::string& table) const {
+    const int rc = sqlite3_step(insert);
+    sqlite3_reset(insert);
+    if (rc != SQLITE_DONE) failAt(file, std::string("cannot write a row (") + sqlite3_errmsg(db) + ")", table);
+  }
+};
 
 /// What the router's threads hand to the writing thread.
 struct GpkgResultsWriter::BackgroundJob {
@@ -366,6 +442,7 @@ GpkgResultsWriter::~GpkgResultsWriter() {
   } catch (...) {
     // A destructor must not throw (joining the thread could, in principle).
   }
+  series_rows_.reset();  // its statement ends before GDAL's connection does
   if (committed_) return;
   try {
     if (ds_) {
@@ -471,6 +548,7 @@ void GpkgResultsWriter::openSeriesTable() {
   ds_->ExecuteSQL(fmt::format("CREATE INDEX \"idx_{0}_reach_id\" ON \"{0}\" (reach_id)", series).c_str(),
                   nullptr, nullptr);
   if (CPLGetLastErrorType() >= CE_Failure) failAt(target_, "cannot index " + series, series);
+  series_rows_ = std::make_unique<SeriesRows>(target_, *ds_, series, columns, axis_, timeOffsetMin(axis_.utc_offset_min));
 }
 
 void GpkgResultsWriter::openLakeSeriesTable() {
@@ -546,19 +624,40 @@ void GpkgResultsWriter::insertAt(OGRLayer& layer, OGRFeature& row, std::size_t f
 
 void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const double> q_m3s,
                                         std::span<const double> depth_m, std::span<const double> velocity_ms) {
-  OGRFeature& f = *series_feature_;
   const int c0 = options_.member_column ? 1 : 0;   // the first column after `member`
+  const auto value = [this](std::span<const double> s, std::size_t k, Quantity quantity) {
+    return s.empty() || std::isnan(s[k]) ? std::numeric_limits<double>::quiet_NaN()
+                                         : toOutputUnits(options_.units, quantity, s[k]);
+  };
+  if (series_rows_) {
+    const SeriesRows& rows = *series_rows_;
+    const std::string& id = plan_.reach_id[reach];
+    for (std::size_t k = 0; k < axis_.steps; ++k) {
+      // Text bound without a copy: the member, the id and the times outlive the step.
+      if (options_.member_column) sqlite3_bind_text(rows.insert, 1, member_.c_str(), -1, SQLITE_STATIC);
+      sqlite3_bind_text(rows.insert, c0 + 1, id.c_str(), static_cast<int>(id.size()), SQLITE_STATIC);
+      sqlite3_bind_text(rows.insert, c0 + 2, rows.times[k].c_str(), static_cast<int>(rows.times[k].size()),
+                        SQLITE_STATIC);
+      rows.bindValue(c0 + 3, value(q_m3s, k, Quantity::Discharge));
+      if (options_.depth_velocity) {
+        rows.bindValue(c0 + 4, value(depth_m, k, Quantity::Length));
+        rows.bindValue(c0 + 5, value(velocity_ms, k, Quantity::Velocity));
+      }
+      rows.add(target_, series_layer_->GetName());
+      countRow();
+    }
+    return;
+  }
+  OGRFeature& f = *series_feature_;
   if (options_.member_column) f.SetField(0, member_.c_str());
   f.SetField(c0, plan_.reach_id[reach].c_str());
-  const auto value = [this](std::span<const double> s, std::size_t k, Quantity quantity) {
-    return s.empty() || std::isnan(s[k]) ? Value{} : Value{toOutputUnits(options_.units, quantity, s[k])};
-  };
+  const auto field = [](double v) { return std::isnan(v) ? Value{} : Value{v}; };
   for (std::size_t k = 0; k < axis_.steps; ++k) {
     setDateTime(f, c0 + 1, axis_.at(static_cast<double>(k)), timeOffsetMin(axis_.utc_offset_min));
-    setValue(f, c0 + 2, value(q_m3s, k, Quantity::Discharge), 0);
+    setValue(f, c0 + 2, field(value(q_m3s, k, Quantity::Discharge)), 0);
     if (options_.depth_velocity) {
-      setValue(f, c0 + 3, value(depth_m, k, Quantity::Length), 0);
-      setValue(f, c0 + 4, value(velocity_ms, k, Quantity::Velocity), 0);
+      setValue(f, c0 + 3, field(value(depth_m, k, Quantity::Length)), 0);
+      setValue(f, c0 + 4, field(value(velocity_ms, k, Quantity::Velocity)), 0);
     }
     insert(target_, *series_layer_, f);
     countRow();
@@ -841,6 +940,7 @@ void GpkgResultsWriter::commit(OutputCommit* into) {
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
   if (!schema_.empty()) finishDatabaseTables();
+  if (series_rows_) series_rows_->finish(target_, series_layer_->GetName(), hydrograph_rows_);
   if (write_back_ && into) {
     // The transaction ends after every other output is in place, so that a
     // failure there puts them back (OutputCommit::addFinal).
@@ -848,6 +948,7 @@ void GpkgResultsWriter::commit(OutputCommit* into) {
       if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
       describeTables();
       series_feature_.reset();
+      series_rows_.reset();
       ds_.reset();
       committed_ = true;
     });
@@ -856,6 +957,7 @@ void GpkgResultsWriter::commit(OutputCommit* into) {
   if (ds_->CommitTransaction() != OGRERR_NONE) fail("cannot finish writing");
   describeTables();
   series_feature_.reset();
+  series_rows_.reset();
   ds_.reset();  // closes and flushes the file before it is renamed
   if (!write_back_) {
     committed_ = true;  // from here on the OutputCommit owns the file

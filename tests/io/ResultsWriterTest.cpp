@@ -419,6 +419,53 @@ TEST(GpkgResultsWriter, WritesOnlySelectedHydrographs) {
                InvalidParameter);
 }
 
+/// The value of the first row of a one-row SQL query, as text.
+std::string sqlText(GDALDataset& ds, const std::string& sql) {
+  OGRLayer* result = ds.ExecuteSQL(sql.c_str(), nullptr, "SQLITE");
+  EXPECT_NE(result, nullptr) << sql;
+  if (!result) return {};
+  std::unique_ptr<OGRFeature> f(result->GetNextFeature());
+  std::string out = f && f->IsFieldSetAndNotNull(0) ? f->GetFieldAsString(0) : "(null)";
+  ds.ReleaseResultSet(result);
+  return out;
+}
+
+TEST(GpkgResultsWriter, HydrographRowsAreCountedAndStoredAsGdalStoresThem) {
+  // The rows go in through SQLite rather than OGR: the file must still be
+  // what GDAL itself writes. GeoPackage 1.2 (OGC 12-128r15), DATETIME:
+  // "YYYY-MM-DDTHH:MM:SS.SSSZ"; gpkg_ogr_contents holds the feature count
+  // and a trigger keeps it as rows are added (GDAL's own extension).
+  fixtures::TempDir dir;
+  const Network net;
+  const fs::path out = dir.file("out.gpkg");
+  writeGpkg(net, out);
+  {
+    auto ds = openVector(out);
+    ASSERT_TRUE(ds);
+    const std::string rows = sqlText(*ds, "SELECT COUNT(*) FROM hydrographs");
+    EXPECT_EQ(rows, "15");  // 3 reaches × 5 steps
+    EXPECT_EQ(sqlText(*ds, "SELECT feature_count FROM gpkg_ogr_contents WHERE table_name = 'hydrographs'"), rows);
+    EXPECT_EQ(sqlText(*ds, "SELECT time || '' FROM hydrographs WHERE reach_id = 'A' AND q = 4"), "2026-05-01T01:00:00.000Z");
+    EXPECT_EQ(sqlText(*ds, "SELECT typeof(time) || typeof(q) FROM hydrographs LIMIT 1"), "textreal");
+    // A missing value (NaN; the fixture's second step) is NULL, as OGR writes an unset field.
+    EXPECT_EQ(sqlText(*ds, "SELECT typeof(velocity) FROM hydrographs WHERE reach_id = 'A' AND q = 1"), "null");
+    EXPECT_EQ(sqlText(*ds, "SELECT typeof(velocity) FROM hydrographs WHERE reach_id = 'A' AND q = 2"), "real");
+  }
+  {
+    // A row added later through OGR is counted by the trigger.
+    std::unique_ptr<GDALDataset> ds(GDALDataset::Open(out.c_str(), GDAL_OF_VECTOR | GDAL_OF_UPDATE));
+    ASSERT_TRUE(ds);
+    OGRLayer& series = *ds->GetLayerByName("hydrographs");
+    OGRFeature f(series.GetLayerDefn());
+    f.SetField("reach_id", "A");
+    ASSERT_EQ(series.CreateFeature(&f), OGRERR_NONE);
+  }
+  auto ds = openVector(out);
+  ASSERT_TRUE(ds);
+  EXPECT_EQ(ds->GetLayerByName("hydrographs")->GetFeatureCount(), 16);
+  EXPECT_EQ(sqlText(*ds, "SELECT feature_count FROM gpkg_ogr_contents WHERE table_name = 'hydrographs'"), "16");
+}
+
 TEST(GpkgResultsWriter, CallerMistakesAreInternalErrorsAndLeaveNothing) {
   fixtures::TempDir dir;
   const Network net;

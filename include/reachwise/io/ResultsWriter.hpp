@@ -299,6 +299,8 @@ private:
   OGRLayer* series_layer_ = nullptr;
   OGRLayer* lake_series_layer_ = nullptr;
   std::unique_ptr<OGRFeature> series_feature_;   ///< reused for every row
+  struct SeriesRows;
+  std::unique_ptr<SeriesRows> series_rows_;      ///< a GeoPackage's: its rows through SQLite
   OGRLayer* reaches_layer_ = nullptr;
   std::unique_ptr<OGRFeature> reach_feature_;    ///< reused for every row of `reaches`
   std::vector<bool> reach_written_;              ///< per plan reach: its row is in `reaches`
