@@ -55,7 +55,8 @@ int main(int argc, char** argv) {
     t0 = Clock::now();
     for (std::uint32_t m = 0; m < e.size(); ++m) {
       routing::NetworkRouteOptions ro = run::networkRouteOptions(e.network(), e.plan(), request.method,
-                                                                 request.diffusion_below_ponce, threads);
+                                                                 request.diffusion_below_ponce,
+                                                                 request.grid_spread_budget, threads);
       std::vector<routing::LakeRouting> lakes;
       ro.lake_results = &lakes;
       (void)routing::routeNetwork(e.plan(), e.axis(), e.forcing(m).provider(), ro, nullptr);

@@ -34,6 +34,8 @@ struct CalibrateOptions {
   std::string lower_from = "--lower", upper_from = "--upper";
   unsigned threads = 0;
   std::optional<double> dt_s;   ///< unset: the forcing's own step
+  double diffusion_below = routing::kDiffusionWaveMinPonce;   ///< route --diffusion-below
+  double spread_budget = routing::kGridSpreadBudget;          ///< route --spread-budget
   std::size_t max_steps = io::kDefaultMaxSteps;
   bool overwrite = false;
 };
@@ -80,6 +82,8 @@ void writeRunFile(const CalibrateOptions& o, const run::CalibrationResult& resul
   if (!o.inflow.empty()) route.insert("inflow", absolute(o.inflow));
   if (!o.lateral.empty()) route.insert("lateral", absolute(o.lateral));
   route.insert("method", o.method);
+  route.insert("diffusion_below", o.diffusion_below);
+  route.insert("spread_budget", o.spread_budget);
   if (o.dt_s) route.insert("dt", *o.dt_s);
   // The calibrated network is SI (a prepared network); its run's outputs
   // stay in the units of the network calibrated.
@@ -133,6 +137,7 @@ void writeCalibrationReport(const CalibrateOptions& o, const run::CalibrateReque
   route.forcing = request.forcing;
   route.method = request.method;
   route.diffusion_below_ponce = request.diffusion_below_ponce;
+  route.grid_spread_budget = request.grid_spread_budget;
   route.threads = request.threads;
   route.gauges = request.gauges;
   route.outputs.report_dir = o.report;
@@ -167,6 +172,8 @@ int calibrate(const CalibrateOptions& o, std::ostream& out, std::ostream& err) {
   request.forcing.max_steps = o.max_steps;
   request.gauges = {o.observed, o.gauges, o.gauges_layer, o.gauge_snap_m};
   request.method = *run::methodFromName(o.method);
+  request.diffusion_below_ponce = o.diffusion_below;
+  request.grid_spread_budget = o.spread_budget;
   request.threads = o.threads;
   auto& s = request.settings;
   s.parameter = o.parameter == "width" ? run::CalibrationParameter::Width
@@ -255,6 +262,7 @@ void addCalibrateCommand(CLI::App& app, Runner& chosen) {
   sub->add_option("--lakes-layer", o->lakes_layer, "Layer of the lakes (default: the only polygon layer)");
   sub->add_option("--method", o->method, "Routing method (default vpmc)")
       ->check(CLI::IsMember(run::methodNames()));
+  addVpmcOptions(*sub, o->diffusion_below, o->spread_budget);
   sub->add_option("--parameter", o->parameter, "What is fitted: n (Manning's n, default), width, or kx (Muskingum K and X, with --method muskingum)")
       ->check(CLI::IsMember({"n", "width", "kx"}));
   sub->add_option("--objective", o->objective, "kge (default), nse or nse_peak (peak-weighted NSE)")

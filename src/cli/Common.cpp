@@ -9,6 +9,7 @@
 
 #include "Subcommand.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/routing/ReachRouter.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::cli {
@@ -33,6 +34,18 @@ CLI::Validator timeStepCheck() {
 }
 
 std::string threadsHelp() { return fmt::format("Worker threads, 1 to {} (default: all cores)", kMostThreads); }
+
+void addVpmcOptions(CLI::App& sub, double& diffusion_below, double& spread_budget) {
+  sub.add_option("--diffusion-below", diffusion_below,
+                 fmt::format("vpmc routes reaches whose Ponce number is below this with the diffusion wave "
+                             "(default {}; 0: never)", routing::kDiffusionWaveMinPonce))
+      ->check(CLI::NonNegativeNumber);
+  sub.add_option("--spread-budget", spread_budget,
+                 fmt::format("vpmc on quick reaches: diffusion its grid may add, as a fraction of the distance the "
+                             "wave moves while it rises (default {}; 0: the grid of the reference flow)",
+                             routing::kGridSpreadBudget))
+      ->check(CLI::Range(0.0, routing::kMaxGridSpreadBudget));
+}
 
 int guarded(std::ostream& err, const std::string& subject, const std::function<int()>& body) {
   try {

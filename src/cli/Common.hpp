@@ -24,6 +24,11 @@ CLI::Validator timeStepCheck();
 /// The help text of `--threads`.
 std::string threadsHelp();
 
+/// Adds `--diffusion-below` and `--spread-budget` (vpmc's hand-over to the
+/// diffusion wave and its grid on quick reaches) to `sub`, into the two
+/// values given.
+void addVpmcOptions(CLI::App& sub, double& diffusion_below, double& spread_budget);
+
 /// Runs `body`; a reachwise::Error becomes one line on `err` and exit 1,
 /// anything else an internal-error line and exit 3. `subject` names what
 /// was being worked on, for the out-of-memory message.

@@ -485,6 +485,8 @@ void applyRunFile(const CLI::App& sub, RouteOptions& o) {
   take("--members", o.members, c.members);
   take("--method", o.method, c.method);
   take("--dt", o.dt_s, c.dt_s);
+  take("--diffusion-below", o.diffusion_below, c.diffusion_below);
+  take("--spread-budget", o.spread_budget, c.spread_budget);
   take("--out", o.out, c.out);
   take("--schema", o.schema, c.schema);
   take("--csv", o.csv, c.csv);
@@ -534,14 +536,7 @@ void addRouteCommand(CLI::App& app, Runner& chosen, const std::string& command_l
   sub->add_option("--method", o->method,
                   "vpmc (default), mc, muskingum or diffusion (slow on steep reaches; vpmc already uses it on flat ones)")
       ->check(CLI::IsMember(run::methodNames()));
-  sub->add_option("--diffusion-below", o->diffusion_below,
-                  "vpmc routes reaches whose Ponce number is below this with the diffusion wave (default 30; 0: never)")
-      ->check(CLI::NonNegativeNumber);
-  sub->add_option("--spread-budget", o->spread_budget,
-                  fmt::format("vpmc on quick reaches: diffusion its grid may add, as a fraction of the distance the "
-                              "wave moves while it rises (default {}; 0: the grid of the reference flow)",
-                              routing::kGridSpreadBudget))
-      ->check(CLI::Range(0.0, 0.1));
+  addVpmcOptions(*sub, o->diffusion_below, o->spread_budget);
   sub->add_option("--dt", o->dt_s, "Output/forcing time step, s (default: the inflow file's)")->check(timeStepCheck());
   sub->add_option("--max-steps", o->max_steps,
                   fmt::format("Most time steps the run may have (default {})", io::kDefaultMaxSteps))

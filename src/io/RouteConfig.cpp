@@ -11,6 +11,7 @@
 
 #include "RunFile.hpp"
 #include "reachwise/Error.hpp"
+#include "reachwise/routing/ReachRouter.hpp"
 #include "reachwise/routing/TimeAxis.hpp"
 
 namespace reachwise::io {
@@ -86,8 +87,9 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
     else if (key == "report_reaches") c.report_reaches = hydrographList(v, origin, key);
     else if (key == "method") {
       c.method = required<std::string>(v, origin, key, "a text");
-      if (*c.method != "vpmc" && *c.method != "mc" && *c.method != "muskingum")
-        throw keyError(origin, key, "expected \"vpmc\", \"mc\" or \"muskingum\", got \"" + *c.method + "\"");
+      if (*c.method != "vpmc" && *c.method != "mc" && *c.method != "muskingum" && *c.method != "diffusion")
+        throw keyError(origin, key,
+                       "expected \"vpmc\", \"mc\", \"muskingum\" or \"diffusion\", got \"" + *c.method + "\"");
     } else if (key == "units") {
       c.units = required<std::string>(v, origin, key, "a text");
       if (*c.units != "si" && *c.units != "us")
@@ -97,6 +99,14 @@ RouteConfig RouteConfig::fromString(const std::string& text, const std::string& 
       if (!std::isfinite(*c.dt_s) || !(*c.dt_s >= routing::TimeAxis::kMinStep_s))
         throw keyError(origin, key, fmt::format("must be a finite number of seconds, at least {} s",
                                                 routing::TimeAxis::kMinStep_s));
+    } else if (key == "diffusion_below") {
+      c.diffusion_below = required<double>(v, origin, key, "a number");
+      if (!std::isfinite(*c.diffusion_below) || *c.diffusion_below < 0)
+        throw keyError(origin, key, "must be a finite number, 0 or more (0: never)");
+    } else if (key == "spread_budget") {
+      c.spread_budget = required<double>(v, origin, key, "a number");
+      if (!(*c.spread_budget >= 0 && *c.spread_budget <= routing::kMaxGridSpreadBudget))
+        throw keyError(origin, key, fmt::format("must be between 0 and {}", routing::kMaxGridSpreadBudget));
     } else if (key == "max_steps" || key == "max_hydrograph_rows") {
       const auto n = required<std::int64_t>(v, origin, key, "a whole number");
       if (n < 2) throw keyError(origin, key, "must be at least 2");

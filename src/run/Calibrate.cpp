@@ -209,7 +209,8 @@ CalibrationResult calibrate(const CalibrateRequest& request) {
   std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return used_reaches[a] < used_reaches[b]; });
 
   const routing::NetworkRouteOptions whole_options =
-      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
+      networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.grid_spread_budget,
+                          request.threads);
   // Per sub-basin: the search budget, the start and the final routing;
   // then the whole network before and after.
   RoutingCount count(request.on_routing, used.size() * (settings.max_evaluations + 2) + 2);

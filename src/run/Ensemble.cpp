@@ -248,7 +248,7 @@ std::vector<MemberResult> routeMembers(const Ensemble& e, std::span<const std::u
     // Each member on one thread: members side by side use the cores
     // without the router's scheduling per reach.
     routing::NetworkRouteOptions ro =
-        networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, 1);
+        networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.grid_spread_budget, 1);
     std::vector<routing::LakeRouting> lake_routing;
     ro.lake_results = &lake_routing;
     Capture capture(e.keptSeries(), steps, r);

@@ -135,10 +135,11 @@ io::RunInfo runInfo(const RouteRequest& request, const routing::NetworkResults& 
 
 routing::NetworkRouteOptions networkRouteOptions(const LoadedNetwork& net, const network::NetworkPlan& plan,
                                                  routing::Method method, double diffusion_below_ponce,
-                                                 unsigned threads) {
+                                                 double grid_spread_budget, unsigned threads) {
   routing::NetworkRouteOptions ro;
   ro.reach.method = method;
   ro.reach.diffusion_below_ponce = diffusion_below_ponce;
+  ro.reach.grid_spread_budget = grid_spread_budget;
   ro.threads = threads;
   ro.base_flow_m3s = baseFlows(plan);
   ro.lakes = networkLakes(net, plan);
@@ -195,8 +196,8 @@ RouteSummary route(const RouteRequest& request, Progress* progress) {
         forcing_read.emplace(request.forcing, plan, net.config.forcingUnits(), &net.dropped_in_lake);
     requireHydrographRows(request.outputs.hydrographs, plan, forcing.axis().steps, request.max_hydrograph_rows);
     summary.gauges = bindGauges(request.gauges, net, plan, forcing.axis(), net.config.forcingUnits());
-    ro = networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.threads);
-    ro.reach.grid_spread_budget = request.grid_spread_budget;
+    ro = networkRouteOptions(net, plan, request.method, request.diffusion_below_ponce, request.grid_spread_budget,
+                             request.threads);
     if (!request.initial_state.empty()) {
       tell.stage("reading " + request.initial_state);
       start_states = bindState(request.initial_state, io::readStateFile(request.initial_state), request, net, plan,

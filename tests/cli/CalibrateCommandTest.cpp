@@ -50,8 +50,11 @@ TEST(CalibrateCommand, WritesARoutableCalibratedNetwork) {
   testsupport::writeObserved(dir.path() / "csv" / "hydrographs.csv", dir.path() / "obs.csv",
                              [](const std::string& id) { return id == "R13" ? 1.15 : 1.0; });
   const fs::path cal = dir.path() / "cal.gpkg";
+  // A spread budget of its own, which the run file must carry for the
+  // scores below to come back.
   const std::string args = "calibrate " + kSample + "network.gpkg" + kForcing + " --observed " +
-                           (dir.path() / "obs.csv").string() + " --out " + cal.string() + " --max-evaluations 30";
+                           (dir.path() / "obs.csv").string() + " --out " + cal.string() +
+                           " --max-evaluations 30 --spread-budget 0.01";
   const auto run = testsupport::runReachwise(args);
   ASSERT_EQ(run.code, 0) << run.err;
   EXPECT_NE(run.out.find("gauge R13 on R13"), std::string::npos) << run.out;
@@ -77,7 +80,8 @@ TEST(CalibrateCommand, WritesARoutableCalibratedNetwork) {
   EXPECT_GE(in_r13, 1u);
 
   // Routing the written network with the written run file (it names the
-  // forcing and method) gives the scores the calibration reported.
+  // forcing, method and spread budget) gives the scores the calibration
+  // reported.
   const fs::path run_file = dir.path() / "cal.toml";
   ASSERT_TRUE(fs::exists(run_file));
   EXPECT_NE(run.out.find("--config " + run_file.string()), std::string::npos) << run.out;

@@ -14,6 +14,7 @@
 
 #include "reachwise/io/Gdal.hpp"
 #include "support/Cli.hpp"
+#include "support/Members.hpp"
 #include "support/Scratch.hpp"
 
 namespace fs = std::filesystem;
@@ -123,31 +124,50 @@ TEST(RouteOptions, TheTimeStepComesFromTheFlagOrTheRunFileOrTheForcing) {
   EXPECT_EQ(run("route " + kNetwork + kStorm + " --out " + tmp.file("z.gpkg") + " --dt 0").code, 2);
 }
 
+/// reach_id -> cells per step (sub-reaches x sub-steps) from `reaches`.
+std::map<std::string, long long> cellsPerStep(const fs::path& gpkg) {
+  std::map<std::string, long long> cells;
+  auto ds = open(gpkg);
+  EXPECT_TRUE(ds) << gpkg;
+  OGRLayer* layer = ds ? ds->GetLayerByName("reaches") : nullptr;
+  EXPECT_NE(layer, nullptr);
+  if (!layer) return cells;
+  for (auto& f : *layer)
+    cells[f->GetFieldAsString("reach_id")] =
+        static_cast<long long>(f->GetFieldAsInteger64("subreaches")) * f->GetFieldAsInteger64("substeps");
+  return cells;
+}
+
 // --spread-budget reaches the router: 0 keeps the grid of the reference
 // flow, a larger budget coarsens the sample network's quick reaches
 // (docs/methods.md §4, "Coarser grids on quick reaches"): fewer cells per
 // step (sub-reaches x sub-steps summed over `reaches`), never more on any
-// reach.
+// reach. The run file's `spread_budget` does the same, and so does either
+// for an ensemble (--members), whose members route as a single run does.
 TEST(RouteOptions, SpreadBudgetCoarsensQuickReaches) {
   const testsupport::TempDir tmp;
-  std::map<std::string, long long> cells[2];
-  const char* budgets[] = {"0", "0.01"};
-  for (int i = 0; i < 2; ++i) {
-    const fs::path out = tmp.file(std::string("b") + budgets[i] + ".gpkg");
-    ASSERT_EQ(run("route " + kNetwork + kStorm + " --quiet --spread-budget " + budgets[i] + " --out " + out.string()).code, 0);
-    auto ds = open(out);
-    ASSERT_TRUE(ds);
-    OGRLayer* layer = ds->GetLayerByName("reaches");
-    ASSERT_NE(layer, nullptr);
-    for (auto& f : *layer)
-      cells[i][f->GetFieldAsString("reach_id")] =
-          static_cast<long long>(f->GetFieldAsInteger64("subreaches")) * f->GetFieldAsInteger64("substeps");
-  }
-  ASSERT_EQ(cells[0].size(), cells[1].size());
+  const auto cells = [&](const std::string& name, const std::string& args) {
+    const fs::path out = tmp.file(name + ".gpkg");
+    const Outcome r = run("route " + kNetwork + " --quiet --out " + out.string() + args);
+    EXPECT_EQ(r.code, 0) << r.err;
+    return cellsPerStep(out);
+  };
+  const auto fine = cells("b0", kStorm + " --spread-budget 0");
+  const auto coarse = cells("b001", kStorm + " --spread-budget 0.01");
+  ASSERT_EQ(fine.size(), coarse.size());
   long long total[2] = {0, 0};
-  for (const auto& [id, c] : cells[0]) {
-    EXPECT_LE(cells[1][id], c) << id;
-    total[0] += c, total[1] += cells[1][id];
+  for (const auto& [id, c] : fine) {
+    EXPECT_LE(coarse.at(id), c) << id;
+    total[0] += c, total[1] += coarse.at(id);
   }
   EXPECT_LT(total[1], total[0]);
+
+  writeText(tmp.path() / "run.toml", "[route]\nspread_budget = 0.01\n");
+  EXPECT_EQ(cells("file", kStorm + " --config " + tmp.file("run.toml")), coarse);
+  EXPECT_EQ(cells("flag_wins", kStorm + " --config " + tmp.file("run.toml") + " --spread-budget 0"), fine);
+
+  testsupport::writeScaledMembers(tmp.path() / "members", {1.0, 1.0}, "f");
+  const std::string members = " --members " + tmp.file("members") + " --lateral " + kSample + "lateral.csv";
+  EXPECT_EQ(cells("members_fine", members + " --spread-budget 0"), fine);
+  EXPECT_EQ(cells("members_coarse", members + " --spread-budget 0.01"), coarse);
 }

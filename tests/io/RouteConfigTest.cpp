@@ -17,6 +17,8 @@ lateral = "/data/lat.nc"
 members = "forecast/m-*.csv"
 method = "mc"
 dt = 900
+diffusion_below = 12.5
+spread_budget = 0.003
 out = "out.gpkg"
 csv = "tables"
 series = "s.nc"
@@ -36,6 +38,8 @@ units = "us"
   EXPECT_EQ(*c.members, "/runs/a/forecast/m-*.csv");
   EXPECT_EQ(*c.method, "mc");
   EXPECT_EQ(*c.dt_s, 900.0);
+  EXPECT_EQ(*c.diffusion_below, 12.5);
+  EXPECT_EQ(*c.spread_budget, 0.003);
   EXPECT_EQ(*c.out, "/runs/a/out.gpkg");
   EXPECT_EQ(*c.csv, "/runs/a/tables");
   EXPECT_EQ(*c.series, "/runs/a/s.nc");
@@ -73,4 +77,10 @@ TEST(RouteConfig, BadValuesNameTheFileAndKey) {
   EXPECT_NE(message("[route]\nunits = \"feet\"\n").find("route.units"), std::string::npos);
   EXPECT_NE(message("[route]\nunits = 1\n").find("route.units"), std::string::npos);
   EXPECT_NE(message("[route\n").find("run.toml"), std::string::npos);
+  // The ranges route's flags take: a Ponce number of 0 or more, a budget in [0, 0.1].
+  EXPECT_NE(message("[route]\ndiffusion_below = -1\n").find("route.diffusion_below"), std::string::npos);
+  EXPECT_NE(message("[route]\ndiffusion_below = nan\n").find("route.diffusion_below"), std::string::npos);
+  EXPECT_NE(message("[route]\nspread_budget = 0.2\n").find("route.spread_budget"), std::string::npos);
+  EXPECT_NE(message("[route]\nspread_budget = -0.001\n").find("route.spread_budget"), std::string::npos);
+  EXPECT_EQ(message("[route]\nspread_budget = 0\ndiffusion_below = 0\nmethod = \"diffusion\"\n"), "no error");
 }

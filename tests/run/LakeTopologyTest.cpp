@@ -510,7 +510,8 @@ TEST(LakeTopology, CalibrationAtAChannelLeavingATwoOutflowLake) {
   for (auto& s : plan.section) s = s.withRoughnessScaled(1.3);
   const run::RunForcing forcing({at("inflow.csv"), "", {}}, plan);
   const routing::NetworkRouteOptions options =
-      run::networkRouteOptions(*net, plan, routing::Method::VariableParameter, routing::kDiffusionWaveMinPonce, 1);
+      run::networkRouteOptions(*net, plan, routing::Method::VariableParameter, routing::kDiffusionWaveMinPonce,
+                               routing::kGridSpreadBudget, 1);
   ASSERT_EQ(options.lakes.size(), 1u);
   Keep truth;
   (void)routing::routeNetwork(plan, forcing.axis(), forcing.provider(), options, &truth);

@@ -16,6 +16,8 @@ struct RouteConfig {
   std::optional<std::string> units;   ///< output units, "si" or "us" (unset: the network's)
   std::optional<std::string> save_state, initial_state;  ///< saved state written / started from
   std::optional<double> dt_s;
+  std::optional<double> diffusion_below;   ///< Ponce number below which vpmc hands a reach to the diffusion wave
+  std::optional<double> spread_budget;     ///< vpmc's grid on quick reaches (RouteOptions::grid_spread_budget)
   std::optional<unsigned> threads;
   std::optional<std::size_t> max_steps, max_hydrograph_rows;
   std::optional<bool> write_back, overwrite, quiet, timings;

@@ -39,6 +39,10 @@ struct ReachSpec {
 /// centroid by more than 10 minutes; 0.003 and 0.01 cost fewer cells
 /// still but moved centroids by up to half an hour.
 inline constexpr double kGridSpreadBudget = 0.001;
+/// The largest budget the command line and run file take: 0.1 already
+/// lets a grid spread a wave by a tenth of the distance it moves while it
+/// rises, far beyond any budget measured (docs/methods.md §4).
+inline constexpr double kMaxGridSpreadBudget = 0.1;
 
 struct RouteOptions {
   Method method = Method::VariableParameter;

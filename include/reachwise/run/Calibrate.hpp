@@ -70,6 +70,7 @@ struct CalibrateRequest {
   GaugeFiles gauges;
   routing::Method method = routing::Method::VariableParameter;
   double diffusion_below_ponce = routing::kDiffusionWaveMinPonce;
+  double grid_spread_budget = routing::kGridSpreadBudget;   ///< RouteRequest::grid_spread_budget
   unsigned threads = 0;
   CalibrationSettings settings;
   /// Told of each sub-basin when done (one call at a time, from any

@@ -130,11 +130,12 @@ struct RouteSummary {
 };
 
 /// How route() routes `plan` (routablePlan(net)): the method, the Ponce
-/// hand-over to the diffusion wave, threads, base flows and lakes. For
-/// callers that route one network many times (e.g. calibration).
+/// hand-over to the diffusion wave, vpmc's grid budget on quick reaches
+/// (routing::RouteOptions::grid_spread_budget), threads, base flows and
+/// lakes. For callers that route one network many times (e.g. calibration).
 routing::NetworkRouteOptions networkRouteOptions(const LoadedNetwork& net, const network::NetworkPlan& plan,
                                                  routing::Method method, double diffusion_below_ponce,
-                                                 unsigned threads);
+                                                 double grid_spread_budget, unsigned threads);
 
 /// Routes `request`. Throws NetworkHasErrors when the network cannot be
 /// routed, InputError naming file / feature / field for bad input or an
