@@ -144,13 +144,16 @@ CPLConfigOptionSetter spatialIndexThreads(bool allowed) {
 /// Through OGR each row cost a feature, a date-time formatted again and
 /// that UPDATE (docs/performance.md, "Hydrograph rows through SQLite").
 struct GpkgResultsWriter::SeriesRows {
+  fs::path file;       ///< what the user named, for messages
+  std::string table;
   sqlite3* db = nullptr;
   sqlite3_stmt* insert = nullptr;
   std::vector<std::string> times;   ///< the text of each output step's time
 
-  SeriesRows(const fs::path& file, GDALDataset& ds, const std::string& table, const std::vector<Column>& columns,
+  SeriesRows(fs::path file_in, GDALDataset& ds, std::string table_in, const std::vector<Column>& columns,
              const routing::TimeAxis& axis, int utc_offset_min)
-      : db(static_cast<sqlite3*>(ds.GetInternalHandle("SQLITE_HANDLE"))) {
+      : file(std::move(file_in)), table(std::move(table_in)),
+        db(static_cast<sqlite3*>(ds.GetInternalHandle("SQLITE_HANDLE"))) {
     if (!db) failAt(file, "GDAL gives no SQLite connection to the GeoPackage", table);
     std::string names, marks;
     for (const auto& c : columns) {
@@ -161,7 +164,7 @@ struct GpkgResultsWriter::SeriesRows {
     const std::string drop = "DROP TRIGGER IF EXISTS " + quotedIdentifier("trigger_insert_feature_count_" + table);
     if (sqlite3_exec(db, drop.c_str(), nullptr, nullptr, nullptr) != SQLITE_OK ||
         sqlite3_prepare_v2(db, sql.c_str(), -1, &insert, nullptr) != SQLITE_OK)
-      failAt(file, std::string("cannot prepare the rows (") + sqlite3_errmsg(db) + ")", table);
+      fail("cannot prepare the rows");
     times.reserve(axis.steps);
     for (std::size_t k = 0; k < axis.steps; ++k) {
       const auto w = results::wallClock(axis.at(static_cast<double>(k)), utc_offset_min);
@@ -187,22 +190,28 @@ struct GpkgResultsWriter::SeriesRows {
     if (std::isnan(v)) sqlite3_bind_null(insert, i);
     else sqlite3_bind_double(insert, i, v);
   }
+  /// Throws `what`, with SQLite's reason, naming the file and table.
+  [[noreturn]] void fail(const std::string& what) const {
+    InputLocation at;
+    at.file = file.string();
+    at.layer = table;
+    throw InputError(at, what + " (" + sqlite3_errmsg(db) + ")");
+  }
   /// Puts back GDAL's feature-count trigger and records the count, `rows`.
-  void finish(const fs::path& file, const std::string& table, std::size_t rows) const {
+  void finish(std::size_t rows) const {
     const std::string sql = fmt::format(
         "CREATE TRIGGER {0} AFTER INSERT ON {1} BEGIN UPDATE gpkg_ogr_contents SET feature_count = "
         "feature_count + 1 WHERE lower(table_name) = lower({2}); END; "
         "UPDATE gpkg_ogr_contents SET feature_count = {3} WHERE lower(table_name) = lower({2})",
         quotedIdentifier("trigger_insert_feature_count_" + table), quotedIdentifier(table), quotedLiteral(table),
         rows);
-    if (sqlite3_exec(db, sql.c_str(), nullptr, nullptr, nullptr) != SQLITE_OK)
-      failAt(file, std::string("cannot count the rows (") + sqlite3_errmsg(db) + ")", table);
+    if (sqlite3_exec(db, sql.c_str(), nullptr, nullptr, nullptr) != SQLITE_OK) fail("cannot count the rows");
   }
   /// Adds the row bound so far.
-  void add(const fs::path& file, const std::string& table) const {
+  void add() const {
     const int rc = sqlite3_step(insert);
     sqlite3_reset(insert);
-    if (rc != SQLITE_DONE) failAt(file, std::string("cannot write a row (") + sqlite3_errmsg(db) + ")", table);
+    if (rc != SQLITE_DONE) fail("cannot write a row");
   }
 };
 
@@ -643,7 +652,7 @@ void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const dou
         rows.bindValue(c0 + 4, value(depth_m, k, Quantity::Length));
         rows.bindValue(c0 + 5, value(velocity_ms, k, Quantity::Velocity));
       }
-      rows.add(target_, series_layer_->GetName());
+      rows.add();
       countRow();
     }
     return;
@@ -940,7 +949,7 @@ void GpkgResultsWriter::commit(OutputCommit* into) {
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
   if (!schema_.empty()) finishDatabaseTables();
-  if (series_rows_) series_rows_->finish(target_, series_layer_->GetName(), hydrograph_rows_);
+  if (series_rows_) series_rows_->finish(hydrograph_rows_);
   if (write_back_ && into) {
     // The transaction ends after every other output is in place, so that a
     // failure there puts them back (OutputCommit::addFinal).
