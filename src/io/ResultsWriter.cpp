@@ -641,10 +641,12 @@ void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const dou
   if (series_rows_) {
     const SeriesRows& rows = *series_rows_;
     const std::string& id = plan_.reach_id[reach];
+    // Text bound without a copy (the member, the id and the times outlive
+    // the rows); a binding holds across sqlite3_reset, so the member and
+    // the id are bound once for the series.
+    if (options_.member_column) sqlite3_bind_text(rows.insert, 1, member_.c_str(), -1, SQLITE_STATIC);
+    sqlite3_bind_text(rows.insert, c0 + 1, id.c_str(), static_cast<int>(id.size()), SQLITE_STATIC);
     for (std::size_t k = 0; k < axis_.steps; ++k) {
-      // Text bound without a copy: the member, the id and the times outlive the step.
-      if (options_.member_column) sqlite3_bind_text(rows.insert, 1, member_.c_str(), -1, SQLITE_STATIC);
-      sqlite3_bind_text(rows.insert, c0 + 1, id.c_str(), static_cast<int>(id.size()), SQLITE_STATIC);
       sqlite3_bind_text(rows.insert, c0 + 2, rows.times[k].c_str(), static_cast<int>(rows.times[k].size()),
                         SQLITE_STATIC);
       rows.bindValue(c0 + 3, value(q_m3s, k, Quantity::Discharge));
