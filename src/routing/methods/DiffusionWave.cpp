@@ -98,39 +98,45 @@ DiffusionGrid chooseGrid(const hydraulics::Section& sec, double length, double q
 /// The state of the cells and their conveyances.
 struct Channel {
   const hydraulics::ConveyanceTable& table;  // Q_normal(y) of the section
-  double slope, sqrt_slope;
-  /// Conveyance K = Q_normal / S0^(1/2) and dK/dy at depth y.
+  double slope, sqrt_slope, inv_sqrt_slope;
+  /// Conveyance K = Q_normal / S0^(1/2) and dK/dy at depth y (the solver's
+  /// inner loop: a product, not a division).
   void conveyance(double y, double& k, double& dk) const {
     double q, dq;
     table.dischargeAndDerivative(y, q, dq);
-    k = q / sqrt_slope, dk = dq / sqrt_slope;
+    k = q * inv_sqrt_slope, dk = dq * inv_sqrt_slope;
   }
 };
 
 /// Face flux between cells of depths y_up (upstream) and y_dn, centres
-/// `dist` apart, with their conveyances k and dk/dy, and its derivatives in
-/// the two depths. The water-surface slope is S0 − (y_dn − y_up)/dist, the
-/// conveyance the mean of the two cells'.
+/// `dist` apart (given as 1/dist), with their conveyances k and dk/dy, and
+/// its derivatives in the two depths. The water-surface slope is
+/// S0 − (y_dn − y_up)/dist, the conveyance the mean of the two cells'.
+/// |S|^(1/2) has an infinite derivative at S = 0: regularised below
+/// s_eps = 1e-3 S0, where the flux is a negligible fraction of the
+/// channel's (`SlopeRoot` holds s_eps and 1/s_eps^(1/2)).
 struct Flux {
   double q, d_up, d_dn;
 };
-Flux faceFlux(double slope, double y_up, double k_up, double dk_up, double y_dn, double k_dn, double dk_dn,
-              double dist) {
-  const double s = slope - (y_dn - y_up) / dist;
+struct SlopeRoot {
+  double s_eps, inv_root_eps;
+  explicit SlopeRoot(double slope) : s_eps(1e-3 * slope), inv_root_eps(1.0 / std::sqrt(s_eps)) {}
+};
+Flux faceFlux(double slope, const SlopeRoot& sr, double y_up, double k_up, double dk_up, double y_dn, double k_dn,
+              double dk_dn, double inv_dist) {
+  const double s = slope - (y_dn - y_up) * inv_dist;
   const double k = 0.5 * (k_up + k_dn);
-  // |S|^(1/2) has an infinite derivative at S = 0: regularised below
-  // 1e-3 S0, where the flux is a negligible fraction of the channel's.
-  const double s_eps = 1e-3 * slope;
   const double a = std::abs(s);
   double root, droot;  // |S|^(1/2) sgn(S) and its derivative in S
-  if (a > s_eps) {
+  if (a > sr.s_eps) {
     root = std::sqrt(a), droot = 0.5 / root;
   } else {
-    root = a / std::sqrt(s_eps), droot = 1.0 / std::sqrt(s_eps);
+    root = a * sr.inv_root_eps, droot = sr.inv_root_eps;
   }
   if (s < 0) root = -root;
   // dS/dy_up = 1/dist, dS/dy_dn = −1/dist.
-  return {k * root, k * droot / dist + 0.5 * dk_up * root, -k * droot / dist + 0.5 * dk_dn * root};
+  const double k_droot = k * droot * inv_dist;
+  return {k * root, k_droot + 0.5 * dk_up * root, -k_droot + 0.5 * dk_dn * root};
 }
 
 }  // namespace
@@ -150,7 +156,10 @@ void diffusionWave(RouteContext& ctx) {
   // the peak's normal depth; deeper is computed directly): the solver
   // evaluates it in every cell at every Newton step.
   const hydraulics::ConveyanceTable conveyance(sec, 2.0 * sec.normalDepth(std::max(q_hi, 1e-9)));
-  const Channel ch{conveyance, slope, std::sqrt(slope)};
+  const Channel ch{conveyance, slope, std::sqrt(slope), 1.0 / std::sqrt(slope)};
+  const SlopeRoot slope_root(slope);
+  std::vector<double> inv_dist(n);  // face i (1..n−1): 1 / the distance between the centres of cells i−1 and i
+  for (std::size_t i = 1; i < n; ++i) inv_dist[i] = 1.0 / (0.5 * (g.dx[i - 1] + g.dx[i]));
 
   // Report the grid: cells over the reach as sub-reaches, and the Cunge
   // figures at the reference flow on it (C, D; X is not used).
@@ -169,7 +178,7 @@ void diffusionWave(RouteContext& ctx) {
   // Initial state: steady flow of the first sample, lateral inflow
   // accumulating along the reach (and carried on through the buffer).
   const double in0 = ctx.inflow[0], lat0 = ctx.lateral.empty() ? 0.0 : ctx.lateral[0];
-  std::vector<double> y(n), y_prev(n), area_old(n), flux_old(n + 1), res(n), lo(n), di(n), up(n);
+  std::vector<double> y(n), y_prev(n), area_old(n), flux_old(n + 1), res(n), lo(n), di(n), up(n), inv_di(n);
   {
     double x = 0;
     for (std::size_t i = 0; i < n; ++i) {
@@ -192,7 +201,7 @@ void diffusionWave(RouteContext& ctx) {
     }
     face[0] = {inflow, 0.0, 0.0};
     for (std::size_t i = 1; i < n; ++i)
-      face[i] = faceFlux(slope, y[i - 1], kc[i - 1], dkc[i - 1], y[i], kc[i], dkc[i], 0.5 * (g.dx[i - 1] + g.dx[i]));
+      face[i] = faceFlux(slope, slope_root, y[i - 1], kc[i - 1], dkc[i - 1], y[i], kc[i], dkc[i], inv_dist[i]);
     face[n] = {kc[n - 1] * ch.sqrt_slope, dkc[n - 1] * ch.sqrt_slope, 0.0};
     for (std::size_t i = 0; i <= n; ++i) flux[i] = face[i].q;
   };
@@ -232,14 +241,19 @@ void diffusionWave(RouteContext& ctx) {
         up[i] = step_s * kTheta * face[i + 1].d_dn;
       }
       // Thomas algorithm (the system is diagonally dominant: storage on
-      // the diagonal, fluxes increasing in the upstream depth).
+      // the diagonal, fluxes increasing in the upstream depth). The
+      // reciprocals of the eliminated diagonal are taken beside the
+      // elimination, off its chain of dependent operations, so the back
+      // substitution multiplies.
+      inv_di[0] = 1.0 / di[0];
       for (std::size_t i = 1; i < n; ++i) {
         const double w = lo[i] / di[i - 1];
         di[i] -= w * up[i - 1];
         res[i] -= w * res[i - 1];
+        inv_di[i] = 1.0 / di[i];
       }
-      res[n - 1] /= di[n - 1];
-      for (std::size_t i = n - 1; i-- > 0;) res[i] = (res[i] - up[i] * res[i + 1]) / di[i];
+      res[n - 1] *= inv_di[n - 1];
+      for (std::size_t i = n - 1; i-- > 0;) res[i] = (res[i] - up[i] * res[i + 1]) * inv_di[i];
       // Each depth change held to half the depth (Newton overshoots where a
       // two-stage section's conveyance kinks at the bank).
       double largest = 0;
