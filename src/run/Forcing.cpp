@@ -3,7 +3,8 @@
 #include <algorithm>
 #include <filesystem>
 #include <map>
-#include <set>
+#include <string_view>
+#include <unordered_set>
 
 #include <fmt/format.h>
 
@@ -30,7 +31,11 @@ io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkP
   const auto inflow = path(files.inflow);
   const auto lateral = path(files.lateral);
   io::OpenedForcing opened = io::openForcing(inflow, lateral, options);
-  const std::set<std::string, std::less<>> known(plan.reach_id.begin(), plan.reach_id.end());
+  // A hash set of views: a national network has a million ids, and a tree
+  // of copied strings cost a second to build.
+  std::unordered_set<std::string_view> known;
+  known.reserve(plan.size());
+  for (const std::string& id : plan.reach_id) known.insert(id);
   const network::CutLines cut = network::CutLines::of(plan);
   io::requireKnownReaches(
       *opened.source, [&](std::string_view id) { return known.contains(id) || cut.pieces(id); },
