@@ -462,7 +462,7 @@ bool NetcdfForcingSource::readWhole(ForcingKind kind) const {
 }
 
 bool NetcdfForcingSource::has(ForcingKind kind, std::string_view id) const {
-  return vars_[kind == ForcingKind::Inflow ? 0 : 1].varid >= 0 && index_.contains(std::string(id));
+  return vars_[kind == ForcingKind::Inflow ? 0 : 1].varid >= 0 && index_.contains(id);
 }
 
 std::vector<std::string> NetcdfForcingSource::ids(ForcingKind kind) const {
@@ -484,7 +484,7 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
   };
   Variable& v = vars_[kind == ForcingKind::Inflow ? 0 : 1];
   if (v.varid < 0) return none();
-  const auto it = index_.find(std::string(id));
+  const auto it = index_.find(id);
   if (it == index_.end()) return none();
   if (v.whole) std::call_once(v.once, [&] { readVariableWhole(kind, v); });
   const auto copy = [&](const auto& whole) {
@@ -505,13 +505,13 @@ bool NetcdfForcingSource::fill(ForcingKind kind, std::string_view id, std::span<
   }
   const auto missing = [&](double x) { return std::isnan(x) || x == v.fill; };
   if (std::all_of(out.begin(), out.end(), missing)) return none();
-  InputLocation where = located(path_, std::string(kindName(kind)));
-  where.reach_id = std::string(id);
   for (std::size_t k = 0; k < out.size(); ++k) {
     const double raw = out[k];
     const double q = raw * v.scale + v.offset;
     out[k] = readableDischarge(q);
     if (missing(raw) || std::isnan(out[k])) {
+      InputLocation where = located(path_, std::string(kindName(kind)));
+      where.reach_id = std::string(id);
       where.time = formatIsoTime(axis_.at(static_cast<double>(k)), axis_.utc_offset_min, 0);
       throw InputError(where, missing(raw) ? std::string("missing value (_FillValue) inside the series")
                                            : dischargeProblem(q));

@@ -16,6 +16,7 @@
 
 #include <cstddef>
 #include <filesystem>
+#include <functional>
 #include <memory>
 #include <mutex>
 #include <span>
@@ -146,7 +147,13 @@ private:
   int ncid_ = -1;
   routing::TimeAxis axis_;
   std::vector<std::string> ids_;
-  std::unordered_map<std::string, std::size_t> index_;
+  /// Hashes a reach id given as any string type, so a lookup by view
+  /// allocates nothing (fill() runs once per reach).
+  struct IdHash {
+    using is_transparent = void;
+    std::size_t operator()(std::string_view id) const noexcept { return std::hash<std::string_view>{}(id); }
+  };
+  std::unordered_map<std::string, std::size_t, IdHash, std::equal_to<>> index_;
   mutable Variable vars_[2];  ///< mutable: read whole at the first fill
 };
 
