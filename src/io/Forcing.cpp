@@ -81,13 +81,15 @@ void requireKnownReaches(const ForcingSource& source,
   std::size_t count = 0;
   for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
     std::vector<std::string> unknown;
-    for (const std::string& id : source.ids(kind)) {
-      if (known(id)) continue;
-      unknown.push_back(id);
+    source.visitIds(kind, [&](std::string_view id) {
+      if (!known(id)) unknown.emplace_back(id);
+    });
+    if (unknown.empty()) continue;
+    std::sort(unknown.begin(), unknown.end());  // the message in id order, whatever the source's
+    for (const std::string& id : unknown) {
       std::string h = hint ? hint(id) : std::string();
       if (!h.empty() && std::find(hints.begin(), hints.end(), h) == hints.end()) hints.push_back(std::move(h));
     }
-    if (unknown.empty()) continue;
     const std::string file = source.origin(kind);
     if (first_file.empty()) first_file = file;
     count += unknown.size();

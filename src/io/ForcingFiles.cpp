@@ -39,6 +39,9 @@ public:
     return s ? s->ids(kind) : std::vector<std::string>{};
   }
   using ForcingSource::ids;
+  void visitIds(ForcingKind kind, const std::function<void(std::string_view)>& visit) const override {
+    if (const auto& s = of(kind)) s->visitIds(kind, visit);
+  }
   std::string origin(ForcingKind kind) const override {
     const auto& s = of(kind);
     return s ? s->origin(kind) : std::string();

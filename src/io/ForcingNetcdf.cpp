@@ -472,6 +472,11 @@ std::vector<std::string> NetcdfForcingSource::ids(ForcingKind kind) const {
   return out;
 }
 
+void NetcdfForcingSource::visitIds(ForcingKind kind, const std::function<void(std::string_view)>& visit) const {
+  if (vars_[kind == ForcingKind::Inflow ? 0 : 1].varid < 0) return;
+  for (const std::string& id : ids_) visit(id);
+}
+
 bool NetcdfForcingSource::readsOnDemand(ForcingKind kind) const {
   return vars_[kind == ForcingKind::Inflow ? 0 : 1].varid >= 0;
 }

@@ -2,6 +2,7 @@
 #include "reachwise/io/ForcingNetcdf.hpp"
 #include "reachwise/io/ForcingFiles.hpp"
 
+#include <algorithm>
 #include <netcdf.h>
 #include <unistd.h>
 
@@ -207,13 +208,19 @@ TEST_F(ForcingNetcdfTest, SourceReadsOneReachOnDemand) {
   EXPECT_FALSE(source.inflow("R99", out));
   EXPECT_EQ(out, f.lateral.at("R3"));       // untouched by the misses
   EXPECT_EQ(source.ids(), (std::vector<std::string>{"R1", "R12", "R3"}));
+  // The unordered visit sees the ids ids() lists, each once.
+  for (ForcingKind kind : {ForcingKind::Inflow, ForcingKind::Lateral}) {
+    std::vector<std::string> visited;
+    source.visitIds(kind, [&](std::string_view id) { visited.emplace_back(id); });
+    std::sort(visited.begin(), visited.end());
+    EXPECT_EQ(visited, source.ids(kind));
+  }
   try {
     requireKnownReaches(source, std::set<std::string, std::less<>>{"R1"});
     ADD_FAILURE() << "unknown reaches accepted";
   } catch (const InputError& e) {
     const std::string what = e.what();
-    EXPECT_NE(what.find("R12"), std::string::npos) << what;
-    EXPECT_NE(what.find("R3"), std::string::npos) << what;
+    EXPECT_NE(what.find("R12, R3"), std::string::npos) << what;  // listed in id order
     EXPECT_NE(what.find(p.string()), std::string::npos) << what;
   }
 }
@@ -225,6 +232,7 @@ TEST_F(ForcingNetcdfTest, ReadsHoursCharIdsReachFirstAndCubicFeet) {
   EXPECT_EQ(source.axis().start_unix_s, parseIsoTime("2026-05-01T00:00:00Z").unix_s);
   EXPECT_EQ(source.axis().dt_s, 3600.0);
   EXPECT_TRUE(source.ids(ForcingKind::Inflow).empty());
+  source.visitIds(ForcingKind::Inflow, [](std::string_view id) { ADD_FAILURE() << "inflow id " << id; });
   std::vector<double> b;
   ASSERT_TRUE(source.lateral("B", b));
   // 1 ft^3/s = 0.3048^3 m^3/s exactly (international foot, 1959).

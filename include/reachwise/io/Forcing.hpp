@@ -101,6 +101,14 @@ public:
   /// Reach ids that have a series of `kind`, sorted.
   virtual std::vector<std::string> ids(ForcingKind kind) const = 0;
 
+  /// Calls `visit` with every reach id that has a series of `kind`, in no
+  /// particular order and without copying them where the source can: for
+  /// checks that need no order (a national network has a million ids, and
+  /// sorting copies of them cost a second).
+  virtual void visitIds(ForcingKind kind, const std::function<void(std::string_view)>& visit) const {
+    for (const std::string& id : ids(kind)) visit(id);
+  }
+
   /// File (or other name) the series of `kind` came from, for messages.
   virtual std::string origin(ForcingKind kind) const = 0;
 

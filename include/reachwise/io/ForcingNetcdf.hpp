@@ -96,6 +96,7 @@ public:
   /// All reach ids of the file when it has the variable of `kind` (a reach
   /// whose series is all _FillValue is listed but `series` returns false).
   std::vector<std::string> ids(ForcingKind kind) const override;
+  void visitIds(ForcingKind kind, const std::function<void(std::string_view)>& visit) const override;
   using ForcingSource::ids;
   std::string origin(ForcingKind) const override { return path_.string(); }
   /// True when the file has the variable of `kind`: its series are read
