@@ -31,8 +31,7 @@ io::OpenedForcing openChecked(const ForcingFiles& files, const network::NetworkP
   const auto inflow = path(files.inflow);
   const auto lateral = path(files.lateral);
   io::OpenedForcing opened = io::openForcing(inflow, lateral, options);
-  // A hash set of views: a national network has a million ids, and a tree
-  // of copied strings cost a second to build.
+  // A hash set of views: no copy of the (up to millions of) ids.
   std::unordered_set<std::string_view> known;
   known.reserve(plan.size());
   for (const std::string& id : plan.reach_id) known.insert(id);

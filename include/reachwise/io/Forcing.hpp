@@ -103,8 +103,8 @@ public:
 
   /// Calls `visit` with every reach id that has a series of `kind`, in no
   /// particular order and without copying them where the source can: for
-  /// checks that need no order (a national network has a million ids, and
-  /// sorting copies of them cost a second).
+  /// checks that need no order (ids() copies and sorts every id, a million
+  /// of them on a national network).
   virtual void visitIds(ForcingKind kind, const std::function<void(std::string_view)>& visit) const {
     for (const std::string& id : ids(kind)) visit(id);
   }
