@@ -19,6 +19,7 @@
 
 
 #include "GdalSupport.hpp"
+#include "PackedRtree.hpp"
 #include "ResultsTables.hpp"
 #include "TableLayer.hpp"
 #include "reachwise/Error.hpp"
@@ -76,11 +77,15 @@ void setValue(OGRFeature& f, int index, const Value& value, int utc_offset_min) 
 }
 
 /// Creates layer `name` (GDAL's name; in a PostgreSQL database `schema.table`,
-/// created in `schema`) with `columns`.
+/// created in `schema`) with `columns`; `packed_index`: without GDAL's
+/// spatial index (a GeoPackage's), which the writer packs at the end.
 OGRLayer* createTable(const fs::path& file, GDALDataset& ds, const std::string& name,
                       OGRSpatialReference* srs, OGRwkbGeometryType geometry,
-                      const std::vector<Column>& columns, const std::string& schema = {}) {
+                      const std::vector<Column>& columns, const std::string& schema = {},
+                      bool packed_index = false) {
   CPLStringList options;
+  // The writer adds the index itself (addPackedSpatialIndex).
+  if (packed_index) options.SetNameValue("SPATIAL_INDEX", "NO");
   std::string table = name;
   if (!schema.empty()) {
     // The schema as an option, never parsed out of the name (either may hold dots).
@@ -117,19 +122,6 @@ OGRLineString lineOf(const std::vector<network::Point3>& vertices) {
 
 constexpr const char* kTables[] = {"reaches", "nodes", "confluence_branches", "hydrographs", "run_info",
                                    "lakes", "lake_series", "gauges", "gauge_series", kMemberReachesTable};
-
-/// GDAL 3.6 can build the R-tree of a large layer in a thread of its own
-/// while the rows come in. With the rows written after routing (the
-/// router's threads idle by then) that was measured 4.4 s slower than
-/// building it in the writing thread on the 100,000-reach benchmark network
-/// (2 cores), and no faster at 1,000,000: `allowed` false. With the rows
-/// written while routing runs (GpkgWriterOptions::background) the R-tree is
-/// built then too, and the writing stage after routing at 1,000,000 reaches
-/// fell from 31-38 s to 11-13 s (docs/performance.md): `allowed` true.
-/// Thread-local, and only when the user has not chosen.
-CPLConfigOptionSetter spatialIndexThreads(bool allowed) {
-  return CPLConfigOptionSetter("OGR_GPKG_ALLOW_THREADED_RTREE", allowed ? "YES" : "NO", /*bSetOnlyIfUndefined=*/true);
-}
 
 }  // namespace
 
@@ -213,6 +205,14 @@ struct GpkgResultsWriter::SeriesRows {
     sqlite3_reset(insert);
     if (rc != SQLITE_DONE) fail("cannot write a row");
   }
+};
+
+/// The boxes of the features of `reaches` and `nodes` in a GeoPackage,
+/// collected as their rows are written; commit() packs them into the
+/// layers' spatial indexes (PackedRtree.hpp). GDAL's own R-tree took 8 s
+/// per million features, one at a time (docs/performance.md).
+struct GpkgResultsWriter::PackedIndexes {
+  std::vector<RtreeBox> reaches, nodes;
 };
 
 /// What the router's threads hand to the writing thread.
@@ -476,7 +476,6 @@ void GpkgResultsWriter::startBackground() {
 }
 
 void GpkgResultsWriter::runBackground() {
-  const auto in_this_thread = spatialIndexThreads(true);
   Background& b = *background_;
   try {
     for (;;) {
@@ -558,6 +557,7 @@ void GpkgResultsWriter::openSeriesTable() {
                   nullptr, nullptr);
   if (CPLGetLastErrorType() >= CE_Failure) failAt(target_, "cannot index " + series, series);
   series_rows_ = std::make_unique<SeriesRows>(target_, *ds_, series, columns, axis_, timeOffsetMin(axis_.utc_offset_min));
+  packed_indexes_ = std::make_unique<PackedIndexes>();
 }
 
 void GpkgResultsWriter::openLakeSeriesTable() {
@@ -678,7 +678,8 @@ void GpkgResultsWriter::writeSeriesRows(std::uint32_t reach, std::span<const dou
 void GpkgResultsWriter::createReachesLayer(const EnsembleOutput* ensemble) {
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   reaches_layer_ = createTable(target_, *ds_, layerName("reaches"), srs.get(), wkbLineString,
-                               results::inUnits(reachColumnsFor(ensemble), options_.units), schema_);
+                               results::inUnits(reachColumnsFor(ensemble), options_.units), schema_,
+                               packed_indexes_ != nullptr);
   reach_feature_ = std::make_unique<OGRFeature>(reaches_layer_->GetLayerDefn());
   reach_written_.assign(plan_.size(), false);
 }
@@ -700,6 +701,11 @@ void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary
   if (vertices.size() >= 2) {
     auto line = lineOf(vertices);
     f.SetGeometry(&line);
+    if (packed_indexes_) {
+      OGREnvelope box;
+      line.getEnvelope(&box);
+      packed_indexes_->reaches.push_back(rtreeBox(static_cast<std::int64_t>(i + 1), box.MinX, box.MaxX, box.MinY, box.MaxY));
+    }
   } else {
     f.SetGeometryDirectly(nullptr);
   }
@@ -710,7 +716,8 @@ void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary
 void GpkgResultsWriter::createNodeLayers() {
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
   nodes_layer_ = createTable(target_, *ds_, layerName("nodes"), srs.get(), wkbPoint,
-                             results::inUnits(results::nodeColumns(), options_.units), schema_);
+                             results::inUnits(results::nodeColumns(), options_.units), schema_,
+                             packed_indexes_ != nullptr);
   branches_layer_ = createTable(target_, *ds_, layerName("confluence_branches"), nullptr, wkbNone,
                                 results::inUnits(results::branchColumns(), options_.units), schema_);
   node_feature_ = std::make_unique<OGRFeature>(nodes_layer_->GetLayerDefn());
@@ -727,6 +734,8 @@ void GpkgResultsWriter::writeNodeRow(std::size_t position, const routing::NodeSu
   if (std::isfinite(node.x) && std::isfinite(node.y)) {
     OGRPoint point(node.x, node.y);
     f.SetGeometry(&point);
+    if (packed_indexes_)
+      packed_indexes_->nodes.push_back(rtreeBox(static_cast<std::int64_t>(position + 1), node.x, node.x, node.y, node.y));
   } else {
     f.SetGeometryDirectly(nullptr);
   }
@@ -748,7 +757,6 @@ void GpkgResultsWriter::writeBranchRows(std::size_t first_branch, const routing:
 void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, const RunInfo& info,
                                        const EnsembleOutput* ensemble) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_ && !summaries_written_);
   REACHWISE_ASSERT(results.reaches.size() == plan_.size());
   REACHWISE_ASSERT(plan_.record.size() == plan_.size());
@@ -804,7 +812,6 @@ void GpkgResultsWriter::writeSummaries(const routing::NetworkResults& results, c
 
 void GpkgResultsWriter::writeLakes(const std::vector<LakeOutput>& lakes) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_ && !lakes_written_);
   REACHWISE_ASSERT(options_.lakes && lake_series_layer_);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
@@ -864,7 +871,6 @@ void results::writeRowsLayer(const fs::path& file, GDALDataset& ds, const std::s
 
 void GpkgResultsWriter::writeGauges(const std::vector<GaugeOutput>& gauges) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   const auto srs = spatialReferenceFromWkt(table_.crs_wkt);
@@ -946,12 +952,20 @@ void GpkgResultsWriter::describeTables() {
 
 void GpkgResultsWriter::commit(OutputCommit* into) {
   stopBackground(/*abandon=*/false);
-  const auto in_this_thread = spatialIndexThreads(background_ != nullptr);
   REACHWISE_ASSERT(ds_ && !committed_);
   REACHWISE_ASSERT(summaries_written_);  // a file without its summaries would look complete
   REACHWISE_ASSERT(lakes_written_ || !options_.lakes);
   if (!schema_.empty()) finishDatabaseTables();
   if (series_rows_) series_rows_->finish(hydrograph_rows_);
+  if (packed_indexes_) {
+    if (reaches_layer_)
+      addPackedSpatialIndex(*ds_, target_, reaches_layer_->GetName(), reaches_layer_->GetGeometryColumn(),
+                            wkbLineString, std::move(packed_indexes_->reaches));
+    if (nodes_layer_)
+      addPackedSpatialIndex(*ds_, target_, nodes_layer_->GetName(), nodes_layer_->GetGeometryColumn(), wkbPoint,
+                            std::move(packed_indexes_->nodes));
+    packed_indexes_.reset();
+  }
   if (write_back_ && into) {
     // The transaction ends after every other output is in place, so that a
     // failure there puts them back (OutputCommit::addFinal).

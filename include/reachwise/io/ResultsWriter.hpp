@@ -301,6 +301,8 @@ private:
   std::unique_ptr<OGRFeature> series_feature_;   ///< reused for every row
   struct SeriesRows;
   std::unique_ptr<SeriesRows> series_rows_;      ///< a GeoPackage's: its rows through SQLite
+  struct PackedIndexes;
+  std::unique_ptr<PackedIndexes> packed_indexes_;  ///< a GeoPackage's: the boxes of `reaches` and `nodes`
   OGRLayer* reaches_layer_ = nullptr;
   std::unique_ptr<OGRFeature> reach_feature_;    ///< reused for every row of `reaches`
   std::vector<bool> reach_written_;              ///< per plan reach: its row is in `reaches`
