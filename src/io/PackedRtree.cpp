@@ -152,6 +152,10 @@ IndexTemplate indexTemplate(const std::filesystem::path& file, const std::string
   static std::atomic<unsigned> count{0};
   const std::string path = "/vsimem/reachwise_rtree_" + std::to_string(++count) + ".gpkg";
   IndexTemplate t;
+  struct Unlink {
+    const std::string& path;
+    ~Unlink() { VSIUnlink(path.c_str()); }
+  } unlink{path};
   {
     std::unique_ptr<GDALDataset> mem(driver->Create(path.c_str(), 0, 0, 0, GDT_Unknown, nullptr));
     if (!mem) fail("GDAL cannot create a GeoPackage in memory");
@@ -178,7 +182,6 @@ IndexTemplate indexTemplate(const std::filesystem::path& file, const std::string
     }
     if (t.triggers.empty()) fail("GDAL wrote no triggers for its index");
   }
-  VSIUnlink(path.c_str());
   return t;
 }
 
