@@ -60,7 +60,10 @@ private:
 
 std::unique_ptr<NetcdfForcingSource> openNetcdf(const fs::path& path, ForcingKind kind, std::size_t max_steps) {
   auto source = std::make_unique<NetcdfForcingSource>(path, max_steps);
-  if (source->ids(kind).empty())
+  // Whether it has any: a visit, not ids(), which copies and sorts them all.
+  bool any = false;
+  source->visitIds(kind, [&](std::string_view) { any = true; });
+  if (!any)
     throw fileError(path, fmt::format("given as {} forcing but has no `{}` variable (docs/formats.md, "
                                       "\"NetCDF layout\")",
                                       kindName(kind), kindName(kind)));

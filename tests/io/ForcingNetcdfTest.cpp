@@ -350,6 +350,19 @@ TEST_F(ForcingNetcdfTest, SinglePrecisionStoresFloatsAndReadsThemBack) {
   EXPECT_FALSE(source.inflow("R9", got));
 }
 
+TEST_F(ForcingNetcdfTest, AFileWithoutTheKindItIsGivenAsIsRefused) {
+  // Inflow series only: given as the lateral inflow it names the variable
+  // it lacks; given as the inflow it opens.
+  Forcing f = sampleForcing(4);
+  f.lateral.clear();
+  const fs::path nc = dir_ / "inflow_only.nc";
+  writeForcingNetcdf(nc, f);
+  expectInputErrorNaming([&] { openForcing(std::nullopt, nc); }, nc, "has no `lateral` variable");
+  const OpenedForcing opened = openForcing(nc, std::nullopt);
+  std::vector<double> q;
+  EXPECT_TRUE(opened.source->inflow(f.inflow.begin()->first, q));
+}
+
 TEST_F(ForcingNetcdfTest, ACsvFileBesideIsResampledOntoTheNetcdfAxis) {
   const Forcing f = sampleForcing(5);  // 48 half-hourly steps from 2026-05-01T00:00+02:00
   const fs::path nc = dir_ / "lateral.nc";
