@@ -10,6 +10,7 @@
 #include <memory>
 #include <utility>
 
+#include "GdalSupport.hpp"
 #include "reachwise/Error.hpp"
 #include "reachwise/io/Database.hpp"
 
@@ -142,10 +143,7 @@ struct IndexTemplate {
 IndexTemplate indexTemplate(const std::filesystem::path& file, const std::string& table, const std::string& column,
                             OGRwkbGeometryType type) {
   auto fail = [&](const std::string& what) {
-    InputLocation at;
-    at.file = file.string();
-    at.layer = table;
-    throw InputError(at, "cannot build the spatial index: " + what);
+    throwWithGdalMessage(file.string(), "cannot build the spatial index: " + what, table);
   };
   GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
   if (!driver) fail("GDAL has no GeoPackage driver");
@@ -213,8 +211,8 @@ bool fillPackedRtree(sqlite3* db, const std::string& rtree, std::vector<RtreeBox
   std::vector<std::pair<std::int64_t, std::int64_t>> leaf_of;  // feature id, its leaf
   leaf_of.reserve(boxes.size());
   // The cells of a node: features in a leaf, else its children.
-  auto place = [&](const RtreeBox* cells, std::size_t count, std::int64_t nodeno, unsigned depth, bool root) {
-    encodeNode(blob, root ? depth : 0, cells, count);
+  auto place = [&](const RtreeBox* cells, std::size_t count, std::int64_t nodeno, unsigned depth) {
+    encodeNode(blob, nodeno == 1 ? depth : 0, cells, count);  // the root (node 1) carries the depth
     if (!node.run(nodeno, blob)) return false;
     for (std::size_t i = 0; i < count; ++i) {
       if (depth == 0) leaf_of.emplace_back(cells[i].id, nodeno);
@@ -245,13 +243,13 @@ bool fillPackedRtree(sqlite3* db, const std::string& rtree, std::vector<RtreeBox
     for (std::size_t p = 0; p < n; p += fanout) {
       const std::size_t count = std::min(fanout, n - p);
       const std::int64_t nodeno = next_node++;
-      if (!place(level.data() + p, count, nodeno, depth, false)) return false;
+      if (!place(level.data() + p, count, nodeno, depth)) return false;
       up.push_back(unionOf(nodeno, level.data() + p, count));
     }
     level = std::move(up);
     ++depth;
   }
-  if (!place(level.data(), level.size(), 1, depth, true)) return false;
+  if (!place(level.data(), level.size(), 1, depth)) return false;
   // In id order, the rows go to the end of the table's B-tree.
   std::sort(leaf_of.begin(), leaf_of.end());
   for (const auto& [id, leaf] : leaf_of)
