@@ -151,6 +151,30 @@ void shortReachTables(benchmark::State& state, bool five_decades) {
                                                           benchmark::Counter::kInvert);
 }
 
+
+// The conservative `vpmc` cell on a forced grid of m sub-reaches and
+// 64 / m sub-steps (the same cell updates per route), on the benchmark
+// reach: along diagonals a pass holds at most m independent cells, so this
+// shows what a cell costs with one, two, ... dependency chains to overlap.
+void vpmcGridShape(benchmark::State& state) {
+  const double dt = 3600;
+  const std::vector<double> in = storm(720, dt);
+  const ReachSpec reach{hydraulics::Section::trapezoid(25, 2, 0.035, 0.0008), 200000, 12 * 3600.0, 0.2};
+  RouteOptions opt;
+  opt.subreaches = static_cast<std::uint32_t>(state.range(0));
+  opt.substeps = 64 / opt.subreaches;
+  ReachRouter router;
+  std::vector<double> out;
+  std::uint64_t cells = 0;
+  for (auto _ : state) {
+    const ReachRun r = router.route(reach, in, {}, dt, opt, out);
+    benchmark::DoNotOptimize(out.data());
+    cells += std::uint64_t(r.numerics.subreaches) * r.numerics.substeps * (in.size() - 1);
+  }
+  state.counters["cell_updates_per_s"] =
+      benchmark::Counter(static_cast<double>(cells), benchmark::Counter::kIsRate);
+}
+
 }  // namespace
 
 BENCHMARK_CAPTURE(routeKernel, constant_parameter, Method::ConstantParameter, Scheme::ThreePoint, true)
@@ -179,5 +203,7 @@ BENCHMARK_CAPTURE(routeShortReaches, diffusion_2km_reaches, Method::DiffusionWav
     ->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(shortReachTables, router_range, false)->Unit(benchmark::kMillisecond);
 BENCHMARK_CAPTURE(shortReachTables, five_decades, true)->Unit(benchmark::kMillisecond);
+
+BENCHMARK(vpmcGridShape)->Arg(1)->Arg(2)->Arg(4)->Arg(8)->Arg(16)->Arg(32)->Unit(benchmark::kMillisecond);
 
 BENCHMARK_MAIN();
