@@ -5,7 +5,7 @@
 # /usr/bin/time -v (wall time, peak RSS), 1 and 2 threads, beside the floors
 # measured in the same run: ogr2ogr of the network layer (read + write the
 # same features), ogr2ogr of everything the run wrote (its GeoPackage, after
-# the first 2-thread run of each case and selection), reading the forcing
+# the 2-thread runs of each case and selection), reading the forcing
 # one reach at a time (netCDF-C), and a memory copy of the bytes the kernel
 # and the series move. Prints a markdown table, the fitted scaling exponent
 # and the thread speed-up. The I/O floor is GDAL copying the input layer and
