@@ -25,14 +25,12 @@ std::vector<double> storm(std::size_t n, double dt) {
   return q;
 }
 
-void routeKernel(benchmark::State& state, Method method, Scheme scheme, bool table) {
+/// Routes the benchmark reach (200 km, a 36 h storm over 30 days hourly)
+/// with `opt`, counting cell updates.
+void routeBenchmarkReach(benchmark::State& state, const RouteOptions& opt) {
   const double dt = 3600;
   const std::vector<double> in = storm(720, dt);  // 30 days hourly
   const ReachSpec reach{hydraulics::Section::trapezoid(25, 2, 0.035, 0.0008), 200000, 12 * 3600.0, 0.2};
-  RouteOptions opt;
-  opt.method = method;
-  opt.scheme = scheme;
-  opt.use_rating_table = table;
   ReachRouter router;
   std::vector<double> out;
   std::uint64_t cells = 0;
@@ -45,6 +43,14 @@ void routeKernel(benchmark::State& state, Method method, Scheme scheme, bool tab
   }
   state.counters["cell_updates_per_s"] =
       benchmark::Counter(static_cast<double>(cells), benchmark::Counter::kIsRate);
+}
+
+void routeKernel(benchmark::State& state, Method method, Scheme scheme, bool table) {
+  RouteOptions opt;
+  opt.method = method;
+  opt.scheme = scheme;
+  opt.use_rating_table = table;
+  routeBenchmarkReach(state, opt);
 }
 
 // Building the benchmark reach's rating table (Q_hi = 1.5 × the 415 m³/s
@@ -151,28 +157,15 @@ void shortReachTables(benchmark::State& state, bool five_decades) {
                                                           benchmark::Counter::kInvert);
 }
 
-
 // The conservative `vpmc` cell on a forced grid of m sub-reaches and
 // 64 / m sub-steps (the same cell updates per route), on the benchmark
 // reach: along diagonals a pass holds at most m independent cells, so this
 // shows what a cell costs with one, two, ... dependency chains to overlap.
 void vpmcGridShape(benchmark::State& state) {
-  const double dt = 3600;
-  const std::vector<double> in = storm(720, dt);
-  const ReachSpec reach{hydraulics::Section::trapezoid(25, 2, 0.035, 0.0008), 200000, 12 * 3600.0, 0.2};
   RouteOptions opt;
   opt.subreaches = static_cast<std::uint32_t>(state.range(0));
   opt.substeps = 64 / opt.subreaches;
-  ReachRouter router;
-  std::vector<double> out;
-  std::uint64_t cells = 0;
-  for (auto _ : state) {
-    const ReachRun r = router.route(reach, in, {}, dt, opt, out);
-    benchmark::DoNotOptimize(out.data());
-    cells += std::uint64_t(r.numerics.subreaches) * r.numerics.substeps * (in.size() - 1);
-  }
-  state.counters["cell_updates_per_s"] =
-      benchmark::Counter(static_cast<double>(cells), benchmark::Counter::kIsRate);
+  routeBenchmarkReach(state, opt);
 }
 
 }  // namespace
