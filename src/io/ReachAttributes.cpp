@@ -50,19 +50,20 @@ std::string fieldList(const OGRFeatureDefn& defn) {
 
 ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config,
                                  InputLocation where, bool derive_attributes)
-    : config_(config),
-      length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0),
+    : length_scale_(config.units == units::System::USCustomary ? units::kMetresPerFoot : 1.0),
       discharge_scale_(config.units == units::System::USCustomary ? units::kCubicMetresPerCubicFoot
                                                                   : 1.0),
       derive_attributes_(derive_attributes) {
-  for (auto name : kFieldNames)
-    index_[std::string(name)] = defn.GetFieldIndex(config.field(name).name.c_str());
-  auto usable = [&](std::string_view n) { return hasField(n) || config.field(n).hasDefault(); };
-  auto require = [&](std::string_view n, bool ok) {
+  for (std::size_t i = 0; i < fields_.size(); ++i) {
+    const FieldSpec& spec = config.field(kFieldNames[i]);
+    fields_[i] = Field{defn.GetFieldIndex(spec.name.c_str()), &spec};
+  }
+  auto usable = [&](FieldKey n) { return hasField(n) || field(n).spec->hasDefault(); };
+  auto require = [&](FieldKey n, bool ok) {
     if (ok) return;
-    where.field = config.field(n).name;
+    where.field = field(n).spec->name;
     throw InputError(where, fmt::format("required field not found (attribute {}); fields present: {}",
-                                        n, fieldList(defn)));
+                                        n.name(), fieldList(defn)));
   };
   require("reach_id", hasField("reach_id"));
   require("slope", derive_attributes_ || usable("slope") || (hasField("up_elevation") && hasField("down_elevation")));
@@ -70,15 +71,11 @@ ReachAttributes::ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig
   require("bottom_width", derive_attributes_ || usable("bottom_width") || usable("shape"));
 }
 
-bool ReachAttributes::hasField(std::string_view canonical) const {
-  auto it = index_.find(canonical);
-  return it != index_.end() && it->second >= 0;
-}
-
 ReachAttributes::Value ReachAttributes::text(const OGRFeature& f,
-                                             std::string_view canonical) const {
+                                             FieldKey canonical) const {
   Value v;
-  const int idx = index_.find(canonical)->second;
+  const Field& fld = field(canonical);
+  const int idx = fld.index;
   if (idx >= 0 && f.IsFieldSetAndNotNull(idx)) {
     const OGRFieldType type = f.GetFieldDefnRef(idx)->GetType();
     if (type == OFTInteger || type == OFTInteger64) {
@@ -95,19 +92,19 @@ ReachAttributes::Value ReachAttributes::text(const OGRFeature& f,
     if (!v.text.empty()) v.state = Value::State::Ok;
     return v;
   }
-  if (const auto& d = config_.field(canonical).default_text) {
+  if (const auto& d = fld.spec->default_text) {
     v.text = *d;
     v.state = Value::State::Ok;
   }
   return v;
 }
 
-ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_view canonical,
+ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, FieldKey canonical,
                                                double scale, const ReachRecord& r,
                                                ProblemList& problems) const {
   Value v;
-  const int idx = index_.find(canonical)->second;
-  const FieldSpec& spec = config_.field(canonical);
+  const int idx = field(canonical).index;
+  const FieldSpec& spec = *field(canonical).spec;
   if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) {
     if (spec.default_number) {
       v.number = *spec.default_number * scale;
@@ -130,7 +127,7 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, std::string_
   if (!ok || !std::isfinite(d)) {
     problems.push_back(reachProblem(
         ProblemCode::InvalidAttribute, r,
-        fmt::format("field {} ({}): \"{}\" is not a finite number", spec.name, canonical,
+        fmt::format("field {} ({}): \"{}\" is not a finite number", spec.name, canonical.name(),
                     f.GetFieldAsString(idx))));
     v.state = Value::State::Invalid;
     return v;
@@ -145,7 +142,7 @@ bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& pro
   if (id.state != Value::State::Ok) {
     problems.push_back(reachProblem(ProblemCode::MissingAttribute, r,
                                      fmt::format("field {} (reach_id) is empty; feature skipped",
-                                                 config_.field("reach_id").name)));
+                                                 field("reach_id").spec->name)));
     return false;
   }
   r.id = id.text;
@@ -153,7 +150,7 @@ bool ReachAttributes::read(const OGRFeature& f, ReachRecord& r, ProblemList& pro
     const Value to = text(f, "to_reach");
     if (to.state == Value::State::Ok) r.to_reach = to.text;
   }
-  if (hasField("lake_id") || config_.field("lake_id").default_text) {
+  if (hasField("lake_id") || field("lake_id").spec->default_text) {
     const Value lake = text(f, "lake_id");
     if (lake.state == Value::State::Ok) r.lake_id = lake.text;
   }
@@ -177,7 +174,7 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
   if (!(len.number > 0)) {
     problems.push_back(reachProblem(ProblemCode::InvalidAttribute, r,
                                      fmt::format("field {} (length) must be > 0, got {}",
-                                                 config_.field("length").name, len.number)));
+                                                 field("length").spec->name, len.number)));
     return;
   }
   r.length_m = len.number;
@@ -188,13 +185,13 @@ void ReachAttributes::readLength(const OGRFeature& f, ReachRecord& r,
         fmt::format("length field says {:.1f} m but the line measures {:.1f} m", len.number, g)));
 }
 
-ReachAttributes::Value ReachAttributes::derivable(const OGRFeature& f, std::string_view canonical,
+ReachAttributes::Value ReachAttributes::derivable(const OGRFeature& f, FieldKey canonical,
                                                   double scale, const ReachRecord& r,
                                                   ProblemList& problems) const {
   Value v = number(f, canonical, scale, r, problems);
   if (derive_attributes_ && v.state == Value::State::Ok) {
     // The config's default is left to the caller, who derives a better value.
-    const int idx = index_.find(canonical)->second;
+    const int idx = field(canonical).index;
     if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) v = Value{};
   }
   return v;
@@ -239,7 +236,7 @@ void ReachAttributes::readSection(const OGRFeature& f, ReachRecord& r,
     problems.push_back(reachProblem(
         ProblemCode::InvalidAttribute, r,
         fmt::format("field {} (shape): \"{}\" is not trapezoid or circle",
-                    config_.field("shape").name, shape.text)));
+                    field("shape").spec->name, shape.text)));
   }
   sec.manning_n = derivable(f, "manning_n", 1.0, r, problems).number;
   if (!derive_attributes_) requireValue(sec.manning_n, "manning_n", r, problems);

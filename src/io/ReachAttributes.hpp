@@ -6,8 +6,11 @@
 
 #include <ogrsf_frmts.h>
 
-#include <map>
+#include <array>
+#include <cstddef>
+#include <iterator>
 #include <string>
+#include <string_view>
 
 #include "reachwise/Error.hpp"
 #include "reachwise/io/NetworkConfig.hpp"
@@ -16,6 +19,25 @@
 #include "reachwise/network/ReachProblem.hpp"
 
 namespace reachwise::io::detail {
+
+/// A canonical attribute name (kFieldNames), resolved to its place in that
+/// list when the program is compiled: reading a feature looks no field up
+/// by name (a national layer has a million features of ~15 fields each).
+/// A name not in the list does not compile.
+class FieldKey {
+public:
+  consteval FieldKey(const char* canonical) : slot_(slotOf(canonical)) {}
+  std::size_t slot() const noexcept { return slot_; }
+  std::string_view name() const noexcept { return kFieldNames[slot_]; }
+
+private:
+  static consteval std::size_t slotOf(std::string_view canonical) {
+    for (std::size_t i = 0; i < std::size(kFieldNames); ++i)
+      if (kFieldNames[i] == canonical) return i;
+    throw "not a canonical attribute name (kFieldNames)";
+  }
+  std::size_t slot_;
+};
 
 class ReachAttributes {
 public:
@@ -26,7 +48,7 @@ public:
                   bool derive_attributes = false);
 
   /// True when the layer has the field configured for `canonical`.
-  bool hasField(std::string_view canonical) const;
+  bool hasField(FieldKey canonical) const { return fields_[canonical.slot()].index >= 0; }
 
   /// Fills id, to_reach and the numeric attributes of `r` (r.fid and
   /// r.line must be set; length_m needs r.geometry_length_m). Returns false
@@ -39,13 +61,13 @@ private:
     double number = network::ReachRecord::kUnset;
     std::string text;
   };
-  Value number(const OGRFeature& f, std::string_view canonical, double scale,
+  Value number(const OGRFeature& f, FieldKey canonical, double scale,
                const network::ReachRecord& r, network::ProblemList& problems) const;
   /// number(), but with derive_attributes a value from the config's
   /// default (no value in the layer) counts as missing.
-  Value derivable(const OGRFeature& f, std::string_view canonical, double scale,
+  Value derivable(const OGRFeature& f, FieldKey canonical, double scale,
                   const network::ReachRecord& r, network::ProblemList& problems) const;
-  Value text(const OGRFeature& f, std::string_view canonical) const;
+  Value text(const OGRFeature& f, FieldKey canonical) const;
   void readSection(const OGRFeature& f, network::ReachRecord& r,
                    network::ProblemList& problems) const;
   void readTwoStage(const OGRFeature& f, network::ReachRecord& r,
@@ -57,10 +79,16 @@ private:
   void readRouting(const OGRFeature& f, network::ReachRecord& r,
                    network::ProblemList& problems) const;
 
-  const NetworkConfig& config_;
-  std::map<std::string, int, std::less<>> index_;  ///< canonical name -> field index, -1 absent
-  double length_scale_ = 1.0;                      ///< metres per unit of widths/depths/lengths
-  double discharge_scale_ = 1.0;                   ///< m^3/s per unit of discharge (base flow)
+  /// A canonical attribute's field in the layer and its configuration.
+  struct Field {
+    int index = -1;                   ///< in the layer; -1: absent
+    const FieldSpec* spec = nullptr;  ///< the configuration's (it outlives this reader)
+  };
+  const Field& field(FieldKey canonical) const { return fields_[canonical.slot()]; }
+
+  std::array<Field, std::size(kFieldNames)> fields_;  ///< by FieldKey::slot
+  double length_scale_ = 1.0;     ///< metres per unit of widths/depths/lengths
+  double discharge_scale_ = 1.0;  ///< m^3/s per unit of discharge (base flow)
   bool derive_attributes_ = false;
 };
 
