@@ -103,8 +103,9 @@ ReachAttributes::Value ReachAttributes::number(const OGRFeature& f, FieldKey can
                                                double scale, const ReachRecord& r,
                                                ProblemList& problems) const {
   Value v;
-  const int idx = field(canonical).index;
-  const FieldSpec& spec = *field(canonical).spec;
+  const Field& fld = field(canonical);
+  const int idx = fld.index;
+  const FieldSpec& spec = *fld.spec;
   if (idx < 0 || !f.IsFieldSetAndNotNull(idx)) {
     if (spec.default_number) {
       v.number = *spec.default_number * scale;

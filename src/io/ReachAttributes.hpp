@@ -43,7 +43,8 @@ class ReachAttributes {
 public:
   /// Looks the configured fields up in the layer. Throws InputError (with
   /// `where`'s file and layer) when a required field is absent and has no default.
-  /// `derive_attributes`: see ReadOptions::derive_attributes.
+  /// `derive_attributes`: see ReadOptions::derive_attributes. `config`
+  /// must outlive the reader (its field entries are kept by address).
   ReachAttributes(const OGRFeatureDefn& defn, const NetworkConfig& config, InputLocation where,
                   bool derive_attributes = false);
 
