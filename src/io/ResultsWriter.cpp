@@ -697,6 +697,7 @@ void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary
   results::convertRow(row, reachColumnsFor(ensemble), options_.units);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+  const std::size_t fid = i + 1;  // the id plan order gives
   const auto vertices = results::flowLine(table_, plan_, i);
   if (vertices.size() >= 2) {
     auto line = lineOf(vertices);
@@ -704,12 +705,12 @@ void GpkgResultsWriter::writeReachRow(std::size_t i, const routing::ReachSummary
     if (packed_indexes_) {
       OGREnvelope box;
       line.getEnvelope(&box);
-      packed_indexes_->reaches.push_back(rtreeBox(static_cast<std::int64_t>(i + 1), box.MinX, box.MaxX, box.MinY, box.MaxY));
+      packed_indexes_->reaches.push_back(rtreeBox(static_cast<std::int64_t>(fid), box.MinX, box.MaxX, box.MinY, box.MaxY));
     }
   } else {
     f.SetGeometryDirectly(nullptr);
   }
-  insertAt(*reaches_layer_, f, i + 1);   // the id plan order gives
+  insertAt(*reaches_layer_, f, fid);
   reach_written_[i] = true;
 }
 
@@ -731,15 +732,15 @@ void GpkgResultsWriter::writeNodeRow(std::size_t position, const routing::NodeSu
   results::convertRow(row, results::nodeColumns(), options_.units);
   const int offset = timeOffsetMin(axis_.utc_offset_min);
   for (std::size_t c = 0; c < row.size(); ++c) setValue(f, static_cast<int>(c), row[c], offset);
+  const std::size_t fid = position + 1;
   if (std::isfinite(node.x) && std::isfinite(node.y)) {
     OGRPoint point(node.x, node.y);
     f.SetGeometry(&point);
-    if (packed_indexes_)
-      packed_indexes_->nodes.push_back(rtreeBox(static_cast<std::int64_t>(position + 1), node.x, node.x, node.y, node.y));
+    if (packed_indexes_) packed_indexes_->nodes.push_back(rtreeBox(static_cast<std::int64_t>(fid), node.x, node.x, node.y, node.y));
   } else {
     f.SetGeometryDirectly(nullptr);
   }
-  insertAt(*nodes_layer_, f, position + 1);
+  insertAt(*nodes_layer_, f, fid);
 }
 
 void GpkgResultsWriter::writeBranchRows(std::size_t first_branch, const routing::NodeSummary& node) {
